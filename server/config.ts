@@ -1,0 +1,52 @@
+import { z } from 'zod';
+
+const Env = z.object({
+  NODE_ENV: z.enum(['development', 'production', 'test']).default('development'),
+  HOST: z.string().default('127.0.0.1'),
+  PORT: z.coerce.number().int().min(0).max(65535).default(5170),
+  DATABASE_URL: z.string().url().optional(),
+  PGPORT_LOCAL: z.coerce.number().int().min(1024).max(65535).default(54329),
+  JWT_SECRET: z.string().min(32).optional(),
+  DRIFTBENCH_DEMO: z.enum(['0', '1']).default('1'),
+  DRIFTBENCH_DATA: z.string().default('.data'),
+  DRIFTBENCH_SIMULATORS: z.enum(['0', '1']).default('1'),
+  LOG_LEVEL: z.enum(['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent']).default('info'),
+  LOGIN_RATE_LIMIT: z.coerce.number().int().min(1).default(20),
+});
+
+export interface Config {
+  readonly env: 'development' | 'production' | 'test';
+  readonly host: string;
+  readonly port: number;
+  readonly databaseUrl?: string;
+  readonly localPgPort: number;
+  readonly jwtSecret?: string;
+  readonly demo: boolean;
+  readonly dataDir: string;
+  readonly simulators: boolean;
+  readonly logLevel: string;
+  readonly loginRateLimit: number;
+}
+
+/** Parses the environment once into a typed, frozen configuration. */
+export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
+  const parsed = Env.safeParse(env);
+  if (!parsed.success) {
+    const lines = parsed.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`);
+    throw new Error(`Invalid environment:\n${lines.join('\n')}`);
+  }
+  const e = parsed.data;
+  return Object.freeze({
+    env: e.NODE_ENV,
+    host: e.HOST,
+    port: e.PORT,
+    databaseUrl: e.DATABASE_URL,
+    localPgPort: e.PGPORT_LOCAL,
+    jwtSecret: e.JWT_SECRET,
+    demo: e.DRIFTBENCH_DEMO === '1',
+    dataDir: e.DRIFTBENCH_DATA,
+    simulators: e.DRIFTBENCH_SIMULATORS === '1',
+    logLevel: e.LOG_LEVEL,
+    loginRateLimit: e.LOGIN_RATE_LIMIT,
+  });
+}

@@ -1,0 +1,68 @@
+import http from 'node:http';
+import path from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { pino, type Logger } from 'pino';
+import { createApp } from './app.js';
+import { prepareDatabase } from './db/prepare.js';
+import type { Database } from './db/connection.js';
+import { routeUpgrades, type UpgradeHandler } from './ws/upgrade.js';
+
+export const PROJECT_ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
+
+export interface ServerOptions {
+  databaseUrl: string;
+  jwtSecret: string;
+  host?: string;
+  port?: number;
+  demo?: boolean;
+  clientDir?: string;
+  simulators?: boolean;
+  loginRateLimit?: number;
+  log?: Logger;
+}
+
+export interface RunningServer {
+  url: string;
+  port: number;
+  db: Database;
+  server: http.Server;
+  close(): Promise<void>;
+}
+
+/** Prepares the database, builds the app and WebSocket endpoints, and listens. */
+export async function startServer(opts: ServerOptions): Promise<RunningServer> {
+  const log = opts.log ?? pino({ level: 'info' });
+  const db = await prepareDatabase(opts.databaseUrl, { demo: opts.demo ?? false, log });
+  const app = createApp({ db, jwtSecret: opts.jwtSecret, log, clientDir: opts.clientDir, loginRateLimit: opts.loginRateLimit });
+  const server = http.createServer(app);
+
+  const upgrades: UpgradeHandler[] = [];
+  if (opts.simulators ?? true) {
+    const { createSimulatorHub } = await import('../simulators/server.js');
+    upgrades.push(createSimulatorHub());
+  }
+  server.on('upgrade', routeUpgrades(upgrades));
+
+  await new Promise<void>((resolve, reject) => {
+    server.once('error', reject);
+    server.listen(opts.port ?? 0, opts.host ?? '127.0.0.1', () => resolve());
+  });
+  const addr = server.address();
+  const port = typeof addr === 'object' && addr ? addr.port : 0;
+  const host = opts.host ?? '127.0.0.1';
+  let closed = false;
+  return {
+    url: `http://${host}:${port}`,
+    port,
+    db,
+    server,
+    async close() {
+      if (closed) return;
+      closed = true;
+      await Promise.allSettled(upgrades.map((u) => u.close()));
+      server.closeAllConnections();
+      await new Promise<void>((resolve) => server.close(() => resolve()));
+      await db.close();
+    },
+  };
+}

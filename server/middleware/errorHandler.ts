@@ -1,0 +1,27 @@
+import type { NextFunction, Request, Response } from 'express';
+import type { Logger } from 'pino';
+import { AppError } from '../errors.js';
+
+/** The last middleware: maps AppErrors to the error envelope; anything else is logged and a generic 500. */
+export function errorHandler(log: Logger) {
+  // Express recognises error middleware by its four parameters.
+  return (err: unknown, req: Request, res: Response, _next: NextFunction) => {
+    if (err instanceof AppError) {
+      res.status(err.status).json({ error: { code: err.code, message: err.message, details: err.details } });
+      return;
+    }
+    const e = err as { type?: string; status?: number; message?: string };
+    // body-parser errors: malformed JSON or an oversized body.
+    if (e?.type === 'entity.parse.failed') {
+      res.status(400).json({ error: { code: 'bad-json', message: 'The request body is not valid JSON.' } });
+      return;
+    }
+    if (e?.type === 'entity.too.large') {
+      res.status(413).json({ error: { code: 'too-large', message: 'The request body is too large.' } });
+      return;
+    }
+    log.error({ err, method: req.method, url: req.originalUrl }, 'unhandled error');
+    if (res.headersSent) return;
+    res.status(500).json({ error: { code: 'internal', message: 'Something went wrong on the server. It has been logged.' } });
+  };
+}

@@ -1,0 +1,28 @@
+import { Umzug, SequelizeStorage } from 'umzug';
+import type { Sequelize, QueryInterface } from 'sequelize';
+import * as m0001 from './20261201-0001-initial.js';
+
+type Step = { up(p: { context: QueryInterface }): Promise<void>; down(p: { context: QueryInterface }): Promise<void> };
+
+/** Every migration in order. A migration that has landed is never edited: add a new one. */
+const MIGRATIONS: Array<[string, Step]> = [['20261201-0001-initial', m0001]];
+
+/** Builds the migrator for a Sequelize connection (state kept in the `sequelize_meta` table). */
+export function migrator(sequelize: Sequelize) {
+  return new Umzug({
+    migrations: MIGRATIONS.map(([name, step]) => ({
+      name,
+      up: ({ context }) => step.up({ context }),
+      down: ({ context }) => step.down({ context }),
+    })),
+    context: sequelize.getQueryInterface(),
+    storage: new SequelizeStorage({ sequelize, tableName: 'sequelize_meta' }),
+    logger: undefined,
+  });
+}
+
+/** Applies every pending migration; returns the names applied. */
+export async function migrate(sequelize: Sequelize): Promise<string[]> {
+  const done = await migrator(sequelize).up();
+  return done.map((m) => m.name);
+}

@@ -1,0 +1,27 @@
+import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+
+/** One audited action: role changes, account changes, approvals. Never updated or deleted. */
+export class AuditEvent extends Model {
+  declare id: CreationOptional<number>;
+  declare actorId: number | null;
+  declare action: string;
+  declare subjectType: string;
+  declare subjectId: number | null;
+  declare details: unknown;
+  declare createdAt: CreationOptional<Date>;
+
+  static initModel(sequelize: Sequelize): void {
+    AuditEvent.init(
+      {
+        id: { type: DataTypes.BIGINT, primaryKey: true, autoIncrement: true },
+        actorId: DataTypes.INTEGER,
+        action: { type: DataTypes.STRING(60), allowNull: false },
+        subjectType: { type: DataTypes.STRING(40), allowNull: false },
+        subjectId: DataTypes.INTEGER,
+        details: DataTypes.JSONB,
+        createdAt: DataTypes.DATE,
+      },
+      { sequelize, tableName: 'audit_events', underscored: true, updatedAt: false },
+    );
+  }
+}

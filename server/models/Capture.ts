@@ -1,0 +1,67 @@
+import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+
+export type CaptureState = 'open' | 'finished' | 'aborted';
+
+/** One DUT measured at one checkpoint: its identity, conditions and (once finished) its cached summary. */
+export class Capture extends Model {
+  declare id: CreationOptional<number>;
+  declare dutId: number;
+  declare checkpointId: number;
+  declare instrumentId: number | null;
+  declare referenceId: number | null;
+  declare operatorId: number | null;
+  declare quantity: 'frequency' | 'acceleration' | 'voltage' | 'counts';
+  declare unit: string;
+  declare nominal: number | null;
+  declare gateTime: number;
+  declare deadTime: number | null;
+  declare ambientC: number | null;
+  declare orientation: string | null;
+  declare notes: string | null;
+  declare tags: CreationOptional<string[]>;
+  declare referenceOffset: number | null;
+  declare referenceUncertainty: number | null;
+  declare linkProfile: unknown;
+  declare state: CreationOptional<CaptureState>;
+  declare startedAt: CreationOptional<Date>;
+  declare endedAt: Date | null;
+  declare readingCount: CreationOptional<number>;
+  declare highestSeq: CreationOptional<number>;
+  declare summary: unknown;
+  declare createdAt: CreationOptional<Date>;
+  declare updatedAt: CreationOptional<Date>;
+
+  static initModel(sequelize: Sequelize): void {
+    Capture.init(
+      {
+        id: { type: DataTypes.INTEGER, primaryKey: true, autoIncrement: true },
+        dutId: { type: DataTypes.INTEGER, allowNull: false },
+        checkpointId: { type: DataTypes.INTEGER, allowNull: false },
+        instrumentId: DataTypes.INTEGER,
+        referenceId: DataTypes.INTEGER,
+        operatorId: DataTypes.INTEGER,
+        quantity: { type: DataTypes.STRING(20), allowNull: false },
+        unit: { type: DataTypes.STRING(20), allowNull: false },
+        nominal: DataTypes.DOUBLE,
+        gateTime: { type: DataTypes.DOUBLE, allowNull: false },
+        deadTime: DataTypes.DOUBLE,
+        ambientC: DataTypes.DOUBLE,
+        orientation: DataTypes.STRING(40),
+        notes: DataTypes.TEXT,
+        tags: { type: DataTypes.ARRAY(DataTypes.STRING(60)), allowNull: false, defaultValue: [] },
+        referenceOffset: DataTypes.DOUBLE,
+        referenceUncertainty: DataTypes.DOUBLE,
+        linkProfile: DataTypes.JSONB,
+        state: { type: DataTypes.STRING(20), allowNull: false, defaultValue: 'open' },
+        startedAt: { type: DataTypes.DATE, allowNull: false, defaultValue: DataTypes.NOW },
+        endedAt: DataTypes.DATE,
+        readingCount: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
+        highestSeq: { type: DataTypes.INTEGER, allowNull: false, defaultValue: -1 },
+        summary: DataTypes.JSONB,
+        createdAt: DataTypes.DATE,
+        updatedAt: DataTypes.DATE,
+      },
+      { sequelize, tableName: 'captures', underscored: true },
+    );
+  }
+}

@@ -1,0 +1,32 @@
+import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+import type { Exposure } from '../../shared/protocol/api.js';
+
+/** A point in a study at which every DUT is captured (baseline, after exposure 1, …). */
+export class Checkpoint extends Model {
+  declare id: CreationOptional<number>;
+  declare studyId: number;
+  declare name: string;
+  declare position: number;
+  declare exposure: Exposure | null;
+  declare createdAt: CreationOptional<Date>;
+  declare updatedAt: CreationOptional<Date>;
+
+  toPublic() {
+    return { id: this.id, studyId: this.studyId, name: this.name, order: this.position, exposure: this.exposure };
+  }
+
+  static initModel(sequelize: Sequelize): void {
+    Checkpoint.init(
+      {
+        id: { type: DataTypes.INTEGER, primaryKey: true, autoIncrement: true },
+        studyId: { type: DataTypes.INTEGER, allowNull: false },
+        name: { type: DataTypes.STRING(200), allowNull: false },
+        position: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
+        exposure: DataTypes.JSONB,
+        createdAt: DataTypes.DATE,
+        updatedAt: DataTypes.DATE,
+      },
+      { sequelize, tableName: 'checkpoints', underscored: true },
+    );
+  }
+}

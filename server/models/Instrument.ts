@@ -1,0 +1,34 @@
+import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+
+export class Instrument extends Model {
+  declare id: CreationOptional<number>;
+  declare name: string;
+  declare kind: 'counter' | 'spi-bridge' | 'reference' | 'other';
+  declare maker: string | null;
+  declare model: string | null;
+  declare serial: string | null;
+  declare calibrationDue: string | null;
+  declare notes: string | null;
+  declare linkProfile: unknown;
+  declare createdAt: CreationOptional<Date>;
+  declare updatedAt: CreationOptional<Date>;
+
+  static initModel(sequelize: Sequelize): void {
+    Instrument.init(
+      {
+        id: { type: DataTypes.INTEGER, primaryKey: true, autoIncrement: true },
+        name: { type: DataTypes.STRING(120), allowNull: false },
+        kind: { type: DataTypes.STRING(20), allowNull: false },
+        maker: DataTypes.STRING(120),
+        model: DataTypes.STRING(120),
+        serial: DataTypes.STRING(120),
+        calibrationDue: DataTypes.DATEONLY,
+        notes: DataTypes.TEXT,
+        linkProfile: DataTypes.JSONB,
+        createdAt: DataTypes.DATE,
+        updatedAt: DataTypes.DATE,
+      },
+      { sequelize, tableName: 'instruments', underscored: true },
+    );
+  }
+}

@@ -1,0 +1,33 @@
+import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+
+/** A frequency reference (e.g. a GPS-disciplined 10 MHz) whose fractional offset and uncertainty are known. */
+export class Reference extends Model {
+  declare id: CreationOptional<number>;
+  declare name: string;
+  declare nominalHz: number;
+  declare fractionalOffset: number;
+  declare standardUncertainty: number;
+  declare verifiedBy: string | null;
+  declare verifiedAt: string | null;
+  declare instrumentId: number | null;
+  declare createdAt: CreationOptional<Date>;
+  declare updatedAt: CreationOptional<Date>;
+
+  static initModel(sequelize: Sequelize): void {
+    Reference.init(
+      {
+        id: { type: DataTypes.INTEGER, primaryKey: true, autoIncrement: true },
+        name: { type: DataTypes.STRING(120), allowNull: false },
+        nominalHz: { type: DataTypes.DOUBLE, allowNull: false },
+        fractionalOffset: { type: DataTypes.DOUBLE, allowNull: false, defaultValue: 0 },
+        standardUncertainty: { type: DataTypes.DOUBLE, allowNull: false },
+        verifiedBy: DataTypes.TEXT,
+        verifiedAt: DataTypes.DATEONLY,
+        instrumentId: DataTypes.INTEGER,
+        createdAt: DataTypes.DATE,
+        updatedAt: DataTypes.DATE,
+      },
+      { sequelize, tableName: 'frequency_references', underscored: true },
+    );
+  }
+}

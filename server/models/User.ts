@@ -1,0 +1,44 @@
+import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+import type { Role } from '../../shared/protocol/roles.js';
+
+export class User extends Model {
+  declare id: CreationOptional<number>;
+  declare email: string;
+  declare name: string;
+  declare role: Role;
+  declare passwordHash: string;
+  declare active: CreationOptional<boolean>;
+  declare lastLoginAt: Date | null;
+  declare createdAt: CreationOptional<Date>;
+  declare updatedAt: CreationOptional<Date>;
+
+  /** The user as the API shows it: never the hash. */
+  toPublic() {
+    return {
+      id: this.id,
+      email: this.email,
+      name: this.name,
+      role: this.role,
+      active: this.active,
+      createdAt: this.createdAt,
+      lastLoginAt: this.lastLoginAt,
+    };
+  }
+
+  static initModel(sequelize: Sequelize): void {
+    User.init(
+      {
+        id: { type: DataTypes.INTEGER, primaryKey: true, autoIncrement: true },
+        email: { type: DataTypes.STRING(254), allowNull: false, unique: true },
+        name: { type: DataTypes.STRING(120), allowNull: false },
+        role: { type: DataTypes.STRING(20), allowNull: false },
+        passwordHash: { type: DataTypes.STRING(100), allowNull: false },
+        active: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: true },
+        lastLoginAt: { type: DataTypes.DATE, allowNull: true },
+        createdAt: DataTypes.DATE,
+        updatedAt: DataTypes.DATE,
+      },
+      { sequelize, tableName: 'users', underscored: true },
+    );
+  }
+}

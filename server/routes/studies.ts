@@ -1,0 +1,27 @@
+import { Router } from 'express';
+import { parse } from '../middleware/validate.js';
+import { authorize, currentUser } from '../middleware/auth.js';
+import { addCheckpoint, addDut, createStudy, getStudy, listStudies } from '../services/studies.js';
+import { CheckpointCreate, DutCreate, IdParam, StudyCreate } from '../../shared/protocol/api.js';
+
+export function studiesRouter(): Router {
+  const r = Router();
+  r.get('/', authorize('read'), async (_req, res) => {
+    res.json({ studies: await listStudies() });
+  });
+  r.get('/:id', authorize('read'), async (req, res) => {
+    res.json(await getStudy(parse(IdParam, req.params, 'id').id));
+  });
+  r.post('/', authorize('studies:plan'), async (req, res) => {
+    res.status(201).json(await createStudy(parse(StudyCreate, req.body), currentUser(req).id));
+  });
+  r.post('/:id/checkpoints', authorize('studies:plan'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.status(201).json(await addCheckpoint(id, parse(CheckpointCreate, req.body)));
+  });
+  r.post('/:id/duts', authorize('studies:plan'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.status(201).json(await addDut(id, parse(DutCreate, req.body)));
+  });
+  return r;
+}

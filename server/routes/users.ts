@@ -1,0 +1,21 @@
+import { Router } from 'express';
+import { parse } from '../middleware/validate.js';
+import { authorize, currentUser } from '../middleware/auth.js';
+import { createUser, listUsers, updateUser } from '../services/users.js';
+import { IdParam, UserCreate, UserPatch } from '../../shared/protocol/api.js';
+
+export function usersRouter(): Router {
+  const r = Router();
+  r.use(authorize('users:manage'));
+  r.get('/', async (_req, res) => {
+    res.json({ users: await listUsers() });
+  });
+  r.post('/', async (req, res) => {
+    res.status(201).json({ user: await createUser(parse(UserCreate, req.body), currentUser(req).id) });
+  });
+  r.patch('/:id', async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json({ user: await updateUser(id, parse(UserPatch, req.body), currentUser(req).id) });
+  });
+  return r;
+}

@@ -1,0 +1,83 @@
+import { fn, col } from 'sequelize';
+import { Study, Checkpoint, Dut } from '../models/index.js';
+import { NotFoundError } from '../errors.js';
+import type { CheckpointCreate, DutCreate, StudyCreate } from '../../shared/protocol/api.js';
+
+function studyPublic(s: Study) {
+  return {
+    id: s.id,
+    title: s.title,
+    process: s.process,
+    description: s.description,
+    status: s.status,
+    createdBy: s.createdBy,
+    createdAt: s.createdAt,
+    updatedAt: s.updatedAt,
+  };
+}
+
+export async function listStudies() {
+  const studies = await Study.findAll({ order: [['id', 'DESC']] });
+  const count = async (model: typeof Checkpoint | typeof Dut) => {
+    const rows = (await model.findAll({
+      attributes: ['studyId', [fn('COUNT', col('id')), 'n']],
+      group: ['studyId'],
+      raw: true,
+    })) as unknown as Array<{ studyId: number; n: string | number }>;
+    return new Map(rows.map((r) => [r.studyId, Number(r.n)]));
+  };
+  const [checkpoints, duts] = await Promise.all([count(Checkpoint), count(Dut)]);
+  return studies.map((s) => ({
+    ...studyPublic(s),
+    checkpointCount: checkpoints.get(s.id) ?? 0,
+    dutCount: duts.get(s.id) ?? 0,
+  }));
+}
+
+export async function getStudy(id: number) {
+  const study = await Study.findByPk(id);
+  if (!study) throw new NotFoundError('Study');
+  const [checkpoints, duts] = await Promise.all([
+    Checkpoint.findAll({ where: { studyId: id }, order: [['position', 'ASC'], ['id', 'ASC']] }),
+    Dut.findAll({ where: { studyId: id }, order: [['id', 'ASC']] }),
+  ]);
+  return { ...studyPublic(study), checkpoints: checkpoints.map((c) => c.toPublic()), duts: duts.map((d) => d.toPublic()) };
+}
+
+export async function createStudy(input: StudyCreate, actorId: number) {
+  const study = await Study.create({ ...input, createdBy: actorId });
+  return { ...studyPublic(study), checkpoints: [], duts: [] };
+}
+
+async function requireStudy(id: number): Promise<Study> {
+  const study = await Study.findByPk(id);
+  if (!study) throw new NotFoundError('Study');
+  return study;
+}
+
+export async function addCheckpoint(studyId: number, input: CheckpointCreate) {
+  await requireStudy(studyId);
+  let position = input.order;
+  if (position === undefined) {
+    const last = (await Checkpoint.max('position', { where: { studyId } })) as number | null;
+    position = last === null ? 0 : last + 1;
+  }
+  const cp = await Checkpoint.create({ studyId, name: input.name, position, exposure: input.exposure ?? null });
+  return cp.toPublic();
+}
+
+export async function addDut(studyId: number, input: DutCreate) {
+  await requireStudy(studyId);
+  const dut = await Dut.create({
+    studyId,
+    label: input.label,
+    kind: input.kind,
+    nominal: input.nominal,
+    unit: input.unit,
+    limitValue: input.limit,
+    limitUnit: input.limitUnit,
+    position: input.position ?? null,
+    serial: input.serial ?? null,
+  });
+  return dut.toPublic();
+}

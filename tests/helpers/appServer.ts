@@ -1,0 +1,28 @@
+import path from 'node:path';
+import { pino } from 'pino';
+import { startServer, PROJECT_ROOT, type RunningServer } from '../../server/index.js';
+import { createTestDatabase } from './db.js';
+import { TEST_JWT_SECRET } from './app.js';
+
+/** A whole Driftbench (API, built client, WebSocket endpoints) on a free port over a fresh seeded database. */
+export async function startTestServer(): Promise<{ url: string; server: RunningServer; stop(): Promise<void> }> {
+  const { url: databaseUrl, drop } = await createTestDatabase();
+  const server = await startServer({
+    databaseUrl,
+    jwtSecret: TEST_JWT_SECRET,
+    demo: true,
+    port: 0,
+    clientDir: path.join(PROJECT_ROOT, 'dist'),
+    simulators: true,
+    loginRateLimit: 1000,
+    log: pino({ level: 'silent' }),
+  });
+  return {
+    url: server.url,
+    server,
+    async stop() {
+      await server.close();
+      await drop();
+    },
+  };
+}
