@@ -12,6 +12,8 @@ import { usersRouter } from './routes/users.js';
 import { studiesRouter } from './routes/studies.js';
 import { labRouter } from './routes/lab.js';
 import { healthRouter } from './routes/health.js';
+import { capturesRouter, comparisonsRouter } from './routes/captures.js';
+import { silentHub, type LiveHub } from './ws/live.js';
 
 export interface AppContext {
   db: Database;
@@ -20,6 +22,8 @@ export interface AppContext {
   /** Folder of the built client; not served when absent. */
   clientDir?: string;
   loginRateLimit?: number;
+  /** Live fan-out to watchers; silent when nobody can watch (Supertest). */
+  hub?: LiveHub;
 }
 
 /** Builds the Express app: middleware order, routers, 404, error handler. No listen(), for Supertest. */
@@ -55,6 +59,8 @@ export function createApp(ctx: AppContext): Express {
   api.use('/users', usersRouter());
   api.use('/studies', studiesRouter());
   api.use(labRouter());
+  api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub));
+  api.use('/comparisons', comparisonsRouter(ctx.db.pool));
   api.use((req) => {
     throw new NotFoundError(`Route ${req.method} ${req.baseUrl}${req.path}`);
   });

@@ -6,6 +6,7 @@ import { createApp } from './app.js';
 import { prepareDatabase } from './db/prepare.js';
 import type { Database } from './db/connection.js';
 import { routeUpgrades, type UpgradeHandler } from './ws/upgrade.js';
+import { createLiveHub } from './ws/live.js';
 
 export const PROJECT_ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 
@@ -33,10 +34,11 @@ export interface RunningServer {
 export async function startServer(opts: ServerOptions): Promise<RunningServer> {
   const log = opts.log ?? pino({ level: 'info' });
   const db = await prepareDatabase(opts.databaseUrl, { demo: opts.demo ?? false, log });
-  const app = createApp({ db, jwtSecret: opts.jwtSecret, log, clientDir: opts.clientDir, loginRateLimit: opts.loginRateLimit });
+  const hub = createLiveHub(opts.jwtSecret);
+  const app = createApp({ db, jwtSecret: opts.jwtSecret, log, clientDir: opts.clientDir, loginRateLimit: opts.loginRateLimit, hub });
   const server = http.createServer(app);
 
-  const upgrades: UpgradeHandler[] = [];
+  const upgrades: UpgradeHandler[] = [hub];
   if (opts.simulators ?? true) {
     const { createSimulatorHub } = await import('../simulators/server.js');
     upgrades.push(createSimulatorHub());

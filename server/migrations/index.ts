@@ -1,19 +1,23 @@
 import { Umzug, SequelizeStorage } from 'umzug';
 import type { Sequelize, QueryInterface } from 'sequelize';
 import * as m0001 from './20261201-0001-initial.js';
+import * as m0002 from './20261201-0002-reading-tiles.js';
 
 type Step = { up(p: { context: QueryInterface }): Promise<void>; down(p: { context: QueryInterface }): Promise<void> };
 
 /** Every migration in order. A migration that has landed is never edited: add a new one. */
-const MIGRATIONS: Array<[string, Step]> = [['20261201-0001-initial', m0001]];
+const MIGRATIONS: Array<[string, Step]> = [
+  ['20261201-0001-initial', m0001],
+  ['20261201-0002-reading-tiles', m0002],
+];
 
 /** Builds the migrator for a Sequelize connection (state kept in the `sequelize_meta` table). */
 export function migrator(sequelize: Sequelize) {
-  return new Umzug({
+  return new Umzug<QueryInterface>({
     migrations: MIGRATIONS.map(([name, step]) => ({
       name,
-      up: ({ context }) => step.up({ context }),
-      down: ({ context }) => step.down({ context }),
+      up: ({ context }: { context: QueryInterface }) => step.up({ context }),
+      down: ({ context }: { context: QueryInterface }) => step.down({ context }),
     })),
     context: sequelize.getQueryInterface(),
     storage: new SequelizeStorage({ sequelize, tableName: 'sequelize_meta' }),

@@ -19,7 +19,7 @@ function studyPublic(s: Study) {
 export async function listStudies() {
   const studies = await Study.findAll({ order: [['id', 'DESC']] });
   const count = async (model: typeof Checkpoint | typeof Dut) => {
-    const rows = (await model.findAll({
+    const rows = (await (model as typeof Checkpoint).findAll({
       attributes: ['studyId', [fn('COUNT', col('id')), 'n']],
       group: ['studyId'],
       raw: true,

@@ -1,0 +1,90 @@
+import { Router } from 'express';
+import { z } from 'zod';
+import type pg from 'pg';
+import { parse } from '../middleware/validate.js';
+import { authorize, currentUser } from '../middleware/auth.js';
+import { CaptureCreate, CapturePatch, ReadingsQuery, AnalysisQuery, ComparisonQuery } from '../../shared/protocol/captures.js';
+import { IdParam } from '../../shared/protocol/api.js';
+import { createCapture, getCapture, listCaptures, patchCapture, requireCapture } from '../services/captures.js';
+import { ingestReadings } from '../services/ingest.js';
+import { finishCapture } from '../services/finish.js';
+import { readSeries } from '../services/readings.js';
+import { compareCaptures, summaryOf } from '../services/comparisons.js';
+import { preparedFor, stabilityOf } from '../services/captureAnalysis.js';
+import { Dut } from '../models/index.js';
+import type { LiveHub } from '../ws/live.js';
+
+const ListQuery = z.object({
+  studyId: z.coerce.number().int().positive().optional(),
+  dutId: z.coerce.number().int().positive().optional(),
+  checkpointId: z.coerce.number().int().positive().optional(),
+  state: z.enum(['open', 'finished', 'aborted']).optional(),
+  limit: z.coerce.number().int().min(1).max(1000).optional(),
+});
+
+export function capturesRouter(pool: pg.Pool, hub: LiveHub): Router {
+  const r = Router();
+  r.get('/', authorize('read'), async (req, res) => {
+    res.json({ captures: await listCaptures(parse(ListQuery, req.query, 'query')) });
+  });
+  r.post('/', authorize('captures:run'), async (req, res) => {
+    const capture = await createCapture(parse(CaptureCreate, req.body), currentUser(req));
+    hub.publishState(capture.id, 'open');
+    res.status(201).json(capture);
+  });
+  r.get('/:id', authorize('read'), async (req, res) => {
+    res.json(await getCapture(parse(IdParam, req.params, 'id').id));
+  });
+  r.patch('/:id', authorize('read'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await patchCapture(id, parse(CapturePatch, req.body), currentUser(req)));
+  });
+  r.post('/:id/readings', authorize('captures:run'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await ingestReadings(pool, hub, currentUser(req), id, req.body));
+  });
+  r.post('/:id/finish', authorize('captures:run'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await finishCapture(pool, hub, currentUser(req), id));
+  });
+  r.get('/:id/readings', authorize('read'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    const q = parse(ReadingsQuery, req.query, 'query');
+    const c = await requireCapture(id);
+    const out = await readSeries(pool, id, { ...q, finished: c.state !== 'open', highestSeq: c.highestSeq });
+    res.json(out);
+  });
+  r.get('/:id/analysis', authorize('read'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    const q = parse(AnalysisQuery, req.query, 'query');
+    const c = await requireCapture(id);
+    const dut = await Dut.findByPk(c.dutId);
+    const summary = await summaryOf(pool, c, dut);
+    const stability =
+      q.kind === 'oadev' && q.taus === 'octave' && !q.confidence && c.state !== 'open'
+        ? summary.stability
+        : stabilityOf(await preparedFor(pool, c), q.kind, q.taus, q.confidence);
+    res.json({
+      stats: summary.stats,
+      correction: summary.correction,
+      stability,
+      uncertainty: summary.uncertainty,
+      offsetPpm: summary.offsetPpm,
+      temperature: summary.temperature,
+      drift: summary.drift,
+      gaps: summary.gaps,
+      counts: summary.counts,
+      notes: summary.notes,
+    });
+  });
+  return r;
+}
+
+export function comparisonsRouter(pool: pg.Pool): Router {
+  const r = Router();
+  r.get('/', authorize('read'), async (req, res) => {
+    const q = parse(ComparisonQuery, req.query, 'query');
+    res.json(await compareCaptures(pool, q.before, q.after));
+  });
+  return r;
+}

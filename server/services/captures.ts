@@ -1,0 +1,140 @@
+import { Op } from 'sequelize';
+import { Capture, Checkpoint, Dut, Instrument, Reference, Study, User } from '../models/index.js';
+import { AppError, ForbiddenError, NotFoundError, ValidationError } from '../errors.js';
+import type { CaptureCreate, CapturePatch } from '../../shared/protocol/captures.js';
+import { canWriteCapture } from './ingest.js';
+
+/** The capture as the API shows it. */
+export function capturePublic(c: Capture) {
+  return {
+    id: c.id,
+    dutId: c.dutId,
+    checkpointId: c.checkpointId,
+    instrumentId: c.instrumentId,
+    referenceId: c.referenceId,
+    operatorId: c.operatorId,
+    quantity: c.quantity,
+    unit: c.unit,
+    nominal: c.nominal,
+    gateTime: c.gateTime,
+    deadTime: c.deadTime,
+    ambientC: c.ambientC,
+    orientation: c.orientation,
+    notes: c.notes,
+    tags: c.tags,
+    referenceOffset: c.referenceOffset,
+    referenceUncertainty: c.referenceUncertainty,
+    linkProfile: c.linkProfile ?? null,
+    state: c.state,
+    startedAt: c.startedAt,
+    endedAt: c.endedAt,
+    readingCount: c.readingCount,
+    highestSeq: c.highestSeq,
+    summary: c.summary ?? null,
+  };
+}
+
+/**
+ * Opens a capture bound to a DUT and a checkpoint of the same study, with the reference's offset
+ * and uncertainty copied as they are now (a later re-verification does not rewrite history).
+ */
+export async function createCapture(input: CaptureCreate, operator: User) {
+  const [dut, checkpoint] = await Promise.all([Dut.findByPk(input.dutId), Checkpoint.findByPk(input.checkpointId)]);
+  if (!dut) throw new ValidationError('dutId: no such DUT', [{ path: 'dutId', message: 'no such DUT' }]);
+  if (!checkpoint) throw new ValidationError('checkpointId: no such checkpoint', [{ path: 'checkpointId', message: 'no such checkpoint' }]);
+  if (dut.studyId !== checkpoint.studyId) {
+    throw new ValidationError('checkpointId: the checkpoint belongs to another study than the DUT', [
+      { path: 'checkpointId', message: 'belongs to another study than the DUT' },
+    ]);
+  }
+  const study = await Study.findByPk(dut.studyId);
+  if (study && (study.status === 'approved' || study.status === 'in-review')) {
+    throw new AppError(409, 'study-locked', `The study is ${study.status}: it takes no new captures.`);
+  }
+  if (input.instrumentId && !(await Instrument.findByPk(input.instrumentId))) {
+    throw new ValidationError('instrumentId: no such instrument', [{ path: 'instrumentId', message: 'no such instrument' }]);
+  }
+  let reference: Reference | null = null;
+  if (input.referenceId) {
+    reference = await Reference.findByPk(input.referenceId);
+    if (!reference) throw new ValidationError('referenceId: no such reference', [{ path: 'referenceId', message: 'no such reference' }]);
+  }
+  const capture = await Capture.create({
+    dutId: dut.id,
+    checkpointId: checkpoint.id,
+    instrumentId: input.instrumentId ?? null,
+    referenceId: reference?.id ?? null,
+    operatorId: operator.id,
+    quantity: input.quantity,
+    unit: input.unit,
+    nominal: input.nominal ?? (input.quantity === 'frequency' ? dut.nominal : null),
+    gateTime: input.gateTime,
+    deadTime: input.deadTime ?? null,
+    ambientC: input.ambientC ?? null,
+    orientation: input.orientation ?? null,
+    notes: input.notes ?? null,
+    tags: input.tags ?? [],
+    referenceOffset: reference?.fractionalOffset ?? null,
+    referenceUncertainty: reference?.standardUncertainty ?? null,
+    linkProfile: input.linkProfile ?? null,
+  });
+  return capturePublic(capture);
+}
+
+export async function requireCapture(id: number): Promise<Capture> {
+  const c = await Capture.findByPk(id);
+  if (!c) throw new NotFoundError('Capture');
+  return c;
+}
+
+/** Captures, newest first, optionally of one study, DUT, checkpoint or state. */
+export async function listCaptures(filter: { studyId?: number; dutId?: number; checkpointId?: number; state?: string; limit?: number }) {
+  const where: Record<string, unknown> = {};
+  if (filter.dutId) where.dutId = filter.dutId;
+  if (filter.checkpointId) where.checkpointId = filter.checkpointId;
+  if (filter.state) where.state = filter.state;
+  if (filter.studyId) {
+    const duts = await Dut.findAll({ where: { studyId: filter.studyId }, attributes: ['id'] });
+    where.dutId = { [Op.in]: duts.map((d) => d.id) };
+  }
+  const rows = await Capture.findAll({ where, order: [['id', 'DESC']], limit: filter.limit ?? 200 });
+  return rows.map((c) => {
+    const p = capturePublic(c);
+    // The list carries the verdict-relevant figures, not the whole stored summary.
+    return { ...p, summary: undefined };
+  });
+}
+
+/** A capture with the names a page needs to show its identity (study › checkpoint › DUT). */
+export async function getCapture(id: number) {
+  const c = await requireCapture(id);
+  const [dut, checkpoint, operator, instrument, reference] = await Promise.all([
+    Dut.findByPk(c.dutId),
+    Checkpoint.findByPk(c.checkpointId),
+    c.operatorId ? User.findByPk(c.operatorId) : null,
+    c.instrumentId ? Instrument.findByPk(c.instrumentId) : null,
+    c.referenceId ? Reference.findByPk(c.referenceId) : null,
+  ]);
+  const study = dut ? await Study.findByPk(dut.studyId) : null;
+  return {
+    ...capturePublic(c),
+    study: study ? { id: study.id, title: study.title, status: study.status } : null,
+    dut: dut?.toPublic() ?? null,
+    checkpoint: checkpoint?.toPublic() ?? null,
+    operator: operator ? { id: operator.id, name: operator.name } : null,
+    instrument: instrument ? { id: instrument.id, name: instrument.name } : null,
+    reference: reference ? { id: reference.id, name: reference.name } : null,
+  };
+}
+
+/** Notes, tags and ambient temperature may change after the fact; readings never do. */
+export async function patchCapture(id: number, patch: CapturePatch, user: User) {
+  const c = await requireCapture(id);
+  const tagger = user.role === 'admin' || user.role === 'lead' || user.role === 'engineer';
+  if (!tagger && !canWriteCapture(user, c.operatorId)) throw new ForbiddenError();
+  if (patch.notes !== undefined) c.notes = patch.notes;
+  if (patch.tags !== undefined) c.tags = patch.tags;
+  if (patch.ambientC !== undefined) c.ambientC = patch.ambientC;
+  await c.save();
+  return capturePublic(c);
+}

@@ -1,0 +1,50 @@
+import type pg from 'pg';
+import { Capture, Dut } from '../models/index.js';
+import { ForbiddenError, NotFoundError } from '../errors.js';
+import type { LiveHub } from '../ws/live.js';
+import type { User } from '../models/index.js';
+import { canWriteCapture } from './ingest.js';
+import { buildTiles, loadSeries } from './readings.js';
+import { prepare, reduce } from './captureAnalysis.js';
+import { capturePublic } from './captures.js';
+
+/**
+ * Closes a capture: from then on it takes no readings. Computes and caches its summary
+ * (statistics, correction, stability, uncertainty budget) and the chart tiles, once. Finishing a
+ * finished capture returns it unchanged.
+ */
+export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: User, id: number) {
+  const client = await pool.connect();
+  let changed = false;
+  try {
+    await client.query('BEGIN');
+    const lock = await client.query<{ state: string; operator_id: number | null }>(
+      'SELECT state, operator_id FROM captures WHERE id = $1 FOR UPDATE',
+      [id],
+    );
+    if (lock.rowCount === 0) throw new NotFoundError('Capture');
+    if (!canWriteCapture(user, lock.rows[0].operator_id)) throw new ForbiddenError('Only the capture\'s operator, a lead or an admin may finish it.');
+    if (lock.rows[0].state === 'open') {
+      const capture = (await Capture.findByPk(id))!;
+      const dut = await Dut.findByPk(capture.dutId);
+      const series = await loadSeries(client, id);
+      capture.state = 'finished';
+      const summary = reduce(capture, dut, prepare(capture, series));
+      await buildTiles(client, id, series);
+      await client.query(
+        `UPDATE captures SET state = 'finished', ended_at = now(), updated_at = now(), summary = $2::jsonb,
+           reading_count = $3, highest_seq = $4 WHERE id = $1`,
+        [id, JSON.stringify(summary), series.seq.length, series.seq.length ? series.seq[series.seq.length - 1] : -1],
+      );
+      changed = true;
+    }
+    await client.query('COMMIT');
+  } catch (err) {
+    await client.query('ROLLBACK').catch(() => {});
+    throw err;
+  } finally {
+    client.release();
+  }
+  if (changed) hub.publishState(id, 'finished');
+  return capturePublic((await Capture.findByPk(id))!);
+}

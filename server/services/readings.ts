@@ -1,0 +1,140 @@
+import type pg from 'pg';
+
+/** A capture's readings as typed arrays, in sequence order. */
+export interface Series {
+  seq: Int32Array;
+  t: Float64Array;
+  value: Float64Array;
+  flags: Int16Array;
+}
+
+export interface SeriesPoint {
+  seq: number;
+  t: number;
+  value: number;
+  flags?: number;
+}
+
+export const TILE_BASE = 64;
+const MAX_LEVEL = 20;
+
+/** Loads every reading of a capture (or a seq range) into typed arrays. */
+export async function loadSeries(pool: pg.Pool | pg.PoolClient, captureId: number, from = 0, to = 2_147_483_647): Promise<Series> {
+  const res = await pool.query<[number, number, number, number]>({
+    text: 'SELECT seq, t, value, flags FROM readings WHERE capture_id = $1 AND seq BETWEEN $2 AND $3 ORDER BY seq',
+    values: [captureId, from, to],
+    rowMode: 'array',
+  });
+  const n = res.rows.length;
+  const s: Series = { seq: new Int32Array(n), t: new Float64Array(n), value: new Float64Array(n), flags: new Int16Array(n) };
+  for (let i = 0; i < n; i++) {
+    const r = res.rows[i];
+    s.seq[i] = r[0];
+    s.t[i] = r[1];
+    s.value[i] = r[2];
+    s.flags[i] = r[3];
+  }
+  return s;
+}
+
+function toPoints(s: Series): SeriesPoint[] {
+  const out: SeriesPoint[] = new Array(s.seq.length);
+  for (let i = 0; i < s.seq.length; i++) {
+    out[i] = s.flags[i] ? { seq: s.seq[i], t: s.t[i], value: s.value[i], flags: s.flags[i] } : { seq: s.seq[i], t: s.t[i], value: s.value[i] };
+  }
+  return out;
+}
+
+/**
+ * Builds the min/max tiles of a finished capture: level L groups 64·2^L consecutive sequence
+ * numbers and keeps the lowest and the highest reading of each group.
+ */
+export async function buildTiles(client: pg.PoolClient | pg.Pool, captureId: number, s: Series): Promise<void> {
+  await client.query('DELETE FROM reading_tiles WHERE capture_id = $1', [captureId]);
+  const n = s.seq.length;
+  if (n === 0) return;
+  const maxSeq = s.seq[n - 1];
+  for (let level = 0; level <= MAX_LEVEL; level++) {
+    const size = TILE_BASE * 2 ** level;
+    let bucket = -1;
+    let lo = 0;
+    let hi = 0;
+    const rows: number[][] = [];
+    for (let i = 0; i < n; i++) {
+      const b = Math.floor(s.seq[i] / size);
+      if (b !== bucket) {
+        if (bucket >= 0) rows.push([bucket, s.seq[lo], s.t[lo], s.value[lo], s.seq[hi], s.t[hi], s.value[hi]]);
+        bucket = b;
+        lo = hi = i;
+      } else {
+        if (s.value[i] < s.value[lo]) lo = i;
+        if (s.value[i] > s.value[hi]) hi = i;
+      }
+    }
+    rows.push([bucket, s.seq[lo], s.t[lo], s.value[lo], s.seq[hi], s.t[hi], s.value[hi]]);
+    const column = (k: number) => rows.map((r) => r[k]);
+    await client.query(
+      `INSERT INTO reading_tiles (capture_id, level, bucket, min_seq, min_t, min_value, max_seq, max_t, max_value)
+       SELECT $1, $2, * FROM unnest($3::int[], $4::int[], $5::float8[], $6::float8[], $7::int[], $8::float8[], $9::float8[])`,
+      [captureId, level, column(0), column(1), column(2), column(3), column(4), column(5), column(6)],
+    );
+    if (size > maxSeq) break;
+  }
+}
+
+/**
+ * Readings between seq `from` and `to`. With `maxPoints` and more readings than that, min/max
+ * decimation: from the tiles for a finished capture (about maxPoints rows read whatever the
+ * capture's length), else aggregated by PostgreSQL. Without `maxPoints`, every reading.
+ */
+export async function readSeries(
+  pool: pg.Pool,
+  captureId: number,
+  opts: { from?: number; to?: number; maxPoints?: number; finished: boolean; highestSeq: number },
+): Promise<{ readings: SeriesPoint[]; decimated: boolean }> {
+  const from = opts.from ?? 0;
+  const to = Math.min(opts.to ?? opts.highestSeq, opts.highestSeq);
+  if (to < from) return { readings: [], decimated: false };
+  const span = to - from + 1;
+  if (!opts.maxPoints || span <= opts.maxPoints) {
+    return { readings: toPoints(await loadSeries(pool, captureId, from, to)), decimated: false };
+  }
+  const buckets = Math.max(1, Math.floor(opts.maxPoints / 2));
+  if (opts.finished) {
+    // The finest level whose tiles over the range are no more than `buckets`.
+    let level = 0;
+    while (level < MAX_LEVEL && Math.ceil(span / (TILE_BASE * 2 ** level)) > buckets) level++;
+    const size = TILE_BASE * 2 ** level;
+    if (span / size > 2) {
+      const res = await pool.query<[number, number, number, number, number, number]>({
+        text: `SELECT min_seq, min_t, min_value, max_seq, max_t, max_value FROM reading_tiles
+               WHERE capture_id = $1 AND level = $2 AND bucket BETWEEN $3 AND $4 ORDER BY bucket`,
+        values: [captureId, level, Math.floor(from / size), Math.floor(to / size)],
+        rowMode: 'array',
+      });
+      if ((res.rowCount ?? 0) > 0) return { readings: tilesToPoints(res.rows, from, to), decimated: true };
+    }
+  }
+  const size = Math.ceil(span / buckets);
+  const res = await pool.query<[number, number, number, number, number, number]>({
+    text: `WITH r AS (SELECT seq, t, value, (seq - $2) / $4 AS b FROM readings WHERE capture_id = $1 AND seq BETWEEN $2 AND $3),
+           agg AS (SELECT b, min(value) AS mn, max(value) AS mx FROM r GROUP BY b),
+           lo AS (SELECT DISTINCT ON (r.b) r.b, r.seq, r.t, r.value FROM r JOIN agg USING (b) WHERE r.value = agg.mn ORDER BY r.b, r.seq),
+           hi AS (SELECT DISTINCT ON (r.b) r.b, r.seq, r.t, r.value FROM r JOIN agg USING (b) WHERE r.value = agg.mx ORDER BY r.b, r.seq)
+           SELECT lo.seq, lo.t, lo.value, hi.seq, hi.t, hi.value FROM lo JOIN hi USING (b) ORDER BY b`,
+    values: [captureId, from, to, size],
+    rowMode: 'array',
+  });
+  return { readings: tilesToPoints(res.rows, from, to), decimated: true };
+}
+
+function tilesToPoints(rows: Array<[number, number, number, number, number, number]>, from: number, to: number): SeriesPoint[] {
+  const out: SeriesPoint[] = [];
+  for (const [minSeq, minT, minV, maxSeq, maxT, maxV] of rows) {
+    const a = { seq: minSeq, t: minT, value: minV };
+    const b = { seq: maxSeq, t: maxT, value: maxV };
+    const pair = minSeq === maxSeq ? [a] : minSeq < maxSeq ? [a, b] : [b, a];
+    for (const p of pair) if (p.seq >= from && p.seq <= to) out.push(p);
+  }
+  return out;
+}
