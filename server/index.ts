@@ -68,3 +68,36 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
     },
   };
 }
+
+/**
+ * Run directly (`tsx server/index.ts`) against DATABASE_URL, without the local cluster or a client
+ * build: the entry used by fault tests and benchmarks. `npm start` is the full entry.
+ */
+async function main(): Promise<void> {
+  const { loadConfig } = await import('./config.js');
+  const { resolveJwtSecret } = await import('./services/auth.js');
+  const config = loadConfig();
+  if (!config.databaseUrl) throw new Error('DATABASE_URL is required when running server/index.ts directly; use `npm start` otherwise.');
+  const running = await startServer({
+    databaseUrl: config.databaseUrl,
+    jwtSecret: resolveJwtSecret(config.jwtSecret, path.resolve(PROJECT_ROOT, config.dataDir)),
+    host: config.host,
+    port: config.port,
+    demo: config.demo,
+    clientDir: path.join(PROJECT_ROOT, 'dist'),
+    simulators: config.simulators,
+    loginRateLimit: config.loginRateLimit,
+    log: pino({ level: config.logLevel }),
+  });
+  console.log(`listening ${running.url}`);
+  const stop = () => void running.close().then(() => process.exit(0));
+  process.on('SIGINT', stop);
+  process.on('SIGTERM', stop);
+}
+
+if (process.argv[1] && path.resolve(process.argv[1]) === fileURLToPath(import.meta.url)) {
+  main().catch((err) => {
+    console.error(err instanceof Error ? err.message : err);
+    process.exit(1);
+  });
+}

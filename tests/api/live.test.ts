@@ -1,0 +1,100 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { pino } from 'pino';
+import WebSocket from 'ws';
+import { startServer, type RunningServer } from '../../server/index.js';
+import { createTestDatabase } from '../helpers/db.js';
+import { TEST_JWT_SECRET } from '../helpers/app.js';
+import type { ServerMessage } from '../../shared/protocol/live.js';
+
+let server: RunningServer;
+let drop: () => Promise<void>;
+
+beforeAll(async () => {
+  const db = await createTestDatabase();
+  drop = db.drop;
+  server = await startServer({ databaseUrl: db.url, jwtSecret: TEST_JWT_SECRET, demo: true, simulators: false, log: pino({ level: 'silent' }) });
+});
+afterAll(async () => {
+  await server.close();
+  await drop();
+});
+
+async function login(role: string): Promise<string> {
+  const res = await fetch(`${server.url}/api/auth/login`, {
+    method: 'POST',
+    headers: { 'content-type': 'application/json' },
+    body: JSON.stringify({ email: `${role}@kestrelbay.example`, password: 'driftbench-demo' }),
+  });
+  return ((await res.json()) as { token: string }).token;
+}
+
+function api(token: string, method: string, path: string, body?: unknown) {
+  return fetch(`${server.url}${path}`, {
+    method,
+    headers: { 'content-type': 'application/json', authorization: `Bearer ${token}` },
+    body: body === undefined ? undefined : JSON.stringify(body),
+  }).then((r) => r.json());
+}
+
+function connect(token: string): Promise<{ ws: WebSocket; messages: ServerMessage[]; next(type: string): Promise<ServerMessage> }> {
+  return new Promise((resolve, reject) => {
+    const ws = new WebSocket(`${server.url.replace('http', 'ws')}/ws?token=${token}`);
+    const messages: ServerMessage[] = [];
+    const waiters: Array<{ type: string; resolve: (m: ServerMessage) => void }> = [];
+    ws.on('message', (data) => {
+      const msg = JSON.parse(String(data)) as ServerMessage;
+      messages.push(msg);
+      const i = waiters.findIndex((w) => w.type === msg.type);
+      if (i >= 0) waiters.splice(i, 1)[0].resolve(msg);
+    });
+    ws.on('error', reject);
+    const next = (type: string) =>
+      new Promise<ServerMessage>((res, rej) => {
+        waiters.push({ type, resolve: res });
+        setTimeout(() => rej(new Error(`no ${type} message`)), 5000);
+      });
+    const hello = next('hello');
+    ws.on('open', () => hello.then(() => resolve({ ws, messages, next }), reject));
+  });
+}
+
+describe('live watching', () => {
+  it('sends a watcher the readings that another client ingests', async () => {
+    const tech = await login('technician');
+    const viewer = await login('viewer');
+    const study = await api(tech, 'GET', '/api/studies/1');
+    const capture = await api(tech, 'POST', '/api/captures', {
+      dutId: study.duts[0].id,
+      checkpointId: study.checkpoints[0].id,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 0.1,
+    });
+    const watcher = await connect(viewer);
+    watcher.ws.send(JSON.stringify({ type: 'watch', captureId: capture.id }));
+    await new Promise((r) => setTimeout(r, 100));
+
+    const batch = [0, 1, 2].map((seq) => ({ seq, t: seq * 0.1, value: 16e6 + seq }));
+    const got = watcher.next('readings-batch');
+    await api(tech, 'POST', `/api/captures/${capture.id}/readings`, { readings: batch });
+    const msg = (await got) as Extract<ServerMessage, { type: 'readings-batch' }>;
+    expect(msg.captureId).toBe(capture.id);
+    expect(msg.readings).toEqual(batch.map((r) => ({ ...r, flags: 0 })));
+
+    // A resent batch is not sent to watchers again; only the new reading is.
+    const second = watcher.next('readings-batch');
+    await api(tech, 'POST', `/api/captures/${capture.id}/readings`, { readings: [...batch, { seq: 3, t: 0.3, value: 16e6 + 3 }] });
+    expect(((await second) as Extract<ServerMessage, { type: 'readings-batch' }>).readings.map((r) => r.seq)).toEqual([3]);
+
+    const state = watcher.next('capture-state');
+    await api(tech, 'POST', `/api/captures/${capture.id}/finish`);
+    expect(await state).toMatchObject({ type: 'capture-state', captureId: capture.id, state: 'finished' });
+    watcher.ws.close();
+  });
+
+  it('refuses a WebSocket without a valid token', async () => {
+    const ws = new WebSocket(`${server.url.replace('http', 'ws')}/ws?token=bogus`);
+    const status = await new Promise<number>((resolve) => ws.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)));
+    expect(status).toBe(401);
+  });
+});
