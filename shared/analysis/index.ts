@@ -1,0 +1,25 @@
+// Driftbench's measurement-science core: pure, isomorphic TypeScript (see shared/README.md).
+export * from './errors';
+export * from './conversions';
+export * from './compensatedSum';
+export * from './median';
+export * from './summarize';
+export * from './gaps';
+export * from './drift';
+export * from './taus';
+export * from './phase';
+export * from './noise';
+export * from './noiseId';
+export * from './edf';
+export * from './confidence';
+export * from './stability';
+export { releaseWorkspace } from './workspace';
+export * from './counter';
+export * from './combineUncertainty';
+export * from './uncertaintyBudget';
+export * from './verdict';
+export * from './compare';
+export * from './temperature';
+export * from './gravity';
+export * from './accelerometer';
+export * from './decimate';

@@ -1,0 +1,250 @@
+import { combineUncertainty } from './combineUncertainty';
+import { counterResolution, type CounterKind } from './counter';
+import { AnalysisError, assertNumber } from './errors';
+import type { NoiseType } from './noise';
+
+/** Shape of a component's probability distribution (GUM §4.3). */
+export type Distribution = 'normal' | 'rectangular' | 'triangular' | 't';
+
+/** One line of an uncertainty budget; value and contribution in `unit` (Hz for frequency). */
+export interface BudgetComponent {
+  name: string;
+  symbol?: string;
+  /** Standard uncertainty u(x_i). */
+  value: number;
+  unit: string;
+  distribution: Distribution;
+  sensitivity: number;
+  /** |c_i|·u(x_i). */
+  contribution: number;
+  /** Degrees of freedom; Infinity for type B unless stated (serialises as null in JSON). */
+  dof: number;
+  type: 'A' | 'B';
+  note: string;
+}
+
+export interface UncertaintyBudgetInput {
+  /** Statistics of the gate-time readings in Hz (e.g. from summarize). */
+  stats: { n: number; mean: number; sd: number; sem: number };
+  /** Nominal frequency in Hz. */
+  nominal: number;
+  /** Gate time in seconds. */
+  gateTime: number;
+  /** Capture span in seconds (for the notes). */
+  span?: number;
+  /** Fractional Allan deviation at τ ≈ the capture span (largest τ available). */
+  adevAtSpan?: number;
+  /** EDF of adevAtSpan (default 1: an ADEV at the longest τ rests on very few differences). */
+  adevEdf?: number;
+  /** Dominant noise type at long τ, given or from estimateNoise. */
+  noise?: NoiseType;
+  resolution: { kind: CounterKind; tRes?: number };
+  /** Reference (timebase) fractional offset y_ref and its fractional standard uncertainty. */
+  reference?: { offset: number; u: number; dof?: number };
+  /** Temperature: fractional coefficient per °C, standard uncertainty of T, uncorrected ΔT bound. */
+  temperature?: { deltaC?: number; coeffPerC?: number; uC?: number };
+}
+
+export interface UncertaintyBudget {
+  /** Mean frequency in Hz, reference-corrected when a reference is given. */
+  mean: number;
+  components: BudgetComponent[];
+  combined: number;
+  effectiveDof: number;
+  k: 2;
+  expanded: number;
+  /** expanded/nominal (fractional). */
+  relativeExpanded: number;
+  notes: string[];
+}
+
+const SQRT3 = Math.sqrt(3);
+
+/**
+ * GUM uncertainty budget of a mean frequency (JCGM 100:2008 §§4–6): type A from the readings,
+ * type B for counter resolution (rectangular a/√3, §4.3.7), reference and temperature; combined
+ * per eq 10, ν_eff per G.2b, U = 2·u_c (§6.3). Domain: n ≥ 2, nominal > 0, gateTime > 0.
+ */
+export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBudget {
+  const { stats, nominal, gateTime } = input;
+  assertNumber(nominal, 'nominal', true);
+  assertNumber(gateTime, 'gateTime', true);
+  assertNumber(stats?.n, 'stats.n');
+  assertNumber(stats.mean, 'stats.mean');
+  assertNumber(stats.sd, 'stats.sd');
+  assertNumber(stats.sem, 'stats.sem');
+  if (stats.n < 2) throw new AnalysisError('too-short', 'a type A evaluation needs ≥ 2 readings');
+  const notes: string[] = [];
+  const components: BudgetComponent[] = [typeA(input, notes)];
+
+  const res = counterResolution({ ...input.resolution, gateTime, f: nominal });
+  components.push(
+    component({
+      name: 'Counter resolution',
+      symbol: 'u_res',
+      value: res.absoluteHz / SQRT3,
+      distribution: 'rectangular',
+      type: 'B',
+      note:
+        `±${fmt(res.absoluteHz)} Hz per reading (${input.resolution.kind}), a/√3. Not divided by ` +
+        '√n: quantisation errors of successive readings need not be independent, so the ' +
+        'single-reading value is kept as a conservative floor.',
+    }),
+  );
+
+  let mean = stats.mean;
+  if (input.reference) {
+    const { offset, u, dof } = input.reference;
+    assertNumber(offset, 'reference.offset');
+    assertNumber(u, 'reference.u');
+    mean = stats.mean * (1 + offset);
+    components.push(
+      component({
+        name: 'Reference offset',
+        symbol: 'u_ref',
+        value: Math.abs(u) * nominal,
+        distribution: 'normal',
+        type: 'B',
+        dof,
+        note:
+          `Timebase offset ${offset.toExponential(2)} corrected (f·(1 + y_ref)); its standard ` +
+          `uncertainty ${Math.abs(u).toExponential(2)} × nominal.`,
+      }),
+    );
+  } else {
+    notes.push('No reference given: the counter timebase is taken as exact, which it is not.');
+  }
+
+  const temp = input.temperature;
+  if (temp && temp.coeffPerC !== undefined) {
+    assertNumber(temp.coeffPerC, 'temperature.coeffPerC');
+    const c = Math.abs(temp.coeffPerC) * nominal; // Hz per °C
+    if (temp.uC !== undefined) {
+      assertNumber(temp.uC, 'temperature.uC');
+      components.push(
+        component({
+          name: 'Temperature (measurement)',
+          symbol: 'u_T',
+          value: Math.abs(temp.uC) * c,
+          distribution: 'normal',
+          type: 'B',
+          note: `u(T) = ${fmt(Math.abs(temp.uC))} °C × |coefficient| × nominal (${fmt(c)} Hz/°C).`,
+        }),
+      );
+    }
+    if (temp.deltaC !== undefined) {
+      assertNumber(temp.deltaC, 'temperature.deltaC');
+      components.push(
+        component({
+          name: 'Temperature (uncorrected offset)',
+          symbol: 'u_ΔT',
+          value: (Math.abs(temp.deltaC) * c) / SQRT3,
+          distribution: 'rectangular',
+          type: 'B',
+          note:
+            `Uncorrected ΔT = ${fmt(temp.deltaC)} °C from reference conditions taken as a bound: ` +
+            'a = |ΔT| × |coefficient| × nominal, a/√3.',
+        }),
+      );
+    }
+  } else if (temp) {
+    notes.push('Temperature given without a coefficient: no temperature component.');
+  }
+
+  const { uc, nuEff } = combineUncertainty(components);
+  const expanded = 2 * uc;
+  return {
+    mean,
+    components,
+    combined: uc,
+    effectiveDof: nuEff,
+    k: 2,
+    expanded,
+    relativeExpanded: expanded / nominal,
+    notes,
+  };
+}
+
+/**
+ * Type A: SEM (ν = n − 1) when the noise is white (white FM: independent readings; PM: SEM is
+ * conservative), otherwise the Allan deviation at the capture span × nominal, which SEM
+ * underestimates for flicker and random-walk FM (SP 1065 §1.6 and Table 3; common practice).
+ * Unknown noise with an ADEV given: the larger of the two.
+ */
+function typeA(input: UncertaintyBudgetInput, notes: string[]): BudgetComponent {
+  const { stats, nominal, noise, adevAtSpan } = input;
+  const semComponent = (note: string): BudgetComponent =>
+    component({
+      name: 'Repeatability (SEM)',
+      symbol: 'u_A',
+      value: stats.sem,
+      distribution: 't',
+      type: 'A',
+      dof: stats.n - 1,
+      note,
+    });
+  const adevHz = adevAtSpan !== undefined ? Math.abs(adevAtSpan) * nominal : undefined;
+  if (adevAtSpan !== undefined) assertNumber(adevAtSpan, 'adevAtSpan');
+  const adevDof = input.adevEdf ?? 1;
+  const span = input.span !== undefined ? ` (τ ≈ ${fmt(input.span)} s)` : '';
+  const adevComponent = (note: string): BudgetComponent =>
+    component({
+      name: 'Long-term instability (ADEV at span)',
+      symbol: 'u_A',
+      value: adevHz!,
+      distribution: 'normal',
+      type: 'A',
+      dof: adevDof,
+      note,
+    });
+
+  if (noise === 'wfm' || noise === 'wpm' || noise === 'fpm') {
+    return semComponent(
+      `s/√n of ${stats.n} readings; ` +
+        (noise === 'wfm' ? 'white FM: readings independent.' : 'PM noise: s/√n is conservative.'),
+    );
+  }
+  if (noise === 'ffm' || noise === 'rwfm') {
+    if (adevHz === undefined) {
+      notes.push(`Noise is ${noise} but no ADEV at span was given: s/√n understates the uncertainty.`);
+      return semComponent('s/√n; understated for flicker or random-walk FM (no ADEV at span given).');
+    }
+    return adevComponent(`σ_y${span} × nominal: s/√n does not fall as 1/√n for ${noise}.`);
+  }
+  if (adevHz === undefined) {
+    return semComponent('s/√n; noise type unknown, white FM assumed.');
+  }
+  return adevHz > stats.sem
+    ? adevComponent(`Noise type unknown: σ_y${span} × nominal exceeds s/√n and is used.`)
+    : semComponent(`Noise type unknown: s/√n exceeds σ_y${span} × nominal and is used.`);
+}
+
+function component(c: {
+  name: string;
+  symbol?: string;
+  value: number;
+  unit?: string;
+  sensitivity?: number;
+  distribution: Distribution;
+  type: 'A' | 'B';
+  dof?: number;
+  note: string;
+}): BudgetComponent {
+  const sensitivity = c.sensitivity ?? 1;
+  return {
+    name: c.name,
+    symbol: c.symbol,
+    value: c.value,
+    unit: c.unit ?? 'Hz',
+    distribution: c.distribution,
+    sensitivity,
+    contribution: Math.abs(sensitivity) * c.value,
+    dof: c.dof ?? Infinity,
+    type: c.type,
+    note: c.note,
+  };
+}
+
+function fmt(v: number): string {
+  return Number(v.toPrecision(3)).toString();
+}
