@@ -54,7 +54,7 @@ export function createApp(ctx: AppContext): Express {
   const api = express.Router();
   api.use(express.json({ limit: '8mb' }));
   api.use(healthRouter(ctx.db));
-  api.use(authenticate(ctx.jwtSecret));
+  api.use(authenticate(ctx.jwtSecret, ctx.db.pool));
   api.use('/auth', authRouter(ctx.jwtSecret, ctx.loginRateLimit ?? 20));
   api.use('/users', usersRouter());
   api.use('/studies', studiesRouter());

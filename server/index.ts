@@ -34,7 +34,7 @@ export interface RunningServer {
 export async function startServer(opts: ServerOptions): Promise<RunningServer> {
   const log = opts.log ?? pino({ level: 'info' });
   const db = await prepareDatabase(opts.databaseUrl, { demo: opts.demo ?? false, log });
-  const hub = createLiveHub(opts.jwtSecret);
+  const hub = createLiveHub(opts.jwtSecret, db.pool);
   const app = createApp({ db, jwtSecret: opts.jwtSecret, log, clientDir: opts.clientDir, loginRateLimit: opts.loginRateLimit, hub });
   const server = http.createServer(app);
 

@@ -1,12 +1,12 @@
 import type { NextFunction, Request, Response } from 'express';
 import { ForbiddenError, UnauthorizedError } from '../errors.js';
-import { userFromToken } from '../services/auth.js';
+import type pg from 'pg';
+import { userFromToken, type AuthUser } from '../services/auth.js';
 import { roleCan, type Permission } from '../../shared/protocol/roles.js';
-import type { User } from '../models/index.js';
 
 declare module 'express-serve-static-core' {
   interface Request {
-    user?: User;
+    user?: AuthUser;
   }
 }
 
@@ -14,13 +14,13 @@ declare module 'express-serve-static-core' {
 const PUBLIC = new Set(['POST /auth/login', 'GET /health']);
 
 /** Verifies the bearer token on every /api route except the public ones and loads the user. */
-export function authenticate(secret: string) {
+export function authenticate(secret: string, pool: pg.Pool) {
   return async (req: Request, _res: Response, next: NextFunction) => {
     if (PUBLIC.has(`${req.method} ${req.path}`)) return next();
     const header = req.get('authorization') ?? '';
     const match = /^Bearer\s+(\S+)$/i.exec(header);
     if (!match) throw new UnauthorizedError('unauthorized', 'Sign in to continue.');
-    req.user = await userFromToken(match[1], secret);
+    req.user = await userFromToken(match[1], secret, pool);
     next();
   };
 }
@@ -35,7 +35,7 @@ export function authorize(permission: Permission) {
 }
 
 /** The signed-in user of a request that passed `authenticate`. */
-export function currentUser(req: Request): User {
+export function currentUser(req: Request): AuthUser {
   if (!req.user) throw new UnauthorizedError();
   return req.user;
 }

@@ -1,3 +1,4 @@
+import type { AuthUser } from './auth.js';
 import { Op } from 'sequelize';
 import { Capture, Checkpoint, Dut, Instrument, Reference, Study, User } from '../models/index.js';
 import { AppError, ForbiddenError, NotFoundError, ValidationError } from '../errors.js';
@@ -38,7 +39,7 @@ export function capturePublic(c: Capture) {
  * Opens a capture bound to a DUT and a checkpoint of the same study, with the reference's offset
  * and uncertainty copied as they are now (a later re-verification does not rewrite history).
  */
-export async function createCapture(input: CaptureCreate, operator: User) {
+export async function createCapture(input: CaptureCreate, operator: AuthUser) {
   const [dut, checkpoint] = await Promise.all([Dut.findByPk(input.dutId), Checkpoint.findByPk(input.checkpointId)]);
   if (!dut) throw new ValidationError('dutId: no such DUT', [{ path: 'dutId', message: 'no such DUT' }]);
   if (!checkpoint) throw new ValidationError('checkpointId: no such checkpoint', [{ path: 'checkpointId', message: 'no such checkpoint' }]);
@@ -128,7 +129,7 @@ export async function getCapture(id: number) {
 }
 
 /** Notes, tags and ambient temperature may change after the fact; readings never do. */
-export async function patchCapture(id: number, patch: CapturePatch, user: User) {
+export async function patchCapture(id: number, patch: CapturePatch, user: AuthUser) {
   const c = await requireCapture(id);
   const tagger = user.role === 'admin' || user.role === 'lead' || user.role === 'engineer';
   if (!tagger && !canWriteCapture(user, c.operatorId)) throw new ForbiddenError();

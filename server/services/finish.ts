@@ -1,8 +1,8 @@
+import type { AuthUser } from './auth.js';
 import type pg from 'pg';
 import { Capture, Dut } from '../models/index.js';
 import { ForbiddenError, NotFoundError } from '../errors.js';
 import type { LiveHub } from '../ws/live.js';
-import type { User } from '../models/index.js';
 import { canWriteCapture } from './ingest.js';
 import { buildTiles, loadSeries } from './readings.js';
 import { prepare, reduce } from './captureAnalysis.js';
@@ -13,7 +13,7 @@ import { capturePublic } from './captures.js';
  * (statistics, correction, stability, uncertainty budget) and the chart tiles, once. Finishing a
  * finished capture returns it unchanged.
  */
-export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: User, id: number) {
+export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser, id: number) {
   const client = await pool.connect();
   let changed = false;
   try {

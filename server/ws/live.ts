@@ -1,6 +1,7 @@
 import type { IncomingMessage } from 'node:http';
 import type { Duplex } from 'node:stream';
 import { WebSocketServer, type WebSocket } from 'ws';
+import type pg from 'pg';
 import { userFromToken } from '../services/auth.js';
 import type { UpgradeHandler } from './upgrade.js';
 import type { ClientMessage, LiveReading, ServerMessage } from '../../shared/protocol/live.js';
@@ -29,7 +30,7 @@ interface Peer {
  * The authenticated WebSocket endpoint `/ws?token=…`: watchers subscribe to captures and receive
  * every accepted reading as soon as its batch is committed.
  */
-export function createLiveHub(jwtSecret: string): LiveHub & UpgradeHandler {
+export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & UpgradeHandler {
   const wss = new WebSocketServer({ noServer: true, maxPayload: 64 * 1024 });
   const peers = new Set<Peer>();
   const watchers = new Map<number, Set<Peer>>();
@@ -103,7 +104,7 @@ export function createLiveHub(jwtSecret: string): LiveHub & UpgradeHandler {
       const url = new URL(req.url ?? '/', 'http://localhost');
       if (url.pathname !== '/ws') return false;
       const token = url.searchParams.get('token') ?? '';
-      userFromToken(token, jwtSecret).then(
+      userFromToken(token, jwtSecret, pool).then(
         (user) => wss.handleUpgrade(req, socket, head, (ws) => accept(ws, user.id)),
         () => {
           socket.write('HTTP/1.1 401 Unauthorized\r\nConnection: close\r\n\r\n');

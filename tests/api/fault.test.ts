@@ -51,14 +51,14 @@ describe('ingest through a server crash', () => {
       method: 'POST',
       headers: { 'content-type': 'application/json' },
       body: JSON.stringify({ email: 'technician@kestrelbay.example', password: 'driftbench-demo' }),
-    }).then((r) => r.json());
+    }).then((r) => r.json() as Promise<{ token: string }>);
     const headers = { 'content-type': 'application/json', authorization: `Bearer ${login.token}` };
-    const study = await fetch(`${base()}/api/studies/1`, { headers }).then((r) => r.json());
+    const study = await fetch(`${base()}/api/studies/1`, { headers }).then((r) => r.json() as Promise<{ duts: { id: number }[]; checkpoints: { id: number }[] }>);
     const capture = await fetch(`${base()}/api/captures`, {
       method: 'POST',
       headers,
       body: JSON.stringify({ dutId: study.duts[0].id, checkpointId: study.checkpoints[0].id, quantity: 'frequency', unit: 'Hz', gateTime: 0.01 }),
-    }).then((r) => r.json());
+    }).then((r) => r.json() as Promise<{ id: number }>);
 
     const send = async (id: number, readings: ReadingIn[]): Promise<IngestResult> => {
       const res = await fetch(`${base()}/api/captures/${id}/readings`, { method: 'POST', headers, body: JSON.stringify({ readings }) });

@@ -28,7 +28,8 @@ async function login(role: string): Promise<string> {
   return ((await res.json()) as { token: string }).token;
 }
 
-function api(token: string, method: string, path: string, body?: unknown) {
+// eslint-disable-next-line @typescript-eslint/no-explicit-any
+function api(token: string, method: string, path: string, body?: unknown): Promise<any> {
   return fetch(`${server.url}${path}`, {
     method,
     headers: { 'content-type': 'application/json', authorization: `Bearer ${token}` },

@@ -1,0 +1,28 @@
+import { http } from './http';
+
+export type StudyStatus = 'draft' | 'running' | 'in-review' | 'approved' | 'returned';
+
+export interface StudySummary {
+  id: string | number;
+  title: string;
+  process: string | null;
+  description: string | null;
+  status: StudyStatus;
+  createdAt: string;
+  checkpointCount: number;
+  dutCount: number;
+}
+
+export interface StudyCreate {
+  title: string;
+  process?: string;
+  description?: string;
+}
+
+export async function listStudies(): Promise<StudySummary[]> {
+  return (await http.get<{ studies: StudySummary[] }>('/api/studies')).studies;
+}
+
+export function createStudy(body: StudyCreate): Promise<StudySummary & Record<string, unknown>> {
+  return http.post('/api/studies', body);
+}

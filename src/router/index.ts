@@ -1,0 +1,115 @@
+import {
+  createRouter,
+  createWebHistory,
+  type RouteLocationRaw,
+  type RouteRecordRaw,
+  type Router,
+  type RouterHistory,
+} from 'vue-router';
+import type { Role } from '../api/auth';
+import { configureHttp } from '../api/http';
+import { reasonFor, useSessionStore } from '../stores/session';
+
+declare module 'vue-router' {
+  interface RouteMeta {
+    /** Page title, used for the document title. */
+    title?: string;
+    /** Reachable without signing in (rendered without the shell). */
+    public?: boolean;
+    /** Only these roles may open the page; everyone signed in when absent. */
+    roles?: Role[];
+  }
+}
+
+export const routes: RouteRecordRaw[] = [
+  {
+    path: '/sign-in',
+    name: 'sign-in',
+    component: () => import('../views/SignInView.vue'),
+    meta: { title: 'Sign in', public: true },
+  },
+  {
+    path: '/',
+    name: 'dashboard',
+    component: () => import('../views/DashboardView.vue'),
+    meta: { title: 'Dashboard' },
+  },
+  {
+    path: '/studies',
+    name: 'studies',
+    component: () => import('../views/StudiesView.vue'),
+    meta: { title: 'Studies' },
+  },
+  {
+    path: '/lab',
+    name: 'lab',
+    component: () => import('../views/LabView.vue'),
+    meta: { title: 'Lab' },
+  },
+  {
+    path: '/users',
+    name: 'users',
+    component: () => import('../views/UsersView.vue'),
+    meta: { title: 'Users', roles: ['admin'] },
+  },
+  {
+    path: '/no-access',
+    name: 'forbidden',
+    component: () => import('../views/NotFoundView.vue'),
+    props: { reason: 'forbidden' },
+    meta: { title: 'Not available' },
+  },
+  {
+    path: '/:pathMatch(.*)*',
+    name: 'not-found',
+    component: () => import('../views/NotFoundView.vue'),
+    meta: { title: 'Page not found' },
+  },
+];
+
+/** Only same-app paths may be used as the after-sign-in destination. */
+export function safeNext(value: unknown): string {
+  return typeof value === 'string' && value.startsWith('/') && !value.startsWith('//') ? value : '/';
+}
+
+export function createAppRouter(history: RouterHistory = createWebHistory()): Router {
+  const router = createRouter({ history, routes, scrollBehavior: () => ({ top: 0 }) });
+
+  router.beforeEach(async (to): Promise<boolean | RouteLocationRaw> => {
+    const session = useSessionStore();
+    if (to.meta.public) {
+      if (to.name === 'sign-in' && session.isAuthenticated && session.verified) {
+        return safeNext(to.query.next);
+      }
+      return true;
+    }
+    const next = to.fullPath === '/' ? undefined : to.fullPath;
+    if (!session.token) return { name: 'sign-in', query: { next } };
+    const ended = await session.restore();
+    if (ended) return { name: 'sign-in', query: { next, reason: ended === 'signed-out' ? undefined : ended } };
+    const allowed = to.meta.roles;
+    if (allowed && !session.hasRole(...allowed)) return { name: 'forbidden' };
+    return true;
+  });
+
+  router.afterEach((to) => {
+    document.title = to.meta.title ? `${to.meta.title} · Driftbench` : 'Driftbench';
+  });
+
+  // Any API call that finds the session over sends the user to sign in, then back here.
+  configureHttp({
+    onSessionLost: (error) => {
+      const session = useSessionStore();
+      if (!session.token) return;
+      session.signOut();
+      const current = router.currentRoute.value;
+      if (current.meta.public) return;
+      void router.replace({
+        name: 'sign-in',
+        query: { next: current.fullPath, reason: reasonFor(error) },
+      });
+    },
+  });
+
+  return router;
+}

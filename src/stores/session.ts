@@ -1,0 +1,118 @@
+import { computed, ref } from 'vue';
+import { defineStore } from 'pinia';
+import { fetchMe, login, type Role, type SessionUser } from '../api/auth';
+import { ApiError, configureHttp } from '../api/http';
+import { roleCan, type Permission } from '../../shared/protocol/roles';
+
+export const SESSION_KEY = 'driftbench.session';
+
+/** Why a session ended; the sign-in page turns this into a sentence. */
+export type SessionEndReason = 'expired' | 'disabled' | 'signed-out';
+
+interface StoredSession {
+  token: string;
+  user: SessionUser | null;
+}
+
+function readStored(): StoredSession | null {
+  let raw: string | null = null;
+  try {
+    raw = localStorage.getItem(SESSION_KEY);
+  } catch {
+    return null;
+  }
+  if (!raw) return null;
+  try {
+    const parsed = JSON.parse(raw) as Partial<StoredSession>;
+    if (typeof parsed.token === 'string') return { token: parsed.token, user: parsed.user ?? null };
+  } catch {
+    // A bare token (e.g. put there by a test) is accepted too; /me supplies the user.
+  }
+  return { token: raw, user: null };
+}
+
+function writeStored(session: StoredSession | null): void {
+  try {
+    if (session) localStorage.setItem(SESSION_KEY, JSON.stringify(session));
+    else localStorage.removeItem(SESSION_KEY);
+  } catch {
+    // Private mode or full storage: the session simply lasts until the tab closes.
+  }
+}
+
+export function reasonFor(error: ApiError): SessionEndReason {
+  return error.code === 'account-disabled' ? 'disabled' : 'expired';
+}
+
+export const useSessionStore = defineStore('session', () => {
+  const stored = readStored();
+  const token = ref<string | null>(stored?.token ?? null);
+  const user = ref<SessionUser | null>(stored?.user ?? null);
+  /** True once /me has confirmed the token in this page load. */
+  const verified = ref(false);
+  let restoring: Promise<SessionEndReason | null> | null = null;
+
+  configureHttp({ getToken: () => token.value });
+
+  const isAuthenticated = computed(() => token.value !== null && user.value !== null);
+  const role = computed<Role | null>(() => user.value?.role ?? null);
+
+  /** Whether the signed-in role holds a permission (the server's own table; it enforces it). */
+  function can(permission: Permission): boolean {
+    return role.value !== null && roleCan(role.value, permission);
+  }
+
+  function hasRole(...roles: Role[]): boolean {
+    return role.value !== null && roles.includes(role.value);
+  }
+
+  function setSession(newToken: string, newUser: SessionUser): void {
+    token.value = newToken;
+    user.value = newUser;
+    verified.value = true;
+    writeStored({ token: newToken, user: newUser });
+  }
+
+  async function signIn(email: string, password: string): Promise<SessionUser> {
+    const answer = await login(email.trim(), password);
+    setSession(answer.token, answer.user);
+    return answer.user;
+  }
+
+  function signOut(): void {
+    token.value = null;
+    user.value = null;
+    verified.value = false;
+    restoring = null;
+    writeStored(null);
+  }
+
+  /**
+   * Confirm a stored token with /me (once per page load). Resolves to null when the session is
+   * good, or to the reason it ended. A network failure keeps a stored user so the shell can
+   * still show a readable error on each page.
+   */
+  function restore(): Promise<SessionEndReason | null> {
+    if (!token.value) return Promise.resolve('signed-out');
+    if (verified.value) return Promise.resolve(null);
+    restoring ??= (async () => {
+      try {
+        const { user: me } = await fetchMe();
+        user.value = me;
+        verified.value = true;
+        writeStored({ token: token.value as string, user: me });
+        return null;
+      } catch (error) {
+        if (error instanceof ApiError && error.status === 401) {
+          signOut();
+          return reasonFor(error);
+        }
+        restoring = null;
+        return user.value ? null : 'expired';
+      }
+    })();
+    return restoring;
+  }
+
+  return { token, user, verified, isAuthenticated, role, can, hasRole, signIn, signOut, restore };
+});

@@ -1,0 +1,195 @@
+import { spawn, type ChildProcess } from 'node:child_process';
+import { mkdtempSync, chmodSync } from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { pipeline } from 'node:stream/promises';
+import { Readable } from 'node:stream';
+import pg from 'pg';
+import { from as copyFrom } from 'pg-copy-streams';
+import WebSocket from 'ws';
+import { startCluster, destroyCluster, freePort } from '../../server/db/cluster.js';
+import { ensureDatabase, openDatabase } from '../../server/db/connection.js';
+import { migrate } from '../../server/migrations/index.js';
+import { PROJECT_ROOT } from '../../server/index.js';
+import { ReadingUploader, MemoryPendingStore } from '../../src/api/uploader.js';
+import type { IngestResult } from '../../shared/protocol/captures.js';
+
+// Ingest, decimated-read and live-path figures against a real PostgreSQL and a real server
+// process (the load generator runs in this process, the server in another).
+const SECRET = 'driftbench-bench-secret-of-at-least-32-characters';
+
+const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[Math.floor(xs.length / 2)];
+const pct = (xs: number[], p: number) => [...xs].sort((a, b) => a - b)[Math.min(xs.length - 1, Math.floor(xs.length * p))];
+
+function startServerProcess(databaseUrl: string, port: number): Promise<ChildProcess> {
+  return new Promise((resolve, reject) => {
+    const p = spawn(process.execPath, ['--import', 'tsx', path.join(PROJECT_ROOT, 'server/index.ts')], {
+      cwd: PROJECT_ROOT,
+      env: { ...process.env, DATABASE_URL: databaseUrl, PORT: String(port), JWT_SECRET: SECRET, DRIFTBENCH_DEMO: '1', DRIFTBENCH_SIMULATORS: '0', LOG_LEVEL: 'silent', LOGIN_RATE_LIMIT: '1000' },
+      stdio: ['ignore', 'pipe', 'inherit'],
+    });
+    p.stdout!.on('data', (d) => String(d).includes('listening') && resolve(p));
+    p.on('exit', (code) => reject(new Error(`server exited (${code})`)));
+  });
+}
+
+export async function benchIngest(): Promise<void> {
+  const tmp = mkdtempSync(path.join(os.tmpdir(), 'driftbench-bench-'));
+  chmodSync(tmp, 0o755);
+  const cluster = startCluster(path.join(tmp, 'pg'), await freePort(), () => {});
+  let server: ChildProcess | undefined;
+  try {
+    await ensureDatabase(cluster.url('postgres'), 'bench');
+    const url = cluster.url('bench');
+    const db = openDatabase(url);
+    await migrate(db.sequelize);
+    await db.close();
+    const port = await freePort();
+    server = await startServerProcess(url, port);
+    const base = `http://127.0.0.1:${port}`;
+    const token = ((await (await fetch(`${base}/api/auth/login`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json' },
+      body: JSON.stringify({ email: 'technician@kestrelbay.example', password: 'driftbench-demo' }),
+    })).json()) as { token: string }).token;
+    const headers = { 'content-type': 'application/json', authorization: `Bearer ${token}` };
+    const study = (await (await fetch(`${base}/api/studies/1`, { headers })).json()) as { duts: { id: number }[]; checkpoints: { id: number }[] };
+    const newCapture = async (gateTime = 0.01) =>
+      ((await (await fetch(`${base}/api/captures`, {
+        method: 'POST',
+        headers,
+        body: JSON.stringify({ dutId: study.duts[0].id, checkpointId: study.checkpoints[0].id, quantity: 'frequency', unit: 'Hz', gateTime }),
+      })).json()) as { id: number }).id;
+
+    const pool = new pg.Pool({ connectionString: url, max: 4 });
+    const rows = (n: number, offset = 0) => Array.from({ length: n }, (_, i) => ({ seq: offset + i, t: (offset + i) * 0.01, value: 16e6 + Math.sin(i) * 1e-3 }));
+
+    // 1. Through the API: 4 captures in parallel, batches of 5,000 readings, bodies pre-serialised.
+    const perCapture = 150_000;
+    const batch = 5_000;
+    const concurrency = 4;
+    const ids = await Promise.all(Array.from({ length: concurrency }, () => newCapture()));
+    const bodies = ids.map(() => Array.from({ length: perCapture / batch }, (_, b) => JSON.stringify({ readings: rows(batch, b * batch) })));
+    let t0 = performance.now();
+    await Promise.all(
+      ids.map(async (id, k) => {
+        for (const body of bodies[k]) {
+          const res = await fetch(`${base}/api/captures/${id}/readings`, { method: 'POST', headers, body });
+          if (!res.ok) throw new Error(`ingest failed: ${res.status}`);
+          await res.arrayBuffer();
+        }
+      }),
+    );
+    const apiSeconds = (performance.now() - t0) / 1000;
+    const apiRate = (perCapture * concurrency) / apiSeconds;
+
+    // 2. Raw COPY of the same number of rows, same table, same parallelism.
+    const copyIds = await Promise.all(Array.from({ length: concurrency }, () => newCapture()));
+    const copyOne = async (id: number) => {
+      const client = await pool.connect();
+      try {
+        const stream = client.query(copyFrom('COPY readings (capture_id, seq, t, value, flags) FROM STDIN'));
+        const lines = function* () {
+          for (let b = 0; b < perCapture / batch; b++) {
+            yield rows(batch, b * batch).map((r) => `${id}\t${r.seq}\t${r.t}\t${r.value}\t0\n`).join('');
+          }
+        };
+        await pipeline(Readable.from(lines()), stream);
+      } finally {
+        client.release();
+      }
+    };
+    t0 = performance.now();
+    await Promise.all(copyIds.map(copyOne));
+    const copySeconds = (performance.now() - t0) / 1000;
+    const copyRate = (perCapture * concurrency) / copySeconds;
+
+    // 3. Decimated read of a 1,000,000-reading finished capture to 2,000 points.
+    const big = await newCapture();
+    {
+      const client = await pool.connect();
+      await client.query(
+        `INSERT INTO readings (capture_id, seq, t, value) SELECT $1, g, g * 0.01, 16e6 + sin(g / 1000.0) * 1e-3 + random() * 1e-5 FROM generate_series(0, 999999) g`,
+        [big],
+      );
+      await client.query('UPDATE captures SET reading_count = 1000000, highest_seq = 999999 WHERE id = $1', [big]);
+      client.release();
+    }
+    t0 = performance.now();
+    const fin = await fetch(`${base}/api/captures/${big}/finish`, { method: 'POST', headers });
+    if (!fin.ok) throw new Error(`finish failed: ${fin.status}`);
+    const finishSeconds = (performance.now() - t0) / 1000;
+    const reads: number[] = [];
+    let points = 0;
+    for (let i = 0; i < 11; i++) {
+      t0 = performance.now();
+      const res = await fetch(`${base}/api/captures/${big}/readings?maxPoints=2000`, { headers });
+      const body = (await res.json()) as { readings: unknown[] };
+      reads.push(performance.now() - t0);
+      points = body.readings.length;
+    }
+    const zooms: number[] = [];
+    for (let i = 0; i < 11; i++) {
+      const from = 100_000 + i * 50_000;
+      t0 = performance.now();
+      await (await fetch(`${base}/api/captures/${big}/readings?from=${from}&to=${from + 200_000}&maxPoints=2000`, { headers })).json();
+      zooms.push(performance.now() - t0);
+    }
+
+    // 4. Live path: readings made at 100/s go through the bench's own uploader (grouped every
+    // 50 ms) and are watched over WebSocket; latency from the reading's creation to its arrival.
+    const live = await newCapture(0.01);
+    const ws = new WebSocket(`${base.replace('http', 'ws')}/ws?token=${token}`);
+    await new Promise((r) => ws.on('open', r));
+    ws.send(JSON.stringify({ type: 'watch', captureId: live }));
+    await new Promise((r) => setTimeout(r, 100));
+    const sentAt = new Map<number, number>();
+    const latencies: number[] = [];
+    ws.on('message', (data) => {
+      const msg = JSON.parse(String(data));
+      if (msg.type !== 'readings-batch') return;
+      const now = performance.now();
+      for (const r of msg.readings) latencies.push(now - (sentAt.get(r.seq) ?? now));
+    });
+    const uploader = new ReadingUploader(live, {
+      store: new MemoryPendingStore(),
+      flushMs: 50,
+      send: async (id, readings) => {
+        const res = await fetch(`${base}/api/captures/${id}/readings`, { method: 'POST', headers, body: JSON.stringify({ readings }) });
+        if (!res.ok) throw new Error(`HTTP ${res.status}`);
+        return (await res.json()) as IngestResult;
+      },
+    });
+    const liveN = 1000;
+    const startLive = performance.now();
+    for (let seq = 0; seq < liveN; seq++) {
+      // Hold the 100/s cadence against the wall clock, not against timer drift.
+      const due = startLive + seq * 10;
+      await new Promise((r) => setTimeout(r, Math.max(0, due - performance.now())));
+      sentAt.set(seq, performance.now());
+      void uploader.add([{ seq, t: seq * 0.01, value: 16e6 }]);
+    }
+    await uploader.drained();
+    await new Promise((r) => setTimeout(r, 300));
+    uploader.close();
+    ws.close();
+    await pool.end();
+
+    const f = (x: number) => Math.round(x).toLocaleString('en-US');
+    console.log('\nIngest and reads (PostgreSQL 15, server in its own process, 2 cores)');
+    console.log(`  API ingest          ${f(apiRate)} readings/s  (${concurrency} captures × ${f(perCapture)} in batches of ${f(batch)}; target ≥ 50,000)`);
+    console.log(`  raw COPY            ${f(copyRate)} rows/s      (same rows, same parallelism)`);
+    console.log(`  API / COPY          ${((apiRate / copyRate) * 100).toFixed(0)} %         (target ≥ 50 %)`);
+    console.log(`  finish 1e6 readings ${finishSeconds.toFixed(2)} s         (summary, stability, budget and tiles, once)`);
+    console.log(`  decimated read      ${median(reads).toFixed(1)} ms median, ${points} points (1,000,000 → 2,000; target ≤ 150 ms)`);
+    console.log(`  zoomed read         ${median(zooms).toFixed(1)} ms median (200,000-reading window → 2,000)`);
+    console.log(`  live path           p50 ${pct(latencies, 0.5).toFixed(1)} ms, p95 ${pct(latencies, 0.95).toFixed(1)} ms over ${latencies.length} readings at 100/s, uploader grouping every 50 ms (target p95 ≤ 100 ms)`);
+  } finally {
+    server?.kill('SIGTERM');
+    destroyCluster(cluster);
+  }
+}
+
+if (process.argv[1] && path.resolve(process.argv[1]) === path.resolve(PROJECT_ROOT, 'tests/bench/ingest.ts')) {
+  await benchIngest();
+}

@@ -1,0 +1,142 @@
+import { mkdirSync } from 'node:fs';
+import path from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { chromium, type Browser, type Page } from 'playwright-core';
+import { startTestServer } from '../helpers/appServer.js';
+
+// The shell in a real Chromium against the built client and a seeded database: sign-in, the
+// role-aware rail, dashboard counts, both themes, and no console errors along the way.
+const RESULTS = path.resolve('test-results');
+const PASSWORD = 'driftbench-demo';
+
+let server: Awaited<ReturnType<typeof startTestServer>>;
+let browser: Browser;
+
+interface Watched {
+  page: Page;
+  errors: string[];
+}
+
+async function openPage(): Promise<Watched> {
+  const context = await browser.newContext({ viewport: { width: 1360, height: 860 }, colorScheme: 'light' });
+  const page = await context.newPage();
+  const errors: string[] = [];
+  page.on('console', (msg) => {
+    if (msg.type() === 'error') errors.push(msg.text());
+  });
+  page.on('pageerror', (err) => errors.push(err.message));
+  return { page, errors };
+}
+
+async function signIn(page: Page, role: string): Promise<void> {
+  await page.goto(`${server.url}/`);
+  await page.waitForURL(/\/sign-in/);
+  await page.fill('input[name="email"]', `${role}@kestrelbay.example`);
+  await page.fill('input[name="password"]', PASSWORD);
+  await page.press('input[name="password"]', 'Enter');
+  await page.waitForSelector('nav[aria-label="Main"]');
+}
+
+async function navLabels(page: Page): Promise<string[]> {
+  return (await page.locator('nav[aria-label="Main"] a').allInnerTexts()).map((t) => t.trim());
+}
+
+describe('the Driftbench shell', () => {
+  beforeAll(async () => {
+    mkdirSync(RESULTS, { recursive: true });
+    server = await startTestServer();
+    browser = await chromium.launch({
+      executablePath: '/usr/bin/chromium',
+      args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
+        '--disable-background-networking', '--disable-component-update', '--disable-sync'],
+    });
+  });
+
+  afterAll(async () => {
+    await browser?.close();
+    await server?.stop();
+  });
+
+  it('signs a technician in and shows the dashboard without console errors', async () => {
+    const { page, errors } = await openPage();
+    await page.goto(`${server.url}/`);
+    await page.waitForSelector('input[name="email"]');
+    await page.screenshot({ path: path.join(RESULTS, 'sign-in.png') });
+
+    await signIn(page, 'technician');
+    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Lab']);
+    await expect.poll(() => page.locator('[data-count="studies"]').innerText()).toMatch(/^\d+$/);
+    expect(Number(await page.locator('[data-count="duts"]').innerText())).toBeGreaterThan(0);
+    await expect.poll(() => page.locator('.health-line').innerText()).toMatch(/Database connected/);
+    await expect.poll(() => page.locator('body').innerText()).toContain('No captures are running');
+    expect(await page.locator('.nav-rail__name').innerText()).toBe('Tomas Technician');
+    await page.screenshot({ path: path.join(RESULTS, 'shell-technician.png') });
+
+    await page.goto(`${server.url}/lab`);
+    await page.waitForSelector('text=GPS 10 MHz reference');
+    expect(await page.locator('body').innerText()).toMatch(/Overdue by \d+ day/);
+    await page.screenshot({ path: path.join(RESULTS, 'lab-technician.png'), fullPage: true });
+
+    await page.goto(`${server.url}/users`);
+    await page.waitForSelector('text=This page is not part of your role');
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+
+  it('shows Users to an admin, in either theme', async () => {
+    const { page, errors } = await openPage();
+    await signIn(page, 'admin');
+    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Lab', 'Users']);
+
+    await page.click('nav[aria-label="Main"] >> text=Users');
+    await page.waitForSelector('text=admin@kestrelbay.example');
+    await page.screenshot({ path: path.join(RESULTS, 'users-admin.png') });
+
+    await page.click('button:has-text("Add person")');
+    const dialog = page.locator('.el-dialog');
+    await dialog.locator('input').nth(0).fill('Nia Bench');
+    await dialog.locator('input').nth(1).fill('nia@kestrelbay.example');
+    await dialog.locator('input[type="password"]').fill('short');
+    await dialog.locator('button:has-text("Add person")').click();
+    await dialog.locator('text=Use at least 10 characters').waitFor();
+    await page.screenshot({ path: path.join(RESULTS, 'users-add-dialog.png') });
+    await dialog.locator('input[type="password"]').fill('a-long-enough-secret');
+    await dialog.locator('button:has-text("Add person")').click();
+    await page.waitForSelector('td >> text=nia@kestrelbay.example');
+
+    await page.click('button[aria-label="Dark theme"]');
+    expect(await page.evaluate("document.documentElement.classList.contains('dark')")).toBe(true);
+    await page.click('nav[aria-label="Main"] >> text=Dashboard');
+    await expect.poll(() => page.locator('[data-count="studies"]').innerText()).toMatch(/^\d+$/);
+    await page.screenshot({ path: path.join(RESULTS, 'shell-admin-dark.png') });
+
+    await page.reload();
+    await page.waitForSelector('nav[aria-label="Main"]');
+    expect(await page.evaluate("document.documentElement.classList.contains('dark')")).toBe(true);
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+
+  it('lists studies for an engineer and sends a lost session back to sign-in', async () => {
+    const { page, errors } = await openPage();
+    await signIn(page, 'engineer');
+    await page.click('nav[aria-label="Main"] >> text=Studies');
+    await page.waitForSelector('.el-table__row');
+    expect(await page.locator('button:has-text("New study")').isVisible()).toBe(true);
+    await page.screenshot({ path: path.join(RESULTS, 'studies-engineer.png') });
+
+    // A token the server no longer accepts: the next page load ends the session politely.
+    await page.evaluate(`
+      localStorage.setItem('driftbench.session', JSON.stringify({ token: 'not-a-valid-token', user: null }));
+      localStorage.setItem('driftbench.theme', 'dark');
+    `);
+    await page.goto(`${server.url}/lab`);
+    await page.waitForURL((url) => url.pathname === '/sign-in' && url.searchParams.get('next') === '/lab' && url.searchParams.get('reason') === 'expired');
+    await page.waitForSelector('text=Your session has expired — please sign in again');
+    await page.screenshot({ path: path.join(RESULTS, 'sign-in-expired-dark.png') });
+
+    // The only console error allowed is the browser's own note about the refused /me call.
+    expect(errors.filter((e) => !/status of 401/.test(e))).toEqual([]);
+    await page.context().close();
+  });
+});
