@@ -1,6 +1,8 @@
 import { Router } from 'express';
 import { z } from 'zod';
 import type pg from 'pg';
+import { pipeline } from 'node:stream/promises';
+import { to as copyTo } from 'pg-copy-streams';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
 import { CaptureCreate, CapturePatch, ReadingsQuery, AnalysisQuery, ComparisonQuery } from '../../shared/protocol/captures.js';
@@ -53,6 +55,22 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub): Router {
     const c = await requireCapture(id);
     const out = await readSeries(pool, id, { ...q, finished: c.state !== 'open', highestSeq: c.highestSeq });
     res.json(out);
+  });
+  r.get('/:id/readings.csv', authorize('read'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    const c = await requireCapture(id);
+    const client = await pool.connect();
+    try {
+      res.setHeader('content-type', 'text/csv; charset=utf-8');
+      res.setHeader('content-disposition', `attachment; filename="driftbench-capture-${id}.csv"`);
+      // `id` is a validated integer: COPY takes no bind parameters.
+      const stream = client.query(
+        copyTo(`COPY (SELECT seq, t AS t_s, value AS "value_${c.unit.replace(/[^A-Za-z%]/g, '')}", flags FROM readings WHERE capture_id = ${id} ORDER BY seq) TO STDOUT WITH (FORMAT csv, HEADER true)`),
+      );
+      await pipeline(stream, res);
+    } finally {
+      client.release();
+    }
   });
   r.get('/:id/analysis', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');

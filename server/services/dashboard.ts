@@ -1,5 +1,6 @@
 import { Study, Checkpoint, Dut, Instrument, Reference, Capture, User } from '../models/index.js';
 import { calibrationState } from './lab.js';
+import { QueryTypes } from 'sequelize';
 
 /** Counts for the dashboard, instruments whose calibration needs attention, and captures on air. */
 export async function dashboard() {
@@ -16,7 +17,23 @@ export async function dashboard() {
   const calibration = all
     .map((i) => ({ id: i.id, name: i.name, kind: i.kind, calibrationDue: i.calibrationDue, state: calibrationState(i.calibrationDue) }))
     .filter((i) => i.state === 'overdue' || i.state === 'due-soon');
-  const open = await Capture.findAll({ where: { state: 'open' }, order: [['startedAt', 'DESC']], limit: 50 });
-  const live = open.map((c) => ({ id: c.id, dutId: c.dutId, checkpointId: c.checkpointId, startedAt: c.startedAt, readingCount: c.readingCount }));
+  const live = await onAir();
   return { counts: { studies, checkpoints, duts, instruments, references, captures, users }, calibration, live };
+}
+
+/** Captures recording now, with the names a list needs (study › checkpoint › DUT, operator). */
+export async function onAir() {
+  const rows = await Capture.sequelize!.query<{
+    id: number; dutId: number; checkpointId: number; startedAt: Date; readings: number;
+    dutLabel: string; checkpointName: string; studyTitle: string; studyId: number; operator: string | null;
+  }>(
+    `SELECT c.id, c.dut_id AS "dutId", c.checkpoint_id AS "checkpointId", c.started_at AS "startedAt",
+            c.reading_count AS readings, d.label AS "dutLabel", k.name AS "checkpointName",
+            s.title AS "studyTitle", s.id AS "studyId", u.name AS operator
+     FROM captures c JOIN duts d ON d.id = c.dut_id JOIN checkpoints k ON k.id = c.checkpoint_id
+     JOIN studies s ON s.id = d.study_id LEFT JOIN users u ON u.id = c.operator_id
+     WHERE c.state = 'open' ORDER BY c.started_at DESC LIMIT 50`,
+    { type: QueryTypes.SELECT },
+  );
+  return rows;
 }

@@ -47,6 +47,38 @@ export const routes: RouteRecordRaw[] = [
     meta: { title: 'Lab' },
   },
   {
+    path: '/bench',
+    name: 'bench',
+    component: () => import('../views/BenchView.vue'),
+    meta: { title: 'Bench', roles: ['admin', 'lead', 'engineer', 'technician'] },
+  },
+  {
+    path: '/captures',
+    name: 'captures',
+    component: () => import('../views/CapturesView.vue'),
+    meta: { title: 'Captures' },
+  },
+  {
+    path: '/captures/:id(\\d+)',
+    name: 'capture',
+    component: () => import('../views/CaptureView.vue'),
+    props: (route) => ({ id: Number(route.params.id) }),
+    meta: { title: 'Capture' },
+  },
+  {
+    path: '/captures/:id(\\d+)/live',
+    name: 'capture-live',
+    component: () => import('../views/CaptureLiveView.vue'),
+    props: (route) => ({ id: Number(route.params.id), mode: route.query.mode === 'replay' ? 'replay' : 'watch' }),
+    meta: { title: 'Live view' },
+  },
+  {
+    path: '/links',
+    name: 'links',
+    component: () => import('../views/LinksView.vue'),
+    meta: { title: 'Links' },
+  },
+  {
     path: '/users',
     name: 'users',
     component: () => import('../views/UsersView.vue'),

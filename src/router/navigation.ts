@@ -1,6 +1,6 @@
 import type { Component } from 'vue';
 import type { RouteLocationNamedRaw, Router } from 'vue-router';
-import { Collection, Cpu, Notebook, User } from '@element-plus/icons-vue';
+import { Collection, Connection, Cpu, DataLine, Notebook, User, VideoPlay } from '@element-plus/icons-vue';
 import type { Role } from '../api/auth';
 
 export interface NavItem {
@@ -11,11 +11,14 @@ export interface NavItem {
 
 /**
  * The rail's entries in order. Who sees an entry follows the target route's `meta.roles`, so
- * access rules live in one place (the route table). Bench, Captures and Links join this list.
+ * access rules live in one place (the route table).
  */
 export const NAV_ITEMS: NavItem[] = [
   { label: 'Dashboard', to: { name: 'dashboard' }, icon: Collection },
   { label: 'Studies', to: { name: 'studies' }, icon: Notebook },
+  { label: 'Bench', to: { name: 'bench' }, icon: VideoPlay },
+  { label: 'Captures', to: { name: 'captures' }, icon: DataLine },
+  { label: 'Links', to: { name: 'links' }, icon: Connection },
   { label: 'Lab', to: { name: 'lab' }, icon: Cpu },
   { label: 'Users', to: { name: 'users' }, icon: User },
 ];

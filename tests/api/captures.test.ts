@@ -205,3 +205,14 @@ describe('decimated reads', () => {
     expect(range.body.readings.map((r: { seq: number }) => r.seq)).toEqual(Array.from({ length: 100 }, (_, i) => 100 + i));
   });
 });
+
+describe('CSV export', () => {
+  it('exports every reading of a capture as CSV with a header', async () => {
+    const id = await newCapture();
+    await request(t.app).post(`/api/captures/${id}/readings`).set(await auth('technician')).send({ readings: [reading(0), reading(1), { seq: 2, t: 2, value: 16e6, flags: 1 }] });
+    const res = await request(t.app).get(`/api/captures/${id}/readings.csv`).set(await auth('viewer'));
+    expect(res.status).toBe(200);
+    expect(res.headers['content-type']).toContain('text/csv');
+    expect(res.text.trim().split('\n')).toEqual(['seq,t_s,value_Hz,flags', '0,0,16000000,0', '1,1,16000000.001,0', '2,2,16000000,1']);
+  });
+});
