@@ -190,6 +190,6 @@ export async function benchIngest(): Promise<void> {
   }
 }
 
-if (process.argv[1] && path.resolve(process.argv[1]) === path.resolve(PROJECT_ROOT, 'tests/bench/ingest.ts')) {
+if (process.argv[1] && path.resolve(process.argv[1]) === path.resolve(PROJECT_ROOT, 'tests', 'bench', 'ingest.ts')) {
   await benchIngest();
 }
