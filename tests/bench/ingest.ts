@@ -173,6 +173,40 @@ export async function benchIngest(): Promise<void> {
     await new Promise((r) => setTimeout(r, 300));
     uploader.close();
     ws.close();
+    // 5. Many benches at once: 50 captures at 100 readings/s each, through the uploader.
+    const benches = 50;
+    const seconds = Number(process.env.BENCH_MANY_SECONDS ?? 60);
+    const manyIds = await Promise.all(Array.from({ length: benches }, () => newCapture(0.01)));
+    const uploaders = manyIds.map(
+      (id) =>
+        new ReadingUploader(id, {
+          store: new MemoryPendingStore(),
+          flushMs: 100,
+          send: async (cid, readings) => {
+            const res = await fetch(`${base}/api/captures/${cid}/readings`, { method: 'POST', headers, body: JSON.stringify({ readings }) });
+            if (!res.ok) throw new Error(`HTTP ${res.status}`);
+            return (await res.json()) as IngestResult;
+          },
+        }),
+    );
+    const perBench = seconds * 100;
+    const manyStart = performance.now();
+    for (let tick = 0; tick < seconds * 10; tick++) {
+      const due = manyStart + tick * 100;
+      await new Promise((r) => setTimeout(r, Math.max(0, due - performance.now())));
+      for (const u of uploaders) {
+        void u.add(Array.from({ length: 10 }, (_, i) => ({ seq: tick * 10 + i, t: (tick * 10 + i) * 0.01, value: 16e6 })));
+      }
+    }
+    await Promise.all(uploaders.map((u) => u.drained()));
+    const lag = (performance.now() - manyStart) / 1000 - seconds;
+    const counts = await pool.query<{ capture_id: number; n: number; d: number }>(
+      'SELECT capture_id, count(*)::int AS n, count(DISTINCT seq)::int AS d FROM readings WHERE capture_id = ANY($1) GROUP BY capture_id',
+      [manyIds],
+    );
+    const complete = counts.rows.filter((r) => r.n === perBench && r.d === perBench).length;
+    const failures = uploaders.reduce((a, u) => a + u.snapshot().failures, 0);
+    for (const u of uploaders) u.close();
     await pool.end();
 
     const f = (x: number) => Math.round(x).toLocaleString('en-US');
@@ -183,6 +217,7 @@ export async function benchIngest(): Promise<void> {
     console.log(`  finish 1e6 readings ${finishSeconds.toFixed(2)} s         (summary, stability, budget and tiles, once)`);
     console.log(`  decimated read      ${median(reads).toFixed(1)} ms median, ${points} points (1,000,000 → 2,000; target ≤ 150 ms)`);
     console.log(`  zoomed read         ${median(zooms).toFixed(1)} ms median (200,000-reading window → 2,000)`);
+    console.log(`  ${benches} benches       ${complete}/${benches} captures hold exactly ${f(perBench)} readings each, no duplicates; ${seconds} s at 100 readings/s each, drained ${lag.toFixed(1)} s after the last reading, ${failures} failed requests (target: nothing lost, nothing duplicated)`);
     console.log(`  live path           p50 ${pct(latencies, 0.5).toFixed(1)} ms, p95 ${pct(latencies, 0.95).toFixed(1)} ms over ${latencies.length} readings at 100/s, uploader grouping every 50 ms (target p95 ≤ 100 ms)`);
   } finally {
     server?.kill('SIGTERM');
