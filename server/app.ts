@@ -11,6 +11,7 @@ import { authRouter } from './routes/auth.js';
 import { usersRouter } from './routes/users.js';
 import { studiesRouter } from './routes/studies.js';
 import { labRouter } from './routes/lab.js';
+import { instrumentsRouter } from './routes/instruments.js';
 import { healthRouter } from './routes/health.js';
 import { capturesRouter, comparisonsRouter } from './routes/captures.js';
 import { silentHub, type LiveHub } from './ws/live.js';
@@ -58,6 +59,7 @@ export function createApp(ctx: AppContext): Express {
   api.use('/auth', authRouter(ctx.jwtSecret, ctx.loginRateLimit ?? 20));
   api.use('/users', usersRouter());
   api.use('/studies', studiesRouter());
+  api.use('/instruments', instrumentsRouter());
   api.use(labRouter());
   api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub));
   api.use('/comparisons', comparisonsRouter(ctx.db.pool));

@@ -64,7 +64,7 @@ describe('the Driftbench shell', () => {
     await page.screenshot({ path: path.join(RESULTS, 'sign-in.png') });
 
     await signIn(page, 'technician');
-    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Lab']);
+    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Links', 'Lab']);
     await expect.poll(() => page.locator('[data-count="studies"]').innerText()).toMatch(/^\d+$/);
     expect(Number(await page.locator('[data-count="duts"]').innerText())).toBeGreaterThan(0);
     await expect.poll(() => page.locator('.health-line').innerText()).toMatch(/Database connected/);
@@ -86,7 +86,7 @@ describe('the Driftbench shell', () => {
   it('shows Users to an admin, in either theme', async () => {
     const { page, errors } = await openPage();
     await signIn(page, 'admin');
-    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Lab', 'Users']);
+    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Links', 'Lab', 'Users']);
 
     await page.click('nav[aria-label="Main"] >> text=Users');
     await page.waitForSelector('text=admin@kestrelbay.example');

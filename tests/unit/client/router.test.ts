@@ -79,9 +79,10 @@ describe('router guard', () => {
     expect(localStorage.getItem(SESSION_KEY)).toBeNull();
   });
 
-  it('shows Users in the navigation to admins only', () => {
+  it('shows Users to admins only and Bench to everyone who captures', () => {
     const router = createAppRouter(createMemoryHistory());
-    expect(navItemsFor(router, 'admin').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Lab', 'Users']);
-    expect(navItemsFor(router, 'technician').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Lab']);
+    expect(navItemsFor(router, 'admin').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Links', 'Lab', 'Users']);
+    expect(navItemsFor(router, 'technician').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Links', 'Lab']);
+    expect(navItemsFor(router, 'viewer').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Captures', 'Links', 'Lab']);
   });
 });

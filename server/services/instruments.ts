@@ -1,0 +1,93 @@
+import { Instrument } from '../models/index.js';
+import { NotFoundError } from '../errors.js';
+import { audit } from './audit.js';
+import { calibrationState } from './lab.js';
+import type { LinkProfile } from '../../shared/protocol/linkProfile.js';
+
+/** What the API shows of an instrument (the same shape as the lab's list). */
+export function publicInstrument(i: Instrument) {
+  return {
+    id: i.id,
+    name: i.name,
+    kind: i.kind,
+    maker: i.maker,
+    model: i.model,
+    serial: i.serial,
+    calibrationDue: i.calibrationDue,
+    calibrationState: calibrationState(i.calibrationDue),
+    notes: i.notes,
+    linkProfile: (i.linkProfile as LinkProfile | null) ?? null,
+  };
+}
+
+export interface InstrumentFields {
+  name: string;
+  kind: Instrument['kind'];
+  maker?: string | null;
+  model?: string | null;
+  serial?: string | null;
+  calibrationDue?: string | null;
+  notes?: string | null;
+}
+
+async function find(id: number): Promise<Instrument> {
+  const instrument = await Instrument.findByPk(id);
+  if (!instrument) throw new NotFoundError('Instrument');
+  return instrument;
+}
+
+export async function getInstrument(id: number) {
+  return publicInstrument(await find(id));
+}
+
+/** Registers an instrument (a lab's own counter, bridge, reference…); audited. */
+export async function createInstrument(input: InstrumentFields, actorId: number) {
+  const instrument = await Instrument.create({
+    name: input.name,
+    kind: input.kind,
+    maker: input.maker ?? null,
+    model: input.model ?? null,
+    serial: input.serial ?? null,
+    calibrationDue: input.calibrationDue ?? null,
+    notes: input.notes ?? null,
+  });
+  await audit(actorId, 'instrument.create', 'instrument', instrument.id, { name: input.name, kind: input.kind });
+  return publicInstrument(instrument);
+}
+
+/** Changes an instrument's registration fields; the audit event lists the fields changed. */
+export async function updateInstrument(id: number, patch: Partial<InstrumentFields>, actorId: number) {
+  const instrument = await find(id);
+  const changed: Record<string, { from: unknown; to: unknown }> = {};
+  for (const key of ['name', 'kind', 'maker', 'model', 'serial', 'calibrationDue', 'notes'] as const) {
+    if (patch[key] === undefined) continue;
+    const before = instrument.get(key) as unknown;
+    if (before !== patch[key]) changed[key] = { from: before, to: patch[key] };
+    instrument.set(key, patch[key]);
+  }
+  await instrument.save();
+  if (Object.keys(changed).length > 0) await audit(actorId, 'instrument.update', 'instrument', id, changed);
+  return publicInstrument(instrument);
+}
+
+/** Stores the link profile the bench and the link page offer for this instrument. */
+export async function saveLinkProfile(id: number, profile: LinkProfile, actorId: number): Promise<LinkProfile> {
+  const instrument = await find(id);
+  const had = instrument.linkProfile != null;
+  instrument.linkProfile = profile;
+  await instrument.save();
+  await audit(actorId, had ? 'instrument.link-profile.replace' : 'instrument.link-profile.set', 'instrument', id, {
+    name: profile.name,
+    kind: profile.kind,
+    mode: profile.mode,
+  });
+  return profile;
+}
+
+export async function clearLinkProfile(id: number, actorId: number): Promise<void> {
+  const instrument = await find(id);
+  if (instrument.linkProfile == null) return;
+  instrument.linkProfile = null;
+  await instrument.save();
+  await audit(actorId, 'instrument.link-profile.clear', 'instrument', id);
+}

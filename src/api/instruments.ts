@@ -1,0 +1,52 @@
+import { http, request } from './http';
+import type { InstrumentKind } from './lab';
+import type { LinkProfile } from '../../shared/protocol/linkProfile';
+
+/** One instrument as GET /api/instruments/:id answers it, link profile included. */
+export interface InstrumentDetail {
+  id: number;
+  name: string;
+  kind: InstrumentKind;
+  maker: string | null;
+  model: string | null;
+  serial: string | null;
+  calibrationDue: string | null;
+  calibrationState: 'ok' | 'due-soon' | 'overdue' | 'unknown';
+  notes: string | null;
+  linkProfile: LinkProfile | null;
+}
+
+export interface InstrumentFields {
+  name: string;
+  kind: InstrumentKind;
+  maker?: string | null;
+  model?: string | null;
+  serial?: string | null;
+  calibrationDue?: string | null;
+  notes?: string | null;
+}
+
+export async function fetchInstrument(id: number): Promise<InstrumentDetail> {
+  return (await http.get<{ instrument: InstrumentDetail }>(`/api/instruments/${id}`)).instrument;
+}
+
+/** Every instrument with its link profile (the lab list carries them). */
+export async function listInstrumentsWithProfiles(): Promise<InstrumentDetail[]> {
+  return (await http.get<{ instruments: InstrumentDetail[] }>('/api/instruments')).instruments;
+}
+
+export async function createInstrument(fields: InstrumentFields): Promise<InstrumentDetail> {
+  return (await http.post<{ instrument: InstrumentDetail }>('/api/instruments', fields)).instrument;
+}
+
+export async function updateInstrument(id: number, patch: Partial<InstrumentFields>): Promise<InstrumentDetail> {
+  return (await http.patch<{ instrument: InstrumentDetail }>(`/api/instruments/${id}`, patch)).instrument;
+}
+
+export async function saveLinkProfile(id: number, profile: LinkProfile): Promise<LinkProfile> {
+  return (await request<{ linkProfile: LinkProfile }>('PUT', `/api/instruments/${id}/link-profile`, profile)).linkProfile;
+}
+
+export async function clearLinkProfile(id: number): Promise<void> {
+  await http.delete<void>(`/api/instruments/${id}/link-profile`);
+}

@@ -1,0 +1,146 @@
+import { mkdirSync } from 'node:fs';
+import path from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { chromium, type Browser, type Page } from 'playwright-core';
+import { startTestServer } from '../helpers/appServer.js';
+
+// The link test page against the simulators (talk-only counter, SCPI counter, SPI bridge), and
+// a link profile saved for an instrument from the Lab page.
+const RESULTS = path.resolve('test-results');
+const PASSWORD = 'driftbench-demo';
+
+let server: Awaited<ReturnType<typeof startTestServer>>;
+let browser: Browser;
+
+async function openPage(): Promise<{ page: Page; errors: string[] }> {
+  const context = await browser.newContext({ viewport: { width: 1360, height: 1000 }, colorScheme: 'light' });
+  const page = await context.newPage();
+  const errors: string[] = [];
+  page.on('console', (msg) => {
+    if (msg.type() === 'error') errors.push(msg.text());
+  });
+  page.on('pageerror', (err) => errors.push(err.message));
+  return { page, errors };
+}
+
+async function signIn(page: Page, role: string): Promise<void> {
+  await page.goto(`${server.url}/sign-in`);
+  await page.fill('input[name="email"]', `${role}@kestrelbay.example`);
+  await page.fill('input[name="password"]', PASSWORD);
+  await page.press('input[name="password"]', 'Enter');
+  await page.waitForSelector('nav[aria-label="Main"]');
+}
+
+async function chooseDevice(page: Page, label: string): Promise<void> {
+  await page.click('[data-device]');
+  await page.click(`.el-select-dropdown__item:visible >> text="${label}"`);
+}
+
+const number = (text: string) => Number(text.replace(/[\s\u2009]/g, '').replace('\u2212', '-'));
+
+describe('the link test page', () => {
+  beforeAll(async () => {
+    mkdirSync(RESULTS, { recursive: true });
+    server = await startTestServer();
+    browser = await chromium.launch({
+      executablePath: '/usr/bin/chromium',
+      args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
+        '--disable-background-networking', '--disable-component-update', '--disable-sync'],
+    });
+  });
+
+  afterAll(async () => {
+    await browser?.close();
+    await server?.stop();
+  });
+
+  it('streams, queries and transfers over the simulators for an engineer', async () => {
+    const { page, errors } = await openPage();
+    await signIn(page, 'engineer');
+    await page.goto(`${server.url}/links`);
+    await page.waitForSelector('h1:has-text("Links")');
+
+    // Talk-only counter at 10× time: a reading every 0.1 s, near the 16 MHz crystal's nominal.
+    await chooseDevice(page, 'Counter, talk-only stream');
+    await page.click('[data-action="connect"]');
+    await page.waitForSelector('[data-state="connected"]');
+    await expect.poll(() => page.locator('[data-reading]').count(), { timeout: 8000 }).toBeGreaterThanOrEqual(5);
+    const latest = number(await page.locator('[data-latest]').innerText());
+    expect(Math.abs(latest - 16e6)).toBeLessThan(200); // +3.2 ppm offset ≈ +51 Hz
+    expect(await page.locator('.raw__row[data-dir="rx"] .raw__ctl').first().innerText()).toBe('CR');
+    await page.screenshot({ path: path.join(RESULTS, 'links-talk.png') });
+    await page.click('[data-action="disconnect"]');
+
+    // The same counter in query mode: poll READ?, and ask for its identity in between.
+    await chooseDevice(page, 'Counter, query mode (SCPI)');
+    await page.click('[data-action="connect"]');
+    await page.waitForSelector('[data-state="connected"]');
+    await page.click('[data-action="poll"]');
+    await expect.poll(() => page.locator('[data-reading]').count(), { timeout: 8000 }).toBeGreaterThanOrEqual(3);
+    await page.fill('input[name="command"]', '*IDN?');
+    await page.press('input[name="command"]', 'Enter');
+    await expect.poll(() => page.locator('[data-reply]').first().innerText(), { timeout: 5000 }).toContain('Driftbench Labs,SIM-CNT-1');
+    await page.screenshot({ path: path.join(RESULTS, 'links-query.png') });
+    await page.click('[data-action="disconnect"]');
+
+    // The SPI bridge: identity register, then an X/Y/Z burst decoded to g.
+    await chooseDevice(page, 'SPI bridge with accelerometer');
+    await page.click('[data-action="connect"]');
+    await page.waitForSelector('[data-state="connected"]');
+    await page.click('button:has-text("Read identity")');
+    await expect.poll(() => page.locator('[data-transfer]').first().locator('[data-miso]').allInnerTexts()).toEqual(['FF', '5D', '12']);
+    await page.click('button:has-text("Read X, Y, Z")');
+    await expect.poll(() => page.locator('[data-transfer]').first().locator('[data-axis]').count()).toBe(3);
+    const z = await page.locator('[data-transfer]').first().locator('[data-axis]').nth(2).innerText();
+    expect(Number(/Z \+(\d\.\d+) g/.exec(z)?.[1])).toBeCloseTo(1, 1);
+    await page.click('[data-action="poll"]');
+    await expect.poll(() => page.locator('[data-reading]').count(), { timeout: 8000 }).toBeGreaterThanOrEqual(5);
+    await page.screenshot({ path: path.join(RESULTS, 'links.png'), fullPage: true });
+    await page.click('[data-action="disconnect"]');
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+
+  it('says plainly when the browser has no Web Serial and offers the simulator', async () => {
+    const { page, errors } = await openPage();
+    await page.addInitScript("Object.defineProperty(Navigator.prototype, 'serial', { get: () => undefined })");
+    await signIn(page, 'technician');
+    await page.goto(`${server.url}/links`);
+    await page.waitForSelector('[data-no-serial]');
+    expect(await page.locator('[data-no-serial]').innerText()).toContain('no Web Serial');
+    expect(await page.locator('label:has-text("Serial port")').getAttribute('class')).toContain('is-disabled');
+    await page.screenshot({ path: path.join(RESULTS, 'links-no-serial.png') });
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+
+  it('lets an admin save a link profile for Counter C-1 from the Lab page', async () => {
+    const { page, errors } = await openPage();
+    await signIn(page, 'admin');
+    await page.goto(`${server.url}/lab`);
+    await page.click('button[aria-label="Edit link profile of Counter C-1"]');
+    const drawer = page.locator('.el-drawer');
+    await drawer.locator('input[name="profile-name"]').waitFor();
+    await drawer.locator('[data-preset="scpi-counter"]').click();
+    await drawer.locator('input[name="profile-name"]').fill('C-1 on the bench USB port');
+    await drawer.locator('input[name="query-command"]').fill('');
+    await drawer.locator('button:has-text("Save profile")').click();
+    await drawer.locator('text=query mode needs a query command').waitFor();
+    await page.screenshot({ path: path.join(RESULTS, 'link-profile-form-error.png') });
+    await drawer.locator('input[name="query-command"]').fill('READ?');
+    await drawer.locator('textarea[name="init-commands"]').fill('*RST\n:SENS:FREQ:GATE:TIME 1');
+    await expect.poll(() => drawer.locator('.el-form-item__error').count()).toBe(0);
+    await page.screenshot({ path: path.join(RESULTS, 'link-profile-form.png') });
+    await drawer.locator('button:has-text("Save profile")').click();
+    await page.waitForSelector('td >> text=C-1 on the bench USB port');
+    await page.screenshot({ path: path.join(RESULTS, 'lab-link-profiles.png') });
+
+    const token = (await page.evaluate("JSON.parse(localStorage.getItem('driftbench.session')).token")) as string;
+    const res = await fetch(`${server.url}/api/instruments`, { headers: { authorization: `Bearer ${token}` } });
+    const list = (await res.json()) as { instruments: { name: string; linkProfile: unknown }[] };
+    const c1 = list.instruments.find((i) => i.name === 'Counter C-1');
+    expect(c1?.linkProfile).toMatchObject({ name: 'C-1 on the bench USB port', mode: 'query', queryCommand: 'READ?', initCommands: ['*RST', ':SENS:FREQ:GATE:TIME 1'] });
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+});
