@@ -10,7 +10,7 @@ import {
   readingDecimals,
   renderBytes,
   simulatorTarget,
-} from '../../../src/composables/useLinkConsole';
+} from '../../../src/links/linkConsoleText';
 
 const bytes = (s: string) => new TextEncoder().encode(s);
 const text = (lines: Uint8Array[]) => lines.map((l) => new TextDecoder().decode(l));
