@@ -1,0 +1,212 @@
+import { mkdirSync } from 'node:fs';
+import path from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { chromium, type Browser, type Page } from 'playwright-core';
+import { startTestServer } from '../helpers/appServer.js';
+
+// The bench in a real Chromium: a technician captures the Y1 crystal from the simulated counter
+// at 1,000 readings/s, watches the chart and the statistics, stops; the server then holds exactly
+// the readings the bench counted. A viewer replays the capture at 100×.
+const RESULTS = path.resolve('test-results');
+const PASSWORD = 'driftbench-demo';
+
+let server: Awaited<ReturnType<typeof startTestServer>>;
+let browser: Browser;
+let captureId = 0;
+let benchN = 0;
+
+async function api<T>(method: string, url: string, token: string | null, body?: unknown): Promise<T> {
+  const response = await fetch(`${server.url}${url}`, {
+    method,
+    headers: { 'content-type': 'application/json', ...(token ? { authorization: `Bearer ${token}` } : {}) },
+    body: body === undefined ? undefined : JSON.stringify(body),
+  });
+  const json = (await response.json()) as T;
+  if (!response.ok) throw new Error(`${method} ${url}: ${response.status} ${JSON.stringify(json)}`);
+  return json;
+}
+
+async function openPage(): Promise<{ page: Page; errors: string[] }> {
+  const context = await browser.newContext({ viewport: { width: 1440, height: 940 }, colorScheme: 'light' });
+  const page = await context.newPage();
+  const errors: string[] = [];
+  page.on('pageerror', (err) => errors.push(err.message));
+  page.on('console', (msg) => {
+    if (msg.type() === 'error') errors.push(msg.text());
+  });
+  return { page, errors };
+}
+
+async function signIn(page: Page, role: string, next: string): Promise<void> {
+  await page.goto(`${server.url}${next}`);
+  await page.waitForURL(/\/sign-in/);
+  await page.fill('input[name="email"]', `${role}@kestrelbay.example`);
+  await page.fill('input[name="password"]', PASSWORD);
+  await page.press('input[name="password"]', 'Enter');
+  await page.waitForSelector('nav[aria-label="Main"]');
+}
+
+/** Picks an option of an Element Plus select inside the form item `data-field`. */
+async function choose(page: Page, field: string, text: string): Promise<void> {
+  await page.click(`[data-field="${field}"] .el-select__wrapper`);
+  await page.locator('.el-select-dropdown__item:visible', { hasText: text }).first().click();
+  await expect.poll(() => page.locator(`[data-field="${field}"] .el-select__wrapper`).innerText()).toContain(text);
+}
+
+async function radio(page: Page, field: string, text: string): Promise<void> {
+  await page.locator(`[data-field="${field}"] .el-radio-button`, { hasText: text }).first().click();
+}
+
+async function statN(page: Page): Promise<number> {
+  return Number((await page.locator('[data-stat="n"]').innerText()).replace(/\D/g, ''));
+}
+
+describe('the bench', () => {
+  beforeAll(async () => {
+    mkdirSync(RESULTS, { recursive: true });
+    server = await startTestServer();
+    browser = await chromium.launch({
+      executablePath: '/usr/bin/chromium',
+      args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
+        '--disable-background-networking', '--disable-component-update', '--disable-sync'],
+    });
+  });
+
+  afterAll(async () => {
+    await browser?.close();
+    await server?.stop();
+  });
+
+  it('captures the Y1 crystal live and stores exactly the readings the bench showed', async () => {
+    const { page, errors } = await openPage();
+    await signIn(page, 'technician', '/bench');
+    await page.waitForURL(/\/bench/);
+    await page.waitForSelector('[data-testid="start-capture"]');
+
+    await choose(page, 'study', 'Aqueous ultrasonic wash');
+    await choose(page, 'checkpoint', 'Baseline');
+    await choose(page, 'dut', 'Y1 16 MHz crystal');
+    await choose(page, 'instrument', 'Counter C-1');
+    await choose(page, 'reference', 'GPS');
+    await radio(page, 'link-kind', 'Simulator');
+    await radio(page, 'acceleration', '100×');
+    await radio(page, 'mode', 'Talk-only');
+    await page.fill('[data-field="gate"] input', '0.1');
+    await page.press('[data-field="gate"] input', 'Tab');
+    await radio(page, 'target', 'I stop it');
+    await page.fill('[data-field="ambient"] input', '23.4');
+    await page.press('[data-field="ambient"] input', 'Tab');
+    await page.screenshot({ path: path.join(RESULTS, 'bench-setup.png'), fullPage: true });
+    await page.click('[data-testid="start-capture"]');
+
+    await page.waitForSelector('.live-chart canvas');
+    await expect.poll(() => page.locator('[data-testid="link-state"]').innerText(), { timeout: 10_000 }).toContain('Capturing');
+    await expect.poll(() => statN(page), { timeout: 10_000 }).toBeGreaterThan(100);
+    captureId = Number(await page.locator('[data-testid="capture-id"]').innerText());
+
+    // A viewer watches the same capture while it records.
+    const watcher = await openPage();
+    await signIn(watcher.page, 'viewer', `/captures/${captureId}/live?mode=watch`);
+    await expect.poll(() => watcher.page.locator('[data-testid="watch-state"]').innerText(), { timeout: 10_000 }).toContain('On air');
+
+    // Watch the statistics grow for ten seconds.
+    let last = await statN(page);
+    let watched = await statN(watcher.page);
+    for (let i = 0; i < 5; i++) {
+      await page.waitForTimeout(2000);
+      const n = await statN(page);
+      expect(n).toBeGreaterThan(last);
+      last = n;
+      const w = await statN(watcher.page);
+      expect(w).toBeGreaterThan(watched);
+      watched = w;
+    }
+    await watcher.page.screenshot({ path: path.join(RESULTS, 'watch-live.png') });
+    expect(await page.locator('[data-stat="offset"]').innerText()).toMatch(/ppm|ppb/);
+    expect(await page.locator('[data-stat="oadev"]').first().innerText()).toMatch(/10/);
+    await page.screenshot({ path: path.join(RESULTS, 'bench-live.png') });
+
+    await page.click('[data-testid="stop-capture"]');
+    await page.waitForSelector('[data-testid="open-capture"]', { timeout: 30_000 });
+    expect(await page.locator('[data-testid="link-state"]').innerText()).toContain('Finished');
+    benchN = await statN(page);
+    expect(benchN).toBeGreaterThan(1000);
+    expect(Number((await page.locator('[data-testid="acknowledged"]').innerText()).replace(/\D/g, ''))).toBe(benchN);
+    await page.screenshot({ path: path.join(RESULTS, 'bench-finished.png') });
+
+    await expect.poll(() => watcher.page.locator('[data-testid="watch-state"]').innerText(), { timeout: 10_000 }).toContain('Finished');
+    await expect.poll(() => statN(watcher.page), { timeout: 10_000 }).toBe(benchN);
+    expect(watcher.errors).toEqual([]);
+    await watcher.page.context().close();
+
+    await page.click('[data-testid="open-capture"]');
+    await page.waitForURL(new RegExp(`/captures/${captureId}$`));
+
+    const { token } = await api<{ token: string }>('POST', '/api/auth/login', null, { email: 'technician@kestrelbay.example', password: PASSWORD });
+    const capture = await api<{ state: string; readingCount: number; highestSeq: number; gateTime: number; quantity: string }>('GET', `/api/captures/${captureId}`, token);
+    expect(capture.state).toBe('finished');
+    expect(capture.quantity).toBe('frequency');
+    expect(Number(capture.gateTime)).toBe(0.1);
+    expect(capture.readingCount).toBe(benchN);
+    expect(capture.highestSeq).toBe(benchN - 1);
+    const { readings } = await api<{ readings: Array<{ seq: number }> }>('GET', `/api/captures/${captureId}/readings?from=0`, token);
+    expect(readings.length).toBe(benchN);
+    expect(new Set(readings.map((r) => r.seq)).size).toBe(benchN);
+    expect(readings.every((r, i) => r.seq === i)).toBe(true);
+    expect(errors).toEqual([]);
+  });
+
+  it('replays the capture for a viewer at 100×', async () => {
+    expect(captureId).toBeGreaterThan(0);
+    const { page, errors } = await openPage();
+    await signIn(page, 'viewer', `/captures/${captureId}/live?mode=replay`);
+    await page.waitForURL(/mode=replay/);
+    await page.waitForSelector('.live-chart canvas');
+    await page.locator('[data-testid="replay-speed"] .el-radio-button', { hasText: '100×' }).click();
+    await expect.poll(() => page.locator('[data-testid="replay-toggle"]').isEnabled()).toBe(true);
+    await page.click('[data-testid="replay-toggle"]');
+    await expect.poll(() => statN(page), { timeout: 10_000 }).toBeGreaterThan(200);
+    const first = await statN(page);
+    await page.waitForTimeout(2500);
+    const later = await statN(page);
+    expect(later).toBeGreaterThan(first);
+    expect(later).toBeLessThanOrEqual(benchN);
+    await page.screenshot({ path: path.join(RESULTS, 'replay.png') });
+    expect(errors).toEqual([]);
+  });
+
+  it('runs the guided tilt check of the accelerometer against local gravity', async () => {
+    const { page, errors } = await openPage();
+    await signIn(page, 'technician', '/bench');
+    await page.waitForSelector('[data-testid="start-capture"]');
+    await choose(page, 'dut', 'U5 3-axis accelerometer');
+    await expect.poll(() => page.locator('[data-field="instrument"] .el-select__wrapper').innerText()).toContain('SPI bridge');
+    await radio(page, 'link-kind', 'Simulator');
+    await radio(page, 'acceleration', '10×');
+    await page.fill('[data-field="gate"] input', '0.1');
+    await page.press('[data-field="gate"] input', 'Tab');
+    await radio(page, 'guided', 'Guided tilt check');
+    await page.click('[data-testid="start-capture"]');
+    await page.waitForSelector('[data-testid="accel-step"]');
+    await page.fill('.accel-check__settings input >> nth=0', '50');
+    await page.press('.accel-check__settings input >> nth=0', 'Tab');
+    for (const step of ['Flat', 'On edge', 'Inverted']) {
+      await expect.poll(() => page.locator('[data-testid="accel-step"]').innerText()).toContain(step);
+      await page.click('[data-testid="accel-step"]');
+      if (step === 'On edge') {
+        await page.waitForTimeout(300);
+        await page.screenshot({ path: path.join(RESULTS, 'accel-check-step.png') });
+      }
+      await expect.poll(() => page.locator('.accel-check__got').count(), { timeout: 15_000 }).toBe(['Flat', 'On edge', 'Inverted'].indexOf(step) + 1);
+    }
+    const offset = Number((await page.locator('[data-result="offset"]').innerText()).replace('−', '-').replace(/[^\d.+-]/g, ''));
+    const sensitivity = Number((await page.locator('[data-result="sensitivity"]').innerText()).replace('−', '-').replace(/[^\d.+-]/g, ''));
+    // The simulated part: Z bias +6.1 mg, sensitivity error +0.4 % (simulators/README.md).
+    expect(offset).toBeGreaterThan(5.1);
+    expect(offset).toBeLessThan(7.1);
+    expect(sensitivity).toBeGreaterThan(0.3);
+    expect(sensitivity).toBeLessThan(0.5);
+    await page.screenshot({ path: path.join(RESULTS, 'accel-check.png'), fullPage: true });
+    expect(errors).toEqual([]);
+  });
+});
