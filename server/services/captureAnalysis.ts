@@ -55,7 +55,7 @@ export function prepare(c: Capture, s: Series): Prepared {
   const flagged = s.seq.length - keep.length;
   let values: Float64Array = Float64Array.from(keep, (i) => s.value[i]);
   let t: Float64Array = Float64Array.from(keep, (i) => s.t[i]);
-  if (yRef !== 0) values = referenceCorrect(values, yRef);
+  if (yRef !== 0 && values.length > 0) values = referenceCorrect(values, yRef);
   let stats: Summary | null = null;
   let outliers = 0;
   if (values.length >= 2) {

@@ -216,3 +216,18 @@ describe('CSV export', () => {
     expect(res.text.trim().split('\n')).toEqual(['seq,t_s,value_Hz,flags', '0,0,16000000,0', '1,1,16000000.001,0', '2,2,16000000,1']);
   });
 });
+
+describe('analysis of tiny captures', () => {
+  it.each([0, 1, 2, 3])('answers the analysis of a capture with %i reading(s), open and finished, without a server error', async (n) => {
+    const id = await newCapture('technician', { referenceId: 1 });
+    if (n) await request(t.app).post(`/api/captures/${id}/readings`).set(await auth('technician')).send({ readings: Array.from({ length: n }, (_, i) => reading(i)) });
+    const open = await request(t.app).get(`/api/captures/${id}/analysis`).set(await auth('viewer'));
+    expect(open.status).toBe(200);
+    expect(open.body.counts.total).toBe(n);
+    const fin = await request(t.app).post(`/api/captures/${id}/finish`).set(await auth('technician'));
+    expect(fin.status).toBe(200);
+    const done = await request(t.app).get(`/api/captures/${id}/analysis?kind=mdev`).set(await auth('viewer'));
+    expect(done.status).toBe(200);
+    expect(done.body.stats === null).toBe(n < 2);
+  });
+});
