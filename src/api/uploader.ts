@@ -54,6 +54,8 @@ export class ReadingUploader {
   private backoff: number;
   private readonly state: UploaderState = { pending: 0, sent: 0, duplicates: 0, failures: 0, offline: false };
   private drainWaiters: Array<() => void> = [];
+  /** Readings handed to `add` whose store write has not finished yet. */
+  private readonly storing = new Set<Promise<void>>();
 
   constructor(
     readonly captureId: number,
@@ -66,7 +68,13 @@ export class ReadingUploader {
   /** Keeps the readings in the store, then schedules a send. */
   async add(readings: ReadingIn[]): Promise<void> {
     if (readings.length === 0) return;
-    await this.opts.store.put(this.captureId, readings);
+    const stored = this.opts.store.put(this.captureId, readings);
+    this.storing.add(stored);
+    try {
+      await stored;
+    } finally {
+      this.storing.delete(stored);
+    }
     this.state.pending += readings.length;
     this.emit();
     this.schedule(this.opts.flushMs);
@@ -79,9 +87,14 @@ export class ReadingUploader {
     this.schedule(0);
   }
 
-  /** Resolves once nothing is pending (or the uploader was stopped). */
-  drained(): Promise<void> {
-    if (this.state.pending === 0 && !this.running) return Promise.resolve();
+  /**
+   * Resolves once every reading handed to `add` so far is acknowledged (or the uploader was
+   * stopped). Readings still being written to the store count as pending.
+   */
+  async drained(): Promise<void> {
+    while (this.storing.size > 0) await Promise.allSettled([...this.storing]);
+    if (this.closed) return;
+    if (this.state.pending === 0 && !this.running && !this.timer) return;
     return new Promise((resolve) => {
       this.drainWaiters.push(resolve);
       this.schedule(0);
@@ -143,7 +156,8 @@ export class ReadingUploader {
     } finally {
       this.running = false;
     }
-    if (retryIn) this.schedule(retryIn);
+    if (this.closed) this.resolveDrain();
+    else if (retryIn) this.schedule(retryIn);
     else if (this.state.pending > 0) this.schedule(0);
     else this.resolveDrain();
   }
