@@ -72,6 +72,20 @@ describe('the Driftbench shell', () => {
     expect(await page.locator('.nav-rail__name').innerText()).toBe('Tomas Technician');
     await page.screenshot({ path: path.join(RESULTS, 'shell-technician.png') });
 
+    // A capture started elsewhere appears on air without a reload, and leaves when finished.
+    const token = await page.evaluate(() => JSON.parse(localStorage.getItem('driftbench.session') ?? '{}').token as string);
+    const api = (method: string, url: string, body?: unknown) =>
+      fetch(`${server.url}${url}`, {
+        method,
+        headers: { 'content-type': 'application/json', authorization: `Bearer ${token}` },
+        body: body === undefined ? undefined : JSON.stringify(body),
+      }).then((r) => r.json() as Promise<{ id: number; duts: { id: number }[]; checkpoints: { id: number }[] }>);
+    const study = await api('GET', '/api/studies/1');
+    const capture = await api('POST', '/api/captures', { dutId: study.duts[0].id, checkpointId: study.checkpoints[0].id, quantity: 'frequency', unit: 'Hz', gateTime: 1 });
+    await expect.poll(() => page.locator('body').innerText(), { timeout: 10_000 }).toContain('Y1 16 MHz crystal');
+    await api('POST', `/api/captures/${capture.id}/finish`);
+    await expect.poll(() => page.locator('body').innerText(), { timeout: 10_000 }).toContain('No captures are running');
+
     await page.goto(`${server.url}/lab`);
     await page.waitForSelector('text=GPS 10 MHz reference');
     expect(await page.locator('body').innerText()).toMatch(/Overdue by \d+ day/);
