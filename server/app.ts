@@ -58,7 +58,7 @@ export function createApp(ctx: AppContext): Express {
   api.use(authenticate(ctx.jwtSecret, ctx.db.pool));
   api.use('/auth', authRouter(ctx.jwtSecret, ctx.loginRateLimit ?? 20));
   api.use('/users', usersRouter());
-  api.use('/studies', studiesRouter());
+  api.use('/studies', studiesRouter(ctx.db.pool));
   api.use('/instruments', instrumentsRouter());
   api.use(labRouter());
   api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub));

@@ -1,16 +1,21 @@
 import { Router } from 'express';
+import type pg from 'pg';
+import { studyMatrix } from '../services/comparisons.js';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
 import { addCheckpoint, addDut, createStudy, getStudy, listStudies } from '../services/studies.js';
 import { CheckpointCreate, DutCreate, IdParam, StudyCreate } from '../../shared/protocol/api.js';
 
-export function studiesRouter(): Router {
+export function studiesRouter(pool: pg.Pool): Router {
   const r = Router();
   r.get('/', authorize('read'), async (_req, res) => {
     res.json({ studies: await listStudies() });
   });
   r.get('/:id', authorize('read'), async (req, res) => {
     res.json(await getStudy(parse(IdParam, req.params, 'id').id));
+  });
+  r.get('/:id/matrix', authorize('read'), async (req, res) => {
+    res.json(await studyMatrix(pool, parse(IdParam, req.params, 'id').id));
   });
   r.post('/', authorize('studies:plan'), async (req, res) => {
     res.status(201).json(await createStudy(parse(StudyCreate, req.body), currentUser(req).id));

@@ -1,6 +1,6 @@
 import type pg from 'pg';
 import { compare } from '../../shared/analysis/index.js';
-import { Capture, Dut } from '../models/index.js';
+import { Capture, Checkpoint, Dut, Study } from '../models/index.js';
 import { AppError, NotFoundError, ValidationError } from '../errors.js';
 import { preparedFor, reduce, type CaptureSummary } from './captureAnalysis.js';
 
@@ -53,4 +53,58 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
     after: { id: after.id, mean: sa.stats.mean, checkpointId: after.checkpointId, ambientC: after.ambientC },
     dut: dut.toPublic(),
   };
+}
+
+/**
+ * The study matrix: for every DUT (rows) and checkpoint (columns) the latest finished capture,
+ * and — from the second checkpoint on — its comparison with the DUT's baseline capture (the
+ * latest finished capture at the study's first checkpoint).
+ */
+export async function studyMatrix(pool: pg.Pool, studyId: number) {
+  const [duts, checkpoints] = await Promise.all([
+    Dut.findAll({ where: { studyId }, order: [['id', 'ASC']] }),
+    Checkpoint.findAll({ where: { studyId }, order: [['position', 'ASC'], ['id', 'ASC']] }),
+  ]);
+  if (checkpoints.length === 0 && duts.length === 0 && !(await Study.findByPk(studyId))) throw new NotFoundError('Study');
+  const captures = duts.length
+    ? await Capture.findAll({ where: { dutId: duts.map((d) => d.id), state: 'finished' }, order: [['endedAt', 'DESC']] })
+    : [];
+  const latest = new Map<string, Capture>();
+  for (const c of captures) {
+    const key = `${c.dutId}:${c.checkpointId}`;
+    if (!latest.has(key)) latest.set(key, c);
+  }
+  const baselineId = checkpoints[0]?.id;
+  const rows = [];
+  for (const dut of duts) {
+    const base = baselineId ? latest.get(`${dut.id}:${baselineId}`) : undefined;
+    const cells = [];
+    for (const cp of checkpoints) {
+      const c = latest.get(`${dut.id}:${cp.id}`);
+      if (!c) {
+        cells.push({ checkpointId: cp.id, capture: null, comparison: null });
+        continue;
+      }
+      const s = c.summary as CaptureSummary | null;
+      const capture = { id: c.id, readingCount: c.readingCount, ambientC: c.ambientC, mean: s?.stats?.mean ?? null, offsetPpm: s?.offsetPpm ?? null };
+      let comparison = null;
+      if (base && base.id !== c.id && s?.stats && (base.summary as CaptureSummary | null)?.stats) {
+        const r = await compareCaptures(pool, base.id, c.id);
+        comparison = {
+          before: base.id,
+          delta: r.delta,
+          deltaPpm: r.deltaPpm ?? null,
+          expandedUncertainty: r.expandedUncertainty,
+          limit: r.limit,
+          limitUnit: r.limitUnit,
+          limitInUnit: r.limitInUnit,
+          verdict: r.verdict,
+          significant: r.significant,
+        };
+      }
+      cells.push({ checkpointId: cp.id, capture, comparison });
+    }
+    rows.push({ dut: dut.toPublic(), cells });
+  }
+  return { studyId, checkpoints: checkpoints.map((c) => c.toPublic()), rows };
 }

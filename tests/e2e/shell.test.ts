@@ -1,41 +1,15 @@
-import { mkdirSync } from 'node:fs';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { chromium, type Browser, type Page } from 'playwright-core';
+import type { Browser, Page } from 'playwright-core';
 import { startTestServer } from '../helpers/appServer.js';
+import { RESULTS, apiWith, launchChromium, openPage, pageToken, signIn } from '../helpers/browser.js';
 
 // The shell in a real Chromium against the built client and a seeded database: sign-in, the
 // role-aware rail, dashboard counts, both themes, and no console errors along the way.
-const RESULTS = path.resolve('test-results');
-const PASSWORD = 'driftbench-demo';
-
 let server: Awaited<ReturnType<typeof startTestServer>>;
 let browser: Browser;
 
-interface Watched {
-  page: Page;
-  errors: string[];
-}
-
-async function openPage(): Promise<Watched> {
-  const context = await browser.newContext({ viewport: { width: 1360, height: 860 }, colorScheme: 'light' });
-  const page = await context.newPage();
-  const errors: string[] = [];
-  page.on('console', (msg) => {
-    if (msg.type() === 'error') errors.push(msg.text());
-  });
-  page.on('pageerror', (err) => errors.push(err.message));
-  return { page, errors };
-}
-
-async function signIn(page: Page, role: string): Promise<void> {
-  await page.goto(`${server.url}/`);
-  await page.waitForURL(/\/sign-in/);
-  await page.fill('input[name="email"]', `${role}@kestrelbay.example`);
-  await page.fill('input[name="password"]', PASSWORD);
-  await page.press('input[name="password"]', 'Enter');
-  await page.waitForSelector('nav[aria-label="Main"]');
-}
+const VIEWPORT = { width: 1360, height: 860 };
 
 async function navLabels(page: Page): Promise<string[]> {
   return (await page.locator('nav[aria-label="Main"] a').allInnerTexts()).map((t) => t.trim());
@@ -43,13 +17,8 @@ async function navLabels(page: Page): Promise<string[]> {
 
 describe('the Driftbench shell', () => {
   beforeAll(async () => {
-    mkdirSync(RESULTS, { recursive: true });
     server = await startTestServer();
-    browser = await chromium.launch({
-      executablePath: '/usr/bin/chromium',
-      args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-        '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-    });
+    browser = await launchChromium();
   });
 
   afterAll(async () => {
@@ -58,12 +27,12 @@ describe('the Driftbench shell', () => {
   });
 
   it('signs a technician in and shows the dashboard without console errors', async () => {
-    const { page, errors } = await openPage();
+    const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
     await page.goto(`${server.url}/`);
     await page.waitForSelector('input[name="email"]');
     await page.screenshot({ path: path.join(RESULTS, 'sign-in.png') });
 
-    await signIn(page, 'technician');
+    await signIn(page, server.url, 'technician');
     expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Links', 'Lab']);
     await expect.poll(() => page.locator('[data-count="studies"]').innerText()).toMatch(/^\d+$/);
     expect(Number(await page.locator('[data-count="duts"]').innerText())).toBeGreaterThan(0);
@@ -73,15 +42,9 @@ describe('the Driftbench shell', () => {
     await page.screenshot({ path: path.join(RESULTS, 'shell-technician.png') });
 
     // A capture started elsewhere appears on air without a reload, and leaves when finished.
-    const token = await page.evaluate(() => JSON.parse(localStorage.getItem('driftbench.session') ?? '{}').token as string);
-    const api = (method: string, url: string, body?: unknown) =>
-      fetch(`${server.url}${url}`, {
-        method,
-        headers: { 'content-type': 'application/json', authorization: `Bearer ${token}` },
-        body: body === undefined ? undefined : JSON.stringify(body),
-      }).then((r) => r.json() as Promise<{ id: number; duts: { id: number }[]; checkpoints: { id: number }[] }>);
-    const study = await api('GET', '/api/studies/1');
-    const capture = await api('POST', '/api/captures', { dutId: study.duts[0].id, checkpointId: study.checkpoints[0].id, quantity: 'frequency', unit: 'Hz', gateTime: 1 });
+    const api = apiWith(server.url, await pageToken(page));
+    const study = await api<{ duts: { id: number }[]; checkpoints: { id: number }[] }>('GET', '/api/studies/1');
+    const capture = await api<{ id: number }>('POST', '/api/captures', { dutId: study.duts[0].id, checkpointId: study.checkpoints[0].id, quantity: 'frequency', unit: 'Hz', gateTime: 1 });
     await expect.poll(() => page.locator('body').innerText(), { timeout: 10_000 }).toContain('Y1 16 MHz crystal');
     await api('POST', `/api/captures/${capture.id}/finish`);
     await expect.poll(() => page.locator('body').innerText(), { timeout: 10_000 }).toContain('No captures are running');
@@ -98,8 +61,8 @@ describe('the Driftbench shell', () => {
   });
 
   it('shows Users to an admin, in either theme', async () => {
-    const { page, errors } = await openPage();
-    await signIn(page, 'admin');
+    const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
+    await signIn(page, server.url, 'admin');
     expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Links', 'Lab', 'Users']);
 
     await page.click('nav[aria-label="Main"] >> text=Users');
@@ -132,8 +95,9 @@ describe('the Driftbench shell', () => {
   });
 
   it('lists studies for an engineer and sends a lost session back to sign-in', async () => {
-    const { page, errors } = await openPage();
-    await signIn(page, 'engineer');
+    // The only console error allowed is the browser's own note about the refused /me call.
+    const { page, errors } = await openPage(browser, { viewport: VIEWPORT, ignoreErrors: [/status of 401/] });
+    await signIn(page, server.url, 'engineer');
     await page.click('nav[aria-label="Main"] >> text=Studies');
     await page.waitForSelector('.el-table__row');
     expect(await page.locator('button:has-text("New study")').isVisible()).toBe(true);
@@ -149,8 +113,7 @@ describe('the Driftbench shell', () => {
     await page.waitForSelector('text=Your session has expired — please sign in again');
     await page.screenshot({ path: path.join(RESULTS, 'sign-in-expired-dark.png') });
 
-    // The only console error allowed is the browser's own note about the refused /me call.
-    expect(errors.filter((e) => !/status of 401/.test(e))).toEqual([]);
+    expect(errors).toEqual([]);
     await page.context().close();
   });
 });
