@@ -4,9 +4,8 @@ import { pino } from 'pino';
 import { loadConfig } from '../server/config.js';
 import { startCluster, portInUse, type LocalCluster } from '../server/db/cluster.js';
 import { ensureDatabase } from '../server/db/connection.js';
-import { resolveJwtSecret } from '../server/services/auth.js';
 import { DEMO_PASSWORD, DEMO_USERS, DEMO_DOMAIN } from '../server/db/seed.js';
-import { startServer, PROJECT_ROOT } from '../server/index.js';
+import { startServer, configuredServerOptions, PROJECT_ROOT } from '../server/index.js';
 import { buildClientIfStale } from './build-client.js';
 
 // `npm start`: a local PostgreSQL of the project's own (unless DATABASE_URL is set), migrations,
@@ -35,17 +34,7 @@ if (!databaseUrl) {
 const stopCluster = () => cluster?.stop();
 try {
   buildClientIfStale(PROJECT_ROOT);
-  const running = await startServer({
-    databaseUrl,
-    jwtSecret: resolveJwtSecret(config.jwtSecret, dataDir),
-    host: config.host,
-    port: config.port,
-    demo: config.demo,
-    clientDir: path.join(PROJECT_ROOT, 'dist'),
-    simulators: config.simulators,
-    loginRateLimit: config.loginRateLimit,
-    log,
-  });
+  const running = await startServer(configuredServerOptions(config, databaseUrl, log));
   console.log(`\nDriftbench is running at ${running.url}`);
   if (config.demo) {
     console.log(`Demo sign-ins (password "${DEMO_PASSWORD}"):`);

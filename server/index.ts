@@ -7,6 +7,8 @@ import { prepareDatabase } from './db/prepare.js';
 import type { Database } from './db/connection.js';
 import { routeUpgrades, type UpgradeHandler } from './ws/upgrade.js';
 import { createLiveHub } from './ws/live.js';
+import { resolveJwtSecret } from './services/auth.js';
+import type { Config } from './config.js';
 
 export const PROJECT_ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 
@@ -70,16 +72,12 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
 }
 
 /**
- * Run directly (`tsx server/index.ts`) against DATABASE_URL, without the local cluster or a client
- * build: the entry used by fault tests and benchmarks. `npm start` is the full entry.
+ * The options both entries (`npm start` and running this file) take from the configuration: the
+ * JWT secret from the environment or the data directory, and the built client under dist/.
  */
-async function main(): Promise<void> {
-  const { loadConfig } = await import('./config.js');
-  const { resolveJwtSecret } = await import('./services/auth.js');
-  const config = loadConfig();
-  if (!config.databaseUrl) throw new Error('DATABASE_URL is required when running server/index.ts directly; use `npm start` otherwise.');
-  const running = await startServer({
-    databaseUrl: config.databaseUrl,
+export function configuredServerOptions(config: Config, databaseUrl: string, log: Logger): ServerOptions {
+  return {
+    databaseUrl,
     jwtSecret: resolveJwtSecret(config.jwtSecret, path.resolve(PROJECT_ROOT, config.dataDir)),
     host: config.host,
     port: config.port,
@@ -87,8 +85,19 @@ async function main(): Promise<void> {
     clientDir: path.join(PROJECT_ROOT, 'dist'),
     simulators: config.simulators,
     loginRateLimit: config.loginRateLimit,
-    log: pino({ level: config.logLevel }),
-  });
+    log,
+  };
+}
+
+/**
+ * Run directly (`tsx server/index.ts`) against DATABASE_URL, without the local cluster or a client
+ * build: the entry used by fault tests and benchmarks. `npm start` is the full entry.
+ */
+async function main(): Promise<void> {
+  const { loadConfig } = await import('./config.js');
+  const config = loadConfig();
+  if (!config.databaseUrl) throw new Error('DATABASE_URL is required when running server/index.ts directly; use `npm start` otherwise.');
+  const running = await startServer(configuredServerOptions(config, config.databaseUrl, pino({ level: config.logLevel })));
   console.log(`listening ${running.url}`);
   const stop = () => void running.close().then(() => process.exit(0));
   process.on('SIGINT', stop);

@@ -1,6 +1,7 @@
 import { Router } from 'express';
 import { authorize } from '../middleware/auth.js';
-import { listInstruments, listReferences } from '../services/lab.js';
+import { listReferences } from '../services/lab.js';
+import { listInstruments } from '../services/instruments.js';
 import { dashboard } from '../services/dashboard.js';
 
 export function labRouter(): Router {

@@ -4,7 +4,7 @@ import { audit } from './audit.js';
 import { calibrationState } from './lab.js';
 import type { LinkProfile } from '../../shared/protocol/linkProfile.js';
 
-/** What the API shows of an instrument (the same shape as the lab's list). */
+/** What the API shows of an instrument, in the list and on its own. */
 export function publicInstrument(i: Instrument) {
   return {
     id: i.id,
@@ -18,6 +18,12 @@ export function publicInstrument(i: Instrument) {
     notes: i.notes,
     linkProfile: (i.linkProfile as LinkProfile | null) ?? null,
   };
+}
+
+/** GET /api/instruments: every instrument, by name. */
+export async function listInstruments() {
+  const rows = await Instrument.findAll({ order: [['name', 'ASC']] });
+  return rows.map(publicInstrument);
 }
 
 export interface InstrumentFields {

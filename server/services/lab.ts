@@ -1,4 +1,4 @@
-import { Instrument, Reference } from '../models/index.js';
+import { Reference } from '../models/index.js';
 
 const DAY = 86_400_000;
 
@@ -9,22 +9,6 @@ export function calibrationState(due: string | null, now = new Date(), soonDays 
   if (left < 0) return 'overdue';
   if (left <= soonDays) return 'due-soon';
   return 'ok';
-}
-
-export async function listInstruments() {
-  const rows = await Instrument.findAll({ order: [['name', 'ASC']] });
-  return rows.map((i) => ({
-    id: i.id,
-    name: i.name,
-    kind: i.kind,
-    maker: i.maker,
-    model: i.model,
-    serial: i.serial,
-    calibrationDue: i.calibrationDue,
-    calibrationState: calibrationState(i.calibrationDue),
-    notes: i.notes,
-    linkProfile: i.linkProfile ?? null,
-  }));
 }
 
 export async function listReferences() {

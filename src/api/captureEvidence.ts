@@ -4,7 +4,7 @@
  * for "Compared with baseline".
  */
 import { http } from './http';
-import { listCaptures, type Capture } from './captures';
+import { listCaptures, type Capture, type CaptureDutRef } from './captures';
 
 export interface StudyCheckpoint {
   id: number;
@@ -13,17 +13,8 @@ export interface StudyCheckpoint {
   exposure: unknown;
 }
 
-export interface StudyDut {
-  id: number;
-  label: string;
-  kind: string;
-  nominal: number;
-  unit: string;
-  limit: number;
-  limitUnit: string;
-  position: string | null;
-  serial: string | null;
-}
+/** A DUT as the study lists it: the capture's DUT reference without the study id. */
+export type StudyDut = Omit<CaptureDutRef, 'studyId'>;
 
 export interface StudyDetail {
   id: number;

@@ -1,18 +1,11 @@
 import { http, request } from './http';
-import type { InstrumentKind } from './lab';
+import type { Instrument, InstrumentKind } from './lab';
 import type { LinkProfile } from '../../shared/protocol/linkProfile';
 
-/** One instrument as GET /api/instruments/:id answers it, link profile included. */
-export interface InstrumentDetail {
+/** One instrument as GET /api/instruments/:id answers it: the lab list's fields, calibration state and link profile. */
+export interface InstrumentDetail extends Omit<Instrument, 'id'> {
   id: number;
-  name: string;
-  kind: InstrumentKind;
-  maker: string | null;
-  model: string | null;
-  serial: string | null;
-  calibrationDue: string | null;
   calibrationState: 'ok' | 'due-soon' | 'overdue' | 'unknown';
-  notes: string | null;
   linkProfile: LinkProfile | null;
 }
 

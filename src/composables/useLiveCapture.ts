@@ -56,6 +56,24 @@ export interface LiveCaptureState {
 
 const EMPTY_UPLOAD: UploaderState = { pending: 0, sent: 0, duplicates: 0, failures: 0, offline: false };
 
+/** The state before any reading: on creation (idle) and again when a capture starts (connecting). */
+function freshState(phase: CapturePhase): LiveCaptureState {
+  return {
+    phase,
+    capture: null,
+    error: null,
+    linkLost: null,
+    taken: 0,
+    upload: { ...EMPTY_UPLOAD },
+    elapsed: 0,
+    garbled: 0,
+    timeouts: 0,
+    lastIssue: null,
+    rate: 0,
+    drainFrom: 0,
+  };
+}
+
 /** 400, 403, 404, 409: the server will never take these readings, so retrying is pointless. */
 export function isPermanentRefusal(err: unknown): boolean {
   return err instanceof ApiError && [400, 403, 404, 409].includes(err.status);
@@ -84,20 +102,7 @@ export interface LiveCaptureOptions {
 
 export function createLiveCapture(opts: LiveCaptureOptions) {
   const store = opts.store ?? defaultPendingStore();
-  const state = reactive<LiveCaptureState>({
-    phase: 'idle',
-    capture: null,
-    error: null,
-    linkLost: null,
-    taken: 0,
-    upload: { ...EMPTY_UPLOAD },
-    elapsed: 0,
-    garbled: 0,
-    timeouts: 0,
-    lastIssue: null,
-    rate: 0,
-    drainFrom: 0,
-  });
+  const state = reactive<LiveCaptureState>(freshState('idle'));
 
   let link: SerialLink | null = null;
   let abort: AbortController | null = null;
@@ -168,20 +173,7 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
   /** Opens the capture and the link, then reads until stopped, the target is reached or the link drops. */
   async function start(plan: CapturePlan): Promise<void> {
     if (state.phase === 'connecting' || state.phase === 'capturing' || state.phase === 'finishing') return;
-    Object.assign(state, {
-      phase: 'connecting',
-      capture: null,
-      error: null,
-      linkLost: null,
-      taken: 0,
-      upload: { ...EMPTY_UPLOAD },
-      elapsed: 0,
-      garbled: 0,
-      timeouts: 0,
-      lastIssue: null,
-      rate: 0,
-      drainFrom: 0,
-    } satisfies LiveCaptureState);
+    Object.assign(state, freshState('connecting'));
     opts.series.clear();
     stopping = null;
     rateMarks = [];

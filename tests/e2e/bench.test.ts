@@ -1,50 +1,18 @@
-import { mkdirSync } from 'node:fs';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { chromium, type Browser, type Page } from 'playwright-core';
+import type { Browser, Page } from 'playwright-core';
 import { startTestServer } from '../helpers/appServer.js';
+import { RESULTS, apiAs, launchChromium, openPage, signIn } from '../helpers/browser.js';
 
 // The bench in a real Chromium: a technician captures the Y1 crystal from the simulated counter
 // at 1,000 readings/s, watches the chart and the statistics, stops; the server then holds exactly
 // the readings the bench counted. A viewer replays the capture at 100×.
-const RESULTS = path.resolve('test-results');
-const PASSWORD = 'driftbench-demo';
-
 let server: Awaited<ReturnType<typeof startTestServer>>;
 let browser: Browser;
 let captureId = 0;
 let benchN = 0;
 
-async function api<T>(method: string, url: string, token: string | null, body?: unknown): Promise<T> {
-  const response = await fetch(`${server.url}${url}`, {
-    method,
-    headers: { 'content-type': 'application/json', ...(token ? { authorization: `Bearer ${token}` } : {}) },
-    body: body === undefined ? undefined : JSON.stringify(body),
-  });
-  const json = (await response.json()) as T;
-  if (!response.ok) throw new Error(`${method} ${url}: ${response.status} ${JSON.stringify(json)}`);
-  return json;
-}
-
-async function openPage(): Promise<{ page: Page; errors: string[] }> {
-  const context = await browser.newContext({ viewport: { width: 1440, height: 940 }, colorScheme: 'light' });
-  const page = await context.newPage();
-  const errors: string[] = [];
-  page.on('pageerror', (err) => errors.push(err.message));
-  page.on('console', (msg) => {
-    if (msg.type() === 'error') errors.push(msg.text());
-  });
-  return { page, errors };
-}
-
-async function signIn(page: Page, role: string, next: string): Promise<void> {
-  await page.goto(`${server.url}${next}`);
-  await page.waitForURL(/\/sign-in/);
-  await page.fill('input[name="email"]', `${role}@kestrelbay.example`);
-  await page.fill('input[name="password"]', PASSWORD);
-  await page.press('input[name="password"]', 'Enter');
-  await page.waitForSelector('nav[aria-label="Main"]');
-}
+const VIEWPORT = { width: 1440, height: 940 };
 
 /** Picks an option of an Element Plus select inside the form item `data-field`. */
 async function choose(page: Page, field: string, text: string): Promise<void> {
@@ -63,13 +31,8 @@ async function statN(page: Page): Promise<number> {
 
 describe('the bench', () => {
   beforeAll(async () => {
-    mkdirSync(RESULTS, { recursive: true });
     server = await startTestServer();
-    browser = await chromium.launch({
-      executablePath: '/usr/bin/chromium',
-      args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-        '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-    });
+    browser = await launchChromium();
   });
 
   afterAll(async () => {
@@ -78,8 +41,8 @@ describe('the bench', () => {
   });
 
   it('captures the Y1 crystal live and stores exactly the readings the bench showed', async () => {
-    const { page, errors } = await openPage();
-    await signIn(page, 'technician', '/bench');
+    const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
+    await signIn(page, server.url, 'technician', '/bench');
     await page.waitForURL(/\/bench/);
     await page.waitForSelector('[data-testid="start-capture"]');
 
@@ -105,8 +68,8 @@ describe('the bench', () => {
     captureId = Number(await page.locator('[data-testid="capture-id"]').innerText());
 
     // A viewer watches the same capture while it records.
-    const watcher = await openPage();
-    await signIn(watcher.page, 'viewer', `/captures/${captureId}/live?mode=watch`);
+    const watcher = await openPage(browser, { viewport: VIEWPORT });
+    await signIn(watcher.page, server.url, 'viewer', `/captures/${captureId}/live?mode=watch`);
     await expect.poll(() => watcher.page.locator('[data-testid="watch-state"]').innerText(), { timeout: 10_000 }).toContain('On air');
 
     // Watch the statistics grow for ten seconds.
@@ -142,14 +105,14 @@ describe('the bench', () => {
     await page.click('[data-testid="open-capture"]');
     await page.waitForURL(new RegExp(`/captures/${captureId}$`));
 
-    const { token } = await api<{ token: string }>('POST', '/api/auth/login', null, { email: 'technician@kestrelbay.example', password: PASSWORD });
-    const capture = await api<{ state: string; readingCount: number; highestSeq: number; gateTime: number; quantity: string }>('GET', `/api/captures/${captureId}`, token);
+    const { call: api } = await apiAs(server.url, 'technician');
+    const capture = await api<{ state: string; readingCount: number; highestSeq: number; gateTime: number; quantity: string }>('GET', `/api/captures/${captureId}`);
     expect(capture.state).toBe('finished');
     expect(capture.quantity).toBe('frequency');
     expect(Number(capture.gateTime)).toBe(0.1);
     expect(capture.readingCount).toBe(benchN);
     expect(capture.highestSeq).toBe(benchN - 1);
-    const { readings } = await api<{ readings: Array<{ seq: number }> }>('GET', `/api/captures/${captureId}/readings?from=0`, token);
+    const { readings } = await api<{ readings: Array<{ seq: number }> }>('GET', `/api/captures/${captureId}/readings?from=0`);
     expect(readings.length).toBe(benchN);
     expect(new Set(readings.map((r) => r.seq)).size).toBe(benchN);
     expect(readings.every((r, i) => r.seq === i)).toBe(true);
@@ -158,8 +121,8 @@ describe('the bench', () => {
 
   it('replays the capture for a viewer at 100×', async () => {
     expect(captureId).toBeGreaterThan(0);
-    const { page, errors } = await openPage();
-    await signIn(page, 'viewer', `/captures/${captureId}/live?mode=replay`);
+    const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
+    await signIn(page, server.url, 'viewer', `/captures/${captureId}/live?mode=replay`);
     await page.waitForURL(/mode=replay/);
     await page.waitForSelector('.live-chart canvas');
     await page.locator('[data-testid="replay-speed"] .el-radio-button', { hasText: '100×' }).click();
@@ -176,8 +139,8 @@ describe('the bench', () => {
   });
 
   it('runs the guided tilt check of the accelerometer against local gravity', async () => {
-    const { page, errors } = await openPage();
-    await signIn(page, 'technician', '/bench');
+    const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
+    await signIn(page, server.url, 'technician', '/bench');
     await page.waitForSelector('[data-testid="start-capture"]');
     await choose(page, 'dut', 'U5 3-axis accelerometer');
     await expect.poll(() => page.locator('[data-field="instrument"] .el-select__wrapper').innerText()).toContain('SPI bridge');

@@ -1,50 +1,33 @@
-import { mkdirSync } from 'node:fs';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { chromium, type Browser, type Page } from 'playwright-core';
+import type { Browser, Page } from 'playwright-core';
 import { startTestServer } from '../helpers/appServer.js';
+import { RESULTS, apiWith, launchChromium, login, openPage, type Api, type Session } from '../helpers/browser.js';
 import { gaussian } from '../helpers/random.js';
 
 // The captures list and a stored capture's page in a real Chromium: a technician records a
 // baseline and an after-exposure capture of the Y1 crystal through the API, then a viewer reads
 // the evidence — chart, statistics, stability with its ribbon, budget and the verdict glyph.
-const RESULTS = path.resolve('test-results');
-const PASSWORD = 'driftbench-demo';
 const NOMINAL = 16_000_000;
 
 let server: Awaited<ReturnType<typeof startTestServer>>;
 let browser: Browser;
-let viewer: { token: string; user: unknown };
-let technician: { token: string; user: unknown };
+let viewer: Session;
+let technician: Session;
 let openId: number;
 let baselineId: number;
 let afterId: number;
 
-async function api<T>(method: string, url: string, token: string | null, body?: unknown): Promise<T> {
-  const response = await fetch(`${server.url}${url}`, {
-    method,
-    headers: { 'content-type': 'application/json', ...(token ? { authorization: `Bearer ${token}` } : {}) },
-    body: body === undefined ? undefined : JSON.stringify(body),
-  });
-  const json = (await response.json()) as T;
-  if (!response.ok) throw new Error(`${method} ${url}: ${response.status} ${JSON.stringify(json)}`);
-  return json;
-}
-
-function login(role: string) {
-  return api<{ token: string; user: unknown }>('POST', '/api/auth/login', null, { email: `${role}@kestrelbay.example`, password: PASSWORD });
-}
-
 /** A finished 1 s-gate capture of a 16 MHz crystal: n readings of white FM 2 × 10⁻⁹, one gap, two garbled lines. */
 async function recordCapture(
-  token: string,
+  api: Api,
   ids: { dutId: number; checkpointId: number; instrumentId: number; referenceId: number },
   n: number,
   offset: number,
   ambientC: number,
   seed: number,
 ) {
-  const capture = await api<{ id: number }>('POST', '/api/captures', token, {
+  const capture = await api<{ id: number }>('POST', '/api/captures', {
     ...ids,
     quantity: 'frequency',
     unit: 'Hz',
@@ -61,21 +44,13 @@ async function recordCapture(
     const garbled = seq === 700 || seq === 2210;
     readings.push({ seq, t: seq, value: NOMINAL * (1 + offset + 2e-9 * g()), ...(garbled ? { flags: 1 } : {}) });
   }
-  await api('POST', `/api/captures/${capture.id}/readings`, token, { readings });
-  await api('POST', `/api/captures/${capture.id}/finish`, token);
+  await api('POST', `/api/captures/${capture.id}/readings`, { readings });
+  await api('POST', `/api/captures/${capture.id}/finish`);
   return capture.id;
 }
 
-async function openAs(session: { token: string; user: unknown }, colorScheme: 'light' | 'dark' = 'light'): Promise<{ page: Page; errors: string[] }> {
-  const context = await browser.newContext({ viewport: { width: 1360, height: 900 }, colorScheme });
-  await context.addInitScript(`localStorage.setItem('driftbench.session', ${JSON.stringify(JSON.stringify(session))})`);
-  const page = await context.newPage();
-  const errors: string[] = [];
-  page.on('console', (msg) => {
-    if (msg.type() === 'error') errors.push(msg.text());
-  });
-  page.on('pageerror', (err) => errors.push(err.message));
-  return { page, errors };
+function openAs(session: Session, colorScheme: 'light' | 'dark' = 'light') {
+  return openPage(browser, { viewport: { width: 1360, height: 900 }, colorScheme, session });
 }
 
 /** Pixels of the stability canvas close to the ribbon's tint (series 1 at 16 % over the white panel). */
@@ -96,29 +71,24 @@ function ribbonPixels(page: Page): Promise<number> {
 
 describe('the capture pages', () => {
   beforeAll(async () => {
-    mkdirSync(RESULTS, { recursive: true });
     server = await startTestServer();
-    browser = await chromium.launch({
-      executablePath: '/usr/bin/chromium',
-      args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-        '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-    });
+    browser = await launchChromium();
 
-    technician = await login('technician');
-    viewer = await login('viewer');
-    const t = technician.token;
-    const { studies } = await api<{ studies: Array<{ id: number }> }>('GET', '/api/studies', t);
+    technician = await login(server.url, 'technician');
+    viewer = await login(server.url, 'viewer');
+    const api = apiWith(server.url, technician.token);
+    const { studies } = await api<{ studies: Array<{ id: number }> }>('GET', '/api/studies');
     const study = await api<{ checkpoints: Array<{ id: number; order: number }>; duts: Array<{ id: number; label: string }> }>(
-      'GET', `/api/studies/${studies[0].id}`, t);
+      'GET', `/api/studies/${studies[0].id}`);
     const checkpoints = [...study.checkpoints].sort((a, b) => a.order - b.order);
     const dutId = study.duts.find((d) => d.label.startsWith('Y1'))!.id;
-    const { instruments } = await api<{ instruments: Array<{ id: number; kind: string }> }>('GET', '/api/instruments', t);
-    const { references } = await api<{ references: Array<{ id: number }> }>('GET', '/api/references', t);
+    const { instruments } = await api<{ instruments: Array<{ id: number; kind: string }> }>('GET', '/api/instruments');
+    const { references } = await api<{ references: Array<{ id: number }> }>('GET', '/api/references');
     const ids = { dutId, instrumentId: instruments.find((i) => i.kind === 'counter')!.id, referenceId: references[0].id };
-    baselineId = await recordCapture(t, { ...ids, checkpointId: checkpoints[0].id }, 3000, 4.1e-6, 23.1, 11);
-    afterId = await recordCapture(t, { ...ids, checkpointId: checkpoints[1].id }, 12_000, 4.35e-6, 23.4, 12);
+    baselineId = await recordCapture(api, { ...ids, checkpointId: checkpoints[0].id }, 3000, 4.1e-6, 23.1, 11);
+    afterId = await recordCapture(api, { ...ids, checkpointId: checkpoints[1].id }, 12_000, 4.35e-6, 23.4, 12);
     // No reference on the open one: the conditions panel then says the timebase is taken as exact.
-    const open = await api<{ id: number }>('POST', '/api/captures', t, {
+    const open = await api<{ id: number }>('POST', '/api/captures', {
       dutId,
       instrumentId: ids.instrumentId,
       checkpointId: checkpoints[2].id,

@@ -1,35 +1,15 @@
-import { mkdirSync } from 'node:fs';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { chromium, type Browser, type Page } from 'playwright-core';
+import type { Browser, Page } from 'playwright-core';
 import { startTestServer } from '../helpers/appServer.js';
+import { RESULTS, apiWith, launchChromium, openPage, pageToken, signIn } from '../helpers/browser.js';
 
 // The link test page against the simulators (talk-only counter, SCPI counter, SPI bridge), and
 // a link profile saved for an instrument from the Lab page.
-const RESULTS = path.resolve('test-results');
-const PASSWORD = 'driftbench-demo';
-
 let server: Awaited<ReturnType<typeof startTestServer>>;
 let browser: Browser;
 
-async function openPage(): Promise<{ page: Page; errors: string[] }> {
-  const context = await browser.newContext({ viewport: { width: 1360, height: 1000 }, colorScheme: 'light' });
-  const page = await context.newPage();
-  const errors: string[] = [];
-  page.on('console', (msg) => {
-    if (msg.type() === 'error') errors.push(msg.text());
-  });
-  page.on('pageerror', (err) => errors.push(err.message));
-  return { page, errors };
-}
-
-async function signIn(page: Page, role: string): Promise<void> {
-  await page.goto(`${server.url}/sign-in`);
-  await page.fill('input[name="email"]', `${role}@kestrelbay.example`);
-  await page.fill('input[name="password"]', PASSWORD);
-  await page.press('input[name="password"]', 'Enter');
-  await page.waitForSelector('nav[aria-label="Main"]');
-}
+const VIEWPORT = { width: 1360, height: 1000 };
 
 async function chooseDevice(page: Page, label: string): Promise<void> {
   await page.click('[data-device]');
@@ -40,13 +20,8 @@ const number = (text: string) => Number(text.replace(/[\s\u2009]/g, '').replace(
 
 describe('the link test page', () => {
   beforeAll(async () => {
-    mkdirSync(RESULTS, { recursive: true });
     server = await startTestServer();
-    browser = await chromium.launch({
-      executablePath: '/usr/bin/chromium',
-      args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-        '--disable-background-networking', '--disable-component-update', '--disable-sync'],
-    });
+    browser = await launchChromium();
   });
 
   afterAll(async () => {
@@ -55,8 +30,8 @@ describe('the link test page', () => {
   });
 
   it('streams, queries and transfers over the simulators for an engineer', async () => {
-    const { page, errors } = await openPage();
-    await signIn(page, 'engineer');
+    const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
+    await signIn(page, server.url, 'engineer', '/sign-in');
     await page.goto(`${server.url}/links`);
     await page.waitForSelector('h1:has-text("Links")');
 
@@ -102,9 +77,9 @@ describe('the link test page', () => {
   });
 
   it('says plainly when the browser has no Web Serial and offers the simulator', async () => {
-    const { page, errors } = await openPage();
+    const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
     await page.addInitScript("Object.defineProperty(Navigator.prototype, 'serial', { get: () => undefined })");
-    await signIn(page, 'technician');
+    await signIn(page, server.url, 'technician', '/sign-in');
     await page.goto(`${server.url}/links`);
     await page.waitForSelector('[data-no-serial]');
     expect(await page.locator('[data-no-serial]').innerText()).toContain('no Web Serial');
@@ -115,8 +90,8 @@ describe('the link test page', () => {
   });
 
   it('lets an admin save a link profile for Counter C-1 from the Lab page', async () => {
-    const { page, errors } = await openPage();
-    await signIn(page, 'admin');
+    const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
+    await signIn(page, server.url, 'admin', '/sign-in');
     await page.goto(`${server.url}/lab`);
     await page.click('button[aria-label="Edit link profile of Counter C-1"]');
     const drawer = page.locator('.el-drawer');
@@ -135,9 +110,8 @@ describe('the link test page', () => {
     await page.waitForSelector('td >> text=C-1 on the bench USB port');
     await page.screenshot({ path: path.join(RESULTS, 'lab-link-profiles.png') });
 
-    const token = (await page.evaluate("JSON.parse(localStorage.getItem('driftbench.session')).token")) as string;
-    const res = await fetch(`${server.url}/api/instruments`, { headers: { authorization: `Bearer ${token}` } });
-    const list = (await res.json()) as { instruments: { name: string; linkProfile: unknown }[] };
+    const api = apiWith(server.url, await pageToken(page));
+    const list = await api<{ instruments: { name: string; linkProfile: unknown }[] }>('GET', '/api/instruments');
     const c1 = list.instruments.find((i) => i.name === 'Counter C-1');
     expect(c1?.linkProfile).toMatchObject({ name: 'C-1 on the bench USB port', mode: 'query', queryCommand: 'READ?', initCommands: ['*RST', ':SENS:FREQ:GATE:TIME 1'] });
     expect(errors).toEqual([]);
