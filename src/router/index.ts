@@ -41,6 +41,13 @@ export const routes: RouteRecordRaw[] = [
     meta: { title: 'Studies' },
   },
   {
+    path: '/studies/:id(\\d+)',
+    name: 'study',
+    component: () => import('../views/StudyView.vue'),
+    props: (route) => ({ id: Number(route.params.id) }),
+    meta: { title: 'Study' },
+  },
+  {
     path: '/lab',
     name: 'lab',
     component: () => import('../views/LabView.vue'),

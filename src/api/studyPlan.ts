@@ -1,0 +1,270 @@
+/**
+ * The study page's data: the plan (checkpoints with their exposure, DUTs with their limits), the
+ * matrix of captures and verdicts, the planning calls, and the small pure helpers the page and
+ * its tests share (exposure summaries, cell figures, counts, form messages).
+ */
+import type { z } from 'zod';
+import { http } from './http';
+import type { StudyStatus } from './studies';
+import type { CheckpointCreate, DutCreate, Exposure } from '../../shared/protocol/api';
+import { groupDigits } from '../utils/format';
+import { formatSigned } from '../utils/si';
+
+export type { CheckpointCreate, DutCreate, Exposure };
+export type Verdict = 'within' | 'exceeds' | 'inconclusive';
+
+export interface PlanCheckpoint {
+  id: number;
+  name: string;
+  order: number;
+  exposure: Exposure | null;
+}
+
+export interface PlanDut {
+  id: number;
+  label: string;
+  kind: string;
+  nominal: number;
+  unit: string;
+  limit: number;
+  limitUnit: string;
+  position: string | null;
+  serial: string | null;
+}
+
+export interface StudyPlan {
+  id: number;
+  title: string;
+  process: string | null;
+  description: string | null;
+  status: StudyStatus;
+  checkpoints: PlanCheckpoint[];
+  duts: PlanDut[];
+}
+
+export interface CellCapture {
+  id: number;
+  readingCount: number;
+  ambientC: number | null;
+  mean: number | null;
+  offsetPpm: number | null;
+}
+
+export interface CellComparison {
+  before: number;
+  delta: number;
+  deltaPpm: number | null;
+  expandedUncertainty: number;
+  limit: number;
+  limitUnit: string;
+  limitInUnit: number | null;
+  verdict: Verdict;
+  significant: boolean;
+}
+
+export interface MatrixCell {
+  checkpointId: number;
+  capture: CellCapture | null;
+  comparison: CellComparison | null;
+}
+
+export interface StudyMatrix {
+  studyId: number;
+  checkpoints: PlanCheckpoint[];
+  rows: Array<{ dut: PlanDut; cells: MatrixCell[] }>;
+}
+
+export function getStudyPlan(id: number): Promise<StudyPlan> {
+  return http.get(`/api/studies/${id}`);
+}
+
+export function getStudyMatrix(id: number): Promise<StudyMatrix> {
+  return http.get(`/api/studies/${id}/matrix`);
+}
+
+export function addCheckpoint(studyId: number, body: CheckpointCreate): Promise<PlanCheckpoint> {
+  return http.post(`/api/studies/${studyId}/checkpoints`, body);
+}
+
+export function addDut(studyId: number, body: DutCreate): Promise<PlanDut> {
+  return http.post(`/api/studies/${studyId}/duts`, body);
+}
+
+/** Checkpoints in their planned order (ties by id, as the server orders them). */
+export function inOrder<T extends { order: number; id: number }>(checkpoints: readonly T[]): T[] {
+  return [...checkpoints].sort((a, b) => a.order - b.order || a.id - b.id);
+}
+
+function plain(value: number): string {
+  return Number(value.toPrecision(6)).toString();
+}
+
+/** One line for a column head: "40 kHz · 45 °C · 3 min/side"; a non-bath exposure leads with its process. */
+export function exposureSummary(exposure: Exposure | null | undefined): string {
+  if (!exposure) return 'No exposure';
+  const parts: string[] = [];
+  if (exposure.bathKHz === undefined && exposure.process) parts.push(exposure.process);
+  if (exposure.bathKHz !== undefined) parts.push(`${plain(exposure.bathKHz)} kHz`);
+  if (exposure.temperatureC !== undefined) parts.push(`${plain(exposure.temperatureC)} °C`);
+  if (exposure.minutesPerSide) parts.push(`${plain(exposure.minutesPerSide)} min/side`);
+  return parts.length ? parts.join(' · ') : (exposure.notes ?? 'Exposure planned');
+}
+
+/** Whether a planned exposure involves a bath, a solvent or heat — where the cautions apply. */
+export function plansBathExposure(exposure: Exposure | null | undefined): boolean {
+  return !!exposure && (exposure.bathKHz !== undefined || !!exposure.solvent || exposure.temperatureC !== undefined);
+}
+
+export const DUT_KIND_LABELS: Record<string, string> = {
+  crystal: 'Crystal',
+  oscillator: 'Oscillator module',
+  'tuning-fork': 'Tuning-fork crystal',
+  tcxo: 'TCXO',
+  accelerometer: 'Accelerometer',
+  capacitor: 'Capacitor',
+  relay: 'Relay or switch',
+  other: 'Other',
+};
+
+/** Common practice in the trade, in Driftbench's words: how each kind of part takes a wash. */
+export const DUT_KIND_NOTES: Record<string, string> = {
+  crystal: 'MHz crystals are small and stiff; they usually come through ultrasonic cleaning unchanged.',
+  oscillator: 'Oscillator modules usually come through ultrasonic cleaning unchanged.',
+  tcxo: 'Like other MHz oscillators, TCXOs usually come through ultrasonic cleaning unchanged.',
+  'tuning-fork': 'A 32.768 kHz tuning fork resonates much nearer a bath’s frequency: wash with caution.',
+  accelerometer: 'MEMS parts with open ports are harmed by liquid unless sealed; check the part’s port and seal.',
+  relay: 'Relays and switches need their maker’s approval before ultrasonic cleaning.',
+  capacitor: 'Check the maker’s cleaning guidance for the dielectric and the case.',
+  other: 'Check the maker’s cleaning guidance for this part.',
+};
+
+export function kindLabel(kind: string): string {
+  return DUT_KIND_LABELS[kind] ?? kind;
+}
+
+/** "±1 ppm", "±20 mg". */
+export function limitText(dut: Pick<PlanDut, 'limit' | 'limitUnit'>): string {
+  return `±${plain(dut.limit)} ${dut.limitUnit}`;
+}
+
+/** "32 768 Hz", "16 000 000 Hz". */
+export function nominalText(dut: Pick<PlanDut, 'nominal' | 'unit'>): string {
+  return `${groupDigits(dut.nominal)} ${dut.unit}`;
+}
+
+/** Decimals that show a figure to about a tenth of its uncertainty. */
+function decimalsFor(u: number): number {
+  if (!(u > 0) || !Number.isFinite(u)) return 3;
+  return Math.max(1, Math.min(5, Math.ceil(-Math.log10(u)) + 1));
+}
+
+export interface CellFigures {
+  /** Δ, U and L in one display unit, for the glyph. */
+  delta: number;
+  expanded: number;
+  limit: number;
+  unit: string;
+  /** "+2.503 ppm" — signed. */
+  deltaText: string;
+  /** "±0.021 ppm". */
+  expandedText: string;
+}
+
+/**
+ * A compared cell in the DUT's limit unit when that is relative (ppm/ppb, via the nominal),
+ * otherwise in the quantity's own unit (Hz, mg …) with the limit converted by the server.
+ */
+export function cellFigures(dut: PlanDut, c: CellComparison): CellFigures {
+  const relative = c.limitUnit === 'ppm' || c.limitUnit === 'ppb';
+  let delta: number;
+  let expanded: number;
+  let limit: number;
+  let unit: string;
+  if (relative && dut.nominal > 0) {
+    const scale = c.limitUnit === 'ppm' ? 1e6 : 1e9;
+    delta = c.deltaPpm !== null && c.limitUnit === 'ppm' ? c.deltaPpm : (c.delta / dut.nominal) * scale;
+    expanded = (c.expandedUncertainty / dut.nominal) * scale;
+    limit = c.limit;
+    unit = c.limitUnit;
+  } else {
+    delta = c.delta;
+    expanded = c.expandedUncertainty;
+    limit = c.limitInUnit ?? c.limit;
+    unit = dut.unit;
+  }
+  const d = decimalsFor(expanded);
+  return {
+    delta,
+    expanded,
+    limit,
+    unit,
+    deltaText: `${formatSigned(delta, d)} ${unit}`,
+    expandedText: `±${Math.abs(expanded).toFixed(d)} ${unit}`,
+  };
+}
+
+export interface MatrixCounts {
+  within: number;
+  exceeds: number;
+  inconclusive: number;
+  notCaptured: number;
+}
+
+export function matrixCounts(matrix: StudyMatrix): MatrixCounts {
+  const counts: MatrixCounts = { within: 0, exceeds: 0, inconclusive: 0, notCaptured: 0 };
+  for (const row of matrix.rows) {
+    for (const cell of row.cells) {
+      if (!cell.capture) counts.notCaptured++;
+      else if (cell.comparison) counts[cell.comparison.verdict]++;
+    }
+  }
+  return counts;
+}
+
+/** A zod issue as a short sentence for a form field. */
+function friendly(issue: z.core.$ZodIssue): string {
+  const i = issue as z.core.$ZodIssue & { minimum?: number | bigint; maximum?: number | bigint; inclusive?: boolean; origin?: string; expected?: string };
+  switch (i.code) {
+    case 'invalid_type':
+      return i.expected === 'number' ? 'Enter a number' : 'Fill this in';
+    case 'too_small':
+      if (i.origin === 'string') return 'Fill this in';
+      return i.inclusive ? `Use ${i.minimum} or more` : `Use a number above ${i.minimum}`;
+    case 'too_big':
+      if (i.origin === 'string') return `Keep it to ${i.maximum} characters`;
+      return `Use ${i.maximum} or less`;
+    case 'invalid_value':
+      return 'Choose one of the listed values';
+    default:
+      return issue.message;
+  }
+}
+
+/** Field path ("exposure.bathKHz") → its first message, or {} when the value is valid. */
+export function fieldErrors<T>(
+  schema: z.ZodType<T>,
+  value: unknown,
+  /** Field-specific wording for a missing or unusable value, e.g. { label: 'Give the DUT a label' }. */
+  wording: Record<string, string> = {},
+): { data: T | null; errors: Record<string, string> } {
+  const result = schema.safeParse(value);
+  if (result.success) return { data: result.data, errors: {} };
+  const errors: Record<string, string> = {};
+  for (const issue of result.error.issues) {
+    const path = issue.path.map(String).join('.') || 'form';
+    errors[path] ??= wording[path] ?? friendly(issue);
+  }
+  return { data: null, errors };
+}
+
+/** A form's text field as a number: blank → undefined, otherwise Number (NaN is reported as "Enter a number"). */
+export function numberField(text: string): number | undefined {
+  const t = text.trim().replace(',', '.');
+  return t === '' ? undefined : Number(t);
+}
+
+/** A form's text field as optional text. */
+export function textField(text: string): string | undefined {
+  const t = text.trim();
+  return t === '' ? undefined : t;
+}
