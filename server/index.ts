@@ -28,6 +28,7 @@ export interface RunningServer {
   url: string;
   port: number;
   db: Database;
+  hub: ReturnType<typeof createLiveHub>;
   server: http.Server;
   close(): Promise<void>;
 }
@@ -59,6 +60,7 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
     url: `http://${host}:${port}`,
     port,
     db,
+    hub,
     server,
     async close() {
       if (closed) return;

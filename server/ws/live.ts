@@ -2,6 +2,7 @@ import type { IncomingMessage } from 'node:http';
 import type { Duplex } from 'node:stream';
 import { WebSocketServer, type WebSocket } from 'ws';
 import type pg from 'pg';
+import jwt from 'jsonwebtoken';
 import { userFromToken } from '../services/auth.js';
 import type { UpgradeHandler } from './upgrade.js';
 import type { ClientMessage, LiveReading, ServerMessage } from '../../shared/protocol/live.js';
@@ -24,13 +25,21 @@ interface Peer {
   ws: WebSocket;
   watching: Set<number>;
   alive: boolean;
+  userId: number;
+  /** When the peer's sign-in token expires (ms since epoch). */
+  expiresAt: number;
 }
+
+/** Most captures one socket may watch at once. */
+const MAX_WATCHED = 100;
+/** Close code for a session that ended (deactivated account or expired token). */
+export const SESSION_ENDED = 4401;
 
 /**
  * The authenticated WebSocket endpoint `/ws?token=…`: watchers subscribe to captures and receive
  * every accepted reading as soon as its batch is committed.
  */
-export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & UpgradeHandler {
+export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & UpgradeHandler & { recheckSessions(): Promise<void> } {
   const wss = new WebSocketServer({ noServer: true, maxPayload: 64 * 1024 });
   const peers = new Set<Peer>();
   const watchers = new Map<number, Set<Peer>>();
@@ -48,6 +57,10 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
   const handlers: { [K in ClientMessage['type']]: (peer: Peer, msg: Extract<ClientMessage, { type: K }>) => void } = {
     watch(peer, msg) {
       if (!Number.isInteger(msg.captureId)) return;
+      if (peer.watching.size >= MAX_WATCHED && !peer.watching.has(msg.captureId)) {
+        send(peer, { type: 'error', code: 'too-many', message: `A connection may watch at most ${MAX_WATCHED} captures.` });
+        return;
+      }
       peer.watching.add(msg.captureId);
       let set = watchers.get(msg.captureId);
       if (!set) watchers.set(msg.captureId, (set = new Set()));
@@ -61,6 +74,21 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
     },
   };
 
+  /**
+   * Ends the sockets whose session is over — an expired token or a deactivated account — so
+   * watching stops as sign-in does. Runs with every heartbeat.
+   */
+  async function recheckSessions(): Promise<void> {
+    if (peers.size === 0) return;
+    const ids = [...new Set([...peers].map((p) => p.userId))];
+    const res = await pool.query<{ id: number }>('SELECT id FROM users WHERE id = ANY($1) AND active', [ids]);
+    const active = new Set(res.rows.map((r) => r.id));
+    const now = Date.now();
+    for (const peer of peers) {
+      if (!active.has(peer.userId) || peer.expiresAt <= now) peer.ws.close(SESSION_ENDED, 'session ended');
+    }
+  }
+
   const heartbeat = setInterval(() => {
     for (const peer of peers) {
       if (!peer.alive) {
@@ -70,12 +98,17 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
       peer.alive = false;
       peer.ws.ping();
     }
+    recheckSessions().catch(() => {
+      // The database is away; the next heartbeat tries again.
+    });
   }, 30_000);
   heartbeat.unref();
 
-  function accept(ws: WebSocket, userId: number) {
-    const peer: Peer = { ws, watching: new Set(), alive: true };
+  function accept(ws: WebSocket, userId: number, expiresAt: number) {
+    const peer: Peer = { ws, watching: new Set(), alive: true, userId, expiresAt };
     peers.add(peer);
+    // A protocol error (e.g. a frame over maxPayload) must end this socket, not the server.
+    ws.on('error', () => ws.terminate());
     ws.on('pong', () => (peer.alive = true));
     ws.on('message', (data) => {
       let msg: ClientMessage;
@@ -85,12 +118,16 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
         send(peer, { type: 'error', code: 'bad-message', message: 'Messages must be JSON.' });
         return;
       }
-      const handler = handlers[msg?.type as ClientMessage['type']] as ((p: Peer, m: ClientMessage) => void) | undefined;
-      if (!handler) {
-        send(peer, { type: 'error', code: 'unknown-type', message: `Unknown message type.` });
+      const type = typeof msg === 'object' && msg !== null ? (msg as { type?: unknown }).type : undefined;
+      if (typeof type !== 'string' || !Object.hasOwn(handlers, type)) {
+        send(peer, { type: 'error', code: 'unknown-type', message: 'Unknown message type.' });
         return;
       }
-      handler(peer, msg);
+      try {
+        (handlers[type as ClientMessage['type']] as (p: Peer, m: ClientMessage) => void)(peer, msg);
+      } catch {
+        send(peer, { type: 'error', code: 'bad-message', message: 'The message could not be handled.' });
+      }
     });
     ws.on('close', () => {
       for (const id of [...peer.watching]) unwatch(peer, id);
@@ -105,7 +142,10 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
       if (url.pathname !== '/ws') return false;
       const token = url.searchParams.get('token') ?? '';
       userFromToken(token, jwtSecret, pool).then(
-        (user) => wss.handleUpgrade(req, socket, head, (ws) => accept(ws, user.id)),
+        (user) => {
+          const exp = (jwt.decode(token) as jwt.JwtPayload | null)?.exp;
+          wss.handleUpgrade(req, socket, head, (ws) => accept(ws, user.id, exp ? exp * 1000 : Infinity));
+        },
         () => {
           socket.write('HTTP/1.1 401 Unauthorized\r\nConnection: close\r\n\r\n');
           socket.destroy();
@@ -113,6 +153,7 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
       );
       return true;
     },
+    recheckSessions,
     hasWatchers: (captureId) => (watchers.get(captureId)?.size ?? 0) > 0,
     publishReadings(captureId, readings) {
       const set = watchers.get(captureId);

@@ -98,4 +98,33 @@ describe('live watching', () => {
     const status = await new Promise<number>((resolve) => ws.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)));
     expect(status).toBe(401);
   });
+
+  it('survives hostile messages: prototype names, garbage and oversized frames', async () => {
+    const viewer = await login('viewer');
+    const peer = await connect(viewer);
+    peer.ws.send(JSON.stringify({ type: '__proto__' }));
+    peer.ws.send(JSON.stringify({ type: 'constructor', captureId: 1 }));
+    peer.ws.send('not json');
+    peer.ws.send(JSON.stringify(null));
+    const errors = await new Promise<ServerMessage[]>((resolve) => setTimeout(() => resolve(peer.messages.filter((m) => m.type === 'error')), 300));
+    expect(errors).toHaveLength(4);
+    const closed = new Promise<void>((resolve) => peer.ws.on('close', () => resolve()));
+    peer.ws.send('x'.repeat(100 * 1024));
+    await closed;
+    const health = await fetch(`${server.url}/api/health`);
+    expect(health.status).toBe(200);
+  });
+
+  it("closes a watcher's socket once the account is deactivated", async () => {
+    const admin = await login('admin');
+    const engineer = await login('engineer');
+    const peer = await connect(engineer);
+    const users = (await api(admin, 'GET', '/api/users')).users as Array<{ id: number; role: string }>;
+    const id = users.find((u) => u.role === 'engineer')!.id;
+    await api(admin, 'PATCH', `/api/users/${id}`, { active: false });
+    const code = new Promise<number>((resolve) => peer.ws.on('close', (c) => resolve(c)));
+    await server.hub.recheckSessions();
+    expect(await code).toBe(4401);
+    await api(admin, 'PATCH', `/api/users/${id}`, { active: true });
+  });
 });
