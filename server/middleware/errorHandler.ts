@@ -1,6 +1,7 @@
 import type { NextFunction, Request, Response } from 'express';
 import type { Logger } from 'pino';
 import { AppError } from '../errors.js';
+import { AnalysisError } from '../../shared/analysis/index.js';
 
 /** The last middleware: maps AppErrors to the error envelope; anything else is logged and a generic 500. */
 export function errorHandler(log: Logger) {
@@ -8,6 +9,12 @@ export function errorHandler(log: Logger) {
   return (err: unknown, req: Request, res: Response, _next: NextFunction) => {
     if (err instanceof AppError) {
       res.status(err.status).json({ error: { code: err.code, message: err.message, details: err.details } });
+      return;
+    }
+    // The analysis refuses data it cannot reduce (mismatched units, too few points): a 422 with
+    // its reason, not a server error.
+    if (err instanceof AnalysisError) {
+      res.status(422).json({ error: { code: `analysis-${err.code}`, message: err.message } });
       return;
     }
     const e = err as { type?: string; status?: number; message?: string };

@@ -68,8 +68,11 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub): Router {
         copyTo(`COPY (SELECT seq, t AS t_s, value AS "value_${c.unit.replace(/[^A-Za-z%]/g, '')}", flags FROM readings WHERE capture_id = ${id} ORDER BY seq) TO STDOUT WITH (FORMAT csv, HEADER true)`),
       );
       await pipeline(stream, res);
-    } finally {
       client.release();
+    } catch (err) {
+      // A client that went away mid-COPY leaves the connection in an unknown state: discard it.
+      client.release(err as Error);
+      if (!res.headersSent) throw err;
     }
   });
   r.get('/:id/analysis', authorize('read'), async (req, res) => {

@@ -10,6 +10,7 @@ import {
   driftFit,
   uncertaintyBudget,
   tuningForkShift,
+  AnalysisError,
   type StabilityKind,
   type Summary,
 } from '../../shared/analysis/index.js';
@@ -28,6 +29,8 @@ export interface Prepared {
   /** Values used (flags = 0, not outliers), reference-corrected for frequency captures. */
   values: Float64Array;
   t: Float64Array;
+  /** Times of every unflagged reading, outliers included: the basis for finding gaps. */
+  tUnflagged: Float64Array;
   /** Fractional frequency (frequency captures) or the values themselves (other quantities). */
   y: Float64Array;
   tau0: number;
@@ -56,6 +59,7 @@ export function prepare(c: Capture, s: Series): Prepared {
   let values: Float64Array = Float64Array.from(keep, (i) => s.value[i]);
   let t: Float64Array = Float64Array.from(keep, (i) => s.t[i]);
   if (yRef !== 0 && values.length > 0) values = referenceCorrect(values, yRef);
+  const tUnflagged = t;
   let stats: Summary | null = null;
   let outliers = 0;
   if (values.length >= 2) {
@@ -71,7 +75,7 @@ export function prepare(c: Capture, s: Series): Prepared {
   }
   const nominal = c.nominal ?? stats?.mean ?? 0;
   const y = c.quantity === 'frequency' && nominal > 0 ? values.map((v) => (v - nominal) / nominal) : values.slice();
-  return { values, t, y, tau0: tau0Of(c), total: s.seq.length, flagged, outliers, stats, yRef };
+  return { values, t, tUnflagged, y, tau0: tau0Of(c), total: s.seq.length, flagged, outliers, stats, yRef };
 }
 
 /** The averaging factors of a τ set for a series of n points. */
@@ -99,21 +103,34 @@ function temperatureCoefficient(dut: Dut | null, ambientC: number | null): numbe
   return undefined;
 }
 
+/** Runs one optional figure; an AnalysisError becomes a note instead of failing the reduction. */
+function tryAnalysis<T>(run: () => T, notes: string[], what: string): T | null {
+  try {
+    return run();
+  } catch (err) {
+    if (!(err instanceof AnalysisError)) throw err;
+    notes.push(`${what} not computed: ${err.message}`);
+    return null;
+  }
+}
+
 /** The full reduction of one capture: what the capture page shows and what a comparison uses. */
 export function reduce(c: Capture, dut: Dut | null, p: Prepared) {
   const notes: string[] = [];
   if (p.flagged) notes.push(`${p.flagged} flagged reading(s) (garbled or timed out) left out of the analysis.`);
   if (p.outliers) notes.push(`${p.outliers} outlier(s) by robust z > 5 left out of the statistics; raw readings kept.`);
-  const gaps = p.t.length >= 2 ? findGaps(p.t, p.tau0) : [];
+  // Timestamps come from outside (the bench, a CSV): a series whose times run backwards or stand
+  // still still reduces; only the gap and drift figures that need ordered times are left out.
+  const gaps = p.tUnflagged.length >= 2 ? (tryAnalysis(() => findGaps(p.tUnflagged, p.tau0), notes, 'Gaps') ?? []) : [];
   if (gaps.length) notes.push(`${gaps.length} gap(s) in the timestamps; stability treats the series as contiguous.`);
-  const drift = p.t.length >= 3 ? driftFit(p.t, p.y) : null;
+  const drift = p.t.length >= 3 ? tryAnalysis(() => driftFit(p.t, p.y), notes, 'Drift') : null;
   const stab = stabilityOf(p, 'oadev', 'octave');
   const span = p.t.length ? p.t[p.t.length - 1] - p.t[0] + p.tau0 : 0;
   let uncertainty = null;
   if (c.quantity === 'frequency' && p.stats && (c.nominal ?? 0) > 0) {
     const last = stab.points[stab.points.length - 1];
     const tempco = temperatureCoefficient(dut, c.ambientC);
-    uncertainty = uncertaintyBudget({
+    const budget = uncertaintyBudget({
       stats: p.stats,
       nominal: c.nominal!,
       gateTime: c.gateTime,
@@ -125,6 +142,9 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared) {
       reference: c.referenceUncertainty !== null ? { offset: c.referenceOffset ?? 0, u: c.referenceUncertainty } : undefined,
       temperature: tempco !== undefined ? { coeffPerC: tempco, uC: THERMOMETER_U_C } : undefined,
     });
+    // The statistics are already reference-corrected (prepare); the budget's own mean would
+    // apply the correction a second time. Its uncertainty components are what we need.
+    uncertainty = { ...budget, mean: p.stats.mean };
   }
   const nominal = c.nominal ?? 0;
   const offsetPpm = c.quantity === 'frequency' && p.stats && nominal > 0 ? ((p.stats.mean - nominal) / nominal) * 1e6 : null;

@@ -48,6 +48,9 @@ export async function createCapture(input: CaptureCreate, operator: AuthUser) {
       { path: 'checkpointId', message: 'belongs to another study than the DUT' },
     ]);
   }
+  if (input.unit !== dut.unit) {
+    throw new ValidationError(`unit: the DUT is measured in ${dut.unit}`, [{ path: 'unit', message: `must be the DUT's unit, ${dut.unit}` }]);
+  }
   const study = await Study.findByPk(dut.studyId);
   if (study && (study.status === 'approved' || study.status === 'in-review')) {
     throw new AppError(409, 'study-locked', `The study is ${study.status}: it takes no new captures.`);
@@ -133,6 +136,11 @@ export async function patchCapture(id: number, patch: CapturePatch, user: AuthUs
   const c = await requireCapture(id);
   const tagger = user.role === 'admin' || user.role === 'lead' || user.role === 'engineer';
   if (!tagger && !canWriteCapture(user, c.operatorId)) throw new ForbiddenError();
+  // The ambient temperature enters the stored reduction (budget, tuning-fork normalisation):
+  // once a capture is finished it is part of the evidence and stays as recorded.
+  if (patch.ambientC !== undefined && c.state !== 'open' && patch.ambientC !== c.ambientC) {
+    throw new AppError(409, 'capture-finished', 'The ambient temperature of a finished capture is part of its evidence and cannot change.');
+  }
   if (patch.notes !== undefined) c.notes = patch.notes;
   if (patch.tags !== undefined) c.tags = patch.tags;
   if (patch.ambientC !== undefined) c.ambientC = patch.ambientC;

@@ -1,8 +1,8 @@
 import type pg from 'pg';
-import { compare } from '../../shared/analysis/index.js';
+import { AnalysisError, compare, normalizeTuningFork } from '../../shared/analysis/index.js';
 import { Capture, Checkpoint, Dut, Study } from '../models/index.js';
 import { AppError, NotFoundError, ValidationError } from '../errors.js';
-import { preparedFor, reduce, type CaptureSummary } from './captureAnalysis.js';
+import { preparedFor, reduce, TUNING_FORK_B, TUNING_FORK_T0, type CaptureSummary } from './captureAnalysis.js';
 
 /** The stored summary of a finished capture, or a fresh reduction of an open one. */
 export async function summaryOf(pool: pg.Pool, c: Capture, dut: Dut | null): Promise<CaptureSummary> {
@@ -26,13 +26,24 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
   const [sb, sa] = await Promise.all([summaryOf(pool, before, dut), summaryOf(pool, after, dut)]);
   if (!sb.stats || !sa.stats) throw new AppError(422, 'not-enough-readings', 'Each capture needs at least two usable readings.');
 
+  // A tuning fork's frequency follows its parabola with temperature: when both ambients are
+  // known, each mean is taken back to T0 before Δ is formed (REFERENCES: Δf/f = B·(T − T0)²).
+  const normalise = dut.kind === 'tuning-fork' && before.ambientC !== null && after.ambientC !== null && before.quantity === 'frequency';
+  const notes: string[] = [];
+  if (normalise) {
+    notes.push(
+      `Tuning fork: both means normalised to ${TUNING_FORK_T0} °C with B = ${TUNING_FORK_B} ppm/°C² before comparing (ambient ${before.ambientC} °C → ${after.ambientC} °C).`,
+    );
+  }
   const side = (c: Capture, s: CaptureSummary) => {
     const refComponent = s.uncertainty?.components.find((x) => /reference/i.test(x.name));
+    const mean = normalise ? normalizeTuningFork(s.stats!.mean, c.ambientC!, { B: TUNING_FORK_B, T0: TUNING_FORK_T0 }) : s.stats!.mean;
     return {
-      mean: s.stats!.mean,
+      mean,
       u: s.uncertainty?.combined ?? s.stats!.sem,
       uReference: refComponent?.contribution,
-      nominal: c.nominal ?? dut.nominal,
+      // Δ in ppm is relative to the DUT's nominal, the same for both sides.
+      nominal: dut.nominal,
       unit: c.unit,
       ambientC: c.ambientC ?? undefined,
     };
@@ -41,11 +52,13 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
   const result = compare(side(before, sb), side(after, sa), {
     limit: dut.limitValue,
     limitUnit: dut.limitUnit,
-    nominal: before.nominal ?? dut.nominal,
+    nominal: dut.nominal,
     sameReference,
   });
   return {
     ...result,
+    notes: [...notes, ...result.notes],
+    temperatureNormalised: normalise,
     limit: dut.limitValue,
     limitUnit: dut.limitUnit,
     limitInUnit: result.limit.quantity,
@@ -89,7 +102,15 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
       const capture = { id: c.id, readingCount: c.readingCount, ambientC: c.ambientC, mean: s?.stats?.mean ?? null, offsetPpm: s?.offsetPpm ?? null };
       let comparison = null;
       if (base && base.id !== c.id && s?.stats && (base.summary as CaptureSummary | null)?.stats) {
-        const r = await compareCaptures(pool, base.id, c.id);
+        let r: Awaited<ReturnType<typeof compareCaptures>>;
+        try {
+          r = await compareCaptures(pool, base.id, c.id);
+        } catch (err) {
+          // One capture that cannot be compared (e.g. in another unit) must not hide the others.
+          if (!(err instanceof AppError) && !(err instanceof AnalysisError)) throw err;
+          cells.push({ checkpointId: cp.id, capture, comparison: null, problem: err.message });
+          continue;
+        }
         comparison = {
           before: base.id,
           delta: r.delta,

@@ -72,7 +72,7 @@ export async function ingestReadings(
   const values = new Array<number>(n);
   const flags = new Array<number>(n);
   let maxSeq = -1;
-  let minSeq = Number.MAX_SAFE_INTEGER;
+  let minSeq = n > 0 ? Number.MAX_SAFE_INTEGER : -1;
   let increasing = true;
   for (let i = 0; i < n; i++) {
     const r = list[i];

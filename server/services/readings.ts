@@ -101,18 +101,27 @@ export async function readSeries(
   }
   const buckets = Math.max(1, Math.floor(opts.maxPoints / 2));
   if (opts.finished) {
-    // The finest level whose tiles over the range are no more than `buckets`.
+    // The finest level whose tiles over the range leave room for the two partial edges.
     let level = 0;
-    while (level < MAX_LEVEL && Math.ceil(span / (TILE_BASE * 2 ** level)) > buckets) level++;
+    while (level < MAX_LEVEL && Math.ceil(span / (TILE_BASE * 2 ** level)) + 2 > buckets) level++;
     const size = TILE_BASE * 2 ** level;
-    if (span / size > 2) {
+    // Tiles are aligned to their own size, the range is not: use the tiles that lie wholly
+    // inside it and take the two partial edges from the raw readings (under 2·size rows), so no
+    // extreme inside the range is lost and none outside it is shown.
+    const firstFull = Math.ceil(from / size);
+    const lastFull = Math.floor((to + 1) / size) - 1;
+    if (lastFull - firstFull >= 1) {
       const res = await pool.query<[number, number, number, number, number, number]>({
         text: `SELECT min_seq, min_t, min_value, max_seq, max_t, max_value FROM reading_tiles
                WHERE capture_id = $1 AND level = $2 AND bucket BETWEEN $3 AND $4 ORDER BY bucket`,
-        values: [captureId, level, Math.floor(from / size), Math.floor(to / size)],
+        values: [captureId, level, firstFull, lastFull],
         rowMode: 'array',
       });
-      if ((res.rowCount ?? 0) > 0) return { readings: tilesToPoints(res.rows, from, to), decimated: true };
+      if ((res.rowCount ?? 0) > 0) {
+        const head = from < firstFull * size ? edgeExtremes(await loadSeries(pool, captureId, from, firstFull * size - 1)) : [];
+        const tail = to >= (lastFull + 1) * size ? edgeExtremes(await loadSeries(pool, captureId, (lastFull + 1) * size, to)) : [];
+        return { readings: [...head, ...tilesToPoints(res.rows, from, to), ...tail], decimated: true };
+      }
     }
   }
   const size = Math.ceil(span / buckets);
@@ -126,6 +135,21 @@ export async function readSeries(
     rowMode: 'array',
   });
   return { readings: tilesToPoints(res.rows, from, to), decimated: true };
+}
+
+/** The lowest and the highest reading of a short run, in seq order. */
+function edgeExtremes(s: Series): SeriesPoint[] {
+  const n = s.seq.length;
+  if (n === 0) return [];
+  let lo = 0;
+  let hi = 0;
+  for (let i = 1; i < n; i++) {
+    if (s.value[i] < s.value[lo]) lo = i;
+    if (s.value[i] > s.value[hi]) hi = i;
+  }
+  const point = (i: number): SeriesPoint => ({ seq: s.seq[i], t: s.t[i], value: s.value[i] });
+  if (lo === hi) return [point(lo)];
+  return lo < hi ? [point(lo), point(hi)] : [point(hi), point(lo)];
 }
 
 function tilesToPoints(rows: Array<[number, number, number, number, number, number]>, from: number, to: number): SeriesPoint[] {

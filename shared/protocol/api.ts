@@ -32,7 +32,7 @@ export const UserPatch = z
   .refine((v) => Object.keys(v).length > 0, { message: 'nothing to change' });
 export type UserPatch = z.infer<typeof UserPatch>;
 
-export const IdParam = z.object({ id: z.coerce.number().int().positive() });
+export const IdParam = z.object({ id: z.coerce.number().int().positive().max(2_147_483_647) });
 
 export const STUDY_STATUSES = ['draft', 'running', 'in-review', 'approved', 'returned'] as const;
 export const StudyStatus = z.enum(STUDY_STATUSES);
