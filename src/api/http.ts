@@ -13,13 +13,16 @@ export class ApiError extends Error {
   readonly status: number;
   readonly code: string;
   readonly details?: ApiErrorDetail[];
+  /** Details the server sent as an object rather than a field list, e.g. `{ index, reason }` for a bad reading. */
+  readonly context?: Record<string, unknown>;
 
-  constructor(status: number, code: string, message: string, details?: ApiErrorDetail[]) {
+  constructor(status: number, code: string, message: string, details?: ApiErrorDetail[], context?: Record<string, unknown>) {
     super(message);
     this.name = 'ApiError';
     this.status = status;
     this.code = code;
     this.details = details;
+    this.context = context;
   }
 }
 
@@ -79,7 +82,8 @@ export function toApiError(status: number, body: unknown): ApiError {
   if (isErrorEnvelope(body)) {
     const { code, message, details } = body.error;
     const text = typeof message === 'string' && message ? message : GENERIC_MESSAGES[status];
-    return new ApiError(status, code, text ?? 'Something went wrong on the server.', toDetails(details));
+    const context = typeof details === 'object' && details !== null && !Array.isArray(details) ? (details as Record<string, unknown>) : undefined;
+    return new ApiError(status, code, text ?? 'Something went wrong on the server.', toDetails(details), context);
   }
   const fallback = status >= 500 ? 'The server could not complete the request. Please try again.' : GENERIC_MESSAGES[status];
   return new ApiError(status, status >= 500 ? 'server' : 'http', fallback ?? `The request failed (HTTP ${status}).`);
@@ -106,6 +110,9 @@ export async function request<T>(
     });
   } catch (cause) {
     if (cause instanceof DOMException && cause.name === 'AbortError') throw cause;
+    if (cause instanceof DOMException && cause.name === 'TimeoutError') {
+      throw new ApiError(0, 'timeout', 'The Driftbench server did not answer in time. Check the connection and try again.');
+    }
     throw new ApiError(0, 'network', 'Driftbench cannot reach its server. Check the connection and try again.');
   }
 

@@ -6,7 +6,7 @@
  */
 import { onBeforeUnmount, reactive } from 'vue';
 import { ApiError } from '../api/http';
-import { createCapture, finishCapture, postReadings, type Capture } from '../api/captures';
+import { createCapture, finishCapture, postReadings, refusedReadingIndex, type Capture } from '../api/captures';
 import { MemoryPendingStore, ReadingUploader, type PendingStore, type UploaderState } from '../api/uploader';
 import { IndexedDbPendingStore } from '../api/indexedDbStore';
 import { readLink } from '../links/linkReader';
@@ -14,6 +14,7 @@ import { serialOptions, type SerialLink } from '../links/SerialLink';
 import type { CaptureCreate, ReadingIn } from '../../shared/protocol/captures';
 import { linkPreset, type LinkPreset, type LinkProfile } from '../../shared/protocol/linkProfile';
 import type { LiveSeries } from './useLiveSeries';
+import { groupDigits } from '../utils/format';
 
 export type CapturePhase = 'idle' | 'connecting' | 'capturing' | 'finishing' | 'finished' | 'error';
 
@@ -54,7 +55,7 @@ export interface LiveCaptureState {
   drainFrom: number;
 }
 
-const EMPTY_UPLOAD: UploaderState = { pending: 0, sent: 0, duplicates: 0, failures: 0, offline: false };
+const EMPTY_UPLOAD: UploaderState = { pending: 0, sent: 0, duplicates: 0, failures: 0, offline: false, storeErrors: 0, held: 0, refused: 0, lost: 0 };
 
 /** The state before any reading: on creation (idle) and again when a capture starts (connecting). */
 function freshState(phase: CapturePhase): LiveCaptureState {
@@ -77,6 +78,19 @@ function freshState(phase: CapturePhase): LiveCaptureState {
 /** 400, 403, 404, 409: the server will never take these readings, so retrying is pointless. */
 export function isPermanentRefusal(err: unknown): boolean {
   return err instanceof ApiError && [400, 403, 404, 409].includes(err.status);
+}
+
+/**
+ * How a backlog left by an earlier session ended: all on the server, discarded because the
+ * server will never take it (capture gone or finished), or still kept in this browser.
+ */
+export interface ResumeOutcome {
+  kind: 'sent' | 'discarded' | 'kept';
+  message: string;
+}
+
+function readingsText(n: number): string {
+  return n === 1 ? '1 reading' : `${groupDigits(n)} readings`;
 }
 
 /** IndexedDB when the browser has it (survives a reload), memory otherwise. */
@@ -113,6 +127,9 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
   let stopping: Promise<Capture | null> | null = null;
   let rateMarks: Array<[number, number]> = [];
   let adding: Promise<void> = Promise.resolve();
+  /** Readings the uploader could not take at all (a guard: `add` keeps them in memory if the store fails). */
+  let unkept = 0;
+  let unkeptReason = '';
 
   function flush() {
     if (!uploader || buffer.length === 0) return;
@@ -123,7 +140,9 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
     adding = adding
       .then(() => u.add(batch))
       .catch((err) => {
-        state.error = `Readings could not be kept for sending: ${errorText(err)}`;
+        unkept += batch.length;
+        unkeptReason = errorText(err);
+        state.error = `Readings could not be kept for sending: ${unkeptReason}`;
       });
     const now = performance.now();
     rateMarks.push([now, state.taken]);
@@ -178,6 +197,8 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
     stopping = null;
     rateMarks = [];
     buffer = [];
+    unkept = 0;
+    unkeptReason = '';
     let capture: Capture;
     try {
       capture = await createCapture(plan.create);
@@ -200,8 +221,9 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
     };
     uploader = new ReadingUploader(capture.id, {
       store,
-      send: (id, readings) => postReadings(id, readings),
+      send: (id, readings, signal) => postReadings(id, readings, { signal }),
       isPermanent: isPermanentRefusal,
+      refusedReading: refusedReadingIndex,
       onState: (s) => {
         state.upload = s;
       },
@@ -238,6 +260,15 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
     uploader.close();
     uploader = null;
     opts.series.refreshStats();
+    const lost = up.lost + unkept;
+    if (lost > 0) {
+      // Finishing would close the capture without them: leave it open and say so.
+      state.phase = 'error';
+      state.error =
+        `${readingsText(lost)} could not be kept for sending (${up.lostReason ?? unkeptReason}), ` +
+        `so capture ${state.capture.id} was not finished and stays open.`;
+      return null;
+    }
     if (up.stopped) {
       state.phase = 'error';
       state.error = `The server refused readings: ${up.stopped}`;
@@ -271,11 +302,60 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
     opts.series.clear();
   }
 
+  /** Deletes every pending reading of a capture from the store. */
+  async function discardPending(captureId: number): Promise<void> {
+    for (;;) {
+      const chunk = await store.take(captureId, 10_000);
+      if (chunk.length === 0) return;
+      await store.remove(captureId, chunk.map((r) => r.seq));
+    }
+  }
+
+  /**
+   * What to do with a backlog once its uploader is done. Readings are deleted only when the
+   * server can never take them: the capture is gone (404) or finished (409). On 403 they stay
+   * for the capture's operator (the store is shared by everyone using this browser); a single
+   * bad reading (400 naming its index) was already dropped by the uploader.
+   */
+  async function settleBacklog(id: number, s: UploaderState, refusal: unknown): Promise<ResumeOutcome> {
+    const dropped = s.refused
+      ? ` ${readingsText(s.refused)} the server named as malformed ${s.refused === 1 ? 'was' : 'were'} dropped (${s.refusedReason}).`
+      : '';
+    if (!s.stopped) {
+      return { kind: 'sent', message: `Capture ${id}: the readings left from an earlier session are now on the server.${dropped}` };
+    }
+    const status = refusal instanceof ApiError ? refusal.status : 0;
+    const n = readingsText(s.pending);
+    if (status === 404 || status === 409) {
+      try {
+        await discardPending(id);
+      } catch (err) {
+        return { kind: 'kept', message: `Capture ${id}: the server will not take ${n} left from an earlier session (${s.stopped}), and they could not be deleted from this browser: ${errorText(err)}` };
+      }
+      return {
+        kind: 'discarded',
+        message:
+          status === 404
+            ? `Capture ${id} no longer exists on the server: ${n} left from an earlier session were discarded.${dropped}`
+            : `Capture ${id} was finished before ${n} left from an earlier session arrived: they came too late and were discarded.${dropped}`,
+      };
+    }
+    if (status === 403) {
+      return {
+        kind: 'kept',
+        message: `Capture ${id}: ${n} from an earlier session are waiting in this browser, but your account may not add them. The capture's operator (or a lead or admin) must sign in here to send them.`,
+      };
+    }
+    return { kind: 'kept', message: `Capture ${id}: the server refused ${n} left from an earlier session (${s.stopped}). They are kept in this browser.${dropped}` };
+  }
+
   /**
    * Sends what an earlier session left in the pending store (a reload or crash mid-capture).
-   * Resolves with the captures and how many readings each had waiting.
+   * Resolves with the captures and how many readings each had waiting; `onDone` says how each ended.
    */
-  async function resumePending(onDone?: (captureId: number, up: UploaderState) => void): Promise<Array<{ captureId: number; pending: number }>> {
+  async function resumePending(
+    onDone?: (captureId: number, up: UploaderState, outcome: ResumeOutcome) => void,
+  ): Promise<Array<{ captureId: number; pending: number }>> {
     let ids: number[];
     try {
       ids = await store.captures();
@@ -284,17 +364,32 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
     }
     const out: Array<{ captureId: number; pending: number }> = [];
     for (const id of ids) {
-      const pending = await store.count(id);
+      let pending: number;
+      try {
+        pending = await store.count(id);
+      } catch {
+        continue;
+      }
       if (!pending) continue;
       out.push({ captureId: id, pending });
-      const u = new ReadingUploader(id, { store, send: (cid, r) => postReadings(cid, r), isPermanent: isPermanentRefusal });
-      void u.resume().then(async () => {
+      let refusal: unknown = null;
+      const u = new ReadingUploader(id, {
+        store,
+        send: (cid, r, signal) => postReadings(cid, r, { signal }),
+        refusedReading: refusedReadingIndex,
+        isPermanent: (err) => {
+          if (!isPermanentRefusal(err)) return false;
+          refusal = err;
+          return true;
+        },
+      });
+      void (async () => {
+        await u.resume();
         await u.drained();
         const s = u.snapshot();
         u.close();
-        if (s.stopped) await store.remove(id, (await store.take(id, 1_000_000)).map((r) => r.seq));
-        onDone?.(id, s);
-      });
+        onDone?.(id, s, await settleBacklog(id, s, refusal));
+      })();
     }
     return out;
   }
