@@ -53,14 +53,25 @@ function openAs(session: Session, colorScheme: 'light' | 'dark' = 'light') {
   return openPage(browser, { viewport: { width: 1360, height: 900 }, colorScheme, session });
 }
 
-/** Pixels of the stability canvas close to the ribbon's tint (series 1 at 16 % over the white panel). */
-function ribbonPixels(page: Page): Promise<number> {
+/** Series colours 1 and 2 of the light theme. */
+const SERIES_1 = 0x1f6f8b;
+const SERIES_2 = 0xc26a1b;
+
+/**
+ * Pixels of the stability canvas close to a ribbon's tint: each series colour of `layers` laid at
+ * 16 % over the white panel in turn (two layers where one ribbon is drawn over another).
+ */
+function ribbonPixels(page: Page, layers = [SERIES_1]): Promise<number> {
+  const tint = layers.reduce(
+    (under, colour) => under.map((u, k) => u - 0.16 * (u - ((colour >> (16 - 8 * k)) & 255))),
+    [255, 255, 255],
+  );
   // Runs in the page (a string, as the Node-side typecheck has no DOM types).
   return page.evaluate(`(() => {
     const canvas = document.querySelector('.stability-plot canvas');
     if (!canvas) return 0;
     const data = canvas.getContext('2d').getImageData(0, 0, canvas.width, canvas.height).data;
-    const [r, g, b] = [255 - 0.16 * (255 - 0x1f), 255 - 0.16 * (255 - 0x6f), 255 - 0.16 * (255 - 0x8b)];
+    const [r, g, b] = [${tint.join(', ')}];
     let count = 0;
     for (let i = 0; i < data.length; i += 4) {
       if (Math.abs(data[i] - r) < 8 && Math.abs(data[i + 1] - g) < 8 && Math.abs(data[i + 2] - b) < 8) count++;
@@ -132,8 +143,17 @@ describe('the capture pages', () => {
 
     await page.waitForSelector('.stability-plot canvas');
     expect(await page.locator('[data-axis-title]').innerText()).toBe('OADEV σ_y(τ)');
-    // White FM of 3000 readings gives narrow intervals at short τ: the ribbon shows most at long τ.
-    await expect.poll(() => ribbonPixels(page)).toBeGreaterThan(30);
+    // The baseline's curve is overlaid (series 1, dashed with square markers) on this capture's (series 2).
+    await expect.poll(() => page.locator('.stability-plot [data-legend-series]').count()).toBe(2);
+    expect(await page.locator('.stability-plot [data-legend-series]').allInnerTexts()).toEqual([
+      `baseline · capture ${baselineId}`,
+      `this capture · capture ${afterId}`,
+    ]);
+    await page.locator('.stability-plot').screenshot({ path: path.join(RESULTS, 'stability-overlay.png') });
+    // White FM gives narrow intervals at short τ: the ribbons show most at long τ, this capture's
+    // alone beyond the baseline's longest τ and over the baseline's where both have points.
+    await expect.poll(() => ribbonPixels(page, [SERIES_2])).toBeGreaterThan(30);
+    await expect.poll(() => ribbonPixels(page, [SERIES_1, SERIES_2])).toBeGreaterThan(30);
     expect(await page.locator('.stability-table tbody tr').count()).toBeGreaterThan(5);
 
     const budget = await page.locator('.budget').innerText();
