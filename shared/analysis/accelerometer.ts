@@ -54,10 +54,46 @@ export function decodeAxis(raw: number | ArrayLike<number>, format: AxisFormat):
 /**
  * Tilt of an axis from horizontal in degrees, asin(a/1 g) with a in g clamped to ±1 (static
  * single-axis tilt sensing; common practice, e.g. makers' application notes, no single source).
+ * Prefer tiltFromAxes: this one loses sensitivity near ±90° and assumes 1 g = g_n.
  */
 export function tiltFromAxis(aG: number): number {
   assertNumber(aG, 'aG');
   return (Math.asin(Math.max(-1, Math.min(1, aG))) * 180) / Math.PI;
+}
+
+/** Tilt from two axes and how well their magnitude agrees with local gravity. */
+export interface TwoAxisTilt {
+  /** Angle of the sensing axis above horizontal, degrees, atan2(a_axis, a_normal) in (−180°, 180°]. */
+  tiltDeg: number;
+  /** √(a_axis² + a_normal²) in mg. */
+  magnitudeMg: number;
+  /** 1 g of local gravity in the sensor's mg (1000·g_local/g_n). */
+  expectedMg: number;
+  /** (magnitude − expected)/expected × 100: large values mean motion, a third-axis component or a calibration error. */
+  magnitudeErrorPct: number;
+}
+
+/**
+ * Tilt of a sensing axis from two orthogonal axes in the plane of rotation, atan2(a_axis, a_normal)
+ * (common practice in makers' tilt-sensing application notes, no single source): unlike
+ * asin(a/1 g) over one axis it keeps full sensitivity near ±90°, does not depend on the scale
+ * factor, and does not assume the local gravity equals g_n. Local gravity (m/s², default g_n;
+ * see wgs84Gravity) sets the expected magnitude 1000·g/g_n mg, against which the two-axis
+ * magnitude is checked. Domain: finite readings, not both zero; g > 0.
+ */
+export function tiltFromAxes(axisMg: number, normalMg: number, localGravity = G_N): TwoAxisTilt {
+  assertNumber(axisMg, 'axisMg');
+  assertNumber(normalMg, 'normalMg');
+  assertNumber(localGravity, 'localGravity', true);
+  const magnitudeMg = Math.hypot(axisMg, normalMg);
+  if (!(magnitudeMg > 0)) throw new AnalysisError('bad-argument', 'both axes read zero: no tilt can be formed');
+  const expectedMg = (1000 * localGravity) / G_N;
+  return {
+    tiltDeg: (Math.atan2(axisMg, normalMg) * 180) / Math.PI,
+    magnitudeMg,
+    expectedMg,
+    magnitudeErrorPct: ((magnitudeMg - expectedMg) / expectedMg) * 100,
+  };
 }
 
 /** Offset and sensitivity of one axis. */

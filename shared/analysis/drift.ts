@@ -75,3 +75,122 @@ export function removeDrift(t: ArrayLike<number>, y: ArrayLike<number>, fit: Dri
   for (let i = 0; i < y.length; i++) out[i] = y[i] - fit.slopePerSecond * (t[i] - fit.tRef);
   return out;
 }
+
+/** Drift removed before stability and noise identification. */
+export const DRIFT_MODELS = ['none', 'linear', 'quadratic'] as const;
+export type DriftModel = (typeof DRIFT_MODELS)[number];
+
+/** A polynomial drift fit and the series with its trend removed. */
+export interface DriftRemoval {
+  model: DriftModel;
+  /** Drift rate at the pivot tRef (d y/dt), per second; 0 for 'none'. */
+  ratePerSecond: number;
+  /** ratePerSecond × 86 400. */
+  ratePerDay: number;
+  /** Standard error of ratePerDay (OLS, white residuals assumed); 0 for 'none'. */
+  rateStderrPerDay: number;
+  /** Quadratic: change of the rate per day (d²y/dt² × 86 400²); 0 otherwise. */
+  curvaturePerDay2: number;
+  /** Mean of t, where the fit is pivoted. */
+  tRef: number;
+  /** √(Σ residual²/(n − p)), p the number of fitted coefficients. */
+  residualSd: number;
+  /**
+   * Population standard deviation of the fitted trend over the readings' times: how much "the
+   * mean" depends on when the capture stops. For a straight line over a span T it is
+   * |rate|·T/√12, the standard deviation of a rectangular spread (JCGM 100 §4.3.7).
+   */
+  trendSd: number;
+  /** y − (trend − its mean): the trend is removed, the mean is kept. */
+  detrended: Float64Array;
+  n: number;
+}
+
+/**
+ * Fits and removes a drift (NIST SP 1065 §6: remove the deterministic drift before estimating
+ * stability, or σ at long τ measures the drift, not the noise): 'none' returns y unchanged,
+ * 'linear' an ordinary least-squares line, 'quadratic' a least-squares parabola (NIST/SEMATECH
+ * e-Handbook §4.1.4.1, polynomial least squares; the standard errors from σ²(XᵀX)⁻¹, white
+ * residuals assumed). Time is centred on t̄ and scaled by the half-span for conditioning. The
+ * trend removed is the fitted curve minus its mean, so the mean of y is unchanged. Domain: ≥ 3
+ * (linear) or ≥ 4 (quadratic) finite pairs, t not all equal.
+ */
+export function fitDrift(t: ArrayLike<number>, y: ArrayLike<number>, model: DriftModel): DriftRemoval {
+  assertSameLength(t, y, 't and y');
+  const p = model === 'quadratic' ? 3 : model === 'linear' ? 2 : 1;
+  assertSeries(t, 't', p === 1 ? 1 : p + 1);
+  assertSeries(y, 'y', p === 1 ? 1 : p + 1);
+  if (!DRIFT_MODELS.includes(model)) throw new AnalysisError('bad-argument', `unknown drift model ${String(model)}`);
+  const n = t.length;
+  const tRef = compensatedSum(t) / n;
+  if (model === 'none') {
+    return { model, ratePerSecond: 0, ratePerDay: 0, rateStderrPerDay: 0, curvaturePerDay2: 0, tRef, residualSd: NaN, trendSd: 0, detrended: Float64Array.from(y), n };
+  }
+  let half = 0;
+  for (let i = 0; i < n; i++) half = Math.max(half, Math.abs(t[i] - tRef));
+  if (!(half > 0)) throw new AnalysisError('bad-argument', 'all timestamps are equal: no drift can be fitted');
+  // Normal equations in s = (t − t̄)/half: XᵀX β = Xᵀy with columns 1, s, s².
+  const xtx = Array.from({ length: p }, () => new Array<number>(p).fill(0));
+  const xty = new Array<number>(p).fill(0);
+  for (let i = 0; i < n; i++) {
+    const s = (t[i] - tRef) / half;
+    const row = [1, s, s * s].slice(0, p);
+    for (let a = 0; a < p; a++) {
+      xty[a] += row[a] * y[i];
+      for (let b = 0; b < p; b++) xtx[a][b] += row[a] * row[b];
+    }
+  }
+  const inv = invertSymmetric(xtx);
+  const beta = inv.map((row) => row.reduce((acc, v, j) => acc + v * xty[j], 0));
+  const trend = new Float64Array(n);
+  let ssr = 0;
+  for (let i = 0; i < n; i++) {
+    const s = (t[i] - tRef) / half;
+    trend[i] = beta[1] * s + (p === 3 ? beta[2] * s * s : 0);
+    const r = y[i] - beta[0] - trend[i];
+    ssr += r * r;
+  }
+  const trendMean = compensatedSum(trend) / n;
+  let trendSs = 0;
+  const detrended = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const d = trend[i] - trendMean;
+    trendSs += d * d;
+    detrended[i] = y[i] - d;
+  }
+  const residualSd = n > p ? Math.sqrt(ssr / (n - p)) : NaN;
+  const ratePerSecond = beta[1] / half;
+  const rateStderr = n > p ? (residualSd * Math.sqrt(inv[1][1])) / half : NaN;
+  return {
+    model,
+    ratePerSecond,
+    ratePerDay: ratePerSecond * SECONDS_PER_DAY,
+    rateStderrPerDay: rateStderr * SECONDS_PER_DAY,
+    curvaturePerDay2: p === 3 ? ((2 * beta[2]) / (half * half)) * SECONDS_PER_DAY ** 2 : 0,
+    tRef,
+    residualSd,
+    trendSd: Math.sqrt(trendSs / n),
+    detrended,
+    n,
+  };
+}
+
+/** Inverse of a small symmetric positive-definite matrix by Gauss–Jordan elimination with pivoting. */
+function invertSymmetric(m: number[][]): number[][] {
+  const n = m.length;
+  const a = m.map((row, i) => [...row, ...Array.from({ length: n }, (_, j) => (i === j ? 1 : 0))]);
+  for (let c = 0; c < n; c++) {
+    let piv = c;
+    for (let r = c + 1; r < n; r++) if (Math.abs(a[r][c]) > Math.abs(a[piv][c])) piv = r;
+    if (!(Math.abs(a[piv][c]) > 1e-300)) throw new AnalysisError('bad-argument', 'too few distinct timestamps for this drift model');
+    [a[c], a[piv]] = [a[piv], a[c]];
+    const d = a[c][c];
+    for (let j = 0; j < 2 * n; j++) a[c][j] /= d;
+    for (let r = 0; r < n; r++) {
+      if (r === c) continue;
+      const f = a[r][c];
+      if (f !== 0) for (let j = 0; j < 2 * n; j++) a[r][j] -= f * a[c][j];
+    }
+  }
+  return a.map((row) => row.slice(n));
+}

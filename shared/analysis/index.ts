@@ -23,3 +23,5 @@ export * from './temperature';
 export * from './gravity';
 export * from './accelerometer';
 export * from './decimate';
+export * from './coverage';
+export * from './correlatedUncertainty';

@@ -1,5 +1,6 @@
 import { combineUncertainty } from './combineUncertainty';
 import { counterResolution, type CounterKind } from './counter';
+import { coverageFactor } from './coverage';
 import { AnalysisError, assertNumber } from './errors';
 import type { NoiseType } from './noise';
 
@@ -21,6 +22,13 @@ export interface BudgetComponent {
   dof: number;
   type: 'A' | 'B';
   note: string;
+  /** Where the model of this line comes from (document and section). */
+  source?: string;
+  /**
+   * What the line stands for, so a comparison can tell shared inputs from independent ones:
+   * 'type-a', 'resolution', 'reference-offset', 'reference-ageing', 'temperature', 'drift'.
+   */
+  key?: string;
 }
 
 export interface UncertaintyBudgetInput {
@@ -38,9 +46,19 @@ export interface UncertaintyBudgetInput {
   adevEdf?: number;
   /** Dominant noise type at long τ, given or from estimateNoise. */
   noise?: NoiseType;
-  resolution: { kind: CounterKind; tRes?: number };
-  /** Reference (timebase) fractional offset y_ref and its fractional standard uncertainty. */
-  reference?: { offset: number; u: number; dof?: number };
+  /** Counter type and resolution: tRes in seconds (reciprocal, time-interval), counts (gated). */
+  resolution: { kind: CounterKind; tRes?: number; counts?: number; assumed?: boolean };
+  /**
+   * Reference (timebase) fractional offset y_ref and its fractional standard uncertainty; with its
+   * ageing rate (fractional per day, with standard uncertainty) and the days from its
+   * verification to this capture, the offset's ageing since verification becomes a line.
+   */
+  reference?: { offset: number; u: number; dof?: number; ageing?: { perDay: number; uPerDay: number; days: number } };
+  /**
+   * The drift found in the series: trendSd is the standard deviation of the fitted trend over the
+   * capture (fractional), ratePerDay the rate (fractional per day), model the fit.
+   */
+  drift?: { model: string; trendSd: number; ratePerDay: number; rateStderrPerDay: number };
   /** Temperature: fractional coefficient per °C, standard uncertainty of T, uncorrected ΔT bound. */
   temperature?: { deltaC?: number; coeffPerC?: number; uC?: number };
 }
@@ -51,7 +69,10 @@ export interface UncertaintyBudget {
   components: BudgetComponent[];
   combined: number;
   effectiveDof: number;
-  k: 2;
+  /** k = max(2, t_0.975(⌊ν_eff⌋)) (coverageFactor). */
+  k: number;
+  /** "k = 2.31 from ν_eff = 8, about 95 % coverage". */
+  coverage: string;
   expanded: number;
   /** expanded/nominal (fractional). */
   relativeExpanded: number;
@@ -62,8 +83,9 @@ const SQRT3 = Math.sqrt(3);
 
 /**
  * GUM uncertainty budget of a mean frequency (JCGM 100:2008 §§4–6): type A from the readings,
- * type B for counter resolution (rectangular a/√3, §4.3.7), reference and temperature; combined
- * per eq 10, ν_eff per G.2b, U = 2·u_c (§6.3). Domain: n ≥ 2, nominal > 0, gateTime > 0.
+ * type B for counter resolution (rectangular a/√3, §4.3.7), reference offset and its ageing since
+ * verification, drift and temperature; combined per eq 10, ν_eff per G.2b, U = k·u_c with
+ * k = max(2, t_0.975(ν_eff)) (G.4–G.6, coverageFactor). Domain: n ≥ 2, nominal > 0, gateTime > 0.
  */
 export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBudget {
   const { stats, nominal, gateTime } = input;
@@ -78,6 +100,11 @@ export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBud
   const components: BudgetComponent[] = [typeA(input, notes)];
 
   const res = counterResolution({ ...input.resolution, gateTime, f: nominal });
+  const r = input.resolution;
+  const how =
+    r.kind === 'gated'
+      ? `gated: ±${fmt(r.counts ?? 1)} count / ${fmt(gateTime)} s gate`
+      : `${r.kind}: ±${fmt(r.tRes ?? 100e-12)} s / ${fmt(gateTime)} s gate = ±${res.relative.toExponential(2)}`;
   components.push(
     component({
       name: 'Counter resolution',
@@ -85,10 +112,12 @@ export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBud
       value: res.absoluteHz / SQRT3,
       distribution: 'rectangular',
       type: 'B',
+      key: 'resolution',
+      source: 'Counter theory (docs/references.md); JCGM 100 §4.3.7',
       note:
-        `±${fmt(res.absoluteHz)} Hz per reading (${input.resolution.kind}), a/√3. Not divided by ` +
-        '√n: quantisation errors of successive readings need not be independent, so the ' +
-        'single-reading value is kept as a conservative floor.',
+        `±${fmt(res.absoluteHz)} Hz per reading (${how}${r.assumed ? '; counter type not recorded, assumed' : ''}), a/√3. ` +
+        'Not divided by √n: quantisation errors of successive readings need not be independent ' +
+        '(identical readings say nothing below one count), so the single-reading value is kept.',
     }),
   );
 
@@ -106,11 +135,35 @@ export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBud
         distribution: 'normal',
         type: 'B',
         dof,
+        key: 'reference-offset',
+        source: 'Reference calibration record',
         note:
           `Timebase offset ${offset.toExponential(2)} corrected (f·(1 + y_ref)); its standard ` +
           `uncertainty ${Math.abs(u).toExponential(2)} × nominal.`,
       }),
     );
+    const ageing = input.reference.ageing;
+    if (ageing) {
+      assertNumber(ageing.perDay, 'reference.ageing.perDay');
+      assertNumber(ageing.uPerDay, 'reference.ageing.uPerDay');
+      assertNumber(ageing.days, 'reference.ageing.days');
+      const days = Math.max(0, ageing.days);
+      const rate = Math.hypot(ageing.perDay, ageing.uPerDay);
+      components.push(
+        component({
+          name: 'Reference ageing since verification',
+          symbol: 'u_age',
+          value: rate * days * nominal,
+          distribution: 'normal',
+          type: 'B',
+          key: 'reference-ageing',
+          source: 'Reference calibration record; JCGM 100 §4.3 (uncorrected known effect)',
+          note:
+            `Offset verified ${fmt(days)} days before this capture and not corrected for ageing: ` +
+            `√(a² + u(a)²) × days × nominal with a = ${ageing.perDay.toExponential(2)}/day, u(a) = ${ageing.uPerDay.toExponential(2)}/day.`,
+        }),
+      );
+    }
   } else {
     notes.push('No reference given: the counter timebase is taken as exact, which it is not.');
   }
@@ -128,6 +181,8 @@ export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBud
           value: Math.abs(temp.uC) * c,
           distribution: 'normal',
           type: 'B',
+          key: 'temperature',
+          source: 'JCGM 100 eq. 10',
           note: `u(T) = ${fmt(Math.abs(temp.uC))} °C × |coefficient| × nominal (${fmt(c)} Hz/°C).`,
         }),
       );
@@ -141,6 +196,8 @@ export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBud
           value: (Math.abs(temp.deltaC) * c) / SQRT3,
           distribution: 'rectangular',
           type: 'B',
+          key: 'temperature',
+          source: 'JCGM 100 §4.3.7',
           note:
             `Uncorrected ΔT = ${fmt(temp.deltaC)} °C from reference conditions taken as a bound: ` +
             'a = |ΔT| × |coefficient| × nominal, a/√3.',
@@ -151,14 +208,36 @@ export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBud
     notes.push('Temperature given without a coefficient: no temperature component.');
   }
 
+  if (input.drift && input.drift.model !== 'none') {
+    const d = input.drift;
+    assertNumber(d.trendSd, 'drift.trendSd');
+    components.push(
+      component({
+        name: 'Drift during the capture',
+        symbol: 'u_drift',
+        value: Math.abs(d.trendSd) * nominal,
+        distribution: 'rectangular',
+        type: 'B',
+        key: 'drift',
+        source: 'JCGM 100 §4.3.7 (a linear ramp spreads the level rectangularly); NIST SP 1065 §6',
+        note:
+          `A ${d.model} drift of ${(d.ratePerDay * 1e9).toPrecision(3)} ± ${(d.rateStderrPerDay * 1e9).toPrecision(2)} ppb/day: ` +
+          'the mean depends on when the capture stops; the standard deviation of the fitted trend over the capture ' +
+          '(|rate| × span/√12 for a line) × nominal.',
+      }),
+    );
+  }
+
   const { uc, nuEff } = combineUncertainty(components);
-  const expanded = 2 * uc;
+  const coverage = coverageFactor(nuEff);
+  const expanded = coverage.k * uc;
   return {
     mean,
     components,
     combined: uc,
     effectiveDof: nuEff,
-    k: 2,
+    k: coverage.k,
+    coverage: coverage.text,
     expanded,
     relativeExpanded: expanded / nominal,
     notes,
@@ -181,6 +260,8 @@ function typeA(input: UncertaintyBudgetInput, notes: string[]): BudgetComponent 
       distribution: 't',
       type: 'A',
       dof: stats.n - 1,
+      key: 'type-a',
+      source: 'JCGM 100 §4.2',
       note,
     });
   const adevHz = adevAtSpan !== undefined ? Math.abs(adevAtSpan) * nominal : undefined;
@@ -195,6 +276,8 @@ function typeA(input: UncertaintyBudgetInput, notes: string[]): BudgetComponent 
       distribution: 'normal',
       type: 'A',
       dof: adevDof,
+      key: 'type-a',
+      source: 'NIST SP 1065 §1.6, Table 3',
       note,
     });
 
@@ -229,9 +312,13 @@ function component(c: {
   type: 'A' | 'B';
   dof?: number;
   note: string;
+  source?: string;
+  key?: string;
 }): BudgetComponent {
   const sensitivity = c.sensitivity ?? 1;
   return {
+    ...(c.source ? { source: c.source } : {}),
+    ...(c.key ? { key: c.key } : {}),
     name: c.name,
     symbol: c.symbol,
     value: c.value,

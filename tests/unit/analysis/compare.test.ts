@@ -34,17 +34,18 @@ describe('compare', () => {
     expect(r.u).toBeCloseTo(Math.SQRT2, 12);
     expect(r.expandedUncertainty).toBeCloseTo(2 * Math.SQRT2, 12);
     expect(r.k).toBe(2);
-    expect(r.limit).toEqual({ quantity: 16, quantityUnit: 'Hz', given: 1, givenUnit: 'ppm' });
+    // The limit now also carries its bounds (issue 8: asymmetric limits); ±1 ppm of 16 MHz is ±16 Hz.
+    expect(r.limit).toMatchObject({ quantity: 16, quantityUnit: 'Hz', given: 1, givenUnit: 'ppm', low: -16, high: 16 });
     expect(r.verdict).toBe('within'); // 8 + 2.83 ≤ 16
     expect(r.significant).toBe(true); // 8 > 2.83
   });
 
-  it('removes a shared reference component in quadrature and says so', () => {
+  it('cancels a shared reference component (one input used twice, r = 1) and says so', () => {
     const side = { mean: 100, u: 1, uReference: 0.8 };
     const r = compare(side, { ...side, mean: 100.5 }, { limit: 2, limitUnit: 'Hz', sameReference: true });
     expect(r.u).toBeCloseTo(Math.sqrt(2 * 0.36), 12); // √(1 − 0.64) per side
     expect(r.referenceCorrelated).toBe(true);
-    expect(r.notes.join(' ')).toMatch(/cancels/);
+    expect(r.notes.join(' ')).toMatch(/cancel/);
   });
 
   it('keeps the reference component when the references differ', () => {
