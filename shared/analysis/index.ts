@@ -11,6 +11,7 @@ export * from './phase';
 export * from './noise';
 export * from './noiseId';
 export * from './edf';
+export * from './deadTime';
 export * from './confidence';
 export * from './stability';
 export { releaseWorkspace } from './workspace';

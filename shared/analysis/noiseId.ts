@@ -111,3 +111,64 @@ export function estimateNoise(
   if (!est) throw new AnalysisError('bad-argument', 'the data do not vary: no noise to identify');
   return est;
 }
+
+/** Fewest averaged frequency points the B1 ratio is used on (Driftbench's choice). */
+export const B1_MIN_POINTS = 8;
+
+/**
+ * Barnes' B1 bias function, the expected ratio of the N-sample (classical) variance to the
+ * two-sample (Allan) variance for σ²_y ∝ τ^μ (NIST SP 1065 §5.6, after Barnes 1969 / TN 375):
+ * B1(N, μ) = N(1 − N^μ)/[2(N − 1)(1 − 2^μ)], and N·ln N/[2(N − 1)·ln 2] at μ = 0.
+ */
+export function barnesB1(n: number, mu: number): number {
+  if (mu === 0) return (n * Math.log(n)) / (2 * (n - 1) * Math.LN2);
+  return (n * (1 - n ** mu)) / (2 * (n - 1) * (1 - 2 ** mu));
+}
+
+/** The noise read from the B1 ratio at one averaging factor, where lag-1 has too few points. */
+export interface B1Estimate {
+  /** μ of σ²_y ∝ τ^μ nearest to the observed ratio (−2 … 1). */
+  mu: number;
+  /** Observed classical/Allan variance ratio. */
+  ratio: number;
+  /** μ = −2 cannot tell white from flicker PM (that needs the R(n) ratio): the label is 'wpm'. */
+  noise: NoiseType;
+  points: number;
+}
+
+/**
+ * B1-ratio noise identification (NIST SP 1065 §5.6): the classical variance of the n averaged
+ * frequencies over their Allan variance, compared with B1(n, μ) for μ = −2 … 1; the nearest in
+ * log ratio wins (boundaries at geometric means). u is phase in units of τ0 (normalizedPhase).
+ * Returns null below B1_MIN_POINTS averaged points or when the data do not vary.
+ */
+export function b1NoiseOnPhase(u: Float64Array, m: number): B1Estimate | null {
+  const n = Math.floor((u.length - 1) / m);
+  if (n < B1_MIN_POINTS) return null;
+  let mean = 0;
+  for (let k = 0; k < n; k++) mean += u[(k + 1) * m] - u[k * m];
+  mean /= n;
+  let ss = 0;
+  let sa = 0;
+  let prev = u[m] - u[0];
+  ss += (prev - mean) ** 2;
+  for (let k = 1; k < n; k++) {
+    const cur = u[(k + 1) * m] - u[k * m];
+    ss += (cur - mean) ** 2;
+    sa += (cur - prev) ** 2;
+    prev = cur;
+  }
+  if (!(sa > 0) || !(ss > 0)) return null;
+  const ratio = ss / (n - 1) / (sa / (2 * (n - 1)));
+  let best = -2;
+  let bestDist = Infinity;
+  for (const mu of [-2, -1, 0, 1]) {
+    const dist = Math.abs(Math.log(ratio / barnesB1(n, mu)));
+    if (dist < bestDist) {
+      bestDist = dist;
+      best = mu;
+    }
+  }
+  const noise: NoiseType = best === -2 ? 'wpm' : best === -1 ? 'wfm' : best === 0 ? 'ffm' : 'rwfm';
+  return { mu: best, ratio, noise, points: n };
+}

@@ -176,9 +176,16 @@ describe('unsupported and invalid input', () => {
     expect(p.noiseSource).toBe('given');
   });
 
-  it('falls back to white FM when the set is too short to identify noise', () => {
-    const [p] = oadev(NINE, 1, [1]);
+  it('falls back to white FM when the set is too short to identify noise, and does not label it', () => {
+    const [p] = oadev(NINE.slice(0, 6), 1, [1]);
     expect(p.noiseSource).toBe('default');
     expect(p.noise).toBe('wfm');
+    expect(p.noiseSupported).toBe(false);
+  });
+
+  it('reads the B1 ratio where lag-1 has too few points, unlabelled without a slope to confirm it', () => {
+    const [p] = oadev(NINE, 1, [1]);
+    expect(p.noiseSource).toBe('b1');
+    expect(p.noiseSupported).toBe(false);
   });
 });
