@@ -34,6 +34,8 @@ export interface Prepared {
   /** Fractional frequency (frequency captures) or the values themselves (other quantities). */
   y: Float64Array;
   tau0: number;
+  /** Gate time of each reading in seconds (τ0 − gateTime is the counter's dead time). */
+  gateTime: number;
   total: number;
   flagged: number;
   outliers: number;
@@ -75,7 +77,7 @@ export function prepare(c: Capture, s: Series): Prepared {
   }
   const nominal = c.nominal ?? stats?.mean ?? 0;
   const y = c.quantity === 'frequency' && nominal > 0 ? values.map((v) => (v - nominal) / nominal) : values.slice();
-  return { values, t, tUnflagged, y, tau0: tau0Of(c), total: s.seq.length, flagged, outliers, stats, yRef };
+  return { values, t, tUnflagged, y, tau0: tau0Of(c), gateTime: c.gateTime, total: s.seq.length, flagged, outliers, stats, yRef };
 }
 
 /** The averaging factors of a τ set for a series of n points. */
@@ -87,11 +89,28 @@ export function msFor(set: 'octave' | 'decade' | 'all', n: number, kind: Stabili
 
 export function stabilityOf(p: Prepared, kind: StabilityKind, taus: 'octave' | 'decade' | 'all', confidence?: number) {
   if (p.y.length < 3) return { kind, tau0: p.tau0, points: [], skipped: [{ m: 1, reason: 'fewer than 3 usable readings' }] };
-  const r = stability(kind, p.y, p.tau0, msFor(taus, p.y.length, kind), confidence ? { confidence } : {});
+  // Dead-time bias (ADEV/OADEV) is corrected only for frequency readings with a known gate shorter than τ0.
+  const gateTime = p.gateTime > 0 && p.gateTime < p.tau0 ? p.gateTime : undefined;
+  const r = stability(kind, p.y, p.tau0, msFor(taus, p.y.length, kind), { ...(confidence ? { confidence } : {}), gateTime });
   return {
     kind,
     tau0: p.tau0,
-    points: r.points.map((q) => ({ tau: q.tau, m: q.m, dev: q.dev, lo: q.lo, hi: q.hi, edf: q.edf, n: q.n, noise: q.noise })),
+    points: r.points.map((q) => ({
+      tau: q.tau,
+      m: q.m,
+      dev: q.dev,
+      devRaw: q.devRaw,
+      lo: q.lo,
+      hi: q.hi,
+      edf: q.edf,
+      n: q.n,
+      noise: q.noise,
+      noiseSource: q.noiseSource,
+      noiseSupported: q.noiseSupported,
+      slope: q.slope,
+      corrections: q.corrections,
+      uncorrected: q.uncorrected,
+    })),
     skipped: r.skipped,
   };
 }

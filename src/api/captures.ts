@@ -6,6 +6,7 @@ import { ApiError, http, toApiError, type RequestOptions } from './http';
 import type { CaptureCreate, CapturePatch, IngestResult, ReadingIn, StabilityKind } from '../../shared/protocol/captures';
 import type { Summary } from '../../shared/analysis/summarize';
 import type { NoiseType } from '../../shared/analysis/noise';
+import type { BiasCorrection, NoiseSource } from '../../shared/analysis/stability';
 
 export type { CaptureCreate, CapturePatch, IngestResult, ReadingIn, StabilityKind };
 
@@ -23,6 +24,14 @@ export interface StabilityPointOut {
   edf: number;
   n: number;
   noise?: NoiseType;
+  /** The deviation before bias correction (absent in summaries stored before corrections existed). */
+  devRaw?: number;
+  noiseSource?: NoiseSource;
+  /** Whether the identified noise agrees with the plotted slope; unsupported labels are not shown. */
+  noiseSupported?: boolean;
+  slope?: number | null;
+  corrections?: BiasCorrection[];
+  uncorrected?: string | null;
 }
 
 export interface StabilityOut {
