@@ -4,7 +4,7 @@ import type { StabilityKind } from './taus';
 /**
  * Simple EDF of the overlapping Allan variance, NIST SP 1065 Table 5 (after Howe, Allan &
  * Barnes), for N phase points and averaging factor m. Kept as a published cross-check of
- * greenhallEdf (docs/references.md §EDF); the intervals use greenhallEdf.
+ * greenhallEdf (docs/stability.md); the intervals use greenhallEdf.
  */
 export function oadevEdf(nPhase: number, m: number, noise: NoiseType): number {
   const N = nPhase;
@@ -78,7 +78,7 @@ export const DIFFERENCE_ESTIMATOR: Readonly<Record<Exclude<StabilityKind, 'totde
 // sample; for white noise in x or y the sum is then exact, for the other noises the paper
 // truncates there too). sz(t) = Σ_k (−1)^k·C(2d, d+k)·sx(t + k) is the d-th difference of the
 // phase covariance sx, built from the generalised autocovariance sw of w = ∫x, one closed form per
-// power-law α. Driftbench's implementation details (docs/references.md §EDF):
+// power-law α. Driftbench's implementation details (docs/stability.md):
 //  - phase noises (α = 2, 1) unmodified: sx averages w over τ0 = τ/m (the paper's F = m), which is
 //    exactly the covariance of discrete white phase samples;
 //  - frequency noises (α ≤ 0) unmodified: sx = sw(t, α + 2), the covariance of instantaneous phase
