@@ -15,6 +15,12 @@ import { instrumentsRouter } from './routes/instruments.js';
 import { healthRouter } from './routes/health.js';
 import { capturesRouter, comparisonsRouter } from './routes/captures.js';
 import { silentHub, type LiveHub } from './ws/live.js';
+import { auditRouter, reviewRouter, sealRouter } from './routes/review.js';
+import { attachmentsRouter, ownerAttachmentsRouter } from './routes/attachments.js';
+import { outboxRouter } from './routes/outbox.js';
+import { FolderStore, type BlobStore } from './services/storage.js';
+import { DEFAULT_UPLOAD_MAX_BYTES, DEFAULT_UPLOAD_TYPES, type UploadPolicy } from './services/attachments.js';
+import os from 'node:os';
 
 export interface AppContext {
   db: Database;
@@ -25,6 +31,10 @@ export interface AppContext {
   loginRateLimit?: number;
   /** Live fan-out to watchers; silent when nobody can watch (Supertest). */
   hub?: LiveHub;
+  /** Where attachment bytes go (default: a folder under the system's temporary folder). */
+  attachmentStore?: BlobStore;
+  /** Largest upload and the accepted types (default 25 MB; photos, PDF, CSV, text). */
+  uploadPolicy?: UploadPolicy;
 }
 
 /** Builds the Express app: middleware order, routers, 404, error handler. No listen(), for Supertest. */
@@ -64,6 +74,15 @@ export function createApp(ctx: AppContext): Express {
   api.use(labRouter());
   api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub));
   api.use('/comparisons', comparisonsRouter(ctx.db.pool));
+  // Review and the record (issue 11): workflow, audit, seals, attachments, outbox.
+  const store = ctx.attachmentStore ?? new FolderStore(path.join(os.tmpdir(), `driftbench-attachments-${process.pid}`));
+  const policy = ctx.uploadPolicy ?? { maxBytes: DEFAULT_UPLOAD_MAX_BYTES, types: DEFAULT_UPLOAD_TYPES };
+  api.use('/studies', reviewRouter(ctx.db.pool), ownerAttachmentsRouter('study', store, policy));
+  api.use('/checkpoints', ownerAttachmentsRouter('checkpoint', store, policy));
+  api.use('/captures', sealRouter(ctx.db.pool), ownerAttachmentsRouter('capture', store, policy));
+  api.use('/attachments', attachmentsRouter(store));
+  api.use('/audit', auditRouter());
+  api.use('/outbox', outboxRouter());
   api.use((req) => {
     throw new NotFoundError(`Route ${req.method} ${req.baseUrl}${req.path}`);
   });

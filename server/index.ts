@@ -9,6 +9,11 @@ import { routeUpgrades, type UpgradeHandler } from './ws/upgrade.js';
 import { createLiveHub } from './ws/live.js';
 import { resolveJwtSecret } from './services/auth.js';
 import type { Config } from './config.js';
+import { FolderStore } from './services/storage.js';
+import type { UploadPolicy } from './services/attachments.js';
+import { startMailWorker, transportFor, type MailWorker } from './services/mail.js';
+import { startLocalMail, type LocalMailService } from './services/localMail.js';
+import { startSchedules } from './services/schedules.js';
 
 export const PROJECT_ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 
@@ -22,6 +27,14 @@ export interface ServerOptions {
   simulators?: boolean;
   loginRateLimit?: number;
   log?: Logger;
+  /** Folder for attachments (`<data>/attachments`); a temporary folder when absent. */
+  dataDir?: string;
+  uploadPolicy?: UploadPolicy;
+  /** A real SMTP server; without it the local mail service runs on 127.0.0.1. */
+  smtpUrl?: string;
+  localSmtpPort?: number;
+  /** Run the mail worker and the e-mail schedules (default true). */
+  mail?: boolean;
 }
 
 export interface RunningServer {
@@ -30,6 +43,10 @@ export interface RunningServer {
   db: Database;
   hub: ReturnType<typeof createLiveHub>;
   server: http.Server;
+  /** The delivery worker (tests call `deliverDue()` on it); absent when mail is off. */
+  mailWorker?: MailWorker;
+  /** smtp:// URL of the local mail service, when it runs. */
+  localMailUrl?: string;
   close(): Promise<void>;
 }
 
@@ -38,8 +55,32 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
   const log = opts.log ?? pino({ level: 'info' });
   const db = await prepareDatabase(opts.databaseUrl, { demo: opts.demo ?? false, log });
   const hub = createLiveHub(opts.jwtSecret, db.pool);
-  const app = createApp({ db, jwtSecret: opts.jwtSecret, log, clientDir: opts.clientDir, loginRateLimit: opts.loginRateLimit, hub });
+  const app = createApp({
+    db,
+    jwtSecret: opts.jwtSecret,
+    log,
+    clientDir: opts.clientDir,
+    loginRateLimit: opts.loginRateLimit,
+    hub,
+    attachmentStore: opts.dataDir ? new FolderStore(path.join(opts.dataDir, 'attachments')) : undefined,
+    uploadPolicy: opts.uploadPolicy,
+  });
   const server = http.createServer(app);
+
+  // E-mail: the local mail service unless a real server is configured, the delivery worker, the schedules.
+  let localMail: LocalMailService | undefined;
+  let mailWorker: MailWorker | undefined;
+  let schedules: { stop(): void } | undefined;
+  if (opts.mail ?? true) {
+    let smtpUrl = opts.smtpUrl;
+    if (!smtpUrl) {
+      localMail = await startLocalMail(db.pool, { port: opts.localSmtpPort, log });
+      smtpUrl = localMail.url;
+      log.info({ url: localMail.url }, 'local mail service listening');
+    }
+    mailWorker = startMailWorker({ transport: transportFor(smtpUrl), log });
+    schedules = startSchedules({ log });
+  }
 
   const upgrades: UpgradeHandler[] = [hub];
   if (opts.simulators ?? true) {
@@ -62,9 +103,14 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
     db,
     hub,
     server,
+    mailWorker,
+    localMailUrl: localMail?.url,
     async close() {
       if (closed) return;
       closed = true;
+      schedules?.stop();
+      await mailWorker?.stop();
+      await localMail?.close();
       await Promise.allSettled(upgrades.map((u) => u.close()));
       server.closeAllConnections();
       await new Promise<void>((resolve) => server.close(() => resolve()));
@@ -85,6 +131,10 @@ export function configuredServerOptions(config: Config, databaseUrl: string, log
     port: config.port,
     demo: config.demo,
     clientDir: path.join(PROJECT_ROOT, 'dist'),
+    dataDir: path.resolve(PROJECT_ROOT, config.dataDir),
+    uploadPolicy: { maxBytes: config.uploadMaxBytes, types: config.uploadTypes },
+    smtpUrl: config.smtpUrl,
+    localSmtpPort: config.localSmtpPort,
     simulators: config.simulators,
     loginRateLimit: config.loginRateLimit,
     log,

@@ -1,6 +1,6 @@
 import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
 
-/** One audited action: role changes, account changes, approvals. Never updated or deleted. */
+/** One audited action, chained by hash to the one before it (server/services/audit.ts writes them). Never updated or deleted. */
 export class AuditEvent extends Model {
   declare id: CreationOptional<number>;
   declare actorId: number | null;
@@ -9,6 +9,8 @@ export class AuditEvent extends Model {
   declare subjectId: number | null;
   declare details: unknown;
   declare createdAt: CreationOptional<Date>;
+  declare prevHash: string;
+  declare hash: string;
 
   static initModel(sequelize: Sequelize): void {
     AuditEvent.init(
@@ -20,6 +22,8 @@ export class AuditEvent extends Model {
         subjectId: DataTypes.INTEGER,
         details: DataTypes.JSONB,
         createdAt: DataTypes.DATE,
+        prevHash: DataTypes.CHAR(64),
+        hash: DataTypes.CHAR(64),
       },
       { sequelize, tableName: 'audit_events', underscored: true, updatedAt: false },
     );

@@ -28,6 +28,10 @@ export class Capture extends Model {
   declare readingCount: CreationOptional<number>;
   declare highestSeq: CreationOptional<number>;
   declare summary: unknown;
+  declare sealSha256: string | null;
+  declare sealedAt: Date | null;
+  declare plannedMinutes: number | null;
+  declare overdueNotifiedAt: Date | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
@@ -58,6 +62,10 @@ export class Capture extends Model {
         readingCount: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
         highestSeq: { type: DataTypes.INTEGER, allowNull: false, defaultValue: -1 },
         summary: DataTypes.JSONB,
+        sealSha256: DataTypes.CHAR(64),
+        sealedAt: DataTypes.DATE,
+        plannedMinutes: DataTypes.INTEGER,
+        overdueNotifiedAt: DataTypes.DATE,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

@@ -8,6 +8,11 @@ export class Study extends Model {
   declare description: string | null;
   declare status: CreationOptional<StudyStatus>;
   declare createdBy: number | null;
+  declare revision: CreationOptional<number>;
+  declare submittedBy: number | null;
+  declare submittedAt: Date | null;
+  declare approvedBy: number | null;
+  declare approvedAt: Date | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
@@ -20,6 +25,11 @@ export class Study extends Model {
         description: DataTypes.TEXT,
         status: { type: DataTypes.STRING(20), allowNull: false, defaultValue: 'draft' },
         createdBy: DataTypes.INTEGER,
+        revision: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 1 },
+        submittedBy: DataTypes.INTEGER,
+        submittedAt: DataTypes.DATE,
+        approvedBy: DataTypes.INTEGER,
+        approvedAt: DataTypes.DATE,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

@@ -7,8 +7,10 @@ import { Checkpoint } from './Checkpoint.js';
 import { Dut } from './Dut.js';
 import { Capture } from './Capture.js';
 import { AuditEvent } from './AuditEvent.js';
+import { Attachment } from './Attachment.js';
+import { StudyReview } from './StudyReview.js';
 
-export { User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent };
+export { User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview };
 
 let initialised: Sequelize | undefined;
 
@@ -17,7 +19,7 @@ export function initModels(sequelize: Sequelize): void {
   if (initialised === sequelize) return;
   if (initialised) throw new Error('models are already bound to another connection');
   initialised = sequelize;
-  for (const m of [User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent]) m.initModel(sequelize);
+  for (const m of [User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview]) m.initModel(sequelize);
 
   Study.hasMany(Checkpoint, { as: 'checkpoints', foreignKey: 'studyId' });
   Checkpoint.belongsTo(Study, { foreignKey: 'studyId' });

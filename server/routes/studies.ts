@@ -22,11 +22,11 @@ export function studiesRouter(pool: pg.Pool): Router {
   });
   r.post('/:id/checkpoints', authorize('studies:plan'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.status(201).json(await addCheckpoint(id, parse(CheckpointCreate, req.body)));
+    res.status(201).json(await addCheckpoint(id, parse(CheckpointCreate, req.body), currentUser(req).id));
   });
   r.post('/:id/duts', authorize('studies:plan'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.status(201).json(await addDut(id, parse(DutCreate, req.body)));
+    res.status(201).json(await addDut(id, parse(DutCreate, req.body), currentUser(req).id));
   });
   return r;
 }

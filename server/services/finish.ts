@@ -7,6 +7,9 @@ import { canWriteCapture } from './ingest.js';
 import { buildTiles, loadSeries } from './readings.js';
 import { prepare, reduce } from './captureAnalysis.js';
 import { capturePublic } from './captures.js';
+import { assertStudyWritable } from './studyLock.js';
+import { sealOf } from './seal.js';
+import { auditWithClient } from './audit.js';
 
 /**
  * Closes a capture: from then on it takes no readings. Computes and caches its summary
@@ -14,6 +17,7 @@ import { capturePublic } from './captures.js';
  * finished capture returns it unchanged.
  */
 export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser, id: number) {
+  await assertStudyWritable('capture', id, 'finishing a capture');
   const client = await pool.connect();
   let changed = false;
   try {
@@ -36,6 +40,14 @@ export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser,
            reading_count = $3, highest_seq = $4 WHERE id = $1`,
         [id, JSON.stringify(summary), series.seq.length, series.seq.length ? series.seq[series.seq.length - 1] : -1],
       );
+      // The seal: SHA-256 of the raw readings in the canonical serialisation (seal.ts).
+      const seal = sealOf(series);
+      await client.query('UPDATE captures SET seal_sha256 = $2, sealed_at = now() WHERE id = $1', [id, seal]);
+      await auditWithClient(client, user.id, 'capture.finish', 'capture', id, {
+        state: { from: 'open', to: 'finished' },
+        readings: series.seq.length,
+        sealSha256: seal,
+      });
       changed = true;
     }
     await client.query('COMMIT');

@@ -3,6 +3,7 @@ import { AppError, ForbiddenError, NotFoundError, ValidationError } from '../err
 import { findBadReading, type IngestResult, type ReadingIn } from '../../shared/protocol/captures.js';
 import type { LiveHub } from '../ws/live.js';
 import type { AuthUser } from './auth.js';
+import { assertCaptureWritable } from './studyLock.js';
 
 interface IngestRow {
   state: string;
@@ -65,6 +66,7 @@ export async function ingestReadings(
       { index: bad.index, reason: bad.reason },
     );
   }
+  await assertCaptureWritable(pool, captureId, 'adding readings');
   const list = readings as ReadingIn[];
   const n = list.length;
   const seqs = new Array<number>(n);

@@ -19,6 +19,8 @@ export const CaptureCreate = z.object({
   referenceId: z.number().int().positive().optional(),
   ambientC: z.number().finite().min(-60).max(150).optional(),
   orientation: z.enum(ORIENTATIONS).optional(),
+  /** How long the capture is planned to run; its operator is e-mailed when it is left open longer. */
+  plannedMinutes: z.number().int().min(1).max(525_600).optional(),
   notes: z.string().max(5000).optional(),
   tags: z.array(z.string().trim().min(1).max(60)).max(20).optional(),
   linkProfile: z.record(z.string(), z.unknown()).optional(),

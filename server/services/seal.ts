@@ -1,0 +1,67 @@
+import { createHash } from 'node:crypto';
+import type pg from 'pg';
+import { NotFoundError } from '../errors.js';
+import { loadSeries, type Series } from './readings.js';
+
+/**
+ * Sealed evidence. When a capture finishes, the SHA-256 of its raw readings in a canonical
+ * serialisation is stored with it (`captures.seal_sha256`). The serialisation (docs/record.md):
+ * every stored reading in ascending `seq`, each as 22 bytes, big-endian —
+ *   seq   : 32-bit unsigned integer
+ *   t     : IEEE 754 binary64 (seconds since the capture started)
+ *   value : IEEE 754 binary64 (as received, before any correction)
+ *   flags : 16-bit signed integer (as stored)
+ * with nothing before, between or after the records. An empty capture hashes the empty string.
+ */
+export const SEAL_RECORD_BYTES = 22;
+
+/** The canonical bytes of a series (in the order given; the caller passes ascending seq). */
+export function canonicalReadings(s: Pick<Series, 'seq' | 't' | 'value' | 'flags'>): Buffer {
+  const n = s.seq.length;
+  const buf = Buffer.alloc(n * SEAL_RECORD_BYTES);
+  for (let i = 0, o = 0; i < n; i++, o += SEAL_RECORD_BYTES) {
+    buf.writeUInt32BE(s.seq[i], o);
+    buf.writeDoubleBE(s.t[i], o + 4);
+    buf.writeDoubleBE(s.value[i], o + 12);
+    buf.writeInt16BE(s.flags[i], o + 20);
+  }
+  return buf;
+}
+
+/** SHA-256 (hex) of the canonical serialisation. */
+export function sealOf(s: Pick<Series, 'seq' | 't' | 'value' | 'flags'>): string {
+  return createHash('sha256').update(canonicalReadings(s)).digest('hex');
+}
+
+export interface SealCheck {
+  captureId: number;
+  /** The digest stored when the capture finished; null while it is open. */
+  sha256: string | null;
+  /** How many readings are stored now. */
+  readings: number;
+  /** The digest of the readings as stored now. */
+  recomputed: string;
+  /** True when the stored digest matches the readings now; null when there is no seal yet. */
+  verified: boolean | null;
+  sealedAt: Date | null;
+}
+
+/** Recomputes a capture's seal from its stored rows and compares it with the stored digest. */
+export async function checkSeal(pool: pg.Pool, captureId: number): Promise<SealCheck> {
+  const { rows } = await pool.query<{ seal_sha256: string | null; sealed_at: Date | null }>(
+    'SELECT seal_sha256, sealed_at FROM captures WHERE id = $1',
+    [captureId],
+  );
+  if (rows.length === 0) throw new NotFoundError('Capture');
+  const series = await loadSeries(pool, captureId);
+  const recomputed = sealOf(series);
+  const stored = rows[0].seal_sha256;
+  return {
+    captureId,
+    sha256: stored,
+    readings: series.seq.length,
+    recomputed,
+    verified: stored === null ? null : stored === recomputed,
+    sealedAt: rows[0].sealed_at,
+  };
+}
