@@ -4,8 +4,10 @@ import { existsSync } from 'node:fs';
 import path from 'node:path';
 import type { Logger } from 'pino';
 import type { Database } from './db/connection.js';
-import { authenticate } from './middleware/auth.js';
+import { authenticate, guardRoutes } from './middleware/auth.js';
+import { jsonBodies } from './middleware/bodies.js';
 import { errorHandler } from './middleware/errorHandler.js';
+import { outageMonitor } from './db/outage.js';
 import { NotFoundError } from './errors.js';
 import { authRouter } from './routes/auth.js';
 import { usersRouter } from './routes/users.js';
@@ -28,7 +30,12 @@ export interface AppContext {
   log: Logger;
   /** Folder of the built client; not served when absent. */
   clientDir?: string;
+  /** Failed sign-ins one address may make per 15 minutes. */
   loginRateLimit?: number;
+  /** Failed sign-ins one account may receive per 15 minutes. */
+  loginAccountLimit?: number;
+  /** Express's trust-proxy setting (TRUST_PROXY); off by default. */
+  trustProxy?: boolean | number | string[];
   /** Live fan-out to watchers; silent when nobody can watch (Supertest). */
   hub?: LiveHub;
   /** Where attachment bytes go (default: a folder under the system's temporary folder). */
@@ -41,7 +48,7 @@ export interface AppContext {
 export function createApp(ctx: AppContext): Express {
   const app = express();
   app.disable('x-powered-by');
-  app.set('trust proxy', false);
+  app.set('trust proxy', ctx.trustProxy ?? false);
   app.use(
     helmet({
       contentSecurityPolicy: {
@@ -64,10 +71,13 @@ export function createApp(ctx: AppContext): Express {
   );
 
   const api = express.Router();
-  api.use(express.json({ limit: '8mb' }));
   api.use(healthRouter(ctx.db));
+  // Sign-in first, then the body: an anonymous client cannot make the server read a body, and
+  // only the ingest route takes a large one.
   api.use(authenticate(ctx.jwtSecret, ctx.db.pool));
-  api.use('/auth', authRouter(ctx.jwtSecret, ctx.loginRateLimit ?? 20));
+  api.use(jsonBodies());
+  api.use(guardRoutes());
+  api.use('/auth', authRouter(ctx.jwtSecret, { perAddress: ctx.loginRateLimit ?? 20, perAccount: ctx.loginAccountLimit ?? 10 }));
   api.use('/users', usersRouter());
   api.use('/studies', studiesRouter(ctx.db.pool));
   api.use('/instruments', instrumentsRouter());
@@ -96,6 +106,6 @@ export function createApp(ctx: AppContext): Express {
       res.sendFile(path.join(clientDir, 'index.html'));
     });
   }
-  app.use(errorHandler(ctx.log));
+  app.use(errorHandler(ctx.log, outageMonitor(ctx.db.pool, ctx.log)));
   return app;
 }

@@ -7,6 +7,7 @@ import { prepareDatabase } from './db/prepare.js';
 import type { Database } from './db/connection.js';
 import { routeUpgrades, type UpgradeHandler } from './ws/upgrade.js';
 import { createLiveHub } from './ws/live.js';
+import { requireSession } from './ws/sessionGate.js';
 import { resolveJwtSecret } from './services/auth.js';
 import type { Config } from './config.js';
 import { FolderStore } from './services/storage.js';
@@ -23,9 +24,13 @@ export interface ServerOptions {
   host?: string;
   port?: number;
   demo?: boolean;
+  /** Deactivate demo accounts that still have the demo password (production without DRIFTBENCH_DEMO=1). */
+  retireDemo?: boolean;
   clientDir?: string;
   simulators?: boolean;
   loginRateLimit?: number;
+  loginAccountLimit?: number;
+  trustProxy?: boolean | number | string[];
   log?: Logger;
   /** Folder for attachments (`<data>/attachments`); a temporary folder when absent. */
   dataDir?: string;
@@ -53,7 +58,7 @@ export interface RunningServer {
 /** Prepares the database, builds the app and WebSocket endpoints, and listens. */
 export async function startServer(opts: ServerOptions): Promise<RunningServer> {
   const log = opts.log ?? pino({ level: 'info' });
-  const db = await prepareDatabase(opts.databaseUrl, { demo: opts.demo ?? false, log });
+  const db = await prepareDatabase(opts.databaseUrl, { demo: opts.demo ?? false, log, retireDemo: opts.retireDemo });
   const hub = createLiveHub(opts.jwtSecret, db.pool);
   const app = createApp({
     db,
@@ -61,6 +66,8 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
     log,
     clientDir: opts.clientDir,
     loginRateLimit: opts.loginRateLimit,
+    loginAccountLimit: opts.loginAccountLimit,
+    trustProxy: opts.trustProxy,
     hub,
     attachmentStore: opts.dataDir ? new FolderStore(path.join(opts.dataDir, 'attachments')) : undefined,
     uploadPolicy: opts.uploadPolicy,
@@ -84,8 +91,9 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
 
   const upgrades: UpgradeHandler[] = [hub];
   if (opts.simulators ?? true) {
-    const { createSimulatorHub } = await import('../simulators/server.js');
-    upgrades.push(createSimulatorHub());
+    const { createSimulatorHub, SIM_PATHS } = await import('../simulators/server.js');
+    // The simulators open only for a signed-in session, like /ws.
+    upgrades.push(requireSession(createSimulatorHub(), SIM_PATHS, opts.jwtSecret, db.pool));
   }
   server.on('upgrade', routeUpgrades(upgrades));
 
@@ -130,6 +138,7 @@ export function configuredServerOptions(config: Config, databaseUrl: string, log
     host: config.host,
     port: config.port,
     demo: config.demo,
+    retireDemo: config.env === 'production' && !config.demo,
     clientDir: path.join(PROJECT_ROOT, 'dist'),
     dataDir: path.resolve(PROJECT_ROOT, config.dataDir),
     uploadPolicy: { maxBytes: config.uploadMaxBytes, types: config.uploadTypes },
@@ -137,6 +146,8 @@ export function configuredServerOptions(config: Config, databaseUrl: string, log
     localSmtpPort: config.localSmtpPort,
     simulators: config.simulators,
     loginRateLimit: config.loginRateLimit,
+    loginAccountLimit: config.loginAccountLimit,
+    trustProxy: config.trustProxy,
     log,
   };
 }

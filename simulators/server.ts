@@ -21,6 +21,9 @@ import { accelConfigFromQuery, counterConfigFromQuery } from './params';
 export const SIM_PATHS = ['/sim/counter', '/sim/spi-bridge'] as const;
 export type SimPath = (typeof SIM_PATHS)[number];
 
+/** Largest frame a simulator socket accepts (bytes). */
+export const SIM_MAX_FRAME = 64 * 1024;
+
 export interface SimulatorHubOptions {
   /** Clock for each new device (default: the real clock). Tests may pass a shared fake. */
   clock?: () => Clock;
@@ -62,7 +65,8 @@ export function createSimulatorHub(opts: SimulatorHubOptions = {}): SimulatorHub
   const makeClock = opts.clock ?? realClock;
   const maxBuffered = opts.maxBufferedBytes ?? 4 * 1024 * 1024;
   const log = opts.log ?? (() => {});
-  const wss = new WebSocketServer({ noServer: true });
+  // A serial line carries a few bytes per command: a frame over 64 KiB ends that socket (1009).
+  const wss = new WebSocketServer({ noServer: true, maxPayload: SIM_MAX_FRAME });
   const alive = new WeakMap<WebSocket, boolean>();
   const devices = new Map<WebSocket, Device>();
 

@@ -3,9 +3,10 @@ import { openDatabase, type Database } from './connection.js';
 import { migrate } from '../migrations/index.js';
 import { initModels } from '../models/index.js';
 import { isEmpty, seedDemo } from './seed.js';
+import { retireDemoAccounts } from './demoAccounts.js';
 
 /** Opens the database at `url`, applies pending migrations, binds the models and seeds the demo lab when asked and empty. */
-export async function prepareDatabase(url: string, opts: { demo: boolean; log?: Logger; poolMax?: number }): Promise<Database> {
+export async function prepareDatabase(url: string, opts: { demo: boolean; log?: Logger; poolMax?: number; retireDemo?: boolean }): Promise<Database> {
   const db = openDatabase(url, { poolMax: opts.poolMax });
   await db.sequelize.authenticate();
   const applied = await migrate(db.sequelize);
@@ -15,5 +16,6 @@ export async function prepareDatabase(url: string, opts: { demo: boolean; log?: 
     await seedDemo(db.sequelize);
     opts.log?.info('demo lab seeded');
   }
+  if (opts.retireDemo && !opts.demo) await retireDemoAccounts(opts.log);
   return db;
 }

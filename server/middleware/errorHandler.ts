@@ -2,9 +2,10 @@ import type { NextFunction, Request, Response } from 'express';
 import type { Logger } from 'pino';
 import { AppError } from '../errors.js';
 import { AnalysisError } from '../../shared/analysis/index.js';
+import { isDatabaseUnavailable, OUTAGE_RETRY_AFTER_S, type OutageMonitor } from '../db/outage.js';
 
 /** The last middleware: maps AppErrors to the error envelope; anything else is logged and a generic 500. */
-export function errorHandler(log: Logger) {
+export function errorHandler(log: Logger, outage?: OutageMonitor) {
   // Express recognises error middleware by its four parameters.
   return (err: unknown, req: Request, res: Response, _next: NextFunction) => {
     if (err instanceof AppError) {
@@ -25,6 +26,15 @@ export function errorHandler(log: Logger) {
     }
     if (e?.type === 'entity.too.large') {
       res.status(413).json({ error: { code: 'too-large', message: 'The request body is too large.' } });
+      return;
+    }
+    // The database is away (stopped, restarting, unreachable): 503 with Retry-After, logged once
+    // per outage rather than once per request.
+    if (isDatabaseUnavailable(err)) {
+      outage?.report(err, { method: req.method, url: req.originalUrl });
+      if (res.headersSent) return;
+      res.setHeader('Retry-After', String(OUTAGE_RETRY_AFTER_S));
+      res.status(503).json({ error: { code: 'database-unavailable', message: 'The database is not reachable just now. Try again in a few seconds.' } });
       return;
     }
     log.error({ err, method: req.method, url: req.originalUrl }, 'unhandled error');

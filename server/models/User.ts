@@ -9,6 +9,11 @@ export class User extends Model {
   declare passwordHash: string;
   declare active: CreationOptional<boolean>;
   declare lastLoginAt: Date | null;
+  /** Part of every sign-in token; bumping it revokes all of the user's tokens. */
+  declare tokenVersion: CreationOptional<number>;
+  /** Set by an admin reset: the next sign-in must choose a new password first. */
+  declare mustChangePassword: CreationOptional<boolean>;
+  declare passwordChangedAt: Date | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
@@ -22,6 +27,7 @@ export class User extends Model {
       active: this.active,
       createdAt: this.createdAt,
       lastLoginAt: this.lastLoginAt,
+      mustChangePassword: this.mustChangePassword,
     };
   }
 
@@ -35,6 +41,9 @@ export class User extends Model {
         passwordHash: { type: DataTypes.STRING(100), allowNull: false },
         active: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: true },
         lastLoginAt: { type: DataTypes.DATE, allowNull: true },
+        tokenVersion: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
+        mustChangePassword: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: false },
+        passwordChangedAt: { type: DataTypes.DATE, allowNull: true },
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

@@ -1,7 +1,8 @@
 import { Router } from 'express';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
-import { createUser, listUsers, updateUser } from '../services/users.js';
+import { createUser, listUsers, resetPassword, updateUser } from '../services/users.js';
+import { PasswordReset } from '../../shared/protocol/password.js';
 import { IdParam, UserCreate, UserPatch } from '../../shared/protocol/api.js';
 
 export function usersRouter(): Router {
@@ -16,6 +17,11 @@ export function usersRouter(): Router {
   r.patch('/:id', async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
     res.json({ user: await updateUser(id, parse(UserPatch, req.body), currentUser(req).id) });
+  });
+  r.post('/:id/password-reset', async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    const { temporaryPassword } = parse(PasswordReset, req.body);
+    res.json({ user: await resetPassword(id, temporaryPassword, currentUser(req).id) });
   });
   return r;
 }

@@ -6,8 +6,10 @@ import path from 'node:path';
 import type pg from 'pg';
 import { User } from '../models/index.js';
 import type { Role } from '../../shared/protocol/roles.js';
-import { UnauthorizedError } from '../errors.js';
+import { AppError, UnauthorizedError, ValidationError } from '../errors.js';
 import type { LoginRequest } from '../../shared/protocol/api.js';
+import { PASSWORD_MAX_BYTES, utf8Bytes, type PasswordChange } from '../../shared/protocol/password.js';
+import { audit } from './audit.js';
 
 export const BCRYPT_COST = 11;
 export const TOKEN_TTL = '12h';
@@ -26,30 +28,57 @@ export function resolveJwtSecret(configured: string | undefined, dataDir: string
   return secret;
 }
 
+/** bcrypt of a password; refuses more than 72 bytes, which bcrypt would silently cut. */
 export function hashPassword(password: string): Promise<string> {
+  if (utf8Bytes(password) > PASSWORD_MAX_BYTES) {
+    throw new ValidationError(`password: must be at most ${PASSWORD_MAX_BYTES} bytes`, [
+      { path: 'password', message: `must be at most ${PASSWORD_MAX_BYTES} bytes` },
+    ]);
+  }
   return bcrypt.hash(password, BCRYPT_COST);
+}
+
+/** True when `password` matches `hash` (false for more than 72 bytes: bcrypt would compare a prefix). */
+export function passwordMatches(password: string, hash: string): Promise<boolean> {
+  if (utf8Bytes(password) > PASSWORD_MAX_BYTES) return bcrypt.compare('', DUMMY_HASH).then(() => false);
+  return bcrypt.compare(password, hash);
 }
 
 export interface TokenClaims {
   sub: string;
   role: string;
+  /** The user's token version when the token was issued; a later version revokes it. */
+  tv: number;
 }
 
-/** Checks e-mail and password; the same error for an unknown user, a wrong password or a disabled account. */
+/** The user as the sign-in answer and /me show it. */
+export function sessionUser(u: { id: number; email: string; name: string; role: Role }) {
+  return { id: u.id, email: u.email, name: u.name, role: u.role };
+}
+
+/** A sign-in token for `user` at its current token version. */
+export function issueToken(user: { id: number; role: Role; tokenVersion: number }, secret: string): string {
+  return jwt.sign({ role: user.role, tv: user.tokenVersion } satisfies Omit<TokenClaims, 'sub'>, secret, {
+    algorithm: 'HS256',
+    subject: String(user.id),
+    expiresIn: TOKEN_TTL,
+  });
+}
+
+/**
+ * Checks e-mail and password; the same error for an unknown user, a wrong password or a disabled
+ * account. `mustChangePassword` tells the client to ask for a new password before anything else
+ * (the server refuses every other route until then).
+ */
 export async function login(input: LoginRequest, secret: string) {
   const user = await User.findOne({ where: { email: input.email } });
-  const ok = await bcrypt.compare(input.password, user?.passwordHash ?? DUMMY_HASH);
+  const ok = await passwordMatches(input.password, user?.passwordHash ?? DUMMY_HASH);
   if (!user || !ok || !user.active) {
     throw new UnauthorizedError('invalid-credentials', 'E-mail or password is not right.');
   }
   user.lastLoginAt = new Date();
   await user.save();
-  const token = jwt.sign({ role: user.role } satisfies Omit<TokenClaims, 'sub'>, secret, {
-    algorithm: 'HS256',
-    subject: String(user.id),
-    expiresIn: TOKEN_TTL,
-  });
-  return { token, user: { id: user.id, email: user.email, name: user.name, role: user.role } };
+  return { token: issueToken(user, secret), user: sessionUser(user), mustChangePassword: user.mustChangePassword };
 }
 
 /** The signed-in user as every request sees it. */
@@ -58,30 +87,87 @@ export interface AuthUser {
   email: string;
   name: string;
   role: Role;
+  mustChangePassword: boolean;
 }
 
-/**
- * Verifies a bearer token and loads its user (one indexed query, on every request), so a
- * deactivated user's token stops working at once.
- */
-export async function userFromToken(token: string, secret: string, pool: pg.Pool): Promise<AuthUser> {
-  let claims: jwt.JwtPayload;
+interface UserRow {
+  id: number;
+  email: string;
+  name: string;
+  role: Role;
+  active: boolean;
+  token_version: number;
+  must_change_password: boolean;
+}
+
+/** Verifies a token's signature and expiry; its claims, or a 401. */
+export function verifyToken(token: string, secret: string): jwt.JwtPayload {
   try {
     const decoded = jwt.verify(token, secret, { algorithms: ['HS256'] });
     if (typeof decoded === 'string') throw new Error('unexpected payload');
-    claims = decoded;
+    return decoded;
   } catch (err) {
     if (err instanceof jwt.TokenExpiredError) {
       throw new UnauthorizedError('token-expired', 'Your session has expired. Please sign in again.');
     }
     throw new UnauthorizedError('unauthorized', 'The sign-in token is not valid.');
   }
+}
+
+/**
+ * Verifies a bearer token and loads its user (one indexed query, on every request), so a
+ * deactivated user's token stops working at once, and so does a token issued before the user's
+ * token version moved on (sign-out, password or role change, deactivation).
+ */
+export async function userFromToken(token: string, secret: string, pool: pg.Pool): Promise<AuthUser> {
+  const claims = verifyToken(token, secret);
   const id = Number(claims.sub);
   const found = Number.isInteger(id)
-    ? await pool.query<AuthUser & { active: boolean }>('SELECT id, email, name, role, active FROM users WHERE id = $1', [id])
+    ? await pool.query<UserRow>(
+        'SELECT id, email, name, role, active, token_version, must_change_password FROM users WHERE id = $1',
+        [id],
+      )
     : null;
   const user = found?.rows[0];
   if (!user) throw new UnauthorizedError('unauthorized', 'The sign-in token is not valid.');
   if (!user.active) throw new UnauthorizedError('account-disabled', 'This account has been deactivated.');
-  return { id: user.id, email: user.email, name: user.name, role: user.role };
+  if ((claims.tv ?? 0) !== user.token_version) {
+    throw new UnauthorizedError('session-ended', 'This session has ended (signed out, or the account changed). Please sign in again.');
+  }
+  return { id: user.id, email: user.email, name: user.name, role: user.role, mustChangePassword: user.must_change_password };
+}
+
+/** Signs out: every token of the user stops working (the token version moves on). */
+export async function logout(userId: number): Promise<void> {
+  await User.increment('tokenVersion', { by: 1, where: { id: userId } });
+}
+
+/**
+ * Changes the signed-in user's own password: the current one must be right, the new one must meet
+ * the policy and differ. Every older token is revoked; the answer carries a fresh token for this
+ * session. Clears a forced change after an admin reset.
+ */
+export async function changePassword(userId: number, input: PasswordChange, secret: string) {
+  const user = await User.findByPk(userId);
+  if (!user) throw new UnauthorizedError();
+  if (!(await passwordMatches(input.currentPassword, user.passwordHash))) {
+    throw new AppError(403, 'wrong-password', 'The current password is not right.', [
+      { path: 'currentPassword', message: 'is not right' },
+    ]);
+  }
+  if (input.newPassword === input.currentPassword) {
+    throw new ValidationError('newPassword: must differ from the current password', [
+      { path: 'newPassword', message: 'must differ from the current password' },
+    ]);
+  }
+  const hash = await hashPassword(input.newPassword);
+  await User.sequelize!.transaction(async (transaction) => {
+    user.passwordHash = hash;
+    user.mustChangePassword = false;
+    user.passwordChangedAt = new Date();
+    user.tokenVersion = user.tokenVersion + 1;
+    await user.save({ transaction });
+    await audit(userId, 'user.password.change', 'user', userId, undefined, transaction);
+  });
+  return { token: issueToken(user, secret), user: sessionUser(user), mustChangePassword: false };
 }

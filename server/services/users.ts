@@ -11,14 +11,14 @@ export async function listUsers() {
 }
 
 export async function createUser(input: UserCreate, actorId: number) {
+  const passwordHash = await hashPassword(input.password);
   try {
-    const user = await User.create({
-      email: input.email,
-      name: input.name,
-      role: input.role,
-      passwordHash: await hashPassword(input.password),
+    // The account and its audit event are one transaction.
+    const user = await User.sequelize!.transaction(async (transaction) => {
+      const created = await User.create({ email: input.email, name: input.name, role: input.role, passwordHash }, { transaction });
+      await audit(actorId, 'user.create', 'user', created.id, { email: created.email, role: created.role }, transaction);
+      return created;
     });
-    await audit(actorId, 'user.create', 'user', user.id, { email: user.email, role: user.role });
     return user.toPublic();
   } catch (err) {
     if (err instanceof UniqueConstraintError) throw new ConflictError('A user with this e-mail already exists.');
@@ -26,7 +26,10 @@ export async function createUser(input: UserCreate, actorId: number) {
   }
 }
 
-/** Renames, changes the role of, or (de)activates a user; every change is audited. */
+/**
+ * Renames, changes the role of, or (de)activates a user; every change is audited in the same
+ * transaction. A role change or a deactivation revokes every token the user holds.
+ */
 export async function updateUser(id: number, patch: UserPatch, actorId: number) {
   const user = await User.findByPk(id);
   if (!user) throw new NotFoundError('User');
@@ -37,15 +40,38 @@ export async function updateUser(id: number, patch: UserPatch, actorId: number) 
   if (patch.name !== undefined) user.name = patch.name;
   if (patch.role !== undefined) user.role = patch.role;
   if (patch.active !== undefined) user.active = patch.active;
-  await user.save();
-  if (patch.role !== undefined && patch.role !== before.role) {
-    await audit(actorId, 'user.role', 'user', id, { from: before.role, to: patch.role });
-  }
-  if (patch.active !== undefined && patch.active !== before.active) {
-    await audit(actorId, patch.active ? 'user.activate' : 'user.deactivate', 'user', id);
-  }
-  if (patch.name !== undefined && patch.name !== before.name) {
-    await audit(actorId, 'user.rename', 'user', id, { from: before.name, to: patch.name });
-  }
+  const roleChanged = patch.role !== undefined && patch.role !== before.role;
+  const deactivated = patch.active === false && before.active;
+  if (roleChanged || deactivated) user.tokenVersion = user.tokenVersion + 1;
+  await User.sequelize!.transaction(async (transaction) => {
+    await user.save({ transaction });
+    if (roleChanged) await audit(actorId, 'user.role', 'user', id, { from: before.role, to: patch.role }, transaction);
+    if (patch.active !== undefined && patch.active !== before.active) {
+      await audit(actorId, patch.active ? 'user.activate' : 'user.deactivate', 'user', id, undefined, transaction);
+    }
+    if (patch.name !== undefined && patch.name !== before.name) {
+      await audit(actorId, 'user.rename', 'user', id, { from: before.name, to: patch.name }, transaction);
+    }
+  });
+  return user.toPublic();
+}
+
+/**
+ * An admin sets a temporary password: the user's tokens are revoked and the next sign-in must
+ * choose a new password before anything else. Audited (never with the password).
+ */
+export async function resetPassword(id: number, temporaryPassword: string, actorId: number) {
+  const user = await User.findByPk(id);
+  if (!user) throw new NotFoundError('User');
+  if (id === actorId) throw new ConflictError('Change your own password with "Change password", not a reset.');
+  const hash = await hashPassword(temporaryPassword);
+  await User.sequelize!.transaction(async (transaction) => {
+    user.passwordHash = hash;
+    user.mustChangePassword = true;
+    user.passwordChangedAt = new Date();
+    user.tokenVersion = user.tokenVersion + 1;
+    await user.save({ transaction });
+    await audit(actorId, 'user.password.reset', 'user', id, undefined, transaction);
+  });
   return user.toPublic();
 }

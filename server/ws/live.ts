@@ -4,6 +4,7 @@ import { WebSocketServer, type WebSocket } from 'ws';
 import type pg from 'pg';
 import jwt from 'jsonwebtoken';
 import { userFromToken } from '../services/auth.js';
+import { tokenFromProtocolHeader, WS_PROTOCOL } from '../../shared/protocol/socketAuth.js';
 import type { UpgradeHandler } from './upgrade.js';
 import type { ClientMessage, LiveReading, ServerMessage } from '../../shared/protocol/live.js';
 
@@ -28,6 +29,8 @@ interface Peer {
   userId: number;
   /** When the peer's sign-in token expires (ms since epoch). */
   expiresAt: number;
+  /** The token version the socket signed in with; a newer one (sign-out, password change) ends it. */
+  tokenVersion: number;
 }
 
 /** Most captures one socket may watch at once. */
@@ -36,11 +39,13 @@ const MAX_WATCHED = 100;
 export const SESSION_ENDED = 4401;
 
 /**
- * The authenticated WebSocket endpoint `/ws?token=…`: watchers subscribe to captures and receive
- * every accepted reading as soon as its batch is committed.
+ * The authenticated WebSocket endpoint `/ws`: the token comes in the `Sec-WebSocket-Protocol`
+ * header (`driftbench.token.<jwt>`, see shared/protocol/socketAuth.ts), never in the URL. Watchers
+ * subscribe to captures and receive every accepted reading as soon as its batch is committed.
  */
 export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & UpgradeHandler & { recheckSessions(): Promise<void> } {
-  const wss = new WebSocketServer({ noServer: true, maxPayload: 64 * 1024 });
+  // The server answers with the plain protocol name, never echoing the token.
+  const wss = new WebSocketServer({ noServer: true, maxPayload: 64 * 1024, handleProtocols: () => WS_PROTOCOL });
   const peers = new Set<Peer>();
   const watchers = new Map<number, Set<Peer>>();
 
@@ -81,11 +86,11 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
   async function recheckSessions(): Promise<void> {
     if (peers.size === 0) return;
     const ids = [...new Set([...peers].map((p) => p.userId))];
-    const res = await pool.query<{ id: number }>('SELECT id FROM users WHERE id = ANY($1) AND active', [ids]);
-    const active = new Set(res.rows.map((r) => r.id));
+    const res = await pool.query<{ id: number; token_version: number }>('SELECT id, token_version FROM users WHERE id = ANY($1) AND active', [ids]);
+    const active = new Map(res.rows.map((r) => [r.id, r.token_version]));
     const now = Date.now();
     for (const peer of peers) {
-      if (!active.has(peer.userId) || peer.expiresAt <= now) peer.ws.close(SESSION_ENDED, 'session ended');
+      if (active.get(peer.userId) !== peer.tokenVersion || peer.expiresAt <= now) peer.ws.close(SESSION_ENDED, 'session ended');
     }
   }
 
@@ -104,8 +109,8 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
   }, 30_000);
   heartbeat.unref();
 
-  function accept(ws: WebSocket, userId: number, expiresAt: number) {
-    const peer: Peer = { ws, watching: new Set(), alive: true, userId, expiresAt };
+  function accept(ws: WebSocket, userId: number, expiresAt: number, tokenVersion: number) {
+    const peer: Peer = { ws, watching: new Set(), alive: true, userId, expiresAt, tokenVersion };
     peers.add(peer);
     // A protocol error (e.g. a frame over maxPayload) must end this socket, not the server.
     ws.on('error', () => ws.terminate());
@@ -140,17 +145,18 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
     handleUpgrade(req: IncomingMessage, socket: Duplex, head: Buffer): boolean {
       const url = new URL(req.url ?? '/', 'http://localhost');
       if (url.pathname !== '/ws') return false;
-      const token = url.searchParams.get('token') ?? '';
-      userFromToken(token, jwtSecret, pool).then(
-        (user) => {
-          const exp = (jwt.decode(token) as jwt.JwtPayload | null)?.exp;
-          wss.handleUpgrade(req, socket, head, (ws) => accept(ws, user.id, exp ? exp * 1000 : Infinity));
-        },
-        () => {
+      const token = tokenFromProtocolHeader(req.headers['sec-websocket-protocol']) ?? '';
+      userFromToken(token, jwtSecret, pool)
+        .then((user) => {
+          if (user.mustChangePassword) throw new Error('password change required');
+          const claims = jwt.decode(token) as jwt.JwtPayload | null;
+          const exp = claims?.exp;
+          wss.handleUpgrade(req, socket, head, (ws) => accept(ws, user.id, exp ? exp * 1000 : Infinity, Number(claims?.tv ?? 0)));
+        })
+        .catch(() => {
           socket.write('HTTP/1.1 401 Unauthorized\r\nConnection: close\r\n\r\n');
           socket.destroy();
-        },
-      );
+        });
       return true;
     },
     recheckSessions,

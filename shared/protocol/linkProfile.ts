@@ -32,7 +32,9 @@ export type HexSpiField = z.infer<typeof HexSpiField>;
 
 export const SimulatorTarget = z.object({
   path: z.enum(['/sim/counter', '/sim/spi-bridge']),
-  params: z.record(z.string(), z.string()),
+  params: z
+    .record(z.string().max(40), z.string().max(200))
+    .refine((r) => Object.keys(r).length <= 20, 'holds at most 20 parameters'),
 });
 export type SimulatorTarget = z.infer<typeof SimulatorTarget>;
 

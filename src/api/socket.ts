@@ -1,8 +1,10 @@
 /**
- * The client of the live endpoint `/ws?token=…`: one WebSocket per page, reconnected with
- * exponential backoff after any loss, with every watched capture re-subscribed on reconnect.
+ * The client of the live endpoint `/ws`: one WebSocket per page, reconnected with exponential
+ * backoff after any loss, with every watched capture re-subscribed on reconnect. The session token
+ * travels in the `Sec-WebSocket-Protocol` header (shared/protocol/socketAuth.ts), never in the URL.
  */
 import type { ClientMessage, ServerMessage } from '../../shared/protocol/live';
+import { socketProtocols } from '../../shared/protocol/socketAuth';
 
 export type SocketState = 'connecting' | 'open' | 'reconnecting' | 'closed';
 
@@ -89,12 +91,11 @@ export class LiveSocket {
   private connect() {
     if (this.closed) return;
     const token = this.opts.getToken();
-    const base = this.opts.url ?? defaultUrl();
-    const url = token ? `${base}?token=${encodeURIComponent(token)}` : base;
+    const url = this.opts.url ?? defaultUrl();
     const Ctor = this.opts.WebSocket ?? WebSocket;
     let ws: WebSocket;
     try {
-      ws = new Ctor(url);
+      ws = new Ctor(url, socketProtocols(token));
     } catch {
       this.retry();
       return;

@@ -5,6 +5,15 @@
  * would. Node (tests) passes a WebSocket constructor such as the `ws` package's.
  */
 import type { LinkInfo, SerialLink, SerialOpenOptions } from './SerialLink';
+import { socketProtocols } from '../../shared/protocol/socketAuth';
+
+/** Where simulator links read the session token (the hub opens only for a signed-in session). */
+let tokenSource: () => string | null = () => null;
+
+/** Wires simulator links to the session (called by the session store, like the HTTP wrapper). */
+export function configureSimulatorToken(getToken: () => string | null): void {
+  tokenSource = getToken;
+}
 
 /** The part of the WebSocket API this module uses (browser WebSocket and `ws` both fit). */
 export interface WebSocketLike {
@@ -18,7 +27,7 @@ export interface WebSocketLike {
   onerror: ((ev: unknown) => void) | null;
 }
 
-export type WebSocketConstructorLike = new (url: string) => WebSocketLike;
+export type WebSocketConstructorLike = new (url: string, protocols?: string | string[]) => WebSocketLike;
 
 export interface SimulatorLinkOptions {
   /** `/sim/counter` or `/sim/spi-bridge`; ignored when `url` is given. */
@@ -27,6 +36,8 @@ export interface SimulatorLinkOptions {
   /** A full `ws://` / `wss://` URL (tests, or a hub on another host). */
   url?: string;
   WebSocket?: WebSocketConstructorLike;
+  /** The session token; default: the signed-in session's (see configureSimulatorToken). */
+  token?: string | null;
 }
 
 /** `ws(s)://<this page's host><path>?<params>` — the hub mounted on the app's own server. */
@@ -76,7 +87,7 @@ export function createSimulatorLink(options: SimulatorLinkOptions): SerialLink {
       if (ws) return Promise.reject(new SimulatorLinkError('link is already open'));
       closing = false;
       return new Promise<void>((resolve, reject) => {
-        const sock = new Ctor(url);
+        const sock = new Ctor(url, socketProtocols(options.token !== undefined ? options.token : tokenSource()));
         ws = sock;
         sock.binaryType = 'arraybuffer';
         let opened = false;

@@ -2,6 +2,7 @@ import { computed, ref } from 'vue';
 import { defineStore } from 'pinia';
 import { fetchMe, login, type Role, type SessionUser } from '../api/auth';
 import { ApiError, configureHttp } from '../api/http';
+import { configureSimulatorToken } from '../links/simulatorLink';
 import { roleCan, type Permission } from '../../shared/protocol/roles';
 
 export const SESSION_KEY = 'driftbench.session';
@@ -53,6 +54,7 @@ export const useSessionStore = defineStore('session', () => {
   let restoring: Promise<SessionEndReason | null> | null = null;
 
   configureHttp({ getToken: () => token.value });
+  configureSimulatorToken(() => token.value);
 
   const isAuthenticated = computed(() => token.value !== null && user.value !== null);
   const role = computed<Role | null>(() => user.value?.role ?? null);

@@ -5,6 +5,8 @@ import { startServer, type RunningServer } from '../../server/index.js';
 import { createTestDatabase } from '../helpers/db.js';
 import { TEST_JWT_SECRET } from '../helpers/app.js';
 import type { ServerMessage } from '../../shared/protocol/live.js';
+import { socketProtocols, WS_PROTOCOL } from '../../shared/protocol/socketAuth.js';
+import { SIM_MAX_FRAME } from '../../simulators/server.js';
 
 let server: RunningServer;
 let drop: () => Promise<void>;
@@ -12,7 +14,7 @@ let drop: () => Promise<void>;
 beforeAll(async () => {
   const db = await createTestDatabase();
   drop = db.drop;
-  server = await startServer({ databaseUrl: db.url, jwtSecret: TEST_JWT_SECRET, demo: true, simulators: false, log: pino({ level: 'silent' }) });
+  server = await startServer({ databaseUrl: db.url, jwtSecret: TEST_JWT_SECRET, demo: true, simulators: true, log: pino({ level: 'silent' }) });
 });
 afterAll(async () => {
   await server.close();
@@ -39,7 +41,7 @@ function api(token: string, method: string, path: string, body?: unknown): Promi
 
 function connect(token: string): Promise<{ ws: WebSocket; messages: ServerMessage[]; next(type: string): Promise<ServerMessage> }> {
   return new Promise((resolve, reject) => {
-    const ws = new WebSocket(`${server.url.replace('http', 'ws')}/ws?token=${token}`);
+    const ws = new WebSocket(`${server.url.replace('http', 'ws')}/ws`, socketProtocols(token));
     const messages: ServerMessage[] = [];
     const waiters: Array<{ type: string; resolve: (m: ServerMessage) => void }> = [];
     ws.on('message', (data) => {
@@ -94,9 +96,44 @@ describe('live watching', () => {
   });
 
   it('refuses a WebSocket without a valid token', async () => {
-    const ws = new WebSocket(`${server.url.replace('http', 'ws')}/ws?token=bogus`);
+    const ws = new WebSocket(`${server.url.replace('http', 'ws')}/ws`, socketProtocols('bogus'));
     const status = await new Promise<number>((resolve) => ws.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)));
     expect(status).toBe(401);
+  });
+
+  it('takes the token from the subprotocol header only: a token in the URL is refused, and the answer never echoes it', async () => {
+    const token = await login('viewer');
+    const inUrl = new WebSocket(`${server.url.replace('http', 'ws')}/ws?token=${token}`);
+    const status = await new Promise<number>((resolve) => inUrl.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)));
+    expect(status).toBe(401);
+    const peer = await connect(token);
+    expect(peer.ws.protocol).toBe(WS_PROTOCOL);
+    peer.ws.close();
+  });
+
+  it('ends a watching socket when its user signs out (token version)', async () => {
+    const token = await login('engineer');
+    const peer = await connect(token);
+    const closed = new Promise<number>((resolve) => peer.ws.on('close', (code) => resolve(code)));
+    await fetch(`${server.url}/api/auth/logout`, { method: 'POST', headers: { authorization: `Bearer ${token}` } });
+    await server.hub.recheckSessions();
+    expect(await closed).toBe(4401);
+  });
+
+  it('opens the simulators only for a signed-in session, and ends a socket that sends an oversized frame', async () => {
+    const anonymous = new WebSocket(`${server.url.replace('http', 'ws')}/sim/counter`);
+    const status = await new Promise<number>((resolve) => anonymous.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)));
+    expect(status).toBe(401);
+    const token = await login('technician');
+    const sim = new WebSocket(`${server.url.replace('http', 'ws')}/sim/counter?mode=talk`, socketProtocols(token));
+    await new Promise((resolve, reject) => {
+      sim.on('open', resolve);
+      sim.on('error', reject);
+    });
+    const closed = new Promise<number>((resolve) => sim.on('close', (code) => resolve(code)));
+    sim.on('error', () => {});
+    sim.send(Buffer.alloc(SIM_MAX_FRAME + 1));
+    expect(await closed).toBe(1009);
   });
 
   it('survives hostile messages: prototype names, garbage and oversized frames', async () => {

@@ -7,6 +7,7 @@ import { Readable } from 'node:stream';
 import pg from 'pg';
 import { from as copyFrom } from 'pg-copy-streams';
 import WebSocket from 'ws';
+import { socketProtocols } from '../../shared/protocol/socketAuth.js';
 import { startCluster, destroyCluster, freePort } from '../../server/db/cluster.js';
 import { ensureDatabase, openDatabase } from '../../server/db/connection.js';
 import { migrate } from '../../server/migrations/index.js';
@@ -139,7 +140,7 @@ export async function benchIngest(): Promise<void> {
     // 4. Live path: readings made at 100/s go through the bench's own uploader (grouped every
     // 50 ms) and are watched over WebSocket; latency from the reading's creation to its arrival.
     const live = await newCapture(0.01);
-    const ws = new WebSocket(`${base.replace('http', 'ws')}/ws?token=${token}`);
+    const ws = new WebSocket(`${base.replace('http', 'ws')}/ws`, socketProtocols(token));
     await new Promise((r) => ws.on('open', r));
     ws.send(JSON.stringify({ type: 'watch', captureId: live }));
     await new Promise((r) => setTimeout(r, 100));

@@ -18,10 +18,19 @@ export interface TestApp {
 }
 
 /** The real app on a fresh database of its own, seeded with the demo lab. */
-export async function createTestApp(opts: { loginRateLimit?: number } = {}): Promise<TestApp> {
+export async function createTestApp(
+  opts: { loginRateLimit?: number; loginAccountLimit?: number; trustProxy?: boolean | number | string[] } = {},
+): Promise<TestApp> {
   const { url, drop } = await createTestDatabase();
   const db = await prepareDatabase(url, { demo: true, poolMax: 5 });
-  const app = createApp({ db, jwtSecret: TEST_JWT_SECRET, log: pino({ level: 'silent' }), loginRateLimit: opts.loginRateLimit ?? 1000 });
+  const app = createApp({
+    db,
+    jwtSecret: TEST_JWT_SECRET,
+    log: pino({ level: 'silent' }),
+    loginRateLimit: opts.loginRateLimit ?? 1000,
+    loginAccountLimit: opts.loginAccountLimit ?? 1000,
+    trustProxy: opts.trustProxy,
+  });
   const tokens = new Map<string, string>();
   return {
     app,
