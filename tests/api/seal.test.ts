@@ -1,0 +1,83 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import request from 'supertest';
+import { createHash } from 'node:crypto';
+import { createTestApp, type TestApp } from '../helpers/app.js';
+import { as, capture, plannedStudy } from '../helpers/review.js';
+
+let t: TestApp;
+beforeAll(async () => {
+  t = await createTestApp();
+});
+afterAll(async () => {
+  await t.close();
+});
+
+/**
+ * The canonical serialisation as docs/record.md states it, written here from the document (not
+ * from the server's code): per reading in ascending seq, 22 bytes big-endian — uint32 seq,
+ * binary64 t, binary64 value, int16 flags.
+ */
+function documentedSeal(readings: Array<{ seq: number; t: number; value: number; flags?: number }>): string {
+  const buf = new ArrayBuffer(readings.length * 22);
+  const dv = new DataView(buf);
+  readings.forEach((r, i) => {
+    const o = i * 22;
+    dv.setUint32(o, r.seq, false);
+    dv.setFloat64(o + 4, r.t, false);
+    dv.setFloat64(o + 12, r.value, false);
+    dv.setInt16(o + 20, r.flags ?? 0, false);
+  });
+  return createHash('sha256').update(new Uint8Array(buf)).digest('hex');
+}
+
+describe('sealed evidence', () => {
+  it('stores the digest of the documented serialisation when a capture finishes and verifies it', async () => {
+    const plan = await plannedStudy(t, 'Sealed study');
+    const eng = await as(t, 'engineer');
+    const c = await request(t.app)
+      .post('/api/captures')
+      .set(eng)
+      .send({ dutId: plan.dutId, checkpointId: plan.checkpointId, quantity: 'frequency', unit: 'Hz', gateTime: 1 });
+    const readings = [
+      { seq: 0, t: 0, value: 10_000_000.0012 },
+      { seq: 1, t: 1.0000001, value: 10_000_000.0015, flags: 1 },
+      { seq: 2, t: 2, value: 9_999_999.9987 },
+      { seq: 3, t: 3, value: 10_000_000.0009 },
+    ];
+    // Sent out of order: the seal follows seq, not arrival.
+    await request(t.app).post(`/api/captures/${c.body.id}/readings`).set(eng).send({ readings: [readings[2], readings[0], readings[3], readings[1]] });
+    const open = await request(t.app).get(`/api/captures/${c.body.id}/seal`).set(await as(t, 'viewer'));
+    expect(open.body).toMatchObject({ sha256: null, verified: null, readings: 4 });
+    await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(eng);
+    const res = await request(t.app).get(`/api/captures/${c.body.id}/seal`).set(await as(t, 'viewer'));
+    expect(res.status).toBe(200);
+    expect(res.body).toMatchObject({ sha256: documentedSeal(readings), readings: 4, verified: true });
+    const cap = await request(t.app).get(`/api/captures/${c.body.id}`).set(await as(t, 'viewer'));
+    expect(cap.body.sealSha256).toBe(res.body.sha256);
+  });
+
+  it('says verified: false after one reading is changed in SQL', async () => {
+    const plan = await plannedStudy(t, 'Tampered study');
+    const id = await capture(t, plan, { n: 200 });
+    const before = await request(t.app).get(`/api/captures/${id}/seal`).set(await as(t, 'viewer'));
+    expect(before.body.verified).toBe(true);
+    await t.db.pool.query('UPDATE readings SET value = value + 1e-6 WHERE capture_id = $1 AND seq = 117', [id]);
+    const after = await request(t.app).get(`/api/captures/${id}/seal`).set(await as(t, 'viewer'));
+    expect(after.body).toMatchObject({ sha256: before.body.sha256, verified: false, readings: 200 });
+    expect(after.body.recomputed).not.toBe(before.body.sha256);
+  });
+
+  it('says verified: false when a reading is deleted, and shows it in the report', async () => {
+    const plan = await plannedStudy(t, 'Reading removed');
+    const id = await capture(t, plan, { n: 20 });
+    await t.db.pool.query('DELETE FROM readings WHERE capture_id = $1 AND seq = 3', [id]);
+    const after = await request(t.app).get(`/api/captures/${id}/seal`).set(await as(t, 'viewer'));
+    expect(after.body).toMatchObject({ verified: false, readings: 19 });
+    const report = await request(t.app).get(`/api/studies/${plan.studyId}/report`).set(await as(t, 'viewer'));
+    expect(report.body.captures.find((c: { id: number }) => c.id === id).seal.verified).toBe(false);
+  });
+
+  it('answers 404 for a missing capture', async () => {
+    expect((await request(t.app).get('/api/captures/987654/seal').set(await as(t, 'viewer'))).status).toBe(404);
+  });
+});
