@@ -28,7 +28,14 @@ const CONNECTION_NAMES = new Set([
   'SequelizeHostNotReachableError',
   'SequelizeConnectionAcquireTimeoutError',
 ]);
-const CONNECTION_MESSAGES = [/Connection terminated/i, /timeout exceeded when trying to connect/i, /Client has encountered a connection error/i, /terminating connection/i];
+const CONNECTION_MESSAGES = [
+  /Connection terminated/i,
+  /timeout exceeded when trying to connect/i,
+  /Client has encountered a connection error/i,
+  /terminating connection/i,
+  /is not currently accepting connections/i,
+  /the database system is (starting up|shutting down|in recovery mode)/i,
+];
 
 /** True when `err` (or its cause) says the database cannot be reached, rather than that a query was wrong. */
 export function isDatabaseUnavailable(err: unknown, depth = 0): boolean {
