@@ -16,6 +16,7 @@ import { labRouter } from './routes/lab.js';
 import { instrumentsRouter } from './routes/instruments.js';
 import { healthRouter } from './routes/health.js';
 import { capturesRouter, comparisonsRouter } from './routes/captures.js';
+import { captureImportRouter } from './routes/captureImport.js';
 import { silentHub, type LiveHub } from './ws/live.js';
 import { auditRouter, reviewRouter, sealRouter } from './routes/review.js';
 import { attachmentsRouter, ownerAttachmentsRouter } from './routes/attachments.js';
@@ -82,6 +83,8 @@ export function createApp(ctx: AppContext): Express {
   api.use('/studies', studiesRouter(ctx.db.pool));
   api.use('/instruments', instrumentsRouter());
   api.use(labRouter());
+  // Readings logged elsewhere (issue 12): multipart, parsed as it streams; before `/:id`.
+  api.use('/captures', captureImportRouter(ctx.db.pool, ctx.hub ?? silentHub));
   api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub));
   api.use('/comparisons', comparisonsRouter(ctx.db.pool));
   // Review and the record (issue 11): workflow, audit, seals, attachments, outbox.

@@ -65,6 +65,8 @@ export const ROUTES = {
   'POST /api/captures': 'captures:run',
   'POST /api/captures/import': 'captures:run',
   'GET /api/captures/import/progress/:key': 'captures:run',
+  'POST /api/captures/import': 'captures:run',
+  'GET /api/captures/import/progress/:key': 'captures:run',
   'GET /api/captures/:id': 'read',
   // Notes and tags: the service lets the capture's operator or a tagger change them.
   'PATCH /api/captures/:id': 'read',

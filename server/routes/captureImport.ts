@@ -1,0 +1,29 @@
+import { Router } from 'express';
+import type pg from 'pg';
+import { z } from 'zod';
+import { parse } from '../middleware/validate.js';
+import { authorize, currentUser } from '../middleware/auth.js';
+import { NotFoundError } from '../errors.js';
+import { importCapture, importProgress } from '../services/captureImport.js';
+import type { LiveHub } from '../ws/live.js';
+
+const KeyParam = z.object({ key: z.string().regex(/^[A-Za-z0-9_-]{8,64}$/) });
+
+/**
+ * `POST /api/captures/import` (multipart: the fields of CaptureImportFields, then `file`) →
+ * `201 { id, readings }`; `GET /api/captures/import/progress/:key` → the server's progress.
+ * Mounted before the captures router so `/import` is never read as a capture id.
+ */
+export function captureImportRouter(pool: pg.Pool, hub: LiveHub): Router {
+  const r = Router();
+  r.post('/import', authorize('captures:run'), async (req, res) => {
+    res.status(201).json(await importCapture(pool, hub, currentUser(req), req, res));
+  });
+  r.get('/import/progress/:key', authorize('captures:run'), (req, res) => {
+    const { key } = parse(KeyParam, req.params, 'key');
+    const p = importProgress(key, currentUser(req));
+    if (!p) throw new NotFoundError('Import');
+    res.json(p);
+  });
+  return r;
+}
