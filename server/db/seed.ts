@@ -40,7 +40,7 @@ export async function seedDemo(sequelize: Sequelize): Promise<void> {
 
     const [, , gpsdo] = await Instrument.bulkCreate(
       [
-        { name: 'Counter C-1', kind: 'counter', maker: 'Driftbench Labs (simulated)', model: 'SIM-CNT-1', serial: 'KB-CNT-0001', calibrationDue: isoDate(200), notes: 'Reciprocal counter, 100 ps single-shot resolution; timebase locked to the GPS 10 MHz.' },
+        { name: 'Counter C-1', kind: 'counter', maker: 'Driftbench Labs (simulated)', model: 'SIM-CNT-1', serial: 'KB-CNT-0001', calibrationDue: isoDate(200), notes: 'Reciprocal counter, 100 ps single-shot resolution; timebase locked to the GPS 10 MHz.', counterType: 'reciprocal', counterResolution: 100e-12 },
         { name: 'SPI bridge B-1', kind: 'spi-bridge', maker: 'Driftbench Labs (simulated)', model: 'SIM-SPI-1', serial: 'KB-SPI-0001', calibrationDue: null, notes: 'Hex-line SPI bridge for the accelerometer.' },
         { name: 'GPS 10 MHz reference', kind: 'reference', maker: 'Driftbench Labs (simulated)', model: 'SIM-GPSDO-1', serial: 'KB-REF-0001', calibrationDue: isoDate(20), notes: 'Settled for more than 24 h before use.' },
         { name: 'Bench thermometer T-1', kind: 'other', maker: 'Driftbench Labs (simulated)', model: 'SIM-T-1', serial: 'KB-TMP-0001', calibrationDue: isoDate(-5), notes: 'Ambient temperature beside the board.' },
@@ -56,6 +56,10 @@ export async function seedDemo(sequelize: Sequelize): Promise<void> {
         verifiedBy: 'Compared against a second disciplined oscillator over 24 h',
         verifiedAt: isoDate(-10),
         instrumentId: gpsdo.id,
+        // Disciplined to satellite time: no ageing of its own beyond a small allowance (common practice, no source).
+        kind: 'gnss-disciplined',
+        ageingPerDay: 0,
+        ageingUPerDay: 1e-13,
       },
       { transaction },
     );

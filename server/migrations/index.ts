@@ -2,6 +2,7 @@ import { Umzug, SequelizeStorage } from 'umzug';
 import type { Sequelize, QueryInterface } from 'sequelize';
 import * as m0001 from './20261201-0001-initial.js';
 import * as m0002 from './20261201-0002-reading-tiles.js';
+import * as m0101 from './20261202-0001-uncertainty-inputs.js';
 import * as m0010 from './20261202-0010-account-security.js';
 import * as m0020 from './20261202-0020-review-and-record.js';
 
@@ -11,6 +12,7 @@ type Step = { up(p: { context: QueryInterface }): Promise<void>; down(p: { conte
 const MIGRATIONS: Array<[string, Step]> = [
   ['20261201-0001-initial', m0001],
   ['20261201-0002-reading-tiles', m0002],
+  ['20261202-0001-uncertainty-inputs', m0101],
   ['20261202-0010-account-security', m0010],
   ['20261202-0020-review-and-record', m0020],
 ];

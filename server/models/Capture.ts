@@ -21,6 +21,12 @@ export class Capture extends Model {
   declare tags: CreationOptional<string[]>;
   declare referenceOffset: number | null;
   declare referenceUncertainty: number | null;
+  /** The reference's calibration record and the counter's type, copied when the capture starts. */
+  declare referenceVerifiedAt: string | null;
+  declare referenceAgeingPerDay: number | null;
+  declare referenceAgeingUPerDay: number | null;
+  declare counterType: 'gated' | 'reciprocal' | 'time-interval' | null;
+  declare counterResolution: number | null;
   declare linkProfile: unknown;
   declare state: CreationOptional<CaptureState>;
   declare startedAt: CreationOptional<Date>;
@@ -55,6 +61,11 @@ export class Capture extends Model {
         tags: { type: DataTypes.ARRAY(DataTypes.STRING(60)), allowNull: false, defaultValue: [] },
         referenceOffset: DataTypes.DOUBLE,
         referenceUncertainty: DataTypes.DOUBLE,
+        referenceVerifiedAt: DataTypes.DATEONLY,
+        referenceAgeingPerDay: DataTypes.DOUBLE,
+        referenceAgeingUPerDay: { type: DataTypes.DOUBLE, field: 'reference_ageing_u_per_day' },
+        counterType: DataTypes.STRING(16),
+        counterResolution: DataTypes.DOUBLE,
         linkProfile: DataTypes.JSONB,
         state: { type: DataTypes.STRING(20), allowNull: false, defaultValue: 'open' },
         startedAt: { type: DataTypes.DATE, allowNull: false, defaultValue: DataTypes.NOW },

@@ -1,5 +1,12 @@
 import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
 
+/**
+ * A tuning fork's parabola when the DUT gives none (common practice, no source; makers'
+ * datasheets print T0 = 25 ± 5 °C and B = −0.034 ppm/°C² within about ±0.006): the tolerances
+ * read as rectangular, so u(T0) = 5/√3 °C and u(B) = 0.006/√3 ppm/°C² (JCGM 100 §4.3.7).
+ */
+export const TUNING_FORK_DEFAULTS = { T0: 25, uT0: 5 / Math.sqrt(3), B: -0.034, uB: 0.006 / Math.sqrt(3) } as const;
+
 /** A device under test on a study's board, with its acceptance limit. */
 export class Dut extends Model {
   declare id: CreationOptional<number>;
@@ -8,7 +15,16 @@ export class Dut extends Model {
   declare kind: string;
   declare nominal: number;
   declare unit: string;
-  declare limitValue: number;
+  /** Half-width of a symmetric limit; null when the limit is asymmetric or one-sided. */
+  declare limitValue: number | null;
+  /** Bounds of an asymmetric or one-sided limit in limitUnit (null: that side is open). */
+  declare limitLow: number | null;
+  declare limitHigh: number | null;
+  /** Tuning fork: turnover T0 °C and parabolic B ppm/°C² with standard uncertainties (null: defaults). */
+  declare turnoverC: number | null;
+  declare turnoverU: number | null;
+  declare parabolicB: number | null;
+  declare parabolicBU: number | null;
   declare limitUnit: 'ppm' | 'ppb' | 'Hz' | 'mg' | '%';
   declare position: string | null;
   declare serial: string | null;
@@ -24,9 +40,24 @@ export class Dut extends Model {
       nominal: this.nominal,
       unit: this.unit,
       limit: this.limitValue,
+      limitLow: this.limitValue !== null ? -this.limitValue : this.limitLow,
+      limitHigh: this.limitValue !== null ? this.limitValue : this.limitHigh,
       limitUnit: this.limitUnit,
+      ...(this.kind === 'tuning-fork' ? { tuningFork: this.tuningFork() } : {}),
       position: this.position,
       serial: this.serial,
+    };
+  }
+
+  /** The tuning-fork parameters in force: the DUT's own, else Driftbench's defaults (captureAnalysis). */
+  tuningFork(): { T0: number; uT0: number; B: number; uB: number; defaults: boolean } {
+    const own = this.turnoverC !== null || this.turnoverU !== null || this.parabolicB !== null || this.parabolicBU !== null;
+    return {
+      T0: this.turnoverC ?? TUNING_FORK_DEFAULTS.T0,
+      uT0: this.turnoverU ?? TUNING_FORK_DEFAULTS.uT0,
+      B: this.parabolicB ?? TUNING_FORK_DEFAULTS.B,
+      uB: this.parabolicBU ?? TUNING_FORK_DEFAULTS.uB,
+      defaults: !own,
     };
   }
 
@@ -39,7 +70,13 @@ export class Dut extends Model {
         kind: { type: DataTypes.STRING(30), allowNull: false },
         nominal: { type: DataTypes.DOUBLE, allowNull: false },
         unit: { type: DataTypes.STRING(20), allowNull: false },
-        limitValue: { type: DataTypes.DOUBLE, allowNull: false },
+        limitValue: DataTypes.DOUBLE,
+        limitLow: DataTypes.DOUBLE,
+        limitHigh: DataTypes.DOUBLE,
+        turnoverC: DataTypes.DOUBLE,
+        turnoverU: DataTypes.DOUBLE,
+        parabolicB: DataTypes.DOUBLE,
+        parabolicBU: { type: DataTypes.DOUBLE, field: 'parabolic_b_u' },
         limitUnit: { type: DataTypes.STRING(8), allowNull: false },
         position: DataTypes.STRING(60),
         serial: DataTypes.STRING(120),

@@ -10,6 +10,10 @@ export class Instrument extends Model {
   declare calibrationDue: string | null;
   declare notes: string | null;
   declare linkProfile: unknown;
+  /** How a counter measures; null for other instruments or when not recorded. */
+  declare counterType: 'gated' | 'reciprocal' | 'time-interval' | null;
+  /** ± counts of a gated counter, or the time-interval resolution in seconds otherwise. */
+  declare counterResolution: number | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
@@ -25,6 +29,8 @@ export class Instrument extends Model {
         calibrationDue: DataTypes.DATEONLY,
         notes: DataTypes.TEXT,
         linkProfile: DataTypes.JSONB,
+        counterType: DataTypes.STRING(16),
+        counterResolution: DataTypes.DOUBLE,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

@@ -10,6 +10,10 @@ export class Reference extends Model {
   declare verifiedBy: string | null;
   declare verifiedAt: string | null;
   declare instrumentId: number | null;
+  declare kind: 'gnss-disciplined' | 'rubidium' | 'ocxo' | 'internal-timebase' | 'other' | null;
+  /** Ageing rate, fractional per day, and its standard uncertainty (null: not recorded). */
+  declare ageingPerDay: number | null;
+  declare ageingUPerDay: number | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
@@ -24,6 +28,9 @@ export class Reference extends Model {
         verifiedBy: DataTypes.TEXT,
         verifiedAt: DataTypes.DATEONLY,
         instrumentId: DataTypes.INTEGER,
+        kind: DataTypes.STRING(24),
+        ageingPerDay: DataTypes.DOUBLE,
+        ageingUPerDay: { type: DataTypes.DOUBLE, field: 'ageing_u_per_day' },
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

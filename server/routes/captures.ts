@@ -12,7 +12,7 @@ import { ingestReadings } from '../services/ingest.js';
 import { finishCapture } from '../services/finish.js';
 import { readSeries } from '../services/readings.js';
 import { compareCaptures, summaryOf } from '../services/comparisons.js';
-import { preparedFor, stabilityOf } from '../services/captureAnalysis.js';
+import { defaultDrift, preparedFor, stabilityOf, withDrift } from '../services/captureAnalysis.js';
 import { Dut } from '../models/index.js';
 import type { LiveHub } from '../ws/live.js';
 
@@ -80,11 +80,13 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub): Router {
     const q = parse(AnalysisQuery, req.query, 'query');
     const c = await requireCapture(id);
     const dut = await Dut.findByPk(c.dutId);
-    const summary = await summaryOf(pool, c, dut);
+    const drift = q.drift ?? defaultDrift(c);
+    const summary = await summaryOf(pool, c, dut, drift);
+    // Stability always runs on the series with the chosen drift removed (issue 8).
     const stability =
-      q.kind === 'oadev' && q.taus === 'octave' && !q.confidence && c.state !== 'open'
+      q.kind === 'oadev' && q.taus === 'octave' && !q.confidence
         ? summary.stability
-        : stabilityOf(await preparedFor(pool, c), q.kind, q.taus, q.confidence);
+        : stabilityOf(withDrift(await preparedFor(pool, c), drift, []).prepared, q.kind, q.taus, q.confidence);
     res.json({
       stats: summary.stats,
       correction: summary.correction,
@@ -93,6 +95,8 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub): Router {
       offsetPpm: summary.offsetPpm,
       temperature: summary.temperature,
       drift: summary.drift,
+      driftModel: drift,
+      counter: summary.counter,
       gaps: summary.gaps,
       counts: summary.counts,
       notes: summary.notes,

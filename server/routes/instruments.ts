@@ -11,26 +11,35 @@ import {
 } from '../services/instruments.js';
 import { IdParam, INSTRUMENT_KINDS } from '../../shared/protocol/api.js';
 import { LinkProfile } from '../../shared/protocol/linkProfile.js';
-import { CalendarDate, Text } from '../../shared/protocol/text.js';
+import { CounterFields } from '../../shared/protocol/uncertainty.js';
 
 /** Optional free text: trimmed; empty means "none" (stored as null). */
 const optionalText = (max: number) =>
-  Text({ max })
+  z
+    .string()
+    .trim()
+    .max(max, `must be at most ${max} characters`)
     .transform((s) => (s === '' ? null : s))
     .nullable()
     .optional();
 
-/** A real calendar date in a sane range (0000-01-01 or 9999-12-31 are refused with 400). */
-const IsoDate = CalendarDate;
+const IsoDate = z
+  .string()
+  .regex(/^\d{4}-\d{2}-\d{2}$/, 'must be a date as YYYY-MM-DD')
+  .refine((s) => {
+    const d = new Date(`${s}T00:00:00Z`);
+    return !Number.isNaN(d.getTime()) && d.toISOString().startsWith(s);
+  }, 'is not a calendar date');
 
 const fields = {
-  name: Text({ min: 1, max: 120 }),
+  name: z.string().trim().min(1, 'is required').max(120, 'must be at most 120 characters'),
   kind: z.enum(INSTRUMENT_KINDS, { message: `must be one of ${INSTRUMENT_KINDS.join(', ')}` }),
   maker: optionalText(120),
   model: optionalText(120),
   serial: optionalText(120),
   calibrationDue: IsoDate.nullable().optional(),
   notes: optionalText(2000),
+  ...CounterFields,
 };
 
 export const InstrumentCreate = z.strictObject(fields);

@@ -8,21 +8,35 @@ import {
   allMs,
   findGaps,
   driftFit,
+  fitDrift,
   uncertaintyBudget,
   tuningForkShift,
   AnalysisError,
+  type DriftModel,
+  type DriftRemoval,
   type StabilityKind,
   type Summary,
 } from '../../shared/analysis/index.js';
 import type { Capture, Dut } from '../models/index.js';
+import { TUNING_FORK_DEFAULTS } from '../models/Dut.js';
 import { loadSeries, type Series } from './readings.js';
 
 /** Standard uncertainty of the bench thermometer assumed when none is recorded (common practice, no source). */
 export const THERMOMETER_U_C = 0.3;
+/** Standard uncertainty of the bench thermometer's calibration bias, shared by every capture (common practice, no source). */
+export const THERMOMETER_BIAS_U_C = 0.5;
+/** Where a lab's ambient lies when a capture recorded none, taken as rectangular (common practice, no source). */
+export const LAB_AMBIENT_RANGE_C = [18, 28] as const;
 /** Tuning-fork parabolic coefficient, ppm/°C² (REFERENCES: makers' datasheets, typical −0.034). */
-export const TUNING_FORK_B = -0.034;
-export const TUNING_FORK_T0 = 25;
-const SUMMARY_VERSION = 1;
+export const TUNING_FORK_B = TUNING_FORK_DEFAULTS.B;
+export const TUNING_FORK_T0 = TUNING_FORK_DEFAULTS.T0;
+/** Counter assumed when a capture recorded none: reciprocal, 100 ps (common practice, no source). */
+const ASSUMED_COUNTER = { kind: 'reciprocal' as const, tRes: 100e-12 };
+/**
+ * 2: k from ν_eff, counter type, reference ageing, drift removal and its budget line (issue 8).
+ * Stored summaries of an older version are recomputed when read (comparisons.summaryOf).
+ */
+export const SUMMARY_VERSION = 2;
 
 /** The readings of a capture ready for analysis: reference-corrected values and fractional frequency. */
 export interface Prepared {
@@ -118,8 +132,41 @@ export function stabilityOf(p: Prepared, kind: StabilityKind, taus: 'octave' | '
 /** Temperature coefficient (fractional per °C) at the capture's ambient, where the DUT kind has a known curve. */
 function temperatureCoefficient(dut: Dut | null, ambientC: number | null): number | undefined {
   if (!dut || ambientC === null) return undefined;
-  if (dut.kind === 'tuning-fork') return Math.abs(2 * TUNING_FORK_B * (ambientC - TUNING_FORK_T0)) * 1e-6;
+  if (dut.kind === 'tuning-fork') {
+    const { B, T0 } = dut.tuningFork();
+    return Math.abs(2 * B * (ambientC - T0)) * 1e-6;
+  }
   return undefined;
+}
+
+/** The drift removed by default: linear for frequency (SP 1065 §6), none for other quantities. */
+export function defaultDrift(c: Pick<Capture, 'quantity'>): DriftModel {
+  return c.quantity === 'frequency' ? 'linear' : 'none';
+}
+
+/**
+ * The series with the chosen drift removed (the mean kept), ready for stabilityOf, and the fit.
+ * Too few or disordered timestamps leave the series as it is and say why.
+ */
+export function withDrift(p: Prepared, model: DriftModel, notes: string[]): { prepared: Prepared; fit: DriftRemoval | null } {
+  if (model === 'none' || p.y.length < (model === 'quadratic' ? 4 : 3)) return { prepared: p, fit: null };
+  const fit = tryAnalysis(() => fitDrift(p.t, p.y, model), notes, 'Drift removal');
+  if (!fit) return { prepared: p, fit: null };
+  return { prepared: { ...p, y: fit.detrended }, fit };
+}
+
+/** Seconds from the reference's verification day (00:00 UTC) to the capture's middle, in days. */
+function daysSinceVerification(c: Capture, p: Prepared): number | null {
+  if (!c.referenceVerifiedAt) return null;
+  const mid = captureMidpoint(c, p);
+  if (mid === null) return null;
+  return (mid.getTime() - new Date(`${c.referenceVerifiedAt}T00:00:00Z`).getTime()) / 86_400_000;
+}
+
+/** The middle of a capture's readings in wall-clock time (start + mean of first and last t). */
+export function captureMidpoint(c: Pick<Capture, 'startedAt'>, p: Pick<Prepared, 't'>): Date | null {
+  if (!c.startedAt || p.t.length === 0) return null;
+  return new Date(new Date(c.startedAt).getTime() + ((p.t[0] + p.t[p.t.length - 1]) / 2) * 1000);
 }
 
 /** Runs one optional figure; an AnalysisError becomes a note instead of failing the reduction. */
@@ -134,32 +181,86 @@ function tryAnalysis<T>(run: () => T, notes: string[], what: string): T | null {
 }
 
 /** The full reduction of one capture: what the capture page shows and what a comparison uses. */
-export function reduce(c: Capture, dut: Dut | null, p: Prepared) {
+export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?: DriftModel } = {}) {
   const notes: string[] = [];
+  const driftModel = opts.drift ?? defaultDrift(c);
   if (p.flagged) notes.push(`${p.flagged} flagged reading(s) (garbled or timed out) left out of the analysis.`);
   if (p.outliers) notes.push(`${p.outliers} outlier(s) by robust z > 5 left out of the statistics; raw readings kept.`);
   // Timestamps come from outside (the bench, a CSV): a series whose times run backwards or stand
   // still still reduces; only the gap and drift figures that need ordered times are left out.
   const gaps = p.tUnflagged.length >= 2 ? (tryAnalysis(() => findGaps(p.tUnflagged, p.tau0), notes, 'Gaps') ?? []) : [];
   if (gaps.length) notes.push(`${gaps.length} gap(s) in the timestamps; stability treats the series as contiguous.`);
-  const drift = p.t.length >= 3 ? tryAnalysis(() => driftFit(p.t, p.y), notes, 'Drift') : null;
-  const stab = stabilityOf(p, 'oadev', 'octave');
+  const linear = p.t.length >= 3 ? tryAnalysis(() => driftFit(p.t, p.y), notes, 'Drift') : null;
+  // Stability and noise identification run on the series with its drift removed (issue 8).
+  const detrended = withDrift(p, driftModel, notes);
+  const fit = detrended.fit;
+  const stab = stabilityOf(detrended.prepared, 'oadev', 'octave');
+  const perDay = c.quantity === 'frequency' ? 1e9 : 1;
+  const drift = linear
+    ? {
+        ...linear,
+        model: fit ? fit.model : 'none',
+        removed: fit !== null,
+        ratePerDay: fit ? fit.ratePerDay : linear.slopePerDay,
+        rateStderrPerDay: fit ? fit.rateStderrPerDay : linear.stderrPerDay,
+        curvaturePerDay2: fit ? fit.curvaturePerDay2 : 0,
+        trendSd: fit ? fit.trendSd : null,
+        // Frequency: y is fractional, so the rate reads in ppb/day; other quantities in their unit per day.
+        rateUnit: c.quantity === 'frequency' ? 'ppb/day' : `${c.unit}/day`,
+        rateInUnit: (fit ? fit.ratePerDay : linear.slopePerDay) * perDay,
+        rateStderrInUnit: (fit ? fit.rateStderrPerDay : linear.stderrPerDay) * perDay,
+      }
+    : null;
   const span = p.t.length ? p.t[p.t.length - 1] - p.t[0] + p.tau0 : 0;
+  const counter: { kind: 'gated'; counts: number; assumed?: boolean } | { kind: 'reciprocal' | 'time-interval'; tRes: number; assumed?: boolean } =
+    c.counterType === 'gated'
+      ? { kind: 'gated', counts: c.counterResolution ?? 1 }
+      : c.counterType
+        ? { kind: c.counterType, tRes: c.counterResolution ?? ASSUMED_COUNTER.tRes }
+        : { ...ASSUMED_COUNTER, assumed: true };
   let uncertainty = null;
   if (c.quantity === 'frequency' && p.stats && (c.nominal ?? 0) > 0) {
     const last = stab.points[stab.points.length - 1];
     const tempco = temperatureCoefficient(dut, c.ambientC);
+    // With the drift removed, the scatter about the trend is the repeatability; the drift itself
+    // becomes its own line (the mean depends on when the capture stops).
+    let stats: { n: number; mean: number; sd: number; sem: number } = p.stats;
+    if (fit && p.y.length === p.stats.n) {
+      const nominal = c.nominal!;
+      let ss = 0;
+      let mean = 0;
+      for (let i = 0; i < fit.detrended.length; i++) mean += fit.detrended[i];
+      mean /= fit.detrended.length;
+      for (let i = 0; i < fit.detrended.length; i++) ss += (fit.detrended[i] - mean) ** 2;
+      const sd = Math.sqrt(ss / (fit.detrended.length - 1)) * nominal;
+      stats = { n: p.stats.n, mean: p.stats.mean, sd, sem: sd / Math.sqrt(p.stats.n) };
+    }
+    if (!c.counterType) notes.push('The counter type was not recorded with this capture: a reciprocal counter with 100 ps resolution is assumed.');
+    const days = daysSinceVerification(c, p);
+    const ageing =
+      c.referenceAgeingPerDay !== null && c.referenceAgeingPerDay !== undefined && days !== null
+        ? { perDay: c.referenceAgeingPerDay, uPerDay: c.referenceAgeingUPerDay ?? 0, days }
+        : undefined;
+    if (c.referenceId !== null && c.referenceUncertainty !== null && !ageing) {
+      notes.push(
+        days === null
+          ? 'The reference has no verification date: its ageing since verification is not in the budget.'
+          : 'The reference has no ageing rate recorded: its ageing since verification is not in the budget.',
+      );
+    }
     const budget = uncertaintyBudget({
-      stats: p.stats,
+      stats,
       nominal: c.nominal!,
       gateTime: c.gateTime,
       span,
       adevAtSpan: last?.dev,
       adevEdf: last?.edf,
       noise: last?.noise,
-      resolution: { kind: 'reciprocal' },
-      reference: c.referenceUncertainty !== null ? { offset: c.referenceOffset ?? 0, u: c.referenceUncertainty } : undefined,
+      resolution: counter,
+      reference:
+        c.referenceUncertainty !== null ? { offset: c.referenceOffset ?? 0, u: c.referenceUncertainty, ...(ageing ? { ageing } : {}) } : undefined,
       temperature: tempco !== undefined ? { coeffPerC: tempco, uC: THERMOMETER_U_C } : undefined,
+      drift: fit ? { model: fit.model, trendSd: fit.trendSd, ratePerDay: fit.ratePerDay, rateStderrPerDay: fit.rateStderrPerDay } : undefined,
     });
     // The statistics are already reference-corrected (prepare); the budget's own mean would
     // apply the correction a second time. Its uncertainty components are what we need.
@@ -167,10 +268,15 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared) {
   }
   const nominal = c.nominal ?? 0;
   const offsetPpm = c.quantity === 'frequency' && p.stats && nominal > 0 ? ((p.stats.mean - nominal) / nominal) * 1e6 : null;
+  const fork = dut?.kind === 'tuning-fork' ? dut.tuningFork() : null;
   const normalizedPpm =
-    dut?.kind === 'tuning-fork' && offsetPpm !== null && c.ambientC !== null
-      ? offsetPpm - tuningForkShift(c.ambientC, { B: TUNING_FORK_B, T0: TUNING_FORK_T0 })
-      : null;
+    fork && offsetPpm !== null && c.ambientC !== null ? offsetPpm - tuningForkShift(c.ambientC, { B: fork.B, T0: fork.T0 }) : null;
+  if (fork && c.quantity === 'frequency' && c.ambientC === null) {
+    notes.push(
+      `No ambient temperature was recorded: this tuning fork's mean cannot be taken to its turnover (${fork.T0} °C); a comparison takes the ambient anywhere in ${LAB_AMBIENT_RANGE_C[0]}–${LAB_AMBIENT_RANGE_C[1]} °C and widens U.`,
+    );
+  }
+  const midpoint = captureMidpoint(c, p);
   return {
     version: SUMMARY_VERSION,
     counts: { total: p.total, used: p.values.length, flagged: p.flagged, outliers: p.outliers },
@@ -183,8 +289,10 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared) {
       convention: 'f_true = f_displayed · (1 + y_ref)',
     },
     offsetPpm,
-    temperature: { ambientC: c.ambientC, normalizedPpm, t0: TUNING_FORK_T0 },
+    temperature: { ambientC: c.ambientC, normalizedPpm, t0: fork?.T0 ?? TUNING_FORK_T0, ...(fork ? { tuningFork: fork } : {}) },
     drift,
+    midpoint: midpoint ? midpoint.toISOString() : null,
+    counter: { kind: counter.kind, resolution: 'counts' in counter ? counter.counts : counter.tRes, assumed: !c.counterType },
     gaps,
     stability: stab,
     uncertainty,

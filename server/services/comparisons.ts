@@ -1,14 +1,32 @@
 import type pg from 'pg';
-import { AnalysisError, compare, normalizeTuningFork } from '../../shared/analysis/index.js';
+import { AnalysisError, compare, tuningForkDelta, type DeltaTerm, type DriftModel } from '../../shared/analysis/index.js';
 import { Capture, Checkpoint, Dut, Study } from '../models/index.js';
 import { AppError, NotFoundError, ValidationError } from '../errors.js';
-import { preparedFor, reduce, TUNING_FORK_B, TUNING_FORK_T0, type CaptureSummary } from './captureAnalysis.js';
+import {
+  LAB_AMBIENT_RANGE_C,
+  preparedFor,
+  reduce,
+  SUMMARY_VERSION,
+  THERMOMETER_BIAS_U_C,
+  THERMOMETER_U_C,
+  defaultDrift,
+  type CaptureSummary,
+} from './captureAnalysis.js';
 
-/** The stored summary of a finished capture, or a fresh reduction of an open one. */
-export async function summaryOf(pool: pg.Pool, c: Capture, dut: Dut | null): Promise<CaptureSummary> {
-  if (c.state !== 'open' && c.summary) return c.summary as CaptureSummary;
-  return reduce(c, dut, await preparedFor(pool, c));
+/**
+ * The stored summary of a finished capture, or a fresh reduction of an open one, of a summary
+ * stored by an older version (its shape and budget predate SUMMARY_VERSION; the readings never
+ * change, so the recomputation is the same evidence read by today's rules), or with a drift model
+ * other than the default.
+ */
+export async function summaryOf(pool: pg.Pool, c: Capture, dut: Dut | null, drift?: DriftModel): Promise<CaptureSummary> {
+  const stored = c.summary as CaptureSummary | null;
+  const custom = drift !== undefined && drift !== defaultDrift(c);
+  if (c.state !== 'open' && stored && (stored.version ?? 0) >= SUMMARY_VERSION && !custom) return stored;
+  return reduce(c, dut, await preparedFor(pool, c), custom ? { drift } : {});
 }
+
+const DAY_MS = 86_400_000;
 
 /**
  * Before/after comparison of one DUT: Δ in the quantity's unit and in ppm, U (k = 2) and the
@@ -26,42 +44,95 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
   const [sb, sa] = await Promise.all([summaryOf(pool, before, dut), summaryOf(pool, after, dut)]);
   if (!sb.stats || !sa.stats) throw new AppError(422, 'not-enough-readings', 'Each capture needs at least two usable readings.');
 
-  // A tuning fork's frequency follows its parabola with temperature: when both ambients are
-  // known, each mean is taken back to T0 before Δ is formed (REFERENCES: Δf/f = B·(T − T0)²).
-  const normalise = dut.kind === 'tuning-fork' && before.ambientC !== null && after.ambientC !== null && before.quantity === 'frequency';
+  // A tuning fork's frequency follows its parabola with temperature: each mean is taken to the
+  // turnover T0 before Δ is formed, and T0, B and the thermometer's bias — the same for both
+  // captures — enter Δ's budget once with their combined sensitivities (tuningForkDelta). A side
+  // without a recorded ambient is taken anywhere in the lab's range, never at 25 °C.
+  const frequency = before.quantity === 'frequency' && after.quantity === 'frequency';
+  const normalise = dut.kind === 'tuning-fork' && frequency;
+  const nominal = dut.nominal;
   const notes: string[] = [];
+  const deltaTerms: DeltaTerm[] = [];
+  const replaceKeys: string[] = [];
+  let shifts = { before: 0, after: 0 };
   if (normalise) {
+    const fork = dut.tuningFork();
+    const d = tuningForkDelta(before.ambientC, after.ambientC, fork, {
+      uReading: THERMOMETER_U_C,
+      uBias: THERMOMETER_BIAS_U_C,
+      labRange: LAB_AMBIENT_RANGE_C,
+    });
+    shifts = { before: d.shiftBeforePpm, after: d.shiftAfterPpm };
+    replaceKeys.push('temperature');
+    for (const t of d.terms) {
+      deltaTerms.push({ ...t, sensitivity: t.sensitivityPpm * nominal * 1e-6, note: `${t.note} (${t.sensitivityPpm.toPrecision(3)} ppm per ${t.unit})` });
+    }
     notes.push(
-      `Tuning fork: both means normalised to ${TUNING_FORK_T0} °C with B = ${TUNING_FORK_B} ppm/°C² before comparing (ambient ${before.ambientC} °C → ${after.ambientC} °C).`,
+      `Tuning fork: both means taken to T0 = ${fork.T0.toPrecision(3)} °C with B = ${fork.B} ppm/°C²${fork.defaults ? ' (defaults, common practice)' : ' (this DUT\'s own)'}; ` +
+        `ambient ${before.ambientC ?? 'not recorded'} → ${after.ambientC ?? 'not recorded'} °C.`,
+      ...d.notes,
     );
   }
-  const side = (c: Capture, s: CaptureSummary) => {
-    const refComponent = s.uncertainty?.components.find((x) => /reference/i.test(x.name));
-    const mean = normalise ? normalizeTuningFork(s.stats!.mean, c.ambientC!, { B: TUNING_FORK_B, T0: TUNING_FORK_T0 }) : s.stats!.mean;
+  const sameReference = before.referenceId !== null && before.referenceId === after.referenceId;
+  if (sameReference && frequency && after.referenceAgeingPerDay !== null) {
+    // One reference in both captures: its offset cancels, its change between them does not.
+    const [mb, ma] = [sb.midpoint ?? null, sa.midpoint ?? null];
+    if (mb && ma) {
+      const days = Math.abs(new Date(ma).getTime() - new Date(mb).getTime()) / DAY_MS;
+      const rate = Math.hypot(after.referenceAgeingPerDay, after.referenceAgeingUPerDay ?? 0);
+      replaceKeys.push('reference-ageing');
+      deltaTerms.push({
+        name: 'Reference ageing between captures',
+        symbol: 'u_age',
+        value: rate * days,
+        unit: '',
+        sensitivity: nominal,
+        distribution: 'normal',
+        note:
+          `The shared reference ages between the captures, ${days.toPrecision(3)} days apart: √(a² + u(a)²) × days = ${(rate * days).toExponential(2)} ` +
+          `(a = ${after.referenceAgeingPerDay.toExponential(2)}/day), × nominal. Its offset cancels in Δ; this change does not.`,
+        source: 'Reference calibration record; JCGM 100 §5.2',
+      });
+    }
+  }
+  if (sameReference && before.referenceOffset !== after.referenceOffset) {
+    notes.push('The reference was re-verified between the captures: each capture keeps the offset copied when it started.');
+  }
+  const side = (c: Capture, s: CaptureSummary, shiftPpm: number) => {
+    const refComponent = s.uncertainty?.components.find((x) => x.key === 'reference-offset' || /reference offset/i.test(x.name));
+    const mean = normalise ? s.stats!.mean / (1 + shiftPpm * 1e-6) : s.stats!.mean;
     return {
       mean,
       u: s.uncertainty?.combined ?? s.stats!.sem,
       uReference: refComponent?.contribution,
+      components: s.uncertainty?.components,
       // Δ in ppm is relative to the DUT's nominal, the same for both sides.
-      nominal: dut.nominal,
+      nominal,
       unit: c.unit,
       ambientC: c.ambientC ?? undefined,
     };
   };
-  const sameReference = before.referenceId !== null && before.referenceId === after.referenceId;
-  const result = compare(side(before, sb), side(after, sa), {
-    limit: dut.limitValue,
+  const result = compare(side(before, sb, shifts.before), side(after, sa, shifts.after), {
+    limit: dut.limitValue ?? undefined,
+    limitLow: dut.limitValue === null ? dut.limitLow : undefined,
+    limitHigh: dut.limitValue === null ? dut.limitHigh : undefined,
     limitUnit: dut.limitUnit,
-    nominal: dut.nominal,
+    nominal,
     sameReference,
+    deltaTerms,
+    replaceKeys,
   });
   return {
     ...result,
     notes: [...notes, ...result.notes],
     temperatureNormalised: normalise,
     limit: dut.limitValue,
+    limitLow: result.limit.givenLow,
+    limitHigh: result.limit.givenHigh,
     limitUnit: dut.limitUnit,
     limitInUnit: result.limit.quantity,
+    limitLowInUnit: result.limit.low,
+    limitHighInUnit: result.limit.high,
     before: { id: before.id, mean: sb.stats.mean, checkpointId: before.checkpointId, ambientC: before.ambientC },
     after: { id: after.id, mean: sa.stats.mean, checkpointId: after.checkpointId, ambientC: after.ambientC },
     dut: dut.toPublic(),
@@ -102,6 +173,7 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
       const capture = { id: c.id, readingCount: c.readingCount, ambientC: c.ambientC, mean: s?.stats?.mean ?? null, offsetPpm: s?.offsetPpm ?? null };
       let comparison = null;
       if (base && base.id !== c.id && s?.stats && (base.summary as CaptureSummary | null)?.stats) {
+        // (Summaries stored by an older version are recomputed inside compareCaptures.)
         let r: Awaited<ReturnType<typeof compareCaptures>>;
         try {
           r = await compareCaptures(pool, base.id, c.id);
@@ -116,9 +188,16 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
           delta: r.delta,
           deltaPpm: r.deltaPpm ?? null,
           expandedUncertainty: r.expandedUncertainty,
+          k: r.k,
+          effectiveDof: r.effectiveDof,
+          coverage: r.coverage,
           limit: r.limit,
+          limitLow: r.limitLow,
+          limitHigh: r.limitHigh,
           limitUnit: r.limitUnit,
           limitInUnit: r.limitInUnit,
+          limitLowInUnit: r.limitLowInUnit,
+          limitHighInUnit: r.limitHighInUnit,
           verdict: r.verdict,
           significant: r.significant,
         };

@@ -17,6 +17,8 @@ export function publicInstrument(i: Instrument) {
     calibrationState: calibrationState(i.calibrationDue),
     notes: i.notes,
     linkProfile: (i.linkProfile as LinkProfile | null) ?? null,
+    counterType: i.counterType ?? null,
+    counterResolution: i.counterResolution ?? null,
   };
 }
 
@@ -34,6 +36,8 @@ export interface InstrumentFields {
   serial?: string | null;
   calibrationDue?: string | null;
   notes?: string | null;
+  counterType?: Instrument['counterType'];
+  counterResolution?: number | null;
 }
 
 async function find(id: number): Promise<Instrument> {
@@ -48,23 +52,18 @@ export async function getInstrument(id: number) {
 
 /** Registers an instrument (a lab's own counter, bridge, reference…); audited. */
 export async function createInstrument(input: InstrumentFields, actorId: number) {
-  // The instrument and its audit event are one transaction: both are kept, or neither.
-  const instrument = await Instrument.sequelize!.transaction(async (transaction) => {
-    const created = await Instrument.create(
-      {
-        name: input.name,
-        kind: input.kind,
-        maker: input.maker ?? null,
-        model: input.model ?? null,
-        serial: input.serial ?? null,
-        calibrationDue: input.calibrationDue ?? null,
-        notes: input.notes ?? null,
-      },
-      { transaction },
-    );
-    await audit(actorId, 'instrument.create', 'instrument', created.id, { name: input.name, kind: input.kind }, transaction);
-    return created;
+  const instrument = await Instrument.create({
+    name: input.name,
+    kind: input.kind,
+    maker: input.maker ?? null,
+    model: input.model ?? null,
+    serial: input.serial ?? null,
+    calibrationDue: input.calibrationDue ?? null,
+    notes: input.notes ?? null,
+    counterType: input.counterType ?? null,
+    counterResolution: input.counterResolution ?? null,
   });
+  await audit(actorId, 'instrument.create', 'instrument', instrument.id, { name: input.name, kind: input.kind });
   return publicInstrument(instrument);
 }
 
@@ -72,16 +71,14 @@ export async function createInstrument(input: InstrumentFields, actorId: number)
 export async function updateInstrument(id: number, patch: Partial<InstrumentFields>, actorId: number) {
   const instrument = await find(id);
   const changed: Record<string, { from: unknown; to: unknown }> = {};
-  for (const key of ['name', 'kind', 'maker', 'model', 'serial', 'calibrationDue', 'notes'] as const) {
+  for (const key of ['name', 'kind', 'maker', 'model', 'serial', 'calibrationDue', 'notes', 'counterType', 'counterResolution'] as const) {
     if (patch[key] === undefined) continue;
     const before = instrument.get(key) as unknown;
     if (before !== patch[key]) changed[key] = { from: before, to: patch[key] };
     instrument.set(key, patch[key]);
   }
-  await Instrument.sequelize!.transaction(async (transaction) => {
-    await instrument.save({ transaction });
-    if (Object.keys(changed).length > 0) await audit(actorId, 'instrument.update', 'instrument', id, changed, transaction);
-  });
+  await instrument.save();
+  if (Object.keys(changed).length > 0) await audit(actorId, 'instrument.update', 'instrument', id, changed);
   return publicInstrument(instrument);
 }
 
@@ -90,16 +87,11 @@ export async function saveLinkProfile(id: number, profile: LinkProfile, actorId:
   const instrument = await find(id);
   const had = instrument.linkProfile != null;
   instrument.linkProfile = profile;
-  await Instrument.sequelize!.transaction(async (transaction) => {
-    await instrument.save({ transaction });
-    await audit(
-      actorId,
-      had ? 'instrument.link-profile.replace' : 'instrument.link-profile.set',
-      'instrument',
-      id,
-      { name: profile.name, kind: profile.kind, mode: profile.mode },
-      transaction,
-    );
+  await instrument.save();
+  await audit(actorId, had ? 'instrument.link-profile.replace' : 'instrument.link-profile.set', 'instrument', id, {
+    name: profile.name,
+    kind: profile.kind,
+    mode: profile.mode,
   });
   return profile;
 }
@@ -108,8 +100,6 @@ export async function clearLinkProfile(id: number, actorId: number): Promise<voi
   const instrument = await find(id);
   if (instrument.linkProfile == null) return;
   instrument.linkProfile = null;
-  await Instrument.sequelize!.transaction(async (transaction) => {
-    await instrument.save({ transaction });
-    await audit(actorId, 'instrument.link-profile.clear', 'instrument', id, undefined, transaction);
-  });
+  await instrument.save();
+  await audit(actorId, 'instrument.link-profile.clear', 'instrument', id);
 }

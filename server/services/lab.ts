@@ -1,4 +1,6 @@
 import { Reference } from '../models/index.js';
+import { pageOf } from './paging.js';
+import type { Page } from '../../shared/protocol/paging.js';
 
 const DAY = 86_400_000;
 
@@ -11,16 +13,25 @@ export function calibrationState(due: string | null, now = new Date(), soonDays 
   return 'ok';
 }
 
-export async function listReferences() {
-  const rows = await Reference.findAll({ order: [['name', 'ASC']] });
-  return rows.map((r) => ({
+/** What the API shows of a frequency reference: its registration and calibration record. */
+export function publicReference(r: Reference) {
+  return {
     id: r.id,
     name: r.name,
+    kind: r.kind,
     nominalHz: r.nominalHz,
     fractionalOffset: r.fractionalOffset,
     standardUncertainty: r.standardUncertainty,
     verifiedBy: r.verifiedBy,
     verifiedAt: r.verifiedAt,
+    ageingPerDay: r.ageingPerDay,
+    ageingUPerDay: r.ageingUPerDay,
     instrumentId: r.instrumentId,
-  }));
+  };
+}
+
+/** One page of frequency references, by name. */
+export async function listReferences(page: Page) {
+  const { rows, nextCursor } = await pageOf(Reference, page, 'name-asc');
+  return { references: rows.map(publicReference), nextCursor };
 }

@@ -1,8 +1,6 @@
-import { fn, col, type Transaction } from 'sequelize';
+import { fn, col } from 'sequelize';
 import { Study, Checkpoint, Dut } from '../models/index.js';
 import { NotFoundError } from '../errors.js';
-import { audit } from './audit.js';
-import { assertStudyWritable } from './studyLock.js';
 import type { CheckpointCreate, DutCreate, StudyCreate } from '../../shared/protocol/api.js';
 
 function studyPublic(s: Study) {
@@ -13,11 +11,6 @@ function studyPublic(s: Study) {
     description: s.description,
     status: s.status,
     createdBy: s.createdBy,
-    revision: s.revision,
-    submittedBy: s.submittedBy,
-    submittedAt: s.submittedAt,
-    approvedBy: s.approvedBy,
-    approvedAt: s.approvedAt,
     createdAt: s.createdAt,
     updatedAt: s.updatedAt,
   };
@@ -52,61 +45,45 @@ export async function getStudy(id: number) {
 }
 
 export async function createStudy(input: StudyCreate, actorId: number) {
-  const study = await Study.sequelize!.transaction(async (transaction) => {
-    const created = await Study.create({ ...input, createdBy: actorId }, { transaction });
-    await audit(actorId, 'study.create', 'study', created.id, { title: input.title, process: input.process ?? null, status: created.status }, transaction);
-    return created;
-  });
+  const study = await Study.create({ ...input, createdBy: actorId });
   return { ...studyPublic(study), checkpoints: [], duts: [] };
 }
 
-export async function requireStudy(id: number): Promise<Study> {
+async function requireStudy(id: number): Promise<Study> {
   const study = await Study.findByPk(id);
   if (!study) throw new NotFoundError('Study');
   return study;
 }
 
-/** Adds a checkpoint to the plan; refused (409) while the study is locked; audited with what was added. */
-export async function addCheckpoint(studyId: number, input: CheckpointCreate, actorId: number | null = null) {
-  const cp = await Study.sequelize!.transaction(async (transaction) => {
-    await assertStudyWritable('study', studyId, 'adding a checkpoint', transaction);
-    let position = input.order;
-    if (position === undefined) {
-      const last = (await Checkpoint.max('position', { where: { studyId }, transaction })) as number | null;
-      position = last === null ? 0 : last + 1;
-    }
-    const created = await Checkpoint.create({ studyId, name: input.name, position, exposure: input.exposure ?? null }, { transaction });
-    await audit(actorId, 'checkpoint.create', 'checkpoint', created.id, { studyId, after: created.toPublic() }, transaction);
-    return created;
-  });
+export async function addCheckpoint(studyId: number, input: CheckpointCreate) {
+  await requireStudy(studyId);
+  let position = input.order;
+  if (position === undefined) {
+    const last = (await Checkpoint.max('position', { where: { studyId } })) as number | null;
+    position = last === null ? 0 : last + 1;
+  }
+  const cp = await Checkpoint.create({ studyId, name: input.name, position, exposure: input.exposure ?? null });
   return cp.toPublic();
 }
 
-/** Adds a DUT (with its limit) to the plan; refused (409) while the study is locked; audited. */
-export async function addDut(studyId: number, input: DutCreate, actorId: number | null = null) {
-  const transaction = await Study.sequelize!.transaction();
-  try {
-    await assertStudyWritable('study', studyId, 'adding a DUT', transaction);
-    const dut = await createDutRow(studyId, input, transaction);
-    await audit(actorId, 'dut.create', 'dut', dut.id, { studyId, after: dut.toPublic() }, transaction);
-    await transaction.commit();
-    return dut.toPublic();
-  } catch (err) {
-    await transaction.rollback();
-    throw err;
-  }
-}
-
-async function createDutRow(studyId: number, input: DutCreate, transaction: Transaction) {
-  return Dut.create({
+export async function addDut(studyId: number, input: DutCreate) {
+  await requireStudy(studyId);
+  const dut = await Dut.create({
     studyId,
     label: input.label,
     kind: input.kind,
     nominal: input.nominal,
     unit: input.unit,
-    limitValue: input.limit,
+    limitValue: input.limit ?? null,
+    limitLow: input.limit != null ? null : (input.limitLow ?? null),
+    limitHigh: input.limit != null ? null : (input.limitHigh ?? null),
     limitUnit: input.limitUnit,
     position: input.position ?? null,
     serial: input.serial ?? null,
-  }, { transaction });
+    turnoverC: input.turnoverC ?? null,
+    turnoverU: input.turnoverU ?? null,
+    parabolicB: input.parabolicB ?? null,
+    parabolicBU: input.parabolicBU ?? null,
+  });
+  return dut.toPublic();
 }

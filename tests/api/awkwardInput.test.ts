@@ -122,6 +122,14 @@ describe('the data path on awkward input', () => {
     expect(res.status).toBe(200);
     expect(res.body.temperatureNormalised).toBe(true);
     expect(Math.abs(res.body.deltaPpm)).toBeLessThan(0.01);
-    expect(res.body.verdict).toBe('within');
+    // Issue 8: T0 = 25 ± 5 °C is uncertain and shared by both captures, ∂Δ/∂T0 = 2B(T_a − T_b) =
+    // 0.544 ppm/°C, × 5/√3 °C = 1.57 ppm (by hand): against ±1 ppm that is inconclusive, not within.
+    expect(res.body.verdict).toBe('inconclusive');
+    // With this part's own turnover known to ±0.5 °C (standard uncertainty) the line is 0.27 ppm
+    // and the unchanged part reads within again.
+    const known = await request(t.app).patch(`/api/duts/${ids.tuningFork.id}`).set(await auth('engineer')).send({ turnoverC: 25, turnoverU: 0.5 });
+    expect(known.status).toBe(200);
+    const again = await request(t.app).get(`/api/comparisons?before=${before}&after=${after}`).set(await auth('viewer'));
+    expect(again.body.verdict).toBe('within');
   });
 });

@@ -15,11 +15,13 @@ afterAll(async () => {
   await t.close();
 });
 
-async function finished(dutId: number, checkpointId: number, mean: number, seed: number) {
+async function finished(dutId: number, checkpointId: number, mean: number, seed: number, ambientC: number | null = 23) {
+  // The bench records the ambient (23 °C by default); a tuning fork without one is compared over
+  // the whole lab range (issue 8), which the last test shows.
   const c = await request(t.app)
     .post('/api/captures')
     .set(await auth('technician'))
-    .send({ dutId, checkpointId, quantity: 'frequency', unit: 'Hz', gateTime: 1, referenceId: 1 });
+    .send({ dutId, checkpointId, quantity: 'frequency', unit: 'Hz', gateTime: 1, referenceId: 1, ...(ambientC === null ? {} : { ambientC }) });
   const rnd = seeded(seed);
   const readings = Array.from({ length: 400 }, (_, i) => ({ seq: i, t: i, value: mean + 1e-4 * rnd.gauss() }));
   await request(t.app).post(`/api/captures/${c.body.id}/readings`).set(await auth('technician')).send({ readings });
@@ -46,6 +48,24 @@ describe('the study matrix', () => {
     expect(bake).toEqual({ checkpointId: ids.checkpoints[3], capture: null, comparison: null });
     const untouched = res.body.rows.find((r: { dut: { id: number } }) => r.dut.id === ids.crystal.id);
     expect(untouched.cells.every((c: { capture: unknown }) => c.capture === null)).toBe(true);
+  });
+
+  it('widens a tuning fork without recorded ambients instead of assuming 25 °C', async () => {
+    // A second study-free check on the same DUT: baseline and wash captured with no ambient. Each
+    // side is taken anywhere in 18–28 °C, about 0.47 ppm each (issue 8 unit test), so a 0.1 ppm
+    // change against ±1 ppm can no longer be called "within" — and a 2.5 ppm one still exceeds.
+    const f0 = ids.tuningFork.nominal;
+    const base = await finished(ids.tuningFork.id, ids.checkpoints[0], f0, 11, null);
+    const wash = await finished(ids.tuningFork.id, ids.checkpoints[1], f0 + 0.1 * 1e-6 * f0, 12, null);
+    const over = await finished(ids.tuningFork.id, ids.checkpoints[2], f0 + 2.5 * 1e-6 * f0, 13, null);
+    const a = await request(t.app).get(`/api/comparisons?before=${base}&after=${wash}`).set(await auth('viewer'));
+    expect(a.status).toBe(200);
+    expect(a.body.verdict).toBe('inconclusive');
+    expect(a.body.notes.join(' ')).toMatch(/no ambient temperature/);
+    const names = a.body.budget.components.map((c: { name: string }) => c.name);
+    expect(names).toEqual(expect.arrayContaining(['Ambient not recorded (before)', 'Ambient not recorded (after)', 'Turnover temperature T0 (shared)']));
+    const b = await request(t.app).get(`/api/comparisons?before=${base}&after=${over}`).set(await auth('viewer'));
+    expect(b.body.verdict).toBe('exceeds');
   });
 
   it('answers 404 for a missing study', async () => {
