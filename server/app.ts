@@ -4,8 +4,10 @@ import { existsSync } from 'node:fs';
 import path from 'node:path';
 import type { Logger } from 'pino';
 import type { Database } from './db/connection.js';
-import { authenticate } from './middleware/auth.js';
+import { authenticate, guardRoutes } from './middleware/auth.js';
+import { jsonBodies } from './middleware/bodies.js';
 import { errorHandler } from './middleware/errorHandler.js';
+import { outageMonitor } from './db/outage.js';
 import { NotFoundError } from './errors.js';
 import { authRouter } from './routes/auth.js';
 import { usersRouter } from './routes/users.js';
@@ -15,7 +17,14 @@ import { instrumentsRouter } from './routes/instruments.js';
 import { dutsRouter, referencesRouter } from './routes/references.js';
 import { healthRouter } from './routes/health.js';
 import { capturesRouter, comparisonsRouter } from './routes/captures.js';
+import { captureImportRouter } from './routes/captureImport.js';
 import { silentHub, type LiveHub } from './ws/live.js';
+import { auditRouter, reviewRouter, sealRouter } from './routes/review.js';
+import { attachmentsRouter, ownerAttachmentsRouter } from './routes/attachments.js';
+import { outboxRouter } from './routes/outbox.js';
+import { FolderStore, type BlobStore } from './services/storage.js';
+import { DEFAULT_UPLOAD_MAX_BYTES, DEFAULT_UPLOAD_TYPES, type UploadPolicy } from './services/attachments.js';
+import os from 'node:os';
 
 export interface AppContext {
   db: Database;
@@ -23,16 +32,25 @@ export interface AppContext {
   log: Logger;
   /** Folder of the built client; not served when absent. */
   clientDir?: string;
+  /** Failed sign-ins one address may make per 15 minutes. */
   loginRateLimit?: number;
+  /** Failed sign-ins one account may receive per 15 minutes. */
+  loginAccountLimit?: number;
+  /** Express's trust-proxy setting (TRUST_PROXY); off by default. */
+  trustProxy?: boolean | number | string[];
   /** Live fan-out to watchers; silent when nobody can watch (Supertest). */
   hub?: LiveHub;
+  /** Where attachment bytes go (default: a folder under the system's temporary folder). */
+  attachmentStore?: BlobStore;
+  /** Largest upload and the accepted types (default 25 MB; photos, PDF, CSV, text). */
+  uploadPolicy?: UploadPolicy;
 }
 
 /** Builds the Express app: middleware order, routers, 404, error handler. No listen(), for Supertest. */
 export function createApp(ctx: AppContext): Express {
   const app = express();
   app.disable('x-powered-by');
-  app.set('trust proxy', false);
+  app.set('trust proxy', ctx.trustProxy ?? false);
   app.use(
     helmet({
       contentSecurityPolicy: {
@@ -55,18 +73,32 @@ export function createApp(ctx: AppContext): Express {
   );
 
   const api = express.Router();
-  api.use(express.json({ limit: '8mb' }));
   api.use(healthRouter(ctx.db));
+  // Sign-in first, then the body: an anonymous client cannot make the server read a body, and
+  // only the ingest route takes a large one.
   api.use(authenticate(ctx.jwtSecret, ctx.db.pool));
-  api.use('/auth', authRouter(ctx.jwtSecret, ctx.loginRateLimit ?? 20));
+  api.use(jsonBodies());
+  api.use(guardRoutes());
+  api.use('/auth', authRouter(ctx.jwtSecret, { perAddress: ctx.loginRateLimit ?? 20, perAccount: ctx.loginAccountLimit ?? 10 }));
   api.use('/users', usersRouter());
   api.use('/studies', studiesRouter(ctx.db.pool));
   api.use('/instruments', instrumentsRouter());
   api.use(labRouter());
   api.use('/references', referencesRouter());
   api.use('/duts', dutsRouter());
+  // Readings logged elsewhere (issue 12): multipart, parsed as it streams; before `/:id`.
+  api.use('/captures', captureImportRouter(ctx.db.pool, ctx.hub ?? silentHub));
   api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub));
   api.use('/comparisons', comparisonsRouter(ctx.db.pool));
+  // Review and the record (issue 11): workflow, audit, seals, attachments, outbox.
+  const store = ctx.attachmentStore ?? new FolderStore(path.join(os.tmpdir(), `driftbench-attachments-${process.pid}`));
+  const policy = ctx.uploadPolicy ?? { maxBytes: DEFAULT_UPLOAD_MAX_BYTES, types: DEFAULT_UPLOAD_TYPES };
+  api.use('/studies', reviewRouter(ctx.db.pool), ownerAttachmentsRouter('study', store, policy));
+  api.use('/checkpoints', ownerAttachmentsRouter('checkpoint', store, policy));
+  api.use('/captures', sealRouter(ctx.db.pool), ownerAttachmentsRouter('capture', store, policy));
+  api.use('/attachments', attachmentsRouter(store));
+  api.use('/audit', auditRouter());
+  api.use('/outbox', outboxRouter());
   api.use((req) => {
     throw new NotFoundError(`Route ${req.method} ${req.baseUrl}${req.path}`);
   });
@@ -80,6 +112,6 @@ export function createApp(ctx: AppContext): Express {
       res.sendFile(path.join(clientDir, 'index.html'));
     });
   }
-  app.use(errorHandler(ctx.log));
+  app.use(errorHandler(ctx.log, outageMonitor(ctx.db.pool, ctx.log)));
   return app;
 }

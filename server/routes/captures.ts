@@ -7,6 +7,7 @@ import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
 import { CaptureCreate, CapturePatch, ReadingsQuery, AnalysisQuery, ComparisonQuery } from '../../shared/protocol/captures.js';
 import { IdParam } from '../../shared/protocol/api.js';
+import { LIST_LIMITS, pageQuery } from '../../shared/protocol/paging.js';
 import { createCapture, getCapture, listCaptures, patchCapture, requireCapture } from '../services/captures.js';
 import { ingestReadings } from '../services/ingest.js';
 import { finishCapture } from '../services/finish.js';
@@ -21,13 +22,13 @@ const ListQuery = z.object({
   dutId: z.coerce.number().int().positive().optional(),
   checkpointId: z.coerce.number().int().positive().optional(),
   state: z.enum(['open', 'finished', 'aborted']).optional(),
-  limit: z.coerce.number().int().min(1).max(1000).optional(),
-});
+}).extend(pageQuery(LIST_LIMITS.captures.max).shape);
 
 export function capturesRouter(pool: pg.Pool, hub: LiveHub): Router {
   const r = Router();
   r.get('/', authorize('read'), async (req, res) => {
-    res.json({ captures: await listCaptures(parse(ListQuery, req.query, 'query')) });
+    const q = parse(ListQuery, req.query, 'query');
+    res.json(await listCaptures({ ...q, limit: q.limit ?? LIST_LIMITS.captures.default }));
   });
   r.post('/', authorize('captures:run'), async (req, res) => {
     const capture = await createCapture(parse(CaptureCreate, req.body), currentUser(req));

@@ -12,27 +12,20 @@ import {
 import { IdParam, INSTRUMENT_KINDS } from '../../shared/protocol/api.js';
 import { LinkProfile } from '../../shared/protocol/linkProfile.js';
 import { CounterFields } from '../../shared/protocol/uncertainty.js';
+import { CalendarDate, Text } from '../../shared/protocol/text.js';
 
 /** Optional free text: trimmed; empty means "none" (stored as null). */
 const optionalText = (max: number) =>
-  z
-    .string()
-    .trim()
-    .max(max, `must be at most ${max} characters`)
+  Text({ max })
     .transform((s) => (s === '' ? null : s))
     .nullable()
     .optional();
 
-const IsoDate = z
-  .string()
-  .regex(/^\d{4}-\d{2}-\d{2}$/, 'must be a date as YYYY-MM-DD')
-  .refine((s) => {
-    const d = new Date(`${s}T00:00:00Z`);
-    return !Number.isNaN(d.getTime()) && d.toISOString().startsWith(s);
-  }, 'is not a calendar date');
+/** A real calendar date in a sane range (0000-01-01 or 9999-12-31 are refused with 400). */
+const IsoDate = CalendarDate;
 
 const fields = {
-  name: z.string().trim().min(1, 'is required').max(120, 'must be at most 120 characters'),
+  name: Text({ min: 1, max: 120 }),
   kind: z.enum(INSTRUMENT_KINDS, { message: `must be one of ${INSTRUMENT_KINDS.join(', ')}` }),
   maker: optionalText(120),
   model: optionalText(120),

@@ -4,6 +4,9 @@ import { Capture, Checkpoint, Dut, Instrument, Reference, Study, User } from '..
 import { AppError, ForbiddenError, NotFoundError, ValidationError } from '../errors.js';
 import type { CaptureCreate, CapturePatch } from '../../shared/protocol/captures.js';
 import { canWriteCapture } from './ingest.js';
+import { assertStudyWritable } from './studyLock.js';
+import { startOnFirstCapture } from './workflow.js';
+import { audit, changes } from './audit.js';
 
 /** The capture as the API shows it. */
 export function capturePublic(c: Capture) {
@@ -37,6 +40,9 @@ export function capturePublic(c: Capture) {
     readingCount: c.readingCount,
     highestSeq: c.highestSeq,
     summary: c.summary ?? null,
+    plannedMinutes: c.plannedMinutes ?? null,
+    sealSha256: c.sealSha256 ?? null,
+    sealedAt: c.sealedAt ?? null,
   };
 }
 
@@ -56,10 +62,8 @@ export async function createCapture(input: CaptureCreate, operator: AuthUser) {
   if (input.unit !== dut.unit) {
     throw new ValidationError(`unit: the DUT is measured in ${dut.unit}`, [{ path: 'unit', message: `must be the DUT's unit, ${dut.unit}` }]);
   }
-  const study = await Study.findByPk(dut.studyId);
-  if (study && (study.status === 'approved' || study.status === 'in-review')) {
-    throw new AppError(409, 'study-locked', `The study is ${study.status}: it takes no new captures.`);
-  }
+  // A quick refusal before the other checks; repeated under the study's row lock below.
+  await assertStudyWritable('study', dut.studyId, 'opening a capture');
   const instrument = input.instrumentId ? await Instrument.findByPk(input.instrumentId) : null;
   if (input.instrumentId && !instrument) {
     throw new ValidationError('instrumentId: no such instrument', [{ path: 'instrumentId', message: 'no such instrument' }]);
@@ -69,30 +73,38 @@ export async function createCapture(input: CaptureCreate, operator: AuthUser) {
     reference = await Reference.findByPk(input.referenceId);
     if (!reference) throw new ValidationError('referenceId: no such reference', [{ path: 'referenceId', message: 'no such reference' }]);
   }
-  const capture = await Capture.create({
-    dutId: dut.id,
-    checkpointId: checkpoint.id,
-    instrumentId: input.instrumentId ?? null,
-    referenceId: reference?.id ?? null,
-    operatorId: operator.id,
-    quantity: input.quantity,
-    unit: input.unit,
-    nominal: input.nominal ?? (input.quantity === 'frequency' ? dut.nominal : null),
-    gateTime: input.gateTime,
-    deadTime: input.deadTime ?? null,
-    ambientC: input.ambientC ?? null,
-    orientation: input.orientation ?? null,
-    notes: input.notes ?? null,
-    tags: input.tags ?? [],
-    referenceOffset: reference?.fractionalOffset ?? null,
-    referenceUncertainty: reference?.standardUncertainty ?? null,
-    referenceVerifiedAt: reference?.verifiedAt ?? null,
-    referenceAgeingPerDay: reference?.ageingPerDay ?? null,
-    referenceAgeingUPerDay: reference?.ageingUPerDay ?? null,
-    // The counter's type and resolution as they are now: they enter this capture's budget.
-    counterType: instrument?.counterType ?? null,
-    counterResolution: instrument?.counterResolution ?? null,
-    linkProfile: input.linkProfile ?? null,
+  const capture = await Capture.sequelize!.transaction(async (transaction) => {
+    // The study row is locked for update first (a draft becomes running), then checked.
+    await startOnFirstCapture(dut.studyId, operator.id, transaction);
+    await assertStudyWritable('study', dut.studyId, 'opening a capture', transaction);
+    const created = await Capture.create({
+      dutId: dut.id,
+      checkpointId: checkpoint.id,
+      instrumentId: input.instrumentId ?? null,
+      referenceId: reference?.id ?? null,
+      operatorId: operator.id,
+      quantity: input.quantity,
+      unit: input.unit,
+      nominal: input.nominal ?? (input.quantity === 'frequency' ? dut.nominal : null),
+      gateTime: input.gateTime,
+      deadTime: input.deadTime ?? null,
+      ambientC: input.ambientC ?? null,
+      orientation: input.orientation ?? null,
+      notes: input.notes ?? null,
+      tags: input.tags ?? [],
+      referenceOffset: reference?.fractionalOffset ?? null,
+      referenceUncertainty: reference?.standardUncertainty ?? null,
+      referenceVerifiedAt: reference?.verifiedAt ?? null,
+      referenceAgeingPerDay: reference?.ageingPerDay ?? null,
+      referenceAgeingUPerDay: reference?.ageingUPerDay ?? null,
+      // The counter's type and resolution as they are now: they enter this capture's budget.
+      counterType: instrument?.counterType ?? null,
+      counterResolution: instrument?.counterResolution ?? null,
+      linkProfile: input.linkProfile ?? null,
+      plannedMinutes: input.plannedMinutes ?? null,
+    }, { transaction });
+    await audit(operator.id, 'capture.open', 'capture', created.id, { studyId: dut.studyId, dutId: dut.id, checkpointId: checkpoint.id }, transaction);
+    return created;
   });
   return capturePublic(capture);
 }
@@ -153,9 +165,15 @@ export async function patchCapture(id: number, patch: CapturePatch, user: AuthUs
   if (patch.ambientC !== undefined && c.state !== 'open' && patch.ambientC !== c.ambientC) {
     throw new AppError(409, 'capture-finished', 'The ambient temperature of a finished capture is part of its evidence and cannot change.');
   }
-  if (patch.notes !== undefined) c.notes = patch.notes;
-  if (patch.tags !== undefined) c.tags = patch.tags;
-  if (patch.ambientC !== undefined) c.ambientC = patch.ambientC;
-  await c.save();
+  const before = { notes: c.notes, tags: c.tags, ambientC: c.ambientC };
+  await Capture.sequelize!.transaction(async (transaction) => {
+    await assertStudyWritable('capture', id, 'editing a capture', transaction);
+    if (patch.notes !== undefined) c.notes = patch.notes;
+    if (patch.tags !== undefined) c.tags = patch.tags;
+    if (patch.ambientC !== undefined) c.ambientC = patch.ambientC;
+    await c.save({ transaction });
+    const changed = changes(before, { notes: patch.notes, tags: patch.tags, ambientC: patch.ambientC });
+    if (Object.keys(changed).length) await audit(user.id, 'capture.edit', 'capture', id, changed, transaction);
+  });
   return capturePublic(c);
 }

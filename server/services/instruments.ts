@@ -52,18 +52,25 @@ export async function getInstrument(id: number) {
 
 /** Registers an instrument (a lab's own counter, bridge, reference…); audited. */
 export async function createInstrument(input: InstrumentFields, actorId: number) {
-  const instrument = await Instrument.create({
-    name: input.name,
-    kind: input.kind,
-    maker: input.maker ?? null,
-    model: input.model ?? null,
-    serial: input.serial ?? null,
-    calibrationDue: input.calibrationDue ?? null,
-    notes: input.notes ?? null,
-    counterType: input.counterType ?? null,
-    counterResolution: input.counterResolution ?? null,
+  // The instrument and its audit event are one transaction: both are kept, or neither.
+  const instrument = await Instrument.sequelize!.transaction(async (transaction) => {
+    const created = await Instrument.create(
+      {
+        name: input.name,
+        kind: input.kind,
+        maker: input.maker ?? null,
+        model: input.model ?? null,
+        serial: input.serial ?? null,
+        calibrationDue: input.calibrationDue ?? null,
+        notes: input.notes ?? null,
+        counterType: input.counterType ?? null,
+        counterResolution: input.counterResolution ?? null,
+      },
+      { transaction },
+    );
+    await audit(actorId, 'instrument.create', 'instrument', created.id, { name: input.name, kind: input.kind }, transaction);
+    return created;
   });
-  await audit(actorId, 'instrument.create', 'instrument', instrument.id, { name: input.name, kind: input.kind });
   return publicInstrument(instrument);
 }
 
@@ -77,8 +84,10 @@ export async function updateInstrument(id: number, patch: Partial<InstrumentFiel
     if (before !== patch[key]) changed[key] = { from: before, to: patch[key] };
     instrument.set(key, patch[key]);
   }
-  await instrument.save();
-  if (Object.keys(changed).length > 0) await audit(actorId, 'instrument.update', 'instrument', id, changed);
+  await Instrument.sequelize!.transaction(async (transaction) => {
+    await instrument.save({ transaction });
+    if (Object.keys(changed).length > 0) await audit(actorId, 'instrument.update', 'instrument', id, changed, transaction);
+  });
   return publicInstrument(instrument);
 }
 
@@ -87,11 +96,16 @@ export async function saveLinkProfile(id: number, profile: LinkProfile, actorId:
   const instrument = await find(id);
   const had = instrument.linkProfile != null;
   instrument.linkProfile = profile;
-  await instrument.save();
-  await audit(actorId, had ? 'instrument.link-profile.replace' : 'instrument.link-profile.set', 'instrument', id, {
-    name: profile.name,
-    kind: profile.kind,
-    mode: profile.mode,
+  await Instrument.sequelize!.transaction(async (transaction) => {
+    await instrument.save({ transaction });
+    await audit(
+      actorId,
+      had ? 'instrument.link-profile.replace' : 'instrument.link-profile.set',
+      'instrument',
+      id,
+      { name: profile.name, kind: profile.kind, mode: profile.mode },
+      transaction,
+    );
   });
   return profile;
 }
@@ -100,6 +114,8 @@ export async function clearLinkProfile(id: number, actorId: number): Promise<voi
   const instrument = await find(id);
   if (instrument.linkProfile == null) return;
   instrument.linkProfile = null;
-  await instrument.save();
-  await audit(actorId, 'instrument.link-profile.clear', 'instrument', id);
+  await Instrument.sequelize!.transaction(async (transaction) => {
+    await instrument.save({ transaction });
+    await audit(actorId, 'instrument.link-profile.clear', 'instrument', id, undefined, transaction);
+  });
 }

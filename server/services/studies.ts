@@ -1,6 +1,8 @@
-import { fn, col } from 'sequelize';
+import { fn, col, type Transaction } from 'sequelize';
 import { Study, Checkpoint, Dut } from '../models/index.js';
 import { NotFoundError } from '../errors.js';
+import { audit } from './audit.js';
+import { assertStudyWritable } from './studyLock.js';
 import type { CheckpointCreate, DutCreate, StudyCreate } from '../../shared/protocol/api.js';
 
 function studyPublic(s: Study) {
@@ -11,6 +13,11 @@ function studyPublic(s: Study) {
     description: s.description,
     status: s.status,
     createdBy: s.createdBy,
+    revision: s.revision,
+    submittedBy: s.submittedBy,
+    submittedAt: s.submittedAt,
+    approvedBy: s.approvedBy,
+    approvedAt: s.approvedAt,
     createdAt: s.createdAt,
     updatedAt: s.updatedAt,
   };
@@ -45,30 +52,53 @@ export async function getStudy(id: number) {
 }
 
 export async function createStudy(input: StudyCreate, actorId: number) {
-  const study = await Study.create({ ...input, createdBy: actorId });
+  const study = await Study.sequelize!.transaction(async (transaction) => {
+    const created = await Study.create({ ...input, createdBy: actorId }, { transaction });
+    await audit(actorId, 'study.create', 'study', created.id, { title: input.title, process: input.process ?? null, status: created.status }, transaction);
+    return created;
+  });
   return { ...studyPublic(study), checkpoints: [], duts: [] };
 }
 
-async function requireStudy(id: number): Promise<Study> {
+export async function requireStudy(id: number): Promise<Study> {
   const study = await Study.findByPk(id);
   if (!study) throw new NotFoundError('Study');
   return study;
 }
 
-export async function addCheckpoint(studyId: number, input: CheckpointCreate) {
-  await requireStudy(studyId);
-  let position = input.order;
-  if (position === undefined) {
-    const last = (await Checkpoint.max('position', { where: { studyId } })) as number | null;
-    position = last === null ? 0 : last + 1;
-  }
-  const cp = await Checkpoint.create({ studyId, name: input.name, position, exposure: input.exposure ?? null });
+/** Adds a checkpoint to the plan; refused (409) while the study is locked; audited with what was added. */
+export async function addCheckpoint(studyId: number, input: CheckpointCreate, actorId: number | null = null) {
+  const cp = await Study.sequelize!.transaction(async (transaction) => {
+    await assertStudyWritable('study', studyId, 'adding a checkpoint', transaction);
+    let position = input.order;
+    if (position === undefined) {
+      const last = (await Checkpoint.max('position', { where: { studyId }, transaction })) as number | null;
+      position = last === null ? 0 : last + 1;
+    }
+    const created = await Checkpoint.create({ studyId, name: input.name, position, exposure: input.exposure ?? null }, { transaction });
+    await audit(actorId, 'checkpoint.create', 'checkpoint', created.id, { studyId, after: created.toPublic() }, transaction);
+    return created;
+  });
   return cp.toPublic();
 }
 
-export async function addDut(studyId: number, input: DutCreate) {
-  await requireStudy(studyId);
-  const dut = await Dut.create({
+/** Adds a DUT (with its limit) to the plan; refused (409) while the study is locked; audited. */
+export async function addDut(studyId: number, input: DutCreate, actorId: number | null = null) {
+  const transaction = await Study.sequelize!.transaction();
+  try {
+    await assertStudyWritable('study', studyId, 'adding a DUT', transaction);
+    const dut = await createDutRow(studyId, input, transaction);
+    await audit(actorId, 'dut.create', 'dut', dut.id, { studyId, after: dut.toPublic() }, transaction);
+    await transaction.commit();
+    return dut.toPublic();
+  } catch (err) {
+    await transaction.rollback();
+    throw err;
+  }
+}
+
+async function createDutRow(studyId: number, input: DutCreate, transaction: Transaction) {
+  return Dut.create({
     studyId,
     label: input.label,
     kind: input.kind,
@@ -84,6 +114,5 @@ export async function addDut(studyId: number, input: DutCreate) {
     turnoverU: input.turnoverU ?? null,
     parabolicB: input.parabolicB ?? null,
     parabolicBU: input.parabolicBU ?? null,
-  });
-  return dut.toPublic();
+  }, { transaction });
 }

@@ -1,6 +1,8 @@
 import { z } from 'zod';
 import { checkLimit, DutLimitFields, TuningForkFields } from './uncertainty.js';
 import { Role } from './roles.js';
+import { Text } from './text.js';
+import { NewPassword } from './password.js';
 
 /** Error envelope every API error uses. */
 export interface ApiErrorBody {
@@ -17,15 +19,15 @@ export type LoginRequest = z.infer<typeof LoginRequest>;
 
 export const UserCreate = z.object({
   email: Email,
-  name: z.string().trim().min(1, 'is required').max(120),
+  name: Text({ min: 1, max: 120 }),
   role: Role,
-  password: z.string().min(10, 'must be at least 10 characters').max(200),
+  password: NewPassword,
 });
 export type UserCreate = z.infer<typeof UserCreate>;
 
 export const UserPatch = z
   .object({
-    name: z.string().trim().min(1).max(120).optional(),
+    name: Text({ min: 1, max: 120 }).optional(),
     role: Role.optional(),
     active: z.boolean().optional(),
   })
@@ -40,27 +42,27 @@ export const StudyStatus = z.enum(STUDY_STATUSES);
 export type StudyStatus = z.infer<typeof StudyStatus>;
 
 export const StudyCreate = z.object({
-  title: z.string().trim().min(1, 'is required').max(200),
-  process: z.string().trim().max(200).optional(),
-  description: z.string().max(5000).optional(),
+  title: Text({ min: 1, max: 200 }),
+  process: Text({ max: 200 }).optional(),
+  description: Text({ max: 5000, trim: false }).optional(),
 });
 export type StudyCreate = z.infer<typeof StudyCreate>;
 
 export const Exposure = z
   .object({
-    process: z.string().trim().max(200).optional(),
+    process: Text({ max: 200 }).optional(),
     bathKHz: z.number().positive().max(1000).optional(),
     temperatureC: z.number().min(-80).max(400).optional(),
-    solvent: z.string().trim().max(200).optional(),
+    solvent: Text({ max: 200 }).optional(),
     minutesPerSide: z.number().min(0).max(100000).optional(),
     cumulativeMinutes: z.number().min(0).max(1000000).optional(),
-    notes: z.string().max(2000).optional(),
+    notes: Text({ max: 2000, trim: false }).optional(),
   })
   .strict();
 export type Exposure = z.infer<typeof Exposure>;
 
 export const CheckpointCreate = z.object({
-  name: z.string().trim().min(1, 'is required').max(200),
+  name: Text({ min: 1, max: 200 }),
   order: z.number().int().min(0).max(1000).optional(),
   exposure: Exposure.optional(),
 });
@@ -69,14 +71,14 @@ export type CheckpointCreate = z.infer<typeof CheckpointCreate>;
 export const LIMIT_UNITS = ['ppm', 'ppb', 'Hz', 'mg', '%'] as const;
 export const DUT_KINDS = ['crystal', 'oscillator', 'tuning-fork', 'tcxo', 'accelerometer', 'capacitor', 'relay', 'other'] as const;
 export const DutCreate = z.object({
-  label: z.string().trim().min(1, 'is required').max(120),
+  label: Text({ min: 1, max: 120 }),
   kind: z.enum(DUT_KINDS),
   nominal: z.number().finite().positive(),
-  unit: z.string().trim().min(1).max(20),
+  unit: Text({ min: 1, max: 20 }),
   ...DutLimitFields,
   limitUnit: z.enum(LIMIT_UNITS),
-  position: z.string().trim().max(60).optional(),
-  serial: z.string().trim().max(120).optional(),
+  position: Text({ max: 60 }).optional(),
+  serial: Text({ max: 120 }).optional(),
   ...TuningForkFields,
 }).superRefine(checkLimit);
 export type DutCreate = z.infer<typeof DutCreate>;

@@ -1,5 +1,7 @@
 import { z } from 'zod';
 import { DRIFT_CHOICES } from './uncertainty.js';
+import { Text } from './text.js';
+import { LinkProfile } from './linkProfile.js';
 
 export const QUANTITIES = ['frequency', 'acceleration', 'voltage', 'counts'] as const;
 export const Quantity = z.enum(QUANTITIES);
@@ -12,7 +14,7 @@ export const CaptureCreate = z.object({
   dutId: z.number().int().positive(),
   checkpointId: z.number().int().positive(),
   quantity: Quantity,
-  unit: z.string().trim().min(1).max(20),
+  unit: Text({ min: 1, max: 20 }),
   nominal: z.number().finite().positive().optional(),
   gateTime: z.number().finite().min(0.001, 'must be at least 1 ms').max(1000, 'must be at most 1000 s'),
   deadTime: z.number().finite().min(0).max(1000).optional(),
@@ -22,16 +24,17 @@ export const CaptureCreate = z.object({
   orientation: z.enum(ORIENTATIONS).optional(),
   /** How long the capture is planned to run; its operator is e-mailed when it is left open longer. */
   plannedMinutes: z.number().int().min(1).max(525_600).optional(),
-  notes: z.string().max(5000).optional(),
-  tags: z.array(z.string().trim().min(1).max(60)).max(20).optional(),
-  linkProfile: z.record(z.string(), z.unknown()).optional(),
+  notes: Text({ max: 5000, trim: false }).optional(),
+  tags: z.array(Text({ min: 1, max: 60 })).max(20).optional(),
+  /** The link profile the capture ran with: the same schema as an instrument's (a few hundred bytes). */
+  linkProfile: LinkProfile.optional(),
 });
 export type CaptureCreate = z.infer<typeof CaptureCreate>;
 
 export const CapturePatch = z
   .object({
-    notes: z.string().max(5000).optional(),
-    tags: z.array(z.string().trim().min(1).max(60)).max(20).optional(),
+    notes: Text({ max: 5000, trim: false }).optional(),
+    tags: z.array(Text({ min: 1, max: 60 })).max(20).optional(),
     ambientC: z.number().finite().min(-60).max(150).optional(),
   })
   .strict();
