@@ -15,20 +15,31 @@ export function seriesColour(i: number): string {
   return cssVar(`--db-series-${(i % 6) + 1}`, fallbacks[i % 6]);
 }
 
+/** Below this width (px) a chart is compact: one value axis, smaller axis gutters, a lower plot. */
+export const COMPACT_CHART_WIDTH = 520;
+
+/** Whether a chart of this width is drawn compact (phones, narrow columns). */
+export function isCompactChart(width: number): boolean {
+  return width < COMPACT_CHART_WIDTH;
+}
+
 /**
  * One uPlot chart bound to an element: created on mount with the options `build` returns for the
- * element's width, fed through `setData`, resized with the element, destroyed on unmount.
+ * element's width, fed through `setData`, resized with the element, destroyed on unmount. When a
+ * resize crosses the compact width the chart is rebuilt, so `build` can drop an axis on phones.
  * Streaming callers keep their buffers in typed arrays and call `setData` themselves.
  */
 export function useUplot(el: Ref<HTMLElement | null>, build: (width: number) => uPlot.Options, initial: uPlot.AlignedData) {
   const chart = shallowRef<uPlot | null>(null);
   let observer: ResizeObserver | null = null;
   let data = initial;
+  let compact = false;
 
   function create() {
     if (!el.value) return;
     chart.value?.destroy();
     const width = Math.max(200, el.value.clientWidth);
+    compact = isCompactChart(width);
     chart.value = new uPlot(build(width), data, el.value);
   }
 
@@ -37,7 +48,10 @@ export function useUplot(el: Ref<HTMLElement | null>, build: (width: number) => 
     if (el.value && typeof ResizeObserver !== 'undefined') {
       observer = new ResizeObserver(() => {
         const c = chart.value;
-        if (c && el.value) c.setSize({ width: Math.max(200, el.value.clientWidth), height: c.height });
+        if (!c || !el.value) return;
+        const width = Math.max(200, el.value.clientWidth);
+        if (isCompactChart(width) !== compact) create();
+        else c.setSize({ width, height: c.height });
       });
       observer.observe(el.value);
     }
