@@ -1,0 +1,136 @@
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import request from 'supertest';
+import { createTestApp, type TestApp } from '../helpers/app.js';
+import { as, capture, plannedStudy } from '../helpers/review.js';
+import { DEMO_PASSWORD } from '../../server/db/seed.js';
+
+let t: TestApp;
+beforeAll(async () => {
+  t = await createTestApp();
+});
+afterAll(async () => {
+  await t.close();
+});
+
+const PNG = Buffer.from('89504e470d0a1a0a0000000d4948445200000001000000010806000000', 'hex');
+
+interface Fixture {
+  plan: Awaited<ReturnType<typeof plannedStudy>>;
+  openCapture: number;
+  finishedCapture: number;
+  attachmentId: number;
+}
+
+/** A study with an open capture, a finished one and an attachment, made while it was still running. */
+async function fixture(title: string): Promise<Fixture> {
+  const plan = await plannedStudy(t, title);
+  const finishedCapture = await capture(t, plan);
+  const openCapture = await capture(t, plan, { open: true });
+  const up = await request(t.app)
+    .post(`/api/studies/${plan.studyId}/attachments`)
+    .set(await as(t, 'engineer'))
+    .attach('file', PNG, { filename: 'board.png', contentType: 'image/png' });
+  expect(up.status).toBe(201);
+  return { plan, openCapture, finishedCapture, attachmentId: up.body.id };
+}
+
+/** Every write route that touches a study's data, as [name, request]. */
+function writes(f: Fixture) {
+  const eng = () => as(t, 'engineer');
+  const lead = () => as(t, 'lead');
+  return [
+    ['open a capture', async () =>
+      request(t.app).post('/api/captures').set(await eng()).send({ dutId: f.plan.dutId, checkpointId: f.plan.checkpointId, quantity: 'frequency', unit: 'Hz', gateTime: 1 })],
+    ['add readings to a capture opened earlier', async () =>
+      request(t.app).post(`/api/captures/${f.openCapture}/readings`).set(await eng()).send({ readings: [{ seq: 1000, t: 1000, value: 10_000_000 }] })],
+    ['finish a capture', async () => request(t.app).post(`/api/captures/${f.openCapture}/finish`).set(await eng())],
+    ['finish an already finished capture', async () => request(t.app).post(`/api/captures/${f.finishedCapture}/finish`).set(await eng())],
+    ['edit a finished capture\'s notes', async () => request(t.app).patch(`/api/captures/${f.finishedCapture}`).set(await eng()).send({ notes: 'changed later' })],
+    ['add a checkpoint', async () => request(t.app).post(`/api/studies/${f.plan.studyId}/checkpoints`).set(await eng()).send({ name: 'After bake' })],
+    ['add a DUT', async () =>
+      request(t.app).post(`/api/studies/${f.plan.studyId}/duts`).set(await eng()).send({ label: 'Y10', kind: 'crystal', nominal: 8e6, unit: 'Hz', limit: 2, limitUnit: 'ppm' })],
+    ['change a DUT\'s limit', async () => request(t.app).patch(`/api/duts/${f.plan.dutId}`).set(await eng()).send({ limit: 5 })],
+    ['attach a file to the study', async () =>
+      request(t.app).post(`/api/studies/${f.plan.studyId}/attachments`).set(await eng()).attach('file', PNG, { filename: 'late.png', contentType: 'image/png' })],
+    ['attach a file to a checkpoint', async () =>
+      request(t.app).post(`/api/checkpoints/${f.plan.checkpointId}/attachments`).set(await eng()).attach('file', PNG, { filename: 'late.png', contentType: 'image/png' })],
+    ['attach a file to a capture', async () =>
+      request(t.app).post(`/api/captures/${f.finishedCapture}/attachments`).set(await eng()).attach('file', PNG, { filename: 'late.png', contentType: 'image/png' })],
+    ['delete an attachment', async () => request(t.app).delete(`/api/attachments/${f.attachmentId}`).set(await lead())],
+  ] as const;
+}
+
+describe('an approved study is locked on every write route', () => {
+  let f: Fixture;
+  beforeAll(async () => {
+    f = await fixture('Locked by approval');
+    // As in the report that opened the issue: the status set directly in the database.
+    await t.db.pool.query(`UPDATE studies SET status = 'approved' WHERE id = $1`, [f.plan.studyId]);
+  });
+
+  it.each([...Array(12).keys()])('refuses write #%i with 409 and a clear reason', async (i) => {
+    const [name, send] = writes(f)[i];
+    const res = await send();
+    expect(res.status, `${name}: ${JSON.stringify(res.body)}`).toBe(409);
+    expect(res.body.error.code).toBe('study-locked');
+    expect(res.body.error.message).toMatch(/approved \(revision 1\) and locked/);
+    expect(res.body.error.message).toMatch(/reopen/);
+  });
+
+  it('changed nothing: the open capture still has its readings and state, the plan is as it was', async () => {
+    const c = await request(t.app).get(`/api/captures/${f.openCapture}`).set(await as(t, 'viewer'));
+    expect(c.body).toMatchObject({ state: 'open', readingCount: 50 });
+    const fin = await request(t.app).get(`/api/captures/${f.finishedCapture}`).set(await as(t, 'viewer'));
+    expect(fin.body.notes).toBeNull();
+    const s = await request(t.app).get(`/api/studies/${f.plan.studyId}`).set(await as(t, 'viewer'));
+    expect(s.body.checkpoints).toHaveLength(1);
+    expect(s.body.duts).toHaveLength(1);
+    expect(s.body.duts[0].limit).toBe(1);
+    const files = await request(t.app).get(`/api/studies/${f.plan.studyId}/attachments`).set(await as(t, 'viewer'));
+    expect(files.body.attachments).toHaveLength(1);
+  });
+
+  it('still serves reads', async () => {
+    expect((await request(t.app).get(`/api/studies/${f.plan.studyId}/matrix`).set(await as(t, 'viewer'))).status).toBe(200);
+    expect((await request(t.app).get(`/api/captures/${f.finishedCapture}/seal`).set(await as(t, 'viewer'))).status).toBe(200);
+    expect((await request(t.app).get(`/api/attachments/${f.attachmentId}`).set(await as(t, 'viewer'))).status).toBe(200);
+  });
+});
+
+describe('a study in review is locked too, and a returned one opens again', () => {
+  let f: Fixture;
+  beforeAll(async () => {
+    f = await fixture('Locked by review');
+    await request(t.app).post(`/api/captures/${f.openCapture}/finish`).set(await as(t, 'engineer'));
+    const sub = await request(t.app).post(`/api/studies/${f.plan.studyId}/submit`).set(await as(t, 'engineer')).send({});
+    expect(sub.body.status).toBe('in-review');
+  });
+
+  it('refuses a new checkpoint, a new capture and notes while in review', async () => {
+    const w = writes(f);
+    for (const i of [0, 4, 5]) {
+      const res = await w[i][1]();
+      expect(res.status).toBe(409);
+      expect(res.body.error.message).toMatch(/in review and locked/);
+    }
+  });
+
+  it('accepts the same writes once a lead returns the study', async () => {
+    await request(t.app).post(`/api/studies/${f.plan.studyId}/return`).set(await as(t, 'lead')).send({ comment: 'One more checkpoint.' });
+    const w = writes(f);
+    expect((await w[5][1]()).status).toBe(201);
+    expect((await w[4][1]()).status).toBe(200);
+  });
+});
+
+describe('a reopened study takes writes again as its next revision', () => {
+  it('accepts a new capture after reopen', async () => {
+    const f = await fixture('Reopened for more work');
+    await request(t.app).post(`/api/captures/${f.openCapture}/finish`).set(await as(t, 'engineer'));
+    await request(t.app).post(`/api/studies/${f.plan.studyId}/submit`).set(await as(t, 'engineer')).send({});
+    await request(t.app).post(`/api/studies/${f.plan.studyId}/approve`).set(await as(t, 'lead')).send({ password: DEMO_PASSWORD });
+    expect((await writes(f)[0][1]()).status).toBe(409);
+    await request(t.app).post(`/api/studies/${f.plan.studyId}/reopen`).set(await as(t, 'lead')).send({ reason: 'Second bake requested.' });
+    expect((await writes(f)[0][1]()).status).toBe(201);
+  });
+});
