@@ -18,6 +18,7 @@ import { dutsRouter, referencesRouter } from './routes/references.js';
 import { healthRouter } from './routes/health.js';
 import { capturesRouter, comparisonsRouter } from './routes/captures.js';
 import { captureImportRouter } from './routes/captureImport.js';
+import { workbenchCapturesRouter, workbenchStudiesRouter } from './routes/workbench.js';
 import { silentHub, type LiveHub } from './ws/live.js';
 import { auditRouter, reviewRouter, sealRouter } from './routes/review.js';
 import { attachmentsRouter, ownerAttachmentsRouter } from './routes/attachments.js';
@@ -88,6 +89,9 @@ export function createApp(ctx: AppContext): Express {
   api.use('/duts', dutsRouter());
   // Readings logged elsewhere (issue 12): multipart, parsed as it streams; before `/:id`.
   api.use('/captures', captureImportRouter(ctx.db.pool, ctx.hub ?? silentHub));
+  // The comparison workbench's overlay and exports (issue 12); `/stability` before `/:id`.
+  api.use('/captures', workbenchCapturesRouter(ctx.db.pool));
+  api.use('/studies', workbenchStudiesRouter());
   api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub));
   api.use('/comparisons', comparisonsRouter(ctx.db.pool));
   // Review and the record (issue 11): workflow, audit, seals, attachments, outbox.

@@ -65,8 +65,9 @@ export const ROUTES = {
   'POST /api/captures': 'captures:run',
   'POST /api/captures/import': 'captures:run',
   'GET /api/captures/import/progress/:key': 'captures:run',
-  'POST /api/captures/import': 'captures:run',
-  'GET /api/captures/import/progress/:key': 'captures:run',
+  'GET /api/captures/stability': 'read',
+  'GET /api/captures/:id/export.csv': 'read',
+  'GET /api/studies/:id/captures.csv': 'read',
   'GET /api/captures/:id': 'read',
   // Notes and tags: the service lets the capture's operator or a tagger change them.
   'PATCH /api/captures/:id': 'read',
