@@ -5,11 +5,13 @@ import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
 import { addCheckpoint, addDut, createStudy, getStudy, listStudies } from '../services/studies.js';
 import { CheckpointCreate, DutCreate, IdParam, StudyCreate } from '../../shared/protocol/api.js';
+import { LIST_LIMITS, pageQuery } from '../../shared/protocol/paging.js';
 
 export function studiesRouter(pool: pg.Pool): Router {
   const r = Router();
-  r.get('/', authorize('read'), async (_req, res) => {
-    res.json({ studies: await listStudies() });
+  r.get('/', authorize('read'), async (req, res) => {
+    const q = parse(pageQuery(LIST_LIMITS.studies.max), req.query, 'query');
+    res.json(await listStudies({ limit: q.limit ?? LIST_LIMITS.studies.default, cursor: q.cursor }));
   });
   r.get('/:id', authorize('read'), async (req, res) => {
     res.json(await getStudy(parse(IdParam, req.params, 'id').id));

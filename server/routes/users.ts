@@ -3,13 +3,15 @@ import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
 import { createUser, listUsers, resetPassword, updateUser } from '../services/users.js';
 import { PasswordReset } from '../../shared/protocol/password.js';
+import { LIST_LIMITS, pageQuery } from '../../shared/protocol/paging.js';
 import { IdParam, UserCreate, UserPatch } from '../../shared/protocol/api.js';
 
 export function usersRouter(): Router {
   const r = Router();
   r.use(authorize('users:manage'));
-  r.get('/', async (_req, res) => {
-    res.json({ users: await listUsers() });
+  r.get('/', async (req, res) => {
+    const q = parse(pageQuery(LIST_LIMITS.users.max), req.query, 'query');
+    res.json(await listUsers({ limit: q.limit ?? LIST_LIMITS.users.default, cursor: q.cursor }));
   });
   r.post('/', async (req, res) => {
     res.status(201).json({ user: await createUser(parse(UserCreate, req.body), currentUser(req).id) });

@@ -4,6 +4,7 @@ import { Capture, Checkpoint, Dut, Instrument, Reference, Study, User } from '..
 import { AppError, ForbiddenError, NotFoundError, ValidationError } from '../errors.js';
 import type { CaptureCreate, CapturePatch } from '../../shared/protocol/captures.js';
 import { canWriteCapture } from './ingest.js';
+import { pageOf } from './paging.js';
 import { assertStudyWritable } from './studyLock.js';
 import { startOnFirstCapture } from './workflow.js';
 import { audit, changes } from './audit.js';
@@ -116,7 +117,7 @@ export async function requireCapture(id: number): Promise<Capture> {
 }
 
 /** Captures, newest first, optionally of one study, DUT, checkpoint or state. */
-export async function listCaptures(filter: { studyId?: number; dutId?: number; checkpointId?: number; state?: string; limit?: number }) {
+export async function listCaptures(filter: { studyId?: number; dutId?: number; checkpointId?: number; state?: string; limit: number; cursor?: string }) {
   const where: Record<string, unknown> = {};
   if (filter.dutId) where.dutId = filter.dutId;
   if (filter.checkpointId) where.checkpointId = filter.checkpointId;
@@ -125,12 +126,13 @@ export async function listCaptures(filter: { studyId?: number; dutId?: number; c
     const duts = await Dut.findAll({ where: { studyId: filter.studyId }, attributes: ['id'] });
     where.dutId = { [Op.in]: duts.map((d) => d.id) };
   }
-  const rows = await Capture.findAll({ where, order: [['id', 'DESC']], limit: filter.limit ?? 200 });
-  return rows.map((c) => {
+  const { rows, nextCursor } = await pageOf(Capture, { limit: filter.limit, cursor: filter.cursor }, 'id-desc', where);
+  const captures = rows.map((c) => {
     const p = capturePublic(c);
-    // The list carries the verdict-relevant figures, not the whole stored summary.
-    return { ...p, summary: undefined };
+    // Lists stay light: no stored summary and no link profile (GET /api/captures/:id has both).
+    return { ...p, summary: undefined, linkProfile: undefined };
   });
+  return { captures, nextCursor };
 }
 
 /** A capture with the names a page needs to show its identity (study › checkpoint › DUT). */

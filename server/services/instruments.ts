@@ -1,6 +1,8 @@
 import { Instrument } from '../models/index.js';
 import { NotFoundError } from '../errors.js';
 import { audit } from './audit.js';
+import { pageOf } from './paging.js';
+import type { Page } from '../../shared/protocol/paging.js';
 import { calibrationState } from './lab.js';
 import type { LinkProfile } from '../../shared/protocol/linkProfile.js';
 
@@ -23,9 +25,10 @@ export function publicInstrument(i: Instrument) {
 }
 
 /** GET /api/instruments: every instrument, by name. */
-export async function listInstruments() {
-  const rows = await Instrument.findAll({ order: [['name', 'ASC']] });
-  return rows.map(publicInstrument);
+/** GET /api/instruments: one page of instruments, by name. */
+export async function listInstruments(page: Page) {
+  const { rows, nextCursor } = await pageOf(Instrument, page, 'name-asc');
+  return { instruments: rows.map(publicInstrument), nextCursor };
 }
 
 export interface InstrumentFields {

@@ -3,6 +3,8 @@ import { Study, Checkpoint, Dut } from '../models/index.js';
 import { NotFoundError } from '../errors.js';
 import { audit } from './audit.js';
 import { assertStudyWritable } from './studyLock.js';
+import { pageOf } from './paging.js';
+import type { Page } from '../../shared/protocol/paging.js';
 import type { CheckpointCreate, DutCreate, StudyCreate } from '../../shared/protocol/api.js';
 
 function studyPublic(s: Study) {
@@ -23,8 +25,9 @@ function studyPublic(s: Study) {
   };
 }
 
-export async function listStudies() {
-  const studies = await Study.findAll({ order: [['id', 'DESC']] });
+/** One page of studies, newest first, with their checkpoint and DUT counts. */
+export async function listStudies(page: Page) {
+  const { rows: studies, nextCursor } = await pageOf(Study, page, 'id-desc');
   const count = async (model: typeof Checkpoint | typeof Dut) => {
     const rows = (await (model as typeof Checkpoint).findAll({
       attributes: ['studyId', [fn('COUNT', col('id')), 'n']],
@@ -34,11 +37,12 @@ export async function listStudies() {
     return new Map(rows.map((r) => [r.studyId, Number(r.n)]));
   };
   const [checkpoints, duts] = await Promise.all([count(Checkpoint), count(Dut)]);
-  return studies.map((s) => ({
+  const items = studies.map((s) => ({
     ...studyPublic(s),
     checkpointCount: checkpoints.get(s.id) ?? 0,
     dutCount: duts.get(s.id) ?? 0,
   }));
+  return { studies: items, nextCursor };
 }
 
 export async function getStudy(id: number) {

@@ -3,11 +3,14 @@ import { User } from '../models/index.js';
 import { ConflictError, NotFoundError } from '../errors.js';
 import { hashPassword } from './auth.js';
 import { audit } from './audit.js';
+import { pageOf } from './paging.js';
+import type { Page } from '../../shared/protocol/paging.js';
 import type { UserCreate, UserPatch } from '../../shared/protocol/api.js';
 
-export async function listUsers() {
-  const users = await User.findAll({ order: [['id', 'ASC']] });
-  return users.map((u) => u.toPublic());
+/** One page of users, oldest account first (see shared/protocol/paging.ts). */
+export async function listUsers(page: Page) {
+  const { rows, nextCursor } = await pageOf(User, page, 'id-asc');
+  return { users: rows.map((u) => u.toPublic()), nextCursor };
 }
 
 export async function createUser(input: UserCreate, actorId: number) {

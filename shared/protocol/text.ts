@@ -76,4 +76,4 @@ export function isCalendarDate(s: string): boolean {
 export const CalendarDate = z
   .string()
   .regex(/^\d{4}-\d{2}-\d{2}$/, 'must be a date as YYYY-MM-DD')
-  .refine((s) => isCalendarDate(s), `must be a real calendar date from ${DATE_MIN} to ${DATE_MAX}`);
+  .refine((s) => isCalendarDate(s), `is not a calendar date between ${DATE_MIN} and ${DATE_MAX}`);

@@ -1,4 +1,5 @@
 import { http, request } from './http';
+import { allPages } from './paging';
 import type { Instrument, InstrumentKind } from './lab';
 import type { LinkProfile } from '../../shared/protocol/linkProfile';
 
@@ -25,7 +26,7 @@ export async function fetchInstrument(id: number): Promise<InstrumentDetail> {
 
 /** Every instrument with its link profile (the lab list carries them). */
 export async function listInstrumentsWithProfiles(): Promise<InstrumentDetail[]> {
-  return (await http.get<{ instruments: InstrumentDetail[] }>('/api/instruments')).instruments;
+  return allPages<InstrumentDetail>('/api/instruments', 'instruments');
 }
 
 export async function createInstrument(fields: InstrumentFields): Promise<InstrumentDetail> {

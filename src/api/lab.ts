@@ -1,4 +1,5 @@
 import { http } from './http';
+import { allPages } from './paging';
 
 export type InstrumentKind = 'counter' | 'spi-bridge' | 'reference' | 'other';
 
@@ -36,9 +37,9 @@ export interface Reference {
 }
 
 export async function listInstruments(): Promise<Instrument[]> {
-  return (await http.get<{ instruments: Instrument[] }>('/api/instruments')).instruments;
+  return allPages<Instrument>('/api/instruments', 'instruments');
 }
 
 export async function listReferences(): Promise<Reference[]> {
-  return (await http.get<{ references: Reference[] }>('/api/references')).references;
+  return allPages<Reference>('/api/references', 'references');
 }

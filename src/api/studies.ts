@@ -1,4 +1,5 @@
 import { http } from './http';
+import { allPages } from './paging';
 
 export type StudyStatus = 'draft' | 'running' | 'in-review' | 'approved' | 'returned';
 
@@ -20,7 +21,7 @@ export interface StudyCreate {
 }
 
 export async function listStudies(): Promise<StudySummary[]> {
-  return (await http.get<{ studies: StudySummary[] }>('/api/studies')).studies;
+  return allPages<StudySummary>('/api/studies', 'studies');
 }
 
 export function createStudy(body: StudyCreate): Promise<StudySummary & Record<string, unknown>> {

@@ -1,4 +1,5 @@
 import { http } from './http';
+import { allPages } from './paging';
 import type { Role } from './auth';
 
 export interface UserRecord {
@@ -21,7 +22,7 @@ export interface UserCreate {
 export type UserPatch = Partial<Pick<UserRecord, 'name' | 'role' | 'active'>>;
 
 export async function listUsers(): Promise<UserRecord[]> {
-  return (await http.get<{ users: UserRecord[] }>('/api/users')).users;
+  return allPages<UserRecord>('/api/users', 'users');
 }
 
 export async function createUser(body: UserCreate): Promise<UserRecord> {
