@@ -3,6 +3,7 @@
  * readings in and out, finish, analysis, comparison and the CSV export.
  */
 import { ApiError, http, toApiError, type RequestOptions } from './http';
+import { allPages } from './paging';
 import type { CaptureCreate, CapturePatch, IngestResult, ReadingIn, StabilityKind } from '../../shared/protocol/captures';
 import type { Summary } from '../../shared/analysis/summarize';
 import type { NoiseType } from '../../shared/analysis/noise';
@@ -255,7 +256,8 @@ export async function createCapture(body: CaptureCreate, options?: RequestOption
 }
 
 export async function listCaptures(filter: CaptureListQuery = {}, options?: RequestOptions): Promise<Capture[]> {
-  const { captures } = await http.get<{ captures: Capture[] }>(`/api/captures${query(filter)}`, options);
+  const { limit, ...rest } = filter;
+  const captures = await allPages<Capture>(`/api/captures${query(rest)}`, 'captures', limit ?? 2000, 200, options);
   return captures.map(numeric);
 }
 
