@@ -26,3 +26,4 @@ export * from './accelerometer';
 export * from './decimate';
 export * from './coverage';
 export * from './correlatedUncertainty';
+export * from './planner';
