@@ -18,6 +18,8 @@ export class RingSeries {
   flagged = 0;
   /** Readings known to precede the first one pushed but never held (a watch that starts late). */
   offset = 0;
+  /** Readings pushed without a finite value (counted, never drawn or reduced). */
+  unplotted = 0;
 
   constructor(readonly capacity: number) {
     this.t = new Float64Array(capacity);
@@ -39,6 +41,12 @@ export class RingSeries {
     this.total = 0;
     this.flagged = 0;
     this.offset = 0;
+    this.unplotted = 0;
+  }
+
+  /** Every reading of the capture so far: held, dropped from the ring, skipped at the start, or without a value. */
+  get count(): number {
+    return this.total + this.offset + this.unplotted;
   }
 
   /** The k-th held pair, oldest first (0 ≤ k < length). */
@@ -150,7 +158,7 @@ export function computeLiveStats(
   const { v } = ring.copy(Math.max(0, len - limit), len);
   const taus = [1, 10, 100].map((m) => ({ tau: m * opts.tau0, dev: null as number | null }));
   const base: LiveStats = {
-    n: ring.total + ring.offset,
+    n: ring.count,
     mean: NaN,
     sd: NaN,
     offsetPpm: null,
@@ -232,6 +240,10 @@ export function createLiveSeries(opts: LiveSeriesOptions): LiveSeries {
         if (dirty) {
           dirty = false;
           version.value++;
+          // The full statistics follow once a second; the counts never lag the footer.
+          const s = stats.value;
+          if (!s && ring.length) refreshStats();
+          else if (s && (s.n !== ring.count || s.flagged !== ring.flagged)) stats.value = { ...s, n: ring.count, flagged: ring.flagged };
         }
       });
     }
@@ -247,8 +259,8 @@ export function createLiveSeries(opts: LiveSeriesOptions): LiveSeries {
     stats,
     push(t, v, flags = 0) {
       if (flags) ring.flagged++;
-      if (!Number.isFinite(v)) return;
-      ring.push(t, v);
+      if (Number.isFinite(v)) ring.push(t, v);
+      else ring.unplotted++;
       touch();
     },
     pushMany(readings) {
@@ -256,6 +268,7 @@ export function createLiveSeries(opts: LiveSeriesOptions): LiveSeries {
         const r = readings[i];
         if (r.flags) ring.flagged++;
         if (Number.isFinite(r.value)) ring.push(r.t, r.value);
+        else ring.unplotted++;
       }
       if (readings.length) touch();
     },

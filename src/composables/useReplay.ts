@@ -189,6 +189,8 @@ export function createReplay(opts: ReplayOptions) {
     if (state.ended && clock.playing) {
       clock.pause();
       state.playing = false;
+      // The last readings arrived in this tick: the statistics include them at once.
+      opts.series.refreshStats();
     }
   }
 
@@ -266,6 +268,10 @@ export function createReplay(opts: ReplayOptions) {
     opts.series.clear();
     const startPage = p > 0 && pages.has(p - 1) ? p - 1 : p;
     cursor = { page: startPage, index: 0 };
+    // Readings before the refilled pages still count as replayed (seqs run on without holes).
+    const first = pages.get(startPage);
+    const origin = pages.get(0);
+    if (first?.seq.length && origin?.seq.length) opts.series.ring.offset = first.seq[0] - origin.seq[0];
     feed(target);
     opts.series.refreshStats();
     state.position = target;
