@@ -72,6 +72,8 @@ export async function seedDemo(sequelize: Sequelize): Promise<void> {
           'Qualify the new aqueous ultrasonic wash for the sensor-hub board rev C: every DUT is captured at baseline, after a normal wash, after an over-exposure and after a bake.',
         status: 'running',
         createdBy: engineer.id,
+        // The demo lab's instruments are simulators: its study accepts simulated captures.
+        allowSimulated: true,
       },
       { transaction },
     );

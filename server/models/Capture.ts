@@ -37,6 +37,8 @@ export class Capture extends Model {
   declare sealSha256: string | null;
   declare sealedAt: Date | null;
   declare plannedMinutes: number | null;
+  /** Recorded from a simulator (set at creation, never changed). */
+  declare simulated: CreationOptional<boolean>;
   declare overdueNotifiedAt: Date | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
@@ -76,6 +78,7 @@ export class Capture extends Model {
         sealSha256: DataTypes.CHAR(64),
         sealedAt: DataTypes.DATE,
         plannedMinutes: DataTypes.INTEGER,
+        simulated: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: false },
         overdueNotifiedAt: DataTypes.DATE,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,

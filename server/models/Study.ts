@@ -9,6 +9,8 @@ export class Study extends Model {
   declare status: CreationOptional<StudyStatus>;
   declare createdBy: number | null;
   declare revision: CreationOptional<number>;
+  /** Whether simulated captures may be recorded in this study (demo and training studies). */
+  declare allowSimulated: CreationOptional<boolean>;
   declare submittedBy: number | null;
   declare submittedAt: Date | null;
   declare approvedBy: number | null;
@@ -26,6 +28,7 @@ export class Study extends Model {
         status: { type: DataTypes.STRING(20), allowNull: false, defaultValue: 'draft' },
         createdBy: DataTypes.INTEGER,
         revision: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 1 },
+        allowSimulated: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: false },
         submittedBy: DataTypes.INTEGER,
         submittedAt: DataTypes.DATE,
         approvedBy: DataTypes.INTEGER,

@@ -13,6 +13,7 @@ import { ingestReadings } from '../services/ingest.js';
 import { finishCapture } from '../services/finish.js';
 import { readSeries } from '../services/readings.js';
 import { compareCaptures, summaryOf } from '../services/comparisons.js';
+import { conditionsBetween } from '../services/conditions.js';
 import { defaultDrift, preparedFor, stabilityOf, withDrift } from '../services/captureAnalysis.js';
 import { Dut } from '../models/index.js';
 import type { LiveHub } from '../ws/live.js';
@@ -110,7 +111,9 @@ export function comparisonsRouter(pool: pg.Pool): Router {
   const r = Router();
   r.get('/', authorize('read'), async (req, res) => {
     const q = parse(ComparisonQuery, req.query, 'query');
-    res.json(await compareCaptures(pool, q.before, q.after));
+    const result = await compareCaptures(pool, q.before, q.after);
+    // Beside the verdict: every condition the two captures were recorded under differently.
+    res.json({ ...result, conditions: await conditionsBetween(q.before, q.after) });
   });
   return r;
 }

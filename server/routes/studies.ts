@@ -3,8 +3,8 @@ import type pg from 'pg';
 import { studyMatrix } from '../services/comparisons.js';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
-import { addCheckpoint, addDut, createStudy, getStudy, listStudies } from '../services/studies.js';
-import { CheckpointCreate, DutCreate, IdParam, StudyCreate } from '../../shared/protocol/api.js';
+import { addCheckpoint, addDut, createStudy, getStudy, listStudies, updateStudySettings } from '../services/studies.js';
+import { CheckpointCreate, DutCreate, IdParam, StudyCreate, StudySettings } from '../../shared/protocol/api.js';
 import { LIST_LIMITS, pageQuery } from '../../shared/protocol/paging.js';
 
 export function studiesRouter(pool: pg.Pool): Router {
@@ -21,6 +21,10 @@ export function studiesRouter(pool: pg.Pool): Router {
   });
   r.post('/', authorize('studies:plan'), async (req, res) => {
     res.status(201).json(await createStudy(parse(StudyCreate, req.body), currentUser(req).id));
+  });
+  r.patch('/:id/settings', authorize('studies:plan'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await updateStudySettings(id, parse(StudySettings, req.body), currentUser(req).id));
   });
   r.post('/:id/checkpoints', authorize('studies:plan'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');

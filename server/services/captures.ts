@@ -42,6 +42,7 @@ export function capturePublic(c: Capture) {
     highestSeq: c.highestSeq,
     summary: c.summary ?? null,
     plannedMinutes: c.plannedMinutes ?? null,
+    simulated: c.simulated ?? false,
     sealSha256: c.sealSha256 ?? null,
     sealedAt: c.sealedAt ?? null,
   };
@@ -65,6 +66,8 @@ export async function createCapture(input: CaptureCreate, operator: AuthUser) {
   }
   // A quick refusal before the other checks; repeated under the study's row lock below.
   await assertStudyWritable('study', dut.studyId, 'opening a capture');
+  const simulated = isSimulatedCapture(input);
+  if (simulated) await assertStudyAcceptsSimulated(dut.studyId);
   const instrument = input.instrumentId ? await Instrument.findByPk(input.instrumentId) : null;
   if (input.instrumentId && !instrument) {
     throw new ValidationError('instrumentId: no such instrument', [{ path: 'instrumentId', message: 'no such instrument' }]);
@@ -103,11 +106,30 @@ export async function createCapture(input: CaptureCreate, operator: AuthUser) {
       counterResolution: instrument?.counterResolution ?? null,
       linkProfile: input.linkProfile ?? null,
       plannedMinutes: input.plannedMinutes ?? null,
+      simulated,
     }, { transaction });
     await audit(operator.id, 'capture.open', 'capture', created.id, { studyId: dut.studyId, dutId: dut.id, checkpointId: checkpoint.id }, transaction);
     return created;
   });
   return capturePublic(capture);
+}
+
+/** A capture is simulated when its link was a simulator or its client says so; a client cannot unsay a simulator link. */
+export function isSimulatedCapture(input: Pick<CaptureCreate, 'linkProfile' | 'simulated'>): boolean {
+  return input.simulated === true || input.linkProfile?.kind === 'simulator';
+}
+
+/** 409 `simulated-not-allowed` unless the study accepts simulated captures (its planner's setting). */
+async function assertStudyAcceptsSimulated(studyId: number): Promise<void> {
+  const study = await Study.findByPk(studyId, { attributes: ['id', 'title', 'allowSimulated'] });
+  if (study && !study.allowSimulated) {
+    throw new AppError(
+      409,
+      'simulated-not-allowed',
+      `“${study.title}” does not accept simulated captures. Capture with a real instrument, or ask a lead or engineer to allow simulated captures in the study's settings.`,
+      { studyId: study.id },
+    );
+  }
 }
 
 export async function requireCapture(id: number): Promise<Capture> {

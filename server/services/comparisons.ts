@@ -2,6 +2,7 @@ import type pg from 'pg';
 import { AnalysisError, compare, tuningForkDelta, type DeltaTerm, type DriftModel } from '../../shared/analysis/index.js';
 import { Capture, Checkpoint, Dut, Study } from '../models/index.js';
 import { AppError, NotFoundError, ValidationError } from '../errors.js';
+import { conditionsBetween } from './conditions.js';
 import {
   LAB_AMBIENT_RANGE_C,
   preparedFor,
@@ -170,7 +171,7 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
         continue;
       }
       const s = c.summary as CaptureSummary | null;
-      const capture = { id: c.id, readingCount: c.readingCount, ambientC: c.ambientC, mean: s?.stats?.mean ?? null, offsetPpm: s?.offsetPpm ?? null };
+      const capture = { id: c.id, readingCount: c.readingCount, ambientC: c.ambientC, mean: s?.stats?.mean ?? null, offsetPpm: s?.offsetPpm ?? null, simulated: c.simulated ?? false };
       let comparison = null;
       if (base && base.id !== c.id && s?.stats && (base.summary as CaptureSummary | null)?.stats) {
         // (Summaries stored by an older version are recomputed inside compareCaptures.)
@@ -200,6 +201,7 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
           limitHighInUnit: r.limitHighInUnit,
           verdict: r.verdict,
           significant: r.significant,
+          conditions: await conditionsBetween(base, c),
         };
       }
       cells.push({ checkpointId: cp.id, capture, comparison });

@@ -1,11 +1,11 @@
 import { fn, col, type Transaction } from 'sequelize';
 import { Study, Checkpoint, Dut } from '../models/index.js';
 import { NotFoundError } from '../errors.js';
-import { audit } from './audit.js';
+import { audit, changes } from './audit.js';
 import { assertStudyWritable } from './studyLock.js';
 import { pageOf } from './paging.js';
 import type { Page } from '../../shared/protocol/paging.js';
-import type { CheckpointCreate, DutCreate, StudyCreate } from '../../shared/protocol/api.js';
+import type { CheckpointCreate, DutCreate, StudyCreate, StudySettings } from '../../shared/protocol/api.js';
 
 function studyPublic(s: Study) {
   return {
@@ -16,6 +16,7 @@ function studyPublic(s: Study) {
     status: s.status,
     createdBy: s.createdBy,
     revision: s.revision,
+    allowSimulated: s.allowSimulated,
     submittedBy: s.submittedBy,
     submittedAt: s.submittedAt,
     approvedBy: s.approvedBy,
@@ -119,4 +120,19 @@ async function createDutRow(studyId: number, input: DutCreate, transaction: Tran
     parabolicB: input.parabolicB ?? null,
     parabolicBU: input.parabolicBU ?? null,
   }, { transaction });
+}
+
+/** Changes a study's planner settings; refused (409) while the study is locked; audited with what changed. */
+export async function updateStudySettings(studyId: number, input: StudySettings, actorId: number) {
+  await requireStudy(studyId);
+  const study = await Study.sequelize!.transaction(async (transaction) => {
+    await assertStudyWritable('study', studyId, 'changing its settings', transaction);
+    const row = (await Study.findByPk(studyId, { transaction }))!;
+    const diff = changes({ allowSimulated: row.allowSimulated }, { allowSimulated: input.allowSimulated });
+    if (Object.keys(diff).length === 0) return row;
+    await row.update({ ...(input.allowSimulated !== undefined ? { allowSimulated: input.allowSimulated } : {}) }, { transaction });
+    await audit(actorId, 'study.settings', 'study', studyId, diff, transaction);
+    return row;
+  });
+  return studyPublic(study);
 }

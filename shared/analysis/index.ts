@@ -20,6 +20,7 @@ export * from './combineUncertainty';
 export * from './uncertaintyBudget';
 export * from './verdict';
 export * from './compare';
+export * from './conditions';
 export * from './temperature';
 export * from './gravity';
 export * from './accelerometer';

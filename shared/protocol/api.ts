@@ -43,10 +43,21 @@ export type StudyStatus = z.infer<typeof StudyStatus>;
 
 export const StudyCreate = z.object({
   title: Text({ min: 1, max: 200 }),
+  /** Accept simulated captures (off unless asked for: a study's evidence is real by default). */
+  allowSimulated: z.boolean().optional(),
   process: Text({ max: 200 }).optional(),
   description: Text({ max: 5000, trim: false }).optional(),
 });
 export type StudyCreate = z.infer<typeof StudyCreate>;
+
+/** The body of `PATCH /api/studies/:id/settings`: a study's planner settings. */
+export const StudySettings = z
+  .object({
+    /** Accept captures recorded from a simulator (demo and training studies). */
+    allowSimulated: z.boolean().optional(),
+  })
+  .strict();
+export type StudySettings = z.infer<typeof StudySettings>;
 
 export const Exposure = z
   .object({

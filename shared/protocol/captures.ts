@@ -28,6 +28,8 @@ export const CaptureCreate = z.object({
   tags: z.array(Text({ min: 1, max: 60 })).max(20).optional(),
   /** The link profile the capture ran with: the same schema as an instrument's (a few hundred bytes). */
   linkProfile: LinkProfile.optional(),
+  /** Recorded from a simulator (also implied by a simulator link profile); stored on the capture for good. */
+  simulated: z.boolean().optional(),
 });
 export type CaptureCreate = z.infer<typeof CaptureCreate>;
 
