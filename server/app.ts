@@ -8,6 +8,7 @@ import { authenticate, guardRoutes } from './middleware/auth.js';
 import { jsonBodies } from './middleware/bodies.js';
 import { errorHandler } from './middleware/errorHandler.js';
 import { outageMonitor } from './db/outage.js';
+import { AnalysisPool } from './analysis/pool.js';
 import { NotFoundError } from './errors.js';
 import { authRouter } from './routes/auth.js';
 import { usersRouter } from './routes/users.js';
@@ -39,6 +40,8 @@ export interface AppContext {
   loginAccountLimit?: number;
   /** Express's trust-proxy setting (TRUST_PROXY); off by default. */
   trustProxy?: boolean | number | string[];
+  /** Worker threads for capture analyses; one is made when absent. */
+  analysis?: AnalysisPool;
   /** Live fan-out to watchers; silent when nobody can watch (Supertest). */
   hub?: LiveHub;
   /** Where attachment bytes go (default: a folder under the system's temporary folder). */
@@ -92,7 +95,7 @@ export function createApp(ctx: AppContext): Express {
   // The comparison workbench's overlay and exports (issue 12); `/stability` before `/:id`.
   api.use('/captures', workbenchCapturesRouter(ctx.db.pool));
   api.use('/studies', workbenchStudiesRouter());
-  api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub));
+  api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub, ctx.analysis ?? new AnalysisPool(ctx.db.url)));
   api.use('/comparisons', comparisonsRouter(ctx.db.pool));
   // Review and the record (issue 11): workflow, audit, seals, attachments, outbox.
   const store = ctx.attachmentStore ?? new FolderStore(path.join(os.tmpdir(), `driftbench-attachments-${process.pid}`));

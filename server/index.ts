@@ -8,6 +8,7 @@ import type { Database } from './db/connection.js';
 import { routeUpgrades, type UpgradeHandler } from './ws/upgrade.js';
 import { createLiveHub } from './ws/live.js';
 import { requireSession } from './ws/sessionGate.js';
+import { AnalysisPool } from './analysis/pool.js';
 import { resolveJwtSecret } from './services/auth.js';
 import type { Config } from './config.js';
 import { FolderStore } from './services/storage.js';
@@ -60,6 +61,7 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
   const log = opts.log ?? pino({ level: 'info' });
   const db = await prepareDatabase(opts.databaseUrl, { demo: opts.demo ?? false, log, retireDemo: opts.retireDemo });
   const hub = createLiveHub(opts.jwtSecret, db.pool);
+  const analysis = new AnalysisPool(opts.databaseUrl);
   const app = createApp({
     db,
     jwtSecret: opts.jwtSecret,
@@ -69,6 +71,7 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
     loginAccountLimit: opts.loginAccountLimit,
     trustProxy: opts.trustProxy,
     hub,
+    analysis,
     attachmentStore: opts.dataDir ? new FolderStore(path.join(opts.dataDir, 'attachments')) : undefined,
     uploadPolicy: opts.uploadPolicy,
   });
@@ -119,7 +122,7 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
       schedules?.stop();
       await mailWorker?.stop();
       await localMail?.close();
-      await Promise.allSettled(upgrades.map((u) => u.close()));
+      await Promise.allSettled([...upgrades.map((u) => u.close()), analysis.close()]);
       server.closeAllConnections();
       await new Promise<void>((resolve) => server.close(() => resolve()));
       await db.close();

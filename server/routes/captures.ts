@@ -12,11 +12,13 @@ import { createCapture, getCapture, listCaptures, patchCapture, requireCapture }
 import { ingestReadings } from '../services/ingest.js';
 import { finishCapture } from '../services/finish.js';
 import { readSeries } from '../services/readings.js';
-import { compareCaptures, summaryOf } from '../services/comparisons.js';
+import { compareCaptures } from '../services/comparisons.js';
 import { conditionsBetween } from '../services/conditions.js';
-import { defaultDrift, preparedFor, stabilityOf, withDrift } from '../services/captureAnalysis.js';
-import { Dut } from '../models/index.js';
 import type { LiveHub } from '../ws/live.js';
+import type { AnalysisPool } from '../analysis/pool.js';
+
+/** Most raw readings one `GET …/readings` answers without maxPoints (about 4 MB of JSON). */
+export const MAX_RAW_READINGS = 100_000;
 
 const ListQuery = z.object({
   studyId: z.coerce.number().int().positive().optional(),
@@ -25,7 +27,7 @@ const ListQuery = z.object({
   state: z.enum(['open', 'finished', 'aborted']).optional(),
 }).extend(pageQuery(LIST_LIMITS.captures.max).shape);
 
-export function capturesRouter(pool: pg.Pool, hub: LiveHub): Router {
+export function capturesRouter(pool: pg.Pool, hub: LiveHub, analysis: AnalysisPool): Router {
   const r = Router();
   r.get('/', authorize('read'), async (req, res) => {
     const q = parse(ListQuery, req.query, 'query');
@@ -55,6 +57,15 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub): Router {
     const { id } = parse(IdParam, req.params, 'id');
     const q = parse(ReadingsQuery, req.query, 'query');
     const c = await requireCapture(id);
+    // Raw reads (no maxPoints) come in pages of at most MAX_RAW_READINGS; `nextFrom` is where the
+    // next page starts, null on the last (the CSV download streams a whole capture instead).
+    if (!q.maxPoints) {
+      const from = q.from ?? 0;
+      const to = Math.min(q.to ?? c.highestSeq, c.highestSeq, from + MAX_RAW_READINGS - 1);
+      const out = await readSeries(pool, id, { from, to, finished: c.state !== 'open', highestSeq: c.highestSeq });
+      res.json({ ...out, nextFrom: to < Math.min(q.to ?? c.highestSeq, c.highestSeq) ? to + 1 : null });
+      return;
+    }
     const out = await readSeries(pool, id, { ...q, finished: c.state !== 'open', highestSeq: c.highestSeq });
     res.json(out);
   });
@@ -81,28 +92,10 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub): Router {
     const { id } = parse(IdParam, req.params, 'id');
     const q = parse(AnalysisQuery, req.query, 'query');
     const c = await requireCapture(id);
-    const dut = await Dut.findByPk(c.dutId);
-    const drift = q.drift ?? defaultDrift(c);
-    const summary = await summaryOf(pool, c, dut, drift);
-    // Stability always runs on the series with the chosen drift removed (issue 8).
-    const stability =
-      q.kind === 'oadev' && q.taus === 'octave' && !q.confidence
-        ? summary.stability
-        : stabilityOf(withDrift(await preparedFor(pool, c), drift, []).prepared, q.kind, q.taus, q.confidence);
-    res.json({
-      stats: summary.stats,
-      correction: summary.correction,
-      stability,
-      uncertainty: summary.uncertainty,
-      offsetPpm: summary.offsetPpm,
-      temperature: summary.temperature,
-      drift: summary.drift,
-      driftModel: drift,
-      counter: summary.counter,
-      gaps: summary.gaps,
-      counts: summary.counts,
-      notes: summary.notes,
-    });
+    // Computed in a worker thread (server/analysis/worker.ts: the same figures — summary,
+    // stability on the series with the chosen drift removed), cached per reading count, with
+    // concurrent requests for the same capture sharing one computation.
+    res.json(await analysis.analysis({ captureId: id, ...q }, { readingCount: c.readingCount, state: c.state }));
   });
   return r;
 }

@@ -8,8 +8,29 @@ import { buildTiles, loadSeries } from './readings.js';
 import { prepare, reduce } from './captureAnalysis.js';
 import { capturePublic } from './captures.js';
 import { assertStudyWritable } from './studyLock.js';
+import { AnalysisError } from '../../shared/analysis/index.js';
+import { implausibleNote } from '../../shared/protocol/plausibility.js';
+import type { Series } from './readings.js';
 import { sealOf } from './seal.js';
 import { auditWithClient } from './audit.js';
+
+/**
+ * The capture's reduction; when the analysis refuses the readings (AnalysisError), the reduction of
+ * no readings with the counts and the reason as a note, so finishing always succeeds and the
+ * readings stay for a later look.
+ */
+function reduceOrExplain(capture: Capture, dut: Dut | null, series: Series) {
+  try {
+    return reduce(capture, dut, prepare(capture, series));
+  } catch (err) {
+    if (!(err instanceof AnalysisError)) throw err;
+    const empty: Series = { seq: new Int32Array(0), t: new Float64Array(0), value: new Float64Array(0), flags: new Int16Array(0) };
+    const summary = reduce(capture, dut, prepare(capture, empty));
+    summary.counts = { ...summary.counts, total: series.seq.length };
+    summary.notes.push(`Analysis not computed: ${err.message} The readings are kept.`);
+    return summary;
+  }
+}
 
 /**
  * Closes a capture: from then on it takes no readings. Computes and caches its summary
@@ -33,7 +54,9 @@ export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser,
       const dut = await Dut.findByPk(capture.dutId);
       const series = await loadSeries(client, id);
       capture.state = 'finished';
-      const summary = reduce(capture, dut, prepare(capture, series));
+      const summary = reduceOrExplain(capture, dut, series);
+      const implausible = implausibleNote(series.flags);
+      if (implausible) summary.notes.push(implausible);
       await buildTiles(client, id, series);
       await client.query(
         `UPDATE captures SET state = 'finished', ended_at = now(), updated_at = now(), summary = $2::jsonb,

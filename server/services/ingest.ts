@@ -3,6 +3,8 @@ import { AppError, ForbiddenError, NotFoundError, ValidationError } from '../err
 import { findBadReading, type IngestResult, type ReadingIn } from '../../shared/protocol/captures.js';
 import type { LiveHub } from '../ws/live.js';
 import type { AuthUser } from './auth.js';
+import { PlausibilityWindow, PLAUSIBILITY } from '../../shared/protocol/plausibility.js';
+import { ReadingFlag } from '../../shared/protocol/reading.js';
 import { assertCaptureWritable } from './studyLock.js';
 
 interface IngestRow {
@@ -37,6 +39,33 @@ function ingestSql(conflictSafe: boolean, returnSeqs: boolean): string {
        (SELECT accepted FROM counted) AS accepted,
        ${returnSeqs ? '(SELECT array_agg(seq) FROM ins)' : 'NULL::int[]'} AS seqs
      FROM cap`;
+}
+
+/** Running plausibility windows of the captures being recorded now (one server process). */
+const windows = new Map<number, PlausibilityWindow>();
+const MAX_WINDOWS = 256;
+
+/** The plausibility window of a capture, seeded from its nominal and its latest accepted readings. */
+async function plausibilityFor(pool: pg.Pool, captureId: number): Promise<PlausibilityWindow> {
+  const hit = windows.get(captureId);
+  if (hit) {
+    windows.delete(captureId);
+    windows.set(captureId, hit);
+    return hit;
+  }
+  const res = await pool.query<{ nominal: number | null; recent: number[] | null }>(
+    `SELECT c.nominal, (SELECT array_agg(v ORDER BY s) FROM (SELECT seq AS s, value AS v FROM readings
+        WHERE capture_id = c.id AND flags = 0 ORDER BY seq DESC LIMIT $2) r) AS recent
+     FROM captures c WHERE c.id = $1`,
+    [captureId, PLAUSIBILITY.window],
+  );
+  const row = res.rows[0];
+  const w = new PlausibilityWindow(row?.nominal ?? null, row?.recent ?? []);
+  if (row) {
+    windows.set(captureId, w);
+    if (windows.size > MAX_WINDOWS) windows.delete(windows.keys().next().value!);
+  }
+  return w;
 }
 
 /** Who may add readings to a capture: its operator, or a lead or admin. Viewers never. */
@@ -86,6 +115,10 @@ export async function ingestReadings(
     flags[i] = r.flags ?? 0;
     if (r.seq > maxSeq) maxSeq = r.seq;
   }
+  // Implausible values (shared/protocol/plausibility.ts) are stored with their flag bit set, so
+  // one absurd number never blocks the analysis or the finish.
+  const judge = await plausibilityFor(pool, captureId);
+  for (let i = 0; i < n; i++) if (flags[i] === 0 && !judge.check(values[i])) flags[i] |= ReadingFlag.implausible;
   const watched = hub.hasWatchers(captureId);
   const mayWriteAny = user.role === 'admin' || user.role === 'lead';
   if (user.role === 'viewer') throw new ForbiddenError('Viewers cannot add readings.');

@@ -27,6 +27,12 @@ export const ReadingFlag = {
   overlong: 1 << 3,
   /** The line ended without its terminator (stream closed mid-line). */
   partial: 1 << 4,
+  /**
+   * Set by the server at ingest, never by a link: the value is implausible for the capture (see
+   * shared/protocol/plausibility.ts for the rule). Kept in the database, left out of the analysis
+   * like every other flagged reading.
+   */
+  implausible: 1 << 5,
 } as const;
 
 export type ReadingFlagName = keyof typeof ReadingFlag;

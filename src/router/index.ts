@@ -18,6 +18,8 @@ declare module 'vue-router' {
     public?: boolean;
     /** Only these roles may open the page; everyone signed in when absent. */
     roles?: Role[];
+    /** Signed in, but rendered without the shell (the printable report). */
+    bare?: boolean;
   }
 }
 
@@ -46,6 +48,13 @@ export const routes: RouteRecordRaw[] = [
     component: () => import('../views/StudyView.vue'),
     props: (route) => ({ id: Number(route.params.id) }),
     meta: { title: 'Study' },
+  },
+  {
+    path: '/studies/:id(\\d+)/report',
+    name: 'study-report',
+    component: () => import('../views/StudyReportView.vue'),
+    props: (route) => ({ id: Number(route.params.id) }),
+    meta: { title: 'Study report', bare: true },
   },
   {
     path: '/lab',
@@ -90,6 +99,12 @@ export const routes: RouteRecordRaw[] = [
     name: 'users',
     component: () => import('../views/UsersView.vue'),
     meta: { title: 'Users', roles: ['admin'] },
+  },
+  {
+    path: '/outbox',
+    name: 'outbox',
+    component: () => import('../views/OutboxView.vue'),
+    meta: { title: 'Outbox', roles: ['admin'] },
   },
   {
     path: '/no-access',

@@ -1,0 +1,147 @@
+/**
+ * The analysis pool: worker threads (server/analysis/worker.ts) that compute capture analyses off
+ * the event loop, so a viewer polling a large open capture never delays a technician's ingest.
+ * In front of the workers: answers cached per capture, query and reading count, and concurrent
+ * requests for the same capture and query coalesced onto one computation.
+ */
+import { Worker } from 'node:worker_threads';
+import os from 'node:os';
+import { AppError } from '../errors.js';
+import { AnalysisError } from '../../shared/analysis/index.js';
+import type { AnalysisJob, JobError, WorkerReply } from './protocol.js';
+
+const ENTRY = new URL('./worker-entry.mjs', import.meta.url);
+
+interface Pending {
+  resolve(v: { result: unknown; readingCount: number }): void;
+  reject(err: unknown): void;
+}
+
+interface Slot {
+  worker: Worker;
+  busy: boolean;
+  pending: Map<number, Pending>;
+}
+
+/** Workers for a 2-core machine: one, leaving a core for the event loop and PostgreSQL. */
+export function defaultPoolSize(): number {
+  const cores = typeof os.availableParallelism === 'function' ? os.availableParallelism() : os.cpus().length;
+  return Math.max(1, Math.min(4, cores - 1));
+}
+
+function toError(e: JobError): Error {
+  if (e.type === 'app') return new AppError(e.status ?? 500, e.code, e.message, e.details);
+  if (e.type === 'analysis') return new AnalysisError(e.code as ConstructorParameters<typeof AnalysisError>[0], e.message);
+  return Object.assign(new Error(e.message), { code: e.code });
+}
+
+export interface AnalysisPoolStats {
+  computed: number;
+  cacheHits: number;
+  coalesced: number;
+}
+
+export class AnalysisPool {
+  private readonly slots: Slot[] = [];
+  private readonly queue: Array<{ job: AnalysisJob; pending: Pending }> = [];
+  private readonly inFlight = new Map<string, Promise<{ result: unknown; readingCount: number }>>();
+  private readonly cache = new Map<string, { readingCount: number; state: string; result: unknown }>();
+  private nextId = 1;
+  private closed = false;
+  readonly stats: AnalysisPoolStats = { computed: 0, cacheHits: 0, coalesced: 0 };
+
+  constructor(
+    private readonly databaseUrl: string,
+    private readonly size = defaultPoolSize(),
+    private readonly cacheSize = 64,
+  ) {}
+
+  private spawn(): Slot {
+    const worker = new Worker(ENTRY, { workerData: { databaseUrl: this.databaseUrl } });
+    worker.unref();
+    const slot: Slot = { worker, busy: false, pending: new Map() };
+    worker.on('message', (msg: WorkerReply) => {
+      const p = slot.pending.get(msg.id);
+      slot.pending.delete(msg.id);
+      slot.busy = false;
+      if (p) {
+        if (msg.ok) p.resolve({ result: msg.result, readingCount: msg.readingCount });
+        else p.reject(toError(msg.error));
+      }
+      this.pump();
+    });
+    const fail = (err: unknown) => {
+      for (const p of slot.pending.values()) p.reject(err instanceof Error ? err : new Error(String(err)));
+      slot.pending.clear();
+      const i = this.slots.indexOf(slot);
+      if (i >= 0) this.slots.splice(i, 1);
+      this.pump();
+    };
+    worker.on('error', fail);
+    worker.on('exit', (code) => {
+      if (!this.closed) fail(new Error(`analysis worker stopped (${code})`));
+    });
+    this.slots.push(slot);
+    return slot;
+  }
+
+  private pump(): void {
+    while (this.queue.length && !this.closed) {
+      let slot = this.slots.find((s) => !s.busy);
+      if (!slot && this.slots.length < this.size) slot = this.spawn();
+      if (!slot) return;
+      const { job, pending } = this.queue.shift()!;
+      const id = this.nextId++;
+      slot.busy = true;
+      slot.pending.set(id, pending);
+      slot.worker.postMessage({ id, job });
+    }
+  }
+
+  private run(job: AnalysisJob): Promise<{ result: unknown; readingCount: number }> {
+    if (this.closed) return Promise.reject(new Error('analysis pool closed'));
+    return new Promise((resolve, reject) => {
+      this.queue.push({ job, pending: { resolve, reject } });
+      this.pump();
+    });
+  }
+
+  /**
+   * The analysis of a capture. `current` is the capture as the request read it: an answer computed
+   * at the same reading count and state is served from the cache; a computation already running
+   * for the same capture and query is joined instead of started again.
+   */
+  async analysis(job: AnalysisJob, current: { readingCount: number; state: string }): Promise<unknown> {
+    const key = `${job.captureId}|${job.kind}|${job.taus}|${job.confidence ?? ''}|${job.drift ?? ''}`;
+    const hit = this.cache.get(key);
+    if (hit && hit.readingCount === current.readingCount && hit.state === current.state) {
+      this.stats.cacheHits++;
+      this.cache.delete(key);
+      this.cache.set(key, hit);
+      return hit.result;
+    }
+    const running = this.inFlight.get(key);
+    if (running) {
+      this.stats.coalesced++;
+      return (await running).result;
+    }
+    const started = this.run(job);
+    this.inFlight.set(key, started);
+    try {
+      const done = await started;
+      this.stats.computed++;
+      this.cache.delete(key);
+      this.cache.set(key, { readingCount: done.readingCount, state: current.state, result: done.result });
+      if (this.cache.size > this.cacheSize) this.cache.delete(this.cache.keys().next().value!);
+      return done.result;
+    } finally {
+      this.inFlight.delete(key);
+    }
+  }
+
+  async close(): Promise<void> {
+    this.closed = true;
+    for (const q of this.queue.splice(0)) q.pending.reject(new Error('analysis pool closed'));
+    await Promise.all(this.slots.splice(0).map((s) => s.worker.terminate()));
+  }
+}

@@ -1,0 +1,160 @@
+/**
+ * An analysis worker thread: computes `GET /api/captures/:id/analysis` off the server's event
+ * loop, with the same functions the API used in-process (captureAnalysis.ts). It keeps each
+ * capture's readings between jobs and, for an open capture, loads only what arrived since — so a
+ * viewer polling a million-reading capture costs one small query per poll, not a full reload.
+ */
+import { parentPort, workerData } from 'node:worker_threads';
+import { openDatabase } from '../db/connection.js';
+import { initModels, Capture, Dut } from '../models/index.js';
+import { AppError, NotFoundError } from '../errors.js';
+import { AnalysisError } from '../../shared/analysis/index.js';
+import { defaultDrift, prepare, reduce, stabilityOf, withDrift, SUMMARY_VERSION, type CaptureSummary } from '../services/captureAnalysis.js';
+import type { Series } from '../services/readings.js';
+import { implausibleNote } from '../../shared/protocol/plausibility.js';
+import type { AnalysisJob, JobError, WorkerReply, WorkerRequest } from './protocol.js';
+
+const { databaseUrl } = workerData as { databaseUrl: string };
+const db = openDatabase(databaseUrl, { poolMax: 2 });
+initModels(db.sequelize);
+
+interface Held {
+  series: Series;
+  count: number;
+}
+/** Readings of the captures analysed lately, by capture id (a few, by recent use). */
+const held = new Map<number, Held>();
+const HELD_MAX = 4;
+
+function concat<T extends Int32Array | Float64Array | Int16Array>(a: T, b: T): T {
+  const out = new (a.constructor as new (n: number) => T)(a.length + b.length);
+  out.set(a);
+  out.set(b, a.length);
+  return out;
+}
+
+function toSeries(rows: Array<[number, number, number, number]>): Series {
+  const n = rows.length;
+  const s: Series = { seq: new Int32Array(n), t: new Float64Array(n), value: new Float64Array(n), flags: new Int16Array(n) };
+  for (let i = 0; i < n; i++) {
+    const r = rows[i];
+    s.seq[i] = r[0];
+    s.t[i] = r[1];
+    s.value[i] = r[2];
+    s.flags[i] = r[3];
+  }
+  return s;
+}
+
+/**
+ * The capture's readings in seq order. In one snapshot, reads the capture's count and the readings
+ * above the highest one held; when the two do not add up (a resend filled an earlier gap), reloads
+ * everything in the same snapshot.
+ */
+async function seriesOf(captureId: number): Promise<Held> {
+  const client = await db.pool.connect();
+  try {
+    await client.query('BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY');
+    const countRes = await client.query<{ reading_count: number }>('SELECT reading_count FROM captures WHERE id = $1', [captureId]);
+    const count = countRes.rows[0]?.reading_count ?? 0;
+    const prev = held.get(captureId);
+    const read = async (after: number) =>
+      toSeries(
+        (
+          await client.query<[number, number, number, number]>({
+            text: 'SELECT seq, t, value, flags FROM readings WHERE capture_id = $1 AND seq > $2 ORDER BY seq',
+            values: [captureId, after],
+            rowMode: 'array',
+          })
+        ).rows,
+      );
+    let next: Held;
+    if (prev && prev.count === count) next = prev;
+    else {
+      const last = prev && prev.series.seq.length ? prev.series.seq[prev.series.seq.length - 1] : -1;
+      const fresh = prev ? await read(last) : null;
+      if (prev && fresh && prev.count + fresh.seq.length === count) {
+        next = {
+          count,
+          series: {
+            seq: concat(prev.series.seq, fresh.seq),
+            t: concat(prev.series.t, fresh.t),
+            value: concat(prev.series.value, fresh.value),
+            flags: concat(prev.series.flags, fresh.flags),
+          },
+        };
+      } else {
+        const all = await read(-1);
+        next = { series: all, count: all.seq.length };
+      }
+    }
+    await client.query('COMMIT');
+    held.delete(captureId);
+    held.set(captureId, next);
+    if (held.size > HELD_MAX) held.delete(held.keys().next().value!);
+    return next;
+  } catch (err) {
+    await client.query('ROLLBACK').catch(() => {});
+    throw err;
+  } finally {
+    client.release();
+  }
+}
+
+/** The analysis as the API answers it (the same figures and rules as the in-process route). */
+async function analyse(job: AnalysisJob): Promise<{ result: unknown; readingCount: number }> {
+  const c = await Capture.findByPk(job.captureId);
+  if (!c) throw new NotFoundError('Capture');
+  const dut = await Dut.findByPk(c.dutId);
+  const drift = job.drift ?? defaultDrift(c);
+  const stored = c.summary as CaptureSummary | null;
+  const custom = drift !== defaultDrift(c);
+  const useStored = c.state !== 'open' && !!stored && (stored.version ?? 0) >= SUMMARY_VERSION && !custom;
+  const defaultStability = job.kind === 'oadev' && job.taus === 'octave' && !job.confidence;
+  let summary: CaptureSummary;
+  let prepared = null;
+  let readingCount = c.readingCount;
+  if (useStored && defaultStability) summary = stored!;
+  else {
+    const { series, count } = await seriesOf(c.id);
+    readingCount = count;
+    prepared = prepare(c, series);
+    summary = useStored ? stored! : reduce(c, dut, prepared, custom ? { drift } : {});
+    if (!useStored) {
+      const note = implausibleNote(series.flags);
+      if (note) summary = { ...summary, notes: [...summary.notes, note] };
+    }
+  }
+  const stability = defaultStability ? summary.stability : stabilityOf(withDrift(prepared!, drift, []).prepared, job.kind, job.taus, job.confidence);
+  return {
+    readingCount,
+    result: {
+      stats: summary.stats,
+      correction: summary.correction,
+      stability,
+      uncertainty: summary.uncertainty,
+      offsetPpm: summary.offsetPpm,
+      temperature: summary.temperature,
+      drift: summary.drift,
+      driftModel: drift,
+      counter: summary.counter,
+      gaps: summary.gaps,
+      counts: summary.counts,
+      notes: summary.notes,
+    },
+  };
+}
+
+function asJobError(err: unknown): JobError {
+  if (err instanceof AppError) return { type: 'app', status: err.status, code: err.code, message: err.message, details: err.details };
+  if (err instanceof AnalysisError) return { type: 'analysis', code: err.code, message: err.message };
+  const e = err as { code?: unknown; message?: unknown };
+  return { type: 'internal', code: typeof e?.code === 'string' ? e.code : 'internal', message: String(e?.message ?? err) };
+}
+
+parentPort!.on('message', (msg: WorkerRequest) => {
+  analyse(msg.job).then(
+    ({ result, readingCount }) => parentPort!.postMessage({ id: msg.id, ok: true, result, readingCount } satisfies WorkerReply),
+    (err) => parentPort!.postMessage({ id: msg.id, ok: false, error: asJobError(err) } satisfies WorkerReply),
+  );
+});
