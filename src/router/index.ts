@@ -75,6 +75,18 @@ export const routes: RouteRecordRaw[] = [
     meta: { title: 'Captures' },
   },
   {
+    path: '/captures/import',
+    name: 'capture-import',
+    component: () => import('../views/CaptureImportView.vue'),
+    meta: { title: 'Import readings', roles: ['admin', 'lead', 'engineer', 'technician'] },
+  },
+  {
+    path: '/compare',
+    name: 'compare',
+    component: () => import('../views/CompareView.vue'),
+    meta: { title: 'Compare' },
+  },
+  {
     path: '/captures/:id(\\d+)',
     name: 'capture',
     component: () => import('../views/CaptureView.vue'),

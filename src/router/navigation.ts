@@ -1,6 +1,6 @@
 import type { Component } from 'vue';
 import type { RouteLocationNamedRaw, Router } from 'vue-router';
-import { Collection, Connection, Cpu, DataLine, Notebook, User, VideoPlay } from '@element-plus/icons-vue';
+import { Collection, Connection, Cpu, DataLine, Message, Notebook, TrendCharts, User, VideoPlay } from '@element-plus/icons-vue';
 import type { Role } from '../api/auth';
 
 export interface NavItem {
@@ -18,9 +18,11 @@ export const NAV_ITEMS: NavItem[] = [
   { label: 'Studies', to: { name: 'studies' }, icon: Notebook },
   { label: 'Bench', to: { name: 'bench' }, icon: VideoPlay },
   { label: 'Captures', to: { name: 'captures' }, icon: DataLine },
+  { label: 'Compare', to: { name: 'compare' }, icon: TrendCharts },
   { label: 'Links', to: { name: 'links' }, icon: Connection },
   { label: 'Lab', to: { name: 'lab' }, icon: Cpu },
   { label: 'Users', to: { name: 'users' }, icon: User },
+  { label: 'Outbox', to: { name: 'outbox' }, icon: Message },
 ];
 
 export function navItemsFor(router: Router, role: Role | null): NavItem[] {

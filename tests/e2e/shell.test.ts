@@ -63,7 +63,7 @@ describe('the Driftbench shell', () => {
   it('shows Users to an admin, in either theme', async () => {
     const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
     await signIn(page, server.url, 'admin');
-    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Links', 'Lab', 'Users']);
+    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Links', 'Lab', 'Users', 'Outbox']);
 
     await page.click('nav[aria-label="Main"] >> text=Users');
     await page.waitForSelector('text=admin@kestrelbay.example');

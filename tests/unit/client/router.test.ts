@@ -79,10 +79,10 @@ describe('router guard', () => {
     expect(localStorage.getItem(SESSION_KEY)).toBeNull();
   });
 
-  it('shows Users to admins only and Bench to everyone who captures', () => {
+  it('shows Users and Outbox to admins only and Bench to everyone who captures', () => {
     const router = createAppRouter(createMemoryHistory());
-    expect(navItemsFor(router, 'admin').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Links', 'Lab', 'Users']);
-    expect(navItemsFor(router, 'technician').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Links', 'Lab']);
-    expect(navItemsFor(router, 'viewer').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Captures', 'Links', 'Lab']);
+    expect(navItemsFor(router, 'admin').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab', 'Users', 'Outbox']);
+    expect(navItemsFor(router, 'technician').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab']);
+    expect(navItemsFor(router, 'viewer').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Captures', 'Compare', 'Links', 'Lab']);
   });
 });

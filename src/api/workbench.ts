@@ -1,0 +1,98 @@
+/**
+ * Typed calls for the comparison workbench and the CSV import (issue 12): several captures'
+ * stability curves in one request, the exports, and the import with upload and server progress.
+ */
+import { ApiError, http, toApiError, type RequestOptions } from './http';
+import type { StabilityKind, StabilityOut } from './captures';
+import type { CaptureImportResult, ImportProgress } from '../../shared/protocol/importCsv';
+
+export interface OverlayCurve {
+  captureId: number;
+  dut: { id: number; label: string; unit: string; kind: string; studyId: number } | null;
+  checkpoint: { id: number; name: string; order: number } | null;
+  readingCount: number;
+  startedAt: string;
+  stability: StabilityOut;
+}
+
+export interface Overlay {
+  kind: StabilityKind;
+  curves: OverlayCurve[];
+}
+
+/** Most captures one overlay may hold (the server's limit). */
+export const MAX_OVERLAY = 12;
+
+export function getOverlay(ids: number[], kind: StabilityKind, options?: RequestOptions): Promise<Overlay> {
+  return http.get<Overlay>(`/api/captures/stability?ids=${ids.join(',')}&kind=${kind}`, options);
+}
+
+export const captureCsvPath = (id: number) => `/api/captures/${id}/export.csv`;
+export const studyCsvPath = (id: number) => `/api/studies/${id}/captures.csv`;
+
+/** Saves a Blob under `filename` (browser only). */
+export function saveBlob(blob: Blob, filename: string): void {
+  const url = URL.createObjectURL(blob);
+  const a = document.createElement('a');
+  a.href = url;
+  a.download = filename;
+  document.body.appendChild(a);
+  a.click();
+  a.remove();
+  setTimeout(() => URL.revokeObjectURL(url), 1000);
+}
+
+/** Fetches a file the API serves (with the session token) and saves it. */
+export async function downloadFile(path: string, filename: string, token: string | null): Promise<void> {
+  const response = await fetch(path, { headers: token ? { Authorization: `Bearer ${token}` } : {} });
+  if (!response.ok) {
+    let body: unknown;
+    try {
+      body = await response.json();
+    } catch {
+      body = undefined;
+    }
+    throw toApiError(response.status, body);
+  }
+  saveBlob(await response.blob(), filename);
+}
+
+export function getImportProgress(key: string): Promise<ImportProgress> {
+  return http.get<ImportProgress>(`/api/captures/import/progress/${key}`);
+}
+
+/**
+ * Posts an import (fields first, then the file) with XMLHttpRequest, which reports upload
+ * progress (fetch does not). Resolves with `{ id, readings }`; rejects with an ApiError.
+ */
+export function postImport(
+  fields: Record<string, string | number | undefined>,
+  file: File,
+  token: string | null,
+  onUpload: (sent: number, total: number) => void,
+): { done: Promise<CaptureImportResult>; abort: () => void } {
+  const xhr = new XMLHttpRequest();
+  const form = new FormData();
+  for (const [k, v] of Object.entries(fields)) if (v !== undefined && v !== '') form.append(k, String(v));
+  form.append('file', file, file.name);
+  const done = new Promise<CaptureImportResult>((resolve, reject) => {
+    xhr.open('POST', '/api/captures/import');
+    if (token) xhr.setRequestHeader('Authorization', `Bearer ${token}`);
+    xhr.setRequestHeader('Accept', 'application/json');
+    xhr.upload.onprogress = (e) => onUpload(e.loaded, e.lengthComputable ? e.total : file.size);
+    xhr.onload = () => {
+      let body: unknown;
+      try {
+        body = JSON.parse(xhr.responseText);
+      } catch {
+        body = undefined;
+      }
+      if (xhr.status === 201) resolve(body as CaptureImportResult);
+      else reject(toApiError(xhr.status, body));
+    };
+    xhr.onerror = () => reject(new ApiError(0, 'network', 'Driftbench cannot reach its server. Check the connection and try again.'));
+    xhr.onabort = () => reject(new DOMException('aborted', 'AbortError'));
+    xhr.send(form);
+  });
+  return { done, abort: () => xhr.abort() };
+}

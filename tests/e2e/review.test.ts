@@ -1,0 +1,219 @@
+import path from 'node:path';
+import { execFileSync } from 'node:child_process';
+import { writeFileSync } from 'node:fs';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { Browser, Page } from 'playwright-core';
+import { startTestServer } from '../helpers/appServer.js';
+import { RESULTS, apiAs, launchChromium, openPage, type Api, type Session } from '../helpers/browser.js';
+import { gaussian } from '../helpers/random.js';
+import { DEMO_DOMAIN, DEMO_PASSWORD } from '../../server/db/seed.js';
+
+// Review in a real Chromium: the engineer submits the demo study, the lead returns it with a
+// comment, the engineer resubmits, the lead approves with the password. The report is printed to
+// PDF by Chromium before and after approval; pdftoppm turns the first page into an image and
+// pdftotext reads the title, the watermark and the page numbers back.
+const NOMINAL = 32_768;
+const TITLE = 'Aqueous ultrasonic wash — sensor-hub board rev C';
+
+let server: Awaited<ReturnType<typeof startTestServer>>;
+let browser: Browser;
+let lead: Session;
+let engineer: Session;
+let admin: Session;
+
+async function recordCapture(api: Api, dutId: number, checkpointId: number, offsetPpm: number, seed: number, nominal = NOMINAL): Promise<number> {
+  const capture = await api<{ id: number }>('POST', '/api/captures', { dutId, checkpointId, quantity: 'frequency', unit: 'Hz', gateTime: 1, referenceId: 1, ambientC: 23.2 });
+  const g = gaussian(seed);
+  const readings = Array.from({ length: 400 }, (_, seq) => ({ seq, t: seq, value: nominal * (1 + (offsetPpm + 0.1 * g()) * 1e-6) }));
+  await api('POST', `/api/captures/${capture.id}/readings`, { readings });
+  await api('POST', `/api/captures/${capture.id}/finish`);
+  return capture.id;
+}
+
+const openAs = (session: Session) => openPage(browser, { viewport: { width: 1360, height: 900 }, session });
+
+async function studyPage(session: Session): Promise<{ page: Page; errors: string[] }> {
+  const w = await openAs(session);
+  await w.page.goto(`${server.url}/studies/1`);
+  await w.page.waitForSelector('[data-section="review"] [data-testid="review-history"], [data-section="review"] .review__empty');
+  return w;
+}
+
+async function reviewStep(page: Page, action: string, fields: { text?: string; password?: string }) {
+  await page.click(`[data-section="review"] button[data-action="${action}"]`);
+  const dialog = page.locator('.el-dialog:visible');
+  await dialog.waitFor();
+  if (fields.password !== undefined) await dialog.locator('input[name="password"]').fill(fields.password);
+  if (fields.text !== undefined) await dialog.locator('textarea[name="text"]').fill(fields.text);
+  await dialog.locator('button[data-action="confirm-review"]').click();
+  await dialog.waitFor({ state: 'hidden' });
+}
+
+const statusTag = (page: Page) => page.locator('[data-section="review"] .review__state .el-tag').innerText();
+
+/** Prints the report page to PDF (A4), renders page 1 to PNG and returns the PDF's text. */
+async function printReport(session: Session, name: string, query = ''): Promise<{ text: string; pages: number; png: string }> {
+  const { page, errors } = await openAs(session);
+  await page.goto(`${server.url}/studies/1/report${query}`);
+  await page.waitForSelector('[data-testid="report"]');
+  await page.waitForSelector('.rplot__svg');
+  expect(await page.locator('nav[aria-label="Main"]').count()).toBe(0);
+  await page.screenshot({ path: path.join(RESULTS, `${name}-screen.png`), fullPage: false });
+  const pdf = await page.pdf({ format: 'A4', preferCSSPageSize: true, printBackground: true });
+  const file = path.join(RESULTS, `${name}.pdf`);
+  writeFileSync(file, pdf);
+  execFileSync('pdftoppm', ['-f', '1', '-l', '1', '-r', '60', '-png', '-singlefile', file, path.join(RESULTS, `${name}-page1`)]);
+  for (const p of [2, 3]) {
+    execFileSync('pdftoppm', ['-f', String(p), '-l', String(p), '-r', '60', '-png', '-singlefile', file, path.join(RESULTS, `${name}-page${p}`)]);
+  }
+  const text = execFileSync('pdftotext', ['-raw', file, '-']).toString('utf8');
+  const firstPage = execFileSync('pdftotext', ['-raw', '-f', '1', '-l', '1', file, '-']).toString('utf8');
+  const info = execFileSync('pdfinfo', [file]).toString('utf8');
+  const pages = Number(/Pages:\s+(\d+)/.exec(info)?.[1] ?? 0);
+  expect(errors).toEqual([]);
+  await page.context().close();
+  return { text: firstPage + '\n----\n' + text, pages, png: path.join(RESULTS, `${name}-page1.png`) };
+}
+
+describe('review and sign-off in the browser', () => {
+  beforeAll(async () => {
+    server = await startTestServer();
+    browser = await launchChromium();
+    const technician = await apiAs(server.url, 'technician');
+    lead = (await apiAs(server.url, 'lead')).session;
+    engineer = (await apiAs(server.url, 'engineer')).session;
+    admin = (await apiAs(server.url, 'admin')).session;
+    const study = await technician.call<{ checkpoints: Array<{ id: number; order: number }>; duts: Array<{ id: number; label: string }> }>('GET', '/api/studies/1');
+    const checkpoints = [...study.checkpoints].sort((a, b) => a.order - b.order);
+    const fork = study.duts.find((d) => d.label.startsWith('Y3'))!.id;
+    const crystal = study.duts.find((d) => d.label.startsWith('Y1'))!.id;
+    const offsets = [0, 0.1, 2.5];
+    for (let i = 0; i < 3; i++) await recordCapture(technician.call, fork, checkpoints[i].id, offsets[i], 41 + i);
+    await recordCapture(technician.call, crystal, checkpoints[0].id, 0, 51, 16_000_000);
+  });
+
+  afterAll(async () => {
+    await browser?.close();
+    await server?.stop();
+  });
+
+  it('lets the engineer submit the running study with a note', async () => {
+    const { page, errors } = await studyPage(engineer);
+    expect(await statusTag(page)).toBe('Running');
+    expect(await page.locator('[data-section="review"] button[data-action="approve"]').count()).toBe(0);
+    await reviewStep(page, 'submit', { text: 'Three checkpoints of Y3 measured; the over-exposure shows.' });
+    await expect.poll(() => statusTag(page)).toBe('In review');
+    // Locked: planning and capture controls are gone.
+    expect(await page.locator('button:has-text("Add checkpoint")').count()).toBe(0);
+    expect(await page.locator('button:has-text("Capture on the bench")').count()).toBe(0);
+    expect(await page.locator('[data-testid="drop-zone"]').count()).toBe(0);
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+
+  it('lets the lead return it with a comment, which the engineer then reads', async () => {
+    const { page, errors } = await studyPage(lead);
+    expect(await statusTag(page)).toBe('In review');
+    // The comment is required: an empty return is refused in the dialog.
+    await page.click('[data-section="review"] button[data-action="return"]');
+    const dialog = page.locator('.el-dialog:visible');
+    await dialog.locator('button[data-action="confirm-review"]').click();
+    await dialog.locator('text=Say what must change').waitFor();
+    await page.screenshot({ path: path.join(RESULTS, 'review-return-dialog.png') });
+    await dialog.locator('textarea[name="text"]').fill('Record the bake checkpoint for Y3 before sign-off.');
+    await dialog.locator('button[data-action="confirm-review"]').click();
+    await dialog.waitFor({ state: 'hidden' });
+    await expect.poll(() => statusTag(page)).toBe('Returned');
+    expect(errors).toEqual([]);
+    await page.context().close();
+
+    const e = await studyPage(engineer);
+    expect(await e.page.locator('[data-testid="return-comment"]').innerText()).toContain('Record the bake checkpoint for Y3 before sign-off.');
+    expect(await e.page.locator('button:has-text("Add checkpoint")').count()).toBe(1);
+    await e.page.locator('[data-section="review"]').screenshot({ path: path.join(RESULTS, 'review-returned.png') });
+    await e.page.context().close();
+  });
+
+  it('prints the returned study with a "not approved" watermark on every page and page numbers', async () => {
+    const out = await printReport(engineer, 'report-returned');
+    expect(out.text).toContain(TITLE);
+    expect(out.text).toMatch(/NOT\s+APPROVED/);
+    expect(out.pages).toBeGreaterThan(1);
+    expect(out.text).toContain(`Page 1 of ${out.pages}`);
+    // The watermark is on every page (first page counted twice: once alone, once in the whole text).
+    expect((out.text.match(/NOT\s+APPROVED/g) ?? []).length).toBeGreaterThanOrEqual(out.pages + 1);
+  });
+
+  it('lets the engineer resubmit and the lead approve with the password', async () => {
+    const e = await studyPage(engineer);
+    await reviewStep(e.page, 'submit', { text: 'Bake is scheduled for next week; approve the wash result now.' });
+    await expect.poll(() => statusTag(e.page)).toBe('In review');
+    await e.page.context().close();
+
+    const w = await openPage(browser, { viewport: { width: 1360, height: 900 }, session: lead, ignoreErrors: [/status of 403/] });
+    const { page, errors } = w;
+    await page.goto(`${server.url}/studies/1`);
+    await page.waitForSelector('[data-section="review"] [data-testid="review-history"]');
+    // A wrong password is refused and says so.
+    await page.click('[data-section="review"] button[data-action="approve"]');
+    const dialog = page.locator('.el-dialog:visible');
+    await dialog.locator('input[name="password"]').fill('not-my-password');
+    await dialog.locator('button[data-action="confirm-review"]').click();
+    await dialog.locator('text=The password does not match').waitFor();
+    await dialog.locator('input[name="password"]').fill(DEMO_PASSWORD);
+    await dialog.locator('textarea[name="text"]').fill('Wash qualified; over-exposure limit noted.');
+    await page.screenshot({ path: path.join(RESULTS, 'review-approve-dialog.png') });
+    await dialog.locator('button[data-action="confirm-review"]').click();
+    await dialog.waitFor({ state: 'hidden' });
+    await expect.poll(() => statusTag(page)).toBe('Approved');
+
+    const history = page.locator('[data-testid="review-history"] li');
+    await expect.poll(() => history.count()).toBe(4);
+    const steps = await history.evaluateAll((els) => els.map((el) => el.getAttribute('data-action')));
+    expect(steps).toEqual(['approve', 'submit', 'return', 'submit']);
+    expect(await history.nth(0).innerText()).toContain('Lena Lead');
+    expect(await history.nth(2).innerText()).toContain('Record the bake checkpoint');
+    expect(await page.locator('[data-section="review"] button[data-action="reopen"]').isVisible()).toBe(true);
+    await page.locator('[data-testid="audit-trail"]').waitFor();
+    expect(await page.locator('[data-testid="audit-trail"]').innerText()).toContain('study.approve');
+    await page.screenshot({ path: path.join(RESULTS, 'review-approved.png'), fullPage: true });
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+
+  it('prints the approved report with the title, the seals, the history and no watermark', async () => {
+    const out = await printReport(lead, 'report-approved');
+    expect(out.text).toContain(TITLE);
+    expect(out.text).not.toMatch(/NOT\s+APPROVED/);
+    expect(out.text).toContain('Approved for revision 1 by');
+    expect(out.text).toContain('Decision rule');
+    expect(out.text).toContain('Seals of the captures used');
+    const captures = await apiAs(server.url, 'viewer').then((v) => v.call<{ captures: Array<{ id: number }> }>('GET', '/api/captures?studyId=1'));
+    const seal = await apiAs(server.url, 'viewer').then((v) => v.call<{ sha256: string }>('GET', `/api/captures/${captures.captures[0].id}/seal`));
+    expect(out.text.replace(/\s+/g, '')).toContain(seal.sha256);
+    expect(out.text).toContain(`Page ${out.pages} of ${out.pages}`);
+    // The approved revision is kept as it was approved.
+    const again = await printReport(lead, 'report-revision-1', '?revision=1');
+    expect(again.text).toContain('Approved for revision 1 by');
+  });
+
+  it('shows the admin the e-mails on the Outbox page', async () => {
+    // The worker delivers through the local mail service in the server process.
+    await server.server.mailWorker!.deliverDue();
+    const { page, errors } = await openAs(admin);
+    await page.goto(`${server.url}/outbox`);
+    await page.waitForSelector('[data-testid="outbox"]');
+    const text = await page.locator('[data-testid="outbox"]').innerText();
+    expect(text).toContain(`lead@${DEMO_DOMAIN}`);
+    expect(text).toContain('was approved');
+    expect(text).toContain('was returned');
+    await page.screenshot({ path: path.join(RESULTS, 'outbox.png'), fullPage: true });
+    await page.click('text=Received by the local mail service');
+    await page.waitForSelector('[data-testid="received"]');
+    expect(await page.locator('[data-testid="received"]').innerText()).toContain('Record the bake checkpoint for Y3 before sign-off.');
+    await page.click('button[data-action="verify"]');
+    await page.locator('text=Intact:').waitFor();
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+});
