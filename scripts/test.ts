@@ -31,6 +31,23 @@ function ensureChromium(): void {
   throw new Error(`The browser tests need Chromium at ${CHROMIUM}. Install it with: sudo apt-get install -y chromium`);
 }
 
+/** The report test prints to PDF and reads it back with poppler's pdftoppm/pdftotext/pdfinfo. */
+function ensurePoppler(): void {
+  const have = ['pdftoppm', 'pdftotext', 'pdfinfo'].every((tool) => spawnSync(tool, ['-v'], { stdio: 'ignore' }).error === undefined);
+  if (have) return;
+  const root = process.getuid?.() === 0;
+  if (root && existsSync('/etc/debian_version')) {
+    console.log('pdftoppm not found: installing Debian\'s "poppler-utils" package with apt…');
+    const env = { ...process.env, DEBIAN_FRONTEND: 'noninteractive' };
+    for (const args of [['update', '-qq'], ['install', '-y', '-qq', 'poppler-utils']]) {
+      const r = spawnSync('apt-get', args, { env, stdio: 'inherit' });
+      if (r.status !== 0) throw new Error(`apt-get ${args.join(' ')} failed`);
+    }
+    return;
+  }
+  throw new Error('The report test needs pdftoppm and pdftotext. Install them with: sudo apt-get install -y poppler-utils');
+}
+
 interface Counts {
   passed: number;
   failed: number;
@@ -99,6 +116,7 @@ try {
   const runE2e = filters.length === 0 || filters.some((f) => f.includes('e2e'));
   if (runE2e) {
     ensureChromium();
+    ensurePoppler();
     buildClientIfStale(PROJECT_ROOT);
     e2e = vitest(['e2e'], path.join(resultsDir, 'vitest-e2e.json'), filters, env);
   }

@@ -2,6 +2,7 @@
  * Typed calls for every capture route (ARCHITECTURE.md, API contract): create, list, read, patch,
  * readings in and out, finish, analysis, comparison and the CSV export.
  */
+import type { ConditionMismatch } from '../../shared/analysis/conditions';
 import { ApiError, http, toApiError, type RequestOptions } from './http';
 import { allPages } from './paging';
 import type { CaptureCreate, CapturePatch, IngestResult, ReadingIn, StabilityKind } from '../../shared/protocol/captures';
@@ -138,6 +139,8 @@ export interface Capture {
   readingCount: number;
   highestSeq: number;
   summary: CaptureSummary | null;
+  /** Recorded from a simulator (set when the capture was created). */
+  simulated?: boolean;
 }
 
 export interface CaptureDutRef {
@@ -225,6 +228,8 @@ export interface Comparison {
   verdict: Verdict;
   significant: boolean;
   referenceCorrelated?: boolean;
+  /** Recording conditions that differ between the two captures (reference, gate, instrument …). */
+  conditions?: ConditionMismatch[];
   notes: string[];
   before: { id: number; mean: number; checkpointId: number; ambientC: number | null };
   after: { id: number; mean: number; checkpointId: number; ambientC: number | null };

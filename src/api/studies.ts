@@ -18,6 +18,7 @@ export interface StudyCreate {
   title: string;
   process?: string;
   description?: string;
+  allowSimulated?: boolean;
 }
 
 export async function listStudies(): Promise<StudySummary[]> {

@@ -3,6 +3,7 @@
  * matrix of captures and verdicts, the planning calls, and the small pure helpers the page and
  * its tests share (exposure summaries, cell figures, counts, form messages).
  */
+import type { ConditionMismatch } from '../../shared/analysis/conditions';
 import type { z } from 'zod';
 import { http } from './http';
 import type { StudyStatus } from './studies';
@@ -38,6 +39,8 @@ export interface StudyPlan {
   process: string | null;
   description: string | null;
   status: StudyStatus;
+  /** Whether simulated captures may be recorded in this study. */
+  allowSimulated?: boolean;
   checkpoints: PlanCheckpoint[];
   duts: PlanDut[];
 }
@@ -48,6 +51,8 @@ export interface CellCapture {
   ambientC: number | null;
   mean: number | null;
   offsetPpm: number | null;
+  /** Recorded from a simulator. */
+  simulated?: boolean;
 }
 
 export interface CellComparison {
@@ -55,11 +60,21 @@ export interface CellComparison {
   delta: number;
   deltaPpm: number | null;
   expandedUncertainty: number;
-  limit: number;
+  /** Coverage factor from ν_eff and the sentence saying what it covers (absent before issue 8). */
+  k?: number;
+  effectiveDof?: number | null;
+  coverage?: string;
+  limit: number | null;
+  limitLow?: number | null;
+  limitHigh?: number | null;
   limitUnit: string;
   limitInUnit: number | null;
+  limitLowInUnit?: number | null;
+  limitHighInUnit?: number | null;
   verdict: Verdict;
   significant: boolean;
+  /** Recording conditions that differ from the baseline's. */
+  conditions?: ConditionMismatch[];
 }
 
 export interface MatrixCell {
@@ -80,6 +95,11 @@ export function getStudyPlan(id: number): Promise<StudyPlan> {
 
 export function getStudyMatrix(id: number): Promise<StudyMatrix> {
   return http.get(`/api/studies/${id}/matrix`);
+}
+
+/** Changes a study's planner settings (PATCH /api/studies/:id/settings). */
+export function updateStudySettings(studyId: number, body: { allowSimulated?: boolean }): Promise<{ allowSimulated: boolean }> {
+  return http.patch(`/api/studies/${studyId}/settings`, body);
 }
 
 export function addCheckpoint(studyId: number, body: CheckpointCreate): Promise<PlanCheckpoint> {
