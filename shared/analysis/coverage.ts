@@ -38,13 +38,16 @@ export function coverageFactor(effectiveDof: number, probability = 0.95, floor =
   const upper = 1 - (1 - probability) / 2;
   const finite = Number.isFinite(effectiveDof);
   const dofUsed = finite ? Math.max(1, Math.floor(effectiveDof)) : null;
-  const tQuantile = dofUsed === null ? jStat.normal.inv(upper, 0, 1) : jStat.studentt.inv(upper, dofUsed);
+  // jstat's t quantile loses accuracy past ~10⁶ degrees of freedom (0 at 10²⁰); beyond 10⁵ the t
+  // and normal quantiles agree to 1e-5, so the normal one is used there.
+  const tQuantile = dofUsed === null || dofUsed > 1e5 ? jStat.normal.inv(upper, 0, 1) : jStat.studentt.inv(upper, dofUsed);
   const floorApplied = tQuantile < floor;
   const k = floorApplied ? floor : tQuantile;
   const pct = `${Number((probability * 100).toPrecision(3))} %`;
-  const nu = finite ? String(Number(effectiveDof.toPrecision(3))) : '∞';
+  // Past a thousand the t quantile no longer moves: say "> 1000" rather than print 20 digits.
+  const nu = !finite ? '= ∞' : effectiveDof > 1000 ? '> 1000' : `= ${Number(effectiveDof.toPrecision(3))}`;
   const text = floorApplied
-    ? `k = ${k.toFixed(2)} with ν_eff = ${nu} (t gives ${tQuantile.toFixed(2)}; Driftbench's floor is ${floor.toFixed(2)}), at least ${pct} coverage`
-    : `k = ${k.toFixed(2)} from ν_eff = ${nu}, about ${pct} coverage`;
+    ? `k = ${k.toFixed(2)} with ν_eff ${nu} (t gives ${tQuantile.toFixed(2)}; Driftbench's floor is ${floor.toFixed(2)}), at least ${pct} coverage`
+    : `k = ${k.toFixed(2)} from ν_eff ${nu}, about ${pct} coverage`;
   return { k, effectiveDof, dofUsed, probability, tQuantile, floorApplied, text };
 }

@@ -54,6 +54,9 @@ export interface UncertaintyComponent {
   dof: number | null;
   type: 'A' | 'B';
   note?: string;
+  /** Where the line's model comes from (document and section). */
+  source?: string;
+  key?: string;
 }
 
 export interface UncertaintyOut {
@@ -62,8 +65,10 @@ export interface UncertaintyOut {
   combined: number;
   effectiveDof: number | null;
   k: number;
+  /** "k = 2.31 from ν_eff = 8, about 95 % coverage" (absent in summaries stored before issue 8). */
+  coverage?: string;
   expanded: number;
-  relativeExpanded: number;
+  relativeExpanded: number | null;
   notes: string[];
 }
 
@@ -74,9 +79,18 @@ export interface CaptureCounts {
   outliers: number;
 }
 
+export type DriftModel = 'none' | 'linear' | 'quadratic';
+
+/** The drift found in a capture and what was removed (the server's summary.drift). */
 export interface DriftOut {
-  slope: number;
-  intercept: number;
+  model?: DriftModel;
+  removed?: boolean;
+  ratePerDay?: number;
+  rateStderrPerDay?: number;
+  /** 'ppb/day' for frequency, '<unit>/day' otherwise. */
+  rateUnit?: string;
+  rateInUnit?: number;
+  rateStderrInUnit?: number;
   [key: string]: unknown;
 }
 
@@ -150,13 +164,16 @@ export interface CaptureDutRef {
   kind: string;
   nominal: number;
   unit: string;
-  limit: number;
+  limit: number | null;
+  limitLow?: number | null;
+  limitHigh?: number | null;
   limitUnit: string;
   position: string | null;
   serial: string | null;
 }
 
 /** One capture with the names its page needs (study › checkpoint › DUT). */
+  tuningFork?: { T0: number; uT0: number; B: number; uB: number; defaults: boolean };
 export interface CaptureDetail extends Capture {
   study: { id: number; title: string; status: string } | null;
   dut: CaptureDutRef | null;
@@ -204,6 +221,8 @@ export interface AnalysisQuery {
 
 export interface CaptureAnalysis {
   stats: Summary | null;
+  /** Drift removed before stability and the budget (server default: linear for frequency). */
+  drift?: DriftModel;
   correction: CorrectionOut;
   stability: StabilityOut;
   uncertainty: UncertaintyOut | null;
@@ -214,6 +233,9 @@ export interface CaptureAnalysis {
   counts: CaptureCounts;
   notes: string[];
 }
+  /** The drift model this answer used. */
+  driftModel?: DriftModel;
+  counter?: { kind: string; resolution: number; assumed: boolean };
 
 export type Verdict = 'within' | 'exceeds' | 'inconclusive';
 
@@ -222,9 +244,20 @@ export interface Comparison {
   deltaPpm: number | null;
   expandedUncertainty: number;
   k: number;
-  limit: number;
+  /** ν_eff of Δ over both sides' lines and the shared terms. */
+  effectiveDof?: number | null;
+  coverage?: string;
+  /** Δ's own budget: both sides' lines and the shared inputs (T0, B, reference ageing …). */
+  budget?: UncertaintyOut;
+  /** Symmetric ±limit, or null when the limit is asymmetric or one-sided. */
+  limit: number | null;
+  /** Bounds in the limit unit (null: open side). */
+  limitLow?: number | null;
+  limitHigh?: number | null;
   limitUnit: string;
-  limitInUnit?: number;
+  limitInUnit?: number | null;
+  limitLowInUnit?: number | null;
+  limitHighInUnit?: number | null;
   verdict: Verdict;
   significant: boolean;
   referenceCorrelated?: boolean;

@@ -18,6 +18,8 @@ export interface InstrumentFields {
   serial?: string | null;
   calibrationDue?: string | null;
   notes?: string | null;
+  counterType?: 'gated' | 'reciprocal' | 'time-interval' | null;
+  counterResolution?: number | null;
 }
 
 export async function fetchInstrument(id: number): Promise<InstrumentDetail> {

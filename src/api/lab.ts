@@ -1,5 +1,6 @@
 import { http } from './http';
 import { allPages } from './paging';
+import { COUNTER_TYPES, REFERENCE_KINDS, type ReferenceCreate, type ReferencePatch } from '../../shared/protocol/uncertainty';
 
 export type InstrumentKind = 'counter' | 'spi-bridge' | 'reference' | 'other';
 
@@ -24,16 +25,59 @@ export interface Instrument {
   serial: string | null;
   calibrationDue: string | null;
   notes: string | null;
+  /** Counters: how they measure and their resolution (counts when gated, seconds otherwise). */
+  counterType?: CounterType | null;
+  counterResolution?: number | null;
+}
+
+export type CounterType = (typeof COUNTER_TYPES)[number];
+export type ReferenceKind = (typeof REFERENCE_KINDS)[number];
+export { COUNTER_TYPES, REFERENCE_KINDS };
+
+export const COUNTER_TYPE_LABELS: Record<CounterType, string> = {
+  gated: 'Gated (±1 count)',
+  reciprocal: 'Reciprocal',
+  'time-interval': 'Time-interval',
+};
+
+export const REFERENCE_KIND_LABELS: Record<ReferenceKind, string> = {
+  'gnss-disciplined': 'GNSS-disciplined',
+  rubidium: 'Rubidium',
+  ocxo: 'OCXO',
+  'internal-timebase': 'Internal timebase',
+  other: 'Other',
+};
+
+/** "reciprocal, 100 ps" / "gated, ±1 count" / "not recorded". */
+export function counterText(i: Pick<Instrument, 'counterType' | 'counterResolution'>): string {
+  if (!i.counterType) return 'not recorded';
+  if (i.counterType === 'gated') return `gated, ±${i.counterResolution ?? 1} count`;
+  const r = i.counterResolution;
+  return r ? `${i.counterType}, ${Number((r * 1e12).toPrecision(3))} ps` : i.counterType;
 }
 
 export interface Reference {
   id: string | number;
   name: string;
+  kind?: ReferenceKind | null;
   nominalHz: number;
   fractionalOffset: number | null;
   standardUncertainty: number | null;
   verifiedBy: string | null;
   verifiedAt: string | null;
+  /** Ageing, fractional per day, and its standard uncertainty (null: not recorded). */
+  ageingPerDay?: number | null;
+  ageingUPerDay?: number | null;
+}
+
+/** POST /api/references (admin, lead; audited). */
+export async function createReference(body: ReferenceCreate): Promise<Reference> {
+  return (await http.post<{ reference: Reference }>('/api/references', body)).reference;
+}
+
+/** PATCH /api/references/:id (admin, lead; audited). */
+export async function updateReference(id: number, patch: ReferencePatch): Promise<Reference> {
+  return (await http.patch<{ reference: Reference }>(`/api/references/${id}`, patch)).reference;
 }
 
 export async function listInstruments(): Promise<Instrument[]> {

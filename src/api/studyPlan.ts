@@ -8,6 +8,7 @@ import type { z } from 'zod';
 import { http } from './http';
 import type { StudyStatus } from './studies';
 import type { CheckpointCreate, DutCreate, Exposure } from '../../shared/protocol/api';
+import type { DutPatch } from '../../shared/protocol/uncertainty';
 import { groupDigits } from '../utils/format';
 import { formatSigned } from '../utils/si';
 
@@ -27,10 +28,15 @@ export interface PlanDut {
   kind: string;
   nominal: number;
   unit: string;
-  limit: number;
+  /** ±limit, or null when the limit is asymmetric or one-sided (then limitLow/limitHigh). */
+  limit: number | null;
+  limitLow?: number | null;
+  limitHigh?: number | null;
   limitUnit: string;
   position: string | null;
   serial: string | null;
+  /** Tuning forks: the parabola in force (the DUT's own or Driftbench's defaults). */
+  tuningFork?: { T0: number; uT0: number; B: number; uB: number; defaults: boolean };
 }
 
 export interface StudyPlan {
@@ -110,6 +116,11 @@ export function addDut(studyId: number, body: DutCreate): Promise<PlanDut> {
   return http.post(`/api/studies/${studyId}/duts`, body);
 }
 
+/** PATCH /api/duts/:id: the limit (±, asymmetric or one-sided), tuning-fork parameters, label, position, serial. */
+export async function updateDut(id: number, patch: DutPatch): Promise<PlanDut> {
+  return (await http.patch<{ dut: PlanDut }>(`/api/duts/${id}`, patch)).dut;
+}
+
 /** Checkpoints in their planned order (ties by id, as the server orders them). */
 export function inOrder<T extends { order: number; id: number }>(checkpoints: readonly T[]): T[] {
   return [...checkpoints].sort((a, b) => a.order - b.order || a.id - b.id);
@@ -163,8 +174,14 @@ export function kindLabel(kind: string): string {
 }
 
 /** "±1 ppm", "±20 mg". */
-export function limitText(dut: Pick<PlanDut, 'limit' | 'limitUnit'>): string {
-  return `±${plain(dut.limit)} ${dut.limitUnit}`;
+export function limitText(dut: Pick<PlanDut, 'limit' | 'limitUnit' | 'limitLow' | 'limitHigh'>): string {
+  if (dut.limit != null) return `±${plain(dut.limit)} ${dut.limitUnit}`;
+  const lo = dut.limitLow ?? null;
+  const hi = dut.limitHigh ?? null;
+  if (lo === null && hi === null) return '—';
+  if (lo === null) return `≤ +${plain(hi!)} ${dut.limitUnit}`;
+  if (hi === null) return `≥ ${plain(lo)} ${dut.limitUnit}`;
+  return `${plain(lo)} / +${plain(hi)} ${dut.limitUnit}`;
 }
 
 /** "32 768 Hz", "16 000 000 Hz". */
@@ -182,8 +199,14 @@ export interface CellFigures {
   /** Δ, U and L in one display unit, for the glyph. */
   delta: number;
   expanded: number;
-  limit: number;
+  /** Symmetric half-width, or null when low/high carry an asymmetric or one-sided limit. */
+  limit: number | null;
+  low: number | null;
+  high: number | null;
   unit: string;
+  /** "k = 2.31 from ν_eff = 8, about 95 % coverage" when the server gave it. */
+  coverage: string | null;
+  k: number;
   /** "+2.503 ppm" — signed. */
   deltaText: string;
   /** "±0.021 ppm". */
@@ -198,18 +221,26 @@ export function cellFigures(dut: PlanDut, c: CellComparison): CellFigures {
   const relative = c.limitUnit === 'ppm' || c.limitUnit === 'ppb';
   let delta: number;
   let expanded: number;
-  let limit: number;
+  let limit: number | null;
+  let low: number | null;
+  let high: number | null;
   let unit: string;
+  const givenLow = c.limitLow !== undefined ? c.limitLow : c.limit === null ? null : -c.limit;
+  const givenHigh = c.limitHigh !== undefined ? c.limitHigh : c.limit;
   if (relative && dut.nominal > 0) {
     const scale = c.limitUnit === 'ppm' ? 1e6 : 1e9;
     delta = c.deltaPpm !== null && c.limitUnit === 'ppm' ? c.deltaPpm : (c.delta / dut.nominal) * scale;
     expanded = (c.expandedUncertainty / dut.nominal) * scale;
     limit = c.limit;
+    low = givenLow ?? null;
+    high = givenHigh ?? null;
     unit = c.limitUnit;
   } else {
     delta = c.delta;
     expanded = c.expandedUncertainty;
     limit = c.limitInUnit ?? c.limit;
+    low = c.limitLowInUnit !== undefined ? c.limitLowInUnit : limit === null ? null : -limit;
+    high = c.limitHighInUnit !== undefined ? c.limitHighInUnit : limit;
     unit = dut.unit;
   }
   const d = decimalsFor(expanded);
@@ -217,7 +248,11 @@ export function cellFigures(dut: PlanDut, c: CellComparison): CellFigures {
     delta,
     expanded,
     limit,
+    low,
+    high,
     unit,
+    coverage: c.coverage ?? null,
+    k: c.k ?? 2,
     deltaText: `${formatSigned(delta, d)} ${unit}`,
     expandedText: `±${Math.abs(expanded).toFixed(d)} ${unit}`,
   };

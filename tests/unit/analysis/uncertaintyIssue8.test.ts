@@ -31,6 +31,8 @@ describe('coverage factor from ν_eff (JCGM 100:2008 G.4–G.6)', () => {
     [16.75, 0.99, 2.920782], // GUM H.1: ν_eff 16.7 → 16, t99(16) = 2.92 (REFERENCES)
     [100, 0.95, 2], // t = 1.984 (scipy) is below Driftbench's floor of 2.00
     [Infinity, 0.95, 2], // normal 1.960 (scipy), floor 2.00
+    [1e20, 0.99, 2.575829], // huge but finite ν_eff: the normal quantile (scipy norm.ppf(0.995))
+    [1e20, 0.95, 2], // 1.960, floor 2.00
   ])('ν_eff = %f at p = %f gives k = %f', (nu, p, k) => {
     expect(coverageFactor(nu, p).k).toBeCloseTo(k, 5);
   });
