@@ -1,43 +1,56 @@
 /**
- * Driftbench's simulated 3-axis accelerometer behind the SPI bridge (register map in
+ * Driftbench's simulated 3-axis accelerometer behind the SPI bridge, register map DBX-3 (in
  * simulators/README.md). Each chip-select is one `transfer(mosi) → miso` of equal length.
  *
- * Address byte: bit 7 = read (1) / write (0), bit 6 = auto-increment, bits 5–0 = register.
- * Data: X, Y, Z as 16-bit two's complement, little-endian (low byte at the lower address),
- * latched at chip-select so one burst read returns one consistent sample.
+ * Command byte: bits 7–2 = register (0–63), bit 1 = direction (1 read, 0 write), bit 0 = stream
+ * (1: the register advances after every data byte). During the command byte MISO carries the
+ * FLAGS register, so every exchange reports whether a fresh sample was latched.
+ * Data: X, Y, Z as 16-bit two's complement, big-endian (bits 15–8 at the lower address, the order
+ * they leave the wire), latched at chip-select so one streamed read returns one consistent sample.
  * Sensitivity: 16000 digits/g at ±2 g (0.0625 mg/digit), 8000 at ±4 g, 4000 at ±8 g.
  */
 import { createRng, subSeed, type Rng } from './noise';
 import { type Clock, realClock } from './clock';
 import { STANDARD_GRAVITY } from '../shared/protocol/parse';
 
+/** DBX-3 registers: identity, set-up, and the sample as three big-endian words (X1 = bits 15–8 of X). */
 export const REG = {
-  IDENT: 0x00,
-  REVISION: 0x01,
-  CTRL: 0x10,
-  STATUS: 0x11,
-  SCRATCH: 0x12,
-  OUT_X_L: 0x20,
-  OUT_X_H: 0x21,
-  OUT_Y_L: 0x22,
-  OUT_Y_H: 0x23,
-  OUT_Z_L: 0x24,
-  OUT_Z_H: 0x25,
+  PART: 0x00,
+  REV: 0x01,
+  MODE: 0x04,
+  FLAGS: 0x05,
+  MEMO: 0x06,
+  X1: 0x08,
+  X0: 0x09,
+  Y1: 0x0a,
+  Y0: 0x0b,
+  Z1: 0x0c,
+  Z0: 0x0d,
 } as const;
 
-export const IDENT_VALUE = 0x5d;
-export const REVISION_VALUE = 0x12;
-export const ADDR_READ = 0x80;
-export const ADDR_AUTOINC = 0x40;
-export const ADDR_MASK = 0x3f;
-/** CTRL bits: EN (bit 0), RANGE (bits 2–1: 0 = ±2 g, 1 = ±4 g, 2 = ±8 g), SOFT_RESET (bit 7). */
-export const CTRL_EN = 0x01;
-export const CTRL_RANGE_SHIFT = 1;
-export const CTRL_SOFT_RESET = 0x80;
+export const PART_VALUE = 0xdb;
+export const REV_VALUE = 0x03;
+/** Command byte fields. */
+export const CMD_READ = 0x02;
+export const CMD_STREAM = 0x01;
+export const CMD_REGISTER_SHIFT = 2;
+export const REGISTER_MASK = 0x3f;
+/** MODE bits: RUN (bit 0), SPAN (bits 3–2: 0 = ±2 g, 1 = ±4 g, 2 = ±8 g), RESTART (bit 7). */
+export const MODE_RUN = 0x01;
+export const MODE_SPAN_SHIFT = 2;
+export const MODE_RESTART = 0x80;
+/** FLAGS bits: FRESH (a sample was latched at this chip-select), CLIPPED (an axis hit full scale). */
+export const FLAG_FRESH = 0x01;
+export const FLAG_CLIPPED = 0x02;
 
-/** Full-scale range (g) by the RANGE field; 3 is reserved and behaves as ±8 g. */
+/** The command byte for a register access. */
+export function command(register: number, read: boolean, stream: boolean): number {
+  return ((register & REGISTER_MASK) << CMD_REGISTER_SHIFT) | (read ? CMD_READ : 0) | (stream ? CMD_STREAM : 0);
+}
+
+/** Full-scale range (g) by the SPAN field; 3 is reserved and behaves as ±8 g. */
 export const RANGE_G = [2, 4, 8, 8] as const;
-/** Digits per g for each RANGE value. */
+/** Digits per g for each SPAN value. */
 export const DIGITS_PER_G = [16000, 8000, 4000, 4000] as const;
 
 export type Axis = 'x' | 'y' | 'z';
@@ -95,8 +108,8 @@ export class SimAccelerometer {
 
   private reset(): void {
     this.regs.fill(0);
-    this.regs[REG.IDENT] = IDENT_VALUE;
-    this.regs[REG.REVISION] = REVISION_VALUE;
+    this.regs[REG.PART] = PART_VALUE;
+    this.regs[REG.REV] = REV_VALUE;
   }
 
   simNow(): number {
@@ -113,16 +126,16 @@ export class SimAccelerometer {
     return { x: axis('x'), y: axis('y'), z: axis('z') };
   }
 
-  /** Latches one sample into OUT_X..OUT_Z (as chip-select does). */
+  /** Latches one sample into X1…Z0 (as chip-select does). */
   private latch(): void {
-    const ctrl = this.regs[REG.CTRL];
-    if (!(ctrl & CTRL_EN)) {
-      this.regs.fill(0, REG.OUT_X_L, REG.OUT_Z_H + 1);
-      this.regs[REG.STATUS] = 0;
+    const mode = this.regs[REG.MODE];
+    if (!(mode & MODE_RUN)) {
+      this.regs.fill(0, REG.X1, REG.Z0 + 1);
+      this.regs[REG.FLAGS] = 0;
       return;
     }
-    const range = (ctrl >> CTRL_RANGE_SHIFT) & 0x03;
-    const perG = DIGITS_PER_G[range];
+    const span = (mode >> MODE_SPAN_SHIFT) & 0x03;
+    const perG = DIGITS_PER_G[span];
     const e = this.expectedG();
     let clipped = false;
     (['x', 'y', 'z'] as const).forEach((a, i) => {
@@ -133,17 +146,17 @@ export class SimAccelerometer {
         d = Math.max(-32768, Math.min(32767, d));
       }
       const u = d & 0xffff;
-      this.regs[REG.OUT_X_L + 2 * i] = u & 0xff;
-      this.regs[REG.OUT_X_L + 2 * i + 1] = u >> 8;
+      this.regs[REG.X1 + 2 * i] = u >> 8;
+      this.regs[REG.X1 + 2 * i + 1] = u & 0xff;
     });
-    this.regs[REG.STATUS] = 0x01 | (clipped ? 0x02 : 0);
+    this.regs[REG.FLAGS] = FLAG_FRESH | (clipped ? FLAG_CLIPPED : 0);
   }
 
-  private writeReg(addr: number, value: number): void {
-    if (addr === REG.CTRL) {
-      if (value & CTRL_SOFT_RESET) this.reset();
-      else this.regs[REG.CTRL] = value & 0x07;
-    } else if (addr === REG.SCRATCH) this.regs[REG.SCRATCH] = value;
+  private writeReg(register: number, value: number): void {
+    if (register === REG.MODE) {
+      if (value & MODE_RESTART) this.reset();
+      else this.regs[REG.MODE] = value & (MODE_RUN | (0x03 << MODE_SPAN_SHIFT));
+    } else if (register === REG.MEMO) this.regs[REG.MEMO] = value;
     // Every other register is read-only: writes are ignored.
   }
 
@@ -152,17 +165,17 @@ export class SimAccelerometer {
     const miso = new Uint8Array(mosi.length);
     if (mosi.length === 0) return miso;
     this.latch();
-    miso[0] = 0xff; // MISO floats high (pulled up) during the address byte
-    const read = (mosi[0] & ADDR_READ) !== 0;
-    const inc = (mosi[0] & ADDR_AUTOINC) !== 0;
-    let addr = mosi[0] & ADDR_MASK;
+    miso[0] = this.regs[REG.FLAGS]; // the command byte's slot reports FLAGS
+    const read = (mosi[0] & CMD_READ) !== 0;
+    const stream = (mosi[0] & CMD_STREAM) !== 0;
+    let register = (mosi[0] >> CMD_REGISTER_SHIFT) & REGISTER_MASK;
     for (let i = 1; i < mosi.length; i++) {
-      if (read) miso[i] = this.regs[addr];
+      if (read) miso[i] = this.regs[register];
       else {
-        miso[i] = 0xff;
-        this.writeReg(addr, mosi[i]);
+        miso[i] = 0x00;
+        this.writeReg(register, mosi[i]);
       }
-      if (inc) addr = (addr + 1) & ADDR_MASK;
+      if (stream) register = (register + 1) & REGISTER_MASK;
     }
     return miso;
   }

@@ -149,9 +149,9 @@ export const LINK_PRESETS: readonly LinkPreset[] = [
       terminator: 'auto',
       writeTerminator: 'LF',
       mode: 'query',
-      // Driftbench's simulated accelerometer: burst-read Z (0x24, read + auto-increment bits).
-      queryCommand: 'E4 00 00',
-      // Enable measurement at ±2 g (CTRL 0x10 ← 0x01).
+      // Driftbench's simulated accelerometer (DBX-3): stream-read Z1, Z0 (register 0x0C · 4 + read 2 + stream 1).
+      queryCommand: '33 00 00',
+      // Start measuring at ±2 g (MODE, register 0x04, command 0x10 ← RUN).
       initCommands: ['10 01'],
       intervalMs: 100,
       timeoutMs: 1000,
@@ -159,7 +159,7 @@ export const LINK_PRESETS: readonly LinkPreset[] = [
       parseRule: 'hex-spi',
       quantity: 'acceleration',
       unit: 'mg',
-      hexSpi: { offset: 1, bigEndian: false, scale: 0.0625 },
+      hexSpi: { offset: 1, bigEndian: true, scale: 0.0625 },
     },
   },
 ];

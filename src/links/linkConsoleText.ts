@@ -2,7 +2,7 @@
  * Pure helpers of the link test page: raw byte rendering, line splitting, bounded buffers, SPI
  * transfer decoding for the simulated accelerometer, value formatting and simulator targets.
  */
-import { decodeHexLine } from '../../shared/protocol/hex';
+import { decodeHexLine, readInt16 } from '../../shared/protocol/hex';
 import type { LinkProfile } from '../../shared/protocol/linkProfile';
 
 /** One raw line as shown: direction, seconds since connect, hex and printable text. */
@@ -95,70 +95,18 @@ export function createBoundedBuffer<T>(capacity: number) {
   };
 }
 
-/** Registers of Driftbench's simulated accelerometer (simulators/README.md). */
-export const ACCEL_REGISTERS: Record<number, string> = {
-  0x00: 'IDENT',
-  0x01: 'REVISION',
-  0x10: 'CTRL',
-  0x11: 'STATUS',
-  0x12: 'SCRATCH',
-  0x20: 'OUT_X_L',
-  0x21: 'OUT_X_H',
-  0x22: 'OUT_Y_L',
-  0x23: 'OUT_Y_H',
-  0x24: 'OUT_Z_L',
-  0x25: 'OUT_Z_H',
-};
-
-/** Digits per g for a CTRL value's RANGE bits: ±2 g 16000, ±4 g 8000, ±8 g (and reserved) 4000. */
-export function digitsPerG(ctrl: number): number {
-  const range = (ctrl >> 1) & 0b11;
-  return range === 0 ? 16000 : range === 1 ? 8000 : 4000;
-}
-
-export interface SpiDecoded {
-  read: boolean;
-  autoIncrement: boolean;
-  address: number;
-  /** Each data byte with the register it addressed. */
-  bytes: { register: number; name: string; mosi: number; miso: number }[];
-  /** Axes whose low and high bytes were both read: raw digits and g. */
-  axes: { axis: 'X' | 'Y' | 'Z'; digits: number; g: number }[];
-  /** The CTRL value this transfer wrote or read, if it touched CTRL. */
-  ctrl?: number;
-}
-
 /**
- * Decodes one transfer by the register map: address byte (bit 7 read, bit 6 auto-increment,
- * bits 5–0 register), then one register per data byte; X/Y/Z are 16-bit two's complement,
- * little-endian, scaled by the range in `ctrl` (default ±2 g).
+ * The value a hex-spi link profile reads out of one transfer's MISO bytes: the 16-bit two's
+ * complement field at the profile's offset and byte order, times its scale. The console stays
+ * generic — it knows no device's registers, only what the link profile says about the value.
  */
-export function decodeSpiTransfer(mosi: Uint8Array, miso: Uint8Array, ctrl = 0): SpiDecoded {
-  const head = mosi[0] ?? 0;
-  const read = (head & 0x80) !== 0;
-  const autoIncrement = (head & 0x40) !== 0;
-  const address = head & 0x3f;
-  const bytes: SpiDecoded['bytes'] = [];
-  const seen = new Map<number, number>();
-  let ctrlSeen: number | undefined;
-  for (let i = 1; i < mosi.length; i++) {
-    const register = autoIncrement ? (address + i - 1) & 0x3f : address;
-    const value = read ? (miso[i] ?? 0) : mosi[i];
-    bytes.push({ register, name: ACCEL_REGISTERS[register] ?? '—', mosi: mosi[i], miso: miso[i] ?? 0 });
-    if (read) seen.set(register, value);
-    if (register === 0x10) ctrlSeen = value;
-  }
-  const scale = digitsPerG(ctrlSeen ?? ctrl);
-  const axes: SpiDecoded['axes'] = [];
-  (['X', 'Y', 'Z'] as const).forEach((axis, k) => {
-    const lo = seen.get(0x20 + 2 * k);
-    const hi = seen.get(0x21 + 2 * k);
-    if (lo === undefined || hi === undefined) return;
-    const u = (hi << 8) | lo;
-    const digits = u >= 0x8000 ? u - 0x10000 : u;
-    axes.push({ axis, digits, g: digits / scale });
-  });
-  return { read, autoIncrement, address, bytes, axes, ctrl: ctrlSeen };
+export function decodeValueField(
+  miso: Uint8Array,
+  field: { offset: number; bigEndian: boolean; scale: number } | undefined,
+): { digits: number; value: number } | null {
+  if (!field || field.offset < 0 || field.offset + 1 >= miso.length) return null;
+  const digits = readInt16(miso, field.offset, field.bigEndian);
+  return { digits, value: digits * field.scale };
 }
 
 /** Hex bytes typed by a person: `A0 00`, `a0,00`, `0xA0 0x00` → bytes, or a message. */
@@ -166,7 +114,7 @@ export function parseHexInput(text: string): { ok: true; bytes: Uint8Array } | {
   const cleaned = text.replace(/0x/gi, ' ');
   const d = decodeHexLine(cleaned);
   if (d.ok) return d;
-  return { ok: false, message: d.reason === 'empty' ? 'enter at least one byte, e.g. C0 00 00' : d.message };
+  return { ok: false, message: d.reason === 'empty' ? 'enter at least one byte, e.g. 03 00 00' : d.message };
 }
 
 /**

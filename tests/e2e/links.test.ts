@@ -58,16 +58,22 @@ describe('the link test page', () => {
     await page.screenshot({ path: path.join(RESULTS, 'links-query.png') });
     await page.click('[data-action="disconnect"]');
 
-    // The SPI bridge: identity register, then an X/Y/Z burst decoded to g.
+    // The SPI bridge (Driftbench's DBX-3 map): the part code by a typed transfer, then the
+    // profile's own poll, its value read where the profile's value field says.
     await chooseDevice(page, 'SPI bridge with accelerometer');
     await page.click('[data-action="connect"]');
     await page.waitForSelector('[data-state="connected"]');
-    await page.click('button:has-text("Read identity")');
-    await expect.poll(() => page.locator('[data-transfer]').first().locator('[data-miso]').allInnerTexts()).toEqual(['FF', '5D', '12']);
-    await page.click('button:has-text("Read X, Y, Z")');
-    await expect.poll(() => page.locator('[data-transfer]').first().locator('[data-axis]').count()).toBe(3);
-    const z = await page.locator('[data-transfer]').first().locator('[data-axis]').nth(2).innerText();
-    expect(Number(/Z \+(\d\.\d+) g/.exec(z)?.[1])).toBeCloseTo(1, 1);
+    await page.click('button:has-text("Start-up")');
+    await page.fill('input[name="spi-bytes"]', '03 00 00');
+    await page.press('input[name="spi-bytes"]', 'Enter');
+    // simulators/README.md: FLAGS 01 (fresh sample), PART DB, REV 03
+    await expect.poll(() => page.locator('[data-transfer]').first().locator('[data-miso]').allInnerTexts()).toEqual(['01', 'DB', '03']);
+    await page.click('button:has-text("Poll")');
+    await expect.poll(() => page.locator('[data-transfer]').first().locator('[data-value]').count()).toBe(1);
+    const z = await page.locator('[data-transfer]').first().locator('[data-value]').innerText();
+    // Z of the accel preset lying flat: 1.0101 g ≈ +1010 mg (simulators/README.md), noise 1.2 mg rms
+    expect(Number(/value \+(\d+\.\d+) mg/.exec(z)?.[1])).toBeGreaterThan(1000);
+    expect(Number(/value \+(\d+\.\d+) mg/.exec(z)?.[1])).toBeLessThan(1020);
     await page.click('[data-action="poll"]');
     await expect.poll(() => page.locator('[data-reading]').count(), { timeout: 8000 }).toBeGreaterThanOrEqual(5);
     await page.screenshot({ path: path.join(RESULTS, 'links.png'), fullPage: true });

@@ -2,8 +2,7 @@ import { describe, expect, it } from 'vitest';
 import {
   createBoundedBuffer,
   createRawSplitter,
-  decodeSpiTransfer,
-  digitsPerG,
+  decodeValueField,
   formatReadingValue,
   parseHexInput,
   presetForDevice,
@@ -70,34 +69,24 @@ describe('the bounded console buffers', () => {
   });
 });
 
-describe('SPI transfers decoded by the accelerometer register map', () => {
+describe('SPI transfers read by the link profile\'s value field', () => {
   // Exchanges from simulators/README.md (the accel preset lying flat, noise off).
-  it('reads the identity and revision with auto-increment', () => {
-    const d = decodeSpiTransfer(Uint8Array.of(0xc0, 0, 0), Uint8Array.of(0xff, 0x5d, 0x12));
-    expect(d).toMatchObject({ read: true, autoIncrement: true, address: 0 });
-    expect(d.bytes.map((b) => [b.name, b.miso])).toEqual([['IDENT', 0x5d], ['REVISION', 0x12]]);
+  const field = { offset: 1, bigEndian: true, scale: 0.0625 };
+
+  it('reads Z from a poll reply, big-endian at byte 1, in mg', () => {
+    const v = decodeValueField(Uint8Array.of(0x01, 0x3f, 0x22), field);
+    expect(v?.digits).toBe(16162); // 0x3F22, simulators/README.md
+    expect(v?.value).toBeCloseTo(1010.125, 9); // 16162 × 0.0625 mg
   });
 
-  it('turns an X, Y, Z burst into digits and g at ±2 g', () => {
-    const d = decodeSpiTransfer(Uint8Array.of(0xe0, 0, 0, 0, 0, 0, 0), Uint8Array.of(0xff, 0x43, 0x00, 0xd5, 0xff, 0x22, 0x3f));
-    expect(d.axes.map((a) => [a.axis, a.digits])).toEqual([['X', 67], ['Y', -43], ['Z', 16162]]);
-    expect(d.axes[2].g).toBeCloseTo(1.0101, 4);
+  it('follows the byte order and sign the field names', () => {
+    expect(decodeValueField(Uint8Array.of(0x01, 0xd5, 0xff), { ...field, bigEndian: false })?.digits).toBe(-43); // 0xFFD5
+    expect(decodeValueField(Uint8Array.of(0x01, 0xff, 0xd5), field)?.digits).toBe(-43);
   });
 
-  it('scales by the range the transfer or an earlier one set', () => {
-    expect(digitsPerG(0x01)).toBe(16000);
-    expect(digitsPerG(0x03)).toBe(8000);
-    expect(digitsPerG(0x05)).toBe(4000);
-    expect(digitsPerG(0x07)).toBe(4000);
-    const write = decodeSpiTransfer(Uint8Array.of(0x10, 0x03), Uint8Array.of(0xff, 0xff));
-    expect(write).toMatchObject({ read: false, ctrl: 0x03 });
-    const z = decodeSpiTransfer(Uint8Array.of(0xe4, 0, 0), Uint8Array.of(0xff, 0x40, 0x1f), 0x03);
-    expect(z.axes[0]).toMatchObject({ axis: 'Z', digits: 8000, g: 1 });
-  });
-
-  it('reads the same register repeatedly without auto-increment', () => {
-    const d = decodeSpiTransfer(Uint8Array.of(0x92, 0, 0), Uint8Array.of(0xff, 0xaa, 0xaa));
-    expect(d.bytes.map((b) => b.name)).toEqual(['SCRATCH', 'SCRATCH']);
+  it('reads nothing without a field or past the reply\'s end', () => {
+    expect(decodeValueField(Uint8Array.of(0x01, 0x3f, 0x22), undefined)).toBeNull();
+    expect(decodeValueField(Uint8Array.of(0x01, 0x3f), field)).toBeNull();
   });
 });
 
@@ -112,7 +101,7 @@ describe('typed hex and reading values', () => {
   });
 
   it('explains input that is not hex', () => {
-    expect(parseHexInput('')).toEqual({ ok: false, message: 'enter at least one byte, e.g. C0 00 00' });
+    expect(parseHexInput('')).toEqual({ ok: false, message: 'enter at least one byte, e.g. 03 00 00' });
     expect(parseHexInput('A0 G1')).toMatchObject({ ok: false, message: expect.stringContaining('byte 2') });
   });
 

@@ -74,9 +74,9 @@ describe('parseLine', () => {
   });
 
   it('decodes the SPI bridge reply at the profile offset and scale (mg)', () => {
-    const p = linkPreset('spi-bridge'); // offset 1, little-endian, 0.0625 mg/digit
-    expect(parseLine(frame('FF 22 3F'), p)).toMatchObject({ ok: true, value: 16162 * 0.0625 });
-    expect(parseLine(frame('FF C0 FF'), p)).toMatchObject({ ok: true, value: -4 });
+    const p = linkPreset('spi-bridge'); // offset 1, big-endian (DBX-3), 0.0625 mg/digit
+    expect(parseLine(frame('01 3F 22'), p)).toMatchObject({ ok: true, value: 16162 * 0.0625 }); // simulators/README.md
+    expect(parseLine(frame('01 FF C0'), p)).toMatchObject({ ok: true, value: -4 }); // −64 digits × 0.0625
     expect(parseLine(frame('ERR bad hex'), p)).toMatchObject({ ok: false, kind: 'device-error' });
     expect(parseLine(frame('FF'), p)).toMatchObject({ ok: false, kind: 'garbled' });
   });

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { ManualClock } from '../../../simulators/clock';
-import { SimAccelerometer, ORIENTATIONS, type AccelConfig, type OrientationName } from '../../../simulators/accelerometer';
+import { SimAccelerometer, ORIENTATIONS, REG, command, type AccelConfig, type OrientationName } from '../../../simulators/accelerometer';
 import { SimSpiBridge } from '../../../simulators/spiBridge';
 import { decodeHexLine, readInt16 } from '../../../shared/protocol/hex';
 import { ACCEL_PRESET } from '../../../simulators/presets';
@@ -32,9 +32,9 @@ function rig(over: Partial<AccelConfig> = {}) {
   const meanG = (n: number, perG = 16000) => {
     const sum = [0, 0, 0];
     for (let i = 0; i < n; i++) {
-      const r = decodeHexLine(ask('E0 00 00 00 00 00 00\n').trim());
+      const r = decodeHexLine(ask('23 00 00 00 00 00 00\n').trim()); // stream-read X1…Z0
       if (!r.ok) throw new Error(r.message);
-      for (let a = 0; a < 3; a++) sum[a] += readInt16(r.bytes, 1 + 2 * a) / perG;
+      for (let a = 0; a < 3; a++) sum[a] += readInt16(r.bytes, 1 + 2 * a, true) / perG;
     }
     return sum.map((s) => s / n);
   };
@@ -42,11 +42,19 @@ function rig(over: Partial<AccelConfig> = {}) {
 }
 
 describe('SPI bridge', () => {
+  // Expected bytes: the DBX-3 map in simulators/README.md (command = register·4 + 2·read + stream).
   it('answers one MISO line per MOSI line, same length', () => {
     const { ask } = rig();
-    expect(ask('80 00\n')).toBe('FF 5D\n'); // IDENT
-    expect(ask('C0 00 00\r\n')).toBe('FF 5D 12\n'); // IDENT, REVISION by auto-increment
-    expect(ask('80 00 00\n')).toBe('FF 5D 5D\n'); // no auto-increment: same register again
+    expect(ask('02 00\n')).toBe('00 DB\n'); // PART; FLAGS 00 in the command slot (not running)
+    expect(ask('03 00 00\r\n')).toBe('00 DB 03\n'); // PART, REV by streaming
+    expect(ask('02 00 00\n')).toBe('00 DB DB\n'); // no stream: the same register again
+  });
+
+  it('builds command bytes from register, direction and stream', () => {
+    expect(command(REG.X1, true, true)).toBe(0x23);
+    expect(command(REG.Z1, true, true)).toBe(0x33);
+    expect(command(REG.MODE, false, false)).toBe(0x10);
+    expect(command(REG.FLAGS, true, false)).toBe(0x16);
   });
 
   it('answers refused lines with ERR and keeps going', () => {
@@ -54,25 +62,35 @@ describe('SPI bridge', () => {
     expect(ask('0G 00\n')).toBe('ERR bad hex\n');
     expect(ask('\u0001\u00ff\n')).toBe('ERR bad hex\n');
     expect(ask(new Array(65).fill('00').join(' ') + '\n')).toMatch(/^ERR too long/);
-    expect(ask('80 00\n')).toBe('FF 5D\n');
+    expect(ask('02 00\n')).toBe('00 DB\n');
     expect(ask('*idn?\n')).toMatch(/^Driftbench Labs,SIM-SPI-1,/);
   });
 
-  it('writes CTRL and SCRATCH, ignores writes to read-only registers', () => {
+  it('writes MODE and MEMO, ignores writes to read-only registers', () => {
     const { ask } = rig();
-    expect(ask('10 03\n')).toBe('FF FF\n');
-    expect(ask('90 00\n')).toBe('FF 03\n');
-    expect(ask('00 AA\n')).toBe('FF FF\n');
-    expect(ask('80 00\n')).toBe('FF 5D\n');
-    expect(ask('12 A5\n')).toBe('FF FF\n');
-    expect(ask('92 00\n')).toBe('FF A5\n');
-    ask('10 80\n'); // soft reset
-    expect(ask('90 00\n')).toBe('FF 00\n');
+    expect(ask('10 05\n')).toBe('00 00\n'); // MODE ← RUN | SPAN ±4 g; FLAGS was 00
+    expect(ask('12 00\n')).toBe('01 05\n'); // read MODE; FLAGS 01: a fresh sample
+    expect(ask('00 AA\n')).toBe('01 00\n'); // write to PART: ignored
+    expect(ask('02 00\n')).toBe('01 DB\n');
+    expect(ask('18 A5\n')).toBe('01 00\n'); // MEMO ← A5
+    expect(ask('1A 00\n')).toBe('01 A5\n');
+    ask('10 80\n'); // RESTART
+    expect(ask('12 00\n')).toBe('00 00\n');
+    expect(ask('1A 00\n')).toBe('00 00\n');
   });
 
-  it('reads zeros while measurement is disabled', () => {
+  it('reads zeros while not running', () => {
     const { ask } = rig();
-    expect(ask('E0 00 00 00 00 00 00\n')).toBe('FF 00 00 00 00 00 00\n');
+    expect(ask('23 00 00 00 00 00 00\n')).toBe('00 00 00 00 00 00 00\n');
+  });
+
+  it('answers the example exchanges of simulators/README.md', () => {
+    const { ask } = rig({ noiseMg: 0 });
+    expect(ask('10 01\n')).toBe('00 00\n');
+    expect(ask('03 00 00\n')).toBe('01 DB 03\n');
+    expect(ask('23 00 00 00 00 00 00\n')).toBe('01 00 43 FF D5 3F 22\n');
+    expect(ask('33 00 00\n')).toBe('01 3F 22\n');
+    expect(ask('16 00\n')).toBe('01 01\n');
   });
 });
 
@@ -89,24 +107,24 @@ describe('simulated accelerometer', () => {
     ['inverted', [b.x / 1000, b.y / 1000, -(1 + s.z / 100) + b.z / 1000]],
   ])('reads the expected g lying %s', (name, expected) => {
     const { ask, meanG } = rig({ orientation: { ...ORIENTATIONS[name] } });
-    ask('10 01\n'); // enable, ±2 g
+    ask('10 01\n'); // MODE ← RUN, ±2 g
     const m = meanG(400);
     for (let a = 0; a < 3; a++) expect(Math.abs(m[a] - expected[a])).toBeLessThan(0.5e-3);
   });
 
   it('scales digits with the range: 8000 digits/g at ±4 g, 4000 at ±8 g', () => {
     const { ask, meanG } = rig({ noiseMg: 0 });
-    ask('10 03\n');
+    ask('10 05\n'); // RUN, SPAN 01 (±4 g)
     expect(meanG(1, 8000)[2]).toBeCloseTo(1 + s.z / 100 + b.z / 1000, 3);
-    ask('10 05\n');
+    ask('10 09\n'); // RUN, SPAN 10 (±8 g)
     expect(meanG(1, 4000)[2]).toBeCloseTo(1 + s.z / 100 + b.z / 1000, 3);
   });
 
-  it('clips at full scale and flags it in STATUS', () => {
+  it('clips at full scale and flags it in FLAGS', () => {
     const { ask } = rig({ noiseMg: 0, biasMg: { x: 0, y: 0, z: 1500 } });
     ask('10 01\n');
-    expect(ask('E4 00 00\n')).toBe('FF FF 7F\n'); // +32767
-    expect(ask('91 00\n')).toBe('FF 03\n'); // DRDY | OVR
+    expect(ask('33 00 00\n')).toBe('03 7F FF\n'); // +32767, FLAGS FRESH | CLIPPED
+    expect(ask('16 00\n')).toBe('03 03\n');
   });
 
   it('shifts its bias after the exposure time of the scenario', () => {

@@ -32,9 +32,9 @@ describe('simulator hub', () => {
     const ws = new WebSocket(`${h.base}/sim/spi-bridge`);
     await new Promise((r) => ws.once('open', r));
     const reply = nextMessage(ws);
-    ws.send(Buffer.from('80 '));
+    ws.send(Buffer.from('02 '));
     ws.send(Buffer.from('00\r\n'));
-    expect((await reply).data.toString('latin1')).toBe('FF 5D\n');
+    expect((await reply).data.toString('latin1')).toBe('00 DB\n'); // PART (simulators/README.md)
     ws.close();
   });
 
