@@ -44,16 +44,21 @@ export interface AnalysisPoolStats {
 export class AnalysisPool {
   private readonly slots: Slot[] = [];
   private readonly queue: Array<{ job: AnalysisJob; pending: Pending }> = [];
-  private readonly inFlight = new Map<string, Promise<{ result: unknown; readingCount: number }>>();
-  private readonly cache = new Map<string, { readingCount: number; state: string; result: unknown }>();
+  private readonly inFlight = new Map<string, Promise<{ json: string; readingCount: number }>>();
+  private readonly cache = new Map<string, { readingCount: number; state: string; json: string; at: number; took: number }>();
   private nextId = 1;
   private closed = false;
   readonly stats: AnalysisPoolStats = { computed: 0, cacheHits: 0, coalesced: 0 };
 
+  /**
+   * `openFreshMs`: an open capture's answer is served for this long (or twice the time it took,
+   * if longer) even when readings arrived since — a viewer polling a capture that grows every
+   * 100 ms would otherwise keep a core busy recomputing. 0 recomputes on every new reading.
+   */
   constructor(
     private readonly databaseUrl: string,
     private readonly size = defaultPoolSize(),
-    private readonly cacheSize = 64,
+    private readonly opts: { cacheSize?: number; openFreshMs?: number } = {},
   ) {}
 
   private spawn(): Slot {
@@ -109,31 +114,36 @@ export class AnalysisPool {
   /**
    * The analysis of a capture. `current` is the capture as the request read it: an answer computed
    * at the same reading count and state is served from the cache; a computation already running
-   * for the same capture and query is joined instead of started again.
+   * for the same capture and query is joined instead of started again. The answer is the JSON
+   * text, serialised once however many requests it serves.
    */
-  async analysis(job: AnalysisJob, current: { readingCount: number; state: string }): Promise<unknown> {
+  async analysis(job: AnalysisJob, current: { readingCount: number; state: string }): Promise<string> {
     const key = `${job.captureId}|${job.kind}|${job.taus}|${job.confidence ?? ''}|${job.drift ?? ''}`;
     const hit = this.cache.get(key);
-    if (hit && hit.readingCount === current.readingCount && hit.state === current.state) {
+    const freshMs = this.opts.openFreshMs ?? 5000;
+    const fresh =
+      !!hit && freshMs > 0 && hit.state === 'open' && current.state === 'open' && Date.now() - hit.at < Math.max(freshMs, 2 * hit.took);
+    if (hit && ((hit.readingCount === current.readingCount && hit.state === current.state) || fresh)) {
       this.stats.cacheHits++;
       this.cache.delete(key);
       this.cache.set(key, hit);
-      return hit.result;
+      return hit.json;
     }
     const running = this.inFlight.get(key);
     if (running) {
       this.stats.coalesced++;
-      return (await running).result;
+      return (await running).json;
     }
-    const started = this.run(job);
+    const startedAt = Date.now();
+    const started = this.run(job).then((r) => ({ json: JSON.stringify(r.result), readingCount: r.readingCount }));
     this.inFlight.set(key, started);
     try {
       const done = await started;
       this.stats.computed++;
       this.cache.delete(key);
-      this.cache.set(key, { readingCount: done.readingCount, state: current.state, result: done.result });
-      if (this.cache.size > this.cacheSize) this.cache.delete(this.cache.keys().next().value!);
-      return done.result;
+      this.cache.set(key, { readingCount: done.readingCount, state: current.state, json: done.json, at: Date.now(), took: Date.now() - startedAt });
+      if (this.cache.size > (this.opts.cacheSize ?? 64)) this.cache.delete(this.cache.keys().next().value!);
+      return done.json;
     } finally {
       this.inFlight.delete(key);
     }

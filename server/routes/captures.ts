@@ -95,7 +95,7 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub, analysis: AnalysisPo
     // Computed in a worker thread (server/analysis/worker.ts: the same figures — summary,
     // stability on the series with the chosen drift removed), cached per reading count, with
     // concurrent requests for the same capture sharing one computation.
-    res.json(await analysis.analysis({ captureId: id, ...q }, { readingCount: c.readingCount, state: c.state }));
+    res.type('application/json').send(await analysis.analysis({ captureId: id, ...q }, { readingCount: c.readingCount, state: c.state }));
   });
   return r;
 }

@@ -21,7 +21,8 @@ const auth = () => ({ authorization: `Bearer ${token}` });
 
 beforeAll(async () => {
   t = await createTestApp();
-  analysis = new AnalysisPool(t.db.url, 1);
+  // openFreshMs 0: every new reading makes the next answer a fresh computation.
+  analysis = new AnalysisPool(t.db.url, 1, { openFreshMs: 0 });
   app = createApp({ db: t.db, jwtSecret: TEST_JWT_SECRET, log: pino({ level: 'silent' }), analysis });
   token = await t.tokenFor('lead');
   ids = await demoIds(app, token);

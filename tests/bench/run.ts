@@ -2,6 +2,7 @@ import os from 'node:os';
 import { benchAnalysis } from './analysis.js';
 import { benchIngest } from './ingest.js';
 import { benchImport } from './import.js';
+import { benchAnalysisLoad } from './analysisLoad.js';
 
 // `npm run bench`: every performance figure of ARCHITECTURE.md's targets, printed, never asserted.
 // Run on an otherwise idle machine: the figures are wall-clock times.
@@ -9,3 +10,4 @@ console.log(`Driftbench benchmarks — Node ${process.version}, ${os.cpus().leng
 await benchAnalysis();
 await benchIngest();
 await benchImport();
+await benchAnalysisLoad();
