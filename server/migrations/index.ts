@@ -5,6 +5,7 @@ import * as m0002 from './20261201-0002-reading-tiles.js';
 import * as m0101 from './20261202-0001-uncertainty-inputs.js';
 import * as m0010 from './20261202-0010-account-security.js';
 import * as m0020 from './20261202-0020-review-and-record.js';
+import * as m0021 from './20261202-0021-seal-tamper-flag.js';
 import * as m0050 from './20261202-0050-simulated-captures.js';
 
 type Step = { up(p: { context: QueryInterface }): Promise<void>; down(p: { context: QueryInterface }): Promise<void> };
@@ -16,6 +17,7 @@ const MIGRATIONS: Array<[string, Step]> = [
   ['20261202-0001-uncertainty-inputs', m0101],
   ['20261202-0010-account-security', m0010],
   ['20261202-0020-review-and-record', m0020],
+  ['20261202-0021-seal-tamper-flag', m0021],
   ['20261202-0050-simulated-captures', m0050],
 ];
 

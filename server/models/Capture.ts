@@ -40,6 +40,7 @@ export class Capture extends Model {
   /** Recorded from a simulator (set at creation, never changed). */
   declare simulated: CreationOptional<boolean>;
   declare overdueNotifiedAt: Date | null;
+  declare sealBrokenAt: Date | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
@@ -80,6 +81,7 @@ export class Capture extends Model {
         plannedMinutes: DataTypes.INTEGER,
         simulated: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: false },
         overdueNotifiedAt: DataTypes.DATE,
+        sealBrokenAt: DataTypes.DATE,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

@@ -45,6 +45,8 @@ export function capturePublic(c: Capture) {
     simulated: c.simulated ?? false,
     sealSha256: c.sealSha256 ?? null,
     sealedAt: c.sealedAt ?? null,
+    /** Set when a sealed reading was updated or deleted (a trigger); the seal route recomputes. */
+    sealBroken: c.sealBrokenAt != null,
   };
 }
 

@@ -130,6 +130,9 @@ export interface CaptureSummary {
 /** A capture as the API shows it. */
 export interface Capture {
   id: number;
+  /** A sealed reading was updated or deleted after the capture finished (the seal route says more). */
+  sealBroken?: boolean;
+  sealSha256?: string | null;
   dutId: number;
   checkpointId: number;
   instrumentId: number | null;

@@ -65,6 +65,13 @@ describe('sealed evidence', () => {
     const after = await request(t.app).get(`/api/captures/${id}/seal`).set(await as(t, 'viewer'));
     expect(after.body).toMatchObject({ sha256: before.body.sha256, verified: false, readings: 200 });
     expect(after.body.recomputed).not.toBe(before.body.sha256);
+    // The captures list and the capture carry the flag too, without recomputing.
+    const one = await request(t.app).get(`/api/captures/${id}`).set(await as(t, 'viewer'));
+    expect(one.body.sealBroken).toBe(true);
+    const list = await request(t.app).get(`/api/captures?studyId=${plan.studyId}`).set(await as(t, 'viewer'));
+    expect(list.body.captures.find((c: { id: number }) => c.id === id).sealBroken).toBe(true);
+    const untouched = await capture(t, plan, { n: 10 });
+    expect((await request(t.app).get(`/api/captures/${untouched}`).set(await as(t, 'viewer'))).body.sealBroken).toBe(false);
   });
 
   it('says verified: false when a reading is deleted, and shows it in the report', async () => {
