@@ -97,7 +97,7 @@ export interface TuningForkDelta {
 
 /**
  * The tuning-fork normalisation of a before/after change and its uncertainty. Each mean is taken
- * to the turnover with s(T) = B·(T − T0)² (docs/references.md "Tuning-fork parabola"), so
+ * to the turnover with s(T) = B·(T − T0)² (docs/references.md, "Tuning-fork crystals"), so
  * Δ = (y_a − s(T_a)) − (y_b − s(T_b)) in ppm. T0, B and the thermometer's bias are the same
  * quantities in both terms, so they enter once with the combined sensitivity (JCGM 100:2008 §5.2,
  * eq. 16 with r = 1): ∂Δ/∂T0 = 2B(T_a − T_b), ∂Δ/∂B = −[(T_a − T0)² − (T_b − T0)²],
