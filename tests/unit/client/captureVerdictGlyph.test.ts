@@ -75,4 +75,25 @@ describe('the limit-band verdict glyph', () => {
     expect(wrapper.find('.verdict-glyph__word').text()).toBe('inconclusive');
     expect(wrapper.find('svg').attributes('aria-label')).toMatch(/against a limit of ±1 ppm: inconclusive$/);
   });
+
+  it('draws an asymmetric limit −1/+2 with the band off-centre and decides each side (issue 8)', () => {
+    // Δ = 1.5, U = 0.4 against [−1, +2]: 1.9 ≤ 2 and 1.1 ≥ −1 → within (ILAC-G8, w = U per side).
+    const wrapper = mount(VerdictGlyph, { props: { delta: 1.5, expanded: 0.4, limitLow: -1, limitHigh: 2 } });
+    const g = geometry(wrapper);
+    expect(g.bandFrom).toBeCloseTo(expectedX(-1, 2), 1); // reach = max(|−1|, 2, 1.9) = 2
+    expect(g.bandTo).toBeCloseTo(expectedX(2, 2), 1);
+    expect(wrapper.attributes('data-verdict')).toBe('within');
+    expect(wrapper.find('svg').attributes('aria-label')).toContain('against a limit of -1 to +2');
+  });
+
+  it('leaves the open side of a one-sided limit open and notches the side crossed', () => {
+    // "At most +3": Δ = 2.5, U = 1 straddles +3 → inconclusive; Δ = 4.5 → exceeds.
+    const open = mount(VerdictGlyph, { props: { delta: 2.5, expanded: 1, limitLow: null, limitHigh: 3 } });
+    expect(geometry(open).bandFrom).toBe(PAD);
+    expect(open.attributes('data-verdict')).toBe('inconclusive');
+    const over = mount(VerdictGlyph, { props: { delta: 4.5, expanded: 1, limitLow: null, limitHigh: 3, k: 2.31 } });
+    expect(over.attributes('data-verdict')).toBe('exceeds');
+    expect(over.find('.verdict-glyph__notch').exists()).toBe(true);
+    expect(over.find('svg').attributes('aria-label')).toContain('(k = 2.31) against a limit of at most 3');
+  });
 });
