@@ -97,6 +97,49 @@ describe('review and sign-off in the browser', () => {
     await server?.stop();
   });
 
+  it('takes files by drag and drop with progress, shows image thumbnails, and shows the seal on the capture page', async () => {
+    const { page, errors } = await studyPage(engineer);
+    await page.locator('[data-testid="drop-zone"]').scrollIntoViewIfNeeded();
+    // A real drop: a DataTransfer holding a PNG made by a canvas in the page.
+    await page.evaluate(async () => {
+      const canvas = document.createElement('canvas');
+      canvas.width = 64;
+      canvas.height = 48;
+      const g = canvas.getContext('2d')!;
+      g.fillStyle = '#2d6e4f';
+      g.fillRect(0, 0, 64, 48);
+      g.fillStyle = '#c8a24a';
+      g.fillRect(20, 14, 24, 20);
+      const blob: Blob = await new Promise((resolve) => canvas.toBlob((b) => resolve(b!), 'image/png'));
+      const dt = new DataTransfer();
+      dt.items.add(new File([blob], 'board-top.png', { type: 'image/png' }));
+      const zone = document.querySelector('[data-testid="drop-zone"]')!;
+      zone.dispatchEvent(new DragEvent('dragenter', { dataTransfer: dt, bubbles: true, cancelable: true }));
+      zone.dispatchEvent(new DragEvent('drop', { dataTransfer: dt, bubbles: true, cancelable: true }));
+    });
+    await page.locator('[data-testid="attachments"] img[alt="Thumbnail of board-top.png"]').waitFor();
+    expect(await page.locator('[data-testid="attachments"]').innerText()).toContain('Emil Engineer');
+    await page.locator('[data-section="attachments"]').screenshot({ path: path.join(RESULTS, 'attachments.png') });
+    expect(errors).toEqual([]);
+    await page.context().close();
+
+    const captures = await apiAs(server.url, 'viewer').then((v) => v.call<{ captures: Array<{ id: number }> }>('GET', '/api/captures?studyId=1'));
+    const c = await openAs(engineer);
+    await c.page.goto(`${server.url}/captures/${captures.captures[0].id}`);
+    await c.page.locator('[data-testid="seal"][data-state="ok"]').waitFor();
+    expect(await c.page.locator('[data-testid="seal"]').innerText()).toMatch(/Sealed ✓\s+SHA-256 [0-9a-f]{64}/);
+    // A file chosen with the picker goes to the capture.
+    await c.page.locator('[data-section="attachments"] input[type="file"]').setInputFiles({
+      name: 'counter-printout.pdf',
+      mimeType: 'application/pdf',
+      buffer: Buffer.from('%PDF-1.4\n1 0 obj << >> endobj\ntrailer << >>\n%%EOF\n'),
+    });
+    await c.page.locator('[data-testid="attachments"] >> text=counter-printout.pdf').waitFor();
+    await c.page.screenshot({ path: path.join(RESULTS, 'capture-seal.png'), fullPage: true });
+    expect(c.errors).toEqual([]);
+    await c.page.context().close();
+  });
+
   it('lets the engineer submit the running study with a note', async () => {
     const { page, errors } = await studyPage(engineer);
     expect(await statusTag(page)).toBe('Running');
