@@ -178,3 +178,45 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
     expect((await post('/api/studies/999999/approve', 'lead', { password: DEMO_PASSWORD })).status).toBe(404);
   });
 });
+
+describe('every transition from every status', () => {
+  // The workflow as docs/record.md states it (the expected table is written out here, not read from the code).
+  const ALLOWED: Record<string, Record<string, string>> = {
+    draft: { start: 'running' },
+    running: { submit: 'in-review' },
+    returned: { submit: 'in-review' },
+    'in-review': { approve: 'approved', return: 'returned' },
+    approved: { reopen: 'running' },
+  };
+  const CALL: Record<string, { role: string; body: object }> = {
+    start: { role: 'engineer', body: {} },
+    submit: { role: 'engineer', body: { note: 'n' } },
+    approve: { role: 'lead', body: { password: DEMO_PASSWORD } },
+    return: { role: 'lead', body: { comment: 'c' } },
+    reopen: { role: 'lead', body: { reason: 'r' } },
+  };
+  const cases = Object.keys(ALLOWED).flatMap((from) => Object.keys(CALL).map((action) => [from, action] as const));
+  let plan: Awaited<ReturnType<typeof plannedStudy>>;
+  let engineerId: number;
+  beforeAll(async () => {
+    plan = await plannedStudy(t, 'Transition table');
+    await capture(t, plan);
+    const users = await request(t.app).get('/api/users').set(await as(t, 'admin'));
+    engineerId = users.body.users.find((u: { role: string }) => u.role === 'engineer').id;
+  });
+
+  it.each(cases)('from %s, %s', async (from, action) => {
+    await t.db.pool.query('UPDATE studies SET status = $2, submitted_by = $3 WHERE id = $1', [plan.studyId, from, engineerId]);
+    const res = await post(`/api/studies/${plan.studyId}/${action}`, CALL[action].role, CALL[action].body);
+    const to = ALLOWED[from][action];
+    if (to) {
+      expect(res.status, JSON.stringify(res.body)).toBe(200);
+      expect(res.body.status).toBe(to);
+    } else {
+      expect(res.status, JSON.stringify(res.body)).toBe(409);
+      expect(res.body.error.code).toBe('transition-refused');
+      const s = await request(t.app).get(`/api/studies/${plan.studyId}`).set(await as(t, 'viewer'));
+      expect(s.body.status).toBe(from);
+    }
+  });
+});
