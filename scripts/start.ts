@@ -2,7 +2,7 @@ import { mkdirSync } from 'node:fs';
 import path from 'node:path';
 import { pino } from 'pino';
 import { loadConfig } from '../server/config.js';
-import { startCluster, portInUse, type LocalCluster } from '../server/db/cluster.js';
+import { startCluster, portInUse, runningPostmaster, clusterDataDir, type LocalCluster } from '../server/db/cluster.js';
 import { ensureDatabase } from '../server/db/connection.js';
 import { DEMO_PASSWORD, DEMO_USERS, DEMO_DOMAIN } from '../server/db/seed.js';
 import { startServer, configuredServerOptions, PROJECT_ROOT } from '../server/index.js';
@@ -19,10 +19,13 @@ let cluster: LocalCluster | undefined;
 let databaseUrl = config.databaseUrl;
 if (!databaseUrl) {
   const pgRoot = path.join(dataDir, 'postgres');
-  if (await portInUse(config.localPgPort)) {
+  // Our own cluster left running by a crashed server (its postmaster.pid names a live process on
+  // this port) is reused; anything else on the port is someone else's.
+  const own = runningPostmaster(clusterDataDir(pgRoot));
+  if ((await portInUse(config.localPgPort)) && own?.port !== config.localPgPort) {
     console.error(
-      `Port ${config.localPgPort} on 127.0.0.1 is already in use. Stop whatever listens there, ` +
-        'or set PGPORT_LOCAL to another port (or DATABASE_URL to use an existing server).',
+      `Port ${config.localPgPort} on 127.0.0.1 is in use by another program (not Driftbench's PostgreSQL in ${pgRoot}). ` +
+        'Stop whatever listens there, or set PGPORT_LOCAL to another port (or DATABASE_URL to use an existing server).',
     );
     process.exit(1);
   }
@@ -33,7 +36,8 @@ if (!databaseUrl) {
 
 const stopCluster = () => cluster?.stop();
 try {
-  buildClientIfStale(PROJECT_ROOT);
+  // DRIFTBENCH_SKIP_BUILD=1 serves dist/ as it is (the restart test; a machine without the toolchain).
+  if (process.env.DRIFTBENCH_SKIP_BUILD !== '1') buildClientIfStale(PROJECT_ROOT);
   const running = await startServer(configuredServerOptions(config, databaseUrl, log));
   console.log(`\nDriftbench is running at ${running.url}`);
   if (config.demo) {
