@@ -171,7 +171,7 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
         continue;
       }
       const s = c.summary as CaptureSummary | null;
-      const capture = { id: c.id, readingCount: c.readingCount, ambientC: c.ambientC, mean: s?.stats?.mean ?? null, offsetPpm: s?.offsetPpm ?? null, simulated: c.simulated ?? false };
+      const capture = { id: c.id, readingCount: c.readingCount, ambientC: c.ambientC, mean: s?.stats?.mean ?? null, offsetPpm: s?.offsetPpm ?? null, simulated: c.simulated ?? false, sealBroken: c.sealBrokenAt != null };
       let comparison = null;
       if (base && base.id !== c.id && s?.stats && (base.summary as CaptureSummary | null)?.stats) {
         // (Summaries stored by an older version are recomputed inside compareCaptures.)

@@ -59,6 +59,8 @@ export interface CellCapture {
   offsetPpm: number | null;
   /** Recorded from a simulator. */
   simulated?: boolean;
+  /** A sealed reading was changed after the capture finished (integrity warning). */
+  sealBroken?: boolean;
 }
 
 export interface CellComparison {

@@ -70,6 +70,8 @@ describe('sealed evidence', () => {
     expect(one.body.sealBroken).toBe(true);
     const list = await request(t.app).get(`/api/captures?studyId=${plan.studyId}`).set(await as(t, 'viewer'));
     expect(list.body.captures.find((c: { id: number }) => c.id === id).sealBroken).toBe(true);
+    const matrix = await request(t.app).get(`/api/studies/${plan.studyId}/matrix`).set(await as(t, 'viewer'));
+    expect(matrix.body.rows[0].cells[0].capture).toMatchObject({ id, sealBroken: true });
     const untouched = await capture(t, plan, { n: 10 });
     expect((await request(t.app).get(`/api/captures/${untouched}`).set(await as(t, 'viewer'))).body.sealBroken).toBe(false);
   });
