@@ -1,4 +1,5 @@
 import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+import type { CaptureTarget } from '../../shared/protocol/captures.js';
 
 export type CaptureState = 'open' | 'finished' | 'aborted';
 
@@ -39,6 +40,8 @@ export class Capture extends Model {
   declare plannedMinutes: number | null;
   /** Recorded from a simulator (set at creation, never changed). */
   declare simulated: CreationOptional<boolean>;
+  /** What the bench planned: a duration in capture seconds or a number of readings. */
+  declare target: CaptureTarget | null;
   declare overdueNotifiedAt: Date | null;
   declare sealBrokenAt: Date | null;
   declare createdAt: CreationOptional<Date>;
@@ -80,6 +83,7 @@ export class Capture extends Model {
         sealedAt: DataTypes.DATE,
         plannedMinutes: DataTypes.INTEGER,
         simulated: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: false },
+        target: DataTypes.JSONB,
         overdueNotifiedAt: DataTypes.DATE,
         sealBrokenAt: DataTypes.DATE,
         createdAt: DataTypes.DATE,

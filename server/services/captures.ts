@@ -43,6 +43,7 @@ export function capturePublic(c: Capture) {
     summary: c.summary ?? null,
     plannedMinutes: c.plannedMinutes ?? null,
     simulated: c.simulated ?? false,
+    target: c.target ?? null,
     sealSha256: c.sealSha256 ?? null,
     sealedAt: c.sealedAt ?? null,
     /** Set when a sealed reading was updated or deleted (a trigger); the seal route recomputes. */
@@ -109,6 +110,7 @@ export async function createCapture(input: CaptureCreate, operator: AuthUser) {
       linkProfile: input.linkProfile ?? null,
       plannedMinutes: input.plannedMinutes ?? null,
       simulated,
+      target: input.target ?? null,
     }, { transaction });
     await audit(operator.id, 'capture.open', 'capture', created.id, { studyId: dut.studyId, dutId: dut.id, checkpointId: checkpoint.id }, transaction);
     return created;

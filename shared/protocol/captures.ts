@@ -9,6 +9,13 @@ export type Quantity = z.infer<typeof Quantity>;
 
 export const ORIENTATIONS = ['flat', 'on-edge', 'inverted', 'x-up', 'x-down', 'y-up', 'y-down', 'z-up', 'z-down', 'other'] as const;
 
+/** What the bench planned for a capture: run for a duration (capture seconds) or take n readings. */
+export const CaptureTarget = z.discriminatedUnion('kind', [
+  z.object({ kind: z.literal('duration'), seconds: z.number().finite().positive().max(31_536_000) }),
+  z.object({ kind: z.literal('count'), n: z.number().int().min(1).max(1_000_000_000) }),
+]);
+export type CaptureTarget = z.infer<typeof CaptureTarget>;
+
 /** The body of `POST /api/captures`: what a capture binds to and the conditions it ran under. */
 export const CaptureCreate = z.object({
   dutId: z.number().int().positive(),
@@ -30,6 +37,8 @@ export const CaptureCreate = z.object({
   linkProfile: LinkProfile.optional(),
   /** Recorded from a simulator (also implied by a simulator link profile); stored on the capture for good. */
   simulated: z.boolean().optional(),
+  /** What the bench planned, for watchers' progress and time left (none when the operator stops it). */
+  target: CaptureTarget.optional(),
 });
 export type CaptureCreate = z.infer<typeof CaptureCreate>;
 

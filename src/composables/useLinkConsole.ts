@@ -32,6 +32,8 @@ export function useLinkConsole() {
   const state = ref<LinkState>('idle');
   const message = ref<string | null>(null);
   const polling = ref(false);
+  /** Listen only (a viewer): nothing is written to the instrument — no start-up commands, polls or console lines. */
+  const listenOnly = ref(false);
   const profile = shallowRef<LinkProfile | null>(null);
   const rawLines = shallowRef<RawLine[]>([]);
   const readings = shallowRef<LinkReading[]>([]);
@@ -173,7 +175,7 @@ export function useLinkConsole() {
     state.value = 'connected';
     if (p.mode === 'talk') {
       void talkLoop(p, loopAbort.signal);
-    } else {
+    } else if (!listenOnly.value) {
       for (const cmd of p.initCommands) await send(cmd);
     }
   }
@@ -199,7 +201,7 @@ export function useLinkConsole() {
   /** Polls the profile's query command until {@link stopPolling} (query mode only). */
   async function startPolling(): Promise<void> {
     const p = profile.value;
-    if (!session || !p || p.mode !== 'query' || polling.value) return;
+    if (!session || !p || p.mode !== 'query' || polling.value || listenOnly.value) return;
     pollAbort = new AbortController();
     polling.value = true;
     const accept = (f: Parameters<typeof parseLine>[0]) => {
@@ -239,9 +241,16 @@ export function useLinkConsole() {
     const sentAt = performance.now();
     const entry: ConsoleExchange = { id: ++exchangeId, command, reply: null, ms: 0 };
     try {
+      if (listenOnly.value) throw new Error('your role reads links but sends nothing to an instrument');
       if (!session) throw new Error('connect a link first');
       if (profile.value?.mode === 'talk' || !expectsReply(command)) await session.client.send(command);
       else entry.reply = await session.client.query(command, { accept: () => true, retries: 0 });
+      // The profile's own poll sent by hand is a reading like any polled one.
+      const p = profile.value;
+      if (entry.reply !== null && p && p.parseRule !== 'hex-spi' && p.queryCommand.trim() && command.trim().toUpperCase() === p.queryCommand.trim().toUpperCase()) {
+        const parsed = parseLine({ text: entry.reply, bytes: new TextEncoder().encode(entry.reply), flags: 0 }, p);
+        addReading(parsed.ok ? parsed.value : NaN, parsed.flags, entry.reply);
+      }
     } catch (err) {
       entry.error = err instanceof Error ? err.message : 'no reply';
     }
@@ -284,6 +293,7 @@ export function useLinkConsole() {
     rawLines,
     readings,
     exchanges,
+    listenOnly,
     counts,
     connect,
     disconnect,

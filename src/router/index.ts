@@ -119,6 +119,12 @@ export const routes: RouteRecordRaw[] = [
     meta: { title: 'Outbox', roles: ['admin'] },
   },
   {
+    path: '/help',
+    name: 'help',
+    component: () => import('../views/HelpView.vue'),
+    meta: { title: 'Help' },
+  },
+  {
     path: '/no-access',
     name: 'forbidden',
     component: () => import('../views/NotFoundView.vue'),

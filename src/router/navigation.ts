@@ -1,6 +1,6 @@
 import type { Component } from 'vue';
 import type { RouteLocationNamedRaw, Router } from 'vue-router';
-import { Collection, Connection, Cpu, DataLine, Message, Notebook, TrendCharts, User, VideoPlay } from '@element-plus/icons-vue';
+import { Collection, Connection, Cpu, DataLine, Message, Notebook, QuestionFilled, TrendCharts, User, VideoPlay } from '@element-plus/icons-vue';
 import type { Role } from '../api/auth';
 
 export interface NavItem {
@@ -23,6 +23,7 @@ export const NAV_ITEMS: NavItem[] = [
   { label: 'Lab', to: { name: 'lab' }, icon: Cpu },
   { label: 'Users', to: { name: 'users' }, icon: User },
   { label: 'Outbox', to: { name: 'outbox' }, icon: Message },
+  { label: 'Help', to: { name: 'help' }, icon: QuestionFilled },
 ];
 
 export function navItemsFor(router: Router, role: Role | null): NavItem[] {

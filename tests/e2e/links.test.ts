@@ -55,6 +55,13 @@ describe('the link test page', () => {
     await page.fill('input[name="command"]', '*IDN?');
     await page.press('input[name="command"]', 'Enter');
     await expect.poll(() => page.locator('[data-reply]').first().innerText(), { timeout: 5000 }).toContain('Driftbench Labs,SIM-CNT-1');
+    // A READ? typed by hand is a reading like a polled one.
+    await page.click('[data-action="stop-poll"]');
+    await page.waitForSelector('[data-action="poll"]');
+    const polled = await page.locator('[data-reading]').count();
+    await page.fill('input[name="command"]', 'READ?');
+    await page.press('input[name="command"]', 'Enter');
+    await expect.poll(() => page.locator('[data-reading]').count(), { timeout: 5000 }).toBe(polled + 1);
     await page.screenshot({ path: path.join(RESULTS, 'links-query.png') });
     await page.click('[data-action="disconnect"]');
 
@@ -77,6 +84,25 @@ describe('the link test page', () => {
     await page.click('[data-action="poll"]');
     await expect.poll(() => page.locator('[data-reading]').count(), { timeout: 8000 }).toBeGreaterThanOrEqual(5);
     await page.screenshot({ path: path.join(RESULTS, 'links.png'), fullPage: true });
+    await page.click('[data-action="disconnect"]');
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+
+  it('lets a viewer watch a link but send nothing to the instrument', async () => {
+    const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
+    await signIn(page, server.url, 'viewer', '/sign-in');
+    await page.goto(`${server.url}/links`);
+    await chooseDevice(page, 'Counter, query mode (SCPI)');
+    await page.click('[data-action="connect"]');
+    await page.waitForSelector('[data-state="connected"]');
+    await page.waitForSelector('[data-testid="listen-only"]');
+    expect(await page.locator('[data-action="poll"]').count()).toBe(0);
+    expect(await page.locator('input[name="command"]').isDisabled()).toBe(true);
+    expect(await page.locator('button:has-text("READ?")').first().isDisabled()).toBe(true);
+    // Nothing was written: the raw log holds no transmitted line.
+    expect(await page.locator('.raw__row[data-dir="tx"]').count()).toBe(0);
+    await page.screenshot({ path: path.join(RESULTS, 'links-viewer.png') });
     await page.click('[data-action="disconnect"]');
     expect(errors).toEqual([]);
     await page.context().close();

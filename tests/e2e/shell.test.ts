@@ -33,7 +33,7 @@ describe('the Driftbench shell', () => {
     await page.screenshot({ path: path.join(RESULTS, 'sign-in.png') });
 
     await signIn(page, server.url, 'technician');
-    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Links', 'Lab']);
+    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab', 'Help']);
     await expect.poll(() => page.locator('[data-count="studies"]').innerText()).toMatch(/^\d+$/);
     expect(Number(await page.locator('[data-count="duts"]').innerText())).toBeGreaterThan(0);
     await expect.poll(() => page.locator('.health-line').innerText()).toMatch(/Database connected/);
@@ -63,7 +63,7 @@ describe('the Driftbench shell', () => {
   it('shows Users to an admin, in either theme', async () => {
     const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
     await signIn(page, server.url, 'admin');
-    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Links', 'Lab', 'Users', 'Outbox']);
+    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab', 'Users', 'Outbox', 'Help']);
 
     await page.click('nav[aria-label="Main"] >> text=Users');
     await page.waitForSelector('text=admin@kestrelbay.example');
