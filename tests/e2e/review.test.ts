@@ -259,4 +259,20 @@ describe('review and sign-off in the browser', () => {
     expect(errors).toEqual([]);
     await page.context().close();
   });
+  it('shows a red integrity warning on the capture page, the matrix and the captures list once a sealed reading changes in SQL', async () => {
+    const captures = await apiAs(server.url, 'viewer').then((v) => v.call<{ captures: Array<{ id: number; dutId: number }> }>('GET', '/api/captures?studyId=1'));
+    const id = captures.captures[0].id;
+    await server.server.db.pool.query('UPDATE readings SET value = value * (1 + 1e-9) WHERE capture_id = $1 AND seq = 10', [id]);
+    const { page, errors } = await openAs(lead);
+    await page.goto(`${server.url}/captures/${id}`);
+    await page.locator('[data-testid="seal"][data-state="broken"]').waitFor();
+    expect(await page.locator('[data-testid="seal"] [role="alert"]').innerText()).toContain('Integrity warning');
+    await page.locator('[data-section="seal"]').screenshot({ path: path.join(RESULTS, 'seal-broken.png') });
+    await page.goto(`${server.url}/studies/1`);
+    await page.locator('[data-testid="cell-seal-broken"]').first().waitFor();
+    await page.goto(`${server.url}/captures`);
+    await page.locator('.captures__seal-broken').first().waitFor();
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
 });
