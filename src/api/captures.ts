@@ -346,9 +346,13 @@ export function getComparison(before: number, after: number, options?: RequestOp
   return http.get<Comparison>(`/api/comparisons${query({ before, after })}`, options);
 }
 
-/** The CSV export's path (needs the Bearer token: use {@link downloadReadingsCsv} from a page). */
+/**
+ * The capture's own CSV (needs the Bearer token: use {@link downloadReadingsCsv} from a page): its
+ * metadata as `# key: value` lines, then raw and reference-corrected readings (issue 12).
+ * `/api/captures/:id/readings.csv` stays as the bare machine-readable table.
+ */
 export function readingsCsvPath(id: number): string {
-  return `/api/captures/${id}/readings.csv`;
+  return `/api/captures/${id}/export.csv`;
 }
 
 /** Fetches the CSV export with the session token and returns it as a Blob. */
