@@ -40,7 +40,7 @@ export function checkLimit(v: LimitShape, ctx: z.RefinementCtx): void {
   if (v.limit != null && bounds) {
     ctx.addIssue({ code: 'custom', path: ['limit'], message: 'give either a symmetric limit or lower/upper bounds, not both' });
   } else if (v.limit == null && !bounds) {
-    ctx.addIssue({ code: 'custom', path: ['limit'], message: 'is required (or give a lower and/or upper bound)' });
+    ctx.addIssue({ code: 'custom', path: ['limit'], message: 'Give the limit (or a lower and/or upper bound)' });
   }
   if (v.limitLow != null && v.limitHigh != null && !(v.limitLow < v.limitHigh)) {
     ctx.addIssue({ code: 'custom', path: ['limitHigh'], message: 'must be above the lower bound' });

@@ -57,7 +57,7 @@ describe('the uncertainty a metrologist signs, on screen', () => {
       throw e;
     });
     const coverage = await page.locator('[aria-labelledby="budget-title"] [data-budget="coverage"]').innerText();
-    expect(coverage).toMatch(/k = \d\.\d\d (from|with) ν_eff = .*coverage/);
+    expect(coverage).toMatch(/k = \d\.\d\d (from|with) ν_eff (=|>) .*coverage/);
     const budget = await page.locator('[aria-labelledby="budget-title"] .budget').innerText();
     expect(budget).toContain('Counter resolution');
     expect(budget).toContain('Drift during the capture');
@@ -103,6 +103,28 @@ describe('the uncertainty a metrologist signs, on screen', () => {
     const row = page.locator('.el-table__row', { hasText: 'Bench OCXO 10 MHz' });
     expect(await row.locator('[data-lab="ageing"]').innerText()).toBe('+5.0 × 10⁻¹¹ ± 2.0 × 10⁻¹¹ /day');
     await page.screenshot({ path: path.join(RESULTS, 'issue8-lab.png'), fullPage: true });
+    expect(errors).toEqual([]);
+  }, 60_000);
+
+  it('lets a planner give a DUT an asymmetric limit and a tuning fork its own T0', async () => {
+    const { page, errors } = await openPage(browser, { session: lead, viewport: { width: 1360, height: 1100 } });
+    const api = apiWith(server.url, lead.token);
+    const { studies } = await api<{ studies: Array<{ id: number }> }>('GET', '/api/studies');
+    await page.goto(`${server.url}/studies/${studies[0].id}`);
+    const fork = page.locator('[data-dut-label^="Y3"]');
+    await fork.waitFor();
+    expect(await fork.locator('[data-fork="parabola"]').innerText()).toMatch(/T0 25 ± 2\.89 °C · B -0\.034 ± 0\.00346 ppm\/°C² \(defaults\)/);
+    await fork.locator('button', { hasText: 'Edit' }).click();
+    const dialog = page.locator('.el-dialog', { hasText: 'Edit DUT' });
+    await dialog.locator('[data-field="limit-mode"] label', { hasText: 'lower / upper' }).click();
+    await dialog.locator('input[name="limitLow"]').fill('-1');
+    await dialog.locator('input[name="limitHigh"]').fill('2');
+    await dialog.locator('input[name="turnoverC"]').fill('24.5');
+    await dialog.locator('input[name="turnoverU"]').fill('0.8');
+    await page.screenshot({ path: path.join(RESULTS, 'issue8-dut-dialog.png') });
+    await dialog.locator('button', { hasText: 'Save DUT' }).click();
+    await page.waitForFunction(() => document.querySelector('[data-dut-label^="Y3"]')?.textContent?.includes('-1 / +2 ppm'));
+    expect(await fork.locator('[data-fork="parabola"]').innerText()).toMatch(/T0 24\.5 ± 0\.8 °C/);
     expect(errors).toEqual([]);
   }, 60_000);
 });
