@@ -94,6 +94,8 @@ describe('the uncertainty a metrologist signs, on screen', () => {
     await page.click('[data-action="add-reference"]');
     const dialog = page.locator('.el-dialog', { hasText: 'Register a reference' });
     await dialog.locator('input[name="name"]').fill('Bench OCXO 10 MHz');
+    await dialog.locator('[data-field="reference-kind"]').click();
+    await page.locator('.el-select-dropdown__item', { hasText: 'OCXO' }).click();
     await dialog.locator('input[name="standardUncertainty"]').fill('2e-11');
     await dialog.locator('input[name="ageingPerDay"]').fill('5e-11');
     await dialog.locator('input[name="ageingUPerDay"]').fill('2e-11');
@@ -101,6 +103,7 @@ describe('the uncertainty a metrologist signs, on screen', () => {
     await dialog.locator('button', { hasText: 'Register' }).click();
     await page.waitForSelector('text=Bench OCXO 10 MHz');
     const row = page.locator('.el-table__row', { hasText: 'Bench OCXO 10 MHz' });
+    expect(await row.locator('.lab__notes').first().innerText()).toBe('OCXO');
     expect(await row.locator('[data-lab="ageing"]').innerText()).toBe('+5.0 × 10⁻¹¹ ± 2.0 × 10⁻¹¹ /day');
     await page.screenshot({ path: path.join(RESULTS, 'issue8-lab.png'), fullPage: true });
     expect(errors).toEqual([]);
