@@ -130,16 +130,23 @@ export function fitDrift(t: ArrayLike<number>, y: ArrayLike<number>, model: Drif
   for (let i = 0; i < n; i++) half = Math.max(half, Math.abs(t[i] - tRef));
   if (!(half > 0)) throw new AnalysisError('bad-argument', 'all timestamps are equal: no drift can be fitted');
   // Normal equations in s = (t − t̄)/half: XᵀX β = Xᵀy with columns 1, s, s².
-  const xtx = Array.from({ length: p }, () => new Array<number>(p).fill(0));
-  const xty = new Array<number>(p).fill(0);
+  // Power sums Σs^k (k ≤ 4) and Σs^k·y (k ≤ 2) in one pass, without allocating per point.
+  let s1 = 0, s2 = 0, s3 = 0, s4 = 0, y0 = 0, y1 = 0, y2 = 0;
   for (let i = 0; i < n; i++) {
     const s = (t[i] - tRef) / half;
-    const row = [1, s, s * s].slice(0, p);
-    for (let a = 0; a < p; a++) {
-      xty[a] += row[a] * y[i];
-      for (let b = 0; b < p; b++) xtx[a][b] += row[a] * row[b];
-    }
+    const ss = s * s;
+    const v = y[i];
+    s1 += s;
+    s2 += ss;
+    s3 += ss * s;
+    s4 += ss * ss;
+    y0 += v;
+    y1 += s * v;
+    y2 += ss * v;
   }
+  const moments = [n, s1, s2, s3, s4];
+  const xtx = Array.from({ length: p }, (_, a) => Array.from({ length: p }, (_, b) => moments[a + b]));
+  const xty = [y0, y1, y2].slice(0, p);
   const inv = invertSymmetric(xtx);
   const beta = inv.map((row) => row.reduce((acc, v, j) => acc + v * xty[j], 0));
   const trend = new Float64Array(n);
