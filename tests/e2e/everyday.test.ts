@@ -144,7 +144,7 @@ describe('everyday use', () => {
     expect(await page.locator('text=Try again').count()).toBe(0);
     expect(await page.locator('text=Capture on the bench').count()).toBe(0);
     await page.click('[data-action="missing"]');
-    await page.waitForURL(/\/studies$/);
+    await expect.poll(() => page.url()).toMatch(/\/studies$/);
 
     await page.goto(`${server.url}/captures/987654`);
     await page.waitForSelector('text=There is no capture 987654');

@@ -16,6 +16,9 @@ const TABLET = { width: 820, height: 1180 };
 let server: Awaited<ReturnType<typeof startTestServer>>;
 let browser: Browser;
 let paths: string[] = [];
+let ids = { later: 0, open: 0 };
+/** The README's phone screenshots. */
+const SCREENSHOTS = path.resolve('docs/screenshots');
 
 /** The app's route paths with their numeric parameters filled in from the seeded lab. */
 function routePaths(ids: { study: number; capture: number; open: number }): string[] {
@@ -62,11 +65,18 @@ describe('layout on phones and tablets', () => {
     const readings = Array.from({ length: 400 }, (_, seq) => ({ seq, t: seq, value: dut.nominal * (1 + 1e-7 + 1e-9 * Math.sin(seq)) }));
     await api('POST', `/api/captures/${finished.id}/readings`, { readings });
     await api('POST', `/api/captures/${finished.id}/finish`);
+    // A later checkpoint 0.3 ppm away: its page carries a verdict against the baseline above.
+    const later = await api<{ id: number }>('POST', '/api/captures', {
+      dutId: dut.id, checkpointId: cps[2].id, quantity: 'frequency', unit: 'Hz', gateTime: 1, ambientC: 23.6,
+    });
+    await api('POST', `/api/captures/${later.id}/readings`, { readings: readings.map((r) => ({ ...r, value: r.value * (1 + 3e-7) })) });
+    await api('POST', `/api/captures/${later.id}/finish`);
     const open = await api<{ id: number }>('POST', '/api/captures', {
       dutId: dut.id, checkpointId: cps[1].id, quantity: 'frequency', unit: 'Hz', gateTime: 1, ambientC: 23.4,
     });
     await api('POST', `/api/captures/${open.id}/readings`, { readings: readings.slice(0, 30) });
-    paths = routePaths({ study: studies[0].id, capture: finished.id, open: open.id });
+    paths = routePaths({ study: studies[0].id, capture: later.id, open: open.id });
+    ids = { later: later.id, open: open.id };
   }, 120_000);
 
   afterAll(async () => {
@@ -101,6 +111,19 @@ describe('layout on phones and tablets', () => {
     await nav.locator('a', { hasText: 'Captures' }).click();
     await page.waitForURL(/\/captures$/);
     await expect.poll(() => nav.isVisible()).toBe(false);
+    if (role === 'technician') {
+      // For the README: a verdict read on a phone, a capture watched on a phone, and the menu.
+      await settle(page, `${server.url}/captures/${ids.later}`);
+      await page.locator('[data-verdict]').first().waitFor();
+      await page.screenshot({ path: path.join(SCREENSHOTS, 'phone-verdict.png') });
+      await settle(page, `${server.url}/captures/${ids.open}/live`);
+      await page.locator('[data-testid="watch-state"]').waitFor();
+      await page.screenshot({ path: path.join(SCREENSHOTS, 'phone-watch.png') });
+      await page.getByRole('button', { name: 'Menu' }).click();
+      await page.locator('.app-menu nav[aria-label="Main"]').waitFor();
+      await page.waitForTimeout(400);
+      await page.screenshot({ path: path.join(SCREENSHOTS, 'phone-menu.png') });
+    }
     expect(errors.filter((e) => !/status of 40[34]/.test(e))).toEqual([]);
     await page.context().close();
   }, 240_000);

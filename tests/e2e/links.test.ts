@@ -70,13 +70,13 @@ describe('the link test page', () => {
     await chooseDevice(page, 'SPI bridge with accelerometer');
     await page.click('[data-action="connect"]');
     await page.waitForSelector('[data-state="connected"]');
-    await page.click('button:has-text("Start-up")');
+    await page.click('[data-quick="init-1"]');
     await page.fill('input[name="spi-bytes"]', '03 00 00');
     await page.press('input[name="spi-bytes"]', 'Enter');
     // simulators/README.md: FLAGS 01 (fresh sample), PART DB, REV 03
     await expect.poll(() => page.locator('[data-transfer]').first().locator('[data-miso]').allInnerTexts()).toEqual(['01', 'DB', '03']);
-    await page.click('button:has-text("Poll")');
-    await expect.poll(() => page.locator('[data-transfer]').first().locator('[data-value]').count()).toBe(1);
+    await page.click('[data-quick="poll"]');
+    await expect.poll(() => page.locator('[data-transfer]').count()).toBe(3);
     const z = await page.locator('[data-transfer]').first().locator('[data-value]').innerText();
     // Z of the accel preset lying flat: 1.0101 g ≈ +1010 mg (simulators/README.md), noise 1.2 mg rms
     expect(Number(/value \+(\d+\.\d+) mg/.exec(z)?.[1])).toBeGreaterThan(1000);
