@@ -119,6 +119,16 @@ describe('review and sign-off in the browser', () => {
     });
     await page.locator('[data-testid="attachments"] img[alt="Thumbnail of board-top.png"]').waitFor();
     expect(await page.locator('[data-testid="attachments"]').innerText()).toContain('Emil Engineer');
+    // A printout for the baseline checkpoint, chosen as the target, through the file picker.
+    await page.locator('[data-testid="attach-target"]').click();
+    await page.locator('.el-select-dropdown__item:visible', { hasText: 'Checkpoint: Baseline' }).click();
+    await page.locator('[data-section="attachments"] input[type="file"]').setInputFiles({
+      name: 'baseline-printout.csv',
+      mimeType: 'text/csv',
+      buffer: Buffer.from('seq,value\n0,32768.0001\n'),
+    });
+    await page.locator('[data-testid="attachments"] >> text=baseline-printout.csv').waitFor();
+    expect(await page.locator('[data-testid="attachments"]').innerText()).toContain('Checkpoint: Baseline');
     await page.locator('[data-section="attachments"]').screenshot({ path: path.join(RESULTS, 'attachments.png') });
     expect(errors).toEqual([]);
     await page.context().close();
