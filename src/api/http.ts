@@ -27,7 +27,7 @@ export class ApiError extends Error {
 }
 
 /** 401 codes that mean "the session this token stood for is over". */
-export const SESSION_LOST_CODES = ['token-expired', 'account-disabled', 'unauthorized'] as const;
+export const SESSION_LOST_CODES = ['token-expired', 'account-disabled', 'unauthorized', 'session-ended'] as const;
 
 export interface HttpHooks {
   /** The current session token, or null when signed out. */

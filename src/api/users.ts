@@ -25,6 +25,11 @@ export async function listUsers(): Promise<UserRecord[]> {
   return allPages<UserRecord>('/api/users', 'users');
 }
 
+/** Sets a temporary password the user must change at the next sign-in (admins only). */
+export async function resetPassword(id: UserRecord['id'], temporaryPassword: string): Promise<UserRecord> {
+  return (await http.post<{ user: UserRecord }>(`/api/users/${id}/password-reset`, { temporaryPassword })).user;
+}
+
 export async function createUser(body: UserCreate): Promise<UserRecord> {
   return (await http.post<{ user: UserRecord }>('/api/users', body)).user;
 }

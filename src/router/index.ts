@@ -31,6 +31,13 @@ export const routes: RouteRecordRaw[] = [
     meta: { title: 'Sign in', public: true },
   },
   {
+    // After an admin reset: the only page that opens until a new password is chosen.
+    path: '/account/password',
+    name: 'change-password',
+    component: () => import('../views/ChangePasswordView.vue'),
+    meta: { title: 'Choose a new password', bare: true },
+  },
+  {
     path: '/',
     name: 'dashboard',
     component: () => import('../views/DashboardView.vue'),
@@ -159,6 +166,8 @@ export function createAppRouter(history: RouterHistory = createWebHistory()): Ro
     if (!session.token) return { name: 'sign-in', query: { next } };
     const ended = await session.restore();
     if (ended) return { name: 'sign-in', query: { next, reason: ended === 'signed-out' ? undefined : ended } };
+    if (session.mustChangePassword && to.name !== 'change-password') return { name: 'change-password', query: { next } };
+    if (!session.mustChangePassword && to.name === 'change-password') return { name: 'dashboard' };
     const allowed = to.meta.roles;
     if (allowed && !session.hasRole(...allowed)) return { name: 'forbidden' };
     return true;

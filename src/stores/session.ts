@@ -1,6 +1,6 @@
 import { computed, ref } from 'vue';
 import { defineStore } from 'pinia';
-import { fetchMe, login, type Role, type SessionUser } from '../api/auth';
+import { changePassword as postPasswordChange, fetchMe, login, logout as postLogout, type Role, type SessionUser } from '../api/auth';
 import { ApiError, configureHttp } from '../api/http';
 import { configureSimulatorToken } from '../links/simulatorLink';
 import { roleCan, type Permission } from '../../shared/protocol/roles';
@@ -8,11 +8,12 @@ import { roleCan, type Permission } from '../../shared/protocol/roles';
 export const SESSION_KEY = 'driftbench.session';
 
 /** Why a session ended; the sign-in page turns this into a sentence. */
-export type SessionEndReason = 'expired' | 'disabled' | 'signed-out';
+export type SessionEndReason = 'expired' | 'disabled' | 'signed-out' | 'ended';
 
 interface StoredSession {
   token: string;
   user: SessionUser | null;
+  mustChangePassword?: boolean;
 }
 
 function readStored(): StoredSession | null {
@@ -25,7 +26,7 @@ function readStored(): StoredSession | null {
   if (!raw) return null;
   try {
     const parsed = JSON.parse(raw) as Partial<StoredSession>;
-    if (typeof parsed.token === 'string') return { token: parsed.token, user: parsed.user ?? null };
+    if (typeof parsed.token === 'string') return { token: parsed.token, user: parsed.user ?? null, mustChangePassword: parsed.mustChangePassword === true };
   } catch {
     // A bare token (e.g. put there by a test) is accepted too; /me supplies the user.
   }
@@ -42,13 +43,16 @@ function writeStored(session: StoredSession | null): void {
 }
 
 export function reasonFor(error: ApiError): SessionEndReason {
-  return error.code === 'account-disabled' ? 'disabled' : 'expired';
+  if (error.code === 'account-disabled') return 'disabled';
+  return error.code === 'session-ended' ? 'ended' : 'expired';
 }
 
 export const useSessionStore = defineStore('session', () => {
   const stored = readStored();
   const token = ref<string | null>(stored?.token ?? null);
   const user = ref<SessionUser | null>(stored?.user ?? null);
+  /** After an admin reset: the app shows only the change-password screen until a new one is set. */
+  const mustChangePassword = ref(stored?.mustChangePassword ?? false);
   /** True once /me has confirmed the token in this page load. */
   const verified = ref(false);
   let restoring: Promise<SessionEndReason | null> | null = null;
@@ -68,25 +72,40 @@ export const useSessionStore = defineStore('session', () => {
     return role.value !== null && roles.includes(role.value);
   }
 
-  function setSession(newToken: string, newUser: SessionUser): void {
+  function setSession(newToken: string, newUser: SessionUser, mustChange = false): void {
     token.value = newToken;
     user.value = newUser;
+    mustChangePassword.value = mustChange;
     verified.value = true;
-    writeStored({ token: newToken, user: newUser });
+    writeStored({ token: newToken, user: newUser, mustChangePassword: mustChange });
   }
 
   async function signIn(email: string, password: string): Promise<SessionUser> {
     const answer = await login(email.trim(), password);
-    setSession(answer.token, answer.user);
+    setSession(answer.token, answer.user, answer.mustChangePassword === true);
     return answer.user;
   }
 
+  /** Forgets the session in this browser (the server's side is `logout`). */
   function signOut(): void {
     token.value = null;
     user.value = null;
+    mustChangePassword.value = false;
     verified.value = false;
     restoring = null;
     writeStored(null);
+  }
+
+  /** Signs out on the server too, so the token cannot be used again; the browser forgets it either way. */
+  async function logout(): Promise<void> {
+    if (token.value) await postLogout().catch(() => {});
+    signOut();
+  }
+
+  /** Changes the password; the fresh token replaces the old one (which the server revoked). */
+  async function changePassword(currentPassword: string, newPassword: string): Promise<void> {
+    const answer = await postPasswordChange(currentPassword, newPassword);
+    setSession(answer.token, answer.user, false);
   }
 
   /**
@@ -99,10 +118,11 @@ export const useSessionStore = defineStore('session', () => {
     if (verified.value) return Promise.resolve(null);
     restoring ??= (async () => {
       try {
-        const { user: me } = await fetchMe();
+        const { user: me, mustChangePassword: mustChange } = await fetchMe();
         user.value = me;
+        mustChangePassword.value = mustChange === true;
         verified.value = true;
-        writeStored({ token: token.value as string, user: me });
+        writeStored({ token: token.value as string, user: me, mustChangePassword: mustChangePassword.value });
         return null;
       } catch (error) {
         if (error instanceof ApiError && error.status === 401) {
@@ -116,5 +136,5 @@ export const useSessionStore = defineStore('session', () => {
     return restoring;
   }
 
-  return { token, user, verified, isAuthenticated, role, can, hasRole, signIn, signOut, restore };
+  return { token, user, verified, mustChangePassword, isAuthenticated, role, can, hasRole, signIn, signOut, logout, changePassword, restore };
 });

@@ -75,7 +75,7 @@ describe('the Driftbench shell', () => {
     await dialog.locator('input').nth(1).fill('nia@kestrelbay.example');
     await dialog.locator('input[type="password"]').fill('short');
     await dialog.locator('button:has-text("Add person")').click();
-    await dialog.locator('text=Use at least 10 characters').waitFor();
+    await dialog.locator('text=must be at least 12 characters').waitFor();
     await page.screenshot({ path: path.join(RESULTS, 'users-add-dialog.png') });
     await dialog.locator('input[type="password"]').fill('a-long-enough-secret');
     await dialog.locator('button:has-text("Add person")').click();
