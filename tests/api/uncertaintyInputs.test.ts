@@ -183,7 +183,7 @@ describe('DUT limits and the comparison budget', () => {
     expect(t0.contribution / f0 / 1e-6).toBeCloseTo(1.963, 2);
     expect(r.body.verdict).toBe('inconclusive');
     expect(r.body.k).toBeGreaterThanOrEqual(2);
-    expect(r.body.coverage).toMatch(/^k = \d\.\d\d (from|with) ν_eff = /);
+    expect(r.body.coverage).toMatch(/^k = \d\.\d\d (from|with) ν_eff (=|>) /);
     // A DUT's own, tighter T0 shrinks the line: u(T0) = 0.5 °C gives 0.34 ppm (by hand).
     await request(t.app).patch(`/api/duts/${dutId}`).set(await auth('engineer')).send({ turnoverC: 25, turnoverU: 0.5 });
     const tight = await request(t.app).get(`/api/comparisons?before=${cold.id}&after=${warm.id}`).set(await auth('viewer'));
