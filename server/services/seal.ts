@@ -1,7 +1,7 @@
 import { createHash } from 'node:crypto';
 import type pg from 'pg';
 import { NotFoundError } from '../errors.js';
-import { loadSeries, type Series } from './readings.js';
+import type { Series } from './readings.js';
 
 /**
  * Sealed evidence. When a capture finishes, the SHA-256 of its raw readings in a canonical
@@ -46,6 +46,15 @@ export interface SealCheck {
   sealedAt: Date | null;
 }
 
+/**
+ * The same digest computed inside PostgreSQL, so a check never moves the rows: `int4send`,
+ * `float8send` and `int2send` give exactly the big-endian bytes above (seq is never negative, so
+ * its signed and unsigned forms agree), concatenated in seq order and hashed with `sha256`.
+ */
+const SEAL_SQL = `SELECT count(*)::int AS n,
+    encode(sha256(coalesce(string_agg(int4send(seq) || float8send(t) || float8send(value) || int2send(flags), ''::bytea ORDER BY seq), ''::bytea)), 'hex') AS h
+  FROM readings WHERE capture_id = $1`;
+
 /** Recomputes a capture's seal from its stored rows and compares it with the stored digest. */
 export async function checkSeal(pool: pg.Pool, captureId: number): Promise<SealCheck> {
   const { rows } = await pool.query<{ seal_sha256: string | null; sealed_at: Date | null }>(
@@ -53,13 +62,13 @@ export async function checkSeal(pool: pg.Pool, captureId: number): Promise<SealC
     [captureId],
   );
   if (rows.length === 0) throw new NotFoundError('Capture');
-  const series = await loadSeries(pool, captureId);
-  const recomputed = sealOf(series);
+  const now = await pool.query<{ n: number; h: string }>(SEAL_SQL, [captureId]);
+  const recomputed = now.rows[0].h;
   const stored = rows[0].seal_sha256;
   return {
     captureId,
     sha256: stored,
-    readings: series.seq.length,
+    readings: now.rows[0].n,
     recomputed,
     verified: stored === null ? null : stored === recomputed,
     sealedAt: rows[0].sealed_at,

@@ -3,6 +3,7 @@ import { benchAnalysis } from './analysis.js';
 import { benchIngest } from './ingest.js';
 import { benchImport } from './import.js';
 import { benchAnalysisLoad } from './analysisLoad.js';
+import { benchRecord } from './record.js';
 
 // `npm run bench`: every performance figure of ARCHITECTURE.md's targets, printed, never asserted.
 // Run on an otherwise idle machine: the figures are wall-clock times.
@@ -11,3 +12,4 @@ await benchAnalysis();
 await benchIngest();
 await benchImport();
 await benchAnalysisLoad();
+await benchRecord();
