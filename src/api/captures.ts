@@ -149,6 +149,12 @@ export interface Capture {
   tags: string[];
   referenceOffset: number | null;
   referenceUncertainty: number | null;
+  /** Copied from the reference and the instrument when the capture started (issue 8). */
+  referenceVerifiedAt?: string | null;
+  referenceAgeingPerDay?: number | null;
+  referenceAgeingUPerDay?: number | null;
+  counterType?: 'gated' | 'reciprocal' | 'time-interval' | null;
+  counterResolution?: number | null;
   linkProfile: Record<string, unknown> | null;
   state: CaptureState;
   startedAt: string;
@@ -173,10 +179,10 @@ export interface CaptureDutRef {
   limitUnit: string;
   position: string | null;
   serial: string | null;
+  tuningFork?: { T0: number; uT0: number; B: number; uB: number; defaults: boolean };
 }
 
 /** One capture with the names its page needs (study › checkpoint › DUT). */
-  tuningFork?: { T0: number; uT0: number; B: number; uB: number; defaults: boolean };
 export interface CaptureDetail extends Capture {
   study: { id: number; title: string; status: string } | null;
   dut: CaptureDutRef | null;
@@ -220,25 +226,25 @@ export interface AnalysisQuery {
   kind?: StabilityKind;
   taus?: 'octave' | 'decade' | 'all';
   confidence?: number;
+  /** Drift removed before stability and the budget (server default: linear for frequency). */
+  drift?: DriftModel;
 }
 
 export interface CaptureAnalysis {
   stats: Summary | null;
-  /** Drift removed before stability and the budget (server default: linear for frequency). */
-  drift?: DriftModel;
   correction: CorrectionOut;
   stability: StabilityOut;
   uncertainty: UncertaintyOut | null;
   offsetPpm: number | null;
   temperature: TemperatureOut;
   drift: DriftOut | null;
+  /** The drift model this answer used. */
+  driftModel?: DriftModel;
+  counter?: { kind: string; resolution: number; assumed: boolean };
   gaps: GapOut[];
   counts: CaptureCounts;
   notes: string[];
 }
-  /** The drift model this answer used. */
-  driftModel?: DriftModel;
-  counter?: { kind: string; resolution: number; assumed: boolean };
 
 export type Verdict = 'within' | 'exceeds' | 'inconclusive';
 
