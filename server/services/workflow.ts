@@ -119,16 +119,28 @@ export async function submitStudy(id: number, user: AuthUser, note: string | nul
   return getStudy(id);
 }
 
+/** Wrong passwords a lead may give when signing, per 15 minutes, before approvals are refused (429). */
+export const SIGNATURE_ATTEMPTS = 5;
+const SIGNATURE_WINDOW_MS = 15 * 60_000;
+const failedSignatures = new Map<number, number[]>();
+
 /**
  * In review → approved, by a lead who did not submit it, signing by re-entering their password.
  * The report of the approved revision is kept as it is now (study_revisions), so a later reopen
  * never changes what was approved.
  */
 export async function approveStudy(pool: pg.Pool, id: number, user: AuthUser, password: string, note: string | null) {
+  const now = Date.now();
+  const recent = (failedSignatures.get(user.id) ?? []).filter((t) => now - t < SIGNATURE_WINDOW_MS);
+  if (recent.length >= SIGNATURE_ATTEMPTS) {
+    throw new AppError(429, 'too-many-signatures', 'Too many wrong passwords for a signature: wait 15 minutes before approving again.');
+  }
   const signer = await User.findByPk(user.id);
   if (!signer || !(await bcrypt.compare(password, signer.passwordHash))) {
+    failedSignatures.set(user.id, [...recent, now]);
     throw new AppError(403, 'signature-refused', 'The password does not match: the approval was not signed.');
   }
+  failedSignatures.delete(user.id);
   await Study.sequelize!.transaction(async (t) => {
     const study = await lockStudy(id, t);
     if (!TRANSITIONS.approve.from.includes(study.status)) refuse(study, 'approve');

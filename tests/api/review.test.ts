@@ -173,6 +173,20 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
     }
   });
 
+  it('refuses signatures for 15 minutes after five wrong passwords (429), even with the right one', async () => {
+    const other = await plannedStudy(t, 'Guessing signatures');
+    await capture(t, other);
+    await post(`/api/studies/${other.studyId}/submit`, 'engineer');
+    for (let i = 0; i < 5; i++) {
+      expect((await post(`/api/studies/${other.studyId}/approve`, lead2, { password: `guess-${i}` })).status).toBe(403);
+    }
+    const blocked = await post(`/api/studies/${other.studyId}/approve`, lead2, { password: SECOND_LEAD.password });
+    expect(blocked.status).toBe(429);
+    expect(blocked.body.error.code).toBe('too-many-signatures');
+    const s = await request(t.app).get(`/api/studies/${other.studyId}`).set(await as(t, 'viewer'));
+    expect(s.body.status).toBe('in-review');
+  });
+
   it('answers 404 for a missing study', async () => {
     expect((await post('/api/studies/999999/submit', 'engineer')).status).toBe(404);
     expect((await post('/api/studies/999999/approve', 'lead', { password: DEMO_PASSWORD })).status).toBe(404);
