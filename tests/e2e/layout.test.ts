@@ -15,25 +15,33 @@ const TABLET = { width: 820, height: 1180 };
 
 let server: Awaited<ReturnType<typeof startTestServer>>;
 let browser: Browser;
-let paths: string[] = [];
+/** A page to visit; `bare` pages (a printable report, the forced password change) have no shell and no menu. */
+interface Visit {
+  path: string;
+  bare: boolean;
+}
+let paths: Visit[] = [];
 let ids = { later: 0, open: 0 };
 /** The README's phone screenshots. */
 const SCREENSHOTS = path.resolve('docs/screenshots');
 
 /** The app's route paths with their numeric parameters filled in from the seeded lab. */
-function routePaths(ids: { study: number; capture: number; open: number }): string[] {
+function routePaths(ids: { study: number; capture: number; open: number }): Visit[] {
   const source = readFileSync(path.resolve('src/router/index.ts'), 'utf8');
-  const out = new Set<string>();
-  for (const [, p] of source.matchAll(/path:\s*'([^']+)'/g)) {
-    if (p === '/sign-in' || p.includes('pathMatch')) continue;
+  const out = new Map<string, boolean>();
+  // Each route record from its `path:` to the next one; its meta says whether it is bare.
+  const records = source.split(/(?=\n\s*\{\s*\n\s*path:)/);
+  for (const record of records) {
+    const p = /path:\s*'([^']+)'/.exec(record)?.[1];
+    if (!p || p === '/sign-in' || p.includes('pathMatch')) continue;
     const filled = p.replace(/:(\w+)\([^)]*\)|:(\w+)/g, () => String(p.startsWith('/captures') ? ids.capture : ids.study));
-    out.add(filled);
+    out.set(filled, /bare:\s*true|public:\s*true/.test(record));
   }
   // An open capture watched live, a finished one replayed, and a page that does not exist.
-  out.add(`/captures/${ids.open}/live`);
-  out.add(`/captures/${ids.capture}/live?mode=replay`);
-  out.add('/no-such-page');
-  return [...out];
+  out.set(`/captures/${ids.open}/live`, false);
+  out.set(`/captures/${ids.capture}/live?mode=replay`, false);
+  out.set('/no-such-page', false);
+  return [...out].map(([p, bare]) => ({ path: p, bare }));
 }
 
 /** Horizontal overflow of the page itself (not of boxes that scroll on their own). */
@@ -41,9 +49,9 @@ function pageOverflow(page: Page): Promise<number> {
   return page.evaluate('document.documentElement.scrollWidth - document.documentElement.clientWidth') as Promise<number>;
 }
 
-async function settle(page: Page, url: string): Promise<void> {
+async function settle(page: Page, url: string, bare = false): Promise<void> {
   await page.goto(url);
-  await page.waitForSelector('#main h1', { timeout: 15_000 });
+  await page.waitForSelector(bare ? 'h1' : '#main h1', { timeout: 15_000 });
   // Charts and tables size themselves once their data arrives.
   await page.waitForLoadState('networkidle').catch(() => undefined);
   await page.waitForTimeout(250);
@@ -88,10 +96,11 @@ describe('layout on phones and tablets', () => {
     const session: Session = await login(server.url, role);
     const { page, errors } = await openPage(browser, { viewport: PHONE, session });
     const wide: string[] = [];
-    for (const p of paths) {
-      await settle(page, `${server.url}${p}`);
+    for (const { path: p, bare } of paths) {
+      await settle(page, `${server.url}${p}`, bare);
       const over = await pageOverflow(page);
       if (over > 0) wide.push(`${p}: ${over}px`);
+      if (bare) continue;
       // The rail is gone; the menu button sits in the top bar, on screen.
       expect(await page.locator('.nav-rail--docked').isVisible(), p).toBe(false);
       const menu = page.getByRole('button', { name: 'Menu' });
@@ -132,10 +141,11 @@ describe('layout on phones and tablets', () => {
     const session: Session = await login(server.url, role);
     const { page } = await openPage(browser, { viewport: TABLET, session });
     const wide: string[] = [];
-    for (const p of paths) {
-      await settle(page, `${server.url}${p}`);
+    for (const { path: p, bare } of paths) {
+      await settle(page, `${server.url}${p}`, bare);
       const over = await pageOverflow(page);
       if (over > 0) wide.push(`${p}: ${over}px`);
+      if (bare) continue;
       const rail = page.locator('.nav-rail--docked');
       expect(await rail.isVisible(), p).toBe(true);
       const box = (await rail.boundingBox())!;
