@@ -3,7 +3,6 @@ import type pg from 'pg';
 import { z } from 'zod';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
-import { NotFoundError } from '../errors.js';
 import { importCapture, importProgress } from '../services/captureImport.js';
 import type { LiveHub } from '../ws/live.js';
 
@@ -21,9 +20,7 @@ export function captureImportRouter(pool: pg.Pool, hub: LiveHub): Router {
   });
   r.get('/import/progress/:key', authorize('captures:run'), (req, res) => {
     const { key } = parse(KeyParam, req.params, 'key');
-    const p = importProgress(key, currentUser(req));
-    if (!p) throw new NotFoundError('Import');
-    res.json(p);
+    res.json(importProgress(key, currentUser(req)));
   });
   return r;
 }

@@ -38,10 +38,13 @@ function track(key: string | undefined, userId: number, p: Partial<ImportProgres
   }
 }
 
-/** A running or recent import's progress, for the user who started it; null when unknown. */
-export function importProgress(key: string, user: Pick<AuthUser, 'id'>): ImportProgress | null {
+/**
+ * A running or recent import's progress, for the user who started it. A key this user has no
+ * import under answers phase 'unknown' (the client may poll before the server has seen the file).
+ */
+export function importProgress(key: string, user: Pick<AuthUser, 'id'>): ImportProgress {
   const p = progress.get(key);
-  if (!p || p.userId !== user.id) return null;
+  if (!p || p.userId !== user.id) return { phase: 'unknown', rows: 0, stored: 0 };
   return { phase: p.phase, rows: p.rows, stored: p.stored };
 }
 

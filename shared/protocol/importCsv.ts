@@ -66,7 +66,8 @@ export interface CaptureImportResult {
   readings: number;
 }
 
-export type ImportPhase = 'receiving' | 'storing' | 'finishing' | 'done' | 'failed';
+/** 'unknown': no import under this key for this user (not started yet, or long over). */
+export type ImportPhase = 'unknown' | 'receiving' | 'storing' | 'finishing' | 'done' | 'failed';
 export interface ImportProgress {
   phase: ImportPhase;
   /** Rows read so far (all of them once storing starts). */

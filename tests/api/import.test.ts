@@ -144,9 +144,11 @@ describe('importing readings logged elsewhere', () => {
     expect(res.status).toBe(201);
     const p = await request(t.app).get('/api/captures/import/progress/import-key-0001').set(await auth('technician'));
     expect(p.body).toEqual({ phase: 'done', rows: 2, stored: 2 });
-    // Another user does not see it.
+    // Another user does not see it: for them the key holds nothing.
     const other = await request(t.app).get('/api/captures/import/progress/import-key-0001').set(await auth('engineer'));
-    expect(other.status).toBe(404);
+    expect(other.body).toEqual({ phase: 'unknown', rows: 0, stored: 0 });
+    const bad = await request(t.app).get('/api/captures/import/progress/x').set(await auth('technician'));
+    expect(bad.status).toBe(400);
   });
 
   it('refuses to import into an approved (locked) study', async () => {

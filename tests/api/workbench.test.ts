@@ -38,7 +38,7 @@ async function countQueries(fn: () => Promise<unknown>): Promise<number> {
     n++;
     return original.apply(this, a);
   };
-  const options = t.db.sequelize.options as { logging?: unknown };
+  const options = (t.db.sequelize as unknown as { options: { logging?: unknown } }).options;
   const logging = options.logging;
   options.logging = () => {
     n++;

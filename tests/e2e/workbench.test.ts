@@ -69,7 +69,7 @@ describe('the comparison workbench', () => {
     await page.waitForURL(/\/compare\?study=1/);
     await page.waitForSelector('[data-testid="compare-matrix"]');
     for (const cp of checkpoints.slice(0, 3)) await page.click(`[data-testid="compare-cell-${fork}-${cp}"]`);
-    await page.waitForFunction(() => document.querySelectorAll('[data-legend-series]').length === 3);
+    await expect.poll(() => page.locator('[data-legend-series]').count(), { timeout: 30_000 }).toBe(3);
     await page.waitForURL(new RegExp(`ids=${forkCaptures.join('%2C')}|ids=${forkCaptures.join(',')}`));
     const legend = await page.locator('[data-legend-series]').allInnerTexts();
     expect(legend.map((l) => l.trim())).toEqual(forkCaptures.map((id) => expect.stringContaining(`#${id}`)));
@@ -110,7 +110,7 @@ describe('the comparison workbench', () => {
     // A colleague opens the address.
     const other = await openPage(browser, { session: viewer });
     await other.page.goto(shared);
-    await other.page.waitForFunction(() => document.querySelectorAll('[data-legend-series]').length === 3);
+    await expect.poll(() => other.page.locator('[data-legend-series]').count(), { timeout: 30_000 }).toBe(3);
     expect(await other.page.locator('[data-legend-series]').allInnerTexts()).toEqual(legend);
     expect(await other.page.getAttribute('[data-testid="compare-plot"]', 'data-kind')).toBe('mdev');
     await other.page.waitForSelector('[data-testid="before-after"] .verdict-glyph__word');
@@ -132,7 +132,7 @@ describe('the comparison workbench', () => {
     // A shift close to the limit needs a longer capture.
     await page.fill('[data-testid="planner-shift"] input', '0.99');
     await page.press('[data-testid="planner-shift"] input', 'Tab');
-    await page.waitForFunction(() => /Shortest capture that decides within: (?!2 s)/.test(document.querySelector('[data-testid="planner-answer"]')?.textContent ?? ''));
+    await expect.poll(() => page.locator('[data-testid="planner-answer"]').innerText(), { timeout: 30_000 }).toMatch(/Shortest capture that decides within: (?!2 s)/);
     await page.locator('[data-testid="planner"]').screenshot({ path: path.join(SCREENSHOTS, 'planner.png') });
     await page.click('[data-testid="planner-use"]');
     expect(await page.locator('[data-field="target-seconds"] input').inputValue()).toMatch(/^\d+$/);
@@ -170,14 +170,14 @@ describe('the comparison workbench', () => {
     const { page, errors } = await openPage(browser, { session: technician, ignoreErrors: [/400/] });
     await page.goto(`${server.url}/captures/import`);
     await page.waitForSelector('[data-testid="import-dut"]');
-    await page.waitForFunction(() => !!document.querySelector('[data-testid="import-dut"] .el-select__selected-item:not(.is-transparent)'));
+    await expect.poll(() => page.locator('[data-testid="import-dut"]').innerText(), { timeout: 30_000 }).toMatch(/Y1/);
     const good = ['Logger: bench counter', '# gate 1 s', 'time,frequency', ...Array.from({ length: 50 }, (_, i) => `${i},${16000000 + (i % 7) * 1e-3} Hz`)].join('\n');
     await page.setInputFiles('[data-testid="import-file"]', { name: 'bad.csv', mimeType: 'text/csv', buffer: Buffer.from(good.replace(/^5,.*$/m, '5,sixteen')) });
     await page.waitForSelector('[data-testid="import-preview"]');
     await page.screenshot({ path: path.join(RESULTS, 'import-preview.png'), fullPage: true });
     expect(await page.locator('[data-testid="import-problems"]').innerText()).toMatch(/Line 9, column 2 \(frequency\): not a number/);
     await page.setInputFiles('[data-testid="import-file"]', { name: 'good.csv', mimeType: 'text/csv', buffer: Buffer.from(good) });
-    await page.waitForFunction(() => /50 readings/.test(document.querySelector('[data-testid="import-problems"]')?.textContent ?? ''));
+    await expect.poll(() => page.locator('[data-testid="import-problems"]').innerText(), { timeout: 30_000 }).toMatch(/50 readings/);
     await page.click('[data-testid="import-send"]');
     await page.waitForURL(/\/captures\/\d+$/);
     expect(errors).toEqual([]);
