@@ -79,11 +79,11 @@ describe('the uncertainty a metrologist signs, on screen', () => {
 
     // The drift control re-reduces the capture: without removal the budget has no drift line.
     await page.locator('[data-control="drift"] label', { hasText: 'no drift removal' }).click();
-    // (Strings run in the page: the Node-side typecheck has no DOM types.)
-    await page.waitForFunction(`!document.querySelector('[aria-labelledby="budget-title"] .budget')?.textContent?.includes('Drift during the capture')`);
+    const ownBudget = () => page.locator('[aria-labelledby="budget-title"] .budget').innerText();
+    await expect.poll(ownBudget, { timeout: 30_000 }).not.toContain('Drift during the capture');
     expect(await page.locator('[data-budget="drift-model"]').innerText()).toMatch(/No drift removed/);
     await page.locator('[data-control="drift"] label', { hasText: 'quadratic' }).click();
-    await page.waitForFunction(`document.querySelector('[aria-labelledby="budget-title"] .budget')?.textContent?.includes('quadratic drift')`);
+    await expect.poll(ownBudget, { timeout: 30_000 }).toContain('quadratic drift');
     expect(errors).toEqual([]);
   }, 90_000);
 
@@ -127,7 +127,7 @@ describe('the uncertainty a metrologist signs, on screen', () => {
     await dialog.locator('input[name="turnoverU"]').fill('0.8');
     await page.screenshot({ path: path.join(RESULTS, 'issue8-dut-dialog.png') });
     await dialog.locator('button', { hasText: 'Save DUT' }).click();
-    await page.waitForFunction(`document.querySelector('[data-dut-label^="Y3"]')?.textContent?.includes('-1 / +2 ppm')`);
+    await expect.poll(() => fork.innerText(), { timeout: 30_000 }).toContain('-1 / +2 ppm');
     expect(await fork.locator('[data-fork="parabola"]').innerText()).toMatch(/T0 24\.5 ± 0\.8 °C/);
     expect(errors).toEqual([]);
   }, 60_000);
