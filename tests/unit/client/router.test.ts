@@ -81,8 +81,8 @@ describe('router guard', () => {
 
   it('shows Users and Outbox to admins only and Bench to everyone who captures', () => {
     const router = createAppRouter(createMemoryHistory());
-    expect(navItemsFor(router, 'admin').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab', 'Users', 'Outbox']);
-    expect(navItemsFor(router, 'technician').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab']);
-    expect(navItemsFor(router, 'viewer').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Captures', 'Compare', 'Links', 'Lab']);
+    expect(navItemsFor(router, 'admin').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab', 'Users', 'Outbox', 'Help']);
+    expect(navItemsFor(router, 'technician').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab', 'Help']);
+    expect(navItemsFor(router, 'viewer').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Captures', 'Compare', 'Links', 'Lab', 'Help']);
   });
 });
