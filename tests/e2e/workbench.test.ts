@@ -182,4 +182,20 @@ describe('the comparison workbench', () => {
     await page.waitForURL(/\/captures\/\d+$/);
     expect(errors).toEqual([]);
   });
+
+  it('shows the upload and the server’s progress while a large file imports', async () => {
+    const { page, errors } = await openPage(browser, { session: technician });
+    await page.goto(`${server.url}/captures/import`);
+    await expect.poll(() => page.locator('[data-testid="import-dut"]').innerText(), { timeout: 30_000 }).toMatch(/Y1/);
+    const rows = Array.from({ length: 300_000 }, (_, i) => `${i / 10},${16000000 + (i % 1000) * 1e-5}`);
+    await page.setInputFiles('[data-testid="import-file"]', { name: 'large.csv', mimeType: 'text/csv', buffer: Buffer.from(['t,f', ...rows].join('\n')) });
+    await page.fill('[data-testid="import-gate"] input', '0.1');
+    await page.press('[data-testid="import-gate"] input', 'Tab');
+    await page.click('[data-testid="import-send"]');
+    await page.waitForSelector('[data-testid="import-progress"]');
+    await expect.poll(() => page.locator('[data-testid="import-progress"]').innerText(), { timeout: 60_000 }).toMatch(/rows read/);
+    await page.screenshot({ path: path.join(RESULTS, 'import-progress.png'), fullPage: true });
+    await page.waitForURL(/\/captures\/\d+$/, { timeout: 120_000 });
+    expect(errors).toEqual([]);
+  });
 });
