@@ -163,6 +163,9 @@ describe('a database outage answers 503 (item 11)', () => {
         expect(res.body.error.code).toBe('database-unavailable');
       }
       expect(lines.filter((l) => l.includes('database unreachable'))).toHaveLength(1);
+      const health = await request(app).get('/api/health');
+      expect(health.status).toBe(503);
+      expect(health.headers['retry-after']).toBe('5');
     } finally {
       await adminClient.query(`ALTER DATABASE "${dbName}" ALLOW_CONNECTIONS true`);
       await adminClient.end();
