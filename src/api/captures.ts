@@ -197,6 +197,7 @@ export interface CaptureListQuery {
   dutId?: number;
   checkpointId?: number;
   state?: CaptureState;
+  /** How many captures to fetch at most (newest first), over as many pages as that takes. */
   limit?: number;
 }
 
