@@ -114,3 +114,16 @@ describe('simulated captures', () => {
     expect(cell.comparison?.conditions.map((c) => c.key)).toEqual(['reference', 'ambient', 'simulated']);
   });
 });
+
+describe('the bench\'s target on a capture', () => {
+  it('stores a duration or count target for watchers and refuses a malformed one', async () => {
+    const base = { dutId: ids.crystal.id, checkpointId: ids.checkpoints[3], quantity: 'frequency', unit: 'Hz', gateTime: 1 };
+    const timed = await as(technician).post('/api/captures', { ...base, target: { kind: 'duration', seconds: 600 } });
+    expect(timed.status).toBe(201);
+    expect((await as(technician).get(`/api/captures/${timed.body.id}`)).body.target).toEqual({ kind: 'duration', seconds: 600 });
+    const counted = await as(technician).post('/api/captures', { ...base, target: { kind: 'count', n: 1000 } });
+    expect(counted.body.target).toEqual({ kind: 'count', n: 1000 });
+    expect((await as(technician).post('/api/captures', { ...base, target: { kind: 'duration', seconds: -1 } })).status).toBe(400);
+    expect((await as(technician).post('/api/captures', { ...base })).body.target).toBeNull();
+  });
+});
