@@ -38,7 +38,8 @@ const stopCluster = () => cluster?.stop();
 try {
   // DRIFTBENCH_SKIP_BUILD=1 serves dist/ as it is (the restart test; a machine without the toolchain).
   if (process.env.DRIFTBENCH_SKIP_BUILD !== '1') buildClientIfStale(PROJECT_ROOT);
-  const running = await startServer(configuredServerOptions(config, databaseUrl, log));
+  // npm start tells the demo's story: finished captures, an approved study and a capture on air.
+  const running = await startServer({ ...configuredServerOptions(config, databaseUrl, log), demoStory: config.demo });
   console.log(`\nDriftbench is running at ${running.url}`);
   if (config.demo) {
     console.log(`Demo sign-ins (password "${DEMO_PASSWORD}"):`);

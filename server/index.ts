@@ -16,6 +16,7 @@ import type { UploadPolicy } from './services/attachments.js';
 import { startMailWorker, transportFor, type MailWorker } from './services/mail.js';
 import { startLocalMail, type LocalMailService } from './services/localMail.js';
 import { startSchedules } from './services/schedules.js';
+import { findOnAir, seedDemoStory, startDemoFeeder } from './db/demoStory.js';
 
 export const PROJECT_ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 
@@ -25,6 +26,8 @@ export interface ServerOptions {
   host?: string;
   port?: number;
   demo?: boolean;
+  /** With demo: seed the demo's captures and approved study once, and feed its on-air capture live. */
+  demoStory?: boolean;
   /** Deactivate demo accounts that still have the demo password (production without DRIFTBENCH_DEMO=1). */
   retireDemo?: boolean;
   clientDir?: string;
@@ -61,6 +64,11 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
   const log = opts.log ?? pino({ level: 'info' });
   const db = await prepareDatabase(opts.databaseUrl, { demo: opts.demo ?? false, log, retireDemo: opts.retireDemo });
   const hub = createLiveHub(opts.jwtSecret, db.pool);
+  let stopFeeder: (() => void) | undefined;
+  if (opts.demo && opts.demoStory) {
+    const onAir = (await seedDemoStory(db.pool, hub, log)) ?? (await findOnAir());
+    if (onAir) stopFeeder = startDemoFeeder(db.pool, hub, onAir, log);
+  }
   const analysis = new AnalysisPool(opts.databaseUrl);
   const app = createApp({
     db,
@@ -119,6 +127,7 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
     async close() {
       if (closed) return;
       closed = true;
+      stopFeeder?.();
       schedules?.stop();
       await mailWorker?.stop();
       await localMail?.close();
