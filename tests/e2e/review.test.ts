@@ -250,6 +250,29 @@ describe('review and sign-off in the browser', () => {
     expect(again.text).toContain('Approved for revision 1 by');
   });
 
+  it('prints on Letter paper when Letter is chosen, A4 otherwise', async () => {
+    const { page, errors } = await openAs(lead);
+    await page.goto(`${server.url}/studies/1/report`);
+    await page.waitForSelector('[data-testid="report"]');
+    const sizeOf = async (name: string) => {
+      const file = path.join(RESULTS, `${name}.pdf`);
+      writeFileSync(file, await page.pdf({ preferCSSPageSize: true, printBackground: true }));
+      const m = /Page size:\s+([\d.]+) x ([\d.]+) pts/.exec(execFileSync('pdfinfo', [file]).toString('utf8'));
+      return [Number(m?.[1]), Number(m?.[2])];
+    };
+    // A4 is 595.28 × 841.89 pt and Letter 612 × 792 pt (ISO 216; ANSI letter, 8.5 × 11 in);
+    // Chromium rounds page sizes to its pixel grid, so within 1 pt.
+    const [aw, ah] = await sizeOf('report-a4');
+    expect(Math.abs(aw - 595.28)).toBeLessThan(1);
+    expect(Math.abs(ah - 841.89)).toBeLessThan(1);
+    await page.locator('label:has-text("Letter")').click();
+    const [lw, lh] = await sizeOf('report-letter');
+    expect(Math.abs(lw - 612)).toBeLessThan(1);
+    expect(Math.abs(lh - 792)).toBeLessThan(1);
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+
   it('shows the admin the e-mails on the Outbox page', async () => {
     // The worker delivers through the local mail service in the server process.
     await server.server.mailWorker!.deliverDue();
