@@ -205,7 +205,75 @@ export function tuningForkDelta(
       );
     }
   }
+  // The lines above are first order (plus each unrecorded ambient's own parabola term). The model
+  // is a product of its inputs — B·(T − T0)² — so T0 × ambient, B × ambient and B × T0 products add
+  // variance that no first-order line carries (JCGM 100 §5.1.2 note: (2B)²·u(T0)²·u(T)² and
+  // alike). It is evaluated exactly: Δ is a polynomial of degree ≤ 4 in the inputs, so a 3-point
+  // Gauss rule per input (Legendre for rectangular, Hermite for normal; exact to degree 5) gives
+  // E[Δ²] and E[Δ] without error. What the first-order lines leave out becomes one line.
+  const exactVar = exactVariance(a, b, fork, thermometer, lo, hi);
+  const firstOrder = terms.reduce((s, t) => s + t.contributionPpm ** 2, 0);
+  const extra = Math.sqrt(Math.max(0, exactVar - firstOrder));
+  if (extra > 0) {
+    push({
+      name: 'Product terms (T0, B × ambients)',
+      symbol: 'u_T2',
+      value: extra,
+      unit: 'ppm',
+      sensitivityPpm: 1,
+      distribution: 'normal',
+      note:
+        `Second-order terms of the parabola: T0, B and the ambients multiply in B·(T − T0)², so their uncertainties combine beyond first order ` +
+        `(${fmt(extra)} ppm; exact variance of the model over its input distributions, less the first-order lines).`,
+      source: 'JCGM 100:2008 §5.1.2 note (higher-order terms)',
+    });
+  }
   return { shiftBeforePpm: b.shift, shiftAfterPpm: a.shift, ambientBefore: b.est, ambientAfter: a.est, terms, notes };
+}
+
+/** 3-point Gauss rules as (offset in standard uncertainties, weight), exact to degree 5. */
+const RECT_RULE: ReadonlyArray<readonly [number, number]> = [[-Math.sqrt(3 * 0.6), 5 / 18], [0, 8 / 18], [Math.sqrt(3 * 0.6), 5 / 18]];
+const NORMAL_RULE: ReadonlyArray<readonly [number, number]> = [[-Math.sqrt(3), 1 / 6], [0, 2 / 3], [Math.sqrt(3), 1 / 6]];
+
+/**
+ * Exact variance (ppm²) of Δ_T = −B[(T_a − T0)² − (T_b − T0)²] + (the expected shifts, constants)
+ * over independent inputs: B and T0 rectangular with u(B), u(T0); the thermometer bias normal
+ * (shared by the recorded sides); each recorded reading normal; an unrecorded ambient rectangular
+ * over the lab range. Product Gauss quadrature, exact for this polynomial.
+ */
+function exactVariance(
+  a: { known: boolean; est: number },
+  b: { known: boolean; est: number },
+  fork: TuningForkParameters,
+  th: ThermometerModel,
+  lo: number,
+  hi: number,
+): number {
+  const mid = (lo + hi) / 2;
+  const uLab = (hi - lo) / (2 * Math.sqrt(3));
+  type Axis = ReadonlyArray<readonly [number, number]>;
+  const axis = (m: number, u: number, rule: Axis): Axis => (u > 0 ? rule.map(([z, w]) => [m + z * u, w] as const) : [[m, 1] as const]);
+  const Bs = axis(fork.B, fork.uB, RECT_RULE);
+  const T0s = axis(fork.T0, fork.uT0, RECT_RULE);
+  const bias = axis(0, a.known || b.known ? th.uBias : 0, NORMAL_RULE);
+  const side = (s: { known: boolean; est: number }) => (s.known ? axis(s.est, th.uReading, NORMAL_RULE) : axis(mid, uLab, RECT_RULE));
+  const As = side(a);
+  const Bsd = side(b);
+  let m1 = 0;
+  let m2 = 0;
+  for (const [B, wB] of Bs)
+    for (const [T0, w0] of T0s)
+      for (const [e, we] of bias)
+        for (const [Ta, wa] of As)
+          for (const [Tb, wb] of Bsd) {
+            const ta = Ta + (a.known ? e : 0);
+            const tb = Tb + (b.known ? e : 0);
+            const d = -B * ((ta - T0) ** 2 - (tb - T0) ** 2);
+            const w = wB * w0 * we * wa * wb;
+            m1 += w * d;
+            m2 += w * d * d;
+          }
+  return Math.max(0, m2 - m1 * m1);
 }
 
 function fmt(v: number): string {
