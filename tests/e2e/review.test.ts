@@ -101,22 +101,23 @@ describe('review and sign-off in the browser', () => {
     const { page, errors } = await studyPage(engineer);
     await page.locator('[data-testid="drop-zone"]').scrollIntoViewIfNeeded();
     // A real drop: a DataTransfer holding a PNG made by a canvas in the page.
-    await page.evaluate(async () => {
+    // (A string, not a function: the Node project's types have no DOM.)
+    await page.evaluate(`(async () => {
       const canvas = document.createElement('canvas');
       canvas.width = 64;
       canvas.height = 48;
-      const g = canvas.getContext('2d')!;
+      const g = canvas.getContext('2d');
       g.fillStyle = '#2d6e4f';
       g.fillRect(0, 0, 64, 48);
       g.fillStyle = '#c8a24a';
       g.fillRect(20, 14, 24, 20);
-      const blob: Blob = await new Promise((resolve) => canvas.toBlob((b) => resolve(b!), 'image/png'));
+      const blob = await new Promise((resolve) => canvas.toBlob((b) => resolve(b), 'image/png'));
       const dt = new DataTransfer();
       dt.items.add(new File([blob], 'board-top.png', { type: 'image/png' }));
-      const zone = document.querySelector('[data-testid="drop-zone"]')!;
+      const zone = document.querySelector('[data-testid="drop-zone"]');
       zone.dispatchEvent(new DragEvent('dragenter', { dataTransfer: dt, bubbles: true, cancelable: true }));
       zone.dispatchEvent(new DragEvent('drop', { dataTransfer: dt, bubbles: true, cancelable: true }));
-    });
+    })()`);
     await page.locator('[data-testid="attachments"] img[alt="Thumbnail of board-top.png"]').waitFor();
     expect(await page.locator('[data-testid="attachments"]').innerText()).toContain('Emil Engineer');
     // A printout for the baseline checkpoint, chosen as the target, through the file picker.
