@@ -129,6 +129,80 @@ export function stabilityOf(p: Prepared, kind: StabilityKind, taus: 'octave' | '
   };
 }
 
+/**
+ * The Allan deviation at the capture span for the type A term. The longest octave τ is at most
+ * T/2 (often T/4), so σ_y(τ_last) is carried to τ = T with the slope of the noise: 0 for white and
+ * flicker noise (σ_y falls or stays, so τ_last is conservative), +1/2 for random-walk FM, and where
+ * the noise type is not supported the plotted slope clamped to 0 … +1/2 (+1/2 when there is none, or
+ * when the label carried from shorter τ is random-walk FM).
+ * Review of issue 8, F8; slopes from NIST SP 1065 Table 3.
+ */
+function longTermInstability(
+  last: { tau: number; dev: number; edf: number; noise: string; noiseSupported: boolean; slope: number | null },
+  span: number,
+  notes: string[],
+): { dev: number; edf: number } {
+  if (!(span > last.tau)) return { dev: last.dev, edf: last.edf };
+  const exponent = last.noiseSupported
+    ? last.noise === 'rwfm'
+      ? 0.5
+      : 0
+    : Math.max(Math.min(0.5, Math.max(0, last.slope ?? 0.5)), last.noise === 'rwfm' ? 0.5 : 0);
+  if (exponent === 0) return { dev: last.dev, edf: last.edf };
+  const dev = last.dev * (span / last.tau) ** exponent;
+  notes.push(
+    `Long-term instability: σ_y at τ = ${Number(last.tau.toPrecision(3))} s carried to the span (${Number(span.toPrecision(3))} s) ` +
+      `with slope +${exponent.toFixed(2)}${last.noiseSupported ? ' (random-walk FM)' : ' (noise type not identified: the plotted slope, at most +1/2)'}.`,
+  );
+  return { dev, edf: last.edf };
+}
+
+/**
+ * The counter-resolution input. Recorded type and resolution are used as they are. When the capture
+ * does not say which counter it came from, nothing may be assumed in the reading's favour (review
+ * of issue 8, F3): the display step q is inferred from the readings (the smallest difference
+ * between distinct values) and booked as ±1 step, never less than a 100 ps reciprocal counter;
+ * identical readings give no step, so a gated counter's ±1 count in the gate is taken.
+ */
+function resolutionFor(
+  c: Capture,
+  p: Prepared,
+  counter: { kind: 'gated'; counts: number; assumed?: boolean } | { kind: 'reciprocal' | 'time-interval'; tRes: number; assumed?: boolean },
+  notes: string[],
+): { kind: 'gated'; counts: number } | { kind: 'reciprocal' | 'time-interval'; tRes: number } {
+  if (c.counterType) return counter;
+  const step = displayStep(p.values);
+  const nominal = c.nominal ?? 0;
+  const reciprocalHz = (ASSUMED_COUNTER.tRes / c.gateTime) * nominal;
+  if (step === null) {
+    notes.push(
+      'The counter type was not recorded and every reading is identical: the resolution is taken as a gated counter\'s ±1 count in the gate (±' +
+        `${Number((1 / c.gateTime).toPrecision(3))} Hz).`,
+    );
+    return { kind: 'gated', counts: 1 };
+  }
+  if (step > reciprocalHz) {
+    notes.push(
+      `The counter type was not recorded: the resolution is taken as ±1 display step of the readings (${Number(step.toPrecision(3))} Hz).`,
+    );
+    return { kind: 'gated', counts: step * c.gateTime };
+  }
+  notes.push('The counter type was not recorded: the readings resolve finer than a 100 ps reciprocal counter, which is assumed.');
+  return { kind: ASSUMED_COUNTER.kind, tRes: ASSUMED_COUNTER.tRes };
+}
+
+/** The smallest positive difference between distinct values (the display's step), null when all are equal. */
+export function displayStep(values: Float64Array): number | null {
+  if (values.length < 2) return null;
+  const sorted = Float64Array.from(values).sort();
+  let step = Infinity;
+  for (let i = 1; i < sorted.length; i++) {
+    const d = sorted[i] - sorted[i - 1];
+    if (d > 0 && d < step) step = d;
+  }
+  return Number.isFinite(step) ? step : null;
+}
+
 /** Temperature coefficient (fractional per °C) at the capture's ambient, where the DUT kind has a known curve. */
 function temperatureCoefficient(dut: Dut | null, ambientC: number | null): number | undefined {
   if (!dut || ambientC === null) return undefined;
@@ -219,12 +293,13 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?:
         ? { kind: c.counterType, tRes: c.counterResolution ?? ASSUMED_COUNTER.tRes }
         : { ...ASSUMED_COUNTER, assumed: true };
   let uncertainty = null;
+  let usedResolution: { kind: 'gated'; counts: number } | { kind: 'reciprocal' | 'time-interval'; tRes: number } = counter;
   if (c.quantity === 'frequency' && p.stats && (c.nominal ?? 0) > 0) {
     const last = stab.points[stab.points.length - 1];
     const tempco = temperatureCoefficient(dut, c.ambientC);
     // With the drift removed, the scatter about the trend is the repeatability; the drift itself
     // becomes its own line (the mean depends on when the capture stops).
-    let stats: { n: number; mean: number; sd: number; sem: number } = p.stats;
+    let stats: { n: number; mean: number; sd: number; sem: number; dof?: number } = p.stats;
     if (fit && p.y.length === p.stats.n) {
       const nominal = c.nominal!;
       let ss = 0;
@@ -232,10 +307,12 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?:
       for (let i = 0; i < fit.detrended.length; i++) mean += fit.detrended[i];
       mean /= fit.detrended.length;
       for (let i = 0; i < fit.detrended.length; i++) ss += (fit.detrended[i] - mean) ** 2;
-      const sd = Math.sqrt(ss / (fit.detrended.length - 1)) * nominal;
-      stats = { n: p.stats.n, mean: p.stats.mean, sd, sem: sd / Math.sqrt(p.stats.n) };
+      // The residuals about a fitted line (parabola) keep n − 2 (n − 3) degrees of freedom.
+      const dof = Math.max(1, fit.detrended.length - 1 - (fit.model === 'quadratic' ? 2 : 1));
+      const sd = Math.sqrt(ss / dof) * nominal;
+      stats = { n: p.stats.n, mean: p.stats.mean, sd, sem: sd / Math.sqrt(p.stats.n), dof };
     }
-    if (!c.counterType) notes.push('The counter type was not recorded with this capture: a reciprocal counter with 100 ps resolution is assumed.');
+    const longTerm = last ? longTermInstability(last, span, notes) : undefined;
     const days = daysSinceVerification(c, p);
     const ageing =
       c.referenceAgeingPerDay !== null && c.referenceAgeingPerDay !== undefined && days !== null
@@ -253,10 +330,12 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?:
       nominal: c.nominal!,
       gateTime: c.gateTime,
       span,
-      adevAtSpan: last?.dev,
-      adevEdf: last?.edf,
-      noise: last?.noise,
-      resolution: counter,
+      adevAtSpan: longTerm?.dev,
+      adevEdf: longTerm?.edf,
+      // A noise label the plotted slope does not support is no basis for choosing s/√n: the
+      // budget then takes the larger of s/√n and the long-term term (review of issue 8, F1).
+      noise: last?.noiseSupported ? last.noise : undefined,
+      resolution: (usedResolution = resolutionFor(c, p, counter, notes)),
       reference:
         c.referenceUncertainty !== null ? { offset: c.referenceOffset ?? 0, u: c.referenceUncertainty, ...(ageing ? { ageing } : {}) } : undefined,
       temperature: tempco !== undefined ? { coeffPerC: tempco, uC: THERMOMETER_U_C } : undefined,
@@ -292,7 +371,7 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?:
     temperature: { ambientC: c.ambientC, normalizedPpm, t0: fork?.T0 ?? TUNING_FORK_T0, ...(fork ? { tuningFork: fork } : {}) },
     drift,
     midpoint: midpoint ? midpoint.toISOString() : null,
-    counter: { kind: counter.kind, resolution: 'counts' in counter ? counter.counts : counter.tRes, assumed: !c.counterType },
+    counter: { kind: usedResolution.kind, resolution: 'counts' in usedResolution ? usedResolution.counts : usedResolution.tRes, assumed: !c.counterType },
     gaps,
     stability: stab,
     uncertainty,

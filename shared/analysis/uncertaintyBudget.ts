@@ -33,7 +33,8 @@ export interface BudgetComponent {
 
 export interface UncertaintyBudgetInput {
   /** Statistics of the gate-time readings in Hz (e.g. from summarize). */
-  stats: { n: number; mean: number; sd: number; sem: number };
+  /** dof: degrees of freedom of sd when not n − 1 (n − 2 after a line is fitted, n − 3 after a parabola). */
+  stats: { n: number; mean: number; sd: number; sem: number; dof?: number };
   /** Nominal frequency in Hz. */
   nominal: number;
   /** Gate time in seconds. */
@@ -259,7 +260,7 @@ function typeA(input: UncertaintyBudgetInput, notes: string[]): BudgetComponent 
       value: stats.sem,
       distribution: 't',
       type: 'A',
-      dof: stats.n - 1,
+      dof: stats.dof ?? stats.n - 1,
       key: 'type-a',
       source: 'JCGM 100 §4.2',
       note,
