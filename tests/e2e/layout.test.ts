@@ -51,7 +51,9 @@ function pageOverflow(page: Page): Promise<number> {
 
 async function settle(page: Page, url: string, bare = false): Promise<void> {
   await page.goto(url);
-  await page.waitForSelector(bare ? 'h1' : '#main h1', { timeout: 15_000 });
+  await page.waitForSelector(bare ? 'h1' : '#main h1', { timeout: 20_000 }).catch((err: Error) => {
+    throw new Error(`${url}: no page title within 20 s (${err.message.split('\n')[0]})`);
+  });
   // Charts and tables size themselves once their data arrives.
   await page.waitForLoadState('networkidle').catch(() => undefined);
   await page.waitForTimeout(250);
