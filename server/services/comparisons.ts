@@ -1,6 +1,6 @@
 import type pg from 'pg';
 import { AnalysisError, compare, tuningForkDelta, type DeltaTerm, type DriftModel } from '../../shared/analysis/index.js';
-import { Capture, Checkpoint, Dut, Study } from '../models/index.js';
+import { Capture, Checkpoint, Dut, Reference, Study } from '../models/index.js';
 import { AppError, NotFoundError, ValidationError } from '../errors.js';
 import { conditionsBetween } from './conditions.js';
 import {
@@ -28,6 +28,76 @@ export async function summaryOf(pool: pg.Pool, c: Capture, dut: Dut | null, drif
 }
 
 const DAY_MS = 86_400_000;
+
+/** Half-width of a counter's internal timebase offset when no reference is used (common practice, no source). */
+export const DEFAULT_TIMEBASE_HALF_WIDTH = 1e-6;
+
+/**
+ * Ageing per day (fractional, taken as a standard uncertainty) of a reference with no rate on
+ * record, by kind (common practice, no source): a disciplined source does not age, an atomic one
+ * barely, an OCXO and a counter's internal timebase do.
+ */
+export const DEFAULT_AGEING_PER_DAY: Record<string, number> = {
+  'gnss-disciplined': 0,
+  rubidium: 1e-11,
+  ocxo: 1e-9,
+  'internal-timebase': 1e-8,
+  other: 1e-8,
+};
+
+/**
+ * Resolution (one LSB) of a reading, per unit, for a capture without a frequency budget
+ * (review8 F7; common practice, no source): mg for the demo's ±2 g accelerometer at 0.0625 mg/LSB,
+ * a 6½-digit voltmeter's last digit, one count.
+ */
+export const DEFAULT_LSB: Record<string, number> = { mg: 0.0625, g: 0.0625e-3, V: 1e-6, mV: 1e-3, counts: 1, count: 1 };
+
+function sameInstant(a: string | Date | null, b: string | Date | null): boolean {
+  if (a === null || b === null) return a === b;
+  return new Date(a).getTime() === new Date(b).getTime();
+}
+
+/**
+ * The budget of a capture that has none of its own (every non-frequency capture): the standard
+ * error of the mean with ν = n − 1 (JCGM 100 §4.2) and the reading's resolution, rectangular with
+ * a = half an LSB (§4.3.7, F.2.2.1), so that identical readings never give U = 0 (review8 F7).
+ */
+function plainBudget(c: Capture, s: CaptureSummary, notes: string[]) {
+  const { n, sem } = s.stats!;
+  const lines: Array<{ name: string; value: number; contribution: number; dof: number; type: 'A' | 'B'; distribution: 'normal' | 'rectangular'; unit: string; note: string; source: string; key: string }> = [
+    {
+      name: 'Repeatability (standard error of the mean)',
+      value: sem,
+      contribution: sem,
+      dof: Math.max(1, n - 1),
+      type: 'A',
+      distribution: 'normal',
+      unit: c.unit,
+      note: `s/√n over ${n} readings, ν = n − 1 = ${n - 1}.`,
+      source: 'JCGM 100:2008 §4.2',
+      key: 'type-a',
+    },
+  ];
+  const lsb = DEFAULT_LSB[c.unit];
+  if (lsb !== undefined) {
+    const a = lsb / 2;
+    lines.push({
+      name: 'Reading resolution',
+      value: a / Math.sqrt(3),
+      contribution: a / Math.sqrt(3),
+      dof: Infinity,
+      type: 'B',
+      distribution: 'rectangular',
+      unit: c.unit,
+      note: `One LSB = ${lsb} ${c.unit} (a default for this unit): a = half an LSB, a/√3.`,
+      source: 'JCGM 100:2008 §4.3.7, F.2.2.1; LSB common practice, no source',
+      key: 'resolution',
+    });
+  } else if (!notes.some((x) => x.startsWith('No reading resolution'))) {
+    notes.push(`No reading resolution is known for ${c.unit}: identical readings would understate U.`);
+  }
+  return lines;
+}
 
 /**
  * Before/after comparison of one DUT: Δ in the quantity's unit and in ppm, U (k = 2) and the
@@ -74,13 +144,36 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
       ...d.notes,
     );
   }
-  const sameReference = before.referenceId !== null && before.referenceId === after.referenceId;
-  if (sameReference && frequency && after.referenceAgeingPerDay !== null) {
+  // One reference is one input used twice (r = 1) only while it is the same calibration: the same
+  // reference, verified at the same moment, with the same offset copied into both captures. Once
+  // re-verified in between, the two offsets come from two independent calibrations and do not
+  // cancel (r = 0; review8 F5).
+  const sameReferenceId = before.referenceId !== null && before.referenceId === after.referenceId;
+  const sameCalibration =
+    sameReferenceId &&
+    before.referenceOffset === after.referenceOffset &&
+    before.referenceUncertainty === after.referenceUncertainty &&
+    sameInstant(before.referenceVerifiedAt, after.referenceVerifiedAt);
+  const sameReference = sameCalibration;
+  if (sameReferenceId && !sameCalibration) {
+    notes.push(
+      'The reference was re-verified between the captures: the two offsets come from independent calibrations, so they are combined as independent (r = 0) and do not cancel in Δ.',
+    );
+  }
+  const hasReference = (c: Capture) => c.referenceId !== null && c.referenceUncertainty !== null;
+  if (sameReference && frequency) {
     // One reference in both captures: its offset cancels, its change between them does not.
     const [mb, ma] = [sb.midpoint ?? null, sa.midpoint ?? null];
+    let rate: number | null = after.referenceAgeingPerDay !== null ? Math.hypot(after.referenceAgeingPerDay, after.referenceAgeingUPerDay ?? 0) : null;
+    let rateText = rate !== null ? `a = ${after.referenceAgeingPerDay!.toExponential(2)}/day from its calibration record` : '';
+    if (rate === null) {
+      const ref = after.referenceId !== null ? await Reference.findByPk(after.referenceId) : null;
+      rate = DEFAULT_AGEING_PER_DAY[ref?.kind ?? 'other'] ?? DEFAULT_AGEING_PER_DAY.other;
+      rateText = `no ageing rate recorded: ${rate.toExponential(1)}/day assumed for a ${ref?.kind ?? 'reference of unknown kind'} (common practice, no source)`;
+      notes.push(`The reference has no ageing rate recorded: its change between the captures is taken as ${rate.toExponential(1)}/day (a default for its kind). Record the rate to replace it.`);
+    }
     if (mb && ma) {
       const days = Math.abs(new Date(ma).getTime() - new Date(mb).getTime()) / DAY_MS;
-      const rate = Math.hypot(after.referenceAgeingPerDay, after.referenceAgeingUPerDay ?? 0);
       replaceKeys.push('reference-ageing');
       deltaTerms.push({
         name: 'Reference ageing between captures',
@@ -91,22 +184,42 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
         distribution: 'normal',
         note:
           `The shared reference ages between the captures, ${days.toPrecision(3)} days apart: √(a² + u(a)²) × days = ${(rate * days).toExponential(2)} ` +
-          `(a = ${after.referenceAgeingPerDay.toExponential(2)}/day), × nominal. Its offset cancels in Δ; this change does not.`,
+          `(${rateText}), × nominal. Its offset cancels in Δ; this change does not.`,
         source: 'Reference calibration record; JCGM 100 §5.2',
       });
+    } else {
+      notes.push('A capture has no time stamps for its readings: the reference\'s ageing between the captures is not in Δ\'s budget.');
     }
-  }
-  if (sameReference && before.referenceOffset !== after.referenceOffset) {
-    notes.push('The reference was re-verified between the captures: each capture keeps the offset copied when it started.');
+  } else if (frequency && (!hasReference(before) || !hasReference(after))) {
+    // No reference: nothing in either budget covers the counter's own timebase, whose offset
+    // changes between captures (ageing, temperature, a different counter). A default term for it
+    // (review8 F4): ±1 ppm rectangular, a counter's internal timebase (common practice, no source).
+    deltaTerms.push({
+      name: 'Counter timebase between captures (no reference)',
+      symbol: 'u_tb',
+      value: DEFAULT_TIMEBASE_HALF_WIDTH / Math.sqrt(3),
+      unit: '',
+      sensitivity: nominal,
+      distribution: 'rectangular',
+      note:
+        `No reference ${!hasReference(before) && !hasReference(after) ? 'in either capture' : 'in one capture'}: the counter's timebase may differ between them by up to ` +
+        `±${DEFAULT_TIMEBASE_HALF_WIDTH.toExponential(0)} (a counter's internal timebase, default), a/√3 × nominal.`,
+      source: 'Common practice, no source; JCGM 100 §4.3.7',
+    });
+    notes.push(
+      'No reference was used: a default ±1 ppm (rectangular) for the counter\'s timebase between the captures is in Δ\'s budget. Measure against a verified reference to narrow U.',
+    );
   }
   const side = (c: Capture, s: CaptureSummary, shiftPpm: number) => {
     const refComponent = s.uncertainty?.components.find((x) => x.key === 'reference-offset' || /reference offset/i.test(x.name));
     const mean = normalise ? s.stats!.mean / (1 + shiftPpm * 1e-6) : s.stats!.mean;
+    const lines = s.uncertainty?.components ?? plainBudget(c, s, notes);
+    const u = s.uncertainty?.combined ?? Math.sqrt(lines.reduce((acc, l) => acc + l.contribution ** 2, 0));
     return {
       mean,
-      u: s.uncertainty?.combined ?? s.stats!.sem,
+      u,
       uReference: refComponent?.contribution,
-      components: s.uncertainty?.components,
+      components: lines,
       // Δ in ppm is relative to the DUT's nominal, the same for both sides.
       nominal,
       unit: c.unit,

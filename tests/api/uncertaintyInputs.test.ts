@@ -217,3 +217,80 @@ describe('DUT limits and the comparison budget', () => {
     expect(since.value / f0).toBeGreaterThan(1e-9 * 25);
   });
 });
+
+describe('review8 findings in the comparison', () => {
+  it('F5: a reference re-verified between the captures is not cancelled (r = 0), with a note', async () => {
+    const ref = await request(t.app)
+      .post('/api/references')
+      .set(await auth('lead'))
+      .send({ name: 'Re-verified OCXO', kind: 'ocxo', nominalHz: 10e6, fractionalOffset: 0, standardUncertainty: 1e-7, verifiedAt: '2026-11-01', ageingPerDay: 0, ageingUPerDay: 0 });
+    const referenceId = ref.body.reference.id;
+    const f0 = ids.crystal.nominal;
+    const a = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId, ambientC: 23 }, () => f0);
+    await request(t.app).patch(`/api/references/${referenceId}`).set(await auth('lead')).send({ fractionalOffset: 2e-8, verifiedAt: '2026-11-20' });
+    const b = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], referenceId, ambientC: 23 }, () => f0);
+    const r = await request(t.app).get(`/api/comparisons?before=${a.id}&after=${b.id}`).set(await auth('viewer'));
+    expect(r.status).toBe(200);
+    const names = r.body.budget.components.map((c: { name: string }) => c.name);
+    expect(names).not.toContain('Reference offset (shared, r = 1)');
+    expect(r.body.referenceCorrelated).toBe(false);
+    // Two independent calibrations of u = 1e-7 each: u(Δ) ≥ √2 × 1e-7 × f0 (JCGM 100 eq. 10, by hand)
+    expect(r.body.u).toBeGreaterThanOrEqual(Math.SQRT2 * 1e-7 * f0 * 0.999);
+    expect(r.body.notes.join(' ')).toMatch(/re-verified between the captures.*independent/);
+  });
+
+  it('F4: with no reference, a default ±1 ppm timebase term enters Δ, with a note', async () => {
+    const f0 = ids.crystal.nominal;
+    const a = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], ambientC: 23 }, () => f0);
+    const b = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], ambientC: 23 }, () => f0);
+    const r = await request(t.app).get(`/api/comparisons?before=${a.id}&after=${b.id}`).set(await auth('viewer'));
+    expect(r.status).toBe(200);
+    const tb = r.body.budget.components.find((c: { name: string }) => c.name === 'Counter timebase between captures (no reference)');
+    expect(tb).toBeDefined();
+    // ±1 ppm rectangular: 1e-6/√3 × f0 (common practice, no source; JCGM 100 §4.3.7 a/√3)
+    expect(tb.contribution).toBeCloseTo((1e-6 / Math.sqrt(3)) * f0, 6);
+    expect(r.body.notes.join(' ')).toMatch(/No reference was used/);
+  });
+
+  it('F4: a shared reference without an ageing rate gets its kind\'s default rate between captures', async () => {
+    const ref = await request(t.app)
+      .post('/api/references')
+      .set(await auth('lead'))
+      .send({ name: 'OCXO without a rate', kind: 'ocxo', nominalHz: 10e6, fractionalOffset: 0, standardUncertainty: 1e-10, verifiedAt: '2026-11-01' });
+    const referenceId = ref.body.reference.id;
+    const f0 = ids.crystal.nominal;
+    const a = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId, ambientC: 23 }, () => f0);
+    const b = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], referenceId, ambientC: 23 }, () => f0);
+    await t.db.pool.query("UPDATE captures SET started_at = started_at - interval '10 days', summary = jsonb_set(summary, '{version}', '1') WHERE id = $1", [a.id]);
+    const r = await request(t.app).get(`/api/comparisons?before=${a.id}&after=${b.id}`).set(await auth('viewer'));
+    const ageing = r.body.budget.components.find((c: { name: string }) => c.name === 'Reference ageing between captures');
+    // OCXO default 1e-9/day (common practice, no source) × 10 days × f0 (by hand)
+    expect(ageing.contribution).toBeCloseTo(1e-9 * 10 * f0, 3);
+    expect(r.body.notes.join(' ')).toMatch(/no ageing rate recorded/);
+  });
+
+  it('F7: a capture in mg gets k = t(ν) with ν = n − 1 and a resolution line, so identical readings do not give U = 0', async () => {
+    const created = await request(t.app)
+      .post(`/api/studies/${ids.studyId}/duts`)
+      .set(await auth('engineer'))
+      .send({ label: 'A7 accelerometer', kind: 'accelerometer', nominal: 1000, unit: 'mg', limit: 5, limitUnit: 'mg' });
+    expect(created.status).toBe(201);
+    const dutId = created.body.id;
+    const base = { quantity: 'acceleration', unit: 'mg', gateTime: 1 };
+    const flat = await capture({ ...base, dutId, checkpointId: ids.checkpoints[0] }, () => 1.0, 5);
+    const same = await capture({ ...base, dutId, checkpointId: ids.checkpoints[1] }, () => 1.0, 5);
+    const r = await request(t.app).get(`/api/comparisons?before=${flat.id}&after=${same.id}`).set(await auth('viewer'));
+    expect(r.status).toBe(200);
+    // Resolution only: a = 0.0625/2 mg per side, u = a/√3 = 0.018042 mg; u(Δ) = √2 × that = 0.025516 mg
+    // (JCGM 100 §4.3.7, by hand; LSB 0.0625 mg common practice, no source)
+    expect(r.body.u).toBeCloseTo(0.025516, 5);
+    expect(r.body.expandedUncertainty).toBeGreaterThan(0);
+    const g = seeded(77);
+    const b2 = await capture({ ...base, dutId, checkpointId: ids.checkpoints[0] }, () => 1 + 0.5 * g.gauss(), 5);
+    const a2 = await capture({ ...base, dutId, checkpointId: ids.checkpoints[1] }, () => 1 + 0.5 * g.gauss(), 5);
+    const r2 = await request(t.app).get(`/api/comparisons?before=${b2.id}&after=${a2.id}`).set(await auth('viewer'));
+    // Type A lines dominate: ν_eff near 8 (n = 5 per side) gives k ≈ t_0.975(ν_eff) > 2.3 — t_0.975(8) = 2.306, Student t table (from memory)
+    expect(r2.body.effectiveDof).toBeLessThan(9);
+    expect(r2.body.k).toBeGreaterThan(2.3);
+  });
+});
