@@ -18,6 +18,7 @@
  * capture that decides is the T where U(T) reaches that margin; solved in closed form.
  */
 import { AnalysisError } from './errors';
+import { coverageFactor } from './coverage';
 
 export const PLANNER_MODEL =
   'The mean of a capture of length T scatters like the stability curve at τ = T: white frequency noise averages down as 1/√T until the flicker floor measured on the curve, where longer captures stop helping.';
@@ -191,6 +192,17 @@ export interface LiveDecisionInput {
   floor?: number;
   /** Inputs that do not average, combined standard uncertainty, in the mean's unit. */
   fixedU?: number;
+  /**
+   * Lines of Δ's budget that belong to neither side alone (tuning-fork T0/B, reference change
+   * between the captures, a default timebase), standard uncertainties in the mean's unit.
+   */
+  deltaTerms?: ReadonlyArray<{ u: number; dof?: number }>;
+  /**
+   * True only when baselineU, fixedU and deltaTerms hold every term the final comparison will
+   * have. Otherwise a "within" is a hint, never decided (the comparison could say otherwise).
+   */
+  complete?: boolean;
+  /** A given coverage factor; by default k = coverageFactor(ν_eff) (JCGM 100 G.4–G.6). */
   k?: number;
 }
 
@@ -208,20 +220,32 @@ export interface LiveDecision {
 
 /**
  * The bench's live "decidable" figure: running U of the mean (white-FM standard error sd/√n with
- * the floor added in quadrature) and the guard-banded verdict on Δ against the baseline. Decided
- * when |Δ| + U ≤ L (within) or |Δ| − U > L (exceeds): U only shrinks as readings come in, so
- * the verdict then stays as it is while the DUT behaves the same.
+ * the floor added in quadrature, the baseline's u, the fixed terms and Δ's own terms), k from
+ * coverageFactor(ν_eff) with ν = n − 1 for the running mean, and the guard-banded verdict on Δ.
+ * Decided when |Δ| − U > L (exceeds), or |Δ| + U ≤ L (within) only when `complete` says every
+ * term of the final comparison is in: U only shrinks as readings come in, so the verdict then
+ * stays as it is while the DUT behaves the same.
  */
 export function liveDecision(input: LiveDecisionInput): LiveDecision {
-  const k = input.k ?? 2;
   const delta = input.mean - input.baselineMean;
   if (input.n < 2) return { delta, Umean: Infinity, U: Infinity, margin: input.limit - Math.abs(delta), verdict: 'inconclusive', decided: false };
-  const uMean = Math.sqrt((input.sd * input.sd) / input.n + (input.floor ?? 0) ** 2);
-  const u = Math.sqrt(uMean * uMean + input.baselineU * input.baselineU + (input.fixedU ?? 0) ** 2);
+  const sem2 = (input.sd * input.sd) / input.n;
+  const uMean = Math.sqrt(sem2 + (input.floor ?? 0) ** 2);
+  const extra = input.deltaTerms ?? [];
+  const u2 = uMean * uMean + input.baselineU * input.baselineU + (input.fixedU ?? 0) ** 2 + extra.reduce((s, t) => s + t.u * t.u, 0);
+  const u = Math.sqrt(u2);
+  // Welch–Satterthwaite (JCGM 100 G.2b): the running SEM has ν = n − 1, the rest as given (∞).
+  const den = (sem2 * sem2) / (input.n - 1) + extra.reduce((s, t) => s + (t.dof !== undefined && Number.isFinite(t.dof) ? t.u ** 4 / t.dof : 0), 0);
+  // (the 1e-9 keeps ν = n − 1 from rounding down to n − 2 through floating point)
+  const nuEff = den > 0 ? ((u2 * u2) / den) * (1 + 1e-9) : Infinity;
+  const k = input.k ?? coverageFactor(nuEff > 0 ? nuEff : 1).k;
   const U = k * u;
   const abs = Math.abs(delta);
   const verdict = abs + U <= input.limit ? 'within' : abs - U > input.limit ? 'exceeds' : 'inconclusive';
-  return { delta, Umean: k * uMean, U, margin: input.limit - abs, verdict, decided: verdict !== 'inconclusive' };
+  // A "within" on a budget that lacks terms of the final comparison is only a hint (review8 F6):
+  // the comparison may widen U and say "inconclusive"; it must never be shown as decided.
+  const decided = verdict === 'exceeds' || (verdict === 'within' && input.complete === true);
+  return { delta, Umean: k * uMean, U, margin: input.limit - abs, verdict, decided };
 }
 
 /**

@@ -118,7 +118,9 @@ describe('the plan', () => {
 describe('the live decision', () => {
   it('is decided within once |Δ| + U ≤ L', () => {
     // mean 10, sd 1, n 100 → u_mean = 0.1; u = √(0.1² + 0.05²) = 0.1118; U = 0.2236 (hand-computed).
-    const d = liveDecision({ mean: 10, sd: 1, n: 100, baselineMean: 9.5, baselineU: 0.05, limit: 1 });
+    // ν_eff = 0.0125²/(0.01²/99) = 155 → t = 1.98, Driftbench's floor k = 2 (coverageFactor).
+    // Decided only because the caller says the budget is complete (review8 F6).
+    const d = liveDecision({ mean: 10, sd: 1, n: 100, baselineMean: 9.5, baselineU: 0.05, limit: 1, complete: true });
     expect(d.U).toBeCloseTo(0.22361, 4);
     expect(d.Umean).toBeCloseTo(0.2, 10);
     expect(d.margin).toBeCloseTo(0.5, 12);
@@ -149,7 +151,7 @@ describe('the live decision', () => {
         if (n < 2) continue;
         const mean = sum / n;
         const sd = Math.sqrt((sum2 - n * mean * mean) / (n - 1));
-        const d = liveDecision({ mean, sd, n, baselineMean: 0, baselineU: 0.02, limit: 1 });
+        const d = liveDecision({ mean, sd, n, baselineMean: 0, baselineU: 0.02, limit: 1, complete: true });
         if (settled === null && hold.update(n, d)) settled = d.verdict;
         last = d.verdict;
       }
