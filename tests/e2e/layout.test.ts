@@ -51,8 +51,8 @@ function pageOverflow(page: Page): Promise<number> {
 
 async function settle(page: Page, url: string, bare = false): Promise<void> {
   await page.goto(url);
-  await page.waitForSelector(bare ? 'h1' : '#main h1', { timeout: 20_000 }).catch((err: Error) => {
-    throw new Error(`${url}: no page title within 20 s (${err.message.split('\n')[0]})`);
+  await page.waitForSelector(bare ? 'h1' : '#main h1', { timeout: 40_000 }).catch((err: Error) => {
+    throw new Error(`${url}: no page title within 40 s (${err.message.split('\n')[0]})`);
   });
   // Charts and tables size themselves once their data arrives.
   await page.waitForLoadState('networkidle').catch(() => undefined);
@@ -137,7 +137,7 @@ describe('layout on phones and tablets', () => {
     }
     expect(errors.filter((e) => !/status of 40[34]/.test(e))).toEqual([]);
     await page.context().close();
-  }, 240_000);
+  }, 360_000);
 
   it.each(ROLES)('a %s on a tablet: no page scrolls sideways, and the narrow rail stays in reach', async (role) => {
     const session: Session = await login(server.url, role);
@@ -160,5 +160,5 @@ describe('layout on phones and tablets', () => {
     await studies.click();
     await page.waitForURL(/\/studies$/);
     await page.context().close();
-  }, 240_000);
+  }, 360_000);
 });
