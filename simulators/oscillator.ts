@@ -8,7 +8,7 @@ import { FrequencyNoise, type NoiseLevels, type Rng } from './noise';
 export type TemperatureResponse =
   /** Δf/f = ppmPerC·(T − refC) ppm: a straight-line tempco. */
   | { kind: 'linear'; ppmPerC: number; refC: number }
-  /** Δf/f = B·(T − T0)² ppm: the tuning-fork parabola (REFERENCES.md, "Crystals and temperature"). */
+  /** Δf/f = B·(T − T0)² ppm: the tuning-fork parabola (docs/references.md, "Crystals and temperature"). */
   | { kind: 'parabolic'; bPpmPerC2: number; t0C: number };
 
 /** Ambient °C = meanC + amplitudeC·sin(2πt/periodS): a lab's slow air-conditioning swing. */

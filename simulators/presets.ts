@@ -1,5 +1,5 @@
 /**
- * The demo DUTs of the "Kestrel Bay Assembly" study (PRODUCT.md): what the simulator plays when
+ * The demo DUTs of the "Kestrel Bay Assembly" study (README, demo): what the simulator plays when
  * a session asks for `preset=<name>&checkpoint=<0..3>`. Exactly one part shifts: the 32.768 kHz
  * tuning fork, by about +2.5 ppm from the over-exposure on (checkpoint ≥ 2). Every other
  * crystal and oscillator moves by less than ±0.1 ppm, and the accelerometer's bias stays put.
@@ -57,7 +57,7 @@ export const COUNTER_PRESETS: Record<CounterPresetName, CounterPreset> = {
     offsetPpm: 6.5,
     noise: { wfm: 2e-9, ffm: 1e-9, wpm: 3e-10 },
     agingPpbPerDay: 5,
-    // Tuning-fork parabola, B = −0.034 ppm/°C², T0 = 25 °C (REFERENCES.md, "Crystals and temperature").
+    // Tuning-fork parabola, B = −0.034 ppm/°C², T0 = 25 °C (docs/references.md, "Crystals and temperature").
     temperature: { kind: 'parabolic', bPpmPerC2: -0.034, t0C: 25 },
     shiftPpm: [0, 0.05, 2.5, 2.45],
   },
@@ -119,7 +119,7 @@ export function presetCounter(name: CounterPresetName, checkpoint: CheckpointInd
     oscillator: presetOscillator(name, checkpoint),
     gate: 1,
     deadTime: 0,
-    // A settled GPS-disciplined reference: about 1e-11 or better (PRODUCT.md, facts of the trade).
+    // A settled GPS-disciplined reference: about 1e-11 or better (common practice, no source).
     refOffset: 2e-12,
     accel: 1,
     garble: 0.002,

@@ -21,7 +21,7 @@ export function fractionalFrequency(f: number | ArrayLike<number>, f0: number): 
 
 /**
  * Reference correction f_true = f_displayed·(1 + y_ref) (Driftbench's documented first-order
- * convention, REFERENCES.md "Frequency counters"). y_ref is the timebase's fractional offset.
+ * convention, docs/references.md "Frequency counters"). y_ref is the timebase's fractional offset.
  */
 export function referenceCorrect(fDisplayed: number, yRef: number): number;
 export function referenceCorrect(fDisplayed: ArrayLike<number>, yRef: number): Float64Array;
@@ -60,7 +60,7 @@ export function referenceUncorrect(fTrue: number | ArrayLike<number>, yRef: numb
 
 /**
  * Frequency → phase: x0 = 0, x(k+1) = x(k) + y(k)·τ0, so N points give N+1 (NIST SP 1065 §2,
- * REFERENCES.md). Domain: at least one finite y, τ0 > 0.
+ * docs/references.md). Domain: at least one finite y, τ0 > 0.
  */
 export function frequencyToPhase(y: ArrayLike<number>, tau0: number): Float64Array {
   assertSeries(y, 'y');

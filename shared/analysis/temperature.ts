@@ -9,7 +9,7 @@ export interface TuningForkOptions {
 
 /**
  * Frequency shift of a tuning-fork (32.768 kHz) crystal in ppm, Δf/f = B·(T − T0)² (makers'
- * datasheets, B ≈ −0.034 ppm/°C², T0 = 25 °C; REFERENCES.md "Crystals and temperature").
+ * datasheets, B ≈ −0.034 ppm/°C², T0 = 25 °C; docs/references.md "Crystals and temperature").
  */
 export function tuningForkShift(T: number, opts: TuningForkOptions = {}): number {
   const B = opts.B ?? -0.034;

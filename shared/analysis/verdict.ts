@@ -5,7 +5,7 @@ export type Verdict = 'within' | 'exceeds' | 'inconclusive';
 
 /**
  * Guard-banded decision with guard band w = U (ILAC-G8:09/2019; Driftbench's rule in
- * REFERENCES.md): within when |Δ| + U ≤ L, exceeds when |Δ| − U > L, otherwise inconclusive.
+ * docs/references.md): within when |Δ| + U ≤ L, exceeds when |Δ| − U > L, otherwise inconclusive.
  * Domain: finite Δ, U ≥ 0, L > 0.
  */
 export function guardBandVerdict(delta: number, expanded: number, limit: number): Verdict {

@@ -1,5 +1,5 @@
 /**
- * Typed calls for every capture route (ARCHITECTURE.md, API contract): create, list, read, patch,
+ * Typed calls for every capture route (DEVELOPERS.md, the routes): create, list, read, patch,
  * readings in and out, finish, analysis, comparison and the CSV export.
  */
 import type { ConditionMismatch } from '../../shared/analysis/conditions';

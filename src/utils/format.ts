@@ -60,7 +60,7 @@ export function formatDateTime(value: string | null | undefined): string {
   return `${d.getDate()} ${MONTHS[d.getMonth()]} ${d.getFullYear()}, ${hh}:${mm}`;
 }
 
-/** Thin-space digit grouping, as DESIGN.md asks: 16000000.0123 → "16 000 000.0123". */
+/** Thin-space digit grouping, as docs/design.md asks: 16000000.0123 → "16 000 000.0123". */
 export function groupDigits(value: number, fractionDigits?: number): string {
   if (!Number.isFinite(value)) return '—';
   const text = fractionDigits === undefined ? String(value) : value.toFixed(fractionDigits);

@@ -1,6 +1,6 @@
 /**
  * SI-prefix, ppm/ppb and log-axis helpers for the capture page and stability plots.
- * Minus signs are U+2212 and every signed figure carries its sign, as DESIGN.md asks.
+ * Minus signs are U+2212 and every signed figure carries its sign, as docs/design.md asks.
  */
 
 const MINUS = '\u2212';

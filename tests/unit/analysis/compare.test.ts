@@ -1,7 +1,7 @@
 import { describe, expect, it, test } from 'vitest';
 import { compare, compareSensor, guardBandVerdict } from '../../../shared/analysis';
 
-describe('guard-banded verdict (ILAC-G8:09/2019, w = U; REFERENCES.md)', () => {
+describe('guard-banded verdict (ILAC-G8:09/2019, w = U; docs/references.md)', () => {
   test.each([
     // Δ, U, L, verdict — rule: within if |Δ|+U ≤ L, exceeds if |Δ|−U > L
     [0.25, 0.5, 1, 'within'], // 0.75 ≤ 1

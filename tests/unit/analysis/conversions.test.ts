@@ -28,7 +28,7 @@ describe('conversions', () => {
     expect(() => fractionalFrequency(1, 0)).toThrow(AnalysisError);
   });
 
-  it('corrects a reading taken on a slow timebase upwards (f_true = f·(1 + y_ref), REFERENCES.md)', () => {
+  it('corrects a reading taken on a slow timebase upwards (f_true = f·(1 + y_ref), docs/references.md)', () => {
     // a timebase 1e-9 slow makes the counter read 16 mHz low at 16 MHz: computed
     expect(referenceCorrect(16e6, 1e-9)).toBeCloseTo(16e6 + 0.016, 9);
     expect(referenceUncorrect(referenceCorrect(16e6, 1e-9), 1e-9)).toBeCloseTo(16e6, 8);

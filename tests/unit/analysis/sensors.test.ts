@@ -37,8 +37,8 @@ describe('WGS84 normal gravity (Somigliana, NIMA TR8350.2 3rd ed.)', () => {
 
 describe('tuning-fork crystals (Δf/f = B(T − T0)², makers’ datasheets)', () => {
   test.each([
-    [-40, -143.65], // −0.034 × 65², computed (REFERENCES.md)
-    [85, -122.4], // −0.034 × 60², computed (REFERENCES.md)
+    [-40, -143.65], // −0.034 × 65², computed (docs/references.md)
+    [85, -122.4], // −0.034 × 60², computed (docs/references.md)
     [25, 0],
   ])('shifts by %f ppm at %f °C', (T, ppm) => {
     expect(tuningForkShift(T)).toBeCloseTo(ppm, 10);

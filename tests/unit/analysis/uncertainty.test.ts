@@ -12,7 +12,7 @@ describe('combineUncertainty', () => {
       { value: 3.9, dof: 5 },
       { value: 2.9, dof: 50 },
     ]);
-    expect(Math.floor(uc * 100) / 100).toBe(31.66); // REFERENCES.md: 31.66 (formula 31.6656, computed)
+    expect(Math.floor(uc * 100) / 100).toBe(31.66); // docs/references.md: 31.66 (formula 31.6656, computed)
     expect(uc).toBeCloseTo(31.6656, 4); // computed
     expect(Math.round(uc)).toBe(32);
     expect(nuEff).toBeCloseTo(16.75, 2); // GUM H.1: 16.7 (formula gives 16.753, computed)
@@ -33,7 +33,7 @@ describe('combineUncertainty', () => {
 
 describe('counterResolution', () => {
   test.each([
-    // kind, gate, f, absolute Hz, relative — general counter theory (REFERENCES.md), computed
+    // kind, gate, f, absolute Hz, relative — general counter theory (docs/references.md), computed
     ['gated', 1, 16e6, 1, 1 / 16e6], // ±1 count in 1 s
     ['gated', 0.1, 32768, 10, 10 / 32768],
     ['reciprocal', 1, 16e6, 16e6 * 1e-10, 1e-10], // 100 ps in 1 s gives 1e-10

@@ -46,7 +46,7 @@ describe('SI prefixes', () => {
 });
 
 describe('ppm and ppb with sign', () => {
-  // 1 ppm = 10⁻⁶, 1 ppb = 10⁻⁹ (fractional); DESIGN.md asks for offsets with their sign.
+  // 1 ppm = 10⁻⁶, 1 ppb = 10⁻⁹ (fractional); docs/design.md asks for offsets with their sign.
   test.each([
     [1.2e-6, '+1.200 ppm'],
     [-2.5e-7, `${MINUS}0.250 ppm`],

@@ -95,7 +95,7 @@ describe('SPI bridge', () => {
 });
 
 describe('simulated accelerometer', () => {
-  // Expected readings: gravity along the named axis (PRODUCT.md tilt checks: flat +1 g on Z,
+  // Expected readings: gravity along the named axis (the bench's tilt check: flat +1 g on Z,
   // on edge +1 g on X, inverted −1 g on Z), times (1 + sensitivity error), plus bias.
   // Tolerance: 400 samples with 1.2 mg rms noise give a mean with σ = 0.06 mg; quantisation at
   // 0.0625 mg/digit adds ≤ 0.03 mg; 0.5 mg is > 7σ.

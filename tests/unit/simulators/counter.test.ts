@@ -141,7 +141,7 @@ describe('simulated counter, SCPI query mode', () => {
   });
 
   it('displays f/(1 + y_ref) when its own timebase is fast by y_ref', () => {
-    // REFERENCES.md, "Frequency counters": displayed = true/(1 + y_ref) (Driftbench's convention).
+    // docs/references.md, "Frequency counters": displayed = true/(1 + y_ref) (Driftbench's convention).
     const yRef = 2e-7;
     const c = new SimCounter(config({ refOffset: yRef }, { noise: {}, offsetPpm: 1 }), new ManualClock());
     const r = c.nextReading();

@@ -3,7 +3,7 @@
  * come out of the readings. Each check uses an interval derived from the estimator's own
  * sampling distribution rather than a hand-picked percentage:
  *
- * - Mean: for white FM the mean of N readings has standard deviation σ/√N (REFERENCES.md,
+ * - Mean: for white FM the mean of N readings has standard deviation σ/√N (docs/references.md,
  *   "Frequency counters": random error falls as 1/√N for white noise); we allow 4 of those
  *   (two-sided probability of a false failure ≈ 6e-5 for one seed).
  * - OADEV at τ0: σ̂²·edf/σ² follows χ²(edf) with edf from NIST SP 1065 Table 5 for the noise

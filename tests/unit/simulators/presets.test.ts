@@ -20,7 +20,7 @@ function capturePpm(name: CounterPresetName, cp: CheckpointIndex): number {
 }
 
 describe('Kestrel Bay demo presets', () => {
-  // The demo's story (PRODUCT.md, demo scenario): limits ±1 ppm; only the tuning fork shifts.
+  // The demo's story (README, demo): limits ±1 ppm; only the tuning fork shifts.
   it.each(COUNTER_PRESET_NAMES.flatMap((n) => [1, 2, 3].map((cp) => [n, cp] as const)))(
     '%s at checkpoint %i moves as the story says',
     (name, cp) => {
@@ -47,7 +47,7 @@ describe('Kestrel Bay demo presets', () => {
   });
 
   it('puts the tuning fork on its parabola: −0.136 ppm at 23 °C against 25 °C', () => {
-    // B(T − T0)² = −0.034·(−2)² = −0.136 ppm (REFERENCES.md, tuning-fork formula; computed).
+    // B(T − T0)² = −0.034·(−2)² = −0.136 ppm (docs/references.md, tuning-fork formula; computed).
     const cfg = presetCounter('tf-32k', 0);
     cfg.oscillator.noise = {};
     cfg.oscillator.ambient.amplitudeC = 0;
