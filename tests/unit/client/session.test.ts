@@ -27,7 +27,8 @@ describe('session store', () => {
     expect(session.token).toBe('jwt-1');
     expect(session.user).toEqual(technician);
     expect(session.isAuthenticated).toBe(true);
-    expect(JSON.parse(localStorage.getItem(SESSION_KEY) ?? '{}')).toEqual({ token: 'jwt-1', user: technician });
+    // the stored session also says whether an admin reset asks for a new password first
+    expect(JSON.parse(localStorage.getItem(SESSION_KEY) ?? '{}')).toEqual({ token: 'jwt-1', user: technician, mustChangePassword: false });
   });
 
   it('sends the stored token on later requests', async () => {
