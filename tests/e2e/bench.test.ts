@@ -149,6 +149,9 @@ describe('the bench', () => {
     await page.fill('[data-field="gate"] input', '0.1');
     await page.press('[data-field="gate"] input', 'Tab');
     await radio(page, 'guided', 'Guided tilt check');
+    // The bench asks for the ambient reading (no default is assumed).
+    await page.fill('[data-field="ambient"] input', '23.1');
+    await page.press('[data-field="ambient"] input', 'Tab');
     await page.click('[data-testid="start-capture"]');
     await page.waitForSelector('[data-testid="accel-step"]');
     await page.fill('.accel-check__settings input >> nth=0', '50');

@@ -142,7 +142,7 @@ describe('the capture pages', () => {
     expect(await page.locator('[data-stat="n"]').innerText()).toMatch(/11\u2009978 \/ 11\u2009980/);
 
     await page.waitForSelector('.stability-plot canvas');
-    expect(await page.locator('[data-axis-title]').innerText()).toBe('OADEV σ_y(τ)');
+    expect(await page.locator('[data-axis-title]').innerText()).toBe('OADEV σy(τ)');
     // The baseline's curve is overlaid (series 1, dashed with square markers) on this capture's (series 2).
     await expect.poll(() => page.locator('.stability-plot [data-legend-series]').count()).toBe(2);
     expect(await page.locator('.stability-plot [data-legend-series]').allInnerTexts()).toEqual([
@@ -156,10 +156,10 @@ describe('the capture pages', () => {
     await expect.poll(() => ribbonPixels(page, [SERIES_1, SERIES_2])).toBeGreaterThan(30);
     expect(await page.locator('.stability-table tbody tr').count()).toBeGreaterThan(5);
 
-    const budget = await page.locator('.budget').innerText();
+    const budget = await page.locator('section[aria-labelledby="budget-title"] .budget').innerText();
     expect(budget).toContain('Combined standard uncertainty');
     expect(budget).toContain('Reference offset');
-    expect(await page.locator('[data-budget="relative"]').innerText()).toMatch(/pp[mb]$/);
+    expect(await page.locator('section[aria-labelledby="budget-title"] [data-budget="relative"]').innerText()).toMatch(/pp[mb]$/);
 
     await page.waitForSelector('.comparison__body');
     expect(['within', 'exceeds', 'inconclusive']).toContain(await page.locator('.comparison .verdict-glyph__word').innerText());
@@ -186,9 +186,9 @@ describe('the capture pages', () => {
     expect((await refined).ok()).toBe(true);
 
     await page.locator('[data-control="kind"] label:has-text("MDEV")').first().click();
-    await expect.poll(() => page.locator('[data-axis-title]').innerText()).toBe('MDEV mod σ_y(τ)');
+    await expect.poll(() => page.locator('[data-axis-title]').innerText()).toBe('MDEV Mod σy(τ)');
     await page.locator('[data-control="kind"] label:has-text("OADEV")').click();
-    await expect.poll(() => page.locator('[data-axis-title]').innerText()).toBe('OADEV σ_y(τ)');
+    await expect.poll(() => page.locator('[data-axis-title]').innerText()).toBe('OADEV σy(τ)');
     await page.locator('section[aria-labelledby="stability-title"]').screenshot({ path: path.join(RESULTS, 'stability.png') });
     expect(errors).toEqual([]);
     await page.context().close();
