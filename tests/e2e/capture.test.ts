@@ -177,6 +177,7 @@ describe('the capture pages', () => {
 
     // The 12 000-reading overview is min/max decimated; zooming asks the server for the readings in view.
     const canvas = page.locator('[data-chart="time-series"] .u-over');
+    await canvas.scrollIntoViewIfNeeded(); // the page grew: the chart may sit below the fold
     const box = (await canvas.boundingBox())!;
     const refined = page.waitForResponse((r) => /\/readings\?from=\d+&to=\d+&maxPoints=\d+/.test(r.url()));
     await page.mouse.move(box.x + box.width * 0.4, box.y + box.height / 2);
