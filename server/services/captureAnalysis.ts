@@ -11,6 +11,7 @@ import {
   fitDrift,
   uncertaintyBudget,
   tuningForkShift,
+  hzPerUnit,
   AnalysisError,
   type DriftModel,
   type DriftRemoval,
@@ -171,6 +172,8 @@ function resolutionFor(
   notes: string[],
 ): { kind: 'gated'; counts: number } | { kind: 'reciprocal' | 'time-interval'; tRes: number } {
   if (c.counterType) return counter;
+  // The readings, the step and the nominal are in the capture's unit; a gated count is in Hz·s.
+  const perUnit = hzPerUnit(c.unit) ?? 1;
   const step = displayStep(p.values);
   const nominal = c.nominal ?? 0;
   const reciprocalHz = (ASSUMED_COUNTER.tRes / c.gateTime) * nominal;
@@ -183,9 +186,9 @@ function resolutionFor(
   }
   if (step > reciprocalHz) {
     notes.push(
-      `The counter type was not recorded: the resolution is taken as ±1 display step of the readings (${Number(step.toPrecision(3))} Hz).`,
+      `The counter type was not recorded: the resolution is taken as ±1 display step of the readings (${Number(step.toPrecision(3))} ${c.unit}).`,
     );
-    return { kind: 'gated', counts: step * c.gateTime };
+    return { kind: 'gated', counts: step * perUnit * c.gateTime };
   }
   notes.push('The counter type was not recorded: the readings resolve finer than a 100 ps reciprocal counter, which is assumed.');
   return { kind: ASSUMED_COUNTER.kind, tRes: ASSUMED_COUNTER.tRes };
@@ -294,7 +297,11 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?:
         : { ...ASSUMED_COUNTER, assumed: true };
   let uncertainty = null;
   let usedResolution: { kind: 'gated'; counts: number } | { kind: 'reciprocal' | 'time-interval'; tRes: number } = counter;
-  if (c.quantity === 'frequency' && p.stats && (c.nominal ?? 0) > 0) {
+  const perUnit = hzPerUnit(c.unit);
+  if (c.quantity === 'frequency' && p.stats && (c.nominal ?? 0) > 0 && perUnit === null) {
+    notes.push(`No uncertainty budget: a frequency budget needs readings in Hz, kHz, MHz or GHz, not ${c.unit}.`);
+  }
+  if (c.quantity === 'frequency' && p.stats && (c.nominal ?? 0) > 0 && perUnit !== null) {
     const last = stab.points[stab.points.length - 1];
     const tempco = temperatureCoefficient(dut, c.ambientC);
     // With the drift removed, the scatter about the trend is the repeatability; the drift itself
@@ -328,6 +335,7 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?:
     const budget = uncertaintyBudget({
       stats,
       nominal: c.nominal!,
+      unit: c.unit,
       gateTime: c.gateTime,
       span,
       adevAtSpan: longTerm?.dev,

@@ -7,7 +7,7 @@ import type { NoiseType } from './noise';
 /** Shape of a component's probability distribution (GUM §4.3). */
 export type Distribution = 'normal' | 'rectangular' | 'triangular' | 't';
 
-/** One line of an uncertainty budget; value and contribution in `unit` (Hz for frequency). */
+/** One line of an uncertainty budget; value and contribution in `unit` (the capture's frequency unit). */
 export interface BudgetComponent {
   name: string;
   symbol?: string;
@@ -32,11 +32,13 @@ export interface BudgetComponent {
 }
 
 export interface UncertaintyBudgetInput {
-  /** Statistics of the gate-time readings in Hz (e.g. from summarize). */
+  /** Statistics of the gate-time readings in `unit` (e.g. from summarize). */
   /** dof: degrees of freedom of sd when not n − 1 (n − 2 after a line is fitted, n − 3 after a parabola). */
   stats: { n: number; mean: number; sd: number; sem: number; dof?: number };
-  /** Nominal frequency in Hz. */
+  /** Nominal frequency in `unit`. */
   nominal: number;
+  /** The frequency unit of stats and nominal (Hz, kHz, MHz, GHz; default Hz); every line is in it. */
+  unit?: string;
   /** Gate time in seconds. */
   gateTime: number;
   /** Capture span in seconds (for the notes). */
@@ -65,7 +67,7 @@ export interface UncertaintyBudgetInput {
 }
 
 export interface UncertaintyBudget {
-  /** Mean frequency in Hz, reference-corrected when a reference is given. */
+  /** Mean frequency in `unit`, reference-corrected when a reference is given. */
   mean: number;
   components: BudgetComponent[];
   combined: number;
@@ -100,7 +102,8 @@ export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBud
   const notes: string[] = [];
   const components: BudgetComponent[] = [typeA(input, notes)];
 
-  const res = counterResolution({ ...input.resolution, gateTime, f: nominal });
+  const unit = input.unit ?? 'Hz';
+  const res = counterResolution({ ...input.resolution, gateTime, f: nominal, unit });
   const r = input.resolution;
   const how =
     r.kind === 'gated'
@@ -110,13 +113,13 @@ export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBud
     component({
       name: 'Counter resolution',
       symbol: 'u_res',
-      value: res.absoluteHz / SQRT3,
+      value: res.absolute / SQRT3,
       distribution: 'rectangular',
       type: 'B',
       key: 'resolution',
       source: 'Counter theory (docs/references.md); JCGM 100 §4.3.7',
       note:
-        `±${fmt(res.absoluteHz)} Hz per reading (${how}${r.assumed ? '; counter type not recorded, assumed' : ''}), a/√3. ` +
+        `±${fmt(res.absolute)} ${unit} per reading (${how}${r.assumed ? '; counter type not recorded, assumed' : ''}), a/√3. ` +
         'Not divided by √n: quantisation errors of successive readings need not be independent ' +
         '(identical readings say nothing below one count), so the single-reading value is kept.',
     }),
@@ -172,7 +175,7 @@ export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBud
   const temp = input.temperature;
   if (temp && temp.coeffPerC !== undefined) {
     assertNumber(temp.coeffPerC, 'temperature.coeffPerC');
-    const c = Math.abs(temp.coeffPerC) * nominal; // Hz per °C
+    const c = Math.abs(temp.coeffPerC) * nominal; // unit per °C
     if (temp.uC !== undefined) {
       assertNumber(temp.uC, 'temperature.uC');
       components.push(
@@ -184,7 +187,7 @@ export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBud
           type: 'B',
           key: 'temperature',
           source: 'JCGM 100 eq. 10',
-          note: `u(T) = ${fmt(Math.abs(temp.uC))} °C × |coefficient| × nominal (${fmt(c)} Hz/°C).`,
+          note: `u(T) = ${fmt(Math.abs(temp.uC))} °C × |coefficient| × nominal (${fmt(c)} ${unit}/°C).`,
         }),
       );
     }
@@ -234,7 +237,7 @@ export function uncertaintyBudget(input: UncertaintyBudgetInput): UncertaintyBud
   const expanded = coverage.k * uc;
   return {
     mean,
-    components,
+    components: components.map((line) => ({ ...line, unit })),
     combined: uc,
     effectiveDof: nuEff,
     k: coverage.k,

@@ -221,6 +221,23 @@ describe('counter type and resolution', () => {
     expect(b.combined).toBeCloseTo(1 / Math.sqrt(3), 12);
     expect(b.expanded).toBeCloseTo(2 / Math.sqrt(3), 12);
   });
+
+  it('states every line in the capture unit when readings are in MHz', () => {
+    // The same gated capture read in MHz: ±1 count in a 1 s gate is ±1 Hz = ±1e-6 MHz, so
+    // u = 1e-6/√3 MHz (general counter theory, docs/references.md; JCGM 100 §4.3.7), with every
+    // line in MHz (the budget once mixed a resolution in Hz with readings in MHz).
+    const b = uncertaintyBudget({
+      stats: { n: 400, mean: 16, sd: 0, sem: 0 },
+      nominal: 16,
+      unit: 'MHz',
+      gateTime: 1,
+      noise: 'wfm',
+      resolution: { kind: 'gated', counts: 1 },
+    });
+    expect(b.combined).toBeCloseTo(1e-6 / Math.sqrt(3), 15);
+    expect(b.components.every((line) => line.unit === 'MHz')).toBe(true);
+    expect(b.components.find((line) => line.key === 'resolution')?.note).toContain('MHz per reading');
+  });
 });
 
 describe('drift removal', () => {
