@@ -8,6 +8,7 @@ import * as m0020 from './20261202-0020-review-and-record.js';
 import * as m0021 from './20261202-0021-seal-tamper-flag.js';
 import * as m0050 from './20261202-0050-simulated-captures.js';
 import * as m0051 from './20261202-0051-capture-target.js';
+import * as m0100 from './20261202-0100-check-constraints.js';
 
 type Step = { up(p: { context: QueryInterface }): Promise<void>; down(p: { context: QueryInterface }): Promise<void> };
 
@@ -21,6 +22,7 @@ const MIGRATIONS: Array<[string, Step]> = [
   ['20261202-0021-seal-tamper-flag', m0021],
   ['20261202-0050-simulated-captures', m0050],
   ['20261202-0051-capture-target', m0051],
+  ['20261202-0100-check-constraints', m0100],
 ];
 
 /** Builds the migrator for a Sequelize connection (state kept in the `sequelize_meta` table). */
