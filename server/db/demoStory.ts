@@ -217,7 +217,7 @@ export function startDemoFeeder(pool: pg.Pool, hub: LiveHub, captureId: number, 
     if (stopped) return;
     try {
       const c = await Capture.findByPk(captureId);
-      if (!c || c.state !== 'open') return; // finished or aborted by someone: the feeder stops
+      if (!c || (c.state !== 'open' && c.state !== 'stalled')) return; // finished or aborted by someone: the feeder stops
       const operator = c.operatorId ? await User.findByPk(c.operatorId) : null;
       if (!operator) return;
       const seq = c.highestSeq + 1;
@@ -240,6 +240,6 @@ export async function findOnAir(): Promise<number | null> {
   const study = await Study.findOne({ where: { title: DEMO_STUDY_TITLE } });
   if (!study) return null;
   const duts = await Dut.findAll({ where: { studyId: study.id }, attributes: ['id'] });
-  const open = await Capture.findOne({ where: { dutId: duts.map((d) => d.id), state: 'open' }, order: [['id', 'DESC']] });
+  const open = await Capture.findOne({ where: { dutId: duts.map((d) => d.id), state: ['open', 'stalled'] }, order: [['id', 'DESC']] });
   return open?.id ?? null;
 }

@@ -8,6 +8,7 @@ import * as m0020 from './20261202-0020-review-and-record.js';
 import * as m0021 from './20261202-0021-seal-tamper-flag.js';
 import * as m0050 from './20261202-0050-simulated-captures.js';
 import * as m0051 from './20261202-0051-capture-target.js';
+import * as m0150 from './20261202-0150-capture-abort-stall.js';
 import * as m0100 from './20261202-0100-check-constraints.js';
 
 type Step = { up(p: { context: QueryInterface }): Promise<void>; down(p: { context: QueryInterface }): Promise<void> };
@@ -22,6 +23,7 @@ const MIGRATIONS: Array<[string, Step]> = [
   ['20261202-0021-seal-tamper-flag', m0021],
   ['20261202-0050-simulated-captures', m0050],
   ['20261202-0051-capture-target', m0051],
+  ['20261202-0150-capture-abort-stall', m0150],
   ['20261202-0100-check-constraints', m0100],
 ];
 

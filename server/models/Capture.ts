@@ -1,7 +1,8 @@
 import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
 import type { CaptureTarget } from '../../shared/protocol/captures.js';
 
-export type CaptureState = 'open' | 'finished' | 'aborted';
+/** 'stalled': open, but no readings for too long (the sweep in services/captureLifecycle.ts). */
+export type CaptureState = 'open' | 'stalled' | 'finished' | 'aborted';
 
 /** One DUT measured at one checkpoint: its identity, conditions and (once finished) its cached summary. */
 export class Capture extends Model {
@@ -44,6 +45,12 @@ export class Capture extends Model {
   declare target: CaptureTarget | null;
   declare overdueNotifiedAt: Date | null;
   declare sealBrokenAt: Date | null;
+  /** When the last accepted readings arrived (moved by the ingest statement). */
+  declare lastReadingAt: Date | null;
+  /** When the sweep marked the capture stalled (kept after it revives, for the record). */
+  declare stalledAt: Date | null;
+  declare abortReason: string | null;
+  declare abortedBy: number | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
@@ -86,6 +93,10 @@ export class Capture extends Model {
         target: DataTypes.JSONB,
         overdueNotifiedAt: DataTypes.DATE,
         sealBrokenAt: DataTypes.DATE,
+        lastReadingAt: DataTypes.DATE,
+        stalledAt: DataTypes.DATE,
+        abortReason: DataTypes.TEXT,
+        abortedBy: DataTypes.INTEGER,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

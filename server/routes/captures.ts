@@ -11,6 +11,8 @@ import { LIST_LIMITS, pageQuery } from '../../shared/protocol/paging.js';
 import { createCapture, getCapture, listCaptures, patchCapture, requireCapture } from '../services/captures.js';
 import { ingestReadings } from '../services/ingest.js';
 import { finishCapture } from '../services/finish.js';
+import { abortCapture } from '../services/captureLifecycle.js';
+import { CaptureAbort, CaptureState, isRecording } from '../../shared/protocol/captureLifecycle.js';
 import { readSeries } from '../services/readings.js';
 import { compareCaptures } from '../services/comparisons.js';
 import { conditionsBetween } from '../services/conditions.js';
@@ -24,7 +26,7 @@ const ListQuery = z.object({
   studyId: z.coerce.number().int().positive().optional(),
   dutId: z.coerce.number().int().positive().optional(),
   checkpointId: z.coerce.number().int().positive().optional(),
-  state: z.enum(['open', 'finished', 'aborted']).optional(),
+  state: CaptureState.optional(),
 }).extend(pageQuery(LIST_LIMITS.captures.max).shape);
 
 export function capturesRouter(pool: pg.Pool, hub: LiveHub, analysis: AnalysisPool): Router {
@@ -53,6 +55,11 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub, analysis: AnalysisPo
     const { id } = parse(IdParam, req.params, 'id');
     res.json(await finishCapture(pool, hub, currentUser(req), id));
   });
+  r.post('/:id/abort', authorize('captures:run'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    const { reason } = parse(CaptureAbort, req.body);
+    res.json(await abortCapture(pool, hub, currentUser(req), id, reason));
+  });
   r.get('/:id/readings', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
     const q = parse(ReadingsQuery, req.query, 'query');
@@ -62,11 +69,11 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub, analysis: AnalysisPo
     if (!q.maxPoints) {
       const from = q.from ?? 0;
       const to = Math.min(q.to ?? c.highestSeq, c.highestSeq, from + MAX_RAW_READINGS - 1);
-      const out = await readSeries(pool, id, { from, to, finished: c.state !== 'open', highestSeq: c.highestSeq });
+      const out = await readSeries(pool, id, { from, to, finished: !isRecording(c.state), highestSeq: c.highestSeq });
       res.json({ ...out, nextFrom: to < Math.min(q.to ?? c.highestSeq, c.highestSeq) ? to + 1 : null });
       return;
     }
-    const out = await readSeries(pool, id, { ...q, finished: c.state !== 'open', highestSeq: c.highestSeq });
+    const out = await readSeries(pool, id, { ...q, finished: !isRecording(c.state), highestSeq: c.highestSeq });
     res.json(out);
   });
   r.get('/:id/readings.csv', authorize('read'), async (req, res) => {

@@ -394,10 +394,12 @@ const cache = new Map<number, Prepared>();
 const CACHE_SIZE = 6;
 
 export async function preparedFor(pool: pg.Pool, c: Capture): Promise<Prepared> {
-  const hit = c.state !== 'open' ? cache.get(c.id) : undefined;
+  // A stalled capture may still take readings: only finished and aborted ones are cached.
+  const settled = c.state === 'finished' || c.state === 'aborted';
+  const hit = settled ? cache.get(c.id) : undefined;
   if (hit) return hit;
   const p = prepare(c, await loadSeries(pool, c.id));
-  if (c.state !== 'open') {
+  if (settled) {
     cache.set(c.id, p);
     if (cache.size > CACHE_SIZE) cache.delete(cache.keys().next().value!);
   }

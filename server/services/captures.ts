@@ -48,6 +48,11 @@ export function capturePublic(c: Capture) {
     sealedAt: c.sealedAt ?? null,
     /** Set when a sealed reading was updated or deleted (a trigger); the seal route recomputes. */
     sealBroken: c.sealBrokenAt != null,
+    /** When readings last arrived, when the sweep marked it stalled, and why it was aborted (issue 13). */
+    lastReadingAt: c.lastReadingAt ?? null,
+    stalledAt: c.stalledAt ?? null,
+    abortReason: c.abortReason ?? null,
+    abortedBy: c.abortedBy ?? null,
   };
 }
 

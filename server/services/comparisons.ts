@@ -107,6 +107,12 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
   const [before, after] = await Promise.all([Capture.findByPk(beforeId), Capture.findByPk(afterId)]);
   if (!before) throw new NotFoundError('Capture "before"');
   if (!after) throw new NotFoundError('Capture "after"');
+  // An aborted capture keeps its readings as a record, never as evidence for a verdict (issue 13).
+  for (const [side, c] of [['before', before], ['after', after]] as const) {
+    if (c.state === 'aborted') {
+      throw new AppError(409, 'capture-aborted', `Capture ${c.id} ("${side}") was aborted${c.abortReason ? ` (${c.abortReason})` : ''}: it enters no comparison.`, { captureId: c.id });
+    }
+  }
   if (before.dutId !== after.dutId) {
     throw new ValidationError('after: both captures must be of the same DUT', [{ path: 'after', message: 'is of another DUT' }]);
   }

@@ -1,7 +1,8 @@
 import type { AuthUser } from './auth.js';
 import type pg from 'pg';
 import { Capture, Dut } from '../models/index.js';
-import { ForbiddenError, NotFoundError } from '../errors.js';
+import { AppError, ForbiddenError, NotFoundError } from '../errors.js';
+import { isRecording } from '../../shared/protocol/captureLifecycle.js';
 import type { LiveHub } from '../ws/live.js';
 import { canWriteCapture } from './ingest.js';
 import { buildTiles, loadSeries } from './readings.js';
@@ -49,7 +50,9 @@ export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser,
     );
     if (lock.rowCount === 0) throw new NotFoundError('Capture');
     if (!canWriteCapture(user, lock.rows[0].operator_id)) throw new ForbiddenError('Only the capture\'s operator, a lead or an admin may finish it.');
-    if (lock.rows[0].state === 'open') {
+    const from = lock.rows[0].state;
+    if (from === 'aborted') throw new AppError(409, 'capture-aborted', 'This capture was aborted: it cannot be finished.');
+    if (isRecording(from)) {
       const capture = (await Capture.findByPk(id))!;
       const dut = await Dut.findByPk(capture.dutId);
       const series = await loadSeries(client, id);
@@ -67,7 +70,7 @@ export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser,
       const seal = sealOf(series);
       await client.query('UPDATE captures SET seal_sha256 = $2, sealed_at = now() WHERE id = $1', [id, seal]);
       await auditWithClient(client, user.id, 'capture.finish', 'capture', id, {
-        state: { from: 'open', to: 'finished' },
+        state: { from, to: 'finished' },
         readings: series.seq.length,
         sealSha256: seal,
       });

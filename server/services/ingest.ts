@@ -6,6 +6,8 @@ import type { AuthUser } from './auth.js';
 import { PlausibilityWindow, PLAUSIBILITY } from '../../shared/protocol/plausibility.js';
 import { ReadingFlag } from '../../shared/protocol/reading.js';
 import { assertCaptureWritable } from './studyLock.js';
+import { audit } from './audit.js';
+import { isRecording } from '../../shared/protocol/captureLifecycle.js';
 
 interface IngestRow {
   state: string;
@@ -27,12 +29,12 @@ function ingestSql(conflictSafe: boolean, returnSeqs: boolean): string {
      ins AS (
        INSERT INTO readings (capture_id, seq, t, value, flags)
        SELECT $1, u.s, u.t, u.v, u.f FROM unnest($2::int[], $3::float8[], $4::float8[], $5::int2[]) AS u(s, t, v, f)
-       WHERE EXISTS (SELECT 1 FROM cap WHERE state = 'open' AND may_write${conflictSafe ? '' : ' AND fits'})
+       WHERE EXISTS (SELECT 1 FROM cap WHERE state IN ('open', 'stalled') AND may_write${conflictSafe ? '' : ' AND fits'})
        ${conflictSafe ? 'ON CONFLICT DO NOTHING ' : ''}RETURNING seq),
      counted AS (SELECT count(*)::int AS accepted FROM ins),
      upd AS (
        UPDATE captures c SET reading_count = c.reading_count + counted.accepted,
-         highest_seq = GREATEST(c.highest_seq, $8), updated_at = now()
+         highest_seq = GREATEST(c.highest_seq, $8), updated_at = now(), last_reading_at = now(), state = 'open'
        FROM counted WHERE c.id = $1 AND counted.accepted > 0
        RETURNING c.highest_seq)
      SELECT cap.state, cap.may_write, cap.fits, COALESCE((SELECT highest_seq FROM upd), cap.highest_seq) AS highest_seq,
@@ -142,16 +144,22 @@ export async function ingestReadings(
   // When the capture already holds higher readings, the statement inserts nothing and says so,
   // and the batch goes again through the conflict-safe path.
   let res = increasing && n > 0 ? await pool.query<IngestRow>(ingestSql(false, watched), params) : null;
-  if (!res || (res.rows[0] && res.rows[0].state === 'open' && res.rows[0].may_write && !res.rows[0].fits)) {
+  if (!res || (res.rows[0] && isRecording(res.rows[0].state) && res.rows[0].may_write && !res.rows[0].fits)) {
     res = await pool.query<IngestRow>(ingestSql(true, watched), params);
   }
   if (res.rowCount === 0) throw new NotFoundError('Capture');
   const row = res.rows[0];
   if (!row.may_write) throw new ForbiddenError("Only the capture's operator, a lead or an admin may add readings.");
-  if (row.state !== 'open') throw new AppError(409, 'capture-finished', 'This capture is finished: it takes no more readings.');
+  if (row.state === 'aborted') throw new AppError(409, 'capture-aborted', 'This capture was aborted: it takes no more readings.');
+  if (!isRecording(row.state)) throw new AppError(409, 'capture-finished', 'This capture is finished: it takes no more readings.');
   const accepted = row.accepted;
   const highestSeq = row.highest_seq;
   const inserted = row.seqs;
+  // A stalled capture that receives readings again is recording: the statement set it back to
+  // 'open'; the return is audited (rare, so off the hot path's single round trip).
+  if (row.state === 'stalled' && accepted > 0) {
+    await audit(user.id, 'capture.resume', 'capture', captureId, { state: { from: 'stalled', to: 'open' }, readings: accepted });
+  }
 
   if (watched && inserted && inserted.length) {
     const fresh = new Set(inserted);

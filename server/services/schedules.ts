@@ -2,6 +2,7 @@ import { QueryTypes } from 'sequelize';
 import type { Logger } from 'pino';
 import { Study } from '../models/index.js';
 import { enqueueMail } from './mail.js';
+import { startStallSweep } from './captureLifecycle.js';
 import { calibrationState } from './lab.js';
 
 /**
@@ -91,10 +92,13 @@ export function startSchedules(opts: { intervalMs?: number; log?: Logger } = {})
   const timer = setInterval(run, opts.intervalMs ?? 10 * 60_000);
   first.unref();
   timer.unref();
+  // Stalled captures are looked for every minute (the shortest stall is ten minutes).
+  const stalls = startStallSweep({ log: opts.log });
   return {
     stop() {
       clearTimeout(first);
       clearInterval(timer);
+      stalls.stop();
     },
   };
 }

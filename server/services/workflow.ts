@@ -90,7 +90,7 @@ export async function submitStudy(id: number, user: AuthUser, note: string | nul
     if (!TRANSITIONS.submit.from.includes(study.status)) refuse(study, 'submit');
     const dutIds = (await Dut.findAll({ where: { studyId: id }, attributes: ['id'], transaction: t })).map((d) => d.id);
     const captures = dutIds.length ? await Capture.findAll({ where: { dutId: { [Op.in]: dutIds } }, attributes: ['id', 'state'], transaction: t }) : [];
-    const open = captures.filter((c) => c.state === 'open').map((c) => c.id);
+    const open = captures.filter((c) => c.state === 'open' || c.state === 'stalled').map((c) => c.id);
     if (open.length) {
       throw new AppError(409, 'captures-open', `Finish the open capture(s) ${open.map((c) => `#${c}`).join(', ')} before submitting the study for review.`, { open });
     }

@@ -77,6 +77,7 @@ export const ROUTES = {
   'PATCH /api/captures/:id': 'read',
   'POST /api/captures/:id/readings': 'captures:run',
   'POST /api/captures/:id/finish': 'captures:run',
+  'POST /api/captures/:id/abort': 'captures:run',
   'GET /api/captures/:id/readings': 'read',
   'GET /api/captures/:id/readings.csv': 'read',
   'GET /api/captures/:id/analysis': 'read',
