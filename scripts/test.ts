@@ -78,6 +78,18 @@ function vitest(projects: string[], jsonFile: string, filters: string[], env: No
   return { status: r.status ?? 1, counts };
 }
 
+/**
+ * The lint gate (`npm run lint`: ESLint, then Prettier's check). A full run starts with it and
+ * fails when it fails; a run with filters skips it (set DRIFTBENCH_LINT=1 to lint anyway).
+ */
+function lint(): boolean {
+  console.log('Lint: npm run lint (ESLint, then Prettier --check)…');
+  const r = spawnSync('npm', ['run', '--silent', 'lint'], { cwd: PROJECT_ROOT, stdio: 'inherit' });
+  const ok = r.status === 0;
+  console.log(ok ? 'Lint: clean.' : 'Lint: FAILED (see above); the tests still run, the run fails.');
+  return ok;
+}
+
 let cluster: LocalCluster | undefined;
 let exitCode = 1;
 const cleanup = () => {
@@ -93,6 +105,8 @@ process.on('SIGINT', () => {
 
 try {
   const filters = process.argv.slice(2);
+  const lintOk = filters.length === 0 || process.env.DRIFTBENCH_LINT === '1' ? lint() : true;
+  if (filters.length > 0 && process.env.DRIFTBENCH_LINT !== '1') console.log('Lint skipped for a filtered run (npm run lint runs it).');
   const tmp = mkdtempSync(path.join(os.tmpdir(), 'driftbench-test-'));
   chmodSync(tmp, 0o755);
   cluster = startCluster(path.join(tmp, 'pg'), await freePort(), () => {});
@@ -121,10 +135,11 @@ try {
     e2e = vitest(['e2e'], path.join(resultsDir, 'vitest-e2e.json'), filters, env);
   }
   const passed = main.counts.passed + e2e.counts.passed;
-  const failed = main.counts.failed + e2e.counts.failed;
+  // A failed lint counts as one failure, so the closing line never reads clean when it was not.
+  const failed = main.counts.failed + e2e.counts.failed + (lintOk ? 0 : 1);
   const skipped = main.counts.skipped + e2e.counts.skipped;
   console.log(`\n${passed} passed, ${failed} failed, ${skipped} skipped`);
-  exitCode = main.status === 0 && e2e.status === 0 && failed === 0 ? 0 : 1;
+  exitCode = lintOk && main.status === 0 && e2e.status === 0 && failed === 0 ? 0 : 1;
 } catch (err) {
   console.error(err instanceof Error ? err.message : err);
   exitCode = 1;

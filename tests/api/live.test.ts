@@ -30,7 +30,6 @@ async function login(role: string): Promise<string> {
   return ((await res.json()) as { token: string }).token;
 }
 
-// eslint-disable-next-line @typescript-eslint/no-explicit-any
 function api(token: string, method: string, path: string, body?: unknown): Promise<any> {
   return fetch(`${server.url}${path}`, {
     method,
