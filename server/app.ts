@@ -7,6 +7,7 @@ import type { Database } from './db/connection.js';
 import { authenticate, guardRoutes } from './middleware/auth.js';
 import { jsonBodies } from './middleware/bodies.js';
 import { errorHandler } from './middleware/errorHandler.js';
+import { validateResponses } from './middleware/responses.js';
 import { outageMonitor } from './db/outage.js';
 import { AnalysisPool } from './analysis/pool.js';
 import { NotFoundError } from './errors.js';
@@ -77,6 +78,7 @@ export function createApp(ctx: AppContext): Express {
   );
 
   const api = express.Router();
+  api.use(validateResponses());
   api.use(healthRouter(ctx.db));
   // Sign-in first, then the body: an anonymous client cannot make the server read a body, and
   // only the ingest route takes a large one.

@@ -6,21 +6,18 @@ import jwt from 'jsonwebtoken';
 import { userFromToken } from '../services/auth.js';
 import { tokenFromProtocolHeader, WS_PROTOCOL } from '../../shared/protocol/socketAuth.js';
 import type { UpgradeHandler } from './upgrade.js';
-import type { ClientMessage, LiveReading, ServerMessage } from '../../shared/protocol/live.js';
+import {
+  ClientMessage,
+  CLIENT_MESSAGE_TYPES,
+  messageProblem,
+  type LiveReading,
+  type ServerMessage,
+} from '../../shared/protocol/live.js';
+import type { CaptureState } from '../../shared/protocol/captureLifecycle.js';
 
-/** What services need from the live fan-out. */
-export interface LiveHub {
-  hasWatchers(captureId: number): boolean;
-  publishReadings(captureId: number, readings: LiveReading[]): void;
-  publishState(captureId: number, state: 'open' | 'finished' | 'aborted'): void;
-}
-
-/** A hub for when nobody can watch (scripts, Supertest). */
-export const silentHub: LiveHub = {
-  hasWatchers: () => false,
-  publishReadings: () => {},
-  publishState: () => {},
-};
+// The hub's interface lives beside the services that publish to it, so they never import this file.
+import type { LiveHub } from '../services/liveHub.js';
+export { silentHub, type LiveHub } from '../services/liveHub.js';
 
 interface Peer {
   ws: WebSocket;
@@ -43,9 +40,16 @@ export const SESSION_ENDED = 4401;
  * header (`driftbench.token.<jwt>`, see shared/protocol/socketAuth.ts), never in the URL. Watchers
  * subscribe to captures and receive every accepted reading as soon as its batch is committed.
  */
-export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & UpgradeHandler & { recheckSessions(): Promise<void> } {
+export function createLiveHub(
+  jwtSecret: string,
+  pool: pg.Pool,
+): LiveHub & UpgradeHandler & { recheckSessions(): Promise<void> } {
   // The server answers with the plain protocol name, never echoing the token.
-  const wss = new WebSocketServer({ noServer: true, maxPayload: 64 * 1024, handleProtocols: () => WS_PROTOCOL });
+  const wss = new WebSocketServer({
+    noServer: true,
+    maxPayload: 64 * 1024,
+    handleProtocols: () => WS_PROTOCOL,
+  });
   const peers = new Set<Peer>();
   const watchers = new Map<number, Set<Peer>>();
 
@@ -59,11 +63,16 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
     if (set && set.size === 0) watchers.delete(captureId);
   };
 
-  const handlers: { [K in ClientMessage['type']]: (peer: Peer, msg: Extract<ClientMessage, { type: K }>) => void } = {
+  const handlers: {
+    [K in ClientMessage['type']]: (peer: Peer, msg: Extract<ClientMessage, { type: K }>) => void;
+  } = {
     watch(peer, msg) {
-      if (!Number.isInteger(msg.captureId)) return;
       if (peer.watching.size >= MAX_WATCHED && !peer.watching.has(msg.captureId)) {
-        send(peer, { type: 'error', code: 'too-many', message: `A connection may watch at most ${MAX_WATCHED} captures.` });
+        send(peer, {
+          type: 'error',
+          code: 'too-many',
+          message: `A connection may watch at most ${MAX_WATCHED} captures.`,
+        });
         return;
       }
       peer.watching.add(msg.captureId);
@@ -86,11 +95,15 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
   async function recheckSessions(): Promise<void> {
     if (peers.size === 0) return;
     const ids = [...new Set([...peers].map((p) => p.userId))];
-    const res = await pool.query<{ id: number; token_version: number }>('SELECT id, token_version FROM users WHERE id = ANY($1) AND active', [ids]);
+    const res = await pool.query<{ id: number; token_version: number }>(
+      'SELECT id, token_version FROM users WHERE id = ANY($1) AND active',
+      [ids],
+    );
     const active = new Map(res.rows.map((r) => [r.id, r.token_version]));
     const now = Date.now();
     for (const peer of peers) {
-      if (active.get(peer.userId) !== peer.tokenVersion || peer.expiresAt <= now) peer.ws.close(SESSION_ENDED, 'session ended');
+      if (active.get(peer.userId) !== peer.tokenVersion || peer.expiresAt <= now)
+        peer.ws.close(SESSION_ENDED, 'session ended');
     }
   }
 
@@ -116,22 +129,42 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
     ws.on('error', () => ws.terminate());
     ws.on('pong', () => (peer.alive = true));
     ws.on('message', (data) => {
-      let msg: ClientMessage;
+      let raw: unknown;
       try {
-        msg = JSON.parse(String(data)) as ClientMessage;
+        raw = JSON.parse(String(data));
       } catch {
         send(peer, { type: 'error', code: 'bad-message', message: 'Messages must be JSON.' });
         return;
       }
-      const type = typeof msg === 'object' && msg !== null ? (msg as { type?: unknown }).type : undefined;
-      if (typeof type !== 'string' || !Object.hasOwn(handlers, type)) {
-        send(peer, { type: 'error', code: 'unknown-type', message: 'Unknown message type.' });
+      // Every message is checked against the contract (shared/protocol/live.ts) before a handler sees it.
+      const type =
+        typeof raw === 'object' && raw !== null ? (raw as { type?: unknown }).type : undefined;
+      if (typeof type !== 'string' || !(CLIENT_MESSAGE_TYPES as readonly string[]).includes(type)) {
+        send(peer, {
+          type: 'error',
+          code: 'unknown-type',
+          message: `Unknown message type; expected one of ${CLIENT_MESSAGE_TYPES.join(', ')}.`,
+        });
         return;
       }
+      const parsed = ClientMessage.safeParse(raw);
+      if (!parsed.success) {
+        send(peer, {
+          type: 'error',
+          code: 'bad-message',
+          message: `A "${type}" message was refused: ${messageProblem(parsed.error)}.`,
+        });
+        return;
+      }
+      const msg = parsed.data;
       try {
-        (handlers[type as ClientMessage['type']] as (p: Peer, m: ClientMessage) => void)(peer, msg);
+        (handlers[msg.type] as (p: Peer, m: ClientMessage) => void)(peer, msg);
       } catch {
-        send(peer, { type: 'error', code: 'bad-message', message: 'The message could not be handled.' });
+        send(peer, {
+          type: 'error',
+          code: 'bad-message',
+          message: 'The message could not be handled.',
+        });
       }
     });
     ws.on('close', () => {
@@ -151,7 +184,9 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
           if (user.mustChangePassword) throw new Error('password change required');
           const claims = jwt.decode(token) as jwt.JwtPayload | null;
           const exp = claims?.exp;
-          wss.handleUpgrade(req, socket, head, (ws) => accept(ws, user.id, exp ? exp * 1000 : Infinity, Number(claims?.tv ?? 0)));
+          wss.handleUpgrade(req, socket, head, (ws) =>
+            accept(ws, user.id, exp ? exp * 1000 : Infinity, Number(claims?.tv ?? 0)),
+          );
         })
         .catch(() => {
           socket.write('HTTP/1.1 401 Unauthorized\r\nConnection: close\r\n\r\n');
@@ -164,7 +199,12 @@ export function createLiveHub(jwtSecret: string, pool: pg.Pool): LiveHub & Upgra
     publishReadings(captureId, readings) {
       const set = watchers.get(captureId);
       if (!set || readings.length === 0) return;
-      const payload = JSON.stringify({ type: 'readings-batch', captureId, readings, sentAt: Date.now() } satisfies ServerMessage);
+      const payload = JSON.stringify({
+        type: 'readings-batch',
+        captureId,
+        readings,
+        sentAt: Date.now(),
+      } satisfies ServerMessage);
       for (const peer of set) if (peer.ws.readyState === peer.ws.OPEN) peer.ws.send(payload);
     },
     publishState(captureId, state) {

@@ -5,9 +5,10 @@ import { Text } from './text.js';
 import { NewPassword } from './password.js';
 
 /** Error envelope every API error uses. */
-export interface ApiErrorBody {
-  error: { code: string; message: string; details?: unknown };
-}
+export const ApiErrorBody = z.object({
+  error: z.object({ code: z.string(), message: z.string(), details: z.unknown().optional() }),
+});
+export type ApiErrorBody = z.infer<typeof ApiErrorBody>;
 
 export const Email = z.string().trim().toLowerCase().email('must be an e-mail address').max(254);
 

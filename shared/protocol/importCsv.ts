@@ -61,20 +61,20 @@ export const CaptureImportFields = z.object({
 export type CaptureImportFields = z.infer<typeof CaptureImportFields>;
 
 /** Answer of a successful import. */
-export interface CaptureImportResult {
-  id: number;
-  readings: number;
-}
+export const CaptureImportResult = z.object({ id: z.number().int().positive(), readings: z.number().int() });
+export type CaptureImportResult = z.infer<typeof CaptureImportResult>;
 
 /** 'unknown': no import under this key for this user (not started yet, or long over). */
-export type ImportPhase = 'unknown' | 'receiving' | 'storing' | 'finishing' | 'done' | 'failed';
-export interface ImportProgress {
-  phase: ImportPhase;
+export const IMPORT_PHASES = ['unknown', 'receiving', 'storing', 'finishing', 'done', 'failed'] as const;
+export type ImportPhase = (typeof IMPORT_PHASES)[number];
+export const ImportProgress = z.object({
+  phase: z.enum(IMPORT_PHASES),
   /** Rows read so far (all of them once storing starts). */
-  rows: number;
+  rows: z.number().int(),
   /** Readings stored so far. */
-  stored: number;
-}
+  stored: z.number().int(),
+});
+export type ImportProgress = z.infer<typeof ImportProgress>;
 
 /** What a bad line is reported as (the 400's details). */
 export interface ImportLineProblem {

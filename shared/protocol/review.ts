@@ -34,18 +34,19 @@ export const REVIEW_ACTIONS = ['start', 'submit', 'approve', 'return', 'reopen']
 export type ReviewAction = (typeof REVIEW_ACTIONS)[number];
 
 /** One step of the review history as the API shows it. */
-export interface ReviewEntry {
-  id: number;
-  revision: number;
-  action: ReviewAction;
-  fromStatus: string;
-  toStatus: string;
-  note: string | null;
-  at: string;
-  actorId: number | null;
-  actorName: string | null;
-  actorRole: string | null;
-}
+export const ReviewEntry = z.object({
+  id: z.number().int(),
+  revision: z.number().int(),
+  action: z.enum(REVIEW_ACTIONS),
+  fromStatus: z.string(),
+  toStatus: z.string(),
+  note: z.string().nullable(),
+  at: z.string(),
+  actorId: z.number().int().nullable(),
+  actorName: z.string().nullable(),
+  actorRole: z.string().nullable(),
+});
+export type ReviewEntry = z.infer<typeof ReviewEntry>;
 
 /** `GET /api/audit` query: filter by user, kind (action or its prefix, e.g. `study` or `study.approve`), date; paged by cursor. */
 export const AuditQuery = z.object({
@@ -64,82 +65,91 @@ export const AuditQuery = z.object({
 export type AuditQuery = z.infer<typeof AuditQuery>;
 
 /** One audit event as the API shows it. */
-export interface AuditEntry {
-  id: number;
-  at: string;
-  actorId: number | null;
-  actorName: string | null;
-  action: string;
-  subjectType: string;
-  subjectId: number | null;
-  details: unknown;
-  prevHash: string;
-  hash: string;
-}
+export const AuditEntry = z.object({
+  id: z.number().int(),
+  at: z.string(),
+  actorId: z.number().int().nullable(),
+  actorName: z.string().nullable(),
+  action: z.string(),
+  subjectType: z.string(),
+  subjectId: z.number().int().nullable(),
+  details: z.unknown(),
+  prevHash: z.string(),
+  hash: z.string(),
+});
+export type AuditEntry = z.infer<typeof AuditEntry>;
 
 /** `GET /api/audit/verify` */
-export interface AuditVerification {
-  ok: boolean;
-  checked: number;
-  firstBroken: { id: number; reason: 'content-changed' | 'link-broken'; message: string } | null;
-  headHash: string | null;
-}
+export const AuditVerification = z.object({
+  ok: z.boolean(),
+  checked: z.number().int(),
+  firstBroken: z.object({ id: z.number().int(), reason: z.enum(['content-changed', 'link-broken']), message: z.string() }).nullable(),
+  headHash: z.string().nullable(),
+});
+export type AuditVerification = z.infer<typeof AuditVerification>;
 
 /** `GET /api/captures/:id/seal` */
-export interface SealAnswer {
-  captureId: number;
-  sha256: string | null;
-  readings: number;
-  recomputed: string;
-  verified: boolean | null;
-  sealedAt: string | null;
-}
+export const SealAnswer = z.object({
+  captureId: z.number().int(),
+  sha256: z.string().nullable(),
+  readings: z.number().int(),
+  recomputed: z.string(),
+  verified: z.boolean().nullable(),
+  sealedAt: z.string().nullable(),
+});
+export type SealAnswer = z.infer<typeof SealAnswer>;
+
+export const MAIL_STATUSES = ['queued', 'retrying', 'sent', 'failed'] as const;
+export const MailStatus = z.enum(MAIL_STATUSES);
 
 /** `GET /api/outbox` and `?status=` */
 export const OutboxQuery = z.object({
-  status: z.enum(['queued', 'retrying', 'sent', 'failed']).optional(),
+  status: MailStatus.optional(),
   limit: z.coerce.number().int().min(1).max(500).default(100),
   cursor: z.string().regex(/^\d{1,15}$/, 'must be a cursor from a previous page').optional(),
 });
 
-export interface OutboxMessage {
-  id: number;
-  kind: string;
-  to: string;
-  subject: string;
-  text: string;
-  status: 'queued' | 'retrying' | 'sent' | 'failed';
-  attempts: number;
-  nextAttemptAt: string | null;
-  lastError: string | null;
-  sentAt: string | null;
-  createdAt: string;
-}
+export const OutboxMessage = z.object({
+  id: z.number().int(),
+  kind: z.string(),
+  to: z.string(),
+  subject: z.string(),
+  text: z.string(),
+  status: MailStatus,
+  attempts: z.number().int(),
+  nextAttemptAt: z.string().nullable(),
+  lastError: z.string().nullable(),
+  sentAt: z.string().nullable(),
+  createdAt: z.string(),
+});
+export type OutboxMessage = z.infer<typeof OutboxMessage>;
 
-export interface ReceivedMessage {
-  id: number;
-  from: string | null;
-  to: string;
-  subject: string;
-  text: string;
-  messageId: string | null;
-  size: number;
-  receivedAt: string;
-}
+export const ReceivedMessage = z.object({
+  id: z.number().int(),
+  from: z.string().nullable(),
+  to: z.string(),
+  subject: z.string(),
+  text: z.string(),
+  messageId: z.string().nullable(),
+  size: z.number().int(),
+  receivedAt: z.string(),
+});
+export type ReceivedMessage = z.infer<typeof ReceivedMessage>;
 
 export const ATTACHMENT_OWNERS = ['study', 'checkpoint', 'capture'] as const;
 export type AttachmentOwner = (typeof ATTACHMENT_OWNERS)[number];
 
-export interface AttachmentInfo {
-  id: number;
-  studyId: number;
-  ownerType: AttachmentOwner;
-  ownerId: number;
-  filename: string;
-  contentType: string;
-  size: number;
-  sha256: string;
-  uploadedBy: number | null;
-  uploaderName?: string | null;
-  createdAt: string;
-}
+export const AttachmentInfo = z.object({
+  id: z.number().int(),
+  studyId: z.number().int(),
+  ownerType: z.enum(ATTACHMENT_OWNERS),
+  ownerId: z.number().int(),
+  filename: z.string(),
+  contentType: z.string(),
+  size: z.number().int(),
+  sha256: z.string(),
+  uploadedBy: z.number().int().nullable(),
+  uploaderName: z.string().nullable().optional(),
+  createdAt: z.string(),
+});
+export type AttachmentInfo = z.infer<typeof AttachmentInfo>;

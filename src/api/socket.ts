@@ -3,7 +3,7 @@
  * backoff after any loss, with every watched capture re-subscribed on reconnect. The session token
  * travels in the `Sec-WebSocket-Protocol` header (shared/protocol/socketAuth.ts), never in the URL.
  */
-import type { ClientMessage, ServerMessage } from '../../shared/protocol/live';
+import { ServerMessage, messageProblem, type ClientMessage } from '../../shared/protocol/live';
 import { socketProtocols } from '../../shared/protocol/socketAuth';
 
 export type SocketState = 'connecting' | 'open' | 'reconnecting' | 'closed';
@@ -19,6 +19,11 @@ export interface LiveSocketOptions {
   backoffMs?: [number, number];
   onState?: (state: SocketState) => void;
   WebSocket?: typeof WebSocket;
+  /**
+   * Called with a message the server sent that is not in the contract (shared/protocol/live.ts);
+   * such a message is dropped. Default: a console warning.
+   */
+  onInvalid?: (problem: string, data: unknown) => void;
 }
 
 function defaultUrl(): string {
@@ -83,6 +88,12 @@ export class LiveSocket {
     if (this.ws && this.ws.readyState === 1) this.ws.send(JSON.stringify(msg));
   }
 
+  private invalid(problem: string, data: unknown) {
+    if (this.opts.onInvalid) this.opts.onInvalid(problem, data);
+    else
+      console.warn(`Driftbench live socket: dropped a message outside the contract (${problem})`);
+  }
+
   private setState(state: SocketState) {
     this.state = state;
     this.opts.onState?.(state);
@@ -107,12 +118,19 @@ export class LiveSocket {
       for (const captureId of this.watched.keys()) this.send({ type: 'watch', captureId });
     };
     ws.onmessage = (ev) => {
-      let msg: ServerMessage;
+      let raw: unknown;
       try {
-        msg = JSON.parse(String(ev.data)) as ServerMessage;
+        raw = JSON.parse(String(ev.data));
       } catch {
+        this.invalid('not JSON', ev.data);
         return;
       }
+      const parsed = ServerMessage.safeParse(raw);
+      if (!parsed.success) {
+        this.invalid(messageProblem(parsed.error), raw);
+        return;
+      }
+      const msg = parsed.data;
       for (const l of this.listeners) l(msg);
       if ('captureId' in msg) this.watched.get(msg.captureId)?.forEach((h) => h(msg));
     };

@@ -7,11 +7,12 @@ import { onBeforeUnmount, reactive } from 'vue';
 import { getReadings, type ReadingOut } from '../api/captures';
 import { openLiveSocket, type LiveSocket, type SocketState } from '../api/socket';
 import type { ServerMessage } from '../../shared/protocol/live';
+import { isRecording, type CaptureState } from '../../shared/protocol/captureLifecycle';
 import type { LiveSeries } from './useLiveSeries';
 
 export interface WatchState {
-  /** open: on air; finished/aborted: the capture ended. */
-  captureState: 'open' | 'finished' | 'aborted';
+  /** open/stalled: on air; finished/aborted: the capture ended. */
+  captureState: CaptureState;
   socket: SocketState;
   loading: boolean;
   error: string | null;
@@ -87,15 +88,15 @@ export function createWatch(opts: { id: number; series: LiveSeries; getToken: ()
       append(msg.readings);
     } else if (msg.type === 'capture-state') {
       state.captureState = msg.state;
-      if (msg.state !== 'open') void catchUp();
+      if (!isRecording(msg.state)) void catchUp();
     }
   }
 
   /** Loads the history and, for an open capture, follows it live. */
-  async function start(capture: { state: 'open' | 'finished' | 'aborted'; highestSeq: number }) {
+  async function start(capture: { state: CaptureState; highestSeq: number }) {
     state.captureState = capture.state;
     // Subscribe first so nothing falls between the history and the first live batch.
-    if (capture.state === 'open') {
+    if (isRecording(capture.state)) {
       socket = openLiveSocket({
         getToken: opts.getToken,
         onState: (s) => {
