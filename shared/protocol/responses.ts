@@ -19,15 +19,7 @@ import {
   MailStatus,
 } from './review.js';
 import { CaptureImportResult, ImportProgress } from './importCsv.js';
-import { CalibrationHistory, InstrumentCalibrated, ReferenceCalibrated } from './equipment.js';
-import { CaptureBaseline, TiltCheckList, TiltCheckResponse } from './accelerometer.js';
 import { LinkProfile } from './linkProfile.js';
-import {
-  CaptureExclusionResult,
-  CellCaptures,
-  CellChoiceResult,
-  StudyEditResult,
-} from './studyEdit.js';
 import { STABILITY_KINDS } from './captures.js';
 import {
   BudgetWire,
@@ -326,22 +318,7 @@ export const RESPONSES = {
   'GET /api/references': ReferenceList,
   'POST /api/references': ReferenceResponse,
   'PATCH /api/references/:id': ReferenceResponse,
-  'GET /api/instruments/:id/calibrations': CalibrationHistory,
-  'POST /api/instruments/:id/calibrations': InstrumentCalibrated,
-  'POST /api/instruments/:id/away': InstrumentResponse,
-  'POST /api/instruments/:id/retire': InstrumentResponse,
-  'POST /api/instruments/:id/reinstate': InstrumentResponse,
-  'GET /api/references/:id': ReferenceResponse,
-  'GET /api/references/:id/calibrations': CalibrationHistory,
-  'POST /api/references/:id/calibrations': ReferenceCalibrated,
-  'POST /api/references/:id/away': ReferenceResponse,
-  'POST /api/references/:id/retire': ReferenceResponse,
-  'POST /api/references/:id/reinstate': ReferenceResponse,
-  'POST /api/references/:id/lab-default': ReferenceResponse,
   'PATCH /api/duts/:id': DutResponse,
-  'POST /api/duts/:id/tilt-checks': TiltCheckResponse,
-  'GET /api/duts/:id/tilt-checks': TiltCheckList,
-  'GET /api/captures/:id/baseline': CaptureBaseline,
   'PATCH /api/studies/:id/settings': StudyRecord,
   'GET /api/dashboard': DashboardResponse,
   'GET /api/captures': CaptureList,
@@ -383,16 +360,6 @@ export const RESPONSES = {
   'GET /api/outbox/received': ReceivedPage,
   'POST /api/outbox/:id/retry': RetryResponse,
   // Editing with history (issue 13 part B; shared/protocol/studyEdit.ts).
-  'PATCH /api/studies/:id': StudyEditResult,
-  'DELETE /api/studies/:id': 'no-content',
-  'POST /api/studies/:id/checkpoints/order': z.object({ checkpoints: z.array(CheckpointRecord) }),
-  'PATCH /api/checkpoints/:id': CheckpointRecord,
-  'DELETE /api/checkpoints/:id': 'no-content',
-  'DELETE /api/duts/:id': 'no-content',
-  'GET /api/studies/:id/cells': CellCaptures,
-  'PUT /api/studies/:id/cells': CellChoiceResult,
-  'POST /api/captures/:id/exclude': CaptureExclusionResult,
-  'POST /api/captures/:id/include': CaptureExclusionResult,
 } as const satisfies Partial<Record<RouteKey, ResponseSpec>>;
 
 export type ResponseKey = keyof typeof RESPONSES;
