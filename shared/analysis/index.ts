@@ -28,3 +28,4 @@ export * from './decimate';
 export * from './coverage';
 export * from './correlatedUncertainty';
 export * from './planner';
+export * from './tiltCheck';

@@ -1,0 +1,150 @@
+import { z } from 'zod';
+
+export const AXES = ['x', 'y', 'z'] as const;
+export type Axis = (typeof AXES)[number];
+
+/**
+ * The body of `POST /api/duts/:id/tilt-checks`: the finished captures of one guided tilt check
+ * (flat, inverted, optionally on edge) at one checkpoint, and the set-up the server needs to form
+ * the result's uncertainty. The server reads the captures' own statistics; nothing is taken from
+ * the client but the ids and the set-up.
+ */
+export const TiltCheckCreate = z.strictObject({
+  checkpointId: z.number().int().positive(),
+  axis: z.enum(AXES).default('z'),
+  flatCaptureId: z.number().int().positive(),
+  invertedCaptureId: z.number().int().positive(),
+  onEdgeCaptureId: z.number().int().positive().nullable().optional(),
+  /** Local gravity at the bench, m/s² (WGS84 normal gravity at the lab); the plausible range on Earth. */
+  localGravity: z
+    .number()
+    .finite()
+    .min(9.76, 'must lie within 9.76…9.84 m/s²')
+    .max(9.84, 'must lie within 9.76…9.84 m/s²')
+    .optional(),
+  /** One LSB of the sensor in mg (default: 0.0625 mg, the ±2 g span of the bench's sensor). */
+  lsbMg: z.number().finite().positive('must be greater than zero').max(100).optional(),
+  /** Largest angle between the board and its ideal pose, degrees (default 1°). */
+  orientationErrorDeg: z.number().finite().min(0).max(45).optional(),
+});
+export type TiltCheckCreate = z.infer<typeof TiltCheckCreate>;
+
+/** One budget line as stored with a tilt check (the BudgetTable shape; ν = ∞ travels as null). */
+export const TiltBudgetLine = z.object({
+  name: z.string(),
+  value: z.number(),
+  unit: z.string(),
+  distribution: z.string(),
+  sensitivity: z.number(),
+  contribution: z.number(),
+  dof: z.number().nullable(),
+  type: z.enum(['A', 'B']),
+  note: z.string(),
+  source: z.string().optional(),
+  key: z.string().optional(),
+});
+export type TiltBudgetLine = z.infer<typeof TiltBudgetLine>;
+
+export const TiltBudget = z.object({
+  mean: z.number(),
+  components: z.array(TiltBudgetLine),
+  combined: z.number(),
+  effectiveDof: z.number().nullable(),
+  k: z.number(),
+  coverage: z.string(),
+  expanded: z.number(),
+  relativeExpanded: z.null(),
+  notes: z.array(z.string()),
+});
+export type TiltBudget = z.infer<typeof TiltBudget>;
+
+/** A stored tilt check: the DUT's result at a checkpoint (one axis). */
+export const TiltCheck = z.object({
+  id: z.number().int(),
+  dutId: z.number().int(),
+  checkpointId: z.number().int(),
+  axis: z.enum(AXES),
+  flatCaptureId: z.number().int(),
+  invertedCaptureId: z.number().int(),
+  onEdgeCaptureId: z.number().int().nullable(),
+  localGravity: z.number(),
+  lsbMg: z.number(),
+  orientationErrorDeg: z.number(),
+  /** The ideal 1 g reading here, 1000·g/g_n mg. */
+  idealMg: z.number(),
+  offsetMg: z.number(),
+  /** Measured scale in % of the ideal (100 = perfect). */
+  sensitivityPct: z.number(),
+  sensitivityErrorPct: z.number(),
+  offset: TiltBudget,
+  sensitivity: TiltBudget,
+  onEdgeOffset: TiltBudget.nullable(),
+  createdBy: z.number().int().nullable(),
+  createdAt: z.string(),
+});
+export type TiltCheck = z.infer<typeof TiltCheck>;
+
+/** `POST /api/duts/:id/tilt-checks` answers `{ tiltCheck }`; the GET answers `{ tiltChecks }`. */
+export const TiltCheckResponse = z.object({ tiltCheck: TiltCheck });
+export const TiltCheckList = z.object({ tiltChecks: z.array(TiltCheck) });
+
+const Verdict = z.enum(['within', 'exceeds', 'inconclusive']);
+
+/** Δ of one tilt-check quantity against the baseline's, as the matrix shows it. */
+export const TiltChange = z.object({
+  delta: z.number(),
+  expandedUncertainty: z.number(),
+  k: z.number(),
+  coverage: z.string(),
+  unit: z.enum(['mg', '%']),
+  limitLow: z.number().nullable(),
+  limitHigh: z.number().nullable(),
+  /** null: no limit set for this quantity (Δ and U still given). */
+  verdict: Verdict.nullable(),
+  significant: z.boolean(),
+});
+export type TiltChange = z.infer<typeof TiltChange>;
+
+const TiltAxisFigures = z.object({
+  offsetMg: z.number(),
+  uOffsetMg: z.number(),
+  offsetExpanded: z.number(),
+  sensitivityErrorPct: z.number(),
+  uSensitivityPct: z.number(),
+  sensitivityExpanded: z.number(),
+});
+
+/** A matrix cell's tilt-check part: the latest check at that checkpoint and, later, its change per axis. */
+export const MatrixTiltCell = z.object({
+  check: z.object({ id: z.number().int(), axes: z.partialRecord(z.enum(AXES), TiltAxisFigures) }),
+  /** Against the baseline checkpoint's latest tilt check; null at the baseline or without one. */
+  change: z
+    .object({
+      before: z.number().int(),
+      axes: z.partialRecord(
+        z.enum(AXES),
+        z.object({ offset: TiltChange, sensitivity: TiltChange }),
+      ),
+    })
+    .nullable(),
+  /** Why no change could be formed (e.g. no tilt check at the baseline). */
+  problem: z.string().optional(),
+});
+export type MatrixTiltCell = z.infer<typeof MatrixTiltCell>;
+
+/** `GET /api/captures/:id/baseline`: what this capture is compared with, or why nothing. */
+export const BASELINE_REASONS = [
+  'not-finished',
+  'is-baseline',
+  'no-baseline',
+  'no-baseline-orientation',
+] as const;
+export const CaptureBaseline = z.object({
+  baseline: z
+    .object({ id: z.number().int(), checkpointId: z.number().int(), checkpoint: z.string() })
+    .nullable(),
+  reason: z.enum(BASELINE_REASONS).nullable(),
+  /** A sentence for the page ("No baseline of this orientation (flat) at “Baseline” …"). */
+  message: z.string().nullable(),
+});
+export type CaptureBaseline = z.infer<typeof CaptureBaseline>;
