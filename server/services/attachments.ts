@@ -11,6 +11,7 @@ import { audit } from './audit.js';
 import { assertStudyWritable, type StudyPart } from './studyLock.js';
 import type { BlobStore } from './storage.js';
 import type { AttachmentOwner } from '../../shared/protocol/review.js';
+import { roleCan } from '../../shared/protocol/roles.js';
 
 /** What an upload may be, by default: photos, printouts as PDF, CSV and plain-text exports. */
 export const DEFAULT_UPLOAD_TYPES = ['image/png', 'image/jpeg', 'image/webp', 'application/pdf', 'text/csv', 'text/plain'];
@@ -209,7 +210,7 @@ export async function deleteAttachment(store: BlobStore, id: number, user: AuthU
   const key = await Study.sequelize!.transaction(async (transaction) => {
     const a = await Attachment.findByPk(id, { transaction, lock: transaction.LOCK.UPDATE });
     if (!a) throw new NotFoundError('Attachment');
-    if (a.uploadedBy !== user.id && user.role !== 'lead') {
+    if (a.uploadedBy !== user.id && !roleCan(user.role, 'attachments:delete-any')) {
       throw new ForbiddenError('Only the person who uploaded a file or a lead may delete it.');
     }
     await assertStudyWritable('study', a.studyId, 'deleting an attachment', transaction);

@@ -17,7 +17,7 @@ import {
   type ImportProgress,
 } from '../../shared/protocol/importCsv.js';
 import { MAX_BATCH, type ReadingIn } from '../../shared/protocol/captures.js';
-import type { LiveHub } from '../ws/live.js';
+import type { LiveHub } from './liveHub.js';
 import type { AuthUser } from './auth.js';
 import { createCapture } from './captures.js';
 import { ingestReadings } from './ingest.js';

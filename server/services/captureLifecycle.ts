@@ -3,7 +3,7 @@ import type { Logger } from 'pino';
 import { QueryTypes } from 'sequelize';
 import { Capture } from '../models/index.js';
 import { AppError, ForbiddenError, NotFoundError } from '../errors.js';
-import type { LiveHub } from '../ws/live.js';
+import type { LiveHub } from './liveHub.js';
 import type { AuthUser } from './auth.js';
 import { canWriteCapture } from './ingest.js';
 import { buildTiles, loadSeries } from './readings.js';

@@ -4,6 +4,7 @@ import { Capture, Checkpoint, Dut, Instrument, Reference, Study, User } from '..
 import { AppError, ForbiddenError, NotFoundError, ValidationError } from '../errors.js';
 import type { CaptureCreate, CapturePatch } from '../../shared/protocol/captures.js';
 import { canWriteCapture } from './ingest.js';
+import { roleCan } from '../../shared/protocol/roles.js';
 import { pageOf } from './paging.js';
 import { assertStudyWritable } from './studyLock.js';
 import { startOnFirstCapture } from './workflow.js';
@@ -53,6 +54,8 @@ export function capturePublic(c: Capture) {
     stalledAt: c.stalledAt ?? null,
     abortReason: c.abortReason ?? null,
     abortedBy: c.abortedBy ?? null,
+    /** Left out of the evidence by a lead, with the reason (issue 13; null while it counts). */
+    excluded: c.excludedAt ? { at: c.excludedAt, by: c.excludedBy ?? null, reason: c.exclusionReason ?? '' } : null,
   };
 }
 
@@ -68,6 +71,10 @@ export async function createCapture(input: CaptureCreate, operator: AuthUser) {
     throw new ValidationError('checkpointId: the checkpoint belongs to another study than the DUT', [
       { path: 'checkpointId', message: 'belongs to another study than the DUT' },
     ]);
+  }
+  if (dut.archivedAt || checkpoint.archivedAt) {
+    const what = dut.archivedAt ? `DUT “${dut.label}”` : `checkpoint “${checkpoint.name}”`;
+    throw new AppError(409, 'archived', `The ${what} is archived: restore it on the study page before capturing it.`);
   }
   if (input.unit !== dut.unit) {
     throw new ValidationError(`unit: the DUT is measured in ${dut.unit}`, [{ path: 'unit', message: `must be the DUT's unit, ${dut.unit}` }]);
@@ -191,8 +198,7 @@ export async function getCapture(id: number) {
 /** Notes, tags and ambient temperature may change after the fact; readings never do. */
 export async function patchCapture(id: number, patch: CapturePatch, user: AuthUser) {
   const c = await requireCapture(id);
-  const tagger = user.role === 'admin' || user.role === 'lead' || user.role === 'engineer';
-  if (!tagger && !canWriteCapture(user, c.operatorId)) throw new ForbiddenError();
+  if (!roleCan(user.role, 'captures:tag') && !canWriteCapture(user, c.operatorId)) throw new ForbiddenError();
   // The ambient temperature enters the stored reduction (budget, tuning-fork normalisation):
   // once a capture is finished it is part of the evidence and stays as recorded.
   if (patch.ambientC !== undefined && c.state !== 'open' && patch.ambientC !== c.ambientC) {

@@ -3,7 +3,7 @@ import type pg from 'pg';
 import { Capture, Dut } from '../models/index.js';
 import { AppError, ForbiddenError, NotFoundError } from '../errors.js';
 import { isRecording } from '../../shared/protocol/captureLifecycle.js';
-import type { LiveHub } from '../ws/live.js';
+import type { LiveHub } from './liveHub.js';
 import { canWriteCapture } from './ingest.js';
 import { buildTiles, loadSeries } from './readings.js';
 import { prepare, reduce } from './captureAnalysis.js';

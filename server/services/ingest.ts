@@ -1,10 +1,11 @@
 import type pg from 'pg';
 import { AppError, ForbiddenError, NotFoundError, ValidationError } from '../errors.js';
 import { findBadReading, type IngestResult, type ReadingIn } from '../../shared/protocol/captures.js';
-import type { LiveHub } from '../ws/live.js';
+import type { LiveHub } from './liveHub.js';
 import type { AuthUser } from './auth.js';
 import { PlausibilityWindow, PLAUSIBILITY } from '../../shared/protocol/plausibility.js';
 import { ReadingFlag } from '../../shared/protocol/reading.js';
+import { roleCan } from '../../shared/protocol/roles.js';
 import { assertCaptureWritable } from './studyLock.js';
 import { audit } from './audit.js';
 import { isRecording } from '../../shared/protocol/captureLifecycle.js';
@@ -70,11 +71,13 @@ async function plausibilityFor(pool: pg.Pool, captureId: number): Promise<Plausi
   return w;
 }
 
-/** Who may add readings to a capture: its operator, or a lead or admin. Viewers never. */
+/**
+ * Who may add readings to a capture: a role that runs captures, when it is the capture's operator
+ * or holds `captures:write-any` (shared/protocol/roles.ts). Viewers never.
+ */
 export function canWriteCapture(user: Pick<AuthUser, 'id' | 'role'>, operatorId: number | null): boolean {
-  if (user.role === 'viewer') return false;
-  if (user.role === 'admin' || user.role === 'lead') return true;
-  return operatorId === user.id;
+  if (!roleCan(user.role, 'captures:run')) return false;
+  return roleCan(user.role, 'captures:write-any') || operatorId === user.id;
 }
 
 /**
@@ -122,8 +125,8 @@ export async function ingestReadings(
   const judge = await plausibilityFor(pool, captureId);
   for (let i = 0; i < n; i++) if (flags[i] === 0 && !judge.check(values[i])) flags[i] |= ReadingFlag.implausible;
   const watched = hub.hasWatchers(captureId);
-  const mayWriteAny = user.role === 'admin' || user.role === 'lead';
-  if (user.role === 'viewer') throw new ForbiddenError('Viewers cannot add readings.');
+  const mayWriteAny = roleCan(user.role, 'captures:write-any');
+  if (!roleCan(user.role, 'captures:run')) throw new ForbiddenError('Your role cannot add readings.');
 
   // One statement, so one round trip and one commit: lock the capture row, insert only if it is
   // open and the user may write it, count what was new, and move the capture's counters.

@@ -9,6 +9,7 @@ import { enqueueMail } from './mail.js';
 import { buildStudyReport } from './report.js';
 import type { ReviewAction } from '../models/StudyReview.js';
 import { getStudy } from './studies.js';
+import { PERMISSIONS } from '../../shared/protocol/roles.js';
 
 /**
  * The study workflow, enforced here and nowhere else:
@@ -100,7 +101,8 @@ export async function submitStudy(id: number, user: AuthUser, note: string | nul
     study.submittedBy = user.id;
     study.submittedAt = new Date();
     await move(study, 'submit', user, note, t);
-    const leads = await User.findAll({ where: { role: 'lead', active: true, id: { [Op.ne]: user.id } }, transaction: t });
+    const reviewers = [...PERMISSIONS['studies:review']];
+    const leads = await User.findAll({ where: { role: reviewers, active: true, id: { [Op.ne]: user.id } }, transaction: t });
     for (const lead of leads) {
       await enqueueMail(
         {
@@ -198,16 +200,8 @@ async function mailSubmitter(study: Study, t: Transaction, kind: string, subject
   if (submitter?.active) await enqueueMail({ kind, to: submitter.email, subject, text }, t);
 }
 
-/** The review history of a study, oldest first, with the names of who did what. */
-export async function reviewHistory(studyId: number, t?: Transaction) {
-  return (await Study.sequelize!.query(
-    `SELECT r.id, r.revision, r.action, r.from_status AS "fromStatus", r.to_status AS "toStatus",
-            r.note, r.created_at AS "at", r.actor_id AS "actorId", u.name AS "actorName", u.role AS "actorRole"
-     FROM study_reviews r LEFT JOIN users u ON u.id = r.actor_id
-     WHERE r.study_id = $1 ORDER BY r.id`,
-    { bind: [studyId], type: QueryTypes.SELECT, transaction: t },
-  )) as Array<{ id: number; revision: number; action: ReviewAction; fromStatus: string; toStatus: string; note: string | null; at: Date; actorId: number | null; actorName: string | null; actorRole: string | null }>;
-}
+// Kept importable from here; the query lives in its own module (the report lists it too).
+export { reviewHistory } from './reviewHistory.js';
 
 /** The approved revisions of a study (without their reports). */
 export async function listRevisions(studyId: number) {

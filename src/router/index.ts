@@ -6,9 +6,11 @@ import {
   type Router,
   type RouterHistory,
 } from 'vue-router';
-import type { Role } from '../api/auth';
-import { configureHttp } from '../api/http';
-import { reasonFor, useSessionStore } from '../stores/session';
+import type { Permission } from '../../shared/protocol/roles';
+import { useSessionStore } from '../stores/session';
+import { safeNext } from './safeNext';
+
+export { safeNext };
 
 declare module 'vue-router' {
   interface RouteMeta {
@@ -16,8 +18,11 @@ declare module 'vue-router' {
     title?: string;
     /** Reachable without signing in (rendered without the shell). */
     public?: boolean;
-    /** Only these roles may open the page; everyone signed in when absent. */
-    roles?: Role[];
+    /**
+     * The permission (shared/protocol/roles.ts, the table the server enforces) a role needs to
+     * open the page; everyone signed in when absent. The nav rail reads the same field.
+     */
+    permission?: Permission;
     /** Signed in, but rendered without the shell (the printable report). */
     bare?: boolean;
   }
@@ -73,7 +78,7 @@ export const routes: RouteRecordRaw[] = [
     path: '/bench',
     name: 'bench',
     component: () => import('../views/BenchView.vue'),
-    meta: { title: 'Bench', roles: ['admin', 'lead', 'engineer', 'technician'] },
+    meta: { title: 'Bench', permission: 'captures:run' },
   },
   {
     path: '/captures',
@@ -85,7 +90,7 @@ export const routes: RouteRecordRaw[] = [
     path: '/captures/import',
     name: 'capture-import',
     component: () => import('../views/CaptureImportView.vue'),
-    meta: { title: 'Import readings', roles: ['admin', 'lead', 'engineer', 'technician'] },
+    meta: { title: 'Import readings', permission: 'captures:run' },
   },
   {
     path: '/compare',
@@ -117,13 +122,13 @@ export const routes: RouteRecordRaw[] = [
     path: '/users',
     name: 'users',
     component: () => import('../views/UsersView.vue'),
-    meta: { title: 'Users', roles: ['admin'] },
+    meta: { title: 'Users', permission: 'users:manage' },
   },
   {
     path: '/outbox',
     name: 'outbox',
     component: () => import('../views/OutboxView.vue'),
-    meta: { title: 'Outbox', roles: ['admin'] },
+    meta: { title: 'Outbox', permission: 'outbox:read' },
   },
   {
     path: '/help',
@@ -146,11 +151,6 @@ export const routes: RouteRecordRaw[] = [
   },
 ];
 
-/** Only same-app paths may be used as the after-sign-in destination. */
-export function safeNext(value: unknown): string {
-  return typeof value === 'string' && value.startsWith('/') && !value.startsWith('//') ? value : '/';
-}
-
 export function createAppRouter(history: RouterHistory = createWebHistory()): Router {
   const router = createRouter({ history, routes, scrollBehavior: () => ({ top: 0 }) });
 
@@ -168,8 +168,7 @@ export function createAppRouter(history: RouterHistory = createWebHistory()): Ro
     if (ended) return { name: 'sign-in', query: { next, reason: ended === 'signed-out' ? undefined : ended } };
     if (session.mustChangePassword && to.name !== 'change-password') return { name: 'change-password', query: { next } };
     if (!session.mustChangePassword && to.name === 'change-password') return { name: 'dashboard' };
-    const allowed = to.meta.roles;
-    if (allowed && !session.hasRole(...allowed)) return { name: 'forbidden' };
+    if (to.meta.permission && !session.can(to.meta.permission)) return { name: 'forbidden' };
     return true;
   });
 
@@ -177,19 +176,12 @@ export function createAppRouter(history: RouterHistory = createWebHistory()): Ro
     document.title = to.meta.title ? `${to.meta.title} · Driftbench` : 'Driftbench';
   });
 
-  // Any API call that finds the session over sends the user to sign in, then back here.
-  configureHttp({
-    onSessionLost: (error) => {
-      const session = useSessionStore();
-      if (!session.token) return;
-      session.signOut();
-      const current = router.currentRoute.value;
-      if (current.meta.public) return;
-      void router.replace({
-        name: 'sign-in',
-        query: { next: current.fullPath, reason: reasonFor(error) },
-      });
-    },
+  // The session store hears when an API call finds the session over and signs out; the router
+  // only listens, sending the user to sign in, then back here.
+  useSessionStore().onSessionEnded((reason) => {
+    const current = router.currentRoute.value;
+    if (current.meta.public) return;
+    void router.replace({ name: 'sign-in', query: { next: current.fullPath, reason } });
   });
 
   return router;

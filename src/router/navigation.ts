@@ -2,6 +2,7 @@ import type { Component } from 'vue';
 import type { RouteLocationNamedRaw, Router } from 'vue-router';
 import { Collection, Connection, Cpu, DataLine, Message, Notebook, QuestionFilled, TrendCharts, User, VideoPlay } from '@element-plus/icons-vue';
 import type { Role } from '../api/auth';
+import { roleCan } from '../../shared/protocol/roles';
 
 export interface NavItem {
   label: string;
@@ -10,8 +11,8 @@ export interface NavItem {
 }
 
 /**
- * The rail's entries in order. Who sees an entry follows the target route's `meta.roles`, so
- * access rules live in one place (the route table).
+ * The rail's entries in order. Who sees an entry follows the target route's `meta.permission`,
+ * checked against the permission table the server enforces (shared/protocol/roles.ts).
  */
 export const NAV_ITEMS: NavItem[] = [
   { label: 'Dashboard', to: { name: 'dashboard' }, icon: Collection },
@@ -29,7 +30,7 @@ export const NAV_ITEMS: NavItem[] = [
 export function navItemsFor(router: Router, role: Role | null): NavItem[] {
   if (!role) return [];
   return NAV_ITEMS.filter((item) => {
-    const roles = router.resolve(item.to).meta.roles;
-    return !roles || roles.includes(role);
+    const permission = router.resolve(item.to).meta.permission;
+    return !permission || roleCan(role, permission);
   });
 }

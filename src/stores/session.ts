@@ -57,7 +57,22 @@ export const useSessionStore = defineStore('session', () => {
   const verified = ref(false);
   let restoring: Promise<SessionEndReason | null> | null = null;
 
-  configureHttp({ getToken: () => token.value });
+  /** Who hears that an API call found the session over (the router, to send the user to sign in). */
+  const endedListeners = new Set<(reason: SessionEndReason) => void>();
+  function onSessionEnded(listener: (reason: SessionEndReason) => void): () => void {
+    endedListeners.add(listener);
+    return () => endedListeners.delete(listener);
+  }
+
+  configureHttp({
+    getToken: () => token.value,
+    onSessionLost: (error) => {
+      if (!token.value) return;
+      signOut();
+      const reason = reasonFor(error);
+      for (const listener of endedListeners) listener(reason);
+    },
+  });
   configureSimulatorToken(() => token.value);
 
   const isAuthenticated = computed(() => token.value !== null && user.value !== null);
@@ -66,10 +81,6 @@ export const useSessionStore = defineStore('session', () => {
   /** Whether the signed-in role holds a permission (the server's own table; it enforces it). */
   function can(permission: Permission): boolean {
     return role.value !== null && roleCan(role.value, permission);
-  }
-
-  function hasRole(...roles: Role[]): boolean {
-    return role.value !== null && roles.includes(role.value);
   }
 
   function setSession(newToken: string, newUser: SessionUser, mustChange = false): void {
@@ -136,5 +147,19 @@ export const useSessionStore = defineStore('session', () => {
     return restoring;
   }
 
-  return { token, user, verified, mustChangePassword, isAuthenticated, role, can, hasRole, signIn, signOut, logout, changePassword, restore };
+  return {
+    token,
+    user,
+    verified,
+    mustChangePassword,
+    isAuthenticated,
+    role,
+    can,
+    signIn,
+    signOut,
+    logout,
+    changePassword,
+    restore,
+    onSessionEnded,
+  };
 });

@@ -7,6 +7,7 @@ import { navItemsFor } from '../../../src/router/navigation';
 import { http } from '../../../src/api/http';
 import { SESSION_KEY } from '../../../src/stores/session';
 import { admin, queueFetch, technician } from './helpers';
+import { ROLES, roleCan } from '../../../shared/protocol/roles';
 
 async function routerAt(path: string): Promise<Router> {
   const router = createAppRouter(createMemoryHistory());
@@ -84,5 +85,28 @@ describe('router guard', () => {
     expect(navItemsFor(router, 'admin').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab', 'Users', 'Outbox', 'Help']);
     expect(navItemsFor(router, 'technician').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab', 'Help']);
     expect(navItemsFor(router, 'viewer').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Captures', 'Compare', 'Links', 'Lab', 'Help']);
+  });
+
+  it('gates pages by the permission table the server enforces', () => {
+    const router = createAppRouter(createMemoryHistory());
+    const gated = router.getRoutes().filter((r) => r.meta.permission);
+    expect(gated.map((r) => r.name).sort()).toEqual(['bench', 'capture-import', 'outbox', 'users']);
+    for (const r of gated) {
+      for (const role of ROLES) {
+        const shown = navItemsFor(router, role).some((i) => i.to.name === r.name);
+        const onRail = navItemsFor(router, 'admin').some((i) => i.to.name === r.name);
+        if (onRail) expect(shown, `${String(r.name)} for ${role}`).toBe(roleCan(role, r.meta.permission!));
+      }
+    }
+  });
+
+  it('lets a lead open the bench and keeps a viewer out, as the server table says', async () => {
+    localStorage.setItem(SESSION_KEY, JSON.stringify({ token: 't', user: { ...technician, role: 'viewer' } }));
+    queueFetch({ body: { user: { ...technician, role: 'viewer' } } });
+    expect((await routerAt('/bench')).currentRoute.value.name).toBe('forbidden');
+    setActivePinia(createPinia());
+    localStorage.setItem(SESSION_KEY, JSON.stringify({ token: 't', user: { ...technician, role: 'lead' } }));
+    queueFetch({ body: { user: { ...technician, role: 'lead' } } });
+    expect((await routerAt('/bench')).currentRoute.value.name).toBe('bench');
   });
 });
