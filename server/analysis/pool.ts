@@ -13,7 +13,7 @@ import type { AnalysisJob, JobError, WorkerReply } from './protocol.js';
 const ENTRY = new URL('./worker-entry.mjs', import.meta.url);
 
 interface Pending {
-  resolve(v: { result: unknown; readingCount: number }): void;
+  resolve(v: { json: string; readingCount: number }): void;
   reject(err: unknown): void;
 }
 
@@ -41,10 +41,20 @@ export interface AnalysisPoolStats {
   coalesced: number;
 }
 
+/**
+ * The answer with what it covers: the readings the analysis was computed on, the capture's count
+ * when the request read it (an open capture's answer may be a few seconds old) and when it was
+ * computed. Appended to the cached JSON text, so a cache hit costs no parse.
+ */
+function withCoverage(json: string, readings: number, captureReadings: number, at: number): string {
+  const coverage = { readings, captureReadings: Math.max(readings, captureReadings), computedAt: new Date(at).toISOString() };
+  return `${json.slice(0, -1)},"coverage":${JSON.stringify(coverage)}}`;
+}
+
 export class AnalysisPool {
   private readonly slots: Slot[] = [];
   private readonly queue: Array<{ job: AnalysisJob; pending: Pending }> = [];
-  private readonly inFlight = new Map<string, Promise<{ json: string; readingCount: number }>>();
+  private readonly inFlight = new Map<string, Promise<{ json: string; readingCount: number; at: number }>>();
   private readonly cache = new Map<string, { readingCount: number; state: string; json: string; at: number; took: number }>();
   private nextId = 1;
   private closed = false;
@@ -70,7 +80,7 @@ export class AnalysisPool {
       slot.pending.delete(msg.id);
       slot.busy = false;
       if (p) {
-        if (msg.ok) p.resolve({ result: msg.result, readingCount: msg.readingCount });
+        if (msg.ok) p.resolve({ json: msg.json, readingCount: msg.readingCount });
         else p.reject(toError(msg.error));
       }
       this.pump();
@@ -103,7 +113,7 @@ export class AnalysisPool {
     }
   }
 
-  private run(job: AnalysisJob): Promise<{ result: unknown; readingCount: number }> {
+  private run(job: AnalysisJob): Promise<{ json: string; readingCount: number }> {
     if (this.closed) return Promise.reject(new Error('analysis pool closed'));
     return new Promise((resolve, reject) => {
       this.queue.push({ job, pending: { resolve, reject } });
@@ -127,23 +137,24 @@ export class AnalysisPool {
       this.stats.cacheHits++;
       this.cache.delete(key);
       this.cache.set(key, hit);
-      return hit.json;
+      return withCoverage(hit.json, hit.readingCount, current.readingCount, hit.at);
     }
     const running = this.inFlight.get(key);
     if (running) {
       this.stats.coalesced++;
-      return (await running).json;
+      const done = await running;
+      return withCoverage(done.json, done.readingCount, current.readingCount, done.at);
     }
     const startedAt = Date.now();
-    const started = this.run(job).then((r) => ({ json: JSON.stringify(r.result), readingCount: r.readingCount }));
+    const started = this.run(job).then((r) => ({ json: r.json, readingCount: r.readingCount, at: Date.now() }));
     this.inFlight.set(key, started);
     try {
       const done = await started;
       this.stats.computed++;
       this.cache.delete(key);
-      this.cache.set(key, { readingCount: done.readingCount, state: current.state, json: done.json, at: Date.now(), took: Date.now() - startedAt });
+      this.cache.set(key, { readingCount: done.readingCount, state: current.state, json: done.json, at: done.at, took: done.at - startedAt });
       if (this.cache.size > (this.opts.cacheSize ?? 64)) this.cache.delete(this.cache.keys().next().value!);
-      return done.json;
+      return withCoverage(done.json, done.readingCount, current.readingCount, done.at);
     } finally {
       this.inFlight.delete(key);
     }

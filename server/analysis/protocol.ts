@@ -21,4 +21,5 @@ export interface JobError {
 }
 
 export type WorkerRequest = { id: number; job: AnalysisJob };
-export type WorkerReply = { id: number; ok: true; result: unknown; readingCount: number } | { id: number; ok: false; error: JobError };
+/** `json`: the answer already serialised in the worker, so the event loop never stringifies it. */
+export type WorkerReply = { id: number; ok: true; json: string; readingCount: number } | { id: number; ok: false; error: JobError };

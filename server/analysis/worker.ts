@@ -5,6 +5,7 @@
  * viewer polling a million-reading capture costs one small query per poll, not a full reload.
  */
 import { parentPort, workerData } from 'node:worker_threads';
+import os from 'node:os';
 import { openDatabase } from '../db/connection.js';
 import { initModels, Capture, Dut } from '../models/index.js';
 import { AppError, NotFoundError } from '../errors.js';
@@ -15,6 +16,15 @@ import { implausibleNote } from '../../shared/protocol/plausibility.js';
 import type { AnalysisJob, JobError, WorkerReply, WorkerRequest } from './protocol.js';
 
 const { databaseUrl } = workerData as { databaseUrl: string };
+
+// Analysis is background work: this thread runs at a lower CPU priority (nice 10), so on a busy machine
+// the event loop (ingest, live fan-out) and PostgreSQL always come first. On Linux the priority
+// of pid 0 is the calling thread's own; elsewhere the call may be refused, which changes nothing.
+try {
+  os.setPriority(0, 10);
+} catch {
+  // Not permitted here: the worker keeps the process's priority.
+}
 const db = openDatabase(databaseUrl, { poolMax: 2 });
 initModels(db.sequelize);
 
@@ -154,7 +164,7 @@ function asJobError(err: unknown): JobError {
 
 parentPort!.on('message', (msg: WorkerRequest) => {
   analyse(msg.job).then(
-    ({ result, readingCount }) => parentPort!.postMessage({ id: msg.id, ok: true, result, readingCount } satisfies WorkerReply),
+    ({ result, readingCount }) => parentPort!.postMessage({ id: msg.id, ok: true, json: JSON.stringify(result), readingCount } satisfies WorkerReply),
     (err) => parentPort!.postMessage({ id: msg.id, ok: false, error: asJobError(err) } satisfies WorkerReply),
   );
 });

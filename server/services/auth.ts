@@ -1,6 +1,6 @@
 import bcrypt from 'bcryptjs';
 import jwt from 'jsonwebtoken';
-import { randomBytes } from 'node:crypto';
+import { createSecretKey, randomBytes, type KeyObject } from 'node:crypto';
 import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import type pg from 'pg';
@@ -100,10 +100,25 @@ interface UserRow {
   must_change_password: boolean;
 }
 
+/**
+ * The secret as a key object, made once: given a string, jsonwebtoken builds a new key object on
+ * every verify (about 1.5 ms of the event loop per request under load, measured by
+ * tests/bench/analysisLoad.ts's CPU profile).
+ */
+const secretKeys = new Map<string, KeyObject>();
+function secretKey(secret: string): KeyObject {
+  let key = secretKeys.get(secret);
+  if (!key) {
+    key = createSecretKey(Buffer.from(secret, 'utf8'));
+    secretKeys.set(secret, key);
+  }
+  return key;
+}
+
 /** Verifies a token's signature and expiry; its claims, or a 401. */
 export function verifyToken(token: string, secret: string): jwt.JwtPayload {
   try {
-    const decoded = jwt.verify(token, secret, { algorithms: ['HS256'] });
+    const decoded = jwt.verify(token, secretKey(secret), { algorithms: ['HS256'] });
     if (typeof decoded === 'string') throw new Error('unexpected payload');
     return decoded;
   } catch (err) {

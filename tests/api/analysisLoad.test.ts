@@ -145,3 +145,45 @@ describe('implausible readings (item 7)', () => {
     expect(a.body.counts.total).toBe(100);
   });
 });
+
+describe('an open capture polled while it grows (item 2)', () => {
+  it('serves a recent answer for a few seconds and says which reading count it covers', async () => {
+    // A pool that keeps an open capture's answer for a minute, as a busy server would for seconds.
+    const slow = new AnalysisPool(t.db.url, 1, { openFreshMs: 60_000 });
+    const slowApp = createApp({ db: t.db, jwtSecret: TEST_JWT_SECRET, log: pino({ level: 'silent' }), analysis: slow });
+    try {
+      const id = await openCapture();
+      await send(id, 0, 3000, steady);
+      const first = await request(slowApp).get(`/api/captures/${id}/analysis`).set(auth());
+      expect(first.status).toBe(200);
+      expect(first.body.coverage.readings).toBe(3000);
+      expect(first.body.coverage.captureReadings).toBe(3000);
+      expect(Number.isNaN(Date.parse(first.body.coverage.computedAt))).toBe(false);
+
+      await send(id, 3000, 500, steady);
+      const stale = await request(slowApp).get(`/api/captures/${id}/analysis`).set(auth());
+      expect(stale.body.counts.total).toBe(3000);
+      expect(stale.body.coverage).toEqual({ ...first.body.coverage, captureReadings: 3500 });
+      expect(slow.stats.computed).toBe(1);
+
+      // Once finished, the answer covers every reading (a finished capture is never served stale).
+      await request(slowApp).post(`/api/captures/${id}/finish`).set(auth());
+      const done = await request(slowApp).get(`/api/captures/${id}/analysis`).set(auth());
+      expect(done.body.coverage.readings).toBe(3500);
+      expect(done.body.coverage.captureReadings).toBe(3500);
+    } finally {
+      await slow.close();
+    }
+  });
+
+  it.skipIf(process.platform !== 'linux')('computes in a thread that runs at a lower CPU priority than the event loop', async () => {
+    const id = await openCapture();
+    await send(id, 0, 100, steady);
+    expect((await request(app).get(`/api/captures/${id}/analysis`).set(auth())).status).toBe(200);
+    const { readdirSync, readFileSync } = await import('node:fs');
+    // Field 19 of /proc/<pid>/task/<tid>/stat is the thread's nice value (proc(5)).
+    const nice = readdirSync('/proc/self/task').map((tid) => Number(readFileSync(`/proc/self/task/${tid}/stat`, 'utf8').split(') ')[1].split(' ')[16]));
+    expect(nice).toContain(10);
+    expect(nice).toContain(0);
+  });
+});

@@ -1,63 +1,33 @@
-import { spawn, type ChildProcess } from 'node:child_process';
-import { mkdtempSync, chmodSync } from 'node:fs';
-import os from 'node:os';
 import path from 'node:path';
+import os from 'node:os';
+import { mkdtempSync, readFileSync } from 'node:fs';
 import pg from 'pg';
-import { startCluster, destroyCluster, freePort } from '../../server/db/cluster.js';
-import { ensureDatabase, openDatabase } from '../../server/db/connection.js';
-import { migrate } from '../../server/migrations/index.js';
 import { PROJECT_ROOT } from '../../server/index.js';
+import { startBenchServer, type BenchServer } from './server.js';
 
 // Issue 10, item 2: a technician's ingest latency while four viewers request the analysis of a
 // 1,000,000-reading open capture in a loop. Target: ingest p95 under 50 ms. The server runs in
 // its own process (as `npm start` does); the load generator runs here.
-const SECRET = 'driftbench-bench-secret-of-at-least-32-characters';
 const TARGET_P95_MS = 50;
 const pct = (xs: number[], p: number) => [...xs].sort((a, b) => a - b)[Math.min(xs.length - 1, Math.floor(xs.length * p))] ?? NaN;
-
-function startServerProcess(databaseUrl: string, port: number): Promise<ChildProcess> {
-  return new Promise((resolve, reject) => {
-    const p = spawn(process.execPath, ['--import', 'tsx', path.join(PROJECT_ROOT, 'server/index.ts')], {
-      cwd: PROJECT_ROOT,
-      env: { ...process.env, DATABASE_URL: databaseUrl, PORT: String(port), JWT_SECRET: SECRET, DRIFTBENCH_DEMO: '1', DRIFTBENCH_SIMULATORS: '0', LOG_LEVEL: 'silent', NODE_ENV: 'development' },
-      stdio: ['ignore', 'pipe', 'inherit'],
-    });
-    p.stdout!.on('data', (d) => String(d).includes('listening') && resolve(p));
-    p.on('exit', (code) => reject(new Error(`server exited (${code})`)));
-  });
-}
 
 export async function benchAnalysisLoad(opts: { baselineS?: number; loadS?: number } = {}): Promise<void> {
   const baselineS = opts.baselineS ?? 10;
   const loadS = opts.loadS ?? 40;
-  const tmp = mkdtempSync(path.join(os.tmpdir(), 'driftbench-bench-'));
-  chmodSync(tmp, 0o755);
-  const cluster = startCluster(path.join(tmp, 'pg'), await freePort(), () => {});
-  let server: ChildProcess | undefined;
+  let bench: BenchServer | undefined;
   try {
-    await ensureDatabase(cluster.url('postgres'), 'bench');
-    const url = cluster.url('bench');
-    const db = openDatabase(url);
-    await migrate(db.sequelize);
-    await db.close();
-    const port = await freePort();
-    server = await startServerProcess(url, port);
-    const base = `http://127.0.0.1:${port}`;
-    const login = async (role: string) =>
-      ((await (await fetch(`${base}/api/auth/login`, {
-        method: 'POST',
-        headers: { 'content-type': 'application/json' },
-        body: JSON.stringify({ email: `${role}@kestrelbay.example`, password: 'driftbench-demo' }),
-      })).json()) as { token: string }).token;
-    const tech = { 'content-type': 'application/json', authorization: `Bearer ${await login('technician')}` };
-    const viewer = { authorization: `Bearer ${await login('viewer')}` };
-    const study = (await (await fetch(`${base}/api/studies/1`, { headers: tech })).json()) as { duts: { id: number }[]; checkpoints: { id: number }[] };
-    const created = await fetch(`${base}/api/captures`, {
-      method: 'POST',
-      headers: tech,
-      body: JSON.stringify({ dutId: study.duts[0].id, checkpointId: study.checkpoints[0].id, quantity: 'frequency', unit: 'Hz', gateTime: 0.01 }),
-    });
-    const id = ((await created.json()) as { id: number }).id;
+    const loopFile = path.join(mkdtempSync(path.join(os.tmpdir(), 'driftbench-loop-')), 'loop.jsonl');
+    bench = await startBenchServer({ env: { BENCH_LOOP_FILE: loopFile } });
+    // The server's event-loop delay between two instants (one line a second from loopProbe.mjs).
+    const loopBetween = (from: number, to: number) => {
+      const lines = readFileSync(loopFile, 'utf8').trim().split('\n').map((l) => JSON.parse(l) as { at: number; p99: number; max: number });
+      const inside = lines.filter((l) => l.at > from + 1000 && l.at <= to);
+      return { p99: pct(inside.map((l) => l.p99), 0.95), max: Math.max(...inside.map((l) => l.max)) };
+    };
+    const { base, url } = bench;
+    const tech = await bench.headers('technician');
+    const viewer = await bench.headers('viewer');
+    const id = await bench.newCapture({ gateTime: 0.01 });
 
     // The open capture: 1,000,000 readings written straight into the table.
     const N = 1_000_000;
@@ -88,21 +58,32 @@ export async function benchAnalysisLoad(opts: { baselineS?: number; loadS?: numb
       return latencies;
     };
 
+    const baselineFrom = Date.now();
     const baseline = await ingestFor(baselineS);
+    const baselineLoop = loopBetween(baselineFrom, Date.now());
 
     // Four viewers asking for the analysis in a loop while the technician keeps ingesting.
     let stop = false;
     const analysisMs: number[] = [];
+    const failures: string[] = [];
+    const behind: number[] = [];
     const viewers = Array.from({ length: 4 }, async () => {
       while (!stop) {
         const t0 = performance.now();
         const res = await fetch(`${base}/api/captures/${id}/analysis`, { headers: viewer });
-        const body = (await res.json()) as { counts?: { total: number } };
-        if (!res.ok) throw new Error(`analysis failed: ${res.status} ${JSON.stringify(body)}`);
+        const body = (await res.json()) as { coverage?: { readings: number; captureReadings: number } };
+        if (!res.ok) {
+          failures.push(`${res.status} ${JSON.stringify(body).slice(0, 200)}`);
+          await new Promise((r) => setTimeout(r, 500));
+          continue;
+        }
         analysisMs.push(performance.now() - t0);
+        if (body.coverage) behind.push(body.coverage.captureReadings - body.coverage.readings);
       }
     });
+    const loadFrom = Date.now();
     const loaded = await ingestFor(loadS);
+    const loadLoop = loopBetween(loadFrom, Date.now());
     stop = true;
     await Promise.all(viewers);
 
@@ -112,11 +93,15 @@ export async function benchAnalysisLoad(opts: { baselineS?: number; loadS?: numb
     console.log(line('ingest, no viewers', baseline));
     console.log(line('ingest, 4 viewers looping on analysis', loaded));
     console.log(line('analysis answers (4 viewers)', analysisMs));
+    console.log(`  server event loop, no viewers: p99 delay ${baselineLoop.p99.toFixed(1)} ms (95th pct of 1 s windows), max ${baselineLoop.max.toFixed(1)} ms`);
+    console.log(`  server event loop, 4 viewers:  p99 delay ${loadLoop.p99.toFixed(1)} ms (95th pct of 1 s windows), max ${loadLoop.max.toFixed(1)} ms`);
+    if (behind.length) console.log(`  answers covered the capture up to ${pct(behind, 0.5)} readings behind (median), ${Math.max(...behind)} at most (each answer says which count it covers)`);
+    if (failures.length) console.log(`  ${failures.length} analysis requests failed, first: ${failures[0]}`);
+    console.log(`  machine load average during the run: ${os.loadavg()[0].toFixed(2)} on ${os.cpus().length} cores (other work on the machine inflates every figure)`);
     const p95 = pct(loaded, 0.95);
     console.log(`  ingest p95 under load: ${p95.toFixed(1)} ms — target < ${TARGET_P95_MS} ms: ${p95 < TARGET_P95_MS ? 'met' : 'NOT met'}`);
   } finally {
-    server?.kill('SIGTERM');
-    destroyCluster(cluster);
+    await bench?.stop();
   }
 }
 

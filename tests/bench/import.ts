@@ -1,35 +1,10 @@
-import { spawn, type ChildProcess } from 'node:child_process';
-import { mkdtempSync, chmodSync } from 'node:fs';
 import os from 'node:os';
-import path from 'node:path';
 import http from 'node:http';
-import { startCluster, destroyCluster, freePort } from '../../server/db/cluster.js';
-import { ensureDatabase, openDatabase } from '../../server/db/connection.js';
-import { migrate } from '../../server/migrations/index.js';
-import { PROJECT_ROOT } from '../../server/index.js';
 import { millionRowFile } from '../helpers/importFiles.js';
+import { startBenchServer, type BenchServer } from './server.js';
 
 // The CSV import of issue 12 against a real server process and PostgreSQL: one 1,000,000-row
 // file posted as multipart, timed from the first byte sent to the 201 (parse, ingest, finish, seal).
-const SECRET = 'driftbench-bench-secret-of-at-least-32-characters';
-
-function startServerProcess(databaseUrl: string, port: number): Promise<ChildProcess> {
-  return new Promise((resolve, reject) => {
-    const p = spawn(process.execPath, ['--import', 'tsx', path.join(PROJECT_ROOT, 'server/index.ts')], {
-      cwd: PROJECT_ROOT,
-      env: { ...process.env, DATABASE_URL: databaseUrl, PORT: String(port), JWT_SECRET: SECRET, DRIFTBENCH_DEMO: '1', DRIFTBENCH_SIMULATORS: '0', LOG_LEVEL: process.env.BENCH_LOG ?? 'silent', LOGIN_RATE_LIMIT: '1000' },
-      stdio: ['ignore', 'pipe', 'inherit'],
-    });
-    p.stdout!.on('data', (d) => {
-      if (process.env.BENCH_LOG) process.stderr.write(d);
-      if (String(d).includes('listening')) resolve(p);
-    });
-    p.on('exit', (code, signal) => {
-      if (process.env.BENCH_LOG) console.error(`server exited (${code} ${signal})`);
-      reject(new Error(`server exited (${code})`));
-    });
-  });
-}
 
 /** A multipart POST with node:http that reports the answer even when it comes before the upload ends. */
 function postMultipart(url: string, token: string, fields: Record<string, string>, filename: string, file: Buffer): Promise<{ status: number; body: string }> {
@@ -56,26 +31,11 @@ function postMultipart(url: string, token: string, fields: Record<string, string
 }
 
 export async function benchImport(rows = 1_000_000): Promise<void> {
-  const tmp = mkdtempSync(path.join(os.tmpdir(), 'driftbench-bench-import-'));
-  chmodSync(tmp, 0o755);
-  const cluster = startCluster(path.join(tmp, 'pg'), await freePort(), () => {});
-  let server: ChildProcess | undefined;
+  let bench: BenchServer | undefined;
   try {
-    await ensureDatabase(cluster.url('postgres'), 'bench');
-    const url = cluster.url('bench');
-    const db = openDatabase(url);
-    await migrate(db.sequelize);
-    await db.close();
-    const port = await freePort();
-    server = await startServerProcess(url, port);
-    const base = `http://127.0.0.1:${port}`;
-    const login = await fetch(`${base}/api/auth/login`, {
-      method: 'POST',
-      headers: { 'content-type': 'application/json' },
-      body: JSON.stringify({ email: 'technician@kestrelbay.example', password: 'driftbench-demo' }),
-    });
-    if (!login.ok) throw new Error(`sign-in answered ${login.status}: ${await login.text()}`);
-    const token = ((await login.json()) as { token: string }).token;
+    bench = await startBenchServer();
+    const { base } = bench;
+    const token = await bench.token('technician');
     const headers = { authorization: `Bearer ${token}` };
     const studyRes = await fetch(`${base}/api/studies/1`, { headers });
     if (!studyRes.ok) throw new Error(`GET /api/studies/1 answered ${studyRes.status}: ${await studyRes.text()}`);
@@ -102,7 +62,6 @@ export async function benchImport(rows = 1_000_000): Promise<void> {
       `import: ${body.readings.toLocaleString('en')} rows (${(text.length / 1e6).toFixed(1)} MB CSV) → finished, sealed capture in ${(ms / 1000).toFixed(2)} s (${Math.round(body.readings / (ms / 1000)).toLocaleString('en')} rows/s; load ${os.loadavg()[0].toFixed(1)})`,
     );
   } finally {
-    server?.kill();
-    destroyCluster(cluster);
+    await bench?.stop();
   }
 }

@@ -1,6 +1,3 @@
-import { spawn, type ChildProcess } from 'node:child_process';
-import { mkdtempSync, chmodSync } from 'node:fs';
-import os from 'node:os';
 import path from 'node:path';
 import { pipeline } from 'node:stream/promises';
 import { Readable } from 'node:stream';
@@ -8,59 +5,24 @@ import pg from 'pg';
 import { from as copyFrom } from 'pg-copy-streams';
 import WebSocket from 'ws';
 import { socketProtocols } from '../../shared/protocol/socketAuth.js';
-import { startCluster, destroyCluster, freePort } from '../../server/db/cluster.js';
-import { ensureDatabase, openDatabase } from '../../server/db/connection.js';
-import { migrate } from '../../server/migrations/index.js';
 import { PROJECT_ROOT } from '../../server/index.js';
 import { ReadingUploader, MemoryPendingStore } from '../../src/api/uploader.js';
 import type { IngestResult } from '../../shared/protocol/captures.js';
+import { startBenchServer, type BenchServer } from './server.js';
 
 // Ingest, decimated-read and live-path figures against a real PostgreSQL and a real server
 // process (the load generator runs in this process, the server in another).
-const SECRET = 'driftbench-bench-secret-of-at-least-32-characters';
-
 const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[Math.floor(xs.length / 2)];
 const pct = (xs: number[], p: number) => [...xs].sort((a, b) => a - b)[Math.min(xs.length - 1, Math.floor(xs.length * p))];
 
-function startServerProcess(databaseUrl: string, port: number): Promise<ChildProcess> {
-  return new Promise((resolve, reject) => {
-    const p = spawn(process.execPath, ['--import', 'tsx', path.join(PROJECT_ROOT, 'server/index.ts')], {
-      cwd: PROJECT_ROOT,
-      env: { ...process.env, DATABASE_URL: databaseUrl, PORT: String(port), JWT_SECRET: SECRET, DRIFTBENCH_DEMO: '1', DRIFTBENCH_SIMULATORS: '0', LOG_LEVEL: 'silent', LOGIN_RATE_LIMIT: '1000' },
-      stdio: ['ignore', 'pipe', 'inherit'],
-    });
-    p.stdout!.on('data', (d) => String(d).includes('listening') && resolve(p));
-    p.on('exit', (code) => reject(new Error(`server exited (${code})`)));
-  });
-}
-
 export async function benchIngest(): Promise<void> {
-  const tmp = mkdtempSync(path.join(os.tmpdir(), 'driftbench-bench-'));
-  chmodSync(tmp, 0o755);
-  const cluster = startCluster(path.join(tmp, 'pg'), await freePort(), () => {});
-  let server: ChildProcess | undefined;
+  let bench: BenchServer | undefined;
   try {
-    await ensureDatabase(cluster.url('postgres'), 'bench');
-    const url = cluster.url('bench');
-    const db = openDatabase(url);
-    await migrate(db.sequelize);
-    await db.close();
-    const port = await freePort();
-    server = await startServerProcess(url, port);
-    const base = `http://127.0.0.1:${port}`;
-    const token = ((await (await fetch(`${base}/api/auth/login`, {
-      method: 'POST',
-      headers: { 'content-type': 'application/json' },
-      body: JSON.stringify({ email: 'technician@kestrelbay.example', password: 'driftbench-demo' }),
-    })).json()) as { token: string }).token;
-    const headers = { 'content-type': 'application/json', authorization: `Bearer ${token}` };
-    const study = (await (await fetch(`${base}/api/studies/1`, { headers })).json()) as { duts: { id: number }[]; checkpoints: { id: number }[] };
-    const newCapture = async (gateTime = 0.01) =>
-      ((await (await fetch(`${base}/api/captures`, {
-        method: 'POST',
-        headers,
-        body: JSON.stringify({ dutId: study.duts[0].id, checkpointId: study.checkpoints[0].id, quantity: 'frequency', unit: 'Hz', gateTime }),
-      })).json()) as { id: number }).id;
+    bench = await startBenchServer();
+    const { base, url } = bench;
+    const token = await bench.token('technician');
+    const headers = await bench.headers('technician');
+    const newCapture = (gateTime = 0.01) => bench!.newCapture({ gateTime });
 
     const pool = new pg.Pool({ connectionString: url, max: 4 });
     const rows = (n: number, offset = 0) => Array.from({ length: n }, (_, i) => ({ seq: offset + i, t: (offset + i) * 0.01, value: 16e6 + Math.sin(i) * 1e-3 }));
@@ -221,8 +183,7 @@ export async function benchIngest(): Promise<void> {
     console.log(`  ${benches} benches       ${complete}/${benches} captures hold exactly ${f(perBench)} readings each, no duplicates; ${seconds} s at 100 readings/s each, drained ${lag.toFixed(1)} s after the last reading, ${failures} failed requests (target: nothing lost, nothing duplicated)`);
     console.log(`  live path           p50 ${pct(latencies, 0.5).toFixed(1)} ms, p95 ${pct(latencies, 0.95).toFixed(1)} ms over ${latencies.length} readings at 100/s, uploader grouping every 50 ms (target p95 ≤ 100 ms)`);
   } finally {
-    server?.kill('SIGTERM');
-    destroyCluster(cluster);
+    await bench?.stop();
   }
 }
 
