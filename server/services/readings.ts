@@ -84,12 +84,15 @@ export async function buildTiles(client: pg.PoolClient | pg.Pool, captureId: num
 
 /**
  * Readings between seq `from` and `to`. With `maxPoints` and more readings than that, min/max
- * decimation: from the tiles for a finished capture (about maxPoints rows read whatever the
- * capture's length), else aggregated by PostgreSQL. Without `maxPoints`, every reading.
+ * decimation from the tiles (about maxPoints rows read whatever the capture's length). Tiles are
+ * kept up to date as readings arrive (migration 20261202-0110), so an open capture reads like a
+ * finished one; only when a range has no tiles does PostgreSQL aggregate the raw readings.
+ * Without `maxPoints`, every reading.
  */
 export async function readSeries(
   pool: pg.Pool,
   captureId: number,
+  /** `finished` no longer changes the path (open captures have tiles too); kept for the callers. */
   opts: { from?: number; to?: number; maxPoints?: number; finished: boolean; highestSeq: number },
 ): Promise<{ readings: SeriesPoint[]; decimated: boolean }> {
   const from = opts.from ?? 0;
@@ -100,7 +103,7 @@ export async function readSeries(
     return { readings: toPoints(await loadSeries(pool, captureId, from, to)), decimated: false };
   }
   const buckets = Math.max(1, Math.floor(opts.maxPoints / 2));
-  if (opts.finished) {
+  {
     // The finest level whose tiles over the range leave room for the two partial edges.
     let level = 0;
     while (level < MAX_LEVEL && Math.ceil(span / (TILE_BASE * 2 ** level)) + 2 > buckets) level++;
