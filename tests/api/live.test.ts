@@ -4,7 +4,7 @@ import WebSocket from 'ws';
 import { startServer, type RunningServer } from '../../server/index.js';
 import { createTestDatabase } from '../helpers/db.js';
 import { TEST_JWT_SECRET } from '../helpers/app.js';
-import type { ServerMessage } from '../../shared/protocol/live.js';
+import { ServerMessage } from '../../shared/protocol/live.js';
 import { socketProtocols, WS_PROTOCOL } from '../../shared/protocol/socketAuth.js';
 import { SIM_MAX_FRAME } from '../../simulators/server.js';
 
@@ -149,6 +149,23 @@ describe('live watching', () => {
     await closed;
     const health = await fetch(`${server.url}/api/health`);
     expect(health.status).toBe(200);
+  });
+
+  it('answers a message outside the contract with an error naming the field, and keeps the socket', async () => {
+    const peer = await connect(await login('viewer'));
+    const refused = peer.next('error');
+    peer.ws.send(JSON.stringify({ type: 'watch', captureId: 'seven' }));
+    expect(await refused).toMatchObject({ type: 'error', code: 'bad-message' });
+    expect((await refused as { message: string }).message).toContain('captureId');
+    const unknown = peer.next('error');
+    peer.ws.send(JSON.stringify({ type: 'shout' }));
+    expect(await unknown).toMatchObject({ type: 'error', code: 'unknown-type' });
+    // Still open: a ping in the contract is answered, and every message received was in the contract.
+    const pong = peer.next('pong');
+    peer.ws.send(JSON.stringify({ type: 'ping', id: 4 }));
+    expect(await pong).toEqual({ type: 'pong', id: 4 });
+    for (const m of peer.messages) expect(ServerMessage.safeParse(m).success).toBe(true);
+    peer.ws.close();
   });
 
   it("closes a watcher's socket once the account is deactivated", async () => {
