@@ -1,4 +1,4 @@
-import { User, Instrument, Reference, Study, Checkpoint, Dut } from '../models/index.js';
+import { User, Instrument, Reference, Study, Checkpoint, Dut, CalibrationRecord } from '../models/index.js';
 import { hashPassword } from '../services/auth.js';
 import type { Sequelize } from 'sequelize';
 import type { Role } from '../../shared/protocol/roles.js';
@@ -38,16 +38,17 @@ export async function seedDemo(sequelize: Sequelize): Promise<void> {
     );
     const engineer = users.find((u) => u.role === 'engineer')!;
 
-    const [, , gpsdo] = await Instrument.bulkCreate(
+    const instrumentsCreated = await Instrument.bulkCreate(
       [
         { name: 'Counter C-1', kind: 'counter', maker: 'Driftbench Labs (simulated)', model: 'SIM-CNT-1', serial: 'KB-CNT-0001', calibrationDue: isoDate(200), notes: 'Reciprocal counter, 100 ps single-shot resolution; timebase locked to the GPS 10 MHz.', counterType: 'reciprocal', counterResolution: 100e-12 },
         { name: 'SPI bridge B-1', kind: 'spi-bridge', maker: 'Driftbench Labs (simulated)', model: 'SIM-SPI-1', serial: 'KB-SPI-0001', calibrationDue: null, notes: 'Hex-line SPI bridge for the accelerometer.' },
         { name: 'GPS 10 MHz reference', kind: 'reference', maker: 'Driftbench Labs (simulated)', model: 'SIM-GPSDO-1', serial: 'KB-REF-0001', calibrationDue: isoDate(20), notes: 'Settled for more than 24 h before use.' },
-        { name: 'Bench thermometer T-1', kind: 'other', maker: 'Driftbench Labs (simulated)', model: 'SIM-T-1', serial: 'KB-TMP-0001', calibrationDue: isoDate(-5), notes: 'Ambient temperature beside the board.' },
+        { name: 'Bench thermometer T-1', kind: 'thermometer', maker: 'Driftbench Labs (simulated)', model: 'SIM-T-1', serial: 'KB-TMP-0001', calibrationDue: isoDate(-5), notes: 'Ambient temperature beside the board.' },
       ],
       { transaction, returning: true },
     );
-    await Reference.create(
+    const [counter, , , thermometer] = instrumentsCreated;
+    const reference = await Reference.create(
       {
         name: 'GPS-disciplined 10 MHz',
         nominalHz: 10_000_000,
@@ -55,12 +56,24 @@ export async function seedDemo(sequelize: Sequelize): Promise<void> {
         standardUncertainty: 1e-11,
         verifiedBy: 'Compared against a second disciplined oscillator over 24 h',
         verifiedAt: isoDate(-10),
-        instrumentId: gpsdo.id,
+        instrumentId: instrumentsCreated[2].id,
         // Disciplined to satellite time: no ageing of its own beyond a small allowance (common practice, no source).
         kind: 'gnss-disciplined',
         ageingPerDay: 0,
         ageingUPerDay: 1e-13,
+        calibrationDue: isoDate(355),
+        // The lab's reference: the bench offers it first.
+        labDefault: true,
       },
+      { transaction },
+    );
+    // Calibration history: the counter's and the thermometer's last certificates, the reference's last comparison.
+    await CalibrationRecord.bulkCreate(
+      [
+        { instrumentId: counter.id, calibratedOn: isoDate(-165), dueOn: isoDate(200), certificate: 'DBX-C-2291', issuedBy: 'Driftbench demo calibration lab', uncertainty: '±2 × 10⁻¹¹ (k = 2) on 10 MHz', recordedBy: users[0].id },
+        { instrumentId: thermometer.id, calibratedOn: isoDate(-370), dueOn: isoDate(-5), certificate: 'DBX-T-0457', issuedBy: 'Driftbench demo calibration lab', uncertainty: '±0.05 °C (k = 2), 15–35 °C', recordedBy: users[0].id },
+        { referenceId: reference.id, calibratedOn: isoDate(-10), dueOn: isoDate(355), certificate: 'DBX-R-0102', issuedBy: 'Compared against a second disciplined oscillator over 24 h', fractionalOffset: 2e-12, standardUncertainty: 1e-11, recordedBy: users[0].id },
+      ],
       { transaction },
     );
 

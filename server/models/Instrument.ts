@@ -1,9 +1,9 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
 
-export class Instrument extends Model {
+export class Instrument extends Model<InferAttributes<Instrument>, InferCreationAttributes<Instrument>> {
   declare id: CreationOptional<number>;
   declare name: string;
-  declare kind: 'counter' | 'spi-bridge' | 'reference' | 'other';
+  declare kind: 'counter' | 'spi-bridge' | 'reference' | 'thermometer' | 'other';
   declare maker: string | null;
   declare model: string | null;
   declare serial: string | null;
@@ -14,6 +14,11 @@ export class Instrument extends Model {
   declare counterType: 'gated' | 'reciprocal' | 'time-interval' | null;
   /** ± counts of a gated counter, or the time-interval resolution in seconds otherwise. */
   declare counterResolution: number | null;
+  /** Sent to a calibration lab on this date and not back yet (null: in the lab). */
+  declare awaySince: string | null;
+  /** Out of service since then; kept for the captures that name it, never offered again. */
+  declare retiredAt: Date | null;
+  declare retiredReason: string | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
@@ -31,6 +36,9 @@ export class Instrument extends Model {
         linkProfile: DataTypes.JSONB,
         counterType: DataTypes.STRING(16),
         counterResolution: DataTypes.DOUBLE,
+        awaySince: DataTypes.DATEONLY,
+        retiredAt: DataTypes.DATE,
+        retiredReason: DataTypes.TEXT,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

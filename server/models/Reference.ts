@@ -1,7 +1,7 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
 
 /** A frequency reference (e.g. a GPS-disciplined 10 MHz) whose fractional offset and uncertainty are known. */
-export class Reference extends Model {
+export class Reference extends Model<InferAttributes<Reference>, InferCreationAttributes<Reference>> {
   declare id: CreationOptional<number>;
   declare name: string;
   declare nominalHz: number;
@@ -14,6 +14,13 @@ export class Reference extends Model {
   /** Ageing rate, fractional per day, and its standard uncertainty (null: not recorded). */
   declare ageingPerDay: number | null;
   declare ageingUPerDay: number | null;
+  declare calibrationDue: string | null;
+  /** Sent to a calibration lab on this date and not back yet (null: in the lab). */
+  declare awaySince: string | null;
+  declare retiredAt: Date | null;
+  declare retiredReason: string | null;
+  /** The lab's reference: the bench's default (at most one). */
+  declare labDefault: boolean;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
@@ -31,6 +38,11 @@ export class Reference extends Model {
         kind: DataTypes.STRING(24),
         ageingPerDay: DataTypes.DOUBLE,
         ageingUPerDay: { type: DataTypes.DOUBLE, field: 'ageing_u_per_day' },
+        calibrationDue: DataTypes.DATEONLY,
+        awaySince: DataTypes.DATEONLY,
+        retiredAt: DataTypes.DATE,
+        retiredReason: DataTypes.TEXT,
+        labDefault: { type: DataTypes.BOOLEAN, allowNull: false, defaultValue: false },
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

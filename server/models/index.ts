@@ -9,8 +9,9 @@ import { Capture } from './Capture.js';
 import { AuditEvent } from './AuditEvent.js';
 import { Attachment } from './Attachment.js';
 import { StudyReview } from './StudyReview.js';
+import { CalibrationRecord } from './CalibrationRecord.js';
 
-export { User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview };
+export { User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview, CalibrationRecord };
 
 let initialised: Sequelize | undefined;
 
@@ -19,7 +20,7 @@ export function initModels(sequelize: Sequelize): void {
   if (initialised === sequelize) return;
   if (initialised) throw new Error('models are already bound to another connection');
   initialised = sequelize;
-  for (const m of [User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview]) m.initModel(sequelize);
+  for (const m of [User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview, CalibrationRecord]) m.initModel(sequelize);
 
   Study.hasMany(Checkpoint, { as: 'checkpoints', foreignKey: 'studyId' });
   Checkpoint.belongsTo(Study, { foreignKey: 'studyId' });

@@ -1,5 +1,4 @@
 import { Router } from 'express';
-import { z } from 'zod';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
 import {
@@ -9,41 +8,21 @@ import {
   saveLinkProfile,
   updateInstrument,
 } from '../services/instruments.js';
-import { IdParam, INSTRUMENT_KINDS } from '../../shared/protocol/api.js';
+import { calibrationHistory, recordCalibration, reinstate, retire, sendAway } from '../services/equipment.js';
+import { IdParam } from '../../shared/protocol/api.js';
 import { LinkProfile } from '../../shared/protocol/linkProfile.js';
-import { CounterFields } from '../../shared/protocol/uncertainty.js';
-import { CalendarDate, Text } from '../../shared/protocol/text.js';
+import {
+  CalibrationRecordCreate,
+  EquipmentAway,
+  EquipmentRetire,
+  InstrumentCreate,
+  InstrumentPatch,
+} from '../../shared/protocol/equipment.js';
 
-/** Optional free text: trimmed; empty means "none" (stored as null). */
-const optionalText = (max: number) =>
-  Text({ max })
-    .transform((s) => (s === '' ? null : s))
-    .nullable()
-    .optional();
-
-/** A real calendar date in a sane range (0000-01-01 or 9999-12-31 are refused with 400). */
-const IsoDate = CalendarDate;
-
-const fields = {
-  name: Text({ min: 1, max: 120 }),
-  kind: z.enum(INSTRUMENT_KINDS, { message: `must be one of ${INSTRUMENT_KINDS.join(', ')}` }),
-  maker: optionalText(120),
-  model: optionalText(120),
-  serial: optionalText(120),
-  calibrationDue: IsoDate.nullable().optional(),
-  notes: optionalText(2000),
-  ...CounterFields,
-};
-
-export const InstrumentCreate = z.strictObject(fields);
-export const InstrumentPatch = z
-  .strictObject({ ...fields, name: fields.name.optional(), kind: fields.kind.optional() })
-  .refine((v) => Object.keys(v).length > 0, { message: 'nothing to change' });
-
-/** One instrument, its registration and its stored link profile. GET /api/instruments stays in lab.ts. */
+/** One instrument: registration, calibrations, away/retired, link profile. GET /api/instruments stays in lab.ts. */
 export function instrumentsRouter(): Router {
   const r = Router();
-  r.post('/', authorize('lab:manage'), async (req, res) => {
+  r.post('/', authorize('instruments:manage'), async (req, res) => {
     const input = parse(InstrumentCreate, req.body);
     res.status(201).json({ instrument: await createInstrument(input, currentUser(req).id) });
   });
@@ -51,9 +30,29 @@ export function instrumentsRouter(): Router {
     const { id } = parse(IdParam, req.params, 'id');
     res.json({ instrument: await getInstrument(id) });
   });
-  r.patch('/:id', authorize('lab:manage'), async (req, res) => {
+  r.patch('/:id', authorize('instruments:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
     res.json({ instrument: await updateInstrument(id, parse(InstrumentPatch, req.body), currentUser(req).id) });
+  });
+  r.get('/:id/calibrations', authorize('read'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await calibrationHistory('instrument', id));
+  });
+  r.post('/:id/calibrations', authorize('instruments:manage'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.status(201).json(await recordCalibration('instrument', id, parse(CalibrationRecordCreate, req.body), currentUser(req).id));
+  });
+  r.post('/:id/away', authorize('instruments:manage'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await sendAway('instrument', id, parse(EquipmentAway, req.body ?? {}).sentOn, currentUser(req).id));
+  });
+  r.post('/:id/retire', authorize('instruments:manage'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await retire('instrument', id, parse(EquipmentRetire, req.body).reason, currentUser(req).id));
+  });
+  r.post('/:id/reinstate', authorize('instruments:manage'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await reinstate('instrument', id, currentUser(req).id));
   });
   r.put('/:id/link-profile', authorize('lab:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');

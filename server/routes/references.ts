@@ -4,8 +4,13 @@ import { authorize, currentUser } from '../middleware/auth.js';
 import { IdParam } from '../../shared/protocol/api.js';
 import { DutPatch, ReferenceCreate, ReferencePatch } from '../../shared/protocol/uncertainty.js';
 import { createReference, updateDut, updateReference } from '../services/references.js';
+import { calibrationHistory, getReference, makeLabReference, recordCalibration, reinstate, retire, sendAway } from '../services/equipment.js';
+import { CalibrationRecordCreate, EquipmentAway, EquipmentRetire } from '../../shared/protocol/equipment.js';
 
-/** POST /api/references, PATCH /api/references/:id (admin, lead; audited). GET stays in lab.ts. */
+/**
+ * One frequency reference (admin, lead; every change audited): register, edit, its calibrations,
+ * away at the calibration lab, retired, the lab's reference. The list stays in lab.ts.
+ */
 export function referencesRouter(): Router {
   const r = Router();
   r.post('/', authorize('lab:manage'), async (req, res) => {
@@ -14,6 +19,34 @@ export function referencesRouter(): Router {
   r.patch('/:id', authorize('lab:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
     res.json({ reference: await updateReference(id, parse(ReferencePatch, req.body), currentUser(req).id) });
+  });
+  r.get('/:id', authorize('read'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json({ reference: await getReference(id) });
+  });
+  r.get('/:id/calibrations', authorize('read'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await calibrationHistory('reference', id));
+  });
+  r.post('/:id/calibrations', authorize('lab:manage'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.status(201).json(await recordCalibration('reference', id, parse(CalibrationRecordCreate, req.body), currentUser(req).id));
+  });
+  r.post('/:id/away', authorize('lab:manage'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await sendAway('reference', id, parse(EquipmentAway, req.body ?? {}).sentOn, currentUser(req).id));
+  });
+  r.post('/:id/retire', authorize('lab:manage'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await retire('reference', id, parse(EquipmentRetire, req.body).reason, currentUser(req).id));
+  });
+  r.post('/:id/reinstate', authorize('lab:manage'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await reinstate('reference', id, currentUser(req).id));
+  });
+  r.post('/:id/lab-default', authorize('lab:manage'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await makeLabReference(id, currentUser(req).id));
   });
   return r;
 }

@@ -1,5 +1,5 @@
 import { Study, Checkpoint, Dut, Instrument, Reference, Capture, User } from '../models/index.js';
-import { calibrationState } from './lab.js';
+import { calibrationStatus } from './calibration.js';
 import { QueryTypes } from 'sequelize';
 
 /** Counts for the dashboard, instruments whose calibration needs attention, and captures on air. */
@@ -13,10 +13,18 @@ export async function dashboard() {
     Capture.count(),
     User.count({ where: { active: true } }),
   ]);
-  const all = await Instrument.findAll({ order: [['calibrationDue', 'ASC']] });
-  const calibration = all
-    .map((i) => ({ id: i.id, name: i.name, kind: i.kind, calibrationDue: i.calibrationDue, state: calibrationState(i.calibrationDue) }))
-    .filter((i) => i.state === 'overdue' || i.state === 'due-soon');
+  // The same rule and the same flag the Lab page counts by (calibrationStatus().needsAttention);
+  // retired equipment is out of service and never counted.
+  const [inService, refs] = await Promise.all([
+    Instrument.findAll({ where: { retiredAt: null }, order: [['calibrationDue', 'ASC'], ['id', 'ASC']] }),
+    Reference.findAll({ where: { retiredAt: null }, order: [['calibrationDue', 'ASC'], ['id', 'ASC']] }),
+  ]);
+  const calibration = [
+    ...inService.map((i) => ({ subject: 'instrument' as const, id: i.id, name: i.name, kind: i.kind as string, calibrationDue: i.calibrationDue, calibration: calibrationStatus(i) })),
+    ...refs.map((r) => ({ subject: 'reference' as const, id: r.id, name: r.name, kind: 'frequency-reference', calibrationDue: r.calibrationDue, calibration: calibrationStatus(r) })),
+  ]
+    .filter((i) => i.calibration.needsAttention)
+    .map((i) => ({ ...i, state: i.calibration.state }));
   const live = await onAir();
   return { counts: { studies, checkpoints, duts, instruments, references, captures, users }, calibration, live };
 }

@@ -3,7 +3,7 @@ import { NotFoundError } from '../errors.js';
 import { audit } from './audit.js';
 import { pageOf } from './paging.js';
 import type { Page } from '../../shared/protocol/paging.js';
-import { calibrationState } from './lab.js';
+import { calibrationStatus } from './calibration.js';
 import type { LinkProfile } from '../../shared/protocol/linkProfile.js';
 
 /** What the API shows of an instrument, in the list and on its own. */
@@ -16,7 +16,11 @@ export function publicInstrument(i: Instrument) {
     model: i.model,
     serial: i.serial,
     calibrationDue: i.calibrationDue,
-    calibrationState: calibrationState(i.calibrationDue),
+    calibrationState: calibrationStatus(i).state,
+    calibration: calibrationStatus(i),
+    awaySince: i.awaySince ?? null,
+    retiredAt: i.retiredAt ? i.retiredAt.toISOString() : null,
+    retiredReason: i.retiredReason ?? null,
     notes: i.notes,
     linkProfile: (i.linkProfile as LinkProfile | null) ?? null,
     counterType: i.counterType ?? null,
@@ -24,7 +28,6 @@ export function publicInstrument(i: Instrument) {
   };
 }
 
-/** GET /api/instruments: every instrument, by name. */
 /** GET /api/instruments: one page of instruments, by name. */
 export async function listInstruments(page: Page) {
   const { rows, nextCursor } = await pageOf(Instrument, page, 'name-asc');
@@ -47,6 +50,10 @@ async function find(id: number): Promise<Instrument> {
   const instrument = await Instrument.findByPk(id);
   if (!instrument) throw new NotFoundError('Instrument');
   return instrument;
+}
+
+export async function findInstrument(id: number): Promise<Instrument> {
+  return find(id);
 }
 
 export async function getInstrument(id: number) {

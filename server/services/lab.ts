@@ -1,17 +1,7 @@
 import { Reference } from '../models/index.js';
 import { pageOf } from './paging.js';
+import { calibrationStatus } from './calibration.js';
 import type { Page } from '../../shared/protocol/paging.js';
-
-const DAY = 86_400_000;
-
-/** Calibration state of an instrument: overdue, due within `soonDays`, or ok. */
-export function calibrationState(due: string | null, now = new Date(), soonDays = 30): 'ok' | 'due-soon' | 'overdue' | 'unknown' {
-  if (!due) return 'unknown';
-  const left = (new Date(`${due}T23:59:59Z`).getTime() - now.getTime()) / DAY;
-  if (left < 0) return 'overdue';
-  if (left <= soonDays) return 'due-soon';
-  return 'ok';
-}
 
 /** What the API shows of a frequency reference: its registration and calibration record. */
 export function publicReference(r: Reference) {
@@ -27,6 +17,12 @@ export function publicReference(r: Reference) {
     ageingPerDay: r.ageingPerDay,
     ageingUPerDay: r.ageingUPerDay,
     instrumentId: r.instrumentId,
+    calibrationDue: r.calibrationDue ?? null,
+    calibration: calibrationStatus(r),
+    awaySince: r.awaySince ?? null,
+    retiredAt: r.retiredAt ? r.retiredAt.toISOString() : null,
+    retiredReason: r.retiredReason ?? null,
+    labDefault: r.labDefault ?? false,
   };
 }
 

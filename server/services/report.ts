@@ -7,7 +7,7 @@ import { compareCaptures, studyMatrix } from './comparisons.js';
 import type { CaptureSummary } from './captureAnalysis.js';
 import { checkSeal } from './seal.js';
 import { reviewHistory } from './workflow.js';
-import { calibrationState } from './lab.js';
+import { calibrationStatus } from './calibration.js';
 
 /** The decision rule every verdict of the report follows, stated once in the report. */
 export const DECISION_RULE =
@@ -121,7 +121,7 @@ export async function buildStudyReport(pool: pg.Pool, studyId: number, t?: Trans
       model: i.model,
       serial: i.serial,
       calibrationDue: i.calibrationDue,
-      calibrationState: calibrationState(i.calibrationDue),
+      calibrationState: calibrationStatus(i).state,
     })),
     references: references.map((r) => ({
       id: r.id,

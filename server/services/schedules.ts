@@ -3,7 +3,7 @@ import type { Logger } from 'pino';
 import { Study } from '../models/index.js';
 import { enqueueMail } from './mail.js';
 import { startStallSweep } from './captureLifecycle.js';
-import { calibrationState } from './lab.js';
+import { calibrationStatus } from './calibration.js';
 
 /**
  * The e-mail schedules that run in the server process:
@@ -15,19 +15,21 @@ import { calibrationState } from './lab.js';
 export async function calibrationReminders(now = new Date()): Promise<number> {
   const sequelize = Study.sequelize!;
   const instruments = (await sequelize.query(
-    `SELECT id, name, calibration_due AS "calibrationDue" FROM instruments
-     WHERE calibration_due IS NOT NULL AND calibration_due <= ($1::date + 30) ORDER BY calibration_due, id`,
+    `SELECT id, name, calibration_due AS "calibrationDue", away_since AS "awaySince" FROM instruments
+     WHERE calibration_due IS NOT NULL AND calibration_due <= ($1::date + 30) AND retired_at IS NULL
+     ORDER BY calibration_due, id`,
     { bind: [now.toISOString().slice(0, 10)], type: QueryTypes.SELECT },
-  )) as Array<{ id: number; name: string; calibrationDue: string }>;
+  )) as Array<{ id: number; name: string; calibrationDue: string; awaySince: string | null }>;
   const admins = (await sequelize.query(`SELECT id, email FROM users WHERE role = 'admin' AND active ORDER BY id`, {
     type: QueryTypes.SELECT,
   })) as Array<{ id: number; email: string }>;
   const day = now.toISOString().slice(0, 10);
   let queued = 0;
   for (const i of instruments) {
-    const state = calibrationState(i.calibrationDue, now);
+    // The one calibration rule; an instrument away at the calibration lab needs no reminder.
+    const { state, daysLeft } = calibrationStatus(i, now);
     if (state !== 'overdue' && state !== 'due-soon') continue;
-    const days = Math.round((new Date(`${i.calibrationDue}T00:00:00Z`).getTime() - new Date(`${day}T00:00:00Z`).getTime()) / 86_400_000);
+    const days = daysLeft ?? 0;
     const when = state === 'overdue' ? `was due on ${i.calibrationDue} (${-days} day(s) ago)` : `is due on ${i.calibrationDue} (in ${days} day(s))`;
     for (const a of admins) {
       const sent = await enqueueMail({
@@ -37,7 +39,7 @@ export async function calibrationReminders(now = new Date()): Promise<number> {
         text:
           `The calibration of instrument ${i.id} “${i.name}” ${when}.\n\n` +
           'Captures made with it after that date carry an instrument outside its calibration interval. ' +
-          'Update its calibration date on the Lab page once it is calibrated.\n',
+          'Record its new calibration on its page under Lab once it is calibrated.\n',
         dedupeKey: `calibration:${i.id}:${a.id}:${day}`,
       });
       if (sent) queued++;

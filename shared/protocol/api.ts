@@ -95,4 +95,5 @@ export const DutCreate = z.object({
 }).superRefine(checkLimit);
 export type DutCreate = z.infer<typeof DutCreate>;
 
-export const INSTRUMENT_KINDS = ['counter', 'spi-bridge', 'reference', 'other'] as const;
+/** Instrument kinds live with the rest of the lab's equipment. */
+export { INSTRUMENT_KINDS } from './equipment.js';

@@ -16,6 +16,7 @@ import {
 import { StudyStatus } from "./api.js";
 import { Quantity, STABILITY_KINDS } from "./captures.js";
 import { CaptureState } from "./captureLifecycle.js";
+import { CALIBRATION_STATES, CalibrationState } from "./equipment.js";
 
 // ---- one enum per concept -------------------------------------------------------------------
 
@@ -27,15 +28,8 @@ export const VERDICTS = ["within", "exceeds", "inconclusive"] as const;
 export const Verdict = z.enum(VERDICTS);
 export type Verdict = z.infer<typeof Verdict>;
 
-/** An instrument's calibration as the lab sees it today. */
-export const CALIBRATION_STATES = [
-  "ok",
-  "due-soon",
-  "overdue",
-  "unknown",
-] as const;
-export const CalibrationState = z.enum(CALIBRATION_STATES);
-export type CalibrationState = z.infer<typeof CalibrationState>;
+/** An instrument's or a reference's calibration as the lab sees it today (the one rule: equipment.ts). */
+export { CALIBRATION_STATES, CalibrationState };
 
 /** Power-law noise types (NIST SP 1065 Table 3; `shared/analysis/noise.ts`). */
 export const NOISE_TYPES = ["wpm", "fpm", "wfm", "ffm", "rwfm"] as const;

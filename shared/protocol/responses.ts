@@ -19,6 +19,7 @@ import {
   MailStatus,
 } from './review.js';
 import { CaptureImportResult, ImportProgress } from './importCsv.js';
+import { CalibrationHistory, InstrumentCalibrated, ReferenceCalibrated } from './equipment.js';
 import { LinkProfile } from './linkProfile.js';
 import { STABILITY_KINDS } from './captures.js';
 import {
@@ -318,6 +319,18 @@ export const RESPONSES = {
   'GET /api/references': ReferenceList,
   'POST /api/references': ReferenceResponse,
   'PATCH /api/references/:id': ReferenceResponse,
+  'GET /api/instruments/:id/calibrations': CalibrationHistory,
+  'POST /api/instruments/:id/calibrations': InstrumentCalibrated,
+  'POST /api/instruments/:id/away': InstrumentResponse,
+  'POST /api/instruments/:id/retire': InstrumentResponse,
+  'POST /api/instruments/:id/reinstate': InstrumentResponse,
+  'GET /api/references/:id': ReferenceResponse,
+  'GET /api/references/:id/calibrations': CalibrationHistory,
+  'POST /api/references/:id/calibrations': ReferenceCalibrated,
+  'POST /api/references/:id/away': ReferenceResponse,
+  'POST /api/references/:id/retire': ReferenceResponse,
+  'POST /api/references/:id/reinstate': ReferenceResponse,
+  'POST /api/references/:id/lab-default': ReferenceResponse,
   'PATCH /api/duts/:id': DutResponse,
   'PATCH /api/studies/:id/settings': StudyRecord,
   'GET /api/dashboard': DashboardResponse,

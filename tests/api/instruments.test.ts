@@ -24,7 +24,7 @@ describe('link profiles stored per instrument', () => {
     const res = await request(t.app).get(`/api/instruments/${counterId}`).set(await auth('viewer'));
     expect(res.status).toBe(200);
     expect(res.body.instrument).toMatchObject({ id: counterId, name: 'Counter C-1', kind: 'counter', linkProfile: null });
-    expect(res.body.instrument.calibrationState).toBe('ok');
+    expect(res.body.instrument.calibrationState).toBe('valid');
   });
 
   it('saves a profile for a lead, reads it back and audits it', async () => {
@@ -106,10 +106,10 @@ describe('registering instruments', () => {
     notes: 'Bought for the second bench.',
   };
 
-  it('registers a counter for a lead, and it joins the lab list', async () => {
-    const res = await request(t.app).post('/api/instruments').set(await auth('lead')).send(counter);
+  it('registers a counter for an admin, and it joins the lab list', async () => {
+    const res = await request(t.app).post('/api/instruments').set(await auth('admin')).send(counter);
     expect(res.status).toBe(201);
-    expect(res.body.instrument).toMatchObject({ ...counter, linkProfile: null, calibrationState: 'ok' });
+    expect(res.body.instrument).toMatchObject({ ...counter, linkProfile: null, calibrationState: 'valid' });
     const listed = await request(t.app).get('/api/instruments').set(await auth('viewer'));
     expect(listed.body.instruments.map((i: { name: string }) => i.name)).toContain('Counter C-2');
     expect(await AuditEvent.count({ where: { action: 'instrument.create', subjectId: res.body.instrument.id } })).toBe(1);
@@ -118,7 +118,7 @@ describe('registering instruments', () => {
   it('registers with only a name and a kind, storing empty texts as none', async () => {
     const res = await request(t.app).post('/api/instruments').set(await auth('admin')).send({ name: 'Spare bridge', kind: 'spi-bridge', maker: '  ' });
     expect(res.status).toBe(201);
-    expect(res.body.instrument).toMatchObject({ maker: null, model: null, calibrationDue: null, calibrationState: 'unknown' });
+    expect(res.body.instrument).toMatchObject({ maker: null, model: null, calibrationDue: null, calibrationState: 'no-due-date' });
   });
 
   it.each([
@@ -134,24 +134,24 @@ describe('registering instruments', () => {
     expect(detail?.message).toContain(words);
   });
 
-  it('refuses registration to an engineer (403)', async () => {
-    expect((await request(t.app).post('/api/instruments').set(await auth('engineer')).send(counter)).status).toBe(403);
+  it.each(['lead', 'engineer'])('refuses registration to a %s (403: instruments are the admins’)', async (role) => {
+    expect((await request(t.app).post('/api/instruments').set(await auth(role)).send(counter)).status).toBe(403);
   });
 
   it('patches the calibration date and notes, validating them, and audits the change', async () => {
     const created = await request(t.app).post('/api/instruments').set(await auth('admin')).send({ name: 'Counter C-3', kind: 'counter' });
     const id = created.body.instrument.id;
-    const res = await request(t.app).patch(`/api/instruments/${id}`).set(await auth('lead')).send({ calibrationDue: '2030-01-15', notes: 'Back from calibration.' });
+    const res = await request(t.app).patch(`/api/instruments/${id}`).set(await auth('admin')).send({ calibrationDue: '2030-01-15', notes: 'Back from calibration.' });
     expect(res.status).toBe(200);
     expect(res.body.instrument).toMatchObject({ name: 'Counter C-3', calibrationDue: '2030-01-15', notes: 'Back from calibration.' });
     const events = await AuditEvent.findAll({ where: { action: 'instrument.update', subjectId: id } });
     expect(events[0].details).toMatchObject({ calibrationDue: { from: null, to: '2030-01-15' } });
 
-    const bad = await request(t.app).patch(`/api/instruments/${id}`).set(await auth('lead')).send({ calibrationDue: 'soon' });
+    const bad = await request(t.app).patch(`/api/instruments/${id}`).set(await auth('admin')).send({ calibrationDue: 'soon' });
     expect(bad.status).toBe(400);
     expect(bad.body.error.message).toMatch(/^calibrationDue: must be a date as YYYY-MM-DD/);
-    expect((await request(t.app).patch(`/api/instruments/${id}`).set(await auth('lead')).send({})).status).toBe(400);
+    expect((await request(t.app).patch(`/api/instruments/${id}`).set(await auth('admin')).send({})).status).toBe(400);
     expect((await request(t.app).patch(`/api/instruments/${id}`).set(await auth('technician')).send({ notes: 'x' })).status).toBe(403);
-    expect((await request(t.app).patch('/api/instruments/99999').set(await auth('lead')).send({ notes: 'x' })).status).toBe(404);
+    expect((await request(t.app).patch('/api/instruments/99999').set(await auth('admin')).send({ notes: 'x' })).status).toBe(404);
   });
 });

@@ -71,14 +71,14 @@ describe('counter type and resolution', () => {
   it('copies the counter type at start and books ±1 count for a gated counter even when every reading is identical', async () => {
     const inst = await request(t.app)
       .post('/api/instruments')
-      .set(await auth('lead'))
+      .set(await auth('admin'))
       .send({ name: 'Gated counter G-1', kind: 'counter', counterType: 'gated', counterResolution: 1 });
     expect(inst.status).toBe(201);
     expect(inst.body.instrument).toMatchObject({ counterType: 'gated', counterResolution: 1 });
     const c = await capture({ dutId: ids.tuningFork.id, checkpointId: ids.checkpoints[0], instrumentId: inst.body.instrument.id, ambientC: 23 }, () => 32768);
     expect(c.counterType).toBe('gated');
     // Later changes to the instrument do not rewrite the evidence.
-    await request(t.app).patch(`/api/instruments/${inst.body.instrument.id}`).set(await auth('lead')).send({ counterType: 'reciprocal', counterResolution: 1e-10 });
+    await request(t.app).patch(`/api/instruments/${inst.body.instrument.id}`).set(await auth('admin')).send({ counterType: 'reciprocal', counterResolution: 1e-10 });
     const a = await request(t.app).get(`/api/captures/${c.id}/analysis`).set(await auth('viewer'));
     const res = a.body.uncertainty.components.find((x: { name: string }) => x.name === 'Counter resolution');
     expect(res.value).toBeCloseTo(1 / Math.sqrt(3), 12); // ±1/t_gate Hz, a/√3 (counter theory; JCGM 100 §4.3.7)
@@ -88,7 +88,7 @@ describe('counter type and resolution', () => {
   });
 
   it('refuses an unknown counter type with 400', async () => {
-    const res = await request(t.app).post('/api/instruments').set(await auth('lead')).send({ name: 'C', kind: 'counter', counterType: 'magic' });
+    const res = await request(t.app).post('/api/instruments').set(await auth('admin')).send({ name: 'C', kind: 'counter', counterType: 'magic' });
     expect(res.status).toBe(400);
   });
 });
