@@ -25,6 +25,7 @@ import { silentHub, type LiveHub } from './ws/live.js';
 import { auditRouter, reviewRouter, sealRouter } from './routes/review.js';
 import { attachmentsRouter, ownerAttachmentsRouter } from './routes/attachments.js';
 import { outboxRouter } from './routes/outbox.js';
+import { captureEvidenceRouter, checkpointsRouter, dutDeleteRouter, studyEditRouter } from './routes/studyEdit.js';
 import { FolderStore, type BlobStore } from './services/storage.js';
 import { DEFAULT_UPLOAD_MAX_BYTES, DEFAULT_UPLOAD_TYPES, type UploadPolicy } from './services/attachments.js';
 import os from 'node:os';
@@ -92,6 +93,11 @@ export function createApp(ctx: AppContext): Express {
   api.use(labRouter());
   api.use('/references', referencesRouter());
   api.use('/duts', dutsRouter());
+  // Editing with history (issue 13): edit, reorder, archive, delete; exclusions and cell choices.
+  api.use('/studies', studyEditRouter());
+  api.use('/checkpoints', checkpointsRouter());
+  api.use('/duts', dutDeleteRouter());
+  api.use('/captures', captureEvidenceRouter());
   // Readings logged elsewhere (issue 12): multipart, parsed as it streams; before `/:id`.
   api.use('/captures', captureImportRouter(ctx.db.pool, ctx.hub ?? silentHub));
   // The comparison workbench's overlay and exports (issue 12); `/stability` before `/:id`.

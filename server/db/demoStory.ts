@@ -190,7 +190,7 @@ async function seedApprovedStudy(pool: pg.Pool, hub: LiveHub, people: Cast, coun
   const studyId = created.id;
   await Study.update({ allowSimulated: true }, { where: { id: studyId } });
   const baseline = await addCheckpoint(studyId, { name: 'Baseline' }, people.engineer.id);
-  const after = await addCheckpoint(studyId, { name: 'After reflow (1 pass)', exposure: { process: 'Reflow, profile B', temperatureC: 245, notes: 'Peak 245 °C, one pass' } }, people.engineer.id);
+  const after = await addCheckpoint(studyId, { name: 'After reflow (1 pass)', exposure: { kind: 'reflow', process: 'Reflow, profile B', peakC: 245, secondsAboveLiquidus: 60, passes: 1 } }, people.engineer.id);
   const dut = await addDut(studyId, { label: 'Y1 16 MHz crystal (carrier)', kind: 'crystal', nominal: 16_000_000, unit: 'Hz', limit: 1, limitUnit: 'ppm', position: 'Y1', serial: 'CB-0007-Y1' }, people.engineer.id);
   for (const [cp, checkpoint] of [[0, baseline], [1, after]] as const) {
     await capture(

@@ -93,9 +93,9 @@ export async function seedDemo(sequelize: Sequelize): Promise<void> {
     await Checkpoint.bulkCreate(
       [
         { studyId: study.id, name: 'Baseline', position: 0, exposure: null },
-        { studyId: study.id, name: 'After wash (3 min/side)', position: 1, exposure: { process: 'Aqueous ultrasonic wash', bathKHz: 40, temperatureC: 45, solvent: 'Aqueous detergent, 5 %', minutesPerSide: 3, cumulativeMinutes: 6 } },
-        { studyId: study.id, name: 'After over-exposure (30 min/side)', position: 2, exposure: { process: 'Aqueous ultrasonic wash', bathKHz: 40, temperatureC: 45, solvent: 'Aqueous detergent, 5 %', minutesPerSide: 30, cumulativeMinutes: 66 } },
-        { studyId: study.id, name: 'After bake (4 h)', position: 3, exposure: { process: 'Bake-out', temperatureC: 85, minutesPerSide: 0, cumulativeMinutes: 66, notes: '4 h at 85 °C to drive out moisture' } },
+        { studyId: study.id, name: 'After wash (3 min/side)', position: 1, exposure: { kind: 'wash', process: 'Aqueous ultrasonic wash', bathKHz: 40, temperatureC: 45, solvent: 'Aqueous detergent, 5 %', minutesPerSide: 3, cumulativeMinutes: 6 } },
+        { studyId: study.id, name: 'After over-exposure (30 min/side)', position: 2, exposure: { kind: 'wash', process: 'Aqueous ultrasonic wash', bathKHz: 40, temperatureC: 45, solvent: 'Aqueous detergent, 5 %', minutesPerSide: 30, cumulativeMinutes: 66 } },
+        { studyId: study.id, name: 'After bake (4 h)', position: 3, exposure: { kind: 'bake', process: 'Bake-out', temperatureC: 85, hours: 4, notes: 'To drive out moisture after the washes' } },
       ],
       { transaction },
     );

@@ -12,6 +12,7 @@ import * as m0150 from './20261202-0150-capture-abort-stall.js';
 import * as m0100 from './20261202-0100-check-constraints.js';
 import * as m0120 from './20261202-0120-calibration-records.js';
 import * as m0110 from './20261202-0110-live-reading-tiles.js';
+import * as m0140 from './20261202-0140-process-kinds-and-editing.js';
 
 type Step = { up(p: { context: QueryInterface }): Promise<void>; down(p: { context: QueryInterface }): Promise<void> };
 
@@ -29,6 +30,7 @@ const MIGRATIONS: Array<[string, Step]> = [
   ['20261202-0100-check-constraints', m0100],
   ['20261202-0120-calibration-records', m0120],
   ['20261202-0110-live-reading-tiles', m0110],
+  ['20261202-0140-process-kinds-and-editing', m0140],
 ];
 
 /** Builds the migrator for a Sequelize connection (state kept in the `sequelize_meta` table). */

@@ -45,6 +45,10 @@ export class Capture extends Model {
   declare target: CaptureTarget | null;
   declare overdueNotifiedAt: Date | null;
   declare sealBrokenAt: Date | null;
+  /** Left out of the evidence by a lead, with the reason (null while it counts). */
+  declare excludedAt: Date | null;
+  declare excludedBy: number | null;
+  declare exclusionReason: string | null;
   /** When the last accepted readings arrived (moved by the ingest statement). */
   declare lastReadingAt: Date | null;
   /** When the sweep marked the capture stalled (kept after it revives, for the record). */
@@ -93,6 +97,9 @@ export class Capture extends Model {
         target: DataTypes.JSONB,
         overdueNotifiedAt: DataTypes.DATE,
         sealBrokenAt: DataTypes.DATE,
+        excludedAt: DataTypes.DATE,
+        excludedBy: DataTypes.INTEGER,
+        exclusionReason: DataTypes.TEXT,
         lastReadingAt: DataTypes.DATE,
         stalledAt: DataTypes.DATE,
         abortReason: DataTypes.TEXT,

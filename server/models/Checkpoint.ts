@@ -8,11 +8,14 @@ export class Checkpoint extends Model {
   declare name: string;
   declare position: number;
   declare exposure: Exposure | null;
+  /** Archived: kept with its captures, out of the matrix and the bench (null while in use). */
+  declare archivedAt: Date | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
   toPublic() {
     return { id: this.id, studyId: this.studyId, name: this.name, order: this.position, exposure: this.exposure };
+    return { id: this.id, studyId: this.studyId, name: this.name, order: this.position, exposure: this.exposure, archived: this.archivedAt != null };
   }
 
   static initModel(sequelize: Sequelize): void {
@@ -23,6 +26,7 @@ export class Checkpoint extends Model {
         name: { type: DataTypes.STRING(200), allowNull: false },
         position: { type: DataTypes.INTEGER, allowNull: false, defaultValue: 0 },
         exposure: DataTypes.JSONB,
+        archivedAt: DataTypes.DATE,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

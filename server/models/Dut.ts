@@ -28,6 +28,8 @@ export class Dut extends Model {
   declare limitUnit: 'ppm' | 'ppb' | 'Hz' | 'mg' | '%';
   declare position: string | null;
   declare serial: string | null;
+  /** Archived: kept with its captures, out of the matrix and the bench (null while in use). */
+  declare archivedAt: Date | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
@@ -46,6 +48,7 @@ export class Dut extends Model {
       ...(this.kind === 'tuning-fork' ? { tuningFork: this.tuningFork() } : {}),
       position: this.position,
       serial: this.serial,
+      archived: this.archivedAt != null,
     };
   }
 
@@ -80,6 +83,7 @@ export class Dut extends Model {
         limitUnit: { type: DataTypes.STRING(8), allowNull: false },
         position: DataTypes.STRING(60),
         serial: DataTypes.STRING(120),
+        archivedAt: DataTypes.DATE,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

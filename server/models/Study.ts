@@ -15,6 +15,8 @@ export class Study extends Model {
   declare submittedAt: Date | null;
   declare approvedBy: number | null;
   declare approvedAt: Date | null;
+  /** Archived: kept with its record, out of the studies list (null while in use). */
+  declare archivedAt: Date | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 
@@ -33,6 +35,7 @@ export class Study extends Model {
         submittedAt: DataTypes.DATE,
         approvedBy: DataTypes.INTEGER,
         approvedAt: DataTypes.DATE,
+        archivedAt: DataTypes.DATE,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,
       },

@@ -56,6 +56,7 @@ export async function studyAudit(studyId: number, q: { limit: number; cursor?: s
     `((e.subject_type = 'study' AND e.subject_id = $1)
       OR (e.subject_type = 'checkpoint' AND e.subject_id IN (SELECT id FROM checkpoints WHERE study_id = $1))
       OR (e.subject_type = 'dut' AND e.subject_id IN (SELECT id FROM duts WHERE study_id = $1))
+      OR (e.subject_type IN ('checkpoint', 'dut') AND (e.details->>'studyId')::int = $1)
       OR (e.subject_type = 'capture' AND e.subject_id IN (SELECT c.id FROM captures c JOIN duts d ON d.id = c.dut_id WHERE d.study_id = $1))
       OR (e.subject_type = 'attachment' AND (e.details->>'studyId')::int = $1))`,
   ];

@@ -3,6 +3,7 @@ import { AnalysisError, compare, tuningForkDelta, type DeltaTerm, type DriftMode
 import { Capture, Checkpoint, Dut, Reference, Study } from '../models/index.js';
 import { AppError, NotFoundError, ValidationError } from '../errors.js';
 import { conditionsBetween } from './conditions.js';
+import { chosenCells, representatives } from './cells.js';
 import {
   LAB_AMBIENT_RANGE_C,
   preparedFor,
@@ -260,24 +261,26 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
 }
 
 /**
- * The study matrix: for every DUT (rows) and checkpoint (columns) the latest finished capture,
- * and — from the second checkpoint on — its comparison with the DUT's baseline capture (the
- * latest finished capture at the study's first checkpoint).
+ * The study matrix: for every DUT (rows) and checkpoint (columns) the capture that represents the
+ * cell — the one a lead chose, else the latest valid one (finished, not excluded) — and, from the
+ * second checkpoint on, its comparison with the DUT's baseline capture (the representative at the
+ * study's first checkpoint). Archived DUTs and checkpoints are left out.
  */
 export async function studyMatrix(pool: pg.Pool, studyId: number) {
+  // Archived DUTs and checkpoints keep their captures but leave the matrix.
   const [duts, checkpoints] = await Promise.all([
-    Dut.findAll({ where: { studyId }, order: [['id', 'ASC']] }),
-    Checkpoint.findAll({ where: { studyId }, order: [['position', 'ASC'], ['id', 'ASC']] }),
+    Dut.findAll({ where: { studyId, archivedAt: null }, order: [['id', 'ASC']] }),
+    Checkpoint.findAll({ where: { studyId, archivedAt: null }, order: [['position', 'ASC'], ['id', 'ASC']] }),
   ]);
   if (checkpoints.length === 0 && duts.length === 0 && !(await Study.findByPk(studyId))) throw new NotFoundError('Study');
-  const captures = duts.length
-    ? await Capture.findAll({ where: { dutId: duts.map((d) => d.id), state: 'finished' }, order: [['endedAt', 'DESC']] })
-    : [];
-  const latest = new Map<string, Capture>();
-  for (const c of captures) {
-    const key = `${c.dutId}:${c.checkpointId}`;
-    if (!latest.has(key)) latest.set(key, c);
-  }
+  const dutIds = duts.map((d) => d.id);
+  const [captures, chosen] = await Promise.all([
+    dutIds.length ? Capture.findAll({ where: { dutId: dutIds, state: 'finished', excludedAt: null } }) : Promise.resolve([]),
+    chosenCells(dutIds),
+  ]);
+  // Each cell: the capture a lead chose, else the latest valid one (finished, not excluded).
+  const cellOf = representatives(captures, chosen);
+  const latest = new Map([...cellOf].map(([key, v]) => [key, v.capture]));
   const baselineId = checkpoints[0]?.id;
   const rows = [];
   for (const dut of duts) {
@@ -290,7 +293,7 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
         continue;
       }
       const s = c.summary as CaptureSummary | null;
-      const capture = { id: c.id, readingCount: c.readingCount, ambientC: c.ambientC, mean: s?.stats?.mean ?? null, offsetPpm: s?.offsetPpm ?? null, simulated: c.simulated ?? false, sealBroken: c.sealBrokenAt != null };
+      const capture = { id: c.id, readingCount: c.readingCount, ambientC: c.ambientC, mean: s?.stats?.mean ?? null, offsetPpm: s?.offsetPpm ?? null, simulated: c.simulated ?? false, sealBroken: c.sealBrokenAt != null, chosen: cellOf.get(`${dut.id}:${cp.id}`)?.chosen ?? false };
       let comparison = null;
       if (base && base.id !== c.id && s?.stats && (base.summary as CaptureSummary | null)?.stats) {
         // (Summaries stored by an older version are recomputed inside compareCaptures.)

@@ -84,6 +84,8 @@ export async function updateDut(id: number, patch: DutPatch, actorId: number) {
   await assertStudyWritable('dut', id, "changing a DUT or its limit");
   const before = dut.toPublic();
   for (const key of DUT_FIELDS) if (patch[key] !== undefined) dut.set(key, patch[key]);
+  // Archiving keeps the DUT and its captures but takes it out of the matrix and the bench.
+  if (patch.archived !== undefined) dut.archivedAt = patch.archived ? (dut.archivedAt ?? new Date()) : null;
   const limitGiven = patch.limit !== undefined || patch.limitLow !== undefined || patch.limitHigh !== undefined;
   if (limitGiven) {
     if (patch.limit != null) {

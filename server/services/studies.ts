@@ -17,6 +17,7 @@ function studyPublic(s: Study) {
     createdBy: s.createdBy,
     revision: s.revision,
     allowSimulated: s.allowSimulated,
+    archived: s.archivedAt != null,
     submittedBy: s.submittedBy,
     submittedAt: s.submittedAt,
     approvedBy: s.approvedBy,

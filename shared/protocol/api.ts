@@ -3,6 +3,7 @@ import { checkLimit, DutLimitFields, TuningForkFields } from './uncertainty.js';
 import { Role } from './roles.js';
 import { Text } from './text.js';
 import { NewPassword } from './password.js';
+import { Exposure } from './process.js';
 
 /** Error envelope every API error uses. */
 export const ApiErrorBody = z.object({
@@ -60,18 +61,7 @@ export const StudySettings = z
   .strict();
 export type StudySettings = z.infer<typeof StudySettings>;
 
-export const Exposure = z
-  .object({
-    process: Text({ max: 200 }).optional(),
-    bathKHz: z.number().positive().max(1000).optional(),
-    temperatureC: z.number().min(-80).max(400).optional(),
-    solvent: Text({ max: 200 }).optional(),
-    minutesPerSide: z.number().min(0).max(100000).optional(),
-    cumulativeMinutes: z.number().min(0).max(1000000).optional(),
-    notes: Text({ max: 2000, trim: false }).optional(),
-  })
-  .strict();
-export type Exposure = z.infer<typeof Exposure>;
+export { Exposure } from './process.js';
 
 export const CheckpointCreate = z.object({
   name: Text({ min: 1, max: 200 }),

@@ -21,6 +21,7 @@ import {
 import { CaptureImportResult, ImportProgress } from './importCsv.js';
 import { CalibrationHistory, InstrumentCalibrated, ReferenceCalibrated } from './equipment.js';
 import { LinkProfile } from './linkProfile.js';
+import { CaptureExclusionResult, CellCaptures, CellChoiceResult, StudyEditResult } from './studyEdit.js';
 import { STABILITY_KINDS } from './captures.js';
 import {
   BudgetWire,
@@ -372,6 +373,17 @@ export const RESPONSES = {
   'GET /api/outbox': OutboxPage,
   'GET /api/outbox/received': ReceivedPage,
   'POST /api/outbox/:id/retry': RetryResponse,
+  // Editing with history (issue 13 part B; shared/protocol/studyEdit.ts).
+  'PATCH /api/studies/:id': StudyEditResult,
+  'DELETE /api/studies/:id': 'no-content',
+  'POST /api/studies/:id/checkpoints/order': z.object({ checkpoints: z.array(CheckpointRecord) }),
+  'PATCH /api/checkpoints/:id': CheckpointRecord,
+  'DELETE /api/checkpoints/:id': 'no-content',
+  'DELETE /api/duts/:id': 'no-content',
+  'GET /api/studies/:id/cells': CellCaptures,
+  'PUT /api/studies/:id/cells': CellChoiceResult,
+  'POST /api/captures/:id/exclude': CaptureExclusionResult,
+  'POST /api/captures/:id/include': CaptureExclusionResult,
   // Editing with history (issue 13 part B; shared/protocol/studyEdit.ts).
 } as const satisfies Partial<Record<RouteKey, ResponseSpec>>;
 

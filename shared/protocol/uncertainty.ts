@@ -55,6 +55,8 @@ export const DutPatch = z
     serial: z.string().trim().max(120).nullable().optional(),
     ...DutLimitFields,
     ...TuningForkFields,
+    /** Archive (true) or restore (false): an archived DUT leaves the matrix, its captures stay. */
+    archived: z.boolean().optional(),
   })
   .refine((v) => Object.keys(v).length > 0, { message: 'nothing to change' });
 export type DutPatch = z.infer<typeof DutPatch>;

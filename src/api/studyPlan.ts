@@ -20,6 +20,8 @@ export interface PlanCheckpoint {
   name: string;
   order: number;
   exposure: Exposure | null;
+  /** Archived: kept with its captures, out of the matrix and the bench. */
+  archived?: boolean;
 }
 
 export interface PlanDut {
@@ -35,6 +37,8 @@ export interface PlanDut {
   limitUnit: string;
   position: string | null;
   serial: string | null;
+  /** Archived: kept with its captures, out of the matrix and the bench. */
+  archived?: boolean;
   /** Tuning forks: the parabola in force (the DUT's own or Driftbench's defaults). */
   tuningFork?: { T0: number; uT0: number; B: number; uB: number; defaults: boolean };
 }
@@ -47,6 +51,8 @@ export interface StudyPlan {
   status: StudyStatus;
   /** Whether simulated captures may be recorded in this study. */
   allowSimulated?: boolean;
+  /** Archived: kept with its record, out of the lists. */
+  archived?: boolean;
   checkpoints: PlanCheckpoint[];
   duts: PlanDut[];
 }
@@ -61,6 +67,8 @@ export interface CellCapture {
   simulated?: boolean;
   /** A sealed reading was changed after the capture finished (integrity warning). */
   sealBroken?: boolean;
+  /** A lead chose this capture for its cell (otherwise it is the latest valid one). */
+  chosen?: boolean;
 }
 
 export interface CellComparison {
@@ -132,21 +140,8 @@ function plain(value: number): string {
   return Number(value.toPrecision(6)).toString();
 }
 
-/** One line for a column head: "40 kHz · 45 °C · 3 min/side"; a non-bath exposure leads with its process. */
-export function exposureSummary(exposure: Exposure | null | undefined): string {
-  if (!exposure) return 'No exposure';
-  const parts: string[] = [];
-  if (exposure.bathKHz === undefined && exposure.process) parts.push(exposure.process);
-  if (exposure.bathKHz !== undefined) parts.push(`${plain(exposure.bathKHz)} kHz`);
-  if (exposure.temperatureC !== undefined) parts.push(`${plain(exposure.temperatureC)} °C`);
-  if (exposure.minutesPerSide) parts.push(`${plain(exposure.minutesPerSide)} min/side`);
-  return parts.length ? parts.join(' · ') : (exposure.notes ?? 'Exposure planned');
-}
-
-/** Whether a planned exposure involves a bath, a solvent or heat — where the cautions apply. */
-export function plansBathExposure(exposure: Exposure | null | undefined): boolean {
-  return !!exposure && (exposure.bathKHz !== undefined || !!exposure.solvent || exposure.temperatureC !== undefined);
-}
+/** Exposure wording by process kind lives in utils/exposure.ts; re-exported for the pages that read it here. */
+export { exposureSummary } from '../utils/exposure';
 
 export const DUT_KIND_LABELS: Record<string, string> = {
   crystal: 'Crystal',
@@ -157,18 +152,6 @@ export const DUT_KIND_LABELS: Record<string, string> = {
   capacitor: 'Capacitor',
   relay: 'Relay or switch',
   other: 'Other',
-};
-
-/** Common practice in the trade, in Driftbench's words: how each kind of part takes a wash. */
-export const DUT_KIND_NOTES: Record<string, string> = {
-  crystal: 'MHz crystals are small and stiff; they usually come through ultrasonic cleaning unchanged.',
-  oscillator: 'Oscillator modules usually come through ultrasonic cleaning unchanged.',
-  tcxo: 'Like other MHz oscillators, TCXOs usually come through ultrasonic cleaning unchanged.',
-  'tuning-fork': 'A 32.768 kHz tuning fork resonates much nearer a bath’s frequency: wash with caution.',
-  accelerometer: 'MEMS parts with open ports are harmed by liquid unless sealed; check the part’s port and seal.',
-  relay: 'Relays and switches need their maker’s approval before ultrasonic cleaning.',
-  capacitor: 'Check the maker’s cleaning guidance for the dielectric and the case.',
-  other: 'Check the maker’s cleaning guidance for this part.',
 };
 
 export function kindLabel(kind: string): string {

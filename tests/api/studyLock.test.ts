@@ -57,6 +57,18 @@ function writes(f: Fixture) {
     ['attach a file to a capture', async () =>
       request(t.app).post(`/api/captures/${f.finishedCapture}/attachments`).set(await eng()).attach('file', PNG, { filename: 'late.png', contentType: 'image/png' })],
     ['delete an attachment', async () => request(t.app).delete(`/api/attachments/${f.attachmentId}`).set(await lead())],
+    // Editing with history (issue 13).
+    ['edit the study', async () => request(t.app).patch(`/api/studies/${f.plan.studyId}`).set(await eng()).send({ title: 'Renamed while locked' })],
+    ['delete the study', async () => request(t.app).delete(`/api/studies/${f.plan.studyId}`).set(await eng())],
+    ['edit a checkpoint', async () => request(t.app).patch(`/api/checkpoints/${f.plan.checkpointId}`).set(await eng()).send({ name: 'Renamed' })],
+    ['delete a checkpoint', async () => request(t.app).delete(`/api/checkpoints/${f.plan.checkpointId}`).set(await eng())],
+    ['reorder checkpoints', async () => request(t.app).post(`/api/studies/${f.plan.studyId}/checkpoints/order`).set(await eng()).send({ ids: [f.plan.checkpointId] })],
+    ['archive a DUT', async () => request(t.app).patch(`/api/duts/${f.plan.dutId}`).set(await eng()).send({ archived: true })],
+    ['delete a DUT', async () => request(t.app).delete(`/api/duts/${f.plan.dutId}`).set(await eng())],
+    ['exclude a capture', async () => request(t.app).post(`/api/captures/${f.finishedCapture}/exclude`).set(await lead()).send({ reason: 'Locked anyway' })],
+    ['include a capture', async () => request(t.app).post(`/api/captures/${f.finishedCapture}/include`).set(await lead())],
+    ['choose the capture of a cell', async () =>
+      request(t.app).put(`/api/studies/${f.plan.studyId}/cells`).set(await lead()).send({ dutId: f.plan.dutId, checkpointId: f.plan.checkpointId, captureId: f.finishedCapture })],
   ] as const;
 }
 
@@ -68,7 +80,7 @@ describe('an approved study is locked on every write route', () => {
     await t.db.pool.query(`UPDATE studies SET status = 'approved' WHERE id = $1`, [f.plan.studyId]);
   });
 
-  it.each([...Array(12).keys()])('refuses write #%i with 409 and a clear reason', async (i) => {
+  it.each([...Array(writes({} as Fixture).length).keys()])('refuses write #%i with 409 and a clear reason', async (i) => {
     const [name, send] = writes(f)[i];
     const res = await send();
     expect(res.status, `${name}: ${JSON.stringify(res.body)}`).toBe(409);

@@ -6,7 +6,7 @@ import { cellFigures, exposureSummary, matrixCounts, type StudyMatrix as Matrix 
 
 const fork = { id: 3, label: 'Y3 32.768 kHz tuning fork', kind: 'tuning-fork', nominal: 32_768, unit: 'Hz', limit: 1, limitUnit: 'ppm', position: 'Y3', serial: 'RC-0001-Y3' };
 const crystal = { ...fork, id: 1, label: 'Y1 16 MHz crystal', kind: 'crystal', nominal: 16_000_000, position: 'Y1', serial: 'RC-0001-Y1' };
-const wash = { process: 'Aqueous ultrasonic wash', bathKHz: 40, temperatureC: 45, solvent: 'Aqueous detergent, 5 %', minutesPerSide: 3, cumulativeMinutes: 6 };
+const wash = { kind: 'wash' as const, process: 'Aqueous ultrasonic wash', bathKHz: 40, temperatureC: 45, solvent: 'Aqueous detergent, 5 %', minutesPerSide: 3, cumulativeMinutes: 6 };
 
 function comparison(deltaPpm: number, uPpm: number, verdict: 'within' | 'exceeds' | 'inconclusive') {
   return {
@@ -30,7 +30,7 @@ const matrix: Matrix = {
     { id: 11, name: 'Baseline', order: 0, exposure: null },
     { id: 12, name: 'After wash', order: 1, exposure: wash },
     { id: 13, name: 'After over-exposure', order: 2, exposure: { ...wash, minutesPerSide: 30, cumulativeMinutes: 66 } },
-    { id: 14, name: 'After bake', order: 3, exposure: { process: 'Bake-out', temperatureC: 85, minutesPerSide: 0 } },
+    { id: 14, name: 'After bake', order: 3, exposure: { kind: 'bake' as const, process: 'Bake-out', temperatureC: 85, hours: 4 } },
   ],
   rows: [
     {
@@ -92,7 +92,8 @@ describe('the study matrix', () => {
     const heads = mountMatrix().findAll('th.matrix__head').map((th) => th.text());
     expect(heads[0]).toBe('BaselineReference for every Δ');
     expect(heads[1]).toContain('40 kHz · 45 °C · 3 min/side');
-    expect(exposureSummary(matrix.checkpoints[3].exposure)).toBe('Bake-out · 85 °C');
+    // A bake reads as a bake: its temperature and hours, never "per side" (issue 13).
+    expect(exposureSummary(matrix.checkpoints[3].exposure)).toBe('Bake · 85 °C · 4 h');
   });
 
   it.each([

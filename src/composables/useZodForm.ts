@@ -1,0 +1,117 @@
+import { computed, ref, type ComputedRef, type Ref } from 'vue';
+import type { FormInstance, FormItemRule, FormRules } from 'element-plus';
+import type { z } from 'zod';
+import { fieldErrors } from '../api/studyPlan';
+
+/**
+ * One adapter from a shared zod schema to Element Plus form rules, so a form checks exactly what
+ * the API checks — limits included — and says it in the form's words.
+ *
+ * `body()` builds the request body from the form; `fields` maps each form item's `prop` to the
+ * schema path whose issue it shows (`{ bathKHz: 'exposure.bathKHz' }`; a prop missing from the map
+ * uses its own name). Every rule parses the whole body (cross-field rules such as "high above low"
+ * land on their field), and `wording` replaces the generic message of a path.
+ */
+export function useZodForm<T>(options: {
+  schema: z.ZodType<T> | (() => z.ZodType<T>);
+  body: () => unknown;
+  fields: readonly string[] | Record<string, string>;
+  wording?: Record<string, string>;
+}): {
+  formRef: Ref<FormInstance | undefined>;
+  rules: ComputedRef<FormRules>;
+  check: () => { data: T | null; errors: Record<string, string> };
+  validate: () => Promise<boolean>;
+  clear: () => void;
+} {
+  const formRef = ref<FormInstance>();
+  const schema = (): z.ZodType<T> => (typeof options.schema === 'function' ? options.schema() : options.schema);
+  const check = () => fieldErrors(schema(), options.body(), options.wording ?? {});
+  const paths = computed<Record<string, string>>(() =>
+    Array.isArray(options.fields) ? Object.fromEntries(options.fields.map((f) => [f, f])) : (options.fields as Record<string, string>),
+  );
+
+  const rules = computed<FormRules>(() => {
+    const out: FormRules = {};
+    for (const [prop, path] of Object.entries(paths.value)) {
+      const rule: FormItemRule = {
+        trigger: ['blur', 'change'],
+        validator: (_rule, _value, callback) => {
+          const { errors } = check();
+          const message = errors[path];
+          if (message) callback(new Error(message));
+          else callback();
+        },
+      };
+      out[prop] = [rule];
+    }
+    return out;
+  });
+
+  async function validate(): Promise<boolean> {
+    if (!formRef.value) return check().data !== null;
+    const ok = await formRef.value.validate().catch(() => false);
+    return ok !== false && check().data !== null;
+  }
+
+  function clear(): void {
+    formRef.value?.clearValidate();
+  }
+
+  return { formRef, rules, check, validate, clear };
+}
+
+type Walkable = z.ZodType & {
+  shape?: Record<string, z.ZodType>;
+  unwrap?: () => z.ZodType;
+  options?: z.ZodType[];
+  minValue?: number | null;
+  maxValue?: number | null;
+  def?: { innerType?: z.ZodType };
+};
+
+/**
+ * The numeric bounds a shared schema puts on one field (`['exposure', 'peakC']`), for hints and
+ * placeholders; `variant` picks a discriminated union's member by its `kind`.
+ */
+export function boundsOf(schema: z.ZodType, path: readonly string[], variant?: string): { min: number | null; max: number | null } {
+  let node = schema as Walkable;
+  for (const key of path) {
+    node = peel(node, variant);
+    node = (node.shape?.[key] ?? node) as Walkable;
+  }
+  node = peel(node, variant);
+  return { min: node.minValue ?? null, max: node.maxValue ?? null };
+}
+
+function peel(node: Walkable, variant?: string): Walkable {
+  for (let i = 0; i < 8; i++) {
+    if (node.options && variant) {
+      const hit = node.options.find((o) => ((o as Walkable).shape?.kind as unknown as { value?: string } | undefined)?.value === variant);
+      if (hit) {
+        node = hit as Walkable;
+        continue;
+      }
+    }
+    if (typeof node.unwrap === 'function' && !node.shape) {
+      node = node.unwrap() as Walkable;
+      continue;
+    }
+    if (node.def?.innerType) {
+      node = node.def.innerType as Walkable;
+      continue;
+    }
+    break;
+  }
+  return node;
+}
+
+/** "100 – 400" from a field's bounds (a hint beside its label), or '' when it has none. */
+export function rangeHint(bounds: { min: number | null; max: number | null }, unit = ''): string {
+  const f = (v: number) => (Math.abs(v) >= 1e5 ? v.toExponential(0) : String(v)).replace('-', '−');
+  const u = unit ? ` ${unit}` : '';
+  if (bounds.min !== null && Number.isFinite(bounds.min) && bounds.max !== null && Number.isFinite(bounds.max)) return `${f(bounds.min)} – ${f(bounds.max)}${u}`;
+  if (bounds.max !== null && Number.isFinite(bounds.max)) return `up to ${f(bounds.max)}${u}`;
+  if (bounds.min !== null && Number.isFinite(bounds.min)) return `from ${f(bounds.min)}${u}`;
+  return '';
+}
