@@ -14,7 +14,6 @@ export class Checkpoint extends Model {
   declare updatedAt: CreationOptional<Date>;
 
   toPublic() {
-    return { id: this.id, studyId: this.studyId, name: this.name, order: this.position, exposure: this.exposure };
     return { id: this.id, studyId: this.studyId, name: this.name, order: this.position, exposure: this.exposure, archived: this.archivedAt != null };
   }
 
