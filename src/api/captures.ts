@@ -12,7 +12,7 @@ import type { BiasCorrection, NoiseSource } from '../../shared/analysis/stabilit
 
 export type { CaptureCreate, CapturePatch, IngestResult, ReadingIn, StabilityKind };
 
-export type CaptureState = 'open' | 'finished' | 'aborted';
+export type CaptureState = 'open' | 'stalled' | 'finished' | 'aborted';
 export type CaptureQuantity = CaptureCreate['quantity'];
 export type CaptureOrientation = NonNullable<CaptureCreate['orientation']>;
 
@@ -130,6 +130,11 @@ export interface CaptureSummary {
 /** A capture as the API shows it. */
 export interface Capture {
   id: number;
+  /** When readings last arrived, when the stall sweep marked it, why and by whom it was aborted (issue 13). */
+  lastReadingAt?: string | null;
+  stalledAt?: string | null;
+  abortReason?: string | null;
+  abortedBy?: number | null;
   /** A sealed reading was updated or deleted after the capture finished (the seal route says more). */
   sealBroken?: boolean;
   sealSha256?: string | null;
