@@ -1,7 +1,7 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
 
 /** One audited action, chained by hash to the one before it (server/services/audit.ts writes them). Never updated or deleted. */
-export class AuditEvent extends Model {
+export class AuditEvent extends Model<InferAttributes<AuditEvent>, InferCreationAttributes<AuditEvent>> {
   declare id: CreationOptional<number>;
   declare actorId: number | null;
   declare action: string;

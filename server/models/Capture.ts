@@ -1,11 +1,16 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes, type NonAttribute } from 'sequelize';
+import type { Dut } from './Dut.js';
+import type { Checkpoint } from './Checkpoint.js';
+import type { User } from './User.js';
+import type { Instrument } from './Instrument.js';
+import type { Reference } from './Reference.js';
 import type { CaptureTarget } from '../../shared/protocol/captures.js';
 
 /** 'stalled': open, but no readings for too long (the sweep in services/captureLifecycle.ts). */
 export type CaptureState = 'open' | 'stalled' | 'finished' | 'aborted';
 
 /** One DUT measured at one checkpoint: its identity, conditions and (once finished) its cached summary. */
-export class Capture extends Model {
+export class Capture extends Model<InferAttributes<Capture>, InferCreationAttributes<Capture>> {
   declare id: CreationOptional<number>;
   declare dutId: number;
   declare checkpointId: number;
@@ -57,6 +62,12 @@ export class Capture extends Model {
   declare abortedBy: number | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
+  /** Associations (server/models/index.ts), present when a query includes them. */
+  declare dut?: NonAttribute<Dut>;
+  declare checkpoint?: NonAttribute<Checkpoint>;
+  declare operator?: NonAttribute<User>;
+  declare instrument?: NonAttribute<Instrument>;
+  declare reference?: NonAttribute<Reference>;
 
   static initModel(sequelize: Sequelize): void {
     Capture.init(

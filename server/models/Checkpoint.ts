@@ -1,8 +1,8 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
 import type { Exposure } from '../../shared/protocol/api.js';
 
 /** A point in a study at which every DUT is captured (baseline, after exposure 1, …). */
-export class Checkpoint extends Model {
+export class Checkpoint extends Model<InferAttributes<Checkpoint>, InferCreationAttributes<Checkpoint>> {
   declare id: CreationOptional<number>;
   declare studyId: number;
   declare name: string;

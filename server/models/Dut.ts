@@ -1,4 +1,5 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes, type NonAttribute } from 'sequelize';
+import type { Study } from './Study.js';
 
 /**
  * A tuning fork's parabola when the DUT gives none (common practice, no source; makers'
@@ -8,7 +9,7 @@ import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequeli
 export const TUNING_FORK_DEFAULTS = { T0: 25, uT0: 5 / Math.sqrt(3), B: -0.034, uB: 0.006 / Math.sqrt(3) } as const;
 
 /** A device under test on a study's board, with its acceptance limit. */
-export class Dut extends Model {
+export class Dut extends Model<InferAttributes<Dut>, InferCreationAttributes<Dut>> {
   declare id: CreationOptional<number>;
   declare studyId: number;
   declare label: string;
@@ -32,6 +33,8 @@ export class Dut extends Model {
   declare archivedAt: Date | null;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
+  /** The study, present when a query includes it (`as: 'study'`). */
+  declare study?: NonAttribute<Study>;
 
   toPublic() {
     return {

@@ -20,7 +20,7 @@ export class Reference extends Model<InferAttributes<Reference>, InferCreationAt
   declare retiredAt: Date | null;
   declare retiredReason: string | null;
   /** The lab's reference: the bench's default (at most one). */
-  declare labDefault: boolean;
+  declare labDefault: CreationOptional<boolean>;
   declare createdAt: CreationOptional<Date>;
   declare updatedAt: CreationOptional<Date>;
 

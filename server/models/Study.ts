@@ -1,7 +1,7 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional } from 'sequelize';
+import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
 import type { StudyStatus } from '../../shared/protocol/api.js';
 
-export class Study extends Model {
+export class Study extends Model<InferAttributes<Study>, InferCreationAttributes<Study>> {
   declare id: CreationOptional<number>;
   declare title: string;
   declare process: string | null;

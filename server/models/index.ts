@@ -23,9 +23,9 @@ export function initModels(sequelize: Sequelize): void {
   for (const m of [User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview, CalibrationRecord]) m.initModel(sequelize);
 
   Study.hasMany(Checkpoint, { as: 'checkpoints', foreignKey: 'studyId' });
-  Checkpoint.belongsTo(Study, { foreignKey: 'studyId' });
+  Checkpoint.belongsTo(Study, { as: 'study', foreignKey: 'studyId' });
   Study.hasMany(Dut, { as: 'duts', foreignKey: 'studyId' });
-  Dut.belongsTo(Study, { foreignKey: 'studyId' });
+  Dut.belongsTo(Study, { as: 'study', foreignKey: 'studyId' });
   Capture.belongsTo(Dut, { as: 'dut', foreignKey: 'dutId' });
   Capture.belongsTo(Checkpoint, { as: 'checkpoint', foreignKey: 'checkpointId' });
   Capture.belongsTo(Instrument, { as: 'instrument', foreignKey: 'instrumentId' });

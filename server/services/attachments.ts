@@ -156,8 +156,9 @@ export async function recordUpload(
           filename: safeFilename(Buffer.from(file.originalname, 'latin1').toString('utf8')),
           contentType: type,
           sizeBytes: file.size,
-          sha256: file.sha256,
-          storageKey: file.key,
+          // The storage engine set both before the upload reached here (checked above for the key).
+          sha256: file.sha256!,
+          storageKey: file.key!,
           uploadedBy: user.id,
         },
         { transaction },

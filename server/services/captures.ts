@@ -1,5 +1,5 @@
 import type { AuthUser } from './auth.js';
-import { Op } from 'sequelize';
+import { Op, type Includeable } from 'sequelize';
 import { Capture, Checkpoint, Dut, Instrument, Reference, Study, User } from '../models/index.js';
 import { AppError, ForbiddenError, NotFoundError, ValidationError } from '../errors.js';
 import type { CaptureCreate, CapturePatch } from '../../shared/protocol/captures.js';
@@ -164,26 +164,45 @@ export async function listCaptures(filter: { studyId?: number; dutId?: number; c
     const duts = await Dut.findAll({ where: { studyId: filter.studyId }, attributes: ['id'] });
     where.dutId = { [Op.in]: duts.map((d) => d.id) };
   }
-  const { rows, nextCursor } = await pageOf(Capture, { limit: filter.limit, cursor: filter.cursor }, 'id-desc', where);
+  // The names a list shows come in the same query (joins), never one request per row.
+  const names: Includeable[] = [
+    { model: Dut, as: 'dut', attributes: ['id', 'label', 'studyId'], include: [{ model: Study, as: 'study', attributes: ['id', 'title'] }] },
+    { model: Checkpoint, as: 'checkpoint', attributes: ['id', 'name'] },
+    { model: User, as: 'operator', attributes: ['id', 'name'] },
+  ];
+  const { rows, nextCursor } = await pageOf(Capture, { limit: filter.limit, cursor: filter.cursor }, 'id-desc', where, 'name', names);
   const captures = rows.map((c) => {
     const p = capturePublic(c);
+    const study = c.dut?.study;
     // Lists stay light: no stored summary and no link profile (GET /api/captures/:id has both).
-    return { ...p, summary: undefined, linkProfile: undefined };
+    return {
+      ...p,
+      summary: undefined,
+      linkProfile: undefined,
+      study: study ? { id: study.id, title: study.title } : null,
+      dut: c.dut ? { id: c.dut.id, label: c.dut.label } : null,
+      checkpoint: c.checkpoint ? { id: c.checkpoint.id, name: c.checkpoint.name } : null,
+      operator: c.operator ? { id: c.operator.id, name: c.operator.name } : null,
+    };
   });
   return { captures, nextCursor };
 }
 
 /** A capture with the names a page needs to show its identity (study › checkpoint › DUT). */
 export async function getCapture(id: number) {
-  const c = await requireCapture(id);
-  const [dut, checkpoint, operator, instrument, reference] = await Promise.all([
-    Dut.findByPk(c.dutId),
-    Checkpoint.findByPk(c.checkpointId),
-    c.operatorId ? User.findByPk(c.operatorId) : null,
-    c.instrumentId ? Instrument.findByPk(c.instrumentId) : null,
-    c.referenceId ? Reference.findByPk(c.referenceId) : null,
-  ]);
-  const study = dut ? await Study.findByPk(dut.studyId) : null;
+  // One query: the capture joined with its DUT (and study), checkpoint, operator, instrument, reference.
+  const c = await Capture.findByPk(id, {
+    include: [
+      { model: Dut, as: 'dut', include: [{ model: Study, as: 'study', attributes: ['id', 'title', 'status'] }] },
+      { model: Checkpoint, as: 'checkpoint' },
+      { model: User, as: 'operator', attributes: ['id', 'name'] },
+      { model: Instrument, as: 'instrument', attributes: ['id', 'name'] },
+      { model: Reference, as: 'reference', attributes: ['id', 'name'] },
+    ],
+  });
+  if (!c) throw new NotFoundError('Capture');
+  const { dut, checkpoint, operator, instrument, reference } = c;
+  const study = dut?.study;
   return {
     ...capturePublic(c),
     study: study ? { id: study.id, title: study.title, status: study.status } : null,

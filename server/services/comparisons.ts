@@ -3,6 +3,7 @@ import { AnalysisError, compare, tuningForkDelta, type DeltaTerm, type DriftMode
 import { Capture, Checkpoint, Dut, Reference, Study } from '../models/index.js';
 import { AppError, NotFoundError, ValidationError } from '../errors.js';
 import { conditionsBetween } from './conditions.js';
+import { loadComparisonInputs, type ComparisonInputs } from './comparisonInputs.js';
 import { chosenCells, representatives } from './cells.js';
 import {
   LAB_AMBIENT_RANGE_C,
@@ -104,8 +105,11 @@ function plainBudget(c: Capture, s: CaptureSummary, notes: string[]) {
  * Before/after comparison of one DUT: Δ in the quantity's unit and in ppm, U (k = 2) and the
  * guard-banded verdict against the DUT's limit. Both captures must belong to the same DUT.
  */
-export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: number) {
-  const [before, after] = await Promise.all([Capture.findByPk(beforeId), Capture.findByPk(afterId)]);
+export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: number, loaded?: ComparisonInputs) {
+  // The matrix passes what it loaded for all its cells; a single comparison loads its own.
+  const [before, after] = loaded
+    ? [loaded.captures.get(beforeId) ?? null, loaded.captures.get(afterId) ?? null]
+    : await Promise.all([Capture.findByPk(beforeId), Capture.findByPk(afterId)]);
   if (!before) throw new NotFoundError('Capture "before"');
   if (!after) throw new NotFoundError('Capture "after"');
   // An aborted capture keeps its readings as a record, never as evidence for a verdict (issue 13).
@@ -117,7 +121,7 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
   if (before.dutId !== after.dutId) {
     throw new ValidationError('after: both captures must be of the same DUT', [{ path: 'after', message: 'is of another DUT' }]);
   }
-  const dut = await Dut.findByPk(before.dutId);
+  const dut = loaded?.duts.get(before.dutId) ?? (await Dut.findByPk(before.dutId));
   if (!dut) throw new NotFoundError('DUT');
   const [sb, sa] = await Promise.all([summaryOf(pool, before, dut), summaryOf(pool, after, dut)]);
   if (!sb.stats || !sa.stats) throw new AppError(422, 'not-enough-readings', 'Each capture needs at least two usable readings.');
@@ -174,7 +178,7 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
     let rate: number | null = after.referenceAgeingPerDay !== null ? Math.hypot(after.referenceAgeingPerDay, after.referenceAgeingUPerDay ?? 0) : null;
     let rateText = rate !== null ? `a = ${after.referenceAgeingPerDay!.toExponential(2)}/day from its calibration record` : '';
     if (rate === null) {
-      const ref = after.referenceId !== null ? await Reference.findByPk(after.referenceId) : null;
+      const ref = after.referenceId === null ? null : loaded ? (loaded.references.get(after.referenceId) ?? null) : await Reference.findByPk(after.referenceId);
       rate = DEFAULT_AGEING_PER_DAY[ref?.kind ?? 'other'] ?? DEFAULT_AGEING_PER_DAY.other;
       rateText = `no ageing rate recorded: ${rate.toExponential(1)}/day assumed for a ${ref?.kind ?? 'reference of unknown kind'} (common practice, no source)`;
       notes.push(`The reference has no ageing rate recorded: its change between the captures is taken as ${rate.toExponential(1)}/day (a default for its kind). Record the rate to replace it.`);
@@ -281,6 +285,8 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
   // Each cell: the capture a lead chose, else the latest valid one (finished, not excluded).
   const cellOf = representatives(captures, chosen);
   const latest = new Map([...cellOf].map(([key, v]) => [key, v.capture]));
+  // Everything the cells' comparisons read, loaded once (two queries), so no cell queries alone.
+  const loaded = await loadComparisonInputs(captures, duts);
   const baselineId = checkpoints[0]?.id;
   const rows = [];
   for (const dut of duts) {
@@ -299,7 +305,7 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
         // (Summaries stored by an older version are recomputed inside compareCaptures.)
         let r: Awaited<ReturnType<typeof compareCaptures>>;
         try {
-          r = await compareCaptures(pool, base.id, c.id);
+          r = await compareCaptures(pool, base.id, c.id, loaded);
         } catch (err) {
           // One capture that cannot be compared (e.g. in another unit) must not hide the others.
           if (!(err instanceof AppError) && !(err instanceof AnalysisError)) throw err;
@@ -323,7 +329,7 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
           limitHighInUnit: r.limitHighInUnit,
           verdict: r.verdict,
           significant: r.significant,
-          conditions: await conditionsBetween(base, c),
+          conditions: await conditionsBetween(base, c, loaded),
         };
       }
       cells.push({ checkpointId: cp.id, capture, comparison });

@@ -133,9 +133,11 @@ export async function recordCalibration(subject: Subject, id: number, input: Cal
     const current = !latest || input.calibratedOn >= latest.calibratedOn;
     const changed: Record<string, { from: unknown; to: unknown }> = {};
     const set = (key: string, value: unknown) => {
-      const before = row.get(key) as unknown;
+      // An instrument or a reference: both typed models, read and written here by field name.
+      const target = row as unknown as { getDataValue(k: string): unknown; setDataValue(k: string, v: unknown): void };
+      const before = target.getDataValue(key);
       if (before !== value) changed[key] = { from: before ?? null, to: value };
-      row.setDataValue(key as never, value as never);
+      target.setDataValue(key, value);
     };
     if (current) {
       set('calibrationDue', input.dueOn ?? null);

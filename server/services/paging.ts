@@ -1,4 +1,4 @@
-import { Op, type Model, type ModelStatic, type WhereOptions } from 'sequelize';
+import { Op, type Includeable, type Model, type ModelStatic, type WhereOptions } from 'sequelize';
 import { ValidationError } from '../errors.js';
 import type { Page } from '../../shared/protocol/paging.js';
 
@@ -24,7 +24,8 @@ export type PageOrder = 'id-asc' | 'id-desc' | 'name-asc';
 
 /**
  * One page of `model` in a stable order (keyset paging: the cursor is the last item's sort key,
- * so pages neither skip nor repeat rows when rows are added meanwhile).
+ * so pages neither skip nor repeat rows when rows are added meanwhile). `include` joins
+ * belongs-to associations into the same query (names for a list, never one query per row).
  */
 export async function pageOf<M extends Model>(
   model: ModelStatic<M>,
@@ -32,6 +33,7 @@ export async function pageOf<M extends Model>(
   order: PageOrder,
   where: WhereOptions = {},
   nameField = 'name',
+  include?: Includeable[],
 ): Promise<{ rows: M[]; nextCursor: string | null }> {
   const conditions: WhereOptions[] = [where];
   if (page.cursor) {
@@ -45,7 +47,7 @@ export async function pageOf<M extends Model>(
   }
   const sort: Array<[string, string]> =
     order === 'name-asc' ? [[nameField, 'ASC'], ['id', 'ASC']] : [['id', order === 'id-asc' ? 'ASC' : 'DESC']];
-  const rows = await model.findAll({ where: { [Op.and]: conditions } as WhereOptions, order: sort, limit: page.limit + 1 });
+  const rows = await model.findAll({ where: { [Op.and]: conditions } as WhereOptions, order: sort, limit: page.limit + 1, include });
   const more = rows.length > page.limit;
   if (more) rows.length = page.limit;
   const last = rows[rows.length - 1] as unknown as Record<string, unknown> | undefined;
