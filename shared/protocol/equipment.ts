@@ -6,7 +6,8 @@
  */
 import { z } from 'zod';
 import { CalendarDate, Text } from './text.js';
-import { CounterFields } from './uncertainty.js';
+import { COUNTER_TYPES, CounterFields } from './uncertainty.js';
+import { LinkProfile } from './linkProfile.js';
 
 export const INSTRUMENT_KINDS = ['counter', 'spi-bridge', 'reference', 'thermometer', 'other'] as const;
 export const InstrumentKind = z.enum(INSTRUMENT_KINDS, { message: `must be one of ${INSTRUMENT_KINDS.join(', ')}` });
@@ -155,8 +156,8 @@ export const InstrumentOut = z.object({
   retiredAt: z.string().nullable(),
   retiredReason: z.string().nullable(),
   notes: z.string().nullable(),
-  linkProfile: z.unknown().nullable(),
-  counterType: z.enum(['gated', 'reciprocal', 'time-interval']).nullable(),
+  linkProfile: LinkProfile.nullable(),
+  counterType: z.enum(COUNTER_TYPES).nullable(),
   counterResolution: z.number().nullable(),
 });
 export type InstrumentOut = z.infer<typeof InstrumentOut>;

@@ -6,25 +6,24 @@
  *
  * Routes combine these in `responses.ts`; the client's `src/api/` takes its types from there.
  */
-import { z } from "zod";
-import { Role } from "./roles.js";
-import {
-  COUNTER_TYPES,
-  REFERENCE_KINDS,
-  DRIFT_CHOICES,
-} from "./uncertainty.js";
-import { StudyStatus } from "./api.js";
-import { Quantity, STABILITY_KINDS } from "./captures.js";
-import { CaptureState } from "./captureLifecycle.js";
-import { CALIBRATION_STATES, CalibrationState } from "./equipment.js";
+import { MatrixTiltCell } from './accelerometer.js';
+import { QuantityLimitView } from './dutQuantities.js';
+import { z } from 'zod';
+import { Role } from './roles.js';
+import { COUNTER_TYPES, REFERENCE_KINDS, DRIFT_CHOICES } from './uncertainty.js';
+import { StudyStatus } from './api.js';
+import { Exposure } from './process.js';
+import { Quantity, STABILITY_KINDS } from './captures.js';
+import { CaptureState } from './captureLifecycle.js';
+import { CALIBRATION_STATES, CalibrationState, InstrumentOut, ReferenceOut } from './equipment.js';
 
 // ---- one enum per concept -------------------------------------------------------------------
 
 /** A capture's life (`captureLifecycle.ts`): recording, stalled, finished or aborted. */
-export { CAPTURE_STATES, CaptureState } from "./captureLifecycle.js";
+export { CAPTURE_STATES, CaptureState } from './captureLifecycle.js';
 
 /** The guard-banded decision of a comparison (ILAC-G8, `shared/analysis/verdict.ts`). */
-export const VERDICTS = ["within", "exceeds", "inconclusive"] as const;
+export const VERDICTS = ['within', 'exceeds', 'inconclusive'] as const;
 export const Verdict = z.enum(VERDICTS);
 export type Verdict = z.infer<typeof Verdict>;
 
@@ -32,7 +31,7 @@ export type Verdict = z.infer<typeof Verdict>;
 export { CALIBRATION_STATES, CalibrationState };
 
 /** Power-law noise types (NIST SP 1065 Table 3; `shared/analysis/noise.ts`). */
-export const NOISE_TYPES = ["wpm", "fpm", "wfm", "ffm", "rwfm"] as const;
+export const NOISE_TYPES = ['wpm', 'fpm', 'wfm', 'ffm', 'rwfm'] as const;
 export const NoiseTypeSchema = z.enum(NOISE_TYPES);
 
 export const DriftModel = z.enum(DRIFT_CHOICES);
@@ -52,12 +51,7 @@ export const NextCursor = z.string().nullable();
 
 // ---- people ---------------------------------------------------------------------------------
 
-export const SessionUser = z.object({
-  id: Id,
-  email: z.string(),
-  name: z.string(),
-  role: Role,
-});
+export const SessionUser = z.object({ id: Id, email: z.string(), name: z.string(), role: Role });
 export type SessionUser = z.infer<typeof SessionUser>;
 
 export const UserRecord = SessionUser.extend({
@@ -101,7 +95,8 @@ export const CheckpointRecord = z.object({
   studyId: Id,
   name: z.string(),
   order: z.number().int(),
-  exposure: z.record(z.string(), z.unknown()).nullable(),
+  /** What the parts went through before this checkpoint, by process kind (process.ts). */
+  exposure: Exposure.nullable(),
   /** Archived: kept with its captures, out of the matrix and the bench (issue 13). */
   archived: z.boolean().optional(),
 });
@@ -131,6 +126,7 @@ export const DutRecord = z.object({
   position: z.string().nullable(),
   serial: z.string().nullable(),
   /** Every quantity's limit of the DUT's kind (shared/protocol/dutQuantities.ts). */
+  limits: z.array(QuantityLimitView).optional(),
   /** Archived: kept with its captures, out of the matrix and the bench (issue 13). */
   archived: z.boolean().optional(),
 });
@@ -144,36 +140,11 @@ export type StudyDetail = z.infer<typeof StudyDetail>;
 
 // ---- the lab ---------------------------------------------------------------------------------
 
-export const InstrumentRecord = z.object({
-  id: Id,
-  name: z.string(),
-  kind: z.string(),
-  maker: z.string().nullable(),
-  model: z.string().nullable(),
-  serial: z.string().nullable(),
-  calibrationDue: Day.nullable(),
-  calibrationState: CalibrationState,
-  notes: z.string().nullable(),
-  linkProfile: z.record(z.string(), z.unknown()).nullable(),
-  counterType: CounterTypeWire.nullable(),
-  counterResolution: z.number().nullable(),
-});
-export type InstrumentRecord = z.infer<typeof InstrumentRecord>;
-
-export const ReferenceRecord = z.object({
-  id: Id,
-  name: z.string(),
-  kind: ReferenceKindWire.nullable(),
-  nominalHz: z.number(),
-  fractionalOffset: z.number(),
-  standardUncertainty: z.number(),
-  verifiedBy: z.string().nullable(),
-  verifiedAt: Day.nullable(),
-  ageingPerDay: z.number().nullable(),
-  ageingUPerDay: z.number().nullable(),
-  instrumentId: Id.nullable(),
-});
-export type ReferenceRecord = z.infer<typeof ReferenceRecord>;
+/** Instruments and references as the API answers them: the equipment's schemas (equipment.ts). */
+export const InstrumentRecord = InstrumentOut;
+export type InstrumentRecord = InstrumentOut;
+export const ReferenceRecord = ReferenceOut;
+export type ReferenceRecord = ReferenceOut;
 
 // ---- the analysis as stored and served --------------------------------------------------------
 
@@ -191,7 +162,7 @@ export const Stats = z.object({
 export type Stats = z.infer<typeof Stats>;
 
 export const BiasCorrectionWire = z.object({
-  kind: z.enum(["dead-time", "totdev"]),
+  kind: z.enum(['dead-time', 'totdev']),
   ratio: z.number(),
 });
 
@@ -206,9 +177,7 @@ export const StabilityPointWire = z.object({
   noise: NoiseTypeSchema.optional(),
   /** Absent in summaries stored before bias corrections existed. */
   devRaw: z.number().optional(),
-  noiseSource: z
-    .enum(["given", "lag1", "b1", "slope", "carried", "default"])
-    .optional(),
+  noiseSource: z.enum(['given', 'lag1', 'b1', 'slope', 'carried', 'default']).optional(),
   noiseSupported: z.boolean().optional(),
   slope: z.number().nullable().optional(),
   corrections: z.array(BiasCorrectionWire).optional(),
@@ -234,7 +203,7 @@ export const BudgetLine = z.object({
   contribution: z.number(),
   /** Infinity (type B without a stated ν) serialises as null. */
   dof: z.number().nullable(),
-  type: z.enum(["A", "B"]),
+  type: z.enum(['A', 'B']),
   note: z.string().optional(),
   source: z.string().optional(),
   key: z.string().optional(),
@@ -315,17 +284,26 @@ export type CaptureSummary = z.infer<typeof CaptureSummary>;
 /** `GET /api/captures/:id/analysis`: the same figures, for a chosen estimator, τ set and drift. */
 export const CaptureAnalysis = CaptureSummary.omit({ version: true }).extend({
   driftModel: DriftModel.optional(),
-  counter: z
-    .object({ kind: z.string(), resolution: z.number(), assumed: z.boolean() })
+  counter: z.object({ kind: z.string(), resolution: z.number(), assumed: z.boolean() }).optional(),
+  /**
+   * What the answer covers: `readings` analysed, the capture's count when asked
+   * (`captureReadings`; an open capture's answer may be a few seconds old) and `computedAt`.
+   */
+  coverage: z
+    .object({
+      readings: z.number().int(),
+      captureReadings: z.number().int(),
+      computedAt: z.string(),
+    })
     .optional(),
 });
 export type CaptureAnalysis = z.infer<typeof CaptureAnalysis>;
 
 // ---- captures ----------------------------------------------------------------------------------
 
-export const CaptureTargetWire = z.discriminatedUnion("kind", [
-  z.object({ kind: z.literal("duration"), seconds: z.number() }),
-  z.object({ kind: z.literal("count"), n: z.number() }),
+export const CaptureTargetWire = z.discriminatedUnion('kind', [
+  z.object({ kind: z.literal('duration'), seconds: z.number() }),
+  z.object({ kind: z.literal('count'), n: z.number() }),
 ]);
 
 /** A capture as the API shows it (lists leave out `summary` and `linkProfile`). */
@@ -385,9 +363,7 @@ const Named = z.object({ id: Id, name: z.string() });
 
 /** One capture with the names its page needs (study › checkpoint › DUT, operator, instrument, reference). */
 export const CaptureDetail = CaptureRecord.extend({
-  study: z
-    .object({ id: Id, title: z.string(), status: StudyStatus })
-    .nullable(),
+  study: z.object({ id: Id, title: z.string(), status: StudyStatus }).nullable(),
   dut: DutRecord.nullable(),
   checkpoint: CheckpointRecord.nullable(),
   operator: Named.nullable(),
@@ -395,6 +371,18 @@ export const CaptureDetail = CaptureRecord.extend({
   reference: Named.nullable(),
 });
 export type CaptureDetail = z.infer<typeof CaptureDetail>;
+
+/**
+ * One row of `GET /api/captures`: the record (without its summary and link profile) with the
+ * names a list shows, joined by the server so the browser never fetches them row by row.
+ */
+export const CaptureListItem = CaptureRecord.extend({
+  study: z.object({ id: Id, title: z.string() }).nullable(),
+  dut: z.object({ id: Id, label: z.string() }).nullable(),
+  checkpoint: Named.nullable(),
+  operator: Named.nullable(),
+});
+export type CaptureListItem = z.infer<typeof CaptureListItem>;
 
 /** A stored reading; `flags` only when non-zero. */
 export const ReadingWire = z.object({
@@ -408,16 +396,14 @@ export type ReadingWire = z.infer<typeof ReadingWire>;
 // ---- comparisons and the matrix ----------------------------------------------------------------
 
 export const CONDITION_KEYS = [
-  "reference",
-  "gate",
-  "instrument",
-  "orientation",
-  "ambient",
-  "simulated",
+  'reference',
+  'gate',
+  'instrument',
+  'orientation',
+  'ambient',
+  'simulated',
 ] as const;
-const ConditionValue = z
-  .union([z.string(), z.number(), z.boolean()])
-  .nullable();
+const ConditionValue = z.union([z.string(), z.number(), z.boolean()]).nullable();
 export const ConditionMismatchWire = z.object({
   key: z.enum(CONDITION_KEYS),
   message: z.string(),
@@ -503,6 +489,7 @@ export const MatrixCell = z.object({
   /** Why this cell could not be compared (the rest of the matrix still is). */
   problem: z.string().optional(),
   /** An accelerometer's tilt-check result at this checkpoint and its change against the baseline's. */
+  tiltCheck: MatrixTiltCell.nullable().optional(),
 });
 
 export const StudyMatrix = z.object({

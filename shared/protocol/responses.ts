@@ -19,15 +19,27 @@ import {
   MailStatus,
 } from './review.js';
 import { CaptureImportResult, ImportProgress } from './importCsv.js';
-import { CalibrationHistory, InstrumentCalibrated, ReferenceCalibrated } from './equipment.js';
+import {
+  CalibrationHistory,
+  CalibrationStatus,
+  InstrumentCalibrated,
+  ReferenceCalibrated,
+} from './equipment.js';
+import { CaptureBaseline, TiltCheckList, TiltCheckResponse } from './accelerometer.js';
 import { LinkProfile } from './linkProfile.js';
-import { CaptureExclusionResult, CellCaptures, CellChoiceResult, StudyEditResult } from './studyEdit.js';
+import {
+  CaptureExclusionResult,
+  CellCaptures,
+  CellChoiceResult,
+  StudyEditResult,
+} from './studyEdit.js';
 import { STABILITY_KINDS } from './captures.js';
 import {
   BudgetWire,
   CalibrationState,
   CaptureAnalysis,
   CaptureDetail,
+  CaptureListItem,
   CaptureRecord,
   CheckpointRecord,
   ComparisonWire,
@@ -117,13 +129,16 @@ export const DashboardResponse = z.object({
     captures: z.number().int(),
     users: z.number().int(),
   }),
+  /** Instruments and references whose calibration needs attention (the server's one rule). */
   calibration: z.array(
     z.object({
+      subject: z.enum(['instrument', 'reference']),
       id: Id,
       name: z.string(),
       kind: z.string(),
       calibrationDue: Day.nullable(),
       state: CalibrationState,
+      calibration: CalibrationStatus,
     }),
   ),
   live: z.array(OnAirCapture),
@@ -133,7 +148,7 @@ export type DashboardResponse = z.infer<typeof DashboardResponse>;
 // ---- captures ---------------------------------------------------------------------------------
 
 /** Lists stay light: no stored summary and no link profile. */
-export const CaptureList = z.object({ captures: z.array(CaptureRecord), nextCursor: NextCursor });
+export const CaptureList = z.object({ captures: z.array(CaptureListItem), nextCursor: NextCursor });
 export type CaptureList = z.infer<typeof CaptureList>;
 
 export const IngestResponse = z.object({
@@ -333,6 +348,9 @@ export const RESPONSES = {
   'POST /api/references/:id/reinstate': ReferenceResponse,
   'POST /api/references/:id/lab-default': ReferenceResponse,
   'PATCH /api/duts/:id': DutResponse,
+  'POST /api/duts/:id/tilt-checks': TiltCheckResponse,
+  'GET /api/duts/:id/tilt-checks': TiltCheckList,
+  'GET /api/captures/:id/baseline': CaptureBaseline,
   'PATCH /api/studies/:id/settings': StudyRecord,
   'GET /api/dashboard': DashboardResponse,
   'GET /api/captures': CaptureList,
@@ -384,7 +402,6 @@ export const RESPONSES = {
   'PUT /api/studies/:id/cells': CellChoiceResult,
   'POST /api/captures/:id/exclude': CaptureExclusionResult,
   'POST /api/captures/:id/include': CaptureExclusionResult,
-  // Editing with history (issue 13 part B; shared/protocol/studyEdit.ts).
 } as const satisfies Partial<Record<RouteKey, ResponseSpec>>;
 
 export type ResponseKey = keyof typeof RESPONSES;

@@ -1,31 +1,23 @@
 import { http } from './http';
 
 import type { Role } from '../../shared/protocol/roles';
+import type { SessionUser } from '../../shared/protocol/models';
+import type { LoginResponse, MeResponse } from '../../shared/protocol/responses';
 
 export type { Role };
 export { ROLES } from '../../shared/protocol/roles';
 
-export interface SessionUser {
-  id: string | number;
-  email: string;
-  name: string;
-  role: Role;
-}
-
-export interface LoginAnswer {
-  token: string;
-  user: SessionUser;
-  /** Set after an admin reset: a new password must be chosen before anything else. */
-  mustChangePassword?: boolean;
-}
+export type { SessionUser };
+/** The answer of signing in and of changing the password: a token and who it belongs to. */
+export type LoginAnswer = LoginResponse;
 
 export function login(email: string, password: string): Promise<LoginAnswer> {
   return http.post<LoginAnswer>('/api/auth/login', { email, password });
 }
 
 /** The signed-in user; the session store handles a 401 here itself. */
-export function fetchMe(): Promise<{ user: SessionUser; mustChangePassword?: boolean }> {
-  return http.get<{ user: SessionUser; mustChangePassword?: boolean }>('/api/auth/me', { ignoreSessionLoss: true });
+export function fetchMe(): Promise<MeResponse> {
+  return http.get<MeResponse>('/api/auth/me', { ignoreSessionLoss: true });
 }
 
 /** Changes the signed-in user's password; answers a fresh token (older ones stop working). */

@@ -1,47 +1,21 @@
+/** The dashboard and the health line; the shapes are the contract's (shared/protocol/responses.ts). */
 import { http } from './http';
+import type { z } from 'zod';
+import type { CalibrationState } from '../../shared/protocol/equipment';
+import type {
+  DashboardResponse,
+  HealthResponse,
+  OnAirCapture,
+} from '../../shared/protocol/responses';
 
-export type CalibrationState = 'ok' | 'due-soon' | 'overdue';
-
-export interface DashboardCounts {
-  studies: number;
-  checkpoints: number;
-  duts: number;
-  instruments: number;
-  references: number;
-  captures: number;
-  users: number;
-}
-
-/** A capture being recorded right now; the server may add fields, the panel reads these. */
-export interface LiveCapture {
-  id: string | number;
-  dutLabel?: string;
-  studyTitle?: string;
-  checkpointName?: string;
-  operator?: string;
-  startedAt?: string;
-  readings?: number;
-}
-
-export interface CalibrationItem {
-  id: string | number;
-  name: string;
-  kind: string;
-  calibrationDue: string | null;
-  state: CalibrationState;
-}
-
-export interface Dashboard {
-  counts: DashboardCounts;
-  live: LiveCapture[];
-  calibration: CalibrationItem[];
-}
-
-export interface Health {
-  status: 'ok' | 'degraded';
-  database: { ok: boolean; latencyMs?: number };
-  version: string;
-}
+export type { CalibrationState };
+export type Dashboard = z.infer<typeof DashboardResponse>;
+export type DashboardCounts = Dashboard['counts'];
+/** A capture being recorded right now, with the names the panel shows. */
+export type LiveCapture = OnAirCapture;
+/** An instrument or reference whose calibration needs attention (the server's one rule). */
+export type CalibrationItem = Dashboard['calibration'][number];
+export type Health = z.infer<typeof HealthResponse>;
 
 export function fetchDashboard(): Promise<Dashboard> {
   return http.get<Dashboard>('/api/dashboard');

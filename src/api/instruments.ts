@@ -1,48 +1,34 @@
-import { http, request } from './http';
-import { allPages } from './paging';
-import type { Instrument, InstrumentKind } from './lab';
+/**
+ * An instrument's link profile, and the names the link pages use for the instrument calls. Each
+ * endpoint has one function: reading, registering and editing an instrument live in
+ * `equipment.ts`, the list in `lab.ts`; they are re-exported here under the link pages' names.
+ */
+import { request } from './http';
 import type { LinkProfile } from '../../shared/protocol/linkProfile';
+import type { InstrumentOut } from '../../shared/protocol/equipment';
+import type { LinkProfileResponse } from '../../shared/protocol/responses';
+import type { z } from 'zod';
 
-/** One instrument as GET /api/instruments/:id answers it: the lab list's fields, calibration state and link profile. */
-export interface InstrumentDetail extends Omit<Instrument, 'id'> {
-  id: number;
-  calibrationState: 'ok' | 'due-soon' | 'overdue' | 'unknown';
-  linkProfile: LinkProfile | null;
-}
+/** One instrument with its link profile, as GET /api/instruments(/:id) answers it. */
+export type InstrumentDetail = InstrumentOut;
 
-export interface InstrumentFields {
-  name: string;
-  kind: InstrumentKind;
-  maker?: string | null;
-  model?: string | null;
-  serial?: string | null;
-  calibrationDue?: string | null;
-  notes?: string | null;
-  counterType?: 'gated' | 'reciprocal' | 'time-interval' | null;
-  counterResolution?: number | null;
-}
-
-export async function fetchInstrument(id: number): Promise<InstrumentDetail> {
-  return (await http.get<{ instrument: InstrumentDetail }>(`/api/instruments/${id}`)).instrument;
-}
-
+export {
+  fetchInstrumentRecord as fetchInstrument,
+  registerInstrument as createInstrument,
+  editInstrument as updateInstrument,
+} from './equipment';
 /** Every instrument with its link profile (the lab list carries them). */
-export async function listInstrumentsWithProfiles(): Promise<InstrumentDetail[]> {
-  return allPages<InstrumentDetail>('/api/instruments', 'instruments');
-}
-
-export async function createInstrument(fields: InstrumentFields): Promise<InstrumentDetail> {
-  return (await http.post<{ instrument: InstrumentDetail }>('/api/instruments', fields)).instrument;
-}
-
-export async function updateInstrument(id: number, patch: Partial<InstrumentFields>): Promise<InstrumentDetail> {
-  return (await http.patch<{ instrument: InstrumentDetail }>(`/api/instruments/${id}`, patch)).instrument;
-}
+export { listInstruments as listInstrumentsWithProfiles } from './lab';
 
 export async function saveLinkProfile(id: number, profile: LinkProfile): Promise<LinkProfile> {
-  return (await request<{ linkProfile: LinkProfile }>('PUT', `/api/instruments/${id}/link-profile`, profile)).linkProfile;
+  const answer = await request<z.infer<typeof LinkProfileResponse>>(
+    'PUT',
+    `/api/instruments/${id}/link-profile`,
+    profile,
+  );
+  return answer.linkProfile;
 }
 
 export async function clearLinkProfile(id: number): Promise<void> {
-  await http.delete<void>(`/api/instruments/${id}/link-profile`);
+  await request<void>('DELETE', `/api/instruments/${id}/link-profile`);
 }

@@ -1,14 +1,21 @@
 import { http } from './http';
 import { allPages } from './paging';
-import { COUNTER_TYPES, REFERENCE_KINDS, type ReferenceCreate, type ReferencePatch } from '../../shared/protocol/uncertainty';
+import {
+  COUNTER_TYPES,
+  REFERENCE_KINDS,
+  type ReferenceCreate,
+  type ReferencePatch,
+} from '../../shared/protocol/uncertainty';
+import type { InstrumentKind, InstrumentOut, ReferenceOut } from '../../shared/protocol/equipment';
 
-export type InstrumentKind = 'counter' | 'spi-bridge' | 'reference' | 'other';
+export type { InstrumentKind };
 
 /** How each instrument kind is named on screen. */
 export const INSTRUMENT_KIND_LABELS: Record<InstrumentKind, string> = {
   counter: 'Counter',
   'spi-bridge': 'SPI bridge',
   reference: 'Reference',
+  thermometer: 'Thermometer',
   other: 'Other',
 };
 
@@ -16,19 +23,8 @@ export function instrumentKindLabel(kind: string): string {
   return INSTRUMENT_KIND_LABELS[kind as InstrumentKind] ?? kind;
 }
 
-export interface Instrument {
-  id: string | number;
-  name: string;
-  kind: InstrumentKind;
-  maker: string | null;
-  model: string | null;
-  serial: string | null;
-  calibrationDue: string | null;
-  notes: string | null;
-  /** Counters: how they measure and their resolution (counts when gated, seconds otherwise). */
-  counterType?: CounterType | null;
-  counterResolution?: number | null;
-}
+/** An instrument as the API answers it (shared/protocol/equipment.ts: the server's calibration state included). */
+export type Instrument = InstrumentOut;
 
 export type CounterType = (typeof COUNTER_TYPES)[number];
 export type ReferenceKind = (typeof REFERENCE_KINDS)[number];
@@ -56,19 +52,8 @@ export function counterText(i: Pick<Instrument, 'counterType' | 'counterResoluti
   return r ? `${i.counterType}, ${Number((r * 1e12).toPrecision(3))} ps` : i.counterType;
 }
 
-export interface Reference {
-  id: string | number;
-  name: string;
-  kind?: ReferenceKind | null;
-  nominalHz: number;
-  fractionalOffset: number | null;
-  standardUncertainty: number | null;
-  verifiedBy: string | null;
-  verifiedAt: string | null;
-  /** Ageing, fractional per day, and its standard uncertainty (null: not recorded). */
-  ageingPerDay?: number | null;
-  ageingUPerDay?: number | null;
-}
+/** A frequency reference as the API answers it (shared/protocol/equipment.ts). */
+export type Reference = ReferenceOut;
 
 /** POST /api/references (admin, lead; audited). */
 export async function createReference(body: ReferenceCreate): Promise<Reference> {

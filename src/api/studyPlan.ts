@@ -3,127 +3,46 @@
  * matrix of captures and verdicts, the planning calls, and the small pure helpers the page and
  * its tests share (exposure summaries, cell figures, counts, form messages).
  */
-import type { ConditionMismatch } from '../../shared/analysis/conditions';
 import type { z } from 'zod';
 import { http } from './http';
-import type { StudyStatus } from './studies';
+import { getStudy, updateStudySettings } from './studies';
+import type {
+  CheckpointRecord,
+  DutRecord,
+  StudyDetail,
+  StudyMatrix as StudyMatrixWire,
+  Verdict,
+} from '../../shared/protocol/models';
 import type { CheckpointCreate, DutCreate, Exposure } from '../../shared/protocol/api';
 import type { DutPatch } from '../../shared/protocol/uncertainty';
 import { groupDigits } from '../utils/format';
 import { formatSigned } from '../utils/si';
 
 export type { CheckpointCreate, DutCreate, Exposure };
-export type Verdict = 'within' | 'exceeds' | 'inconclusive';
+// The shapes are the contract's (shared/protocol/models.ts); these names are what the study page imports.
+export type { Verdict };
+export type PlanCheckpoint = CheckpointRecord;
+export type PlanDut = DutRecord;
+export type StudyPlan = StudyDetail;
+export type StudyMatrix = StudyMatrixWire;
+export type MatrixCell = StudyMatrixWire['rows'][number]['cells'][number];
+export type CellCapture = NonNullable<MatrixCell['capture']>;
+export type CellComparison = NonNullable<MatrixCell['comparison']>;
 
-export interface PlanCheckpoint {
-  id: number;
-  name: string;
-  order: number;
-  exposure: Exposure | null;
-  /** Archived: kept with its captures, out of the matrix and the bench. */
-  archived?: boolean;
-}
-
-export interface PlanDut {
-  id: number;
-  label: string;
-  kind: string;
-  nominal: number;
-  unit: string;
-  /** ±limit, or null when the limit is asymmetric or one-sided (then limitLow/limitHigh). */
-  limit: number | null;
-  limitLow?: number | null;
-  limitHigh?: number | null;
-  limitUnit: string;
-  position: string | null;
-  serial: string | null;
-  /** Archived: kept with its captures, out of the matrix and the bench. */
-  archived?: boolean;
-  /** Tuning forks: the parabola in force (the DUT's own or Driftbench's defaults). */
-  tuningFork?: { T0: number; uT0: number; B: number; uB: number; defaults: boolean };
-}
-
-export interface StudyPlan {
-  id: number;
-  title: string;
-  process: string | null;
-  description: string | null;
-  status: StudyStatus;
-  /** Whether simulated captures may be recorded in this study. */
-  allowSimulated?: boolean;
-  /** Archived: kept with its record, out of the lists. */
-  archived?: boolean;
-  checkpoints: PlanCheckpoint[];
-  duts: PlanDut[];
-}
-
-export interface CellCapture {
-  id: number;
-  readingCount: number;
-  ambientC: number | null;
-  mean: number | null;
-  offsetPpm: number | null;
-  /** Recorded from a simulator. */
-  simulated?: boolean;
-  /** A sealed reading was changed after the capture finished (integrity warning). */
-  sealBroken?: boolean;
-  /** A lead chose this capture for its cell (otherwise it is the latest valid one). */
-  chosen?: boolean;
-}
-
-export interface CellComparison {
-  before: number;
-  delta: number;
-  deltaPpm: number | null;
-  expandedUncertainty: number;
-  /** Coverage factor from ν_eff and the sentence saying what it covers (absent before issue 8). */
-  k?: number;
-  effectiveDof?: number | null;
-  coverage?: string;
-  limit: number | null;
-  limitLow?: number | null;
-  limitHigh?: number | null;
-  limitUnit: string;
-  limitInUnit: number | null;
-  limitLowInUnit?: number | null;
-  limitHighInUnit?: number | null;
-  verdict: Verdict;
-  significant: boolean;
-  /** Recording conditions that differ from the baseline's. */
-  conditions?: ConditionMismatch[];
-}
-
-export interface MatrixCell {
-  checkpointId: number;
-  capture: CellCapture | null;
-  comparison: CellComparison | null;
-}
-
-export interface StudyMatrix {
-  studyId: number;
-  checkpoints: PlanCheckpoint[];
-  rows: Array<{ dut: PlanDut; cells: MatrixCell[] }>;
-}
-
-export function getStudyPlan(id: number): Promise<StudyPlan> {
-  return http.get(`/api/studies/${id}`);
-}
+/** The study with its checkpoints and DUTs (GET /api/studies/:id, one call in src/api/studies.ts). */
+export const getStudyPlan = getStudy;
+export { updateStudySettings };
 
 export function getStudyMatrix(id: number): Promise<StudyMatrix> {
-  return http.get(`/api/studies/${id}/matrix`);
-}
-
-/** Changes a study's planner settings (PATCH /api/studies/:id/settings). */
-export function updateStudySettings(studyId: number, body: { allowSimulated?: boolean }): Promise<{ allowSimulated: boolean }> {
-  return http.patch(`/api/studies/${studyId}/settings`, body);
+  return http.get<StudyMatrix>(`/api/studies/${id}/matrix`);
 }
 
 export function addCheckpoint(studyId: number, body: CheckpointCreate): Promise<PlanCheckpoint> {
-  return http.post(`/api/studies/${studyId}/checkpoints`, body);
+  return http.post<PlanCheckpoint>(`/api/studies/${studyId}/checkpoints`, body);
 }
 
 export function addDut(studyId: number, body: DutCreate): Promise<PlanDut> {
-  return http.post(`/api/studies/${studyId}/duts`, body);
+  return http.post<PlanDut>(`/api/studies/${studyId}/duts`, body);
 }
 
 /** PATCH /api/duts/:id: the limit (±, asymmetric or one-sided), tuning-fork parameters, label, position, serial. */
@@ -159,7 +78,9 @@ export function kindLabel(kind: string): string {
 }
 
 /** "±1 ppm", "±20 mg". */
-export function limitText(dut: Pick<PlanDut, 'limit' | 'limitUnit' | 'limitLow' | 'limitHigh'>): string {
+export function limitText(
+  dut: Pick<PlanDut, 'limit' | 'limitUnit' | 'limitLow' | 'limitHigh'>,
+): string {
   if (dut.limit != null) return `±${plain(dut.limit)} ${dut.limitUnit}`;
   const lo = dut.limitLow ?? null;
   const hi = dut.limitHigh ?? null;
@@ -214,7 +135,8 @@ export function cellFigures(dut: PlanDut, c: CellComparison): CellFigures {
   const givenHigh = c.limitHigh !== undefined ? c.limitHigh : c.limit;
   if (relative && dut.nominal > 0) {
     const scale = c.limitUnit === 'ppm' ? 1e6 : 1e9;
-    delta = c.deltaPpm !== null && c.limitUnit === 'ppm' ? c.deltaPpm : (c.delta / dut.nominal) * scale;
+    delta =
+      c.deltaPpm !== null && c.limitUnit === 'ppm' ? c.deltaPpm : (c.delta / dut.nominal) * scale;
     expanded = (c.expandedUncertainty / dut.nominal) * scale;
     limit = c.limit;
     low = givenLow ?? null;
@@ -263,7 +185,13 @@ export function matrixCounts(matrix: StudyMatrix): MatrixCounts {
 
 /** A zod issue as a short sentence for a form field. */
 function friendly(issue: z.core.$ZodIssue): string {
-  const i = issue as z.core.$ZodIssue & { minimum?: number | bigint; maximum?: number | bigint; inclusive?: boolean; origin?: string; expected?: string };
+  const i = issue as z.core.$ZodIssue & {
+    minimum?: number | bigint;
+    maximum?: number | bigint;
+    inclusive?: boolean;
+    origin?: string;
+    expected?: string;
+  };
   switch (i.code) {
     case 'invalid_type':
       return i.expected === 'number' ? 'Enter a number' : 'Fill this in';

@@ -3,27 +3,21 @@
  * stability curves in one request, the exports, and the import with upload and server progress.
  */
 import { ApiError, http, toApiError, type RequestOptions } from './http';
-import type { StabilityKind, StabilityOut } from './captures';
+import type { StabilityKind } from './captures';
+import type { OverlayResponse } from '../../shared/protocol/responses';
 import type { CaptureImportResult, ImportProgress } from '../../shared/protocol/importCsv';
 
-export interface OverlayCurve {
-  captureId: number;
-  dut: { id: number; label: string; unit: string; kind: string; studyId: number } | null;
-  checkpoint: { id: number; name: string; order: number } | null;
-  readingCount: number;
-  startedAt: string;
-  stability: StabilityOut;
-}
-
-export interface Overlay {
-  kind: StabilityKind;
-  curves: OverlayCurve[];
-}
+export type Overlay = OverlayResponse;
+export type OverlayCurve = OverlayResponse['curves'][number];
 
 /** Most captures one overlay may hold (the server's limit). */
 export const MAX_OVERLAY = 12;
 
-export function getOverlay(ids: number[], kind: StabilityKind, options?: RequestOptions): Promise<Overlay> {
+export function getOverlay(
+  ids: number[],
+  kind: StabilityKind,
+  options?: RequestOptions,
+): Promise<Overlay> {
   return http.get<Overlay>(`/api/captures/stability?ids=${ids.join(',')}&kind=${kind}`, options);
 }
 
@@ -43,8 +37,14 @@ export function saveBlob(blob: Blob, filename: string): void {
 }
 
 /** Fetches a file the API serves (with the session token) and saves it. */
-export async function downloadFile(path: string, filename: string, token: string | null): Promise<void> {
-  const response = await fetch(path, { headers: token ? { Authorization: `Bearer ${token}` } : {} });
+export async function downloadFile(
+  path: string,
+  filename: string,
+  token: string | null,
+): Promise<void> {
+  const response = await fetch(path, {
+    headers: token ? { Authorization: `Bearer ${token}` } : {},
+  });
   if (!response.ok) {
     let body: unknown;
     try {
@@ -73,7 +73,8 @@ export function postImport(
 ): { done: Promise<CaptureImportResult>; abort: () => void } {
   const xhr = new XMLHttpRequest();
   const form = new FormData();
-  for (const [k, v] of Object.entries(fields)) if (v !== undefined && v !== '') form.append(k, String(v));
+  for (const [k, v] of Object.entries(fields))
+    if (v !== undefined && v !== '') form.append(k, String(v));
   form.append('file', file, file.name);
   const done = new Promise<CaptureImportResult>((resolve, reject) => {
     xhr.open('POST', '/api/captures/import');
@@ -90,7 +91,14 @@ export function postImport(
       if (xhr.status === 201) resolve(body as CaptureImportResult);
       else reject(toApiError(xhr.status, body));
     };
-    xhr.onerror = () => reject(new ApiError(0, 'network', 'Driftbench cannot reach its server. Check the connection and try again.'));
+    xhr.onerror = () =>
+      reject(
+        new ApiError(
+          0,
+          'network',
+          'Driftbench cannot reach its server. Check the connection and try again.',
+        ),
+      );
     xhr.onabort = () => reject(new DOMException('aborted', 'AbortError'));
     xhr.send(form);
   });

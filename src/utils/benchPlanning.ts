@@ -9,17 +9,10 @@ import { CaptureCreate } from '../../shared/protocol/captures';
 import { linkPreset, type LinkPreset, type LinkProfile } from '../../shared/protocol/linkProfile';
 import { groupDigits } from './format';
 import type { CaptureDutRef } from '../api/captures';
+import type { StudyDetail } from '../api/studies';
 
-/** A study as the bench's form loads it. */
-export interface BenchStudy {
-  id: number;
-  title: string;
-  status: string;
-  /** Whether the study accepts simulated captures. */
-  allowSimulated?: boolean;
-  checkpoints: Array<{ id: number; name: string; order: number; exposure: unknown }>;
-  duts: CaptureDutRef[];
-}
+/** A study as the bench's form loads it: GET /api/studies/:id (getStudy in src/api/studies.ts). */
+export type BenchStudy = StudyDetail;
 
 /** What the setup form hands the bench when the operator starts (JSON-safe: kept for a resume). */
 export interface BenchStart {

@@ -2,55 +2,140 @@
 import { describe, expect, it } from 'vitest';
 import { RouterLinkStub, mount } from '@vue/test-utils';
 import StudyMatrix from '../../../src/components/StudyMatrix.vue';
-import { cellFigures, exposureSummary, matrixCounts, type StudyMatrix as Matrix } from '../../../src/api/studyPlan';
+import {
+  cellFigures,
+  exposureSummary,
+  matrixCounts,
+  type StudyMatrix as Matrix,
+} from '../../../src/api/studyPlan';
 
-const fork = { id: 3, label: 'Y3 32.768 kHz tuning fork', kind: 'tuning-fork', nominal: 32_768, unit: 'Hz', limit: 1, limitUnit: 'ppm', position: 'Y3', serial: 'RC-0001-Y3' };
-const crystal = { ...fork, id: 1, label: 'Y1 16 MHz crystal', kind: 'crystal', nominal: 16_000_000, position: 'Y1', serial: 'RC-0001-Y1' };
-const wash = { kind: 'wash' as const, process: 'Aqueous ultrasonic wash', bathKHz: 40, temperatureC: 45, solvent: 'Aqueous detergent, 5 %', minutesPerSide: 3, cumulativeMinutes: 6 };
+const fork = {
+  id: 3,
+  studyId: 1,
+  label: 'Y3 32.768 kHz tuning fork',
+  kind: 'tuning-fork',
+  nominal: 32_768,
+  unit: 'Hz',
+  limit: 1,
+  limitLow: -1,
+  limitHigh: 1,
+  limitUnit: 'ppm',
+  position: 'Y3',
+  serial: 'RC-0001-Y3',
+};
+const crystal = {
+  ...fork,
+  id: 1,
+  label: 'Y1 16 MHz crystal',
+  kind: 'crystal',
+  nominal: 16_000_000,
+  position: 'Y1',
+  serial: 'RC-0001-Y1',
+};
+const wash = {
+  kind: 'wash' as const,
+  process: 'Aqueous ultrasonic wash',
+  bathKHz: 40,
+  temperatureC: 45,
+  solvent: 'Aqueous detergent, 5 %',
+  minutesPerSide: 3,
+  cumulativeMinutes: 6,
+};
 
-function comparison(deltaPpm: number, uPpm: number, verdict: 'within' | 'exceeds' | 'inconclusive') {
+function comparison(
+  deltaPpm: number,
+  uPpm: number,
+  verdict: 'within' | 'exceeds' | 'inconclusive',
+) {
   return {
     before: 10,
     delta: (deltaPpm * fork.nominal) / 1e6,
     deltaPpm,
     expandedUncertainty: (uPpm * fork.nominal) / 1e6,
+    k: 2,
+    effectiveDof: null,
+    coverage: 'k = 2.00, about 95 % coverage',
     limit: 1,
+    limitLow: -1,
+    limitHigh: 1,
     limitUnit: 'ppm',
     limitInUnit: fork.nominal / 1e6,
+    limitLowInUnit: -fork.nominal / 1e6,
+    limitHighInUnit: fork.nominal / 1e6,
     verdict,
     significant: verdict !== 'within',
+    conditions: [],
   };
 }
 
-const capture = (id: number, offsetPpm: number) => ({ id, readingCount: 400, ambientC: 23.1, mean: fork.nominal * (1 + offsetPpm / 1e6), offsetPpm });
+const capture = (id: number, offsetPpm: number) => ({
+  id,
+  readingCount: 400,
+  ambientC: 23.1,
+  mean: fork.nominal * (1 + offsetPpm / 1e6),
+  offsetPpm,
+  simulated: false,
+  sealBroken: false,
+});
 
 const matrix: Matrix = {
   studyId: 1,
   checkpoints: [
-    { id: 11, name: 'Baseline', order: 0, exposure: null },
-    { id: 12, name: 'After wash', order: 1, exposure: wash },
-    { id: 13, name: 'After over-exposure', order: 2, exposure: { ...wash, minutesPerSide: 30, cumulativeMinutes: 66 } },
-    { id: 14, name: 'After bake', order: 3, exposure: { kind: 'bake' as const, process: 'Bake-out', temperatureC: 85, hours: 4 } },
+    { id: 11, studyId: 1, name: 'Baseline', order: 0, exposure: null },
+    { id: 12, studyId: 1, name: 'After wash', order: 1, exposure: wash },
+    {
+      id: 13,
+      studyId: 1,
+      name: 'After over-exposure',
+      order: 2,
+      exposure: { ...wash, minutesPerSide: 30, cumulativeMinutes: 66 },
+    },
+    {
+      id: 14,
+      studyId: 1,
+      name: 'After bake',
+      order: 3,
+      exposure: { kind: 'bake' as const, process: 'Bake-out', temperatureC: 85, hours: 4 },
+    },
   ],
   rows: [
     {
       dut: fork,
       cells: [
         { checkpointId: 11, capture: capture(10, 0.02), comparison: null },
-        { checkpointId: 12, capture: capture(20, 0.12), comparison: comparison(0.1, 0.05, 'within') },
-        { checkpointId: 13, capture: capture(30, 2.52), comparison: comparison(2.5, 0.05, 'exceeds') },
-        { checkpointId: 14, capture: capture(40, 1.0), comparison: comparison(0.98, 0.1, 'inconclusive') },
+        {
+          checkpointId: 12,
+          capture: capture(20, 0.12),
+          comparison: comparison(0.1, 0.05, 'within'),
+        },
+        {
+          checkpointId: 13,
+          capture: capture(30, 2.52),
+          comparison: comparison(2.5, 0.05, 'exceeds'),
+        },
+        {
+          checkpointId: 14,
+          capture: capture(40, 1.0),
+          comparison: comparison(0.98, 0.1, 'inconclusive'),
+        },
       ],
     },
     {
       dut: crystal,
-      cells: [11, 12, 13, 14].map((checkpointId) => ({ checkpointId, capture: null, comparison: null })),
+      cells: [11, 12, 13, 14].map((checkpointId) => ({
+        checkpointId,
+        capture: null,
+        comparison: null,
+      })),
     },
   ],
 };
 
 function mountMatrix() {
-  return mount(StudyMatrix, { props: { matrix }, global: { stubs: { RouterLink: RouterLinkStub } } });
+  return mount(StudyMatrix, {
+    props: { matrix },
+    global: { stubs: { RouterLink: RouterLinkStub } },
+  });
 }
 
 describe('the study matrix', () => {
@@ -58,7 +143,11 @@ describe('the study matrix', () => {
     const wrapper = mountMatrix();
     const compared = wrapper.findAll('td[data-cell="compared"]');
     expect(compared).toHaveLength(3);
-    expect(compared.map((td) => td.find('.verdict-glyph__word').text())).toEqual(['within', 'exceeds', 'inconclusive']);
+    expect(compared.map((td) => td.find('.verdict-glyph__word').text())).toEqual([
+      'within',
+      'exceeds',
+      'inconclusive',
+    ]);
     expect(compared.every((td) => td.find('svg[role="img"]').exists())).toBe(true);
     expect(compared[1].find('[data-figure="delta"]').text()).toBe('Δ +2.500 ppm');
     expect(compared[1].find('[data-figure="expanded"]').text()).toBe('U ±0.050 ppm');
@@ -77,19 +166,33 @@ describe('the study matrix', () => {
     const wrapper = mountMatrix();
     const empty = wrapper.findAll('tr[data-dut="1"] td');
     expect(empty).toHaveLength(4);
-    expect(empty.every((td) => td.attributes('data-cell') === 'empty' && td.text().startsWith('—'))).toBe(true);
+    expect(
+      empty.every((td) => td.attributes('data-cell') === 'empty' && td.text().startsWith('—')),
+    ).toBe(true);
     expect(empty.every((td) => !td.find('svg').exists())).toBe(true);
   });
 
   it('counts the verdicts and the cells not yet captured', () => {
     const wrapper = mountMatrix();
     const count = (name: string) => wrapper.find(`[data-count="${name}"]`).text();
-    expect([count('within'), count('exceeds'), count('inconclusive'), count('not-captured')]).toEqual(['1', '1', '1', '4']);
-    expect(matrixCounts(matrix)).toEqual({ within: 1, exceeds: 1, inconclusive: 1, notCaptured: 4 });
+    expect([
+      count('within'),
+      count('exceeds'),
+      count('inconclusive'),
+      count('not-captured'),
+    ]).toEqual(['1', '1', '1', '4']);
+    expect(matrixCounts(matrix)).toEqual({
+      within: 1,
+      exceeds: 1,
+      inconclusive: 1,
+      notCaptured: 4,
+    });
   });
 
   it('heads each column with the checkpoint and a one-line exposure summary', () => {
-    const heads = mountMatrix().findAll('th.matrix__head').map((th) => th.text());
+    const heads = mountMatrix()
+      .findAll('th.matrix__head')
+      .map((th) => th.text());
     expect(heads[0]).toBe('BaselineReference for every Δ');
     expect(heads[1]).toContain('40 kHz · 45 °C · 3 min/side');
     // A bake reads as a bake: its temperature and hours, never "per side" (issue 13).
@@ -100,9 +203,19 @@ describe('the study matrix', () => {
     // Δ = 0.1 ppm of 32 768 Hz = 3.2768 mHz; U = 0.05 ppm; shown in the DUT's limit unit.
     [fork, comparison(0.1, 0.05, 'within'), { delta: 0.1, expanded: 0.05, limit: 1, unit: 'ppm' }],
     // An accelerometer limited in mg: figures stay in the quantity's unit.
-    [{ ...fork, kind: 'accelerometer', nominal: 1000, unit: 'mg', limit: 20, limitUnit: 'mg' },
-      { ...comparison(0, 1, 'within'), delta: -4, deltaPpm: null, expandedUncertainty: 2, limit: 20, limitUnit: 'mg', limitInUnit: 20 },
-      { delta: -4, expanded: 2, limit: 20, unit: 'mg' }],
+    [
+      { ...fork, kind: 'accelerometer', nominal: 1000, unit: 'mg', limit: 20, limitUnit: 'mg' },
+      {
+        ...comparison(0, 1, 'within'),
+        delta: -4,
+        deltaPpm: null,
+        expandedUncertainty: 2,
+        limit: 20,
+        limitUnit: 'mg',
+        limitInUnit: 20,
+      },
+      { delta: -4, expanded: 2, limit: 20, unit: 'mg' },
+    ],
   ] as const)('puts Δ, U and the limit of a cell in one unit (%#)', (dut, c, expected) => {
     const f = cellFigures(dut, c);
     expect(f.delta).toBeCloseTo(expected.delta, 9);
