@@ -7,6 +7,8 @@ import { PlausibilityWindow, PLAUSIBILITY } from '../../shared/protocol/plausibi
 import { ReadingFlag } from '../../shared/protocol/reading.js';
 import { roleCan } from '../../shared/protocol/roles.js';
 import { assertCaptureWritable } from './studyLock.js';
+import { float8Array, int2Array, int4Array } from '../db/binaryArrays.js';
+import { decodeReadingsF64 } from '../../shared/protocol/readingsBinary.js';
 import { audit } from './audit.js';
 import { isRecording } from '../../shared/protocol/captureLifecycle.js';
 
@@ -92,33 +94,51 @@ export async function ingestReadings(
   captureId: number,
   body: unknown,
 ): Promise<IngestResult> {
-  const readings = (body as { readings?: unknown } | null)?.readings;
-  const bad = findBadReading(readings);
-  if (bad) {
-    throw new ValidationError(
-      bad.index >= 0 ? `readings[${bad.index}]: ${bad.reason}` : bad.reason,
-      { index: bad.index, reason: bad.reason },
-    );
+  // The batch as four columns: from the JSON body ({ readings: [...] }) or the compact binary one
+  // (shared/protocol/readingsBinary.ts, a Buffer from the raw body parser).
+  let seqs: number[];
+  let ts: number[];
+  let values: number[];
+  let flags: number[];
+  if (Buffer.isBuffer(body)) {
+    const cols = decodeReadingsF64(body);
+    if ('reason' in cols) {
+      throw new ValidationError(cols.index >= 0 ? `reading ${cols.index}: ${cols.reason}` : cols.reason, { index: cols.index, reason: cols.reason });
+    }
+    ({ seq: seqs, t: ts, value: values, flags } = cols);
+  } else {
+    const readings = (body as { readings?: unknown } | null)?.readings;
+    const bad = findBadReading(readings);
+    if (bad) {
+      throw new ValidationError(
+        bad.index >= 0 ? `readings[${bad.index}]: ${bad.reason}` : bad.reason,
+        { index: bad.index, reason: bad.reason },
+      );
+    }
+    const list = readings as ReadingIn[];
+    const k = list.length;
+    seqs = new Array<number>(k);
+    ts = new Array<number>(k);
+    values = new Array<number>(k);
+    flags = new Array<number>(k);
+    for (let i = 0; i < k; i++) {
+      const r = list[i];
+      seqs[i] = r.seq;
+      ts[i] = r.t;
+      values[i] = r.value;
+      flags[i] = r.flags ?? 0;
+    }
   }
   await assertCaptureWritable(pool, captureId, 'adding readings');
-  const list = readings as ReadingIn[];
-  const n = list.length;
-  const seqs = new Array<number>(n);
-  const ts = new Array<number>(n);
-  const values = new Array<number>(n);
-  const flags = new Array<number>(n);
+  const n = seqs.length;
   let maxSeq = -1;
   let minSeq = n > 0 ? Number.MAX_SAFE_INTEGER : -1;
   let increasing = true;
   for (let i = 0; i < n; i++) {
-    const r = list[i];
-    if (i > 0 && r.seq <= seqs[i - 1]) increasing = false;
-    if (r.seq < minSeq) minSeq = r.seq;
-    seqs[i] = r.seq;
-    ts[i] = r.t;
-    values[i] = r.value;
-    flags[i] = r.flags ?? 0;
-    if (r.seq > maxSeq) maxSeq = r.seq;
+    const seq = seqs[i];
+    if (i > 0 && seq <= seqs[i - 1]) increasing = false;
+    if (seq < minSeq) minSeq = seq;
+    if (seq > maxSeq) maxSeq = seq;
   }
   // Implausible values (shared/protocol/plausibility.ts) are stored with their flag bit set, so
   // one absurd number never blocks the analysis or the finish.
@@ -130,13 +150,14 @@ export async function ingestReadings(
 
   // One statement, so one round trip and one commit: lock the capture row, insert only if it is
   // open and the user may write it, count what was new, and move the capture's counters.
-  // Numbers go as array literals built with join(), much faster than per-element escaping.
+  // Numbers go as binary arrays (server/db/binaryArrays.ts): none is printed here or parsed by
+  // PostgreSQL, and every double arrives bit for bit.
   const params = [
     captureId,
-    `{${seqs.join(',')}}`,
-    `{${ts.join(',')}}`,
-    `{${values.join(',')}}`,
-    `{${flags.join(',')}}`,
+    int4Array(seqs),
+    float8Array(ts),
+    float8Array(values),
+    int2Array(flags),
     mayWriteAny,
     user.id,
     maxSeq,
@@ -165,11 +186,11 @@ export async function ingestReadings(
   }
 
   if (watched && inserted && inserted.length) {
+    // Watchers get what was stored, as stored (an implausible reading carries its flag).
     const fresh = new Set(inserted);
-    hub.publishReadings(
-      captureId,
-      list.filter((r) => fresh.delete(r.seq)).map((r) => ({ seq: r.seq, t: r.t, value: r.value, flags: r.flags ?? 0 })),
-    );
+    const out: Array<{ seq: number; t: number; value: number; flags: number }> = [];
+    for (let i = 0; i < n; i++) if (fresh.delete(seqs[i])) out.push({ seq: seqs[i], t: ts[i], value: values[i], flags: flags[i] });
+    hub.publishReadings(captureId, out);
   }
   return { accepted, duplicates: n - accepted, highestSeq };
 }
