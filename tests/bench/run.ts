@@ -4,6 +4,7 @@ import { benchIngest } from './ingest.js';
 import { benchImport } from './import.js';
 import { benchAnalysisLoad } from './analysisLoad.js';
 import { benchRecord } from './record.js';
+import { benchScale } from './scale.js';
 
 // `npm run bench`: every performance figure of the performance targets in README and DEVELOPERS.md, printed, never asserted.
 // Run on an otherwise idle machine: the figures are wall-clock times.
@@ -13,3 +14,4 @@ await benchIngest();
 await benchImport();
 await benchAnalysisLoad();
 await benchRecord();
+await benchScale();
