@@ -123,7 +123,7 @@ export const CAUTIONS: Record<ProcessKind, Caution[]> = {
   bake: [
     { title: 'Hot oven', text: 'walls, racks and trays are hot; use heat-resistant gloves and let boards cool before handling.' },
     { title: 'Carriers and trays', text: 'tape, reels and plastic trays often tolerate less heat than the parts; check them before loading.' },
-    { title: 'Ventilation', text: 'a first bake can drive out solvent and flux residue; keep the oven vented.' },
+    { title: 'Ventilation', text: 'a first bake drives out moisture and flux residue; keep the oven vented.' },
     ESD,
   ],
   'thermal-cycling': [
