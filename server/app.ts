@@ -3,6 +3,7 @@ import helmet from 'helmet';
 import { existsSync } from 'node:fs';
 import path from 'node:path';
 import type { Logger } from 'pino';
+import type pg from 'pg';
 import type { Database } from './db/connection.js';
 import { authenticate, guardRoutes } from './middleware/auth.js';
 import { jsonBodies } from './middleware/bodies.js';
@@ -44,6 +45,11 @@ export interface AppContext {
   trustProxy?: boolean | number | string[];
   /** Worker threads for capture analyses; one is made when absent. */
   analysis?: AnalysisPool;
+  /**
+   * A read replica (DATABASE_REPLICA_URL) for replay reads: raw pages of captures that no longer
+   * record. Reads of a recording capture stay on the primary (a replica lags).
+   */
+  replica?: pg.Pool;
   /** Live fan-out to watchers; silent when nobody can watch (Supertest). */
   hub?: LiveHub;
   /** Where attachment bytes go (default: a folder under the system's temporary folder). */
@@ -103,7 +109,7 @@ export function createApp(ctx: AppContext): Express {
   // The comparison workbench's overlay and exports (issue 12); `/stability` before `/:id`.
   api.use('/captures', workbenchCapturesRouter(ctx.db.pool));
   api.use('/studies', workbenchStudiesRouter());
-  api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub, ctx.analysis ?? new AnalysisPool(ctx.db.url)));
+  api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub, ctx.analysis ?? new AnalysisPool(ctx.db.url), ctx.replica));
   api.use('/comparisons', comparisonsRouter(ctx.db.pool));
   // Review and the record (issue 11): workflow, audit, seals, attachments, outbox.
   const store = ctx.attachmentStore ?? new FolderStore(path.join(os.tmpdir(), `driftbench-attachments-${process.pid}`));

@@ -5,6 +5,8 @@ const Env = z.object({
   HOST: z.string().default('127.0.0.1'),
   PORT: z.coerce.number().int().min(0).max(65535).default(5170),
   DATABASE_URL: z.string().url().optional(),
+  /** A read replica of DATABASE_URL's database: analyses and replay reads are sent there. */
+  DATABASE_REPLICA_URL: z.string().url().optional(),
   PGPORT_LOCAL: z.coerce.number().int().min(1024).max(65535).default(54329),
   JWT_SECRET: z.string().min(32).optional(),
   // The demo lab and its five accounts: on by default in development, off in production unless asked for.
@@ -29,6 +31,7 @@ export interface Config {
   readonly host: string;
   readonly port: number;
   readonly databaseUrl?: string;
+  readonly databaseReplicaUrl?: string;
   readonly localPgPort: number;
   readonly jwtSecret?: string;
   readonly demo: boolean;
@@ -69,6 +72,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     host: e.HOST,
     port: e.PORT,
     databaseUrl: e.DATABASE_URL,
+    databaseReplicaUrl: e.DATABASE_REPLICA_URL,
     localPgPort: e.PGPORT_LOCAL,
     jwtSecret: e.JWT_SECRET,
     demo: e.DRIFTBENCH_DEMO !== undefined ? e.DRIFTBENCH_DEMO === '1' : e.NODE_ENV !== 'production',

@@ -4,7 +4,7 @@ import { fileURLToPath } from 'node:url';
 import { pino, type Logger } from 'pino';
 import { createApp } from './app.js';
 import { prepareDatabase } from './db/prepare.js';
-import type { Database } from './db/connection.js';
+import { openDatabase, type Database } from './db/connection.js';
 import { routeUpgrades, type UpgradeHandler } from './ws/upgrade.js';
 import { createLiveHub } from './ws/live.js';
 import { requireSession } from './ws/sessionGate.js';
@@ -22,6 +22,8 @@ export const PROJECT_ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.
 
 export interface ServerOptions {
   databaseUrl: string;
+  /** A read replica of the database (DATABASE_REPLICA_URL): analyses and replay reads go there. */
+  replicaUrl?: string;
   jwtSecret: string;
   host?: string;
   port?: number;
@@ -69,8 +71,12 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
     const onAir = (await seedDemoStory(db.pool, hub, log)) ?? (await findOnAir());
     if (onAir) stopFeeder = startDemoFeeder(db.pool, hub, onAir, log);
   }
-  const analysis = new AnalysisPool(opts.databaseUrl);
+  // With a replica, the analysis workers read there (each answer says which reading count it
+  // covers), and so do raw pages of finished captures; everything else stays on the primary.
+  const analysis = new AnalysisPool(opts.replicaUrl ?? opts.databaseUrl);
+  const replica = opts.replicaUrl ? openDatabase(opts.replicaUrl, { poolMax: 4 }) : undefined;
   const app = createApp({
+    replica: replica?.pool,
     db,
     jwtSecret: opts.jwtSecret,
     log,
@@ -135,6 +141,7 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
       server.closeAllConnections();
       await new Promise<void>((resolve) => server.close(() => resolve()));
       await db.close();
+      await replica?.close();
     },
   };
 }
@@ -146,6 +153,7 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
 export function configuredServerOptions(config: Config, databaseUrl: string, log: Logger): ServerOptions {
   return {
     databaseUrl,
+    replicaUrl: config.databaseReplicaUrl,
     jwtSecret: resolveJwtSecret(config.jwtSecret, path.resolve(PROJECT_ROOT, config.dataDir)),
     host: config.host,
     port: config.port,

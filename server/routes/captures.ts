@@ -29,7 +29,8 @@ const ListQuery = z.object({
   state: CaptureState.optional(),
 }).extend(pageQuery(LIST_LIMITS.captures.max).shape);
 
-export function capturesRouter(pool: pg.Pool, hub: LiveHub, analysis: AnalysisPool): Router {
+/** `replica`: a read replica for raw pages of captures that no longer record (replay, export pages). */
+export function capturesRouter(pool: pg.Pool, hub: LiveHub, analysis: AnalysisPool, replica?: pg.Pool): Router {
   const r = Router();
   r.get('/', authorize('read'), async (req, res) => {
     const q = parse(ListQuery, req.query, 'query');
@@ -69,7 +70,10 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub, analysis: AnalysisPo
     if (!q.maxPoints) {
       const from = q.from ?? 0;
       const to = Math.min(q.to ?? c.highestSeq, c.highestSeq, from + MAX_RAW_READINGS - 1);
-      const out = await readSeries(pool, id, { from, to, finished: !isRecording(c.state), highestSeq: c.highestSeq });
+      // A finished capture never changes, so a replica's copy is the same; a recording one is read
+      // from the primary, where its newest readings are.
+      const source = replica && !isRecording(c.state) ? replica : pool;
+      const out = await readSeries(source, id, { from, to, finished: !isRecording(c.state), highestSeq: c.highestSeq });
       res.json({ ...out, nextFrom: to < Math.min(q.to ?? c.highestSeq, c.highestSeq) ? to + 1 : null });
       return;
     }
