@@ -22,6 +22,10 @@ export const PERMISSIONS = {
   'attachments:upload': ['admin', 'lead', 'engineer', 'technician'],
   'captures:run': ['admin', 'lead', 'engineer', 'technician'],
   'captures:tag': ['admin', 'lead', 'engineer'],
+  /** Add readings to and finish captures someone else started (the operator may always). */
+  'captures:write-any': ['admin', 'lead'],
+  /** Delete any attachment (the uploader may always delete their own). */
+  'attachments:delete-any': ['lead'],
   read: ['admin', 'lead', 'engineer', 'technician', 'viewer'],
 } as const satisfies Record<string, readonly Role[]>;
 export type Permission = keyof typeof PERMISSIONS;

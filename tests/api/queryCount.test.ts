@@ -25,7 +25,7 @@ async function queriesOf(run: () => Promise<unknown>): Promise<number> {
 
 beforeAll(async () => {
   t = await createTestApp();
-  const options = t.db.sequelize.options as { logging: unknown };
+  const options = (t.db.sequelize as unknown as { options: { logging: unknown } }).options;
   options.logging = () => {
     if (counting) count++;
   };
