@@ -3,7 +3,7 @@ import os from 'node:os';
 import { mkdtempSync, readFileSync } from 'node:fs';
 import pg from 'pg';
 import { PROJECT_ROOT } from '../../server/index.js';
-import { startBenchServer, type BenchServer } from './server.js';
+import { benchFetch, startBenchServer, type BenchServer } from './server.js';
 
 // Issue 10, item 2: a technician's ingest latency while four viewers request the analysis of a
 // 1,000,000-reading open capture in a loop. Target: ingest p95 under 50 ms. The server runs in
@@ -48,7 +48,7 @@ export async function benchAnalysisLoad(opts: { baselineS?: number; loadS?: numb
       while (performance.now() < until) {
         const readings = Array.from({ length: 10 }, () => ({ seq, t: seq * 0.01, value: 16e6 + Math.random() * 1e-5, _: seq++ })).map(({ _, ...r }) => r);
         const t0 = performance.now();
-        const res = await fetch(`${base}/api/captures/${id}/readings`, { method: 'POST', headers: tech, body: JSON.stringify({ readings }) });
+        const res = await benchFetch(`${base}/api/captures/${id}/readings`, { method: 'POST', headers: tech, body: JSON.stringify({ readings }) });
         await res.arrayBuffer();
         if (!res.ok) throw new Error(`ingest failed: ${res.status}`);
         const ms = performance.now() - t0;

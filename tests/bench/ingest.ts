@@ -8,7 +8,7 @@ import { socketProtocols } from '../../shared/protocol/socketAuth.js';
 import { PROJECT_ROOT } from '../../server/index.js';
 import { ReadingUploader, MemoryPendingStore } from '../../src/api/uploader.js';
 import type { IngestResult } from '../../shared/protocol/captures.js';
-import { startBenchServer, type BenchServer } from './server.js';
+import { benchFetch, startBenchServer, type BenchServer } from './server.js';
 
 // Ingest, decimated-read and live-path figures against a real PostgreSQL and a real server
 // process (the load generator runs in this process, the server in another).
@@ -37,7 +37,7 @@ export async function benchIngest(): Promise<void> {
     await Promise.all(
       ids.map(async (id, k) => {
         for (const body of bodies[k]) {
-          const res = await fetch(`${base}/api/captures/${id}/readings`, { method: 'POST', headers, body });
+          const res = await benchFetch(`${base}/api/captures/${id}/readings`, { method: 'POST', headers, body });
           if (!res.ok) throw new Error(`ingest failed: ${res.status}`);
           await res.arrayBuffer();
         }
@@ -118,7 +118,7 @@ export async function benchIngest(): Promise<void> {
       store: new MemoryPendingStore(),
       flushMs: 50,
       send: async (id, readings) => {
-        const res = await fetch(`${base}/api/captures/${id}/readings`, { method: 'POST', headers, body: JSON.stringify({ readings }) });
+        const res = await benchFetch(`${base}/api/captures/${id}/readings`, { method: 'POST', headers, body: JSON.stringify({ readings }) });
         if (!res.ok) throw new Error(`HTTP ${res.status}`);
         return (await res.json()) as IngestResult;
       },
@@ -146,7 +146,7 @@ export async function benchIngest(): Promise<void> {
           store: new MemoryPendingStore(),
           flushMs: 100,
           send: async (cid, readings) => {
-            const res = await fetch(`${base}/api/captures/${cid}/readings`, { method: 'POST', headers, body: JSON.stringify({ readings }) });
+            const res = await benchFetch(`${base}/api/captures/${cid}/readings`, { method: 'POST', headers, body: JSON.stringify({ readings }) });
             if (!res.ok) throw new Error(`HTTP ${res.status}`);
             return (await res.json()) as IngestResult;
           },

@@ -12,7 +12,7 @@ import { oadev, octaveMs, stability } from '../../shared/analysis/index.js';
 import { STABILITY_KINDS } from '../../shared/protocol/captures.js';
 import { whiteFm } from '../helpers/random.js';
 import { encodeReadingsF64, READINGS_F64_TYPE } from '../../shared/protocol/readingsBinary.js';
-import { startBenchServer, type BenchServer } from './server.js';
+import { benchFetch, startBenchServer, type BenchServer } from './server.js';
 
 // Issue 15's figures, each beside its target and the anchor measured in the same run:
 // one stream against COPY, decimated reads of an open and a finished 1,000,000-reading capture,
@@ -38,7 +38,7 @@ async function ingestOneStream(bench: BenchServer, id: number, n: number, batch:
   }
   const t0 = performance.now();
   for (const body of bodies) {
-    const res = await fetch(`${bench.base}/api/captures/${id}/readings`, { method: 'POST', headers, body });
+    const res = await benchFetch(`${bench.base}/api/captures/${id}/readings`, { method: 'POST', headers, body });
     if (!res.ok) throw new Error(`ingest answered ${res.status}: ${await res.text()}`);
     await res.arrayBuffer();
   }

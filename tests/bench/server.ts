@@ -142,3 +142,20 @@ export async function startBenchServer(opts: { env?: Record<string, string> } = 
     },
   };
 }
+
+/**
+ * fetch that sends a request again when the connection closed under it: a keep-alive socket the
+ * server closed after its 5 s idle timeout just as the client reused it (seen here when the load
+ * generator's own loop was busy preparing bodies). Only for idempotent requests — a readings
+ * batch is one (the server keeps each seq once), a finish is one.
+ */
+export async function benchFetch(url: string, init: RequestInit, attempts = 3): Promise<Response> {
+  for (let i = 1; ; i++) {
+    try {
+      return await fetch(url, init);
+    } catch (err) {
+      const code = (err as { cause?: { code?: string } }).cause?.code;
+      if (i >= attempts || !(code === 'UND_ERR_SOCKET' || code === 'ECONNRESET')) throw err;
+    }
+  }
+}
