@@ -3,6 +3,7 @@
  *
  *   /sim/counter?mode=talk&preset=tf-32k&checkpoint=2&accel=100   a frequency counter
  *   /sim/spi-bridge?orientation=edge&noise=1.5                      an SPI bridge + accelerometer
+ *   /sim/thermometer                                                the bench thermometer (MEAS:TEMP?)
  *
  * Every socket is an independent device session: binary frames carry exactly the bytes a
  * serial line would (text frames are accepted too, as their UTF-8 bytes). Bad parameters close
@@ -16,9 +17,10 @@ import { type Clock, realClock } from './clock';
 import { SimCounter } from './counter';
 import { SimAccelerometer } from './accelerometer';
 import { SimSpiBridge } from './spiBridge';
+import { SimThermometer } from './thermometer';
 import { accelConfigFromQuery, counterConfigFromQuery } from './params';
 
-export const SIM_PATHS = ['/sim/counter', '/sim/spi-bridge'] as const;
+export const SIM_PATHS = ['/sim/counter', '/sim/spi-bridge', '/sim/thermometer'] as const;
 export type SimPath = (typeof SIM_PATHS)[number];
 
 /** Largest frame a simulator socket accepts (bytes). */
@@ -97,6 +99,10 @@ export function createSimulatorHub(opts: SimulatorHubOptions = {}): SimulatorHub
       counter.onData = send;
       counter.start();
       device = counter;
+    } else if (path === '/sim/thermometer') {
+      const thermometer = new SimThermometer(makeClock());
+      thermometer.onData = send;
+      device = thermometer;
     } else {
       const r = accelConfigFromQuery(query);
       if (!r.ok) return ws.close(1008, reason(`bad spi-bridge parameters: ${r.message}`));

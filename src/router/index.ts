@@ -75,6 +75,20 @@ export const routes: RouteRecordRaw[] = [
     meta: { title: 'Lab' },
   },
   {
+    path: '/lab/instruments/:id(\\d+)',
+    name: 'instrument',
+    component: () => import('../views/InstrumentView.vue'),
+    props: (route) => ({ id: Number(route.params.id) }),
+    meta: { title: 'Instrument' },
+  },
+  {
+    path: '/lab/references/:id(\\d+)',
+    name: 'reference',
+    component: () => import('../views/ReferenceView.vue'),
+    props: (route) => ({ id: Number(route.params.id) }),
+    meta: { title: 'Reference' },
+  },
+  {
     path: '/bench',
     name: 'bench',
     component: () => import('../views/BenchView.vue'),

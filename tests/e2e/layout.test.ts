@@ -22,8 +22,11 @@ interface Visit {
 }
 let paths: Visit[] = [];
 let ids = { later: 0, open: 0 };
-/** The README's phone screenshots. */
-const SCREENSHOTS = path.resolve('docs/screenshots');
+/**
+ * Candidates for the README's phone screenshots: written to test-results/ with the rest, never
+ * into docs/ (a test run must not change the repository); a chosen one is copied by hand.
+ */
+const SCREENSHOTS = RESULTS;
 
 /** The app's route paths with their numeric parameters filled in from the seeded lab. */
 function routePaths(ids: { study: number; capture: number; open: number }): Visit[] {
@@ -126,14 +129,14 @@ describe('layout on phones and tablets', () => {
       // For the README: a verdict read on a phone, a capture watched on a phone, and the menu.
       await settle(page, `${server.url}/captures/${ids.later}`);
       await page.locator('[data-verdict]').first().waitFor();
-      await page.screenshot({ path: path.join(SCREENSHOTS, 'phone-verdict.png') });
+      await page.screenshot({ path: path.join(SCREENSHOTS, 'readme-phone-verdict.png') });
       await settle(page, `${server.url}/captures/${ids.open}/live`);
       await page.locator('[data-testid="watch-state"]').waitFor();
-      await page.screenshot({ path: path.join(SCREENSHOTS, 'phone-watch.png') });
+      await page.screenshot({ path: path.join(SCREENSHOTS, 'readme-phone-watch.png') });
       await page.getByRole('button', { name: 'Menu' }).click();
       await page.locator('.app-menu nav[aria-label="Main"]').waitFor();
       await page.waitForTimeout(400);
-      await page.screenshot({ path: path.join(SCREENSHOTS, 'phone-menu.png') });
+      await page.screenshot({ path: path.join(SCREENSHOTS, 'readme-phone-menu.png') });
     }
     expect(errors.filter((e) => !/status of 40[34]/.test(e))).toEqual([]);
     await page.context().close();
