@@ -9,6 +9,7 @@ import * as m0021 from './20261202-0021-seal-tamper-flag.js';
 import * as m0050 from './20261202-0050-simulated-captures.js';
 import * as m0051 from './20261202-0051-capture-target.js';
 import * as m0150 from './20261202-0150-capture-abort-stall.js';
+import * as m0151 from './20261202-0151-capture-state-constraint-name.js';
 import * as m0100 from './20261202-0100-check-constraints.js';
 import * as m0120 from './20261202-0120-calibration-records.js';
 import * as m0110 from './20261202-0110-live-reading-tiles.js';
@@ -27,6 +28,7 @@ const MIGRATIONS: Array<[string, Step]> = [
   ['20261202-0050-simulated-captures', m0050],
   ['20261202-0051-capture-target', m0051],
   ['20261202-0150-capture-abort-stall', m0150],
+  ['20261202-0151-capture-state-constraint-name', m0151],
   ['20261202-0100-check-constraints', m0100],
   ['20261202-0120-calibration-records', m0120],
   ['20261202-0110-live-reading-tiles', m0110],

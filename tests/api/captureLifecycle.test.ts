@@ -119,6 +119,16 @@ describe('aborting a capture', () => {
 });
 
 describe('the stall sweep', () => {
+  it('is allowed by the capture states’ CHECK constraint, which still refuses unknown states', async () => {
+    const { rows } = await t.db.pool.query<{ def: string }>(
+      "SELECT pg_get_constraintdef(oid) AS def FROM pg_constraint WHERE conrelid = 'captures'::regclass AND conname = 'captures_state_allowed'",
+    );
+    expect(rows).toHaveLength(1);
+    for (const s of ['open', 'stalled', 'finished', 'aborted']) expect(rows[0].def).toContain(`'${s}'`);
+    const id = await newCapture('technician', ids.checkpoints[1]);
+    await expect(t.db.pool.query("UPDATE captures SET state = 'paused' WHERE id = $1", [id])).rejects.toMatchObject({ code: '23514' });
+  });
+
   it('waits max(gate × 100, 10 min): 10 min for a 1 s gate, 100 × gate beyond that', () => {
     expect(stallAfterMs(1)).toBe(600_000); // issue 13: at least 10 minutes
     expect(stallAfterMs(10)).toBe(1_000_000); // issue 13: 100 gate times of 10 s
