@@ -26,6 +26,7 @@ import { silentHub, type LiveHub } from './ws/live.js';
 import { auditRouter, reviewRouter, sealRouter } from './routes/review.js';
 import { attachmentsRouter, ownerAttachmentsRouter } from './routes/attachments.js';
 import { outboxRouter } from './routes/outbox.js';
+import { captureBaselineRouter, tiltChecksRouter } from './routes/accelerometer.js';
 import { captureEvidenceRouter, checkpointsRouter, dutDeleteRouter, studyEditRouter } from './routes/studyEdit.js';
 import { FolderStore, type BlobStore } from './services/storage.js';
 import { DEFAULT_UPLOAD_MAX_BYTES, DEFAULT_UPLOAD_TYPES, type UploadPolicy } from './services/attachments.js';
@@ -99,6 +100,8 @@ export function createApp(ctx: AppContext): Express {
   api.use(labRouter());
   api.use('/references', referencesRouter());
   api.use('/duts', dutsRouter());
+  api.use('/duts', tiltChecksRouter(ctx.db.pool));
+  api.use('/captures', captureBaselineRouter());
   // Editing with history (issue 13): edit, reorder, archive, delete; exclusions and cell choices.
   api.use('/studies', studyEditRouter());
   api.use('/checkpoints', checkpointsRouter());

@@ -8,12 +8,13 @@ import * as m0020 from './20261202-0020-review-and-record.js';
 import * as m0021 from './20261202-0021-seal-tamper-flag.js';
 import * as m0050 from './20261202-0050-simulated-captures.js';
 import * as m0051 from './20261202-0051-capture-target.js';
+import * as m0100 from './20261202-0100-check-constraints.js';
+import * as m0110 from './20261202-0110-live-reading-tiles.js';
+import * as m0120 from './20261202-0120-calibration-records.js';
+import * as m0130 from './20261202-0130-dut-quantities-and-tilt-checks.js';
+import * as m0140 from './20261202-0140-process-kinds-and-editing.js';
 import * as m0150 from './20261202-0150-capture-abort-stall.js';
 import * as m0151 from './20261202-0151-capture-state-constraint-name.js';
-import * as m0100 from './20261202-0100-check-constraints.js';
-import * as m0120 from './20261202-0120-calibration-records.js';
-import * as m0110 from './20261202-0110-live-reading-tiles.js';
-import * as m0140 from './20261202-0140-process-kinds-and-editing.js';
 
 type Step = { up(p: { context: QueryInterface }): Promise<void>; down(p: { context: QueryInterface }): Promise<void> };
 
@@ -27,12 +28,13 @@ const MIGRATIONS: Array<[string, Step]> = [
   ['20261202-0021-seal-tamper-flag', m0021],
   ['20261202-0050-simulated-captures', m0050],
   ['20261202-0051-capture-target', m0051],
+  ['20261202-0100-check-constraints', m0100],
+  ['20261202-0110-live-reading-tiles', m0110],
+  ['20261202-0120-calibration-records', m0120],
+  ['20261202-0130-dut-quantities-and-tilt-checks', m0130],
+  ['20261202-0140-process-kinds-and-editing', m0140],
   ['20261202-0150-capture-abort-stall', m0150],
   ['20261202-0151-capture-state-constraint-name', m0151],
-  ['20261202-0100-check-constraints', m0100],
-  ['20261202-0120-calibration-records', m0120],
-  ['20261202-0110-live-reading-tiles', m0110],
-  ['20261202-0140-process-kinds-and-editing', m0140],
 ];
 
 /** Builds the migrator for a Sequelize connection (state kept in the `sequelize_meta` table). */

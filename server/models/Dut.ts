@@ -1,5 +1,6 @@
 import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes, type NonAttribute } from 'sequelize';
 import type { Study } from './Study.js';
+import { quantityLimitsView, type QuantityKey, type QuantityLimit } from '../../shared/protocol/dutQuantities.js';
 
 /**
  * A tuning fork's parabola when the DUT gives none (common practice, no source; makers'
@@ -29,6 +30,8 @@ export class Dut extends Model<InferAttributes<Dut>, InferCreationAttributes<Dut
   declare limitUnit: 'ppm' | 'ppb' | 'Hz' | 'mg' | '%';
   declare position: string | null;
   declare serial: string | null;
+  /** Limits of the kind's quantities beyond the primary one (shared/protocol/dutQuantities.ts). */
+  declare quantityLimits: Partial<Record<QuantityKey, QuantityLimit>> | null;
   /** Archived: kept with its captures, out of the matrix and the bench (null while in use). */
   declare archivedAt: Date | null;
   declare createdAt: CreationOptional<Date>;
@@ -51,6 +54,7 @@ export class Dut extends Model<InferAttributes<Dut>, InferCreationAttributes<Dut
       ...(this.kind === 'tuning-fork' ? { tuningFork: this.tuningFork() } : {}),
       position: this.position,
       serial: this.serial,
+      limits: quantityLimitsView(this.kind, { limit: this.limitValue, limitLow: this.limitLow, limitHigh: this.limitHigh, limitUnit: this.limitUnit }, this.quantityLimits),
       archived: this.archivedAt != null,
     };
   }
@@ -86,6 +90,7 @@ export class Dut extends Model<InferAttributes<Dut>, InferCreationAttributes<Dut
         limitUnit: { type: DataTypes.STRING(8), allowNull: false },
         position: DataTypes.STRING(60),
         serial: DataTypes.STRING(120),
+        quantityLimits: DataTypes.JSONB,
         archivedAt: DataTypes.DATE,
         createdAt: DataTypes.DATE,
         updatedAt: DataTypes.DATE,

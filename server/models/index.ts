@@ -10,8 +10,9 @@ import { AuditEvent } from './AuditEvent.js';
 import { Attachment } from './Attachment.js';
 import { StudyReview } from './StudyReview.js';
 import { CalibrationRecord } from './CalibrationRecord.js';
+import { TiltCheck } from './TiltCheck.js';
 
-export { User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview, CalibrationRecord };
+export { User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview, CalibrationRecord, TiltCheck };
 
 let initialised: Sequelize | undefined;
 
@@ -20,7 +21,7 @@ export function initModels(sequelize: Sequelize): void {
   if (initialised === sequelize) return;
   if (initialised) throw new Error('models are already bound to another connection');
   initialised = sequelize;
-  for (const m of [User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview, CalibrationRecord]) m.initModel(sequelize);
+  for (const m of [User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview, CalibrationRecord, TiltCheck]) m.initModel(sequelize);
 
   Study.hasMany(Checkpoint, { as: 'checkpoints', foreignKey: 'studyId' });
   Checkpoint.belongsTo(Study, { as: 'study', foreignKey: 'studyId' });

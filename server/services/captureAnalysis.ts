@@ -13,6 +13,10 @@ import {
   tuningForkShift,
   hzPerUnit,
   AnalysisError,
+  accelerationBudget,
+  zOrientation,
+  DEFAULT_ACCEL_LSB_MG,
+  DEFAULT_ORIENTATION_ERROR_DEG,
   type DriftModel,
   type DriftRemoval,
   type StabilityKind,
@@ -35,9 +39,10 @@ export const TUNING_FORK_T0 = TUNING_FORK_DEFAULTS.T0;
 const ASSUMED_COUNTER = { kind: 'reciprocal' as const, tRes: 100e-12 };
 /**
  * 2: k from ν_eff, counter type, reference ageing, drift removal and its budget line (issue 8).
+ * 3: an acceleration capture's own budget (scatter, the sensor's LSB, orientation; issue 13).
  * Stored summaries of an older version are recomputed when read (comparisons.summaryOf).
  */
-export const SUMMARY_VERSION = 2;
+export const SUMMARY_VERSION = 3;
 
 /** The readings of a capture ready for analysis: reference-corrected values and fractional frequency. */
 export interface Prepared {
@@ -352,6 +357,10 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?:
     // The statistics are already reference-corrected (prepare); the budget's own mean would
     // apply the correction a second time. Its uncertainty components are what we need.
     uncertainty = { ...budget, mean: p.stats.mean };
+  }
+  if (c.quantity === 'acceleration' && c.unit === 'mg' && p.stats) {
+    // An acceleration capture's own budget: the scatter, the sensor's LSB and the board's pose.
+    uncertainty = accelerationBudget(p.stats, zOrientation(c.orientation), { lsbMg: DEFAULT_ACCEL_LSB_MG, orientationErrorDeg: DEFAULT_ORIENTATION_ERROR_DEG });
   }
   const nominal = c.nominal ?? 0;
   const offsetPpm = c.quantity === 'frequency' && p.stats && nominal > 0 ? ((p.stats.mean - nominal) / nominal) * 1e6 : null;

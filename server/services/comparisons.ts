@@ -4,6 +4,8 @@ import { Capture, Checkpoint, Dut, Reference, Study } from '../models/index.js';
 import { AppError, NotFoundError, ValidationError } from '../errors.js';
 import { conditionsBetween } from './conditions.js';
 import { loadComparisonInputs, type ComparisonInputs } from './comparisonInputs.js';
+import { baselineOfOrientation, needsSameOrientation, orientationWord } from './baseline.js';
+import { tiltCellsFor } from './tiltChecks.js';
 import { chosenCells, representatives } from './cells.js';
 import {
   LAB_AMBIENT_RANGE_C,
@@ -123,6 +125,13 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
   }
   const dut = loaded?.duts.get(before.dutId) ?? (await Dut.findByPk(before.dutId));
   if (!dut) throw new NotFoundError('DUT');
+  if ((needsSameOrientation(before) || needsSameOrientation(after)) && (before.orientation ?? null) !== (after.orientation ?? null)) {
+    throw new AppError(
+      422,
+      'orientation-mismatch',
+      `An acceleration capture is compared only with one of the same orientation: before ${orientationWord(before.orientation)}, after ${orientationWord(after.orientation)}.`,
+    );
+  }
   const [sb, sa] = await Promise.all([summaryOf(pool, before, dut), summaryOf(pool, after, dut)]);
   if (!sb.stats || !sa.stats) throw new AppError(422, 'not-enough-readings', 'Each capture needs at least two usable readings.');
 
@@ -290,7 +299,8 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
   const baselineId = checkpoints[0]?.id;
   const rows = [];
   for (const dut of duts) {
-    const base = baselineId ? latest.get(`${dut.id}:${baselineId}`) : undefined;
+    const rowBase = baselineId ? latest.get(`${dut.id}:${baselineId}`) : undefined;
+    const baseCandidates = captures.filter((x) => x.dutId === dut.id && x.checkpointId === baselineId);
     const cells = [];
     for (const cp of checkpoints) {
       const c = latest.get(`${dut.id}:${cp.id}`);
@@ -300,6 +310,12 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
       }
       const s = c.summary as CaptureSummary | null;
       const capture = { id: c.id, readingCount: c.readingCount, ambientC: c.ambientC, mean: s?.stats?.mean ?? null, offsetPpm: s?.offsetPpm ?? null, simulated: c.simulated ?? false, sealBroken: c.sealBrokenAt != null, chosen: cellOf.get(`${dut.id}:${cp.id}`)?.chosen ?? false };
+      // Acceleration is compared only with a baseline of the same orientation (services/baseline.ts).
+      const { base, problem: orientationProblem } = baselineOfOrientation(c, rowBase, baseCandidates);
+      if (orientationProblem && cp.id !== baselineId) {
+        cells.push({ checkpointId: cp.id, capture, comparison: null, problem: orientationProblem });
+        continue;
+      }
       let comparison = null;
       if (base && base.id !== c.id && s?.stats && (base.summary as CaptureSummary | null)?.stats) {
         // (Summaries stored by an older version are recomputed inside compareCaptures.)
@@ -334,7 +350,9 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
       }
       cells.push({ checkpointId: cp.id, capture, comparison });
     }
-    rows.push({ dut: dut.toPublic(), cells });
+    // An accelerometer's tilt checks: the DUT's result per checkpoint and its change per axis (other kinds' cells carry none).
+    const tilt = await tiltCellsFor(dut, checkpoints.map((x) => x.id));
+    rows.push({ dut: dut.toPublic(), cells: dut.kind === 'accelerometer' ? cells.map((cell) => ({ ...cell, tiltCheck: tilt.get(cell.checkpointId) ?? null })) : cells });
   }
   return { studyId, checkpoints: checkpoints.map((c) => c.toPublic()), rows };
 }

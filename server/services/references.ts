@@ -3,6 +3,7 @@ import { AppError, NotFoundError, ValidationError } from '../errors.js';
 import { audit } from './audit.js';
 import { assertStudyWritable } from './studyLock.js';
 import { publicReference } from './lab.js';
+import { applyQuantityLimits } from './dutLimits.js';
 import type { ReferenceCreate, ReferencePatch, DutPatch } from '../../shared/protocol/uncertainty.js';
 
 const REFERENCE_FIELDS = [
@@ -86,6 +87,7 @@ export async function updateDut(id: number, patch: DutPatch, actorId: number) {
   for (const key of DUT_FIELDS) if (patch[key] !== undefined) dut.set(key, patch[key]);
   // Archiving keeps the DUT and its captures but takes it out of the matrix and the bench.
   if (patch.archived !== undefined) dut.archivedAt = patch.archived ? (dut.archivedAt ?? new Date()) : null;
+  applyQuantityLimits(dut, patch.limits);
   const limitGiven = patch.limit !== undefined || patch.limitLow !== undefined || patch.limitHigh !== undefined;
   if (limitGiven) {
     if (patch.limit != null) {

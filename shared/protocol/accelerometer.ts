@@ -28,6 +28,8 @@ export const TiltCheckCreate = z.strictObject({
   orientationErrorDeg: z.number().finite().min(0).max(45).optional(),
 });
 export type TiltCheckCreate = z.infer<typeof TiltCheckCreate>;
+/** The body as a client sends it (axis may be left to its default). */
+export type TiltCheckBody = z.input<typeof TiltCheckCreate>;
 
 /** One budget line as stored with a tilt check (the BudgetTable shape; ν = ∞ travels as null). */
 export const TiltBudgetLine = z.object({

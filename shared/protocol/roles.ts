@@ -81,6 +81,10 @@ export const ROUTES = {
   'POST /api/references/:id/reinstate': 'lab:manage',
   'POST /api/references/:id/lab-default': 'lab:manage',
   'PATCH /api/duts/:id': 'studies:plan',
+  // Accelerometers (issue 13): the tilt check's result is recorded by whoever runs the bench.
+  'POST /api/duts/:id/tilt-checks': 'captures:run',
+  'GET /api/duts/:id/tilt-checks': 'read',
+  'GET /api/captures/:id/baseline': 'read',
   'PATCH /api/studies/:id/settings': 'studies:plan',
   // Editing with history (issue 13): planners edit, reorder, archive and delete; a lead rules on evidence.
   'PATCH /api/studies/:id': 'studies:plan',

@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { DutQuantityLimits } from './dutQuantities.js';
 
 /** How a counter measures (shared/analysis/counter.ts). */
 export const COUNTER_TYPES = ['gated', 'reciprocal', 'time-interval'] as const;
@@ -55,6 +56,8 @@ export const DutPatch = z
     serial: z.string().trim().max(120).nullable().optional(),
     ...DutLimitFields,
     ...TuningForkFields,
+    /** Limits per quantity of the DUT's kind (shared/protocol/dutQuantities.ts); checked against the kind by the server. */
+    limits: DutQuantityLimits.optional(),
     /** Archive (true) or restore (false): an archived DUT leaves the matrix, its captures stay. */
     archived: z.boolean().optional(),
   })

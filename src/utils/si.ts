@@ -15,6 +15,9 @@ const PREFIXES: Array<[number, string]> = [
   [1e-12, 'p'],
 ];
 
+/** Units that are never given an SI prefix: already prefixed, relative, or counts. */
+const UNPREFIXED = new Set(['mg', 'mV', 'µV', 'mA', 'ms', 'µs', 'ns', '%', 'ppm', 'ppb', '°C', 'count', 'counts']);
+
 /** Trims trailing zeros of a fixed-point text: "1.500" → "1.5", "2.000" → "2". */
 function trimZeros(text: string): string {
   return text.includes('.') ? text.replace(/\.?0+$/, '') : text;
@@ -33,7 +36,10 @@ export function formatSi(value: number | null | undefined, unit: string, digits 
   if (value === null || value === undefined || !Number.isFinite(value)) return '—';
   if (value === 0) return `0 ${unit}`;
   const abs = Math.abs(value);
-  const [factor, prefix] = PREFIXES.find(([f]) => abs >= f * 0.9995) ?? PREFIXES[PREFIXES.length - 1];
+  // A unit that already carries a prefix (mg, mV) or takes none (%, ppm) keeps its own scale: no "mmg".
+  const [factor, prefix] = UNPREFIXED.has(unit)
+    ? PREFIXES[3]
+    : (PREFIXES.find(([f]) => abs >= f * 0.9995) ?? PREFIXES[PREFIXES.length - 1]);
   const scaled = value / factor;
   const decimals = Math.max(0, digits - 1 - Math.floor(Math.log10(Math.abs(scaled))));
   return `${minus(trimZeros(scaled.toFixed(decimals)))} ${prefix}${unit}`;

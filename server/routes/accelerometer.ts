@@ -1,0 +1,41 @@
+import { Router } from 'express';
+import type pg from 'pg';
+import { parse } from '../middleware/validate.js';
+import { authorize, currentUser } from '../middleware/auth.js';
+import { IdParam } from '../../shared/protocol/api.js';
+import { TiltCheckCreate } from '../../shared/protocol/accelerometer.js';
+import { listTiltChecks, recordTiltCheck } from '../services/tiltChecks.js';
+import { captureBaseline } from '../services/baseline.js';
+
+/** POST/GET /api/duts/:id/tilt-checks: an accelerometer's tilt-check results (mounted at /duts). */
+export function tiltChecksRouter(pool: pg.Pool): Router {
+  const r = Router();
+  r.post('/:id/tilt-checks', authorize('captures:run'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res
+      .status(201)
+      .json({
+        tiltCheck: await recordTiltCheck(
+          pool,
+          id,
+          parse(TiltCheckCreate, req.body),
+          currentUser(req).id,
+        ),
+      });
+  });
+  r.get('/:id/tilt-checks', authorize('read'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json({ tiltChecks: await listTiltChecks(id) });
+  });
+  return r;
+}
+
+/** GET /api/captures/:id/baseline: what a capture is compared with (same orientation for acceleration). */
+export function captureBaselineRouter(): Router {
+  const r = Router();
+  r.get('/:id/baseline', authorize('read'), async (req, res) => {
+    const { id } = parse(IdParam, req.params, 'id');
+    res.json(await captureBaseline(id));
+  });
+  return r;
+}

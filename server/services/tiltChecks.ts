@@ -1,0 +1,254 @@
+import type pg from 'pg';
+import { Capture, Checkpoint, Dut, TiltCheck } from '../models/index.js';
+import { AppError, NotFoundError, ValidationError } from '../errors.js';
+import { audit } from './audit.js';
+import { assertStudyWritable } from './studyLock.js';
+import { summaryOf } from './comparisons.js';
+import {
+  AnalysisError,
+  compareTiltChecks,
+  DEFAULT_ACCEL_LSB_MG,
+  DEFAULT_ORIENTATION_ERROR_DEG,
+  G_N,
+  tiltCheckAxis,
+  type QuantityLimit,
+  type TiltCheckAxis,
+} from '../../shared/analysis/index.js';
+import type {
+  Axis,
+  MatrixTiltCell,
+  TiltChange,
+  TiltCheckCreate,
+} from '../../shared/protocol/accelerometer.js';
+import type { TiltQuantityChange } from '../../shared/analysis/tiltCheck.js';
+
+const ROLE: Record<
+  'flatCaptureId' | 'invertedCaptureId' | 'onEdgeCaptureId',
+  'flat' | 'inverted' | 'on-edge'
+> = {
+  flatCaptureId: 'flat',
+  invertedCaptureId: 'inverted',
+  onEdgeCaptureId: 'on-edge',
+};
+
+/**
+ * Records a guided tilt check as the DUT's result at a checkpoint: the captures must be this
+ * accelerometer's finished acceleration captures (in mg) at that checkpoint, each in the
+ * orientation of its role; the result is formed from their stored statistics (tiltCheckAxis) and
+ * stored with its budgets. Refused while the study is locked; audited.
+ */
+export async function recordTiltCheck(
+  pool: pg.Pool,
+  dutId: number,
+  input: TiltCheckCreate,
+  actorId: number,
+) {
+  const dut = await Dut.findByPk(dutId);
+  if (!dut) throw new NotFoundError('DUT');
+  if (dut.kind !== 'accelerometer') {
+    throw new AppError(
+      409,
+      'not-an-accelerometer',
+      `A tilt check belongs to an accelerometer; this DUT is a ${dut.kind}.`,
+    );
+  }
+  const checkpoint = await Checkpoint.findByPk(input.checkpointId);
+  if (!checkpoint || checkpoint.studyId !== dut.studyId) {
+    throw new ValidationError("checkpointId: is not a checkpoint of this DUT's study", [
+      { path: 'checkpointId', message: "is not a checkpoint of this DUT's study" },
+    ]);
+  }
+  const stats: Partial<
+    Record<'flat' | 'inverted' | 'on-edge', { n: number; mean: number; sd: number }>
+  > = {};
+  for (const field of ['flatCaptureId', 'invertedCaptureId', 'onEdgeCaptureId'] as const) {
+    const id = input[field];
+    if (id == null) continue;
+    const c = await Capture.findByPk(id);
+    const fail = (message: string) =>
+      new ValidationError(`${field}: ${message}`, [{ path: field, message }]);
+    if (!c || c.dutId !== dutId) throw fail('is not a capture of this DUT');
+    if (c.checkpointId !== input.checkpointId) throw fail('was taken at another checkpoint');
+    if (c.quantity !== 'acceleration' || c.unit !== 'mg')
+      throw fail('is not an acceleration capture in mg');
+    if (c.orientation !== ROLE[field])
+      throw fail(`was recorded ${c.orientation ?? 'without an orientation'}, not ${ROLE[field]}`);
+    if (c.state !== 'finished') throw fail('is not finished');
+    const s = await summaryOf(pool, c, dut);
+    if (!s.stats || s.stats.n < 2) throw fail('has fewer than two usable readings');
+    stats[ROLE[field]] = { n: s.stats.n, mean: s.stats.mean, sd: s.stats.sd };
+  }
+  const setup = {
+    localGravity: input.localGravity ?? G_N,
+    lsbMg: input.lsbMg ?? DEFAULT_ACCEL_LSB_MG,
+    orientationErrorDeg: input.orientationErrorDeg ?? DEFAULT_ORIENTATION_ERROR_DEG,
+  };
+  let result: TiltCheckAxis;
+  try {
+    result = tiltCheckAxis({
+      flat: stats.flat!,
+      inverted: stats.inverted!,
+      onEdge: stats['on-edge'] ?? null,
+      ...setup,
+    });
+  } catch (err) {
+    if (err instanceof AnalysisError) throw new AppError(422, 'tilt-check-not-formed', err.message);
+    throw err;
+  }
+  const row = await Dut.sequelize!.transaction(async (transaction) => {
+    await assertStudyWritable('dut', dutId, 'recording a tilt check', transaction);
+    const created = await TiltCheck.create(
+      {
+        dutId,
+        checkpointId: input.checkpointId,
+        axis: input.axis ?? 'z',
+        flatCaptureId: input.flatCaptureId,
+        invertedCaptureId: input.invertedCaptureId,
+        onEdgeCaptureId: input.onEdgeCaptureId ?? null,
+        ...setup,
+        // JSON has no Infinity: type B lines' ν = ∞ is stored as null, as every budget in the API.
+        result: JSON.parse(JSON.stringify(result)),
+        createdBy: actorId,
+      },
+      { transaction },
+    );
+    await audit(
+      actorId,
+      'tilt-check.create',
+      'dut',
+      dutId,
+      {
+        tiltCheckId: created.id,
+        checkpointId: input.checkpointId,
+        axis: created.axis,
+        offsetMg: result.offsetMg,
+        sensitivityErrorPct: result.sensitivityErrorPct,
+        captures: {
+          flat: input.flatCaptureId,
+          inverted: input.invertedCaptureId,
+          onEdge: input.onEdgeCaptureId ?? null,
+        },
+      },
+      transaction,
+    );
+    return created;
+  });
+  return row.toPublic();
+}
+
+/** Every tilt check of a DUT, oldest first. */
+export async function listTiltChecks(dutId: number) {
+  const dut = await Dut.findByPk(dutId);
+  if (!dut) throw new NotFoundError('DUT');
+  const rows = await TiltCheck.findAll({ where: { dutId }, order: [['id', 'ASC']] });
+  return rows.map((r) => r.toPublic());
+}
+
+/** A stored budget back in the analysis' shape: ν stored as null (JSON) is ∞ again. */
+function revive(r: TiltCheckAxis): TiltCheckAxis {
+  const fix = <
+    T extends { components: Array<{ dof: number | null }>; effectiveDof: number | null },
+  >(
+    b: T,
+  ): T => ({
+    ...b,
+    effectiveDof: b.effectiveDof ?? Infinity,
+    components: b.components.map((c) => ({ ...c, dof: c.dof ?? Infinity })),
+  });
+  return {
+    ...r,
+    offset: fix(r.offset),
+    sensitivity: fix(r.sensitivity),
+    onEdgeOffset: r.onEdgeOffset ? fix(r.onEdgeOffset) : null,
+  };
+}
+
+function view(c: TiltQuantityChange): TiltChange {
+  return {
+    delta: c.delta,
+    expandedUncertainty: c.expandedUncertainty,
+    k: c.k,
+    coverage: c.coverage,
+    unit: c.unit,
+    limitLow: c.limitLow,
+    limitHigh: c.limitHigh,
+    verdict: c.verdict,
+    significant: c.significant,
+  };
+}
+
+/** The DUT's offset and sensitivity limits: offset from its limit columns (mg), sensitivity from `limits`. */
+export function tiltLimits(dut: Dut): {
+  offset: QuantityLimit | null;
+  sensitivity: QuantityLimit | null;
+} {
+  const offset =
+    dut.limitUnit === 'mg' &&
+    (dut.limitValue !== null || dut.limitLow !== null || dut.limitHigh !== null)
+      ? { limit: dut.limitValue, limitLow: dut.limitLow, limitHigh: dut.limitHigh }
+      : null;
+  return { offset, sensitivity: dut.quantityLimits?.sensitivity ?? null };
+}
+
+/**
+ * The tilt-check part of an accelerometer's matrix cells: per checkpoint the latest check, and
+ * from the second checkpoint on each axis's change against the baseline's latest check.
+ */
+export async function tiltCellsFor(
+  dut: Dut,
+  checkpointIds: number[],
+): Promise<Map<number, MatrixTiltCell>> {
+  const cells = new Map<number, MatrixTiltCell>();
+  if (dut.kind !== 'accelerometer' || checkpointIds.length === 0) return cells;
+  const rows = await TiltCheck.findAll({
+    where: { dutId: dut.id, checkpointId: checkpointIds },
+    order: [['id', 'ASC']],
+  });
+  // Latest per checkpoint and axis.
+  const latest = new Map<number, Map<Axis, TiltCheck>>();
+  for (const r of rows) {
+    const m = latest.get(r.checkpointId) ?? new Map<Axis, TiltCheck>();
+    m.set(r.axis, r);
+    latest.set(r.checkpointId, m);
+  }
+  const limits = tiltLimits(dut);
+  const baseline = latest.get(checkpointIds[0]);
+  for (const cpId of checkpointIds) {
+    const here = latest.get(cpId);
+    if (!here) continue;
+    const axes: MatrixTiltCell['check']['axes'] = {};
+    let newest = 0;
+    for (const [axis, r] of here) {
+      const x = revive(r.result);
+      newest = Math.max(newest, r.id);
+      axes[axis] = {
+        offsetMg: x.offsetMg,
+        uOffsetMg: x.offset.combined,
+        offsetExpanded: x.offset.expanded,
+        sensitivityErrorPct: x.sensitivityErrorPct,
+        uSensitivityPct: x.sensitivity.combined,
+        sensitivityExpanded: x.sensitivity.expanded,
+      };
+    }
+    const cell: MatrixTiltCell = { check: { id: newest, axes }, change: null };
+    if (cpId !== checkpointIds[0]) {
+      if (!baseline) {
+        cell.problem = 'No tilt check at the baseline to compare with.';
+      } else {
+        const changeAxes: NonNullable<MatrixTiltCell['change']>['axes'] = {};
+        let before = 0;
+        for (const [axis, r] of here) {
+          const b = baseline.get(axis);
+          if (!b) continue;
+          before = Math.max(before, b.id);
+          const ch = compareTiltChecks(revive(b.result), revive(r.result), limits);
+          changeAxes[axis] = { offset: view(ch.offset), sensitivity: view(ch.sensitivity) };
+        }
+        if (Object.keys(changeAxes).length) cell.change = { before, axes: changeAxes };
+        else cell.problem = "The baseline's tilt check is of another axis.";
+      }
+    }
+    cells.set(cpId, cell);
+  }
+  return cells;
+}
