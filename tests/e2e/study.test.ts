@@ -83,7 +83,9 @@ describe('the study page', () => {
     const cautions = await page.locator('[data-panel="cautions"]').innerText();
     expect(cautions).toContain('Never run a bath dry');
     expect(cautions).toContain('local codes and licensed practice come first');
-    expect(await page.locator('[data-dut-label^="Y3"] [data-note]').innerText()).toContain('32.768 kHz');
+    // One note per process the plan holds (the wash and the bake), each naming its process.
+    const notes = await page.locator('[data-dut-label^="Y3"] [data-note]').allInnerTexts();
+    expect(notes).toEqual([expect.stringMatching(/^Wash .*32\.768 kHz/), expect.stringMatching(/^Bake: /)]);
     expect(await page.locator('button:has-text("Capture on the bench")').isVisible()).toBe(true);
 
     await page.screenshot({ path: path.join(RESULTS, 'study.png'), fullPage: true });

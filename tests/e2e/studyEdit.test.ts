@@ -89,12 +89,12 @@ describe('a study planned around reflow, edited from its page', () => {
     await page.click('[data-checkpoint-name="After reflow"] [data-action="edit"]');
     const dialog = page.locator('.el-dialog', { hasText: 'Edit checkpoint' });
     await dialog.locator('input[name="peakC"]').waitFor();
+    // Let the dialog finish opening (it refills the form as it opens) before typing.
+    await page.waitForFunction(() => !document.querySelector('.dialog-fade-enter-active, .el-overlay-dialog.dialog-fade-enter-from'));
     expect(await dialog.locator('input[name="bathKHz"]').count()).toBe(0);
     await dialog.locator('input[name="peakC"]').fill('');
     await dialog.locator('input[name="passes"]').fill('1.5');
     await dialog.locator('[data-action="save-checkpoint"]').click();
-    await page.waitForTimeout(1500);
-    await page.screenshot({ path: path.join(RESULTS, 'study-edit-debug.png') });
     await dialog.locator('text=Enter a number').waitFor();
     await dialog.locator('text=Give a whole number of passes, from 1').waitFor();
     await page.screenshot({ path: path.join(RESULTS, 'study-edit-checkpoint.png') });
