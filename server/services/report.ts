@@ -6,7 +6,7 @@ import { AppError, NotFoundError } from '../errors.js';
 import { compareCaptures, studyMatrix } from './comparisons.js';
 import type { CaptureSummary } from './captureAnalysis.js';
 import { checkSeal } from './seal.js';
-import { reviewHistory } from './workflow.js';
+import { reviewHistory } from './reviewHistory.js';
 import { calibrationStatus } from './calibration.js';
 
 /** The decision rule every verdict of the report follows, stated once in the report. */

@@ -10,24 +10,12 @@ import {
   ClientMessage,
   CLIENT_MESSAGE_TYPES,
   messageProblem,
-  type LiveReading,
   type ServerMessage,
 } from '../../shared/protocol/live.js';
-import type { CaptureState } from '../../shared/protocol/captureLifecycle.js';
 
-/** What services need from the live fan-out. */
-export interface LiveHub {
-  hasWatchers(captureId: number): boolean;
-  publishReadings(captureId: number, readings: LiveReading[]): void;
-  publishState(captureId: number, state: CaptureState): void;
-}
-
-/** A hub for when nobody can watch (scripts, Supertest). */
-export const silentHub: LiveHub = {
-  hasWatchers: () => false,
-  publishReadings: () => {},
-  publishState: () => {},
-};
+// The hub's interface lives beside the services that publish to it, so they never import this file.
+import type { LiveHub } from '../services/liveHub.js';
+export { silentHub, type LiveHub } from '../services/liveHub.js';
 
 interface Peer {
   ws: WebSocket;
