@@ -11,8 +11,9 @@ import type { BenchStart } from '../utils/benchPlanning';
 import { groupDigits } from '../utils/format';
 import { isRecording } from '../../shared/protocol/captureLifecycle';
 
-/** Where the capture being recorded is remembered, so a reload can resume it. */
-export const ACTIVE_CAPTURE_KEY = 'driftbench.bench.active';
+import { ACTIVE_CAPTURE_KEY, useBenchStatusStore } from './benchStatus';
+
+export { ACTIVE_CAPTURE_KEY };
 
 /** The capture this browser was recording, as remembered across a reload. */
 export interface ActiveCapture {
@@ -80,6 +81,18 @@ export const useBenchCaptureStore = defineStore('benchCapture', () => {
   const running = computed(() => state.phase === 'connecting' || state.phase === 'capturing' || state.phase === 'finishing');
   const live = computed(() => state.phase !== 'idle' && !guided.value);
   const captureId = computed(() => state.capture?.id ?? null);
+
+  // The rail reads the light status store only.
+  const status = useBenchStatusStore();
+  watch(
+    [running, captureId, resumable],
+    ([on, id, rec]) => {
+      status.recording = on;
+      status.captureId = id;
+      status.resumableId = rec?.captureId ?? null;
+    },
+    { immediate: true },
+  );
 
   // Remember the capture while it records; forget it once it is finished.
   watch(
