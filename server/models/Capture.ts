@@ -5,9 +5,11 @@ import type { User } from './User.js';
 import type { Instrument } from './Instrument.js';
 import type { Reference } from './Reference.js';
 import type { CaptureTarget } from '../../shared/protocol/captures.js';
+import type { LinkProfile } from '../../shared/protocol/linkProfile.js';
 
 /** 'stalled': open, but no readings for too long (the sweep in services/captureLifecycle.ts). */
-export type CaptureState = 'open' | 'stalled' | 'finished' | 'aborted';
+import type { CaptureState } from '../../shared/protocol/captureLifecycle.js';
+export type { CaptureState };
 
 /** One DUT measured at one checkpoint: its identity, conditions and (once finished) its cached summary. */
 export class Capture extends Model<InferAttributes<Capture>, InferCreationAttributes<Capture>> {
@@ -34,7 +36,8 @@ export class Capture extends Model<InferAttributes<Capture>, InferCreationAttrib
   declare referenceAgeingUPerDay: number | null;
   declare counterType: 'gated' | 'reciprocal' | 'time-interval' | null;
   declare counterResolution: number | null;
-  declare linkProfile: unknown;
+  /** The link profile the capture ran with (checked by LinkProfile when the capture was created). */
+  declare linkProfile: LinkProfile | null;
   declare state: CreationOptional<CaptureState>;
   declare startedAt: CreationOptional<Date>;
   declare endedAt: Date | null;

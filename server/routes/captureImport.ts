@@ -3,6 +3,7 @@ import type pg from 'pg';
 import { z } from 'zod';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
+import { reply } from '../middleware/responses.js';
 import { importCapture, importProgress } from '../services/captureImport.js';
 import type { LiveHub } from '../ws/live.js';
 
@@ -16,11 +17,16 @@ const KeyParam = z.object({ key: z.string().regex(/^[A-Za-z0-9_-]{8,64}$/) });
 export function captureImportRouter(pool: pg.Pool, hub: LiveHub): Router {
   const r = Router();
   r.post('/import', authorize('captures:run'), async (req, res) => {
-    res.status(201).json(await importCapture(pool, hub, currentUser(req), req, res));
+    reply(
+      res,
+      'POST /api/captures/import',
+      await importCapture(pool, hub, currentUser(req), req, res),
+      201,
+    );
   });
   r.get('/import/progress/:key', authorize('captures:run'), (req, res) => {
     const { key } = parse(KeyParam, req.params, 'key');
-    res.json(importProgress(key, currentUser(req)));
+    reply(res, 'GET /api/captures/import/progress/:key', importProgress(key, currentUser(req)));
   });
   return r;
 }

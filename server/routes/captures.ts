@@ -5,10 +5,23 @@ import { pipeline } from 'node:stream/promises';
 import { to as copyTo } from 'pg-copy-streams';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
-import { CaptureCreate, CapturePatch, ReadingsQuery, AnalysisQuery, ComparisonQuery } from '../../shared/protocol/captures.js';
+import { reply } from '../middleware/responses.js';
+import {
+  CaptureCreate,
+  CapturePatch,
+  ReadingsQuery,
+  AnalysisQuery,
+  ComparisonQuery,
+} from '../../shared/protocol/captures.js';
 import { IdParam } from '../../shared/protocol/api.js';
 import { LIST_LIMITS, pageQuery } from '../../shared/protocol/paging.js';
-import { createCapture, getCapture, listCaptures, patchCapture, requireCapture } from '../services/captures.js';
+import {
+  createCapture,
+  getCapture,
+  listCaptures,
+  patchCapture,
+  requireCapture,
+} from '../services/captures.js';
 import { ingestReadings } from '../services/ingest.js';
 import { finishCapture } from '../services/finish.js';
 import { abortCapture } from '../services/captureLifecycle.js';
@@ -22,44 +35,71 @@ import type { AnalysisPool } from '../analysis/pool.js';
 /** Most raw readings one `GET …/readings` answers without maxPoints (about 4 MB of JSON). */
 export const MAX_RAW_READINGS = 100_000;
 
-const ListQuery = z.object({
-  studyId: z.coerce.number().int().positive().optional(),
-  dutId: z.coerce.number().int().positive().optional(),
-  checkpointId: z.coerce.number().int().positive().optional(),
-  state: CaptureState.optional(),
-}).extend(pageQuery(LIST_LIMITS.captures.max).shape);
+const ListQuery = z
+  .object({
+    studyId: z.coerce.number().int().positive().optional(),
+    dutId: z.coerce.number().int().positive().optional(),
+    checkpointId: z.coerce.number().int().positive().optional(),
+    state: CaptureState.optional(),
+  })
+  .extend(pageQuery(LIST_LIMITS.captures.max).shape);
 
 /** `replica`: a read replica for raw pages of captures that no longer record (replay, export pages). */
-export function capturesRouter(pool: pg.Pool, hub: LiveHub, analysis: AnalysisPool, replica?: pg.Pool): Router {
+export function capturesRouter(
+  pool: pg.Pool,
+  hub: LiveHub,
+  analysis: AnalysisPool,
+  replica?: pg.Pool,
+): Router {
   const r = Router();
   r.get('/', authorize('read'), async (req, res) => {
     const q = parse(ListQuery, req.query, 'query');
-    res.json(await listCaptures({ ...q, limit: q.limit ?? LIST_LIMITS.captures.default }));
+    reply(
+      res,
+      'GET /api/captures',
+      await listCaptures({ ...q, limit: q.limit ?? LIST_LIMITS.captures.default }),
+    );
   });
   r.post('/', authorize('captures:run'), async (req, res) => {
     const capture = await createCapture(parse(CaptureCreate, req.body), currentUser(req));
     hub.publishState(capture.id, 'open');
-    res.status(201).json(capture);
+    reply(res, 'POST /api/captures', capture, 201);
   });
   r.get('/:id', authorize('read'), async (req, res) => {
-    res.json(await getCapture(parse(IdParam, req.params, 'id').id));
+    reply(res, 'GET /api/captures/:id', await getCapture(parse(IdParam, req.params, 'id').id));
   });
   r.patch('/:id', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await patchCapture(id, parse(CapturePatch, req.body), currentUser(req)));
+    reply(
+      res,
+      'PATCH /api/captures/:id',
+      await patchCapture(id, parse(CapturePatch, req.body), currentUser(req)),
+    );
   });
   r.post('/:id/readings', authorize('captures:run'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await ingestReadings(pool, hub, currentUser(req), id, req.body));
+    reply(
+      res,
+      'POST /api/captures/:id/readings',
+      await ingestReadings(pool, hub, currentUser(req), id, req.body),
+    );
   });
   r.post('/:id/finish', authorize('captures:run'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await finishCapture(pool, hub, currentUser(req), id));
+    reply(
+      res,
+      'POST /api/captures/:id/finish',
+      await finishCapture(pool, hub, currentUser(req), id),
+    );
   });
   r.post('/:id/abort', authorize('captures:run'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
     const { reason } = parse(CaptureAbort, req.body);
-    res.json(await abortCapture(pool, hub, currentUser(req), id, reason));
+    reply(
+      res,
+      'POST /api/captures/:id/abort',
+      await abortCapture(pool, hub, currentUser(req), id, reason),
+    );
   });
   r.get('/:id/readings', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
@@ -73,12 +113,24 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub, analysis: AnalysisPo
       // A finished capture never changes, so a replica's copy is the same; a recording one is read
       // from the primary, where its newest readings are.
       const source = replica && !isRecording(c.state) ? replica : pool;
-      const out = await readSeries(source, id, { from, to, finished: !isRecording(c.state), highestSeq: c.highestSeq });
-      res.json({ ...out, nextFrom: to < Math.min(q.to ?? c.highestSeq, c.highestSeq) ? to + 1 : null });
+      const out = await readSeries(source, id, {
+        from,
+        to,
+        finished: !isRecording(c.state),
+        highestSeq: c.highestSeq,
+      });
+      reply(res, 'GET /api/captures/:id/readings', {
+        ...out,
+        nextFrom: to < Math.min(q.to ?? c.highestSeq, c.highestSeq) ? to + 1 : null,
+      });
       return;
     }
-    const out = await readSeries(pool, id, { ...q, finished: !isRecording(c.state), highestSeq: c.highestSeq });
-    res.json(out);
+    const out = await readSeries(pool, id, {
+      ...q,
+      finished: !isRecording(c.state),
+      highestSeq: c.highestSeq,
+    });
+    reply(res, 'GET /api/captures/:id/readings', out);
   });
   r.get('/:id/readings.csv', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
@@ -89,7 +141,9 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub, analysis: AnalysisPo
       res.setHeader('content-disposition', `attachment; filename="driftbench-capture-${id}.csv"`);
       // `id` is a validated integer: COPY takes no bind parameters.
       const stream = client.query(
-        copyTo(`COPY (SELECT seq, t AS t_s, value AS "value_${c.unit.replace(/[^A-Za-z%]/g, '')}", flags FROM readings WHERE capture_id = ${id} ORDER BY seq) TO STDOUT WITH (FORMAT csv, HEADER true)`),
+        copyTo(
+          `COPY (SELECT seq, t AS t_s, value AS "value_${c.unit.replace(/[^A-Za-z%]/g, '')}", flags FROM readings WHERE capture_id = ${id} ORDER BY seq) TO STDOUT WITH (FORMAT csv, HEADER true)`,
+        ),
       );
       await pipeline(stream, res);
       client.release();
@@ -106,7 +160,14 @@ export function capturesRouter(pool: pg.Pool, hub: LiveHub, analysis: AnalysisPo
     // Computed in a worker thread (server/analysis/worker.ts: the same figures — summary,
     // stability on the series with the chosen drift removed), cached per reading count, with
     // concurrent requests for the same capture sharing one computation.
-    res.type('application/json').send(await analysis.analysis({ captureId: id, ...q }, { readingCount: c.readingCount, state: c.state }));
+    res
+      .type('application/json')
+      .send(
+        await analysis.analysis(
+          { captureId: id, ...q },
+          { readingCount: c.readingCount, state: c.state },
+        ),
+      );
   });
   return r;
 }
@@ -117,7 +178,10 @@ export function comparisonsRouter(pool: pg.Pool): Router {
     const q = parse(ComparisonQuery, req.query, 'query');
     const result = await compareCaptures(pool, q.before, q.after);
     // Beside the verdict: every condition the two captures were recorded under differently.
-    res.json({ ...result, conditions: await conditionsBetween(q.before, q.after) });
+    reply(res, 'GET /api/comparisons', {
+      ...result,
+      conditions: await conditionsBetween(q.before, q.after),
+    });
   });
   return r;
 }

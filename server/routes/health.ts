@@ -1,4 +1,5 @@
 import { Router } from 'express';
+import { reply } from '../middleware/responses.js';
 import type { Database } from '../db/connection.js';
 import { OUTAGE_RETRY_AFTER_S } from '../db/outage.js';
 
@@ -11,10 +12,19 @@ export function healthRouter(db: Database): Router {
     const started = performance.now();
     try {
       await db.pool.query('SELECT 1');
-      res.json({ status: 'ok', database: { ok: true, latencyMs: Math.round((performance.now() - started) * 10) / 10 }, version: VERSION });
+      reply(res, 'GET /api/health', {
+        status: 'ok',
+        database: { ok: true, latencyMs: Math.round((performance.now() - started) * 10) / 10 },
+        version: VERSION,
+      });
     } catch {
       res.setHeader('Retry-After', String(OUTAGE_RETRY_AFTER_S));
-      res.status(503).json({ status: 'degraded', database: { ok: false }, version: VERSION });
+      reply(
+        res,
+        'GET /api/health',
+        { status: 'degraded', database: { ok: false }, version: VERSION },
+        503,
+      );
     }
   });
   return r;

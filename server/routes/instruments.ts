@@ -1,6 +1,7 @@
 import { Router } from 'express';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
+import { reply } from '../middleware/responses.js';
 import {
   clearLinkProfile,
   createInstrument,
@@ -8,7 +9,13 @@ import {
   saveLinkProfile,
   updateInstrument,
 } from '../services/instruments.js';
-import { calibrationHistory, recordCalibration, reinstate, retire, sendAway } from '../services/equipment.js';
+import {
+  calibrationHistory,
+  recordCalibration,
+  reinstate,
+  retire,
+  sendAway,
+} from '../services/equipment.js';
 import { IdParam } from '../../shared/protocol/api.js';
 import { LinkProfile } from '../../shared/protocol/linkProfile.js';
 import {
@@ -24,31 +31,56 @@ export function instrumentsRouter(): Router {
   const r = Router();
   r.post('/', authorize('instruments:manage'), async (req, res) => {
     const input = parse(InstrumentCreate, req.body);
-    res.status(201).json({ instrument: await createInstrument(input, currentUser(req).id) });
+    reply(
+      res,
+      'POST /api/instruments',
+      { instrument: await createInstrument(input, currentUser(req).id) },
+      201,
+    );
   });
   r.get('/:id', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json({ instrument: await getInstrument(id) });
+    reply(res, 'GET /api/instruments/:id', { instrument: await getInstrument(id) });
   });
   r.patch('/:id', authorize('instruments:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json({ instrument: await updateInstrument(id, parse(InstrumentPatch, req.body), currentUser(req).id) });
+    reply(res, 'PATCH /api/instruments/:id', {
+      instrument: await updateInstrument(id, parse(InstrumentPatch, req.body), currentUser(req).id),
+    });
   });
   r.get('/:id/calibrations', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await calibrationHistory('instrument', id));
+    reply(res, 'GET /api/instruments/:id/calibrations', await calibrationHistory('instrument', id));
   });
   r.post('/:id/calibrations', authorize('instruments:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.status(201).json(await recordCalibration('instrument', id, parse(CalibrationRecordCreate, req.body), currentUser(req).id));
+    res
+      .status(201)
+      .json(
+        await recordCalibration(
+          'instrument',
+          id,
+          parse(CalibrationRecordCreate, req.body),
+          currentUser(req).id,
+        ),
+      );
   });
   r.post('/:id/away', authorize('instruments:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await sendAway('instrument', id, parse(EquipmentAway, req.body ?? {}).sentOn, currentUser(req).id));
+    res.json(
+      await sendAway(
+        'instrument',
+        id,
+        parse(EquipmentAway, req.body ?? {}).sentOn,
+        currentUser(req).id,
+      ),
+    );
   });
   r.post('/:id/retire', authorize('instruments:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await retire('instrument', id, parse(EquipmentRetire, req.body).reason, currentUser(req).id));
+    res.json(
+      await retire('instrument', id, parse(EquipmentRetire, req.body).reason, currentUser(req).id),
+    );
   });
   r.post('/:id/reinstate', authorize('instruments:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
@@ -57,7 +89,9 @@ export function instrumentsRouter(): Router {
   r.put('/:id/link-profile', authorize('lab:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
     const profile = parse(LinkProfile, req.body);
-    res.json({ linkProfile: await saveLinkProfile(id, profile, currentUser(req).id) });
+    reply(res, 'PUT /api/instruments/:id/link-profile', {
+      linkProfile: await saveLinkProfile(id, profile, currentUser(req).id),
+    });
   });
   r.delete('/:id/link-profile', authorize('lab:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');

@@ -1,11 +1,24 @@
 import { Router } from 'express';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
+import { reply } from '../middleware/responses.js';
 import { IdParam } from '../../shared/protocol/api.js';
 import { DutPatch, ReferenceCreate, ReferencePatch } from '../../shared/protocol/uncertainty.js';
 import { createReference, updateDut, updateReference } from '../services/references.js';
-import { calibrationHistory, getReference, makeLabReference, recordCalibration, reinstate, retire, sendAway } from '../services/equipment.js';
-import { CalibrationRecordCreate, EquipmentAway, EquipmentRetire } from '../../shared/protocol/equipment.js';
+import {
+  calibrationHistory,
+  getReference,
+  makeLabReference,
+  recordCalibration,
+  reinstate,
+  retire,
+  sendAway,
+} from '../services/equipment.js';
+import {
+  CalibrationRecordCreate,
+  EquipmentAway,
+  EquipmentRetire,
+} from '../../shared/protocol/equipment.js';
 
 /**
  * One frequency reference (admin, lead; every change audited): register, edit, its calibrations,
@@ -14,31 +27,56 @@ import { CalibrationRecordCreate, EquipmentAway, EquipmentRetire } from '../../s
 export function referencesRouter(): Router {
   const r = Router();
   r.post('/', authorize('lab:manage'), async (req, res) => {
-    res.status(201).json({ reference: await createReference(parse(ReferenceCreate, req.body), currentUser(req).id) });
+    reply(
+      res,
+      'POST /api/references',
+      { reference: await createReference(parse(ReferenceCreate, req.body), currentUser(req).id) },
+      201,
+    );
   });
   r.patch('/:id', authorize('lab:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json({ reference: await updateReference(id, parse(ReferencePatch, req.body), currentUser(req).id) });
+    reply(res, 'PATCH /api/references/:id', {
+      reference: await updateReference(id, parse(ReferencePatch, req.body), currentUser(req).id),
+    });
   });
   r.get('/:id', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json({ reference: await getReference(id) });
+    reply(res, 'GET /api/references/:id', { reference: await getReference(id) });
   });
   r.get('/:id/calibrations', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await calibrationHistory('reference', id));
+    reply(res, 'GET /api/references/:id/calibrations', await calibrationHistory('reference', id));
   });
   r.post('/:id/calibrations', authorize('lab:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.status(201).json(await recordCalibration('reference', id, parse(CalibrationRecordCreate, req.body), currentUser(req).id));
+    res
+      .status(201)
+      .json(
+        await recordCalibration(
+          'reference',
+          id,
+          parse(CalibrationRecordCreate, req.body),
+          currentUser(req).id,
+        ),
+      );
   });
   r.post('/:id/away', authorize('lab:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await sendAway('reference', id, parse(EquipmentAway, req.body ?? {}).sentOn, currentUser(req).id));
+    res.json(
+      await sendAway(
+        'reference',
+        id,
+        parse(EquipmentAway, req.body ?? {}).sentOn,
+        currentUser(req).id,
+      ),
+    );
   });
   r.post('/:id/retire', authorize('lab:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await retire('reference', id, parse(EquipmentRetire, req.body).reason, currentUser(req).id));
+    res.json(
+      await retire('reference', id, parse(EquipmentRetire, req.body).reason, currentUser(req).id),
+    );
   });
   r.post('/:id/reinstate', authorize('lab:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
@@ -46,7 +84,11 @@ export function referencesRouter(): Router {
   });
   r.post('/:id/lab-default', authorize('lab:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await makeLabReference(id, currentUser(req).id));
+    reply(
+      res,
+      'POST /api/references/:id/lab-default',
+      await makeLabReference(id, currentUser(req).id),
+    );
   });
   return r;
 }
@@ -56,7 +98,9 @@ export function dutsRouter(): Router {
   const r = Router();
   r.patch('/:id', authorize('studies:plan'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json({ dut: await updateDut(id, parse(DutPatch, req.body), currentUser(req).id) });
+    reply(res, 'PATCH /api/duts/:id', {
+      dut: await updateDut(id, parse(DutPatch, req.body), currentUser(req).id),
+    });
   });
   return r;
 }

@@ -3,6 +3,7 @@ import type pg from 'pg';
 import { z } from 'zod';
 import { parse } from '../middleware/validate.js';
 import { authorize } from '../middleware/auth.js';
+import { reply } from '../middleware/responses.js';
 import { IdParam } from '../../shared/protocol/api.js';
 import { STABILITY_KINDS } from '../../shared/protocol/captures.js';
 import { captureCsv, overlayCurves, studyCapturesCsv } from '../services/workbench.js';
@@ -30,7 +31,7 @@ export function workbenchCapturesRouter(pool: pg.Pool): Router {
   const r = Router();
   r.get('/stability', authorize('read'), async (req, res) => {
     const q = parse(OverlayQuery, req.query, 'query');
-    res.json(await overlayCurves(pool, q.ids, q.kind));
+    reply(res, 'GET /api/captures/stability', await overlayCurves(pool, q.ids, q.kind));
   });
   r.get('/:id/export.csv', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');

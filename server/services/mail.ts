@@ -2,6 +2,7 @@ import nodemailer, { type Transporter } from 'nodemailer';
 import { QueryTypes, type Transaction } from 'sequelize';
 import type { Logger } from 'pino';
 import { Study } from '../models/index.js';
+import type { ReceivedMessage } from '../../shared/protocol/review.js';
 
 /**
  * Outgoing e-mail. A message is first written to `mail_outbox` (in the transaction of the change
@@ -98,7 +99,7 @@ export async function listReceived(opts: { limit: number; cursor?: number }) {
             size_bytes AS size, received_at AS "receivedAt"
      FROM mail_received ${where} ORDER BY id DESC LIMIT $${bind.length}`,
     { bind, type: QueryTypes.SELECT },
-  )) as Array<{ id: number }>;
+  )) as ReceivedMessage[];
   const more = rows.length > opts.limit;
   const messages = rows.slice(0, opts.limit);
   return { messages, nextCursor: more ? String(messages[messages.length - 1].id) : null };

@@ -13,6 +13,7 @@ import { Role } from './roles.js';
 import { COUNTER_TYPES, REFERENCE_KINDS, DRIFT_CHOICES } from './uncertainty.js';
 import { StudyStatus } from './api.js';
 import { Exposure } from './process.js';
+import { LinkProfile } from './linkProfile.js';
 import { Quantity, STABILITY_KINDS } from './captures.js';
 import { CaptureState } from './captureLifecycle.js';
 import { CALIBRATION_STATES, CalibrationState, InstrumentOut, ReferenceOut } from './equipment.js';
@@ -331,7 +332,7 @@ export const CaptureRecord = z.object({
   referenceAgeingUPerDay: z.number().nullable(),
   counterType: CounterTypeWire.nullable(),
   counterResolution: z.number().nullable(),
-  linkProfile: z.record(z.string(), z.unknown()).nullable().optional(),
+  linkProfile: LinkProfile.nullable().optional(),
   state: CaptureState,
   startedAt: Timestamp,
   endedAt: Timestamp.nullable(),

@@ -27,7 +27,9 @@ export interface LiveSocketOptions {
 }
 
 function defaultUrl(): string {
-  const u = new URL('/ws', window.location.origin);
+  // globalThis: this module is also loaded by Node tests, where only a test's own URL is used.
+  const { origin } = (globalThis as unknown as { location: { origin: string } }).location;
+  const u = new URL('/ws', origin);
   u.protocol = u.protocol === 'https:' ? 'wss:' : 'ws:';
   return u.toString();
 }

@@ -225,5 +225,5 @@ describe('the contract over a representative walk', () => {
 
     // The walk covers a fair share of the table.
     expect(checked.size).toBeGreaterThanOrEqual(35);
-  });
+  }, 180_000);
 });

@@ -74,7 +74,21 @@ describe('the response check (tests only)', () => {
     const body = {
       ...dashboard,
       calibration: [
-        { id: '3', name: 'Counter', kind: 'counter', calibrationDue: null, state: 'overdue' },
+        {
+          subject: 'instrument',
+          id: '3',
+          name: 'Counter',
+          kind: 'counter',
+          calibrationDue: '2026-01-01',
+          state: 'overdue',
+          calibration: {
+            state: 'overdue',
+            daysLeft: -3,
+            dueOn: '2026-01-01',
+            awaySince: null,
+            needsAttention: true,
+          },
+        },
       ],
     };
     const res = await request(appAnswering(200, body)).get('/api/dashboard');
