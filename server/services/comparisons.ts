@@ -1,35 +1,14 @@
 import type pg from 'pg';
-import { AnalysisError, compare, tuningForkDelta, type DeltaTerm, type DriftModel } from '../../shared/analysis/index.js';
+import { AnalysisError, compare, tuningForkDelta, type DeltaTerm } from '../../shared/analysis/index.js';
 import { Capture, Checkpoint, Dut, Reference, Study } from '../models/index.js';
 import { AppError, NotFoundError, ValidationError } from '../errors.js';
 import { conditionsBetween } from './conditions.js';
 import { loadComparisonInputs, type ComparisonInputs } from './comparisonInputs.js';
 import { baselineOfOrientation, needsSameOrientation, orientationWord } from './baseline.js';
-import { tiltCellsFor } from './tiltChecks.js';
+import { tiltCellsFor, tiltChecksOf } from './tiltChecks.js';
+import { summaryOf } from './summaries.js';
 import { chosenCells, representatives } from './cells.js';
-import {
-  LAB_AMBIENT_RANGE_C,
-  preparedFor,
-  reduce,
-  SUMMARY_VERSION,
-  THERMOMETER_BIAS_U_C,
-  THERMOMETER_U_C,
-  defaultDrift,
-  type CaptureSummary,
-} from './captureAnalysis.js';
-
-/**
- * The stored summary of a finished capture, or a fresh reduction of an open one, of a summary
- * stored by an older version (its shape and budget predate SUMMARY_VERSION; the readings never
- * change, so the recomputation is the same evidence read by today's rules), or with a drift model
- * other than the default.
- */
-export async function summaryOf(pool: pg.Pool, c: Capture, dut: Dut | null, drift?: DriftModel): Promise<CaptureSummary> {
-  const stored = c.summary as CaptureSummary | null;
-  const custom = drift !== undefined && drift !== defaultDrift(c);
-  if (c.state !== 'open' && stored && (stored.version ?? 0) >= SUMMARY_VERSION && !custom) return stored;
-  return reduce(c, dut, await preparedFor(pool, c), custom ? { drift } : {});
-}
+import { LAB_AMBIENT_RANGE_C, THERMOMETER_BIAS_U_C, THERMOMETER_U_C, type CaptureSummary } from './captureAnalysis.js';
 
 const DAY_MS = 86_400_000;
 
@@ -294,8 +273,10 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
   // Each cell: the capture a lead chose, else the latest valid one (finished, not excluded).
   const cellOf = representatives(captures, chosen);
   const latest = new Map([...cellOf].map(([key, v]) => [key, v.capture]));
-  // Everything the cells' comparisons read, loaded once (two queries), so no cell queries alone.
+  // Everything the cells' comparisons read, loaded once (two queries), so no cell queries alone;
+  // the accelerometers' tilt checks likewise in one query for the whole study.
   const loaded = await loadComparisonInputs(captures, duts);
+  const tiltRows = await tiltChecksOf(duts, checkpoints.map((x) => x.id));
   const baselineId = checkpoints[0]?.id;
   const rows = [];
   for (const dut of duts) {
@@ -351,7 +332,7 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
       cells.push({ checkpointId: cp.id, capture, comparison });
     }
     // An accelerometer's tilt checks: the DUT's result per checkpoint and its change per axis (other kinds' cells carry none).
-    const tilt = await tiltCellsFor(dut, checkpoints.map((x) => x.id));
+    const tilt = await tiltCellsFor(dut, checkpoints.map((x) => x.id), tiltRows);
     rows.push({ dut: dut.toPublic(), cells: dut.kind === 'accelerometer' ? cells.map((cell) => ({ ...cell, tiltCheck: tilt.get(cell.checkpointId) ?? null })) : cells });
   }
   return { studyId, checkpoints: checkpoints.map((c) => c.toPublic()), rows };

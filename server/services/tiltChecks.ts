@@ -3,7 +3,7 @@ import { Capture, Checkpoint, Dut, TiltCheck } from '../models/index.js';
 import { AppError, NotFoundError, ValidationError } from '../errors.js';
 import { audit } from './audit.js';
 import { assertStudyWritable } from './studyLock.js';
-import { summaryOf } from './comparisons.js';
+import { summaryOf } from './summaries.js';
 import {
   AnalysisError,
   compareTiltChecks,
@@ -190,20 +190,28 @@ export function tiltLimits(dut: Dut): {
   return { offset, sensitivity: dut.quantityLimits?.sensitivity ?? null };
 }
 
+/** The tilt checks of every accelerometer among `duts` at these checkpoints, oldest first: one query for a whole matrix. */
+export async function tiltChecksOf(duts: readonly Dut[], checkpointIds: number[]): Promise<TiltCheck[]> {
+  const ids = duts.filter((d) => d.kind === 'accelerometer').map((d) => d.id);
+  if (ids.length === 0 || checkpointIds.length === 0) return [];
+  return TiltCheck.findAll({ where: { dutId: ids, checkpointId: checkpointIds }, order: [['id', 'ASC']] });
+}
+
 /**
  * The tilt-check part of an accelerometer's matrix cells: per checkpoint the latest check, and
- * from the second checkpoint on each axis's change against the baseline's latest check.
+ * from the second checkpoint on each axis's change against the baseline's latest check. The
+ * matrix passes the rows it loaded for all its DUTs (`tiltChecksOf`); alone, the DUT's are read.
  */
 export async function tiltCellsFor(
   dut: Dut,
   checkpointIds: number[],
+  preloaded?: readonly TiltCheck[],
 ): Promise<Map<number, MatrixTiltCell>> {
   const cells = new Map<number, MatrixTiltCell>();
   if (dut.kind !== 'accelerometer' || checkpointIds.length === 0) return cells;
-  const rows = await TiltCheck.findAll({
-    where: { dutId: dut.id, checkpointId: checkpointIds },
-    order: [['id', 'ASC']],
-  });
+  const rows = preloaded
+    ? preloaded.filter((r) => r.dutId === dut.id && checkpointIds.includes(r.checkpointId))
+    : await TiltCheck.findAll({ where: { dutId: dut.id, checkpointId: checkpointIds }, order: [['id', 'ASC']] });
   // Latest per checkpoint and axis.
   const latest = new Map<number, Map<Axis, TiltCheck>>();
   for (const r of rows) {
