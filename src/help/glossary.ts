@@ -74,7 +74,10 @@ export const GLOSSARY: GlossarySection[] = [
       { term: 'u, U and k', text: 'u is a standard uncertainty; U = k·u_c is the expanded uncertainty, with the coverage factor k taken from the effective degrees of freedom ν_eff (about 95 % coverage).' },
       { term: 'Verdict', text: 'Within (Δ ± U lies inside the limit), exceeds (Δ ± U lies wholly outside) or inconclusive (a limit lies within Δ ± U). Always drawn as the limit-band glyph with its word.' },
       { term: 'Conditions differ', text: 'A note beside a verdict when the two captures were recorded differently: another reference or none, another gate time, instrument or orientation, ambient temperatures more than 2 °C apart, or one simulated and one real.' },
-      { term: 'Calibration due', aka: ['overdue'], text: 'The date an instrument’s calibration runs out. Past it, the instrument is overdue: the bench still lets you capture, with a warning.' },
+      { term: 'Calibration due', aka: ['overdue', 'due soon', 'calibration valid'], text: 'The date an instrument’s or a reference’s calibration runs out. More than 30 days away: “Calibration valid”; today up to the 30th day: “Due in N days”; past it: “Overdue by N days” — the bench still lets you capture, with a warning. Recording the new certificate on its page clears it.' },
+      { term: 'Away for calibration', aka: ['away', 'sent for calibration'], text: 'Sent to a calibration laboratory and not back yet, whatever its due date says. The bench warns anyone who picks it; recording its new calibration brings it back.' },
+      { term: 'Calibration record', aka: ['certificate', 'calibration history'], text: 'One calibration as its certificate states it: date, next due date, certificate number, issuing laboratory and stated uncertainty (for a reference, the offset found and its uncertainty). Records are never changed; a correction is a new record.' },
+      { term: 'Lab reference', aka: ['lab’s reference'], text: 'The frequency reference the bench offers first. One at a time; a lead or an admin chooses it on the reference’s page.' },
     ],
   },
   {
