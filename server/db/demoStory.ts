@@ -15,6 +15,7 @@ import { Capture, Checkpoint, Dut, Instrument, Reference, Study, User } from '..
 import { createCapture } from '../services/captures.js';
 import { ingestReadings } from '../services/ingest.js';
 import { finishCapture } from '../services/finish.js';
+import { recordTiltCheck } from '../services/tiltChecks.js';
 import { addCheckpoint, addDut, createStudy } from '../services/studies.js';
 import { approveStudy, submitStudy } from '../services/workflow.js';
 import type { AuthUser } from '../services/auth.js';
@@ -149,8 +150,9 @@ export async function seedDemoStory(pool: pg.Pool, hub: LiveHub, log?: Logger): 
       const checkpoint = checkpoints[cp];
       if (!checkpoint) continue;
       const orientations = cp === 0 || cp === 3 ? (['on-edge', 'inverted', 'flat'] as const) : (['flat'] as const);
+      const ids: Partial<Record<(typeof orientations)[number], number>> = {};
       for (const orientation of orientations) {
-        await capture(
+        ids[orientation] = await capture(
           pool,
           hub,
           technician,
@@ -168,6 +170,10 @@ export async function seedDemoStory(pool: pg.Pool, hub: LiveHub, log?: Logger): 
           },
           accelReadings(cp, orientation, 200),
         );
+      }
+      // The tilt check's result, stored as the bench stores it: the matrix compares it across checkpoints.
+      if (ids.flat && ids.inverted) {
+        await recordTiltCheck(pool, accel.id, { checkpointId: checkpoint.id, axis: 'z', flatCaptureId: ids.flat, invertedCaptureId: ids.inverted, onEdgeCaptureId: ids['on-edge'] ?? null }, technician.id);
       }
     }
   }

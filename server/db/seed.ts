@@ -105,7 +105,7 @@ export async function seedDemo(sequelize: Sequelize): Promise<void> {
         { studyId: study.id, label: 'X2 25 MHz oscillator', kind: 'oscillator', nominal: 25_000_000, unit: 'Hz', limitValue: 1, limitUnit: 'ppm', position: 'X2', serial: 'RC-0001-X2' },
         { studyId: study.id, label: 'Y3 32.768 kHz tuning fork', kind: 'tuning-fork', nominal: 32_768, unit: 'Hz', limitValue: 1, limitUnit: 'ppm', position: 'Y3', serial: 'RC-0001-Y3' },
         { studyId: study.id, label: 'U4 12.8 MHz TCXO', kind: 'tcxo', nominal: 12_800_000, unit: 'Hz', limitValue: 1, limitUnit: 'ppm', position: 'U4', serial: 'RC-0001-U4' },
-        { studyId: study.id, label: 'U5 3-axis accelerometer', kind: 'accelerometer', nominal: 1000, unit: 'mg', limitValue: 20, limitUnit: 'mg', position: 'U5', serial: 'RC-0001-U5' },
+        { studyId: study.id, label: 'U5 3-axis accelerometer', kind: 'accelerometer', nominal: 1000, unit: 'mg', limitValue: 20, limitUnit: 'mg', quantityLimits: { sensitivity: { limit: 1 } }, position: 'U5', serial: 'RC-0001-U5' },
       ],
       { transaction },
     );
