@@ -1,5 +1,5 @@
-import { Instrument, Reference, Study, Dut } from '../models/index.js';
-import { AppError, NotFoundError, ValidationError } from '../errors.js';
+import { Instrument, Reference, Dut } from '../models/index.js';
+import { NotFoundError, ValidationError } from '../errors.js';
 import { audit } from './audit.js';
 import { assertStudyWritable } from './studyLock.js';
 import { publicReference } from './lab.js';
