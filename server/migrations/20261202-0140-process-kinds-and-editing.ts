@@ -43,7 +43,8 @@ export async function down({ context: qi }: { context: QueryInterface }): Promis
   await q('DROP TABLE IF EXISTS study_cells');
   await q(`ALTER TABLE captures DROP CONSTRAINT IF EXISTS captures_exclusion_has_reason,
     DROP COLUMN IF EXISTS excluded_at, DROP COLUMN IF EXISTS excluded_by, DROP COLUMN IF EXISTS exclusion_reason`);
-  for (const table of ['studies', 'checkpoints', 'duts']) await q(`ALTER TABLE ${table} DROP COLUMN IF EXISTS archived_at`);
+  for (const table of ['studies', 'checkpoints', 'duts'])
+    await q(`ALTER TABLE ${table} DROP COLUMN IF EXISTS archived_at`);
   await q('ALTER TABLE checkpoints DROP CONSTRAINT IF EXISTS checkpoints_exposure_kind_allowed');
   await q(`UPDATE checkpoints SET exposure = exposure - 'kind' WHERE exposure ? 'kind'`);
 }

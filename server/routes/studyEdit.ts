@@ -2,7 +2,14 @@ import { Router } from 'express';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
 import { IdParam } from '../../shared/protocol/api.js';
-import { CaptureExclude, CellChoice, CellQuery, CheckpointOrder, CheckpointPatch, StudyPatch } from '../../shared/protocol/studyEdit.js';
+import {
+  CaptureExclude,
+  CellChoice,
+  CellQuery,
+  CheckpointOrder,
+  CheckpointPatch,
+  StudyPatch,
+} from '../../shared/protocol/studyEdit.js';
 import {
   cellCaptures,
   chooseCell,
@@ -29,7 +36,13 @@ export function studyEditRouter(): Router {
   });
   r.post('/:id/checkpoints/order', authorize('studies:plan'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json({ checkpoints: await reorderCheckpoints(id, parse(CheckpointOrder, req.body).ids, currentUser(req).id) });
+    res.json({
+      checkpoints: await reorderCheckpoints(
+        id,
+        parse(CheckpointOrder, req.body).ids,
+        currentUser(req).id,
+      ),
+    });
   });
   r.get('/:id/cells', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');

@@ -4,7 +4,13 @@ import { AppError, NotFoundError, ValidationError } from '../errors.js';
 import { audit, changes } from './audit.js';
 import { assertStudyWritable } from './studyLock.js';
 import { cellKey, chosenCells, isValidEvidence, representatives } from './cells.js';
-import type { CellCaptures, CellChoice, CellChoiceResult, CheckpointPatch, StudyPatch } from '../../shared/protocol/studyEdit.js';
+import type {
+  CellCaptures,
+  CellChoice,
+  CellChoiceResult,
+  CheckpointPatch,
+  StudyPatch,
+} from '../../shared/protocol/studyEdit.js';
 
 /**
  * Editing a study's plan with history (issue 13). Every function here locks the study row
@@ -14,7 +20,8 @@ import type { CellCaptures, CellChoice, CellChoiceResult, CheckpointPatch, Study
  * 409 `has-captures` and the caller archives instead, which keeps every capture and its record.
  */
 
-const tx = <T>(work: (t: Transaction) => Promise<T>): Promise<T> => Study.sequelize!.transaction(work);
+const tx = <T>(work: (t: Transaction) => Promise<T>): Promise<T> =>
+  Study.sequelize!.transaction(work);
 
 function hasCaptures(what: string, count: number): AppError {
   return new AppError(
@@ -46,12 +53,17 @@ export async function updateStudy(id: number, patch: StudyPatch, actorId: number
     if (patch.title !== undefined) study.title = patch.title;
     if (patch.process !== undefined) study.process = patch.process;
     if (patch.description !== undefined) study.description = patch.description;
-    if (patch.archived !== undefined) study.archivedAt = patch.archived ? (study.archivedAt ?? new Date()) : null;
+    if (patch.archived !== undefined)
+      study.archivedAt = patch.archived ? (study.archivedAt ?? new Date()) : null;
     const after = studyFields(study);
     const diff = changes(before, after);
     if (Object.keys(diff).length > 0) {
       await study.save({ transaction });
-      const action = diff.archived ? (after.archived ? 'study.archive' : 'study.restore') : 'study.update';
+      const action = diff.archived
+        ? after.archived
+          ? 'study.archive'
+          : 'study.restore'
+        : 'study.update';
       await audit(actorId, action, 'study', id, diff, transaction);
     }
     return after;
@@ -66,15 +78,22 @@ export async function deleteStudy(id: number, actorId: number): Promise<void> {
   await tx(async (transaction) => {
     await assertStudyWritable('study', id, 'deleting the study', transaction);
     const study = (await Study.findByPk(id, { transaction }))!;
-    const dutIds = (await Dut.findAll({ where: { studyId: id }, attributes: ['id'], transaction })).map((d) => d.id);
-    const captures = dutIds.length ? await Capture.count({ where: { dutId: dutIds }, transaction }) : 0;
+    const dutIds = (
+      await Dut.findAll({ where: { studyId: id }, attributes: ['id'], transaction })
+    ).map((d) => d.id);
+    const captures = dutIds.length
+      ? await Capture.count({ where: { dutId: dutIds }, transaction })
+      : 0;
     if (captures > 0) throw hasCaptures(`Study ${id} “${study.title}”`, captures);
     const [[{ reviews }], files] = await Promise.all([
-      Study.sequelize!.query('SELECT count(*)::int AS reviews FROM study_reviews WHERE study_id = $1', {
-        bind: [id],
-        type: QueryTypes.SELECT,
-        transaction,
-      }) as Promise<Array<{ reviews: number }>>,
+      Study.sequelize!.query(
+        'SELECT count(*)::int AS reviews FROM study_reviews WHERE study_id = $1',
+        {
+          bind: [id],
+          type: QueryTypes.SELECT,
+          transaction,
+        },
+      ) as Promise<Array<{ reviews: number }>>,
       Attachment.count({ where: { studyId: id }, transaction }),
     ]);
     if (reviews > 0 || files > 0) {
@@ -94,7 +113,14 @@ export async function deleteStudy(id: number, actorId: number): Promise<void> {
       'study.delete',
       'study',
       id,
-      { studyId: id, before: { ...studyFields(study), checkpoints: checkpoints.map((c) => c.toPublic()), duts: duts.map((d) => d.toPublic()) } },
+      {
+        studyId: id,
+        before: {
+          ...studyFields(study),
+          checkpoints: checkpoints.map((c) => c.toPublic()),
+          duts: duts.map((d) => d.toPublic()),
+        },
+      },
       transaction,
     );
   });
@@ -108,12 +134,17 @@ export async function updateCheckpoint(id: number, patch: CheckpointPatch, actor
     const before = cp.toPublic();
     if (patch.name !== undefined) cp.name = patch.name;
     if (patch.exposure !== undefined) cp.exposure = patch.exposure;
-    if (patch.archived !== undefined) cp.archivedAt = patch.archived ? (cp.archivedAt ?? new Date()) : null;
+    if (patch.archived !== undefined)
+      cp.archivedAt = patch.archived ? (cp.archivedAt ?? new Date()) : null;
     const after = cp.toPublic();
     const diff = changes(before, after);
     if (Object.keys(diff).length > 0) {
       await cp.save({ transaction });
-      const action = diff.archived ? (after.archived ? 'checkpoint.archive' : 'checkpoint.restore') : 'checkpoint.update';
+      const action = diff.archived
+        ? after.archived
+          ? 'checkpoint.archive'
+          : 'checkpoint.restore'
+        : 'checkpoint.update';
       await audit(actorId, action, 'checkpoint', id, { studyId: cp.studyId, ...diff }, transaction);
     }
     return after;
@@ -127,12 +158,26 @@ export async function deleteCheckpoint(id: number, actorId: number): Promise<voi
     const cp = (await Checkpoint.findByPk(id, { transaction }))!;
     const captures = await Capture.count({ where: { checkpointId: id }, transaction });
     if (captures > 0) throw hasCaptures(`Checkpoint “${cp.name}”`, captures);
-    const files = await Attachment.count({ where: { ownerType: 'checkpoint', ownerId: id }, transaction });
+    const files = await Attachment.count({
+      where: { ownerType: 'checkpoint', ownerId: id },
+      transaction,
+    });
     if (files > 0) {
-      throw new AppError(409, 'has-record', `Checkpoint “${cp.name}” has ${files} attached file${files === 1 ? '' : 's'}: delete them first or archive the checkpoint.`);
+      throw new AppError(
+        409,
+        'has-record',
+        `Checkpoint “${cp.name}” has ${files} attached file${files === 1 ? '' : 's'}: delete them first or archive the checkpoint.`,
+      );
     }
     await cp.destroy({ transaction });
-    await audit(actorId, 'checkpoint.delete', 'checkpoint', id, { studyId: cp.studyId, before: cp.toPublic() }, transaction);
+    await audit(
+      actorId,
+      'checkpoint.delete',
+      'checkpoint',
+      id,
+      { studyId: cp.studyId, before: cp.toPublic() },
+      transaction,
+    );
   });
 }
 
@@ -143,12 +188,24 @@ export async function deleteCheckpoint(id: number, actorId: number): Promise<voi
 export async function reorderCheckpoints(studyId: number, ids: number[], actorId: number) {
   return tx(async (transaction) => {
     await assertStudyWritable('study', studyId, 'reordering checkpoints', transaction);
-    const all = await Checkpoint.findAll({ where: { studyId }, order: [['position', 'ASC'], ['id', 'ASC']], transaction });
+    const all = await Checkpoint.findAll({
+      where: { studyId },
+      order: [
+        ['position', 'ASC'],
+        ['id', 'ASC'],
+      ],
+      transaction,
+    });
     const known = new Set(all.map((c) => c.id));
     const stranger = ids.find((i) => !known.has(i));
-    if (stranger !== undefined) throw new ValidationError(`ids: checkpoint ${stranger} is not in this study`, [{ path: 'ids', message: `checkpoint ${stranger} is not in this study` }]);
+    if (stranger !== undefined)
+      throw new ValidationError(`ids: checkpoint ${stranger} is not in this study`, [
+        { path: 'ids', message: `checkpoint ${stranger} is not in this study` },
+      ]);
     if (ids.length !== all.length) {
-      throw new ValidationError('ids: list every checkpoint of the study once', [{ path: 'ids', message: `list all ${all.length} checkpoints of the study once` }]);
+      throw new ValidationError('ids: list every checkpoint of the study once', [
+        { path: 'ids', message: `list all ${all.length} checkpoints of the study once` },
+      ]);
     }
     const from = all.map((c) => c.id);
     if (from.every((id, i) => id === ids[i])) return all.map((c) => c.toPublic());
@@ -157,7 +214,14 @@ export async function reorderCheckpoints(studyId: number, ids: number[], actorId
       const cp = byId.get(id)!;
       if (cp.position !== i) await cp.update({ position: i }, { transaction });
     }
-    await audit(actorId, 'checkpoint.reorder', 'study', studyId, { studyId, order: { from, to: ids } }, transaction);
+    await audit(
+      actorId,
+      'checkpoint.reorder',
+      'study',
+      studyId,
+      { studyId, order: { from, to: ids } },
+      transaction,
+    );
     return ids.map((id) => byId.get(id)!.toPublic());
   });
 }
@@ -170,13 +234,26 @@ export async function deleteDut(id: number, actorId: number): Promise<void> {
     const captures = await Capture.count({ where: { dutId: id }, transaction });
     if (captures > 0) throw hasCaptures(`DUT “${dut.label}”`, captures);
     await dut.destroy({ transaction });
-    await audit(actorId, 'dut.delete', 'dut', id, { studyId: dut.studyId, before: dut.toPublic() }, transaction);
+    await audit(
+      actorId,
+      'dut.delete',
+      'dut',
+      id,
+      { studyId: dut.studyId, before: dut.toPublic() },
+      transaction,
+    );
   });
 }
 
 /** A capture's exclusion as the API shows it. */
 export function exclusionOf(c: Pick<Capture, 'excludedAt' | 'excludedBy' | 'exclusionReason'>) {
-  return c.excludedAt ? { at: new Date(c.excludedAt).toISOString(), by: c.excludedBy, reason: c.exclusionReason ?? '' } : null;
+  return c.excludedAt
+    ? {
+        at: new Date(c.excludedAt).toISOString(),
+        by: c.excludedBy,
+        reason: c.exclusionReason ?? '',
+      }
+    : null;
 }
 
 async function studyOfDut(dutId: number, transaction: Transaction): Promise<number> {
@@ -192,13 +269,41 @@ export async function excludeCapture(id: number, reason: string, actorId: number
   return tx(async (transaction) => {
     await assertStudyWritable('capture', id, 'excluding a capture', transaction);
     const c = (await Capture.findByPk(id, { transaction, lock: transaction.LOCK.UPDATE }))!;
-    if (c.state === 'open') throw new AppError(409, 'capture-open', `Capture ${id} is still open: finish or abort it before excluding it.`);
-    if (c.excludedAt) throw new AppError(409, 'already-excluded', `Capture ${id} is already excluded (${c.exclusionReason}).`);
+    if (c.state === 'open')
+      throw new AppError(
+        409,
+        'capture-open',
+        `Capture ${id} is still open: finish or abort it before excluding it.`,
+      );
+    if (c.excludedAt)
+      throw new AppError(
+        409,
+        'already-excluded',
+        `Capture ${id} is already excluded (${c.exclusionReason}).`,
+      );
     const studyId = await studyOfDut(c.dutId, transaction);
-    await c.update({ excludedAt: new Date(), excludedBy: actorId, exclusionReason: reason }, { transaction });
-    const [, cleared] = (await Study.sequelize!.query('DELETE FROM study_cells WHERE capture_id = $1', { bind: [id], transaction })) as [unknown, { rowCount?: number } | number];
+    await c.update(
+      { excludedAt: new Date(), excludedBy: actorId, exclusionReason: reason },
+      { transaction },
+    );
+    const [, cleared] = (await Study.sequelize!.query(
+      'DELETE FROM study_cells WHERE capture_id = $1',
+      { bind: [id], transaction },
+    )) as [unknown, { rowCount?: number } | number];
     const wasChosen = (typeof cleared === 'number' ? cleared : (cleared?.rowCount ?? 0)) > 0;
-    await audit(actorId, 'capture.exclude', 'capture', id, { studyId, reason, excluded: { from: false, to: true }, ...(wasChosen ? { cellChoiceCleared: true } : {}) }, transaction);
+    await audit(
+      actorId,
+      'capture.exclude',
+      'capture',
+      id,
+      {
+        studyId,
+        reason,
+        excluded: { from: false, to: true },
+        ...(wasChosen ? { cellChoiceCleared: true } : {}),
+      },
+      transaction,
+    );
     return { id, excluded: exclusionOf(c) };
   });
 }
@@ -212,15 +317,36 @@ export async function includeCapture(id: number, actorId: number) {
     const studyId = await studyOfDut(c.dutId, transaction);
     const reason = c.exclusionReason;
     await c.update({ excludedAt: null, excludedBy: null, exclusionReason: null }, { transaction });
-    await audit(actorId, 'capture.include', 'capture', id, { studyId, excludedBecause: reason, excluded: { from: true, to: false } }, transaction);
+    await audit(
+      actorId,
+      'capture.include',
+      'capture',
+      id,
+      { studyId, excludedBecause: reason, excluded: { from: true, to: false } },
+      transaction,
+    );
     return { id, excluded: null };
   });
 }
 
-async function checkCell(studyId: number, dutId: number, checkpointId: number, transaction?: Transaction) {
-  const [dut, cp] = await Promise.all([Dut.findByPk(dutId, { transaction }), Checkpoint.findByPk(checkpointId, { transaction })]);
-  if (!dut || dut.studyId !== studyId) throw new ValidationError('dutId: is not a DUT of this study', [{ path: 'dutId', message: 'is not a DUT of this study' }]);
-  if (!cp || cp.studyId !== studyId) throw new ValidationError('checkpointId: is not a checkpoint of this study', [{ path: 'checkpointId', message: 'is not a checkpoint of this study' }]);
+async function checkCell(
+  studyId: number,
+  dutId: number,
+  checkpointId: number,
+  transaction?: Transaction,
+) {
+  const [dut, cp] = await Promise.all([
+    Dut.findByPk(dutId, { transaction }),
+    Checkpoint.findByPk(checkpointId, { transaction }),
+  ]);
+  if (!dut || dut.studyId !== studyId)
+    throw new ValidationError('dutId: is not a DUT of this study', [
+      { path: 'dutId', message: 'is not a DUT of this study' },
+    ]);
+  if (!cp || cp.studyId !== studyId)
+    throw new ValidationError('checkpointId: is not a checkpoint of this study', [
+      { path: 'checkpointId', message: 'is not a checkpoint of this study' },
+    ]);
 }
 
 /**
@@ -229,24 +355,49 @@ async function checkCell(studyId: number, dutId: number, checkpointId: number, t
  * the latest valid capture. The capture must be of that DUT and checkpoint, finished and not
  * excluded. Audited on the study with the cell and before → after.
  */
-export async function chooseCell(studyId: number, choice: CellChoice, actorId: number): Promise<CellChoiceResult> {
+export async function chooseCell(
+  studyId: number,
+  choice: CellChoice,
+  actorId: number,
+): Promise<CellChoiceResult> {
   return tx(async (transaction) => {
-    await assertStudyWritable('study', studyId, 'choosing the capture of a matrix cell', transaction);
+    await assertStudyWritable(
+      'study',
+      studyId,
+      'choosing the capture of a matrix cell',
+      transaction,
+    );
     const { dutId, checkpointId, captureId } = choice;
     await checkCell(studyId, dutId, checkpointId, transaction);
     if (captureId !== null) {
       const c = await Capture.findByPk(captureId, { transaction });
       if (!c) throw new NotFoundError('Capture');
       if (c.dutId !== dutId || c.checkpointId !== checkpointId) {
-        throw new ValidationError('captureId: is not a capture of this DUT at this checkpoint', [{ path: 'captureId', message: 'is not a capture of this DUT at this checkpoint' }]);
+        throw new ValidationError('captureId: is not a capture of this DUT at this checkpoint', [
+          { path: 'captureId', message: 'is not a capture of this DUT at this checkpoint' },
+        ]);
       }
-      if (c.excludedAt) throw new AppError(409, 'capture-excluded', `Capture ${captureId} is excluded from the evidence (${c.exclusionReason}): include it first.`);
-      if (!isValidEvidence(c)) throw new AppError(409, 'capture-not-finished', `Capture ${captureId} is ${c.state}: only a finished capture can represent a cell.`);
+      if (c.excludedAt)
+        throw new AppError(
+          409,
+          'capture-excluded',
+          `Capture ${captureId} is excluded from the evidence (${c.exclusionReason}): include it first.`,
+        );
+      if (!isValidEvidence(c))
+        throw new AppError(
+          409,
+          'capture-not-finished',
+          `Capture ${captureId} is ${c.state}: only a finished capture can represent a cell.`,
+        );
     }
-    const before = (await chosenCells([dutId], transaction)).get(cellKey(dutId, checkpointId)) ?? null;
+    const before =
+      (await chosenCells([dutId], transaction)).get(cellKey(dutId, checkpointId)) ?? null;
     if (before === captureId) return { dutId, checkpointId, captureId };
     if (captureId === null) {
-      await Study.sequelize!.query('DELETE FROM study_cells WHERE dut_id = $1 AND checkpoint_id = $2', { bind: [dutId, checkpointId], transaction });
+      await Study.sequelize!.query(
+        'DELETE FROM study_cells WHERE dut_id = $1 AND checkpoint_id = $2',
+        { bind: [dutId, checkpointId], transaction },
+      );
     } else {
       await Study.sequelize!.query(
         `INSERT INTO study_cells (dut_id, checkpoint_id, capture_id, chosen_by) VALUES ($1, $2, $3, $4)
@@ -254,17 +405,34 @@ export async function chooseCell(studyId: number, choice: CellChoice, actorId: n
         { bind: [dutId, checkpointId, captureId, actorId], transaction },
       );
     }
-    await audit(actorId, 'cell.choose', 'study', studyId, { studyId, dutId, checkpointId, captureId: { from: before, to: captureId } }, transaction);
+    await audit(
+      actorId,
+      'cell.choose',
+      'study',
+      studyId,
+      { studyId, dutId, checkpointId, captureId: { from: before, to: captureId } },
+      transaction,
+    );
     return { dutId, checkpointId, captureId };
   });
 }
 
 /** Every capture of one cell, newest first, with which one represents it and which are excluded. */
-export async function cellCaptures(studyId: number, dutId: number, checkpointId: number): Promise<CellCaptures> {
+export async function cellCaptures(
+  studyId: number,
+  dutId: number,
+  checkpointId: number,
+): Promise<CellCaptures> {
   if (!(await Study.findByPk(studyId))) throw new NotFoundError('Study');
   await checkCell(studyId, dutId, checkpointId);
   const [captures, chosen] = await Promise.all([
-    Capture.findAll({ where: { dutId, checkpointId }, order: [['startedAt', 'DESC'], ['id', 'DESC']] }),
+    Capture.findAll({
+      where: { dutId, checkpointId },
+      order: [
+        ['startedAt', 'DESC'],
+        ['id', 'DESC'],
+      ],
+    }),
     chosenCells([dutId]),
   ]);
   const rep = representatives(captures, chosen).get(cellKey(dutId, checkpointId));

@@ -6,13 +6,25 @@ import { Text } from './text.js';
  * figures and nothing else (a reflow has no bath frequency, a bake no minutes per side); the
  * stored JSON is checked against the same schema when it is written.
  */
-export const PROCESS_KINDS = ['wash', 'reflow', 'bake', 'thermal-cycling', 'conformal-coat', 'vibration', 'other'] as const;
-export const ProcessKind = z.enum(PROCESS_KINDS, { message: `must be one of ${PROCESS_KINDS.join(', ')}` });
+export const PROCESS_KINDS = [
+  'wash',
+  'reflow',
+  'bake',
+  'thermal-cycling',
+  'conformal-coat',
+  'vibration',
+  'other',
+] as const;
+export const ProcessKind = z.enum(PROCESS_KINDS, {
+  message: `must be one of ${PROCESS_KINDS.join(', ')}`,
+});
 export type ProcessKind = z.infer<typeof ProcessKind>;
 
 const num = (min: number, max: number) => z.number().finite().min(min).max(max);
-const positive = (max: number) => z.number().finite().positive('must be greater than zero').max(max);
-const whole = (min: number, max: number) => z.number().int('must be a whole number').min(min).max(max);
+const positive = (max: number) =>
+  z.number().finite().positive('must be greater than zero').max(max);
+const whole = (min: number, max: number) =>
+  z.number().int('must be a whole number').min(min).max(max);
 
 /** Fields every kind may carry: the lab's own name for the step and free notes. */
 const common = {
@@ -59,7 +71,10 @@ export const ThermalCyclingExposure = z
     dwellMinutes: positive(100000),
     cycles: whole(1, 1000000),
   })
-  .refine((v) => v.lowC < v.highC, { path: ['highC'], message: 'must be above the low temperature' });
+  .refine((v) => v.lowC < v.highC, {
+    path: ['highC'],
+    message: 'must be above the low temperature',
+  });
 
 /** Conformal coating: the material and how it was cured. */
 export const ConformalCoatExposure = z.strictObject({
@@ -92,8 +107,19 @@ export const OtherExposure = z.strictObject({
 /** A checkpoint's exposure, validated per process kind (`kind` chooses the fields). */
 export const Exposure = z.discriminatedUnion(
   'kind',
-  [WashExposure, ReflowExposure, BakeExposure, ThermalCyclingExposure, ConformalCoatExposure, VibrationExposure, OtherExposure],
-  { error: (issue) => (issue.code === 'invalid_union' ? `must be one of ${PROCESS_KINDS.join(', ')}` : undefined) },
+  [
+    WashExposure,
+    ReflowExposure,
+    BakeExposure,
+    ThermalCyclingExposure,
+    ConformalCoatExposure,
+    VibrationExposure,
+    OtherExposure,
+  ],
+  {
+    error: (issue) =>
+      issue.code === 'invalid_union' ? `must be one of ${PROCESS_KINDS.join(', ')}` : undefined,
+  },
 );
 export type Exposure = z.infer<typeof Exposure>;
 export type WashExposure = z.infer<typeof WashExposure>;

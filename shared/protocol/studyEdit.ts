@@ -38,7 +38,9 @@ export const CheckpointOrder = z.strictObject({
     .array(Id)
     .min(1, 'list every checkpoint of the study')
     .max(1000)
-    .refine((ids) => new Set(ids).size === ids.length, { message: 'must not name a checkpoint twice' }),
+    .refine((ids) => new Set(ids).size === ids.length, {
+      message: 'must not name a checkpoint twice',
+    }),
 });
 export type CheckpointOrder = z.infer<typeof CheckpointOrder>;
 
@@ -115,5 +117,8 @@ export const StudyEditResult = z.object({
 export type StudyEditResult = z.infer<typeof StudyEditResult>;
 
 /** What exclude and include answer: the capture and its exclusion (null once included). */
-export const CaptureExclusionResult = z.object({ id: z.number().int(), excluded: CaptureExclusion.nullable() });
+export const CaptureExclusionResult = z.object({
+  id: z.number().int(),
+  excluded: CaptureExclusion.nullable(),
+});
 export type CaptureExclusionResult = z.infer<typeof CaptureExclusionResult>;

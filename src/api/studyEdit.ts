@@ -3,7 +3,15 @@
  * shared zod types, answers the contract's response types.
  */
 import { http } from './http';
-import type { CaptureExclusionResult, CellCaptures, CellChoice, CellChoiceResult, CheckpointPatch, StudyEditResult, StudyPatch } from '../../shared/protocol/studyEdit';
+import type {
+  CaptureExclusionResult,
+  CellCaptures,
+  CellChoice,
+  CellChoiceResult,
+  CheckpointPatch,
+  StudyEditResult,
+  StudyPatch,
+} from '../../shared/protocol/studyEdit';
 import type { DutPatch } from '../../shared/protocol/uncertainty';
 import type { PlanCheckpoint, PlanDut } from './studyPlan';
 
@@ -30,13 +38,22 @@ export function deleteCheckpoint(id: number): Promise<void> {
 }
 
 /** POST /api/studies/:id/checkpoints/order: every checkpoint id once, in the new order. */
-export async function reorderCheckpoints(studyId: number, ids: number[]): Promise<PlanCheckpoint[]> {
-  return (await http.post<{ checkpoints: PlanCheckpoint[] }>(`/api/studies/${studyId}/checkpoints/order`, { ids })).checkpoints;
+export async function reorderCheckpoints(
+  studyId: number,
+  ids: number[],
+): Promise<PlanCheckpoint[]> {
+  return (
+    await http.post<{ checkpoints: PlanCheckpoint[] }>(
+      `/api/studies/${studyId}/checkpoints/order`,
+      { ids },
+    )
+  ).checkpoints;
 }
 
 /** Archives or restores a DUT (PATCH /api/duts/:id { archived }). */
 export async function archiveDut(id: number, archived: boolean): Promise<PlanDut> {
-  return (await http.patch<{ dut: PlanDut }>(`/api/duts/${id}`, { archived } satisfies DutPatch)).dut;
+  return (await http.patch<{ dut: PlanDut }>(`/api/duts/${id}`, { archived } satisfies DutPatch))
+    .dut;
 }
 
 /** DELETE /api/duts/:id (409 `has-captures` once captured). */
@@ -55,7 +72,11 @@ export function includeCapture(id: number): Promise<CaptureExclusionResult> {
 }
 
 /** GET /api/studies/:id/cells: every capture of one DUT × checkpoint, with the one that represents it. */
-export function getCellCaptures(studyId: number, dutId: number, checkpointId: number): Promise<CellCaptures> {
+export function getCellCaptures(
+  studyId: number,
+  dutId: number,
+  checkpointId: number,
+): Promise<CellCaptures> {
   return http.get(`/api/studies/${studyId}/cells?dutId=${dutId}&checkpointId=${checkpointId}`);
 }
 

@@ -25,10 +25,13 @@ export function useZodForm<T>(options: {
   clear: () => void;
 } {
   const formRef = ref<FormInstance>();
-  const schema = (): z.ZodType<T> => (typeof options.schema === 'function' ? options.schema() : options.schema);
+  const schema = (): z.ZodType<T> =>
+    typeof options.schema === 'function' ? options.schema() : options.schema;
   const check = () => fieldErrors(schema(), options.body(), options.wording ?? {});
   const paths = computed<Record<string, string>>(() =>
-    Array.isArray(options.fields) ? Object.fromEntries(options.fields.map((f) => [f, f])) : (options.fields as Record<string, string>),
+    Array.isArray(options.fields)
+      ? Object.fromEntries(options.fields.map((f) => [f, f]))
+      : (options.fields as Record<string, string>),
   );
 
   const rules = computed<FormRules>(() => {
@@ -74,7 +77,11 @@ type Walkable = z.ZodType & {
  * The numeric bounds a shared schema puts on one field (`['exposure', 'peakC']`), for hints and
  * placeholders; `variant` picks a discriminated union's member by its `kind`.
  */
-export function boundsOf(schema: z.ZodType, path: readonly string[], variant?: string): { min: number | null; max: number | null } {
+export function boundsOf(
+  schema: z.ZodType,
+  path: readonly string[],
+  variant?: string,
+): { min: number | null; max: number | null } {
   let node = schema as Walkable;
   for (const key of path) {
     node = peel(node, variant);
@@ -87,7 +94,11 @@ export function boundsOf(schema: z.ZodType, path: readonly string[], variant?: s
 function peel(node: Walkable, variant?: string): Walkable {
   for (let i = 0; i < 8; i++) {
     if (node.options && variant) {
-      const hit = node.options.find((o) => ((o as Walkable).shape?.kind as unknown as { value?: string } | undefined)?.value === variant);
+      const hit = node.options.find(
+        (o) =>
+          ((o as Walkable).shape?.kind as unknown as { value?: string } | undefined)?.value ===
+          variant,
+      );
       if (hit) {
         node = hit as Walkable;
         continue;
@@ -110,7 +121,13 @@ function peel(node: Walkable, variant?: string): Walkable {
 export function rangeHint(bounds: { min: number | null; max: number | null }, unit = ''): string {
   const f = (v: number) => (Math.abs(v) >= 1e5 ? v.toExponential(0) : String(v)).replace('-', '−');
   const u = unit ? ` ${unit}` : '';
-  if (bounds.min !== null && Number.isFinite(bounds.min) && bounds.max !== null && Number.isFinite(bounds.max)) return `${f(bounds.min)} – ${f(bounds.max)}${u}`;
+  if (
+    bounds.min !== null &&
+    Number.isFinite(bounds.min) &&
+    bounds.max !== null &&
+    Number.isFinite(bounds.max)
+  )
+    return `${f(bounds.min)} – ${f(bounds.max)}${u}`;
   if (bounds.max !== null && Number.isFinite(bounds.max)) return `up to ${f(bounds.max)}${u}`;
   if (bounds.min !== null && Number.isFinite(bounds.min)) return `from ${f(bounds.min)}${u}`;
   return '';
