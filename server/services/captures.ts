@@ -94,6 +94,10 @@ export async function createCapture(input: CaptureCreate, operator: AuthUser) {
     reference = await Reference.findByPk(input.referenceId);
     if (!reference) throw new ValidationError('referenceId: no such reference', [{ path: 'referenceId', message: 'no such reference' }]);
   }
+  // Retired equipment stays on record for old captures but records no new one.
+  for (const [what, e] of [['Instrument', instrument], ['Reference', reference]] as const) {
+    if (e?.retiredAt) throw new AppError(409, 'equipment-retired', `${what} “${e.name}” is retired: choose one in service.`);
+  }
   const capture = await Capture.sequelize!.transaction(async (transaction) => {
     // The study row is locked for update first (a draft becomes running), then checked.
     await startOnFirstCapture(dut.studyId, operator.id, transaction);

@@ -209,6 +209,16 @@ describe('away for calibration, retired, back in service', () => {
     expect(record.body.error.code).toBe('equipment-retired');
     expect((await request(t.app).post(`/api/instruments/${id}/retire`).set(await auth('admin')).send({ reason: 'again' })).status).toBe(409);
 
+    // A retired instrument records no new capture.
+    const study = (await request(t.app).get('/api/studies').set(await auth('engineer'))).body.studies[0];
+    const plan = (await request(t.app).get(`/api/studies/${study.id}`).set(await auth('engineer'))).body;
+    const capture = await request(t.app)
+      .post('/api/captures')
+      .set(await auth('engineer'))
+      .send({ dutId: plan.duts[0].id, checkpointId: plan.checkpoints[0].id, quantity: 'frequency', unit: 'Hz', gateTime: 1, instrumentId: id, ambientC: 23 });
+    expect(capture.status).toBe(409);
+    expect(capture.body.error.code).toBe('equipment-retired');
+
     const back = await request(t.app).post(`/api/instruments/${id}/reinstate`).set(await auth('admin')).send({});
     expect(back.status).toBe(200);
     expect(back.body.instrument).toMatchObject({ retiredAt: null, awaySince: null, calibration: { state: 'valid' } });
