@@ -11,6 +11,7 @@
 import { DEFAULT_AMBIENT, type OscillatorConfig, type TemperatureResponse } from './oscillator';
 import type { NoiseLevels } from './noise';
 import type { CounterConfig } from './counter';
+import { G_N } from '../shared/analysis/gravity';
 import { ORIENTATIONS, type AccelConfig, type Vec3 } from './accelerometer';
 
 export const CHECKPOINTS = ['baseline', 'after wash', 'after over-exposure', 'after bake'] as const;
@@ -137,7 +138,7 @@ export function presetAccel(checkpoint: CheckpointIndex): AccelConfig {
     noiseMg: p.noiseMg,
     biasMg: { x: p.biasMg.x + s.x, y: p.biasMg.y + s.y, z: p.biasMg.z + s.z },
     sensErrPct: { ...p.sensErrPct },
-    localGravity: 9.80665,
+    localGravity: G_N,
     biasStep: null,
     accel: 1,
     seed: presetSeed('accel', checkpoint),

@@ -41,7 +41,8 @@ export interface DeltaTerm {
 }
 
 /** Units a limit may be stated in; ppm, ppb and % are relative to the nominal. */
-export type LimitUnit = 'ppm' | 'ppb' | 'Hz' | 'mg' | '%';
+export const LIMIT_UNITS = ['ppm', 'ppb', 'Hz', 'mg', '%'] as const;
+export type LimitUnit = (typeof LIMIT_UNITS)[number];
 
 export interface CompareOptions {
   /** Half-width of a symmetric allowed change, L > 0 (used when limitLow/limitHigh are absent). */

@@ -1,5 +1,6 @@
 /** Power-law noise types by their frequency exponent α, S_y(f) ∝ f^α (NIST SP 1065 Table 3). */
-export type NoiseType = 'wpm' | 'fpm' | 'wfm' | 'ffm' | 'rwfm';
+export const NOISE_TYPES = ['wpm', 'fpm', 'wfm', 'ffm', 'rwfm'] as const;
+export type NoiseType = (typeof NOISE_TYPES)[number];
 
 /** α of each noise type, S_y(f) ∝ f^α (SP 1065 §4.1 / Table 3). */
 export const NOISE_ALPHA: Readonly<Record<NoiseType, number>> = {

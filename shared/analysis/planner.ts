@@ -19,6 +19,7 @@
  */
 import { AnalysisError } from './errors';
 import { coverageFactor } from './coverage';
+import type { Verdict } from './verdict';
 
 export const PLANNER_MODEL =
   'The mean of a capture of length T scatters like the stability curve at τ = T: white frequency noise averages down as 1/√T until the flicker floor measured on the curve, where longer captures stop helping.';
@@ -213,7 +214,7 @@ export interface LiveDecision {
   U: number;
   /** L − |Δ|: positive inside the limit. */
   margin: number;
-  verdict: 'within' | 'exceeds' | 'inconclusive';
+  verdict: Verdict;
   /** True once more readings of the same behaviour cannot change the verdict. */
   decided: boolean;
 }

@@ -1,7 +1,8 @@
 import { AnalysisError, assertNumber } from './errors';
 
-/** Outcome of a guard-banded conformity decision. */
-export type Verdict = 'within' | 'exceeds' | 'inconclusive';
+/** Outcomes of a guard-banded conformity decision (the API's Verdict enum is this list). */
+export const VERDICTS = ['within', 'exceeds', 'inconclusive'] as const;
+export type Verdict = (typeof VERDICTS)[number];
 
 /**
  * Guard-banded decision with guard band w = U (ILAC-G8:09/2019; Driftbench's rule in
@@ -32,16 +33,24 @@ export interface LimitInterval {
  * inconclusive. An open side (null) never binds. For L_lo = −L, L_hi = +L this is
  * guardBandVerdict. Domain: finite Δ, U ≥ 0, at least one bound, L_lo < L_hi when both are given.
  */
-export function guardBandVerdictInterval(delta: number, expanded: number, limits: LimitInterval): Verdict {
+export function guardBandVerdictInterval(
+  delta: number,
+  expanded: number,
+  limits: LimitInterval,
+): Verdict {
   assertNumber(delta, 'delta');
   assertNumber(expanded, 'expanded uncertainty');
   if (expanded < 0) throw new AnalysisError('bad-argument', 'expanded uncertainty is negative');
   const { low, high } = limits;
-  if (low === null && high === null) throw new AnalysisError('bad-argument', 'a limit needs at least one bound');
+  if (low === null && high === null)
+    throw new AnalysisError('bad-argument', 'a limit needs at least one bound');
   if (low !== null) assertNumber(low, 'limit low');
   if (high !== null) assertNumber(high, 'limit high');
-  if (low !== null && high !== null && !(low < high)) throw new AnalysisError('bad-argument', 'the lower limit must lie below the upper limit');
-  if ((high !== null && delta - expanded > high) || (low !== null && delta + expanded < low)) return 'exceeds';
-  if ((high === null || delta + expanded <= high) && (low === null || delta - expanded >= low)) return 'within';
+  if (low !== null && high !== null && !(low < high))
+    throw new AnalysisError('bad-argument', 'the lower limit must lie below the upper limit');
+  if ((high !== null && delta - expanded > high) || (low !== null && delta + expanded < low))
+    return 'exceeds';
+  if ((high === null || delta + expanded <= high) && (low === null || delta - expanded >= low))
+    return 'within';
   return 'inconclusive';
 }

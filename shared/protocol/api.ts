@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { LIMIT_UNITS } from '../analysis/compare.js';
 import { checkLimit, DutLimitFields, TuningForkFields } from './uncertainty.js';
 import { Role } from './roles.js';
 import { Text } from './text.js';
@@ -61,6 +62,7 @@ export const StudySettings = z
   .strict();
 export type StudySettings = z.infer<typeof StudySettings>;
 
+/** A checkpoint's exposure, validated per process kind (shared/protocol/process.ts). */
 export { Exposure } from './process.js';
 
 export const CheckpointCreate = z.object({
@@ -70,7 +72,7 @@ export const CheckpointCreate = z.object({
 });
 export type CheckpointCreate = z.infer<typeof CheckpointCreate>;
 
-export const LIMIT_UNITS = ['ppm', 'ppb', 'Hz', 'mg', '%'] as const;
+export { LIMIT_UNITS };
 export const DUT_KINDS = ['crystal', 'oscillator', 'tuning-fork', 'tcxo', 'accelerometer', 'capacitor', 'relay', 'other'] as const;
 export const DutCreate = z.object({
   label: Text({ min: 1, max: 120 }),

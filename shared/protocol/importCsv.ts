@@ -11,7 +11,7 @@
  */
 import { z } from 'zod';
 import { Text } from './text.js';
-import { parseMeasurement, resolveUnit, unitFactor, type Quantity } from './parse.js';
+import { parseMeasurement, resolveUnit, unitFactor, type UnitQuantity as Quantity } from './parse.js';
 
 export const TIME_FORMATS = ['seconds', 'iso8601', 'hms', 'none'] as const;
 export type TimeFormat = (typeof TIME_FORMATS)[number];

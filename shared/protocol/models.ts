@@ -9,6 +9,8 @@
 import { MatrixTiltCell } from './accelerometer.js';
 import { QuantityLimitView } from './dutQuantities.js';
 import { z } from 'zod';
+import { VERDICTS } from '../analysis/verdict.js';
+import { NOISE_TYPES } from '../analysis/noise.js';
 import { Role } from './roles.js';
 import { COUNTER_TYPES, REFERENCE_KINDS, DRIFT_CHOICES } from './uncertainty.js';
 import { StudyStatus } from './api.js';
@@ -24,7 +26,7 @@ import { CALIBRATION_STATES, CalibrationState, InstrumentOut, ReferenceOut } fro
 export { CAPTURE_STATES, CaptureState } from './captureLifecycle.js';
 
 /** The guard-banded decision of a comparison (ILAC-G8, `shared/analysis/verdict.ts`). */
-export const VERDICTS = ['within', 'exceeds', 'inconclusive'] as const;
+export { VERDICTS };
 export const Verdict = z.enum(VERDICTS);
 export type Verdict = z.infer<typeof Verdict>;
 
@@ -32,7 +34,7 @@ export type Verdict = z.infer<typeof Verdict>;
 export { CALIBRATION_STATES, CalibrationState };
 
 /** Power-law noise types (NIST SP 1065 Table 3; `shared/analysis/noise.ts`). */
-export const NOISE_TYPES = ['wpm', 'fpm', 'wfm', 'ffm', 'rwfm'] as const;
+export { NOISE_TYPES };
 export const NoiseTypeSchema = z.enum(NOISE_TYPES);
 
 export const DriftModel = z.enum(DRIFT_CHOICES);

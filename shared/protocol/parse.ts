@@ -6,10 +6,17 @@
  * (Hz, g, V, s; counts are unitless), so `1.2e3 kHz` → 1.2e6 Hz and `-12.5 mg` → −0.0125 g.
  */
 
-export type Quantity = 'frequency' | 'acceleration' | 'voltage' | 'time' | 'counts';
+import type { Quantity as CaptureQuantity } from './captures.js';
+import { G_N } from '../analysis/gravity.js';
+
+/**
+ * What a parsed unit measures: a capture's quantity (captures.ts, the one list) or a time, which a
+ * link may report but no capture records.
+ */
+export type UnitQuantity = CaptureQuantity | 'time';
 
 /** The base unit each quantity's values are returned in. */
-export const BASE_UNIT: Record<Quantity, string> = {
+export const BASE_UNIT: Record<UnitQuantity, string> = {
   frequency: 'Hz',
   acceleration: 'g',
   voltage: 'V',
@@ -18,20 +25,15 @@ export const BASE_UNIT: Record<Quantity, string> = {
 };
 
 export type ParseFailureReason =
-  | 'empty'
-  | 'not-a-number'
-  | 'unknown-unit'
-  | 'wrong-quantity'
-  | 'overrange'
-  | 'unit-not-allowed';
+  'empty' | 'not-a-number' | 'unknown-unit' | 'wrong-quantity' | 'overrange' | 'unit-not-allowed';
 
 export type ParseResult =
-  | { ok: true; value: number; unit: string; quantity: Quantity | null }
+  | { ok: true; value: number; unit: string; quantity: UnitQuantity | null }
   | { ok: false; reason: ParseFailureReason; message: string };
 
 export interface ParseOptions {
   /** Only units of this quantity are accepted; a bare number is taken in its base unit. */
-  quantity?: Quantity;
+  quantity?: UnitQuantity;
   /** `false` rejects any unit text (the `number` parse rule). Default true. */
   allowUnit?: boolean;
 }
@@ -50,7 +52,7 @@ const SI_PREFIX: Record<string, number> = {
 };
 
 /** Base symbols: the quantity and the factor to that quantity's base unit. */
-const UNIT_SYMBOL: Record<string, { quantity: Quantity; factor: number }> = {
+const UNIT_SYMBOL: Record<string, { quantity: UnitQuantity; factor: number }> = {
   Hz: { quantity: 'frequency', factor: 1 },
   g: { quantity: 'acceleration', factor: 1 },
   V: { quantity: 'voltage', factor: 1 },
@@ -58,9 +60,10 @@ const UNIT_SYMBOL: Record<string, { quantity: Quantity; factor: number }> = {
 };
 
 /** Standard gravity, exact (3rd CGPM 1901; ISO 80000-3): converts m/s² to g. */
-export const STANDARD_GRAVITY = 9.80665;
+/** g_n, defined once in shared/analysis/gravity.ts. */
+export const STANDARD_GRAVITY = G_N;
 
-const SPECIAL_UNITS: Record<string, { quantity: Quantity; factor: number }> = {
+const SPECIAL_UNITS: Record<string, { quantity: UnitQuantity; factor: number }> = {
   'm/s2': { quantity: 'acceleration', factor: 1 / STANDARD_GRAVITY },
   'm/s^2': { quantity: 'acceleration', factor: 1 / STANDARD_GRAVITY },
   'm/s²': { quantity: 'acceleration', factor: 1 / STANDARD_GRAVITY },
@@ -74,12 +77,13 @@ const SPECIAL_UNITS: Record<string, { quantity: Quantity; factor: number }> = {
  * print (`MHZ`, `KHZ`), a case-insensitive match with `M` read as mega — common practice, no
  * source: counters never print milli-hertz in capitals.
  */
-export function resolveUnit(unit: string): { quantity: Quantity; factor: number } | null {
+export function resolveUnit(unit: string): { quantity: UnitQuantity; factor: number } | null {
   if (unit in SPECIAL_UNITS) return SPECIAL_UNITS[unit];
   for (const [sym, base] of Object.entries(UNIT_SYMBOL)) {
     if (unit.endsWith(sym)) {
       const prefix = unit.slice(0, unit.length - sym.length);
-      if (prefix in SI_PREFIX) return { quantity: base.quantity, factor: base.factor * SI_PREFIX[prefix] };
+      if (prefix in SI_PREFIX)
+        return { quantity: base.quantity, factor: base.factor * SI_PREFIX[prefix] };
     }
   }
   const upper = unit.toUpperCase();
@@ -113,7 +117,8 @@ export function parseMeasurement(text: string, options: ParseOptions = {}): Pars
   if (!m) return { ok: false, reason: 'not-a-number', message: `not a number: "${clip(trimmed)}"` };
   const num = Number(m[1]);
   const unitText = m[2].trim();
-  if (!Number.isFinite(num)) return { ok: false, reason: 'not-a-number', message: 'number out of range' };
+  if (!Number.isFinite(num))
+    return { ok: false, reason: 'not-a-number', message: 'number out of range' };
   if (Math.abs(num) >= SCPI_OVERRANGE) {
     return Math.abs(num) >= 9.91e37 - 1e33
       ? { ok: false, reason: 'not-a-number', message: 'instrument reported not-a-number' }
@@ -124,10 +129,15 @@ export function parseMeasurement(text: string, options: ParseOptions = {}): Pars
     return { ok: true, value: num, unit: quantity ? BASE_UNIT[quantity] : '', quantity };
   }
   if (options.allowUnit === false) {
-    return { ok: false, reason: 'unit-not-allowed', message: `unexpected text after number: "${clip(unitText)}"` };
+    return {
+      ok: false,
+      reason: 'unit-not-allowed',
+      message: `unexpected text after number: "${clip(unitText)}"`,
+    };
   }
   const unit = resolveUnit(unitText);
-  if (!unit) return { ok: false, reason: 'unknown-unit', message: `unknown unit "${clip(unitText)}"` };
+  if (!unit)
+    return { ok: false, reason: 'unknown-unit', message: `unknown unit "${clip(unitText)}"` };
   if (quantity && unit.quantity !== quantity) {
     return {
       ok: false,
@@ -135,7 +145,12 @@ export function parseMeasurement(text: string, options: ParseOptions = {}): Pars
       message: `unit "${unitText}" is ${unit.quantity}, expected ${quantity}`,
     };
   }
-  return { ok: true, value: num * unit.factor, unit: BASE_UNIT[unit.quantity], quantity: unit.quantity };
+  return {
+    ok: true,
+    value: num * unit.factor,
+    unit: BASE_UNIT[unit.quantity],
+    quantity: unit.quantity,
+  };
 }
 
 /** Converts a base-unit value into `unit` of the same quantity (e.g. 0.0125 g → 12.5 mg). */

@@ -1,21 +1,39 @@
 import { z } from 'zod';
+import { COUNTER_KINDS } from '../analysis/counter.js';
+import { DRIFT_MODELS } from '../analysis/drift.js';
 import { DutQuantityLimits } from './dutQuantities.js';
 
 /** How a counter measures (shared/analysis/counter.ts). */
-export const COUNTER_TYPES = ['gated', 'reciprocal', 'time-interval'] as const;
-export const CounterType = z.enum(COUNTER_TYPES, { message: `must be one of ${COUNTER_TYPES.join(', ')}` });
+export const COUNTER_TYPES = COUNTER_KINDS;
+export const CounterType = z.enum(COUNTER_TYPES, {
+  message: `must be one of ${COUNTER_TYPES.join(', ')}`,
+});
 
 /** What kind of frequency reference a lab holds; a disciplined source hardly ages, an OCXO does. */
-export const REFERENCE_KINDS = ['gnss-disciplined', 'rubidium', 'ocxo', 'internal-timebase', 'other'] as const;
-export const ReferenceKind = z.enum(REFERENCE_KINDS, { message: `must be one of ${REFERENCE_KINDS.join(', ')}` });
+export const REFERENCE_KINDS = [
+  'gnss-disciplined',
+  'rubidium',
+  'ocxo',
+  'internal-timebase',
+  'other',
+] as const;
+export const ReferenceKind = z.enum(REFERENCE_KINDS, {
+  message: `must be one of ${REFERENCE_KINDS.join(', ')}`,
+});
 
 /** Drift removed before stability (shared/analysis/drift.ts); linear is the default for frequency. */
-export const DRIFT_CHOICES = ['none', 'linear', 'quadratic'] as const;
+export const DRIFT_CHOICES = DRIFT_MODELS;
 
 /** Counter fields of an instrument: resolution in counts (gated) or seconds (reciprocal, time-interval). */
 export const CounterFields = {
   counterType: CounterType.nullable().optional(),
-  counterResolution: z.number().finite().positive('must be greater than zero').max(1e6).nullable().optional(),
+  counterResolution: z
+    .number()
+    .finite()
+    .positive('must be greater than zero')
+    .max(1e6)
+    .nullable()
+    .optional(),
 };
 
 /** A DUT's limit: a symmetric ±limit, or lower/upper bounds (one may be left open). */
@@ -39,9 +57,17 @@ type LimitShape = { limit?: number | null; limitLow?: number | null; limitHigh?:
 export function checkLimit(v: LimitShape, ctx: z.RefinementCtx): void {
   const bounds = v.limitLow != null || v.limitHigh != null;
   if (v.limit != null && bounds) {
-    ctx.addIssue({ code: 'custom', path: ['limit'], message: 'give either a symmetric limit or lower/upper bounds, not both' });
+    ctx.addIssue({
+      code: 'custom',
+      path: ['limit'],
+      message: 'give either a symmetric limit or lower/upper bounds, not both',
+    });
   } else if (v.limit == null && !bounds) {
-    ctx.addIssue({ code: 'custom', path: ['limit'], message: 'Give the limit (or a lower and/or upper bound)' });
+    ctx.addIssue({
+      code: 'custom',
+      path: ['limit'],
+      message: 'Give the limit (or a lower and/or upper bound)',
+    });
   }
   if (v.limitLow != null && v.limitHigh != null && !(v.limitLow < v.limitHigh)) {
     ctx.addIssue({ code: 'custom', path: ['limitHigh'], message: 'must be above the lower bound' });
@@ -69,7 +95,12 @@ const IsoDay = z
   .regex(/^\d{4}-\d{2}-\d{2}$/, 'must be a date as YYYY-MM-DD')
   .refine((s) => {
     const d = new Date(`${s}T00:00:00Z`);
-    return !Number.isNaN(d.getTime()) && d.toISOString().startsWith(s) && s >= '1990-01-01' && s <= '2100-12-31';
+    return (
+      !Number.isNaN(d.getTime()) &&
+      d.toISOString().startsWith(s) &&
+      s >= '1990-01-01' &&
+      s <= '2100-12-31'
+    );
   }, 'is not a plausible calendar date');
 
 /** A frequency reference's registration and calibration record (fractional values, per day). */

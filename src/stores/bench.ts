@@ -1,6 +1,6 @@
 import { computed, ref, watch } from 'vue';
 import { defineStore } from 'pinia';
-import { wgs84Gravity } from '../../shared/analysis/gravity';
+import { G_N, wgs84Gravity } from '../../shared/analysis/gravity';
 
 export const BENCH_KEY = 'driftbench.bench';
 
@@ -86,7 +86,7 @@ export const useBenchStore = defineStore('bench', () => {
     try {
       return wgs84Gravity(site.value.latitudeDeg, site.value.heightM);
     } catch {
-      return 9.80665;
+      return G_N;
     }
   });
 
