@@ -170,4 +170,32 @@ describe('an accelerometer study', () => {
     expect(errors).toEqual([]);
     await page.context().close();
   });
+
+  it("lets a planner set the accelerometer's sensitivity limit in the DUT dialog, and refuses a negative one", async () => {
+    const engineer = (await apiAs(server.url, 'engineer')).session;
+    const { page, errors } = await openPage(browser, {
+      viewport: { width: 1360, height: 1100 },
+      session: engineer,
+    });
+    await page.goto(`${server.url}/studies/1`);
+    const accel = page.locator('[data-dut-label^="U5"]');
+    await accel.waitFor();
+    await accel.locator('button', { hasText: 'Edit' }).click();
+    const dialog = page.locator('.el-dialog', { hasText: 'Edit DUT' });
+    const field = dialog.locator('input[name="sensitivityLimit"]');
+    await field.waitFor();
+    expect(await field.inputValue()).toBe('1');
+    await field.fill('-0.5');
+    await dialog.locator('button', { hasText: 'Save DUT' }).click();
+    await dialog.locator('[data-field="sensitivity-limit"] .el-form-item__error').waitFor();
+    await field.fill('0.5');
+    await page.screenshot({ path: path.join(RESULTS, 'accelerometer-dut-dialog.png') });
+    await dialog.locator('button', { hasText: 'Save DUT' }).click();
+    const row = page.locator('tr', { has: page.locator('th >> text=U5 3-axis accelerometer') });
+    await expect
+      .poll(() => row.locator('th').innerText(), { timeout: 30_000 })
+      .toContain('sensitivity ±0.5 %');
+    expect(errors).toEqual([]);
+    await page.context().close();
+  }, 60_000);
 });
