@@ -9,9 +9,21 @@ import { benchScale } from './scale.js';
 // `npm run bench`: every performance figure of the performance targets in README and DEVELOPERS.md, printed, never asserted.
 // Run on an otherwise idle machine: the figures are wall-clock times.
 console.log(`Driftbench benchmarks — Node ${process.version}, ${os.cpus().length} cores, load ${os.loadavg()[0].toFixed(2)}`);
-await benchAnalysis();
-await benchIngest();
-await benchImport();
-await benchAnalysisLoad();
-await benchRecord();
-await benchScale();
+// `npm run bench -- analysisLoad scale` runs only the named benches (all of them by default).
+const BENCHES: Record<string, () => Promise<unknown>> = {
+  analysis: benchAnalysis,
+  ingest: benchIngest,
+  import: benchImport,
+  analysisLoad: benchAnalysisLoad,
+  record: benchRecord,
+  scale: benchScale,
+};
+const chosen = process.argv.slice(2);
+const unknown = chosen.filter((name) => !(name in BENCHES));
+if (unknown.length) {
+  console.error(`Unknown bench ${unknown.join(', ')}; choose from ${Object.keys(BENCHES).join(', ')}.`);
+  process.exit(2);
+}
+for (const [name, run] of Object.entries(BENCHES)) {
+  if (chosen.length === 0 || chosen.includes(name)) await run();
+}
