@@ -10,7 +10,12 @@ import type { UpgradeHandler } from './upgrade.js';
  * upgrade on one of `paths` goes through only with a valid session token in the
  * `Sec-WebSocket-Protocol` header; anything else gets 401 and the socket is closed.
  */
-export function requireSession(inner: UpgradeHandler, paths: readonly string[], jwtSecret: string, pool: pg.Pool): UpgradeHandler {
+export function requireSession(
+  inner: UpgradeHandler,
+  paths: readonly string[],
+  jwtSecret: string,
+  pool: pg.Pool,
+): UpgradeHandler {
   return {
     handleUpgrade(req: IncomingMessage, socket: Duplex, head: Buffer): boolean {
       const pathname = new URL(req.url ?? '/', 'http://localhost').pathname;

@@ -73,18 +73,29 @@ export const CheckpointCreate = z.object({
 export type CheckpointCreate = z.infer<typeof CheckpointCreate>;
 
 export { LIMIT_UNITS };
-export const DUT_KINDS = ['crystal', 'oscillator', 'tuning-fork', 'tcxo', 'accelerometer', 'capacitor', 'relay', 'other'] as const;
-export const DutCreate = z.object({
-  label: Text({ min: 1, max: 120 }),
-  kind: z.enum(DUT_KINDS),
-  nominal: z.number().finite().positive(),
-  unit: Text({ min: 1, max: 20 }),
-  ...DutLimitFields,
-  limitUnit: z.enum(LIMIT_UNITS),
-  position: Text({ max: 60 }).optional(),
-  serial: Text({ max: 120 }).optional(),
-  ...TuningForkFields,
-}).superRefine(checkLimit);
+export const DUT_KINDS = [
+  'crystal',
+  'oscillator',
+  'tuning-fork',
+  'tcxo',
+  'accelerometer',
+  'capacitor',
+  'relay',
+  'other',
+] as const;
+export const DutCreate = z
+  .object({
+    label: Text({ min: 1, max: 120 }),
+    kind: z.enum(DUT_KINDS),
+    nominal: z.number().finite().positive(),
+    unit: Text({ min: 1, max: 20 }),
+    ...DutLimitFields,
+    limitUnit: z.enum(LIMIT_UNITS),
+    position: Text({ max: 60 }).optional(),
+    serial: Text({ max: 120 }).optional(),
+    ...TuningForkFields,
+  })
+  .superRefine(checkLimit);
 export type DutCreate = z.infer<typeof DutCreate>;
 
 /** Instrument kinds live with the rest of the lab's equipment. */

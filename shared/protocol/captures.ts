@@ -7,11 +7,25 @@ export const QUANTITIES = ['frequency', 'acceleration', 'voltage', 'counts'] as 
 export const Quantity = z.enum(QUANTITIES);
 export type Quantity = z.infer<typeof Quantity>;
 
-export const ORIENTATIONS = ['flat', 'on-edge', 'inverted', 'x-up', 'x-down', 'y-up', 'y-down', 'z-up', 'z-down', 'other'] as const;
+export const ORIENTATIONS = [
+  'flat',
+  'on-edge',
+  'inverted',
+  'x-up',
+  'x-down',
+  'y-up',
+  'y-down',
+  'z-up',
+  'z-down',
+  'other',
+] as const;
 
 /** What the bench planned for a capture: run for a duration (capture seconds) or take n readings. */
 export const CaptureTarget = z.discriminatedUnion('kind', [
-  z.object({ kind: z.literal('duration'), seconds: z.number().finite().positive().max(31_536_000) }),
+  z.object({
+    kind: z.literal('duration'),
+    seconds: z.number().finite().positive().max(31_536_000),
+  }),
   z.object({ kind: z.literal('count'), n: z.number().int().min(1).max(1_000_000_000) }),
 ]);
 export type CaptureTarget = z.infer<typeof CaptureTarget>;
@@ -23,7 +37,11 @@ export const CaptureCreate = z.object({
   quantity: Quantity,
   unit: Text({ min: 1, max: 20 }),
   nominal: z.number().finite().positive().optional(),
-  gateTime: z.number().finite().min(0.001, 'must be at least 1 ms').max(1000, 'must be at most 1000 s'),
+  gateTime: z
+    .number()
+    .finite()
+    .min(0.001, 'must be at least 1 ms')
+    .max(1000, 'must be at most 1000 s'),
   deadTime: z.number().finite().min(0).max(1000).optional(),
   instrumentId: z.number().int().positive().optional(),
   referenceId: z.number().int().positive().optional(),
@@ -32,7 +50,10 @@ export const CaptureCreate = z.object({
   /** How long the capture is planned to run; its operator is e-mailed when it is left open longer. */
   plannedMinutes: z.number().int().min(1).max(525_600).optional(),
   notes: Text({ max: 5000, trim: false }).optional(),
-  tags: z.array(Text({ min: 1, max: 60 })).max(20).optional(),
+  tags: z
+    .array(Text({ min: 1, max: 60 }))
+    .max(20)
+    .optional(),
   /** The link profile the capture ran with: the same schema as an instrument's (a few hundred bytes). */
   linkProfile: LinkProfile.optional(),
   /** Recorded from a simulator (also implied by a simulator link profile); stored on the capture for good. */
@@ -45,7 +66,10 @@ export type CaptureCreate = z.infer<typeof CaptureCreate>;
 export const CapturePatch = z
   .object({
     notes: Text({ max: 5000, trim: false }).optional(),
-    tags: z.array(Text({ min: 1, max: 60 })).max(20).optional(),
+    tags: z
+      .array(Text({ min: 1, max: 60 }))
+      .max(20)
+      .optional(),
     ambientC: z.number().finite().min(-60).max(150).optional(),
   })
   .strict();
@@ -74,7 +98,15 @@ export const ReadingsQuery = z.object({
   maxPoints: z.coerce.number().int().min(10).max(100_000).optional(),
 });
 
-export const STABILITY_KINDS = ['adev', 'oadev', 'mdev', 'hdev', 'ohdev', 'tdev', 'totdev'] as const;
+export const STABILITY_KINDS = [
+  'adev',
+  'oadev',
+  'mdev',
+  'hdev',
+  'ohdev',
+  'tdev',
+  'totdev',
+] as const;
 export type StabilityKind = (typeof STABILITY_KINDS)[number];
 
 export const AnalysisQuery = z.object({
@@ -96,16 +128,28 @@ export const ComparisonQuery = z.object({
  */
 export function findBadReading(readings: unknown): { index: number; reason: string } | null {
   if (!Array.isArray(readings)) return { index: -1, reason: 'readings must be an array' };
-  if (readings.length > MAX_BATCH) return { index: MAX_BATCH, reason: `a batch holds at most ${MAX_BATCH} readings` };
+  if (readings.length > MAX_BATCH)
+    return { index: MAX_BATCH, reason: `a batch holds at most ${MAX_BATCH} readings` };
   for (let i = 0; i < readings.length; i++) {
     const r = readings[i] as Partial<ReadingIn> | null;
-    if (typeof r !== 'object' || r === null) return { index: i, reason: 'reading must be an object' };
-    if (typeof r.seq !== 'number' || !Number.isInteger(r.seq) || r.seq < 0 || r.seq > 2_147_483_647) {
+    if (typeof r !== 'object' || r === null)
+      return { index: i, reason: 'reading must be an object' };
+    if (
+      typeof r.seq !== 'number' ||
+      !Number.isInteger(r.seq) ||
+      r.seq < 0 ||
+      r.seq > 2_147_483_647
+    ) {
       return { index: i, reason: 'seq must be a whole number from 0' };
     }
-    if (typeof r.t !== 'number' || !Number.isFinite(r.t)) return { index: i, reason: 't must be a finite number of seconds' };
-    if (typeof r.value !== 'number' || !Number.isFinite(r.value)) return { index: i, reason: 'value must be a finite number' };
-    if (r.flags !== undefined && (typeof r.flags !== 'number' || !Number.isInteger(r.flags) || r.flags < 0 || r.flags > 32767)) {
+    if (typeof r.t !== 'number' || !Number.isFinite(r.t))
+      return { index: i, reason: 't must be a finite number of seconds' };
+    if (typeof r.value !== 'number' || !Number.isFinite(r.value))
+      return { index: i, reason: 'value must be a finite number' };
+    if (
+      r.flags !== undefined &&
+      (typeof r.flags !== 'number' || !Number.isInteger(r.flags) || r.flags < 0 || r.flags > 32767)
+    ) {
       return { index: i, reason: 'flags must be a whole number from 0 to 32767' };
     }
   }

@@ -9,8 +9,16 @@ import { CalendarDate, Text } from './text.js';
 import { COUNTER_TYPES, CounterFields } from './uncertainty.js';
 import { LinkProfile } from './linkProfile.js';
 
-export const INSTRUMENT_KINDS = ['counter', 'spi-bridge', 'reference', 'thermometer', 'other'] as const;
-export const InstrumentKind = z.enum(INSTRUMENT_KINDS, { message: `must be one of ${INSTRUMENT_KINDS.join(', ')}` });
+export const INSTRUMENT_KINDS = [
+  'counter',
+  'spi-bridge',
+  'reference',
+  'thermometer',
+  'other',
+] as const;
+export const InstrumentKind = z.enum(INSTRUMENT_KINDS, {
+  message: `must be one of ${INSTRUMENT_KINDS.join(', ')}`,
+});
 export type InstrumentKind = z.infer<typeof InstrumentKind>;
 
 /** Days before the due date from which a calibration is "due soon" (the 30th day included). */
@@ -86,7 +94,11 @@ export type InstrumentCreate = z.infer<typeof InstrumentCreate>;
 
 /** PATCH /api/instruments/:id: registration fields (a calibration is recorded, not patched). */
 export const InstrumentPatch = z
-  .strictObject({ ...instrumentFields, name: instrumentFields.name.optional(), kind: instrumentFields.kind.optional() })
+  .strictObject({
+    ...instrumentFields,
+    name: instrumentFields.name.optional(),
+    kind: instrumentFields.kind.optional(),
+  })
   .refine((v) => Object.keys(v).length > 0, { message: 'nothing to change' });
 export type InstrumentPatch = z.infer<typeof InstrumentPatch>;
 
@@ -104,12 +116,21 @@ export const CalibrationRecordCreate = z
     /** As stated on the certificate, e.g. "±0.05 °C (k = 2)". */
     uncertainty: optionalText(200),
     fractionalOffset: z.number().finite().min(-1e-3).max(1e-3).optional(),
-    standardUncertainty: z.number().finite().positive('must be greater than zero').max(1e-3).optional(),
+    standardUncertainty: z
+      .number()
+      .finite()
+      .positive('must be greater than zero')
+      .max(1e-3)
+      .optional(),
     notes: optionalText(2000),
   })
   .superRefine((v, ctx) => {
     if (v.dueOn && v.dueOn <= v.calibratedOn) {
-      ctx.addIssue({ code: 'custom', path: ['dueOn'], message: 'must be after the calibration date' });
+      ctx.addIssue({
+        code: 'custom',
+        path: ['dueOn'],
+        message: 'must be after the calibration date',
+      });
     }
   });
 export type CalibrationRecordCreate = z.infer<typeof CalibrationRecordCreate>;
@@ -167,7 +188,10 @@ export const CalibrationHistory = z.object({ calibrations: z.array(CalibrationRe
 export type CalibrationHistory = z.infer<typeof CalibrationHistory>;
 
 /** The answer of POST …/:id/calibrations: the record and the equipment as it now stands. */
-export const InstrumentCalibrated = z.object({ calibration: CalibrationRecord, instrument: InstrumentOut });
+export const InstrumentCalibrated = z.object({
+  calibration: CalibrationRecord,
+  instrument: InstrumentOut,
+});
 export type InstrumentCalibrated = z.infer<typeof InstrumentCalibrated>;
 
 /** A frequency reference as the API answers it: registration, current record and calibration state. */
@@ -193,5 +217,8 @@ export const ReferenceOut = z.object({
 });
 export type ReferenceOut = z.infer<typeof ReferenceOut>;
 
-export const ReferenceCalibrated = z.object({ calibration: CalibrationRecord, reference: ReferenceOut });
+export const ReferenceCalibrated = z.object({
+  calibration: CalibrationRecord,
+  reference: ReferenceOut,
+});
 export type ReferenceCalibrated = z.infer<typeof ReferenceCalibrated>;

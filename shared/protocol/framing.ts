@@ -100,7 +100,8 @@ export function createLineFramer(options: LineFramerOptions): LineFramer {
   function emit(out: Frame[], lineLen: number, extraFlags: number): void {
     const bytes = buf.slice(0, Math.min(lineLen, maxLine));
     const { text, garbage } = frameText(bytes);
-    const flags = extraFlags | (garbage ? FrameFlag.garbage : 0) | (overlong ? FrameFlag.overlong : 0);
+    const flags =
+      extraFlags | (garbage ? FrameFlag.garbage : 0) | (overlong ? FrameFlag.overlong : 0);
     if (bytes.length > 0 || keepEmpty || flags !== 0) out.push({ text, bytes, flags });
     len = 0;
     overlong = false;

@@ -18,7 +18,8 @@ export type HexDecodeResult =
 /** Encodes bytes as a request line, e.g. [0x0b, 0, 0] → `"0B 00 00\n"`. */
 export function encodeHexLine(bytes: ArrayLike<number>, terminator = '\n'): string {
   if (bytes.length === 0) throw new RangeError('a transfer needs at least one byte');
-  if (bytes.length > HEX_MAX_BYTES) throw new RangeError(`at most ${HEX_MAX_BYTES} bytes per transfer`);
+  if (bytes.length > HEX_MAX_BYTES)
+    throw new RangeError(`at most ${HEX_MAX_BYTES} bytes per transfer`);
   const parts: string[] = [];
   for (let i = 0; i < bytes.length; i++) {
     const b = bytes[i];
@@ -47,7 +48,11 @@ export function decodeHexLine(line: string, maxBytes = HEX_MAX_BYTES): HexDecode
   const bytes = new Uint8Array(tokens.length);
   for (let i = 0; i < tokens.length; i++) {
     if (!TOKEN_RE.test(tokens[i])) {
-      return { ok: false, reason: 'bad-hex', message: `byte ${i + 1} is not two hex digits: "${tokens[i].slice(0, 8)}"` };
+      return {
+        ok: false,
+        reason: 'bad-hex',
+        message: `byte ${i + 1} is not two hex digits: "${tokens[i].slice(0, 8)}"`,
+      };
     }
     bytes[i] = parseInt(tokens[i], 16);
   }

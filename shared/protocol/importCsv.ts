@@ -11,7 +11,12 @@
  */
 import { z } from 'zod';
 import { Text } from './text.js';
-import { parseMeasurement, resolveUnit, unitFactor, type UnitQuantity as Quantity } from './parse.js';
+import {
+  parseMeasurement,
+  resolveUnit,
+  unitFactor,
+  type UnitQuantity as Quantity,
+} from './parse.js';
 
 export const TIME_FORMATS = ['seconds', 'iso8601', 'hms', 'none'] as const;
 export type TimeFormat = (typeof TIME_FORMATS)[number];
@@ -36,7 +41,11 @@ const ColumnRef = Text({ min: 1, max: 120 });
 export const CaptureImportFields = z.object({
   dutId: z.coerce.number().int().positive(),
   checkpointId: z.coerce.number().int().positive(),
-  gateTime: z.coerce.number().finite().min(0.001, 'must be at least 1 ms').max(1000, 'must be at most 1000 s'),
+  gateTime: z.coerce
+    .number()
+    .finite()
+    .min(0.001, 'must be at least 1 ms')
+    .max(1000, 'must be at most 1000 s'),
   deadTime: z.coerce.number().finite().min(0).max(1000).optional(),
   timeColumn: ColumnRef.default('1'),
   valueColumn: ColumnRef.default('2'),
@@ -56,16 +65,29 @@ export const CaptureImportFields = z.object({
   ambientC: z.coerce.number().finite().min(-60).max(150).optional(),
   notes: Text({ max: 5000, trim: false }).optional(),
   /** A key the client chose, to follow the server's progress at `GET /api/captures/import/progress/:key`. */
-  progressKey: z.string().regex(/^[A-Za-z0-9_-]{8,64}$/, 'letters, digits, - and _, 8 to 64 characters').optional(),
+  progressKey: z
+    .string()
+    .regex(/^[A-Za-z0-9_-]{8,64}$/, 'letters, digits, - and _, 8 to 64 characters')
+    .optional(),
 });
 export type CaptureImportFields = z.infer<typeof CaptureImportFields>;
 
 /** Answer of a successful import. */
-export const CaptureImportResult = z.object({ id: z.number().int().positive(), readings: z.number().int() });
+export const CaptureImportResult = z.object({
+  id: z.number().int().positive(),
+  readings: z.number().int(),
+});
 export type CaptureImportResult = z.infer<typeof CaptureImportResult>;
 
 /** 'unknown': no import under this key for this user (not started yet, or long over). */
-export const IMPORT_PHASES = ['unknown', 'receiving', 'storing', 'finishing', 'done', 'failed'] as const;
+export const IMPORT_PHASES = [
+  'unknown',
+  'receiving',
+  'storing',
+  'finishing',
+  'done',
+  'failed',
+] as const;
 export type ImportPhase = (typeof IMPORT_PHASES)[number];
 export const ImportProgress = z.object({
   phase: z.enum(IMPORT_PHASES),
@@ -102,7 +124,8 @@ const BARE_NUMBER = /^[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?$/;
 const LOOKS_NUMERIC = /^\s*[+-]?(?:\d|\.\d)/;
 const COMMENT = /^\s*(?:#|;|\/\/|%|!)/;
 const KEY_VALUE = /^\s*[A-Za-z][^:=]{0,60}[:=]/;
-const ISO = /^(\d{4})-(\d{2})-(\d{2})[T ](\d{2}):(\d{2}):(\d{2})(?:[.,](\d{1,12}))?\s*(Z|[+-]\d{2}:?\d{2})?$/;
+const ISO =
+  /^(\d{4})-(\d{2})-(\d{2})[T ](\d{2}):(\d{2}):(\d{2})(?:[.,](\d{1,12}))?\s*(Z|[+-]\d{2}:?\d{2})?$/;
 const HMS = /^(\d{1,2}):(\d{2}):(\d{2})(?:[.,](\d{1,12}))?$/;
 
 export interface ImportReaderOptions {
@@ -147,12 +170,21 @@ export class ImportReader {
   constructor(private readonly o: ImportReaderOptions) {
     this.quantity = quantityOfUnit(o.dutUnit);
     const dutFactor = unitFactor(o.dutUnit);
-    if (dutFactor === null || dutFactor === 0) throw new ImportLineError({ line: 0, column: 'unit', reason: `the DUT's unit "${o.dutUnit}" is not one Driftbench converts` });
+    if (dutFactor === null || dutFactor === 0)
+      throw new ImportLineError({
+        line: 0,
+        column: 'unit',
+        reason: `the DUT's unit "${o.dutUnit}" is not one Driftbench converts`,
+      });
     this.toDut = 1 / dutFactor;
     const unit = o.unit ?? o.dutUnit;
     const r = unit === '' ? null : resolveUnit(unit);
     if (unit !== '' && (!r || (this.quantity !== 'counts' && r.quantity !== this.quantity))) {
-      throw new ImportLineError({ line: 0, column: 'unit', reason: `"${unit}" is not a unit of ${this.quantity}` });
+      throw new ImportLineError({
+        line: 0,
+        column: 'unit',
+        reason: `"${unit}" is not a unit of ${this.quantity}`,
+      });
     }
     this.bareFactor = r?.factor ?? 1;
   }
@@ -202,7 +234,10 @@ export class ImportReader {
       throw new ImportLineError({
         line: lastLine,
         column: this.o.valueColumn,
-        reason: this.n === 0 ? 'the file holds no readings' : 'the file holds a single reading; a capture needs at least two',
+        reason:
+          this.n === 0
+            ? 'the file holds no readings'
+            : 'the file holds a single reading; a capture needs at least two',
       });
     }
   }
@@ -211,13 +246,26 @@ export class ImportReader {
     const find = (ref: string, role: string): number => {
       if (/^\d+$/.test(ref)) {
         const i = Number(ref) - 1;
-        if (i < 0) throw new ImportLineError({ line, column: ref, reason: `${role} column positions count from 1` });
+        if (i < 0)
+          throw new ImportLineError({
+            line,
+            column: ref,
+            reason: `${role} column positions count from 1`,
+          });
         return i;
       }
-      const i = this.names ? this.names.findIndex((n) => n.toLowerCase() === ref.toLowerCase()) : -1;
+      const i = this.names
+        ? this.names.findIndex((n) => n.toLowerCase() === ref.toLowerCase())
+        : -1;
       if (i < 0) {
-        const known = this.names ? `the columns are ${this.names.map((n) => `"${n}"`).join(', ')}` : 'the file has no column-name row';
-        throw new ImportLineError({ line, column: ref, reason: `no ${role} column named "${ref}": ${known}` });
+        const known = this.names
+          ? `the columns are ${this.names.map((n) => `"${n}"`).join(', ')}`
+          : 'the file has no column-name row';
+        throw new ImportLineError({
+          line,
+          column: ref,
+          reason: `no ${role} column named "${ref}": ${known}`,
+        });
       }
       return i;
     };
@@ -234,7 +282,11 @@ export class ImportReader {
     let s = text.trim().replace(/(\d)[\s\u00a0\u202f](?=\d)/g, '$1');
     if (this.o.decimalSeparator === ',') {
       if (/\d\.\d/.test(s)) {
-        throw new ImportLineError({ line, column: this.columnName(i), reason: `"${clip(text)}" uses "." but the decimal separator is ","` });
+        throw new ImportLineError({
+          line,
+          column: this.columnName(i),
+          reason: `"${clip(text)}" uses "." but the decimal separator is ","`,
+        });
       }
       s = s.replace(',', '.');
     }
@@ -244,22 +296,42 @@ export class ImportReader {
   private cell(fields: string[], i: number, line: number, role: string): string {
     const v = fields[i];
     if (v === undefined || v.trim() === '') {
-      throw new ImportLineError({ line, column: this.columnName(i), reason: `the ${role} is missing (the line has ${fields.length} field${fields.length === 1 ? '' : 's'})` });
+      throw new ImportLineError({
+        line,
+        column: this.columnName(i),
+        reason: `the ${role} is missing (the line has ${fields.length} field${fields.length === 1 ? '' : 's'})`,
+      });
     }
     return v;
   }
 
   private readRow(fields: string[], line: number): void {
     if (this.n >= (this.o.maxRows ?? MAX_IMPORT_ROWS)) {
-      throw new ImportLineError({ line, column: this.columnName(this.valueIdx), reason: `a file holds at most ${this.o.maxRows ?? MAX_IMPORT_ROWS} readings` });
+      throw new ImportLineError({
+        line,
+        column: this.columnName(this.valueIdx),
+        reason: `a file holds at most ${this.o.maxRows ?? MAX_IMPORT_ROWS} readings`,
+      });
     }
     const raw = this.cell(fields, this.valueIdx, line, 'value');
     const text = this.normalise(raw, this.valueIdx, line);
-    const parsed = parseMeasurement(text, { quantity: this.quantity === 'counts' ? undefined : this.quantity });
-    if (!parsed.ok) throw new ImportLineError({ line, column: this.columnName(this.valueIdx), reason: parsed.message });
+    const parsed = parseMeasurement(text, {
+      quantity: this.quantity === 'counts' ? undefined : this.quantity,
+    });
+    if (!parsed.ok)
+      throw new ImportLineError({
+        line,
+        column: this.columnName(this.valueIdx),
+        reason: parsed.message,
+      });
     const base = BARE_NUMBER.test(text) ? parsed.value * this.bareFactor : parsed.value;
     const value = base * this.toDut;
-    if (!Number.isFinite(value)) throw new ImportLineError({ line, column: this.columnName(this.valueIdx), reason: 'value out of range' });
+    if (!Number.isFinite(value))
+      throw new ImportLineError({
+        line,
+        column: this.columnName(this.valueIdx),
+        reason: 'value out of range',
+      });
     const t = this.o.timeFormat === 'none' ? this.n * this.o.tau0 : this.time(fields, line);
     if (this.n > 0 && t < this.tBuf[this.n - 1]) {
       throw new ImportLineError({
@@ -285,7 +357,8 @@ export class ImportReader {
   /** Seconds since the first reading; whole and fractional seconds apart, so ISO times keep µs. */
   private time(fields: string[], line: number): number {
     const raw = this.cell(fields, this.timeIdx, line, 'time');
-    const bad = (why: string) => new ImportLineError({ line, column: this.columnName(this.timeIdx), reason: why });
+    const bad = (why: string) =>
+      new ImportLineError({ line, column: this.columnName(this.timeIdx), reason: why });
     let whole: number;
     let frac: number;
     if (this.o.timeFormat === 'seconds') {
@@ -295,11 +368,19 @@ export class ImportReader {
       return p.value;
     } else if (this.o.timeFormat === 'iso8601') {
       const m = ISO.exec(raw.trim());
-      if (!m) throw bad(`"${clip(raw)}" is not an ISO 8601 date and time (2026-11-02T09:15:00.250Z)`);
+      if (!m)
+        throw bad(`"${clip(raw)}" is not an ISO 8601 date and time (2026-11-02T09:15:00.250Z)`);
       const [, y, mo, d, h, mi, s, f, zone] = m;
       let ms = Date.UTC(+y, +mo - 1, +d, +h, +mi, +s);
       const check = new Date(ms);
-      if (check.getUTCMonth() !== +mo - 1 || check.getUTCDate() !== +d || +h > 23 || +mi > 59 || +s > 60) throw bad(`"${clip(raw)}" is not a valid date and time`);
+      if (
+        check.getUTCMonth() !== +mo - 1 ||
+        check.getUTCDate() !== +d ||
+        +h > 23 ||
+        +mi > 59 ||
+        +s > 60
+      )
+        throw bad(`"${clip(raw)}" is not a valid date and time`);
       if (zone && zone !== 'Z') {
         const zm = /^([+-])(\d{2}):?(\d{2})$/.exec(zone)!;
         ms -= (zm[1] === '-' ? -1 : 1) * (+zm[2] * 60 + +zm[3]) * 60_000;
@@ -309,7 +390,8 @@ export class ImportReader {
       if (this.n === 0) this.startEpochMs = ms + frac * 1000;
     } else {
       const m = HMS.exec(raw.trim());
-      if (!m || +m[1] > 23 || +m[2] > 59 || +m[3] > 60) throw bad(`"${clip(raw)}" is not a time of day HH:MM:SS.fff`);
+      if (!m || +m[1] > 23 || +m[2] > 59 || +m[3] > 60)
+        throw bad(`"${clip(raw)}" is not a time of day HH:MM:SS.fff`);
       let day = +m[1] * 3600 + +m[2] * 60 + +m[3];
       // Past midnight the clock starts again: a drop of more than 12 h is the next day.
       if (this.n > 0 && day + this.dayOffset < this.prevDay - 43_200) this.dayOffset += 86_400;
@@ -331,11 +413,16 @@ export class ImportReader {
  * lines of the sample into the same number of fields, two or more, the most often. A decimal
  * comma rules the comma out. Comma when nothing fits.
  */
-export function guessDelimiter(sample: string, decimalSeparator: '.' | ',' = '.'): ',' | ';' | '\t' | '|' {
+export function guessDelimiter(
+  sample: string,
+  decimalSeparator: '.' | ',' = '.',
+): ',' | ';' | '\t' | '|' {
   const lines = sample.split(/\r?\n/);
   if (lines.length > 1) lines.pop(); // the last line of a sample may be cut short
   const data = lines.filter((l) => l.trim() !== '' && !COMMENT.test(l)).slice(-30);
-  const candidates = (decimalSeparator === ',' ? [';', '\t', '|'] : [',', '\t', ';', '|']) as Array<',' | ';' | '\t' | '|'>;
+  const candidates = (decimalSeparator === ',' ? [';', '\t', '|'] : [',', '\t', ';', '|']) as Array<
+    ',' | ';' | '\t' | '|'
+  >;
   let best: ',' | ';' | '\t' | '|' = decimalSeparator === ',' ? ';' : ',';
   let bestScore = 0;
   for (const d of candidates) {

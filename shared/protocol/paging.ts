@@ -17,7 +17,11 @@ export const LIST_LIMITS = {
 export function pageQuery(max: number) {
   return z.object({
     limit: z.coerce.number().int().min(1).max(max, `must be at most ${max}`).optional(),
-    cursor: z.string().max(200).regex(/^[A-Za-z0-9_-]*$/, 'is not a cursor this server gave').optional(),
+    cursor: z
+      .string()
+      .max(200)
+      .regex(/^[A-Za-z0-9_-]*$/, 'is not a cursor this server gave')
+      .optional(),
   });
 }
 

@@ -83,11 +83,14 @@ export function utf8Bytes(s: string): number {
 
 /** Why `password` breaks the policy, or null when it is acceptable. */
 export function passwordProblem(password: string): string | null {
-  if ([...password].length < PASSWORD_MIN_CHARS) return `must be at least ${PASSWORD_MIN_CHARS} characters`;
-  if (utf8Bytes(password) > PASSWORD_MAX_BYTES) return `must be at most ${PASSWORD_MAX_BYTES} bytes (about ${PASSWORD_MAX_BYTES} plain letters)`;
+  if ([...password].length < PASSWORD_MIN_CHARS)
+    return `must be at least ${PASSWORD_MIN_CHARS} characters`;
+  if (utf8Bytes(password) > PASSWORD_MAX_BYTES)
+    return `must be at most ${PASSWORD_MAX_BYTES} bytes (about ${PASSWORD_MAX_BYTES} plain letters)`;
   const text = textProblem(password);
   if (text) return text;
-  if (COMMON.has(password.toLowerCase())) return 'is one of the most common passwords; choose another';
+  if (COMMON.has(password.toLowerCase()))
+    return 'is one of the most common passwords; choose another';
   return null;
 }
 

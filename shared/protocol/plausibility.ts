@@ -71,7 +71,8 @@ export class PlausibilityWindow {
     if (this.values.length >= PLAUSIBILITY.minWindow) {
       if (this.since >= PLAUSIBILITY.refreshEvery) this.refresh();
       const d = Math.abs(v - this.m);
-      if (d > PLAUSIBILITY.madFactor * this.s && d > PLAUSIBILITY.relativeFloor * Math.abs(this.m)) return false;
+      if (d > PLAUSIBILITY.madFactor * this.s && d > PLAUSIBILITY.relativeFloor * Math.abs(this.m))
+        return false;
     }
     this.push(v);
     return true;
@@ -82,5 +83,7 @@ export class PlausibilityWindow {
 export function implausibleNote(flags: ArrayLike<number>): string | null {
   let k = 0;
   for (let i = 0; i < flags.length; i++) if (flags[i] & (1 << 5)) k++;
-  return k ? `${k} reading(s) ${IMPLAUSIBLE_RULE_TEXT}; kept in the record, left out of the analysis.` : null;
+  return k
+    ? `${k} reading(s) ${IMPLAUSIBLE_RULE_TEXT}; kept in the record, left out of the analysis.`
+    : null;
 }

@@ -37,24 +37,37 @@ export interface ReadingColumns {
  * The readings of a binary body as columns, or the first problem (`index` −1 for the body as a
  * whole) by the rules of `findBadReading`.
  */
-export function decodeReadingsF64(bytes: Uint8Array): ReadingColumns | { index: number; reason: string } {
+export function decodeReadingsF64(
+  bytes: Uint8Array,
+): ReadingColumns | { index: number; reason: string } {
   if (bytes.byteLength % BYTES_PER_READING !== 0) {
-    return { index: -1, reason: `a binary batch is ${BYTES_PER_READING} bytes a reading (seq, t, value, flags as little-endian doubles)` };
+    return {
+      index: -1,
+      reason: `a binary batch is ${BYTES_PER_READING} bytes a reading (seq, t, value, flags as little-endian doubles)`,
+    };
   }
   const n = bytes.byteLength / BYTES_PER_READING;
-  if (n > MAX_BATCH) return { index: MAX_BATCH, reason: `a batch holds at most ${MAX_BATCH} readings` };
+  if (n > MAX_BATCH)
+    return { index: MAX_BATCH, reason: `a batch holds at most ${MAX_BATCH} readings` };
   const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
-  const cols: ReadingColumns = { seq: new Array(n), t: new Array(n), value: new Array(n), flags: new Array(n) };
+  const cols: ReadingColumns = {
+    seq: new Array(n),
+    t: new Array(n),
+    value: new Array(n),
+    flags: new Array(n),
+  };
   for (let i = 0; i < n; i++) {
     const o = i * BYTES_PER_READING;
     const seq = view.getFloat64(o, true);
     const t = view.getFloat64(o + 8, true);
     const value = view.getFloat64(o + 16, true);
     const flags = view.getFloat64(o + 24, true);
-    if (!Number.isInteger(seq) || seq < 0 || seq > 2_147_483_647) return { index: i, reason: 'seq must be a whole number from 0' };
+    if (!Number.isInteger(seq) || seq < 0 || seq > 2_147_483_647)
+      return { index: i, reason: 'seq must be a whole number from 0' };
     if (!Number.isFinite(t)) return { index: i, reason: 't must be a finite number of seconds' };
     if (!Number.isFinite(value)) return { index: i, reason: 'value must be a finite number' };
-    if (!Number.isInteger(flags) || flags < 0 || flags > 32767) return { index: i, reason: 'flags must be a whole number from 0 to 32767' };
+    if (!Number.isInteger(flags) || flags < 0 || flags > 32767)
+      return { index: i, reason: 'flags must be a whole number from 0 to 32767' };
     cols.seq[i] = seq;
     cols.t[i] = t;
     cols.value[i] = value;

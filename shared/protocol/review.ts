@@ -7,7 +7,10 @@ const Words = (max: number) =>
     .trim()
     .max(max, `must be at most ${max} characters`)
     .refine((s) => !s.includes('\u0000'), 'must not contain a NUL character')
-    .refine((s) => !/[\uD800-\uDBFF](?![\uDC00-\uDFFF])|(?<![\uD800-\uDBFF])[\uDC00-\uDFFF]/.test(s), 'must be valid Unicode text');
+    .refine(
+      (s) => !/[\uD800-\uDBFF](?![\uDC00-\uDFFF])|(?<![\uD800-\uDBFF])[\uDC00-\uDFFF]/.test(s),
+      'must be valid Unicode text',
+    );
 
 /** `POST /api/studies/:id/submit` */
 export const SubmitBody = z.object({ note: Words(2000).optional() }).strict();
@@ -23,11 +26,17 @@ export const ApproveBody = z
 export type ApproveBody = z.infer<typeof ApproveBody>;
 
 /** `POST /api/studies/:id/return` — the comment tells the engineer what to change. */
-export const ReturnBody = z.object({ comment: Words(4000).pipe(z.string().min(1, 'is required: say what must change')) }).strict();
+export const ReturnBody = z
+  .object({ comment: Words(4000).pipe(z.string().min(1, 'is required: say what must change')) })
+  .strict();
 export type ReturnBody = z.infer<typeof ReturnBody>;
 
 /** `POST /api/studies/:id/reopen` */
-export const ReopenBody = z.object({ reason: Words(2000).pipe(z.string().min(1, 'is required: say why the study is reopened')) }).strict();
+export const ReopenBody = z
+  .object({
+    reason: Words(2000).pipe(z.string().min(1, 'is required: say why the study is reopened')),
+  })
+  .strict();
 export type ReopenBody = z.infer<typeof ReopenBody>;
 
 export const REVIEW_ACTIONS = ['start', 'submit', 'approve', 'return', 'reopen'] as const;
@@ -54,13 +63,19 @@ export const AuditQuery = z.object({
   kind: z
     .string()
     .trim()
-    .regex(/^[a-z][a-z0-9-]*(\.[a-z0-9-]+)*$/, 'must be an event kind such as study or study.approve')
+    .regex(
+      /^[a-z][a-z0-9-]*(\.[a-z0-9-]+)*$/,
+      'must be an event kind such as study or study.approve',
+    )
     .max(60)
     .optional(),
   from: z.coerce.date({ message: 'must be a date' }).optional(),
   to: z.coerce.date({ message: 'must be a date' }).optional(),
   limit: z.coerce.number().int().min(1).max(500).default(100),
-  cursor: z.string().regex(/^\d{1,15}$/, 'must be a cursor from a previous page').optional(),
+  cursor: z
+    .string()
+    .regex(/^\d{1,15}$/, 'must be a cursor from a previous page')
+    .optional(),
 });
 export type AuditQuery = z.infer<typeof AuditQuery>;
 
@@ -83,7 +98,13 @@ export type AuditEntry = z.infer<typeof AuditEntry>;
 export const AuditVerification = z.object({
   ok: z.boolean(),
   checked: z.number().int(),
-  firstBroken: z.object({ id: z.number().int(), reason: z.enum(['content-changed', 'link-broken']), message: z.string() }).nullable(),
+  firstBroken: z
+    .object({
+      id: z.number().int(),
+      reason: z.enum(['content-changed', 'link-broken']),
+      message: z.string(),
+    })
+    .nullable(),
   headHash: z.string().nullable(),
 });
 export type AuditVerification = z.infer<typeof AuditVerification>;
@@ -106,7 +127,10 @@ export const MailStatus = z.enum(MAIL_STATUSES);
 export const OutboxQuery = z.object({
   status: MailStatus.optional(),
   limit: z.coerce.number().int().min(1).max(500).default(100),
-  cursor: z.string().regex(/^\d{1,15}$/, 'must be a cursor from a previous page').optional(),
+  cursor: z
+    .string()
+    .regex(/^\d{1,15}$/, 'must be a cursor from a previous page')
+    .optional(),
 });
 
 export const OutboxMessage = z.object({

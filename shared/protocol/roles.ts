@@ -160,7 +160,9 @@ function compile(key: string, permission: RouteAccess): RouteRule {
 }
 
 /** The table compiled once, literal paths before patterns so `/x/new` would win over `/x/:id`. */
-export const ROUTE_RULES: readonly RouteRule[] = Object.entries(ROUTES as Record<string, RouteAccess>)
+export const ROUTE_RULES: readonly RouteRule[] = Object.entries(
+  ROUTES as Record<string, RouteAccess>,
+)
   .map(([k, p]) => compile(k, p))
   .sort((a, b) => Number(a.path.includes(':')) - Number(b.path.includes(':')));
 

@@ -143,7 +143,10 @@ export interface ScpiClient {
 const defaultAccept = (f: Frame) => (f.flags & (FrameFlag.garbage | FrameFlag.overlong)) === 0;
 
 /** Creates an SCPI client over a transport (see the module comment). */
-export function createScpiClient(transport: ScpiTransport, options: ScpiClientOptions = {}): ScpiClient {
+export function createScpiClient(
+  transport: ScpiTransport,
+  options: ScpiClientOptions = {},
+): ScpiClient {
   const term = options.writeTerminator ?? '\n';
   const enc = new TextEncoder();
   const baseTimeout = options.timeoutMs ?? 2000;
@@ -160,7 +163,10 @@ export function createScpiClient(transport: ScpiTransport, options: ScpiClientOp
     await transport.write(enc.encode(command + term));
   }
 
-  async function exchange(command: string, opts: QueryOptions): Promise<{ frame: Frame; discarded: string[] }> {
+  async function exchange(
+    command: string,
+    opts: QueryOptions,
+  ): Promise<{ frame: Frame; discarded: string[] }> {
     const timeoutMs = opts.timeoutMs ?? baseTimeout;
     const retries = opts.retries ?? baseRetries;
     const accept = opts.accept ?? defaultAccept;
@@ -178,7 +184,8 @@ export function createScpiClient(transport: ScpiTransport, options: ScpiClientOp
 
   const client: ScpiClient = {
     send: (command) => exclusive(() => send(command)),
-    queryFrame: async (command, opts = {}) => (await exclusive(() => exchange(command, opts))).frame,
+    queryFrame: async (command, opts = {}) =>
+      (await exclusive(() => exchange(command, opts))).frame,
     query: async (command, opts = {}) => (await client.queryFrame(command, opts)).text,
     async *poll(command, opts) {
       const now = opts.now ?? (() => Date.now());

@@ -18,7 +18,8 @@ export function tokenFromProtocolHeader(header: string | string[] | undefined): 
   const value = Array.isArray(header) ? header.join(',') : (header ?? '');
   for (const part of value.split(',')) {
     const p = part.trim();
-    if (p.startsWith(WS_TOKEN_PREFIX) && p.length > WS_TOKEN_PREFIX.length) return p.slice(WS_TOKEN_PREFIX.length);
+    if (p.startsWith(WS_TOKEN_PREFIX) && p.length > WS_TOKEN_PREFIX.length)
+      return p.slice(WS_TOKEN_PREFIX.length);
   }
   return null;
 }

@@ -16,7 +16,11 @@ export function textProblem(s: string): string | null {
 }
 
 /** The first string anywhere in a JSON value that cannot be stored, with its path; null when all can. */
-export function findBadText(value: unknown, path: string[] = [], depth = 0): { path: string; message: string } | null {
+export function findBadText(
+  value: unknown,
+  path: string[] = [],
+  depth = 0,
+): { path: string; message: string } | null {
   if (depth > 64) return null;
   if (typeof value === 'string') {
     const problem = textProblem(value);
@@ -56,7 +60,8 @@ function storable<S extends z.ZodType<string | null | undefined>>(schema: S) {
 export function Text(opts: { max: number; min?: number; trim?: boolean }) {
   let s = z.string();
   if (opts.trim !== false) s = s.trim();
-  if (opts.min) s = s.min(opts.min, opts.min === 1 ? 'is required' : `must be at least ${opts.min} characters`);
+  if (opts.min)
+    s = s.min(opts.min, opts.min === 1 ? 'is required' : `must be at least ${opts.min} characters`);
   s = s.max(opts.max, `must be at most ${opts.max} characters`);
   return storable(s);
 }
@@ -69,7 +74,12 @@ export const DATE_MAX = '2199-12-31';
 export function isCalendarDate(s: string): boolean {
   if (!/^\d{4}-\d{2}-\d{2}$/.test(s)) return false;
   const d = new Date(`${s}T00:00:00Z`);
-  return !Number.isNaN(d.getTime()) && d.toISOString().slice(0, 10) === s && s >= DATE_MIN && s <= DATE_MAX;
+  return (
+    !Number.isNaN(d.getTime()) &&
+    d.toISOString().slice(0, 10) === s &&
+    s >= DATE_MIN &&
+    s <= DATE_MAX
+  );
 }
 
 /** A calendar date as YYYY-MM-DD, checked as a real date in the accepted range. */

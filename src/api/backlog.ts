@@ -5,7 +5,12 @@
  */
 import { ApiError } from './http';
 import { postReadings, refusedReadingIndex } from './captures';
-import { MemoryPendingStore, ReadingUploader, type PendingStore, type UploaderState } from './uploader';
+import {
+  MemoryPendingStore,
+  ReadingUploader,
+  type PendingStore,
+  type UploaderState,
+} from './uploader';
 import { IndexedDbPendingStore } from './indexedDbStore';
 import { groupDigits } from '../utils/format';
 
@@ -46,7 +51,10 @@ export async function discardPending(store: PendingStore, captureId: number): Pr
   for (;;) {
     const chunk = await store.take(captureId, 10_000);
     if (chunk.length === 0) return;
-    await store.remove(captureId, chunk.map((r) => r.seq));
+    await store.remove(
+      captureId,
+      chunk.map((r) => r.seq),
+    );
   }
 }
 
@@ -56,12 +64,20 @@ export async function discardPending(store: PendingStore, captureId: number): Pr
  * stay for the capture's operator (the store is shared by everyone using this browser); a single
  * bad reading (400 naming its index) was already dropped by the uploader.
  */
-export async function settleBacklog(store: PendingStore, id: number, s: UploaderState, refusal: unknown): Promise<ResumeOutcome> {
+export async function settleBacklog(
+  store: PendingStore,
+  id: number,
+  s: UploaderState,
+  refusal: unknown,
+): Promise<ResumeOutcome> {
   const dropped = s.refused
     ? ` ${readingsText(s.refused)} the server named as malformed ${s.refused === 1 ? 'was' : 'were'} dropped (${s.refusedReason}).`
     : '';
   if (!s.stopped) {
-    return { kind: 'sent', message: `Capture ${id}: the readings left from an earlier session are now on the server.${dropped}` };
+    return {
+      kind: 'sent',
+      message: `Capture ${id}: the readings left from an earlier session are now on the server.${dropped}`,
+    };
   }
   const status = refusal instanceof ApiError ? refusal.status : 0;
   const n = readingsText(s.pending);
@@ -69,7 +85,10 @@ export async function settleBacklog(store: PendingStore, id: number, s: Uploader
     try {
       await discardPending(store, id);
     } catch (err) {
-      return { kind: 'kept', message: `Capture ${id}: the server will not take ${n} left from an earlier session (${s.stopped}), and they could not be deleted from this browser: ${errorText(err)}` };
+      return {
+        kind: 'kept',
+        message: `Capture ${id}: the server will not take ${n} left from an earlier session (${s.stopped}), and they could not be deleted from this browser: ${errorText(err)}`,
+      };
     }
     return {
       kind: 'discarded',
@@ -85,7 +104,10 @@ export async function settleBacklog(store: PendingStore, id: number, s: Uploader
       message: `Capture ${id}: ${n} from an earlier session are waiting in this browser, but your account may not add them. The capture's operator (or a lead or admin) must sign in here to send them.`,
     };
   }
-  return { kind: 'kept', message: `Capture ${id}: the server refused ${n} left from an earlier session (${s.stopped}). They are kept in this browser.${dropped}` };
+  return {
+    kind: 'kept',
+    message: `Capture ${id}: the server refused ${n} left from an earlier session (${s.stopped}). They are kept in this browser.${dropped}`,
+  };
 }
 
 /** One capture's backlog being sent: how many readings waited, and a promise of how it ended. */

@@ -6,10 +6,19 @@ import { http, type RequestOptions } from './http';
 import { finishCapture, type Capture } from './captures';
 import type { CaptureAbort } from '../../shared/protocol/captureLifecycle';
 
-export { CAPTURE_STATES, isRecording, stallAfterMs, type CaptureState } from '../../shared/protocol/captureLifecycle';
+export {
+  CAPTURE_STATES,
+  isRecording,
+  stallAfterMs,
+  type CaptureState,
+} from '../../shared/protocol/captureLifecycle';
 export { finishCapture };
 
 /** Abandons an open or stalled capture with a reason: its readings are kept, it enters no verdict. */
-export function abortCapture(id: number, body: CaptureAbort, options?: RequestOptions): Promise<Capture> {
+export function abortCapture(
+  id: number,
+  body: CaptureAbort,
+  options?: RequestOptions,
+): Promise<Capture> {
   return http.post<Capture>(`/api/captures/${id}/abort`, body, options);
 }

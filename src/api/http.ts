@@ -16,7 +16,13 @@ export class ApiError extends Error {
   /** Details the server sent as an object rather than a field list, e.g. `{ index, reason }` for a bad reading. */
   readonly context?: Record<string, unknown>;
 
-  constructor(status: number, code: string, message: string, details?: ApiErrorDetail[], context?: Record<string, unknown>) {
+  constructor(
+    status: number,
+    code: string,
+    message: string,
+    details?: ApiErrorDetail[],
+    context?: Record<string, unknown>,
+  ) {
     super(message);
     this.name = 'ApiError';
     this.status = status;
@@ -27,7 +33,12 @@ export class ApiError extends Error {
 }
 
 /** 401 codes that mean "the session this token stood for is over". */
-export const SESSION_LOST_CODES = ['token-expired', 'account-disabled', 'unauthorized', 'session-ended'] as const;
+export const SESSION_LOST_CODES = [
+  'token-expired',
+  'account-disabled',
+  'unauthorized',
+  'session-ended',
+] as const;
 
 export interface HttpHooks {
   /** The current session token, or null when signed out. */
@@ -61,10 +72,16 @@ const GENERIC_MESSAGES: Record<number, string> = {
   429: 'Too many attempts — please wait a moment and try again.',
 };
 
-function isErrorEnvelope(body: unknown): body is { error: { code: string; message: string; details?: unknown } } {
+function isErrorEnvelope(
+  body: unknown,
+): body is { error: { code: string; message: string; details?: unknown } } {
   if (typeof body !== 'object' || body === null || !('error' in body)) return false;
   const error = (body as { error: unknown }).error;
-  return typeof error === 'object' && error !== null && typeof (error as { code?: unknown }).code === 'string';
+  return (
+    typeof error === 'object' &&
+    error !== null &&
+    typeof (error as { code?: unknown }).code === 'string'
+  );
 }
 
 function toDetails(value: unknown): ApiErrorDetail[] | undefined {
@@ -82,11 +99,27 @@ export function toApiError(status: number, body: unknown): ApiError {
   if (isErrorEnvelope(body)) {
     const { code, message, details } = body.error;
     const text = typeof message === 'string' && message ? message : GENERIC_MESSAGES[status];
-    const context = typeof details === 'object' && details !== null && !Array.isArray(details) ? (details as Record<string, unknown>) : undefined;
-    return new ApiError(status, code, text ?? 'Something went wrong on the server.', toDetails(details), context);
+    const context =
+      typeof details === 'object' && details !== null && !Array.isArray(details)
+        ? (details as Record<string, unknown>)
+        : undefined;
+    return new ApiError(
+      status,
+      code,
+      text ?? 'Something went wrong on the server.',
+      toDetails(details),
+      context,
+    );
   }
-  const fallback = status >= 500 ? 'The server could not complete the request. Please try again.' : GENERIC_MESSAGES[status];
-  return new ApiError(status, status >= 500 ? 'server' : 'http', fallback ?? `The request failed (HTTP ${status}).`);
+  const fallback =
+    status >= 500
+      ? 'The server could not complete the request. Please try again.'
+      : GENERIC_MESSAGES[status];
+  return new ApiError(
+    status,
+    status >= 500 ? 'server' : 'http',
+    fallback ?? `The request failed (HTTP ${status}).`,
+  );
 }
 
 export async function request<T>(
@@ -111,9 +144,17 @@ export async function request<T>(
   } catch (cause) {
     if (cause instanceof DOMException && cause.name === 'AbortError') throw cause;
     if (cause instanceof DOMException && cause.name === 'TimeoutError') {
-      throw new ApiError(0, 'timeout', 'The Driftbench server did not answer in time. Check the connection and try again.');
+      throw new ApiError(
+        0,
+        'timeout',
+        'The Driftbench server did not answer in time. Check the connection and try again.',
+      );
     }
-    throw new ApiError(0, 'network', 'Driftbench cannot reach its server. Check the connection and try again.');
+    throw new ApiError(
+      0,
+      'network',
+      'Driftbench cannot reach its server. Check the connection and try again.',
+    );
   }
 
   const text = await response.text();
@@ -140,8 +181,12 @@ export async function request<T>(
 
 export const http = {
   get: <T>(path: string, options?: RequestOptions) => request<T>('GET', path, undefined, options),
-  post: <T>(path: string, body?: unknown, options?: RequestOptions) => request<T>('POST', path, body ?? {}, options),
-  patch: <T>(path: string, body: unknown, options?: RequestOptions) => request<T>('PATCH', path, body, options),
-  put: <T>(path: string, body: unknown, options?: RequestOptions) => request<T>('PUT', path, body, options),
-  delete: <T>(path: string, options?: RequestOptions) => request<T>('DELETE', path, undefined, options),
+  post: <T>(path: string, body?: unknown, options?: RequestOptions) =>
+    request<T>('POST', path, body ?? {}, options),
+  patch: <T>(path: string, body: unknown, options?: RequestOptions) =>
+    request<T>('PATCH', path, body, options),
+  put: <T>(path: string, body: unknown, options?: RequestOptions) =>
+    request<T>('PUT', path, body, options),
+  delete: <T>(path: string, options?: RequestOptions) =>
+    request<T>('DELETE', path, undefined, options),
 };

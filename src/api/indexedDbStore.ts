@@ -23,7 +23,8 @@ function done(tx: IDBTransaction): Promise<void> {
   });
 }
 
-const range = (captureId: number) => IDBKeyRange.bound([captureId, 0], [captureId, Number.MAX_SAFE_INTEGER]);
+const range = (captureId: number) =>
+  IDBKeyRange.bound([captureId, 0], [captureId, Number.MAX_SAFE_INTEGER]);
 
 /** Unacknowledged readings kept in IndexedDB, keyed by (captureId, seq), so a reload or crash loses nothing. */
 export class IndexedDbPendingStore implements PendingStore {
@@ -31,14 +32,16 @@ export class IndexedDbPendingStore implements PendingStore {
 
   constructor() {
     const open = indexedDB.open(DB_NAME, 1);
-    open.onupgradeneeded = () => open.result.createObjectStore(STORE, { keyPath: ['captureId', 'seq'] });
+    open.onupgradeneeded = () =>
+      open.result.createObjectStore(STORE, { keyPath: ['captureId', 'seq'] });
     this.db = req(open);
   }
 
   async put(captureId: number, readings: ReadingIn[]) {
     const tx = (await this.db).transaction(STORE, 'readwrite');
     const s = tx.objectStore(STORE);
-    for (const r of readings) s.put({ captureId, seq: r.seq, t: r.t, value: r.value, flags: r.flags ?? 0 } satisfies Row);
+    for (const r of readings)
+      s.put({ captureId, seq: r.seq, t: r.t, value: r.value, flags: r.flags ?? 0 } satisfies Row);
     await done(tx);
   }
 
@@ -56,7 +59,8 @@ export class IndexedDbPendingStore implements PendingStore {
     // Contiguous runs are deleted as one key range.
     let start = sorted[0];
     let prev = start;
-    const flush = (a: number, b: number) => s.delete(IDBKeyRange.bound([captureId, a], [captureId, b]));
+    const flush = (a: number, b: number) =>
+      s.delete(IDBKeyRange.bound([captureId, a], [captureId, b]));
     for (let i = 1; i < sorted.length; i++) {
       if (sorted[i] !== prev + 1) {
         flush(start, prev);

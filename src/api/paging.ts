@@ -5,7 +5,13 @@
 import { http, type RequestOptions } from './http';
 
 /** Items of every page of `path` under `key`, following `nextCursor`, at most `max` of them. */
-export async function allPages<T>(path: string, key: string, max = 2000, pageSize = 200, options?: RequestOptions): Promise<T[]> {
+export async function allPages<T>(
+  path: string,
+  key: string,
+  max = 2000,
+  pageSize = 200,
+  options?: RequestOptions,
+): Promise<T[]> {
   const items: T[] = [];
   let cursor: string | null = null;
   do {

@@ -18,7 +18,11 @@ export interface PendingStore {
  * Sends one batch; resolves with the server's answer or rejects on any failure. `signal` aborts
  * when the uploader gives up waiting (see {@link UploaderOptions.sendTimeoutMs}).
  */
-export type SendBatch = (captureId: number, readings: ReadingIn[], signal?: AbortSignal) => Promise<IngestResult>;
+export type SendBatch = (
+  captureId: number,
+  readings: ReadingIn[],
+  signal?: AbortSignal,
+) => Promise<IngestResult>;
 
 export interface UploaderOptions {
   store: PendingStore;
@@ -85,7 +89,9 @@ export class SendTimeoutError extends Error {
  * take a write (a quota error, say), the readings are held in memory and sent the same way.
  */
 export class ReadingUploader {
-  private readonly opts: Required<Omit<UploaderOptions, 'onState' | 'isPermanent' | 'refusedReading'>> &
+  private readonly opts: Required<
+    Omit<UploaderOptions, 'onState' | 'isPermanent' | 'refusedReading'>
+  > &
     Pick<UploaderOptions, 'onState' | 'isPermanent' | 'refusedReading'>;
   private timer: ReturnType<typeof setTimeout> | null = null;
   private running = false;
@@ -116,7 +122,13 @@ export class ReadingUploader {
     readonly captureId: number,
     opts: UploaderOptions,
   ) {
-    this.opts = { batchSize: 2000, flushMs: 100, backoffMs: [250, 8000], sendTimeoutMs: 30_000, ...opts };
+    this.opts = {
+      batchSize: 2000,
+      flushMs: 100,
+      backoffMs: [250, 8000],
+      sendTimeoutMs: 30_000,
+      ...opts,
+    };
     this.backoff = this.opts.backoffMs[0];
   }
 
