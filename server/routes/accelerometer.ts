@@ -12,16 +12,14 @@ export function tiltChecksRouter(pool: pg.Pool): Router {
   const r = Router();
   r.post('/:id/tilt-checks', authorize('captures:run'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res
-      .status(201)
-      .json({
-        tiltCheck: await recordTiltCheck(
-          pool,
-          id,
-          parse(TiltCheckCreate, req.body),
-          currentUser(req).id,
-        ),
-      });
+    res.status(201).json({
+      tiltCheck: await recordTiltCheck(
+        pool,
+        id,
+        parse(TiltCheckCreate, req.body),
+        currentUser(req).id,
+      ),
+    });
   });
   r.get('/:id/tilt-checks', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');

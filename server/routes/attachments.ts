@@ -21,14 +21,20 @@ import { assertStudyWritable } from '../services/studyLock.js';
  * `POST /api/{studies|checkpoints|captures}/:id/attachments` (multipart, field `file`) and the
  * matching lists, mounted under each owner's path; `GET` / `DELETE /api/attachments/:id`.
  */
-export function ownerAttachmentsRouter(ownerType: AttachmentOwner, store: BlobStore, policy: UploadPolicy): Router {
+export function ownerAttachmentsRouter(
+  ownerType: AttachmentOwner,
+  store: BlobStore,
+  policy: UploadPolicy,
+): Router {
   const r = Router();
   const upload = uploadMiddleware(store, policy);
   r.post('/:id/attachments', authorize('attachments:upload'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
     await preflightUpload(ownerType, id);
     await upload(req);
-    res.status(201).json(await recordUpload(store, ownerType, id, req.file as never, currentUser(req)));
+    res
+      .status(201)
+      .json(await recordUpload(store, ownerType, id, req.file as never, currentUser(req)));
   });
   r.get('/:id/attachments', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
@@ -49,7 +55,10 @@ export function ownerAttachmentsRouter(ownerType: AttachmentOwner, store: BlobSt
 /** RFC 6266 / 8187: an ASCII fallback name plus the exact UTF-8 name, neither able to break the header. */
 export function contentDisposition(kind: 'attachment' | 'inline', filename: string): string {
   const ascii = filename.replace(/[^\x20-\x7e]/g, '_').replace(/["\\%]/g, '_');
-  const encoded = encodeURIComponent(filename).replace(/['()*]/g, (c) => `%${c.charCodeAt(0).toString(16).toUpperCase()}`);
+  const encoded = encodeURIComponent(filename).replace(
+    /['()*]/g,
+    (c) => `%${c.charCodeAt(0).toString(16).toUpperCase()}`,
+  );
   return `${kind}; filename="${ascii}"; filename*=UTF-8''${encoded}`;
 }
 
@@ -59,13 +68,20 @@ export function attachmentsRouter(store: BlobStore): Router {
     const a = await requireAttachment(parse(IdParam, req.params, 'id').id);
     const inline = req.query.inline === '1' && a.contentType.startsWith('image/');
     const body = await store.get(a.storageKey).catch(() => null);
-    if (!body) throw new AppError(410, 'gone', 'The stored file is missing from the attachment store.');
+    if (!body)
+      throw new AppError(410, 'gone', 'The stored file is missing from the attachment store.');
     res.setHeader('Content-Type', a.contentType);
     res.setHeader('Content-Length', String(a.sizeBytes));
-    res.setHeader('Content-Disposition', contentDisposition(inline ? 'inline' : 'attachment', a.filename));
+    res.setHeader(
+      'Content-Disposition',
+      contentDisposition(inline ? 'inline' : 'attachment', a.filename),
+    );
     res.setHeader('X-Content-SHA256', a.sha256);
     res.setHeader('Cache-Control', 'private, max-age=3600');
-    res.setHeader('Content-Security-Policy', "default-src 'none'; img-src 'self'; style-src 'unsafe-inline'; sandbox");
+    res.setHeader(
+      'Content-Security-Policy',
+      "default-src 'none'; img-src 'self'; style-src 'unsafe-inline'; sandbox",
+    );
     body.on('error', () => res.destroy());
     body.pipe(res);
   });
