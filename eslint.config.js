@@ -10,12 +10,25 @@ import prettier from 'eslint-config-prettier';
 import globals from 'globals';
 
 /** `shared/` is isomorphic: it may import neither the browser app nor the server. */
-const NOT_FROM_SRC = { group: ['**/src/**', '@/*'], message: 'shared/ and server/ never import the browser app (src/).' };
-const NOT_FROM_SERVER = { group: ['**/server/**'], message: 'shared/ and src/ never import the server (server/).' };
+const NOT_FROM_SRC = {
+  group: ['**/src/**', '@/*'],
+  message: 'shared/ and server/ never import the browser app (src/).',
+};
+const NOT_FROM_SERVER = {
+  group: ['**/server/**'],
+  message: 'shared/ and src/ never import the server (server/).',
+};
 
 export default tseslint.config(
   {
-    ignores: ['dist/**', 'node_modules/**', 'test-results/**', 'coverage/**', 'public/**', '**/*.d.ts'],
+    ignores: [
+      'dist/**',
+      'node_modules/**',
+      'test-results/**',
+      'coverage/**',
+      'public/**',
+      '**/*.d.ts',
+    ],
   },
   js.configs.recommended,
   ...tseslint.configs.recommended,
@@ -24,7 +37,12 @@ export default tseslint.config(
     files: ['**/*.vue'],
     languageOptions: {
       parser: vueParser,
-      parserOptions: { parser: tseslint.parser, ecmaVersion: 'latest', sourceType: 'module', extraFileExtensions: ['.vue'] },
+      parserOptions: {
+        parser: tseslint.parser,
+        ecmaVersion: 'latest',
+        sourceType: 'module',
+        extraFileExtensions: ['.vue'],
+      },
     },
   },
   {
@@ -37,7 +55,12 @@ export default tseslint.config(
       // `_`-prefixed names are deliberately unused (placeholders, rest siblings).
       '@typescript-eslint/no-unused-vars': [
         'error',
-        { argsIgnorePattern: '^_', varsIgnorePattern: '^_', caughtErrors: 'none', ignoreRestSiblings: true },
+        {
+          argsIgnorePattern: '^_',
+          varsIgnorePattern: '^_',
+          caughtErrors: 'none',
+          ignoreRestSiblings: true,
+        },
       ],
       // Casts at the edges (JSON, Sequelize raw rows) are typed as `unknown` first where it matters.
       '@typescript-eslint/no-explicit-any': 'off',

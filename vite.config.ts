@@ -12,7 +12,11 @@ const apiPort = Number(process.env.PORT ?? 5170);
  */
 export function elementPlusStyles(): Plugin {
   const components = path.resolve('node_modules/element-plus/es/components');
-  const kebab = (name: string) => name.replace(/^(El|v)(?=[A-Z])/, '').replace(/([a-z0-9])([A-Z])/g, '$1-$2').toLowerCase();
+  const kebab = (name: string) =>
+    name
+      .replace(/^(El|v)(?=[A-Z])/, '')
+      .replace(/([a-z0-9])([A-Z])/g, '$1-$2')
+      .toLowerCase();
   return {
     name: 'driftbench-element-plus-styles',
     enforce: 'post',
@@ -21,10 +25,14 @@ export function elementPlusStyles(): Plugin {
       const styles = new Set<string>();
       for (const m of code.matchAll(/import\s*\{([^}]*)\}\s*from\s*['"]element-plus['"]/g)) {
         for (const raw of m[1].split(',')) {
-          const name = raw.trim().split(/\s+as\s+/)[0].replace(/^type\s+/, '');
+          const name = raw
+            .trim()
+            .split(/\s+as\s+/)[0]
+            .replace(/^type\s+/, '');
           if (!/^(El|v)[A-Z]/.test(name)) continue;
           const dir = kebab(name);
-          if (existsSync(path.join(components, dir, 'style', 'css.mjs'))) styles.add(`import 'element-plus/es/components/${dir}/style/css';`);
+          if (existsSync(path.join(components, dir, 'style', 'css.mjs')))
+            styles.add(`import 'element-plus/es/components/${dir}/style/css';`);
         }
       }
       return styles.size ? { code: `${[...styles].join('\n')}\n${code}`, map: null } : null;

@@ -18,10 +18,15 @@ function newest(p: string): number {
 /** Builds the client with Vite when dist/ is missing or older than its sources. */
 export function buildClientIfStale(root: string, log: (line: string) => void = console.log): void {
   const built = path.join(root, 'dist', 'index.html');
-  const sources = ['src', 'shared', 'public', 'index.html', 'vite.config.ts', 'package.json'].map((p) => newest(path.join(root, p)));
+  const sources = ['src', 'shared', 'public', 'index.html', 'vite.config.ts', 'package.json'].map(
+    (p) => newest(path.join(root, p)),
+  );
   if (existsSync(built) && statSync(built).mtimeMs >= Math.max(...sources)) return;
   log('Building the client (vite build)…');
   const vite = path.join(root, 'node_modules', 'vite', 'bin', 'vite.js');
-  const r = spawnSync(process.execPath, [vite, 'build', '--logLevel', 'warn'], { cwd: root, stdio: 'inherit' });
+  const r = spawnSync(process.execPath, [vite, 'build', '--logLevel', 'warn'], {
+    cwd: root,
+    stdio: 'inherit',
+  });
   if (r.status !== 0) throw new Error('The client build failed (see above).');
 }

@@ -2,7 +2,13 @@ import { mkdirSync } from 'node:fs';
 import path from 'node:path';
 import { pino } from 'pino';
 import { loadConfig } from '../server/config.js';
-import { startCluster, portInUse, runningPostmaster, clusterDataDir, type LocalCluster } from '../server/db/cluster.js';
+import {
+  startCluster,
+  portInUse,
+  runningPostmaster,
+  clusterDataDir,
+  type LocalCluster,
+} from '../server/db/cluster.js';
 import { ensureDatabase } from '../server/db/connection.js';
 import { DEMO_PASSWORD, DEMO_USERS, DEMO_DOMAIN } from '../server/db/seed.js';
 import { startServer, configuredServerOptions, PROJECT_ROOT } from '../server/index.js';
@@ -39,7 +45,10 @@ try {
   // DRIFTBENCH_SKIP_BUILD=1 serves dist/ as it is (the restart test; a machine without the toolchain).
   if (process.env.DRIFTBENCH_SKIP_BUILD !== '1') buildClientIfStale(PROJECT_ROOT);
   // npm start tells the demo's story: finished captures, an approved study and a capture on air.
-  const running = await startServer({ ...configuredServerOptions(config, databaseUrl, log), demoStory: config.demo });
+  const running = await startServer({
+    ...configuredServerOptions(config, databaseUrl, log),
+    demoStory: config.demo,
+  });
   console.log(`\nDriftbench is running at ${running.url}`);
   if (config.demo) {
     console.log(`Demo sign-ins (password "${DEMO_PASSWORD}"):`);

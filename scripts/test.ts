@@ -22,30 +22,42 @@ function ensureChromium(): void {
   if (root && existsSync('/etc/debian_version')) {
     console.log('Chromium not found: installing Debian\'s "chromium" package with apt…');
     const env = { ...process.env, DEBIAN_FRONTEND: 'noninteractive' };
-    for (const args of [['update', '-qq'], ['install', '-y', '-qq', 'chromium']]) {
+    for (const args of [
+      ['update', '-qq'],
+      ['install', '-y', '-qq', 'chromium'],
+    ]) {
       const r = spawnSync('apt-get', args, { env, stdio: 'inherit' });
       if (r.status !== 0) throw new Error(`apt-get ${args.join(' ')} failed`);
     }
     return;
   }
-  throw new Error(`The browser tests need Chromium at ${CHROMIUM}. Install it with: sudo apt-get install -y chromium`);
+  throw new Error(
+    `The browser tests need Chromium at ${CHROMIUM}. Install it with: sudo apt-get install -y chromium`,
+  );
 }
 
 /** The report test prints to PDF and reads it back with poppler's pdftoppm/pdftotext/pdfinfo. */
 function ensurePoppler(): void {
-  const have = ['pdftoppm', 'pdftotext', 'pdfinfo'].every((tool) => spawnSync(tool, ['-v'], { stdio: 'ignore' }).error === undefined);
+  const have = ['pdftoppm', 'pdftotext', 'pdfinfo'].every(
+    (tool) => spawnSync(tool, ['-v'], { stdio: 'ignore' }).error === undefined,
+  );
   if (have) return;
   const root = process.getuid?.() === 0;
   if (root && existsSync('/etc/debian_version')) {
     console.log('pdftoppm not found: installing Debian\'s "poppler-utils" package with apt…');
     const env = { ...process.env, DEBIAN_FRONTEND: 'noninteractive' };
-    for (const args of [['update', '-qq'], ['install', '-y', '-qq', 'poppler-utils']]) {
+    for (const args of [
+      ['update', '-qq'],
+      ['install', '-y', '-qq', 'poppler-utils'],
+    ]) {
       const r = spawnSync('apt-get', args, { env, stdio: 'inherit' });
       if (r.status !== 0) throw new Error(`apt-get ${args.join(' ')} failed`);
     }
     return;
   }
-  throw new Error('The report test needs pdftoppm and pdftotext. Install them with: sudo apt-get install -y poppler-utils');
+  throw new Error(
+    'The report test needs pdftoppm and pdftotext. Install them with: sudo apt-get install -y poppler-utils',
+  );
 }
 
 interface Counts {
@@ -54,9 +66,23 @@ interface Counts {
   skipped: number;
 }
 
-function vitest(projects: string[], jsonFile: string, filters: string[], env: NodeJS.ProcessEnv): { status: number; counts: Counts } {
+function vitest(
+  projects: string[],
+  jsonFile: string,
+  filters: string[],
+  env: NodeJS.ProcessEnv,
+): { status: number; counts: Counts } {
   const bin = path.join(PROJECT_ROOT, 'node_modules', 'vitest', 'vitest.mjs');
-  const args = [bin, 'run', ...projects.flatMap((p) => ['--project', p]), '--reporter=default', '--reporter=json', `--outputFile.json=${jsonFile}`, '--passWithNoTests', ...filters];
+  const args = [
+    bin,
+    'run',
+    ...projects.flatMap((p) => ['--project', p]),
+    '--reporter=default',
+    '--reporter=json',
+    `--outputFile.json=${jsonFile}`,
+    '--passWithNoTests',
+    ...filters,
+  ];
   const r = spawnSync(process.execPath, args, { cwd: PROJECT_ROOT, stdio: 'inherit', env });
   const counts: Counts = { passed: 0, failed: 0, skipped: 0 };
   if (existsSync(jsonFile)) {
@@ -71,7 +97,9 @@ function vitest(projects: string[], jsonFile: string, filters: string[], env: No
     counts.failed = report.numFailedTests;
     counts.skipped = report.numPendingTests + report.numTodoTests;
     // A file that failed to load has no assertion results but did fail.
-    counts.failed += (report.testResults ?? []).filter((f) => f.status === 'failed' && f.assertionResults.length === 0).length;
+    counts.failed += (report.testResults ?? []).filter(
+      (f) => f.status === 'failed' && f.assertionResults.length === 0,
+    ).length;
   } else if (r.status !== 0) {
     counts.failed += 1;
   }
@@ -86,7 +114,9 @@ function lint(): boolean {
   console.log('Lint: npm run lint (ESLint, then Prettier --check)…');
   const r = spawnSync('npm', ['run', '--silent', 'lint'], { cwd: PROJECT_ROOT, stdio: 'inherit' });
   const ok = r.status === 0;
-  console.log(ok ? 'Lint: clean.' : 'Lint: FAILED (see above); the tests still run, the run fails.');
+  console.log(
+    ok ? 'Lint: clean.' : 'Lint: FAILED (see above); the tests still run, the run fails.',
+  );
   return ok;
 }
 
@@ -106,7 +136,8 @@ process.on('SIGINT', () => {
 try {
   const filters = process.argv.slice(2);
   const lintOk = filters.length === 0 || process.env.DRIFTBENCH_LINT === '1' ? lint() : true;
-  if (filters.length > 0 && process.env.DRIFTBENCH_LINT !== '1') console.log('Lint skipped for a filtered run (npm run lint runs it).');
+  if (filters.length > 0 && process.env.DRIFTBENCH_LINT !== '1')
+    console.log('Lint skipped for a filtered run (npm run lint runs it).');
   const tmp = mkdtempSync(path.join(os.tmpdir(), 'driftbench-test-'));
   chmodSync(tmp, 0o755);
   cluster = startCluster(path.join(tmp, 'pg'), await freePort(), () => {});

@@ -27,9 +27,18 @@ import { auditRouter, reviewRouter, sealRouter } from './routes/review.js';
 import { attachmentsRouter, ownerAttachmentsRouter } from './routes/attachments.js';
 import { outboxRouter } from './routes/outbox.js';
 import { captureBaselineRouter, tiltChecksRouter } from './routes/accelerometer.js';
-import { captureEvidenceRouter, checkpointsRouter, dutDeleteRouter, studyEditRouter } from './routes/studyEdit.js';
+import {
+  captureEvidenceRouter,
+  checkpointsRouter,
+  dutDeleteRouter,
+  studyEditRouter,
+} from './routes/studyEdit.js';
 import { FolderStore, type BlobStore } from './services/storage.js';
-import { DEFAULT_UPLOAD_MAX_BYTES, DEFAULT_UPLOAD_TYPES, type UploadPolicy } from './services/attachments.js';
+import {
+  DEFAULT_UPLOAD_MAX_BYTES,
+  DEFAULT_UPLOAD_TYPES,
+  type UploadPolicy,
+} from './services/attachments.js';
 import os from 'node:os';
 
 export interface AppContext {
@@ -93,7 +102,13 @@ export function createApp(ctx: AppContext): Express {
   api.use(authenticate(ctx.jwtSecret, ctx.db.pool));
   api.use(jsonBodies());
   api.use(guardRoutes());
-  api.use('/auth', authRouter(ctx.jwtSecret, { perAddress: ctx.loginRateLimit ?? 20, perAccount: ctx.loginAccountLimit ?? 10 }));
+  api.use(
+    '/auth',
+    authRouter(ctx.jwtSecret, {
+      perAddress: ctx.loginRateLimit ?? 20,
+      perAccount: ctx.loginAccountLimit ?? 10,
+    }),
+  );
   api.use('/users', usersRouter());
   api.use('/studies', studiesRouter(ctx.db.pool));
   api.use('/instruments', instrumentsRouter());
@@ -112,11 +127,24 @@ export function createApp(ctx: AppContext): Express {
   // The comparison workbench's overlay and exports (issue 12); `/stability` before `/:id`.
   api.use('/captures', workbenchCapturesRouter(ctx.db.pool));
   api.use('/studies', workbenchStudiesRouter());
-  api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub, ctx.analysis ?? new AnalysisPool(ctx.db.url), ctx.replica));
+  api.use(
+    '/captures',
+    capturesRouter(
+      ctx.db.pool,
+      ctx.hub ?? silentHub,
+      ctx.analysis ?? new AnalysisPool(ctx.db.url),
+      ctx.replica,
+    ),
+  );
   api.use('/comparisons', comparisonsRouter(ctx.db.pool));
   // Review and the record (issue 11): workflow, audit, seals, attachments, outbox.
-  const store = ctx.attachmentStore ?? new FolderStore(path.join(os.tmpdir(), `driftbench-attachments-${process.pid}`));
-  const policy = ctx.uploadPolicy ?? { maxBytes: DEFAULT_UPLOAD_MAX_BYTES, types: DEFAULT_UPLOAD_TYPES };
+  const store =
+    ctx.attachmentStore ??
+    new FolderStore(path.join(os.tmpdir(), `driftbench-attachments-${process.pid}`));
+  const policy = ctx.uploadPolicy ?? {
+    maxBytes: DEFAULT_UPLOAD_MAX_BYTES,
+    types: DEFAULT_UPLOAD_TYPES,
+  };
   api.use('/studies', reviewRouter(ctx.db.pool), ownerAttachmentsRouter('study', store, policy));
   api.use('/checkpoints', ownerAttachmentsRouter('checkpoint', store, policy));
   api.use('/captures', sealRouter(ctx.db.pool), ownerAttachmentsRouter('capture', store, policy));

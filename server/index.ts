@@ -64,7 +64,11 @@ export interface RunningServer {
 /** Prepares the database, builds the app and WebSocket endpoints, and listens. */
 export async function startServer(opts: ServerOptions): Promise<RunningServer> {
   const log = opts.log ?? pino({ level: 'info' });
-  const db = await prepareDatabase(opts.databaseUrl, { demo: opts.demo ?? false, log, retireDemo: opts.retireDemo });
+  const db = await prepareDatabase(opts.databaseUrl, {
+    demo: opts.demo ?? false,
+    log,
+    retireDemo: opts.retireDemo,
+  });
   const hub = createLiveHub(opts.jwtSecret, db.pool);
   let stopFeeder: (() => void) | undefined;
   if (opts.demo && opts.demoStory) {
@@ -86,7 +90,9 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
     trustProxy: opts.trustProxy,
     hub,
     analysis,
-    attachmentStore: opts.dataDir ? new FolderStore(path.join(opts.dataDir, 'attachments')) : undefined,
+    attachmentStore: opts.dataDir
+      ? new FolderStore(path.join(opts.dataDir, 'attachments'))
+      : undefined,
     uploadPolicy: opts.uploadPolicy,
   });
   const server = http.createServer(app);
@@ -150,7 +156,11 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
  * The options both entries (`npm start` and running this file) take from the configuration: the
  * JWT secret from the environment or the data directory, and the built client under dist/.
  */
-export function configuredServerOptions(config: Config, databaseUrl: string, log: Logger): ServerOptions {
+export function configuredServerOptions(
+  config: Config,
+  databaseUrl: string,
+  log: Logger,
+): ServerOptions {
   return {
     databaseUrl,
     replicaUrl: config.databaseReplicaUrl,
@@ -179,8 +189,13 @@ export function configuredServerOptions(config: Config, databaseUrl: string, log
 async function main(): Promise<void> {
   const { loadConfig } = await import('./config.js');
   const config = loadConfig();
-  if (!config.databaseUrl) throw new Error('DATABASE_URL is required when running server/index.ts directly; use `npm start` otherwise.');
-  const running = await startServer(configuredServerOptions(config, config.databaseUrl, pino({ level: config.logLevel })));
+  if (!config.databaseUrl)
+    throw new Error(
+      'DATABASE_URL is required when running server/index.ts directly; use `npm start` otherwise.',
+    );
+  const running = await startServer(
+    configuredServerOptions(config, config.databaseUrl, pino({ level: config.logLevel })),
+  );
   console.log(`listening ${running.url}`);
   const stop = () => void running.close().then(() => process.exit(0));
   process.on('SIGINT', stop);

@@ -45,7 +45,11 @@ export const FLAG_CLIPPED = 0x02;
 
 /** The command byte for a register access. */
 export function command(register: number, read: boolean, stream: boolean): number {
-  return ((register & REGISTER_MASK) << CMD_REGISTER_SHIFT) | (read ? CMD_READ : 0) | (stream ? CMD_STREAM : 0);
+  return (
+    ((register & REGISTER_MASK) << CMD_REGISTER_SHIFT) |
+    (read ? CMD_READ : 0) |
+    (stream ? CMD_STREAM : 0)
+  );
 }
 
 /** Full-scale range (g) by the SPAN field; 3 is reserved and behaves as ±8 g. */
@@ -122,7 +126,8 @@ export class SimAccelerometer {
     const g = gravityVector(c.orientation);
     const scale = c.localGravity / STANDARD_GRAVITY;
     const step = c.biasStep && t >= c.biasStep.afterS ? c.biasStep.mg : { x: 0, y: 0, z: 0 };
-    const axis = (a: Axis) => g[a] * scale * (1 + c.sensErrPct[a] / 100) + (c.biasMg[a] + step[a]) / 1000;
+    const axis = (a: Axis) =>
+      g[a] * scale * (1 + c.sensErrPct[a] / 100) + (c.biasMg[a] + step[a]) / 1000;
     return { x: axis('x'), y: axis('y'), z: axis('z') };
   }
 

@@ -21,10 +21,13 @@ export function realClock(): Clock {
       const id = nextId++;
       timers.set(
         id,
-        setTimeout(() => {
-          timers.delete(id);
-          fn();
-        }, Math.max(0, ms)),
+        setTimeout(
+          () => {
+            timers.delete(id);
+            fn();
+          },
+          Math.max(0, ms),
+        ),
       );
       return { id };
     },
@@ -61,7 +64,8 @@ export class ManualClock implements Clock {
     const end = this.t + ms;
     for (;;) {
       let best: [number, { due: number; fn: () => void }] | null = null;
-      for (const entry of this.timers) if (entry[1].due <= end && (!best || entry[1].due < best[1].due)) best = entry;
+      for (const entry of this.timers)
+        if (entry[1].due <= end && (!best || entry[1].due < best[1].due)) best = entry;
       if (!best) break;
       this.timers.delete(best[0]);
       this.t = Math.max(this.t, best[1].due);

@@ -12,7 +12,13 @@ import { createLineFramer } from '../shared/protocol/framing';
 import { type Clock, type TimerHandle, realClock } from './clock';
 import { createRng, subSeed, type Rng } from './noise';
 import { Oscillator, type OscillatorConfig } from './oscillator';
-import { formatScpiNumber, headerMatches, parseTimeArg, splitCommands, type ScpiCommand } from './scpiParser';
+import {
+  formatScpiNumber,
+  headerMatches,
+  parseTimeArg,
+  splitCommands,
+  type ScpiCommand,
+} from './scpiParser';
 
 export const COUNTER_IDN = 'Driftbench Labs,SIM-CNT-1';
 export const GATE_MIN = 0.01;
@@ -71,7 +77,8 @@ export class SimCounter {
     readonly config: CounterConfig,
     private readonly clock: Clock = realClock(),
   ) {
-    if (!(config.gate >= GATE_MIN && config.gate <= GATE_MAX)) throw new RangeError('gate out of range');
+    if (!(config.gate >= GATE_MIN && config.gate <= GATE_MAX))
+      throw new RangeError('gate out of range');
     if (!(config.accel > 0)) throw new RangeError('accel must be positive');
     this.gate = config.gate;
     this.osc = new Oscillator(config.oscillator, createRng(subSeed(config.seed, 1)), config.gate);
@@ -168,7 +175,8 @@ export class SimCounter {
     const h = cmd.header;
     const is = (p: string) => headerMatches(h, p);
     if (cmd.query) {
-      if (is('*IDN')) return `${COUNTER_IDN},SN${String(this.config.seed % 100000).padStart(5, '0')},1.0.0`;
+      if (is('*IDN'))
+        return `${COUNTER_IDN},SN${String(this.config.seed % 100000).padStart(5, '0')},1.0.0`;
       if (is('*OPC')) return '1';
       if (is('SYSTem:ERRor[:NEXT]')) return this.errors.shift() ?? '0,"No error"';
       if (is('SYSTem:VERSion')) return '1999.0';
@@ -208,7 +216,8 @@ export class SimCounter {
     if (is('[SENSe]:FREQuency:GATE:TIME')) {
       const a = parseTimeArg(cmd.args);
       if (!a.ok) this.pushError(a.code, a.message);
-      else if ('keyword' in a) this.gate = a.keyword === 'MIN' ? GATE_MIN : a.keyword === 'MAX' ? GATE_MAX : 1;
+      else if ('keyword' in a)
+        this.gate = a.keyword === 'MIN' ? GATE_MIN : a.keyword === 'MAX' ? GATE_MAX : 1;
       else if (a.value < GATE_MIN || a.value > GATE_MAX) this.pushError(-222, 'Data out of range');
       else this.gate = a.value;
       return null;
@@ -258,7 +267,8 @@ export class SimCounter {
     const kind = Math.floor(r.uniform() * 3);
     if (kind === 0) {
       const n = 1 + Math.floor(r.uniform() * 3);
-      for (let i = 0; i < n; i++) bytes[Math.floor(r.uniform() * (bytes.length - 2))] = 0x80 | (r.uint32() & 0x7f);
+      for (let i = 0; i < n; i++)
+        bytes[Math.floor(r.uniform() * (bytes.length - 2))] = 0x80 | (r.uint32() & 0x7f);
       return bytes;
     }
     if (kind === 1) return bytes.slice(0, 1 + Math.floor(r.uniform() * (bytes.length - 3)));

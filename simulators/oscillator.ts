@@ -93,7 +93,10 @@ export class Oscillator {
   }
 
   private makeNoise(gate: number): FrequencyNoise {
-    return new FrequencyNoise(rescaleNoise(this.config.noise, this.config.noiseTau, gate), this.rng);
+    return new FrequencyNoise(
+      rescaleNoise(this.config.noise, this.config.noiseTau, gate),
+      this.rng,
+    );
   }
 
   /** The mean y over the gate [start, start + gate]; a new gate length restarts the noise filters. */

@@ -53,7 +53,10 @@ export const CounterParams = z.strictObject({
 });
 export type CounterParams = z.infer<typeof CounterParams>;
 
-const orientationNames = Object.keys(ORIENTATIONS) as [keyof typeof ORIENTATIONS, ...(keyof typeof ORIENTATIONS)[]];
+const orientationNames = Object.keys(ORIENTATIONS) as [
+  keyof typeof ORIENTATIONS,
+  ...(keyof typeof ORIENTATIONS)[],
+];
 
 export const SpiParams = z.strictObject({
   preset: z.literal('accel').optional(),
@@ -80,7 +83,9 @@ function failure(error: z.ZodError): { ok: false; message: string } {
   const first = error.issues[0];
   const where = first.path.length ? first.path.join('.') : 'parameters';
   const msg =
-    first.code === 'unrecognized_keys' ? `unknown parameter ${first.keys.join(', ')}` : `${where}: ${first.message}`;
+    first.code === 'unrecognized_keys'
+      ? `unknown parameter ${first.keys.join(', ')}`
+      : `${where}: ${first.message}`;
   return { ok: false, message: msg };
 }
 
@@ -94,14 +99,23 @@ export function counterConfigFromQuery(query: URLSearchParams): ParamResult<Coun
   // Without a preset, noise overrides replace the preset's noise instead of adding to it.
   const noiseGiven = [p.wpm, p.fpm, p.wfm, p.ffm, p.rwfm].some((v) => v !== undefined);
   if (noiseGiven) {
-    o.noise = { wpm: p.wpm ?? 0, fpm: p.fpm ?? 0, wfm: p.wfm ?? 0, ffm: p.ffm ?? 0, rwfm: p.rwfm ?? 0 };
+    o.noise = {
+      wpm: p.wpm ?? 0,
+      fpm: p.fpm ?? 0,
+      wfm: p.wfm ?? 0,
+      ffm: p.ffm ?? 0,
+      rwfm: p.rwfm ?? 0,
+    };
     o.noiseTau = p.gate ?? 1; // levels given in the URL are σ at τ0 = the gate
   }
   if (p.nominal !== undefined) o.nominal = p.nominal;
   if (p.offsetPpm !== undefined) o.offsetPpm = p.offsetPpm;
   if (p.agingPpbPerDay !== undefined) o.agingPpbPerDay = p.agingPpbPerDay;
-  if (p.tempcoPpm !== undefined) o.temperature = { kind: 'linear', ppmPerC: p.tempcoPpm, refC: o.ambient.meanC };
-  const scenario = p.scenario ?? (p.stepPpm !== undefined ? 'step' : p.rampPpmPerHour !== undefined ? 'ramp' : 'none');
+  if (p.tempcoPpm !== undefined)
+    o.temperature = { kind: 'linear', ppmPerC: p.tempcoPpm, refC: o.ambient.meanC };
+  const scenario =
+    p.scenario ??
+    (p.stepPpm !== undefined ? 'step' : p.rampPpmPerHour !== undefined ? 'ramp' : 'none');
   const afterS = p.stepAfter ?? 0;
   if (scenario === 'step') o.scenario = { kind: 'step', ppm: p.stepPpm ?? 0, afterS };
   if (scenario === 'ramp') o.scenario = { kind: 'ramp', ppmPerHour: p.rampPpmPerHour ?? 0, afterS };

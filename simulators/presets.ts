@@ -100,7 +100,10 @@ export function presetSeed(name: string, checkpoint: number): number {
 }
 
 /** The oscillator of a counter preset at a checkpoint (σ levels at τ = 1 s). */
-export function presetOscillator(name: CounterPresetName, checkpoint: CheckpointIndex): OscillatorConfig {
+export function presetOscillator(
+  name: CounterPresetName,
+  checkpoint: CheckpointIndex,
+): OscillatorConfig {
   const p = COUNTER_PRESETS[name];
   return {
     nominal: p.nominal,

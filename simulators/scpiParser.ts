@@ -82,7 +82,8 @@ export function headerMatches(header: string, pattern: string): boolean {
   const match = (i: number, j: number): boolean => {
     if (j === nodes!.length) return i === tokens.length;
     const n = nodes![j];
-    if (i < tokens.length && (tokens[i] === n.short || tokens[i] === n.long) && match(i + 1, j + 1)) return true;
+    if (i < tokens.length && (tokens[i] === n.short || tokens[i] === n.long) && match(i + 1, j + 1))
+      return true;
     return n.optional && match(i, j + 1);
   };
   return match(0, 0);
@@ -105,7 +106,8 @@ export function parseTimeArg(args: string): NumericArg {
   if (!m) return { ok: false, code: -104, message: 'Data type error' };
   // SCPI suffixes are case-insensitive, so MS means milliseconds (SCPI-1999 suffix rules; memory).
   const suffix = m[2].toUpperCase();
-  const factor = suffix === '' || suffix === 'S' ? 1 : suffix === 'MS' ? 1e-3 : suffix === 'US' ? 1e-6 : NaN;
+  const factor =
+    suffix === '' || suffix === 'S' ? 1 : suffix === 'MS' ? 1e-3 : suffix === 'US' ? 1e-6 : NaN;
   if (Number.isNaN(factor)) return { ok: false, code: -131, message: 'Invalid suffix' };
   return { ok: true, value: Number(m[1]) * factor };
 }

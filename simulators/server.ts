@@ -89,7 +89,8 @@ export function createSimulatorHub(opts: SimulatorHubOptions = {}): SimulatorHub
     ws.on('pong', () => alive.set(ws, true));
     ws.on('error', (err) => log(`sim socket error: ${err.message}`));
     const send = (bytes: Uint8Array) => {
-      if (ws.readyState === ws.OPEN && ws.bufferedAmount < maxBuffered) ws.send(bytes, { binary: true });
+      if (ws.readyState === ws.OPEN && ws.bufferedAmount < maxBuffered)
+        ws.send(bytes, { binary: true });
     };
     let device: Device;
     if (path === '/sim/counter') {
@@ -106,7 +107,10 @@ export function createSimulatorHub(opts: SimulatorHubOptions = {}): SimulatorHub
     } else {
       const r = accelConfigFromQuery(query);
       if (!r.ok) return ws.close(1008, reason(`bad spi-bridge parameters: ${r.message}`));
-      const bridge = new SimSpiBridge(new SimAccelerometer(r.config, makeClock()), `SN${String(r.config.seed % 100000).padStart(5, '0')}`);
+      const bridge = new SimSpiBridge(
+        new SimAccelerometer(r.config, makeClock()),
+        `SN${String(r.config.seed % 100000).padStart(5, '0')}`,
+      );
       bridge.onData = send;
       device = bridge;
     }

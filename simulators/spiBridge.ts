@@ -15,7 +15,10 @@ export interface SpiDevice {
 
 export class SimSpiBridge {
   onData: (bytes: Uint8Array) => void = () => {};
-  private readonly framer = createLineFramer({ terminator: 'auto', maxLine: HEX_MAX_BYTES * 3 + 16 });
+  private readonly framer = createLineFramer({
+    terminator: 'auto',
+    maxLine: HEX_MAX_BYTES * 3 + 16,
+  });
   private readonly enc = new TextEncoder();
   private stopped = false;
 
@@ -27,7 +30,8 @@ export class SimSpiBridge {
   /** Bytes arriving on the bridge's RX line. */
   write(bytes: Uint8Array): void {
     if (this.stopped) return;
-    for (const frame of this.framer.push(bytes)) this.reply(this.handle(frame.text, frame.flags !== 0));
+    for (const frame of this.framer.push(bytes))
+      this.reply(this.handle(frame.text, frame.flags !== 0));
   }
 
   stop(): void {

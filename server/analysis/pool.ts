@@ -25,13 +25,15 @@ interface Slot {
 
 /** Workers for a 2-core machine: one, leaving a core for the event loop and PostgreSQL. */
 export function defaultPoolSize(): number {
-  const cores = typeof os.availableParallelism === 'function' ? os.availableParallelism() : os.cpus().length;
+  const cores =
+    typeof os.availableParallelism === 'function' ? os.availableParallelism() : os.cpus().length;
   return Math.max(1, Math.min(4, cores - 1));
 }
 
 function toError(e: JobError): Error {
   if (e.type === 'app') return new AppError(e.status ?? 500, e.code, e.message, e.details);
-  if (e.type === 'analysis') return new AnalysisError(e.code as ConstructorParameters<typeof AnalysisError>[0], e.message);
+  if (e.type === 'analysis')
+    return new AnalysisError(e.code as ConstructorParameters<typeof AnalysisError>[0], e.message);
   return Object.assign(new Error(e.message), { code: e.code });
 }
 
@@ -47,15 +49,25 @@ export interface AnalysisPoolStats {
  * computed. Appended to the cached JSON text, so a cache hit costs no parse.
  */
 function withCoverage(json: string, readings: number, captureReadings: number, at: number): string {
-  const coverage = { readings, captureReadings: Math.max(readings, captureReadings), computedAt: new Date(at).toISOString() };
+  const coverage = {
+    readings,
+    captureReadings: Math.max(readings, captureReadings),
+    computedAt: new Date(at).toISOString(),
+  };
   return `${json.slice(0, -1)},"coverage":${JSON.stringify(coverage)}}`;
 }
 
 export class AnalysisPool {
   private readonly slots: Slot[] = [];
   private readonly queue: Array<{ job: AnalysisJob; pending: Pending }> = [];
-  private readonly inFlight = new Map<string, Promise<{ json: string; readingCount: number; at: number }>>();
-  private readonly cache = new Map<string, { readingCount: number; state: string; json: string; at: number; took: number }>();
+  private readonly inFlight = new Map<
+    string,
+    Promise<{ json: string; readingCount: number; at: number }>
+  >();
+  private readonly cache = new Map<
+    string,
+    { readingCount: number; state: string; json: string; at: number; took: number }
+  >();
   private nextId = 1;
   private closed = false;
   readonly stats: AnalysisPoolStats = { computed: 0, cacheHits: 0, coalesced: 0 };
@@ -86,7 +98,8 @@ export class AnalysisPool {
       this.pump();
     });
     const fail = (err: unknown) => {
-      for (const p of slot.pending.values()) p.reject(err instanceof Error ? err : new Error(String(err)));
+      for (const p of slot.pending.values())
+        p.reject(err instanceof Error ? err : new Error(String(err)));
       slot.pending.clear();
       const i = this.slots.indexOf(slot);
       if (i >= 0) this.slots.splice(i, 1);
@@ -127,13 +140,23 @@ export class AnalysisPool {
    * for the same capture and query is joined instead of started again. The answer is the JSON
    * text, serialised once however many requests it serves.
    */
-  async analysis(job: AnalysisJob, current: { readingCount: number; state: string }): Promise<string> {
+  async analysis(
+    job: AnalysisJob,
+    current: { readingCount: number; state: string },
+  ): Promise<string> {
     const key = `${job.captureId}|${job.kind}|${job.taus}|${job.confidence ?? ''}|${job.drift ?? ''}`;
     const hit = this.cache.get(key);
     const freshMs = this.opts.openFreshMs ?? 5000;
     const fresh =
-      !!hit && freshMs > 0 && hit.state === 'open' && current.state === 'open' && Date.now() - hit.at < Math.max(freshMs, 2 * hit.took);
-    if (hit && ((hit.readingCount === current.readingCount && hit.state === current.state) || fresh)) {
+      !!hit &&
+      freshMs > 0 &&
+      hit.state === 'open' &&
+      current.state === 'open' &&
+      Date.now() - hit.at < Math.max(freshMs, 2 * hit.took);
+    if (
+      hit &&
+      ((hit.readingCount === current.readingCount && hit.state === current.state) || fresh)
+    ) {
       this.stats.cacheHits++;
       this.cache.delete(key);
       this.cache.set(key, hit);
@@ -146,14 +169,25 @@ export class AnalysisPool {
       return withCoverage(done.json, done.readingCount, current.readingCount, done.at);
     }
     const startedAt = Date.now();
-    const started = this.run(job).then((r) => ({ json: r.json, readingCount: r.readingCount, at: Date.now() }));
+    const started = this.run(job).then((r) => ({
+      json: r.json,
+      readingCount: r.readingCount,
+      at: Date.now(),
+    }));
     this.inFlight.set(key, started);
     try {
       const done = await started;
       this.stats.computed++;
       this.cache.delete(key);
-      this.cache.set(key, { readingCount: done.readingCount, state: current.state, json: done.json, at: done.at, took: done.at - startedAt });
-      if (this.cache.size > (this.opts.cacheSize ?? 64)) this.cache.delete(this.cache.keys().next().value!);
+      this.cache.set(key, {
+        readingCount: done.readingCount,
+        state: current.state,
+        json: done.json,
+        at: done.at,
+        took: done.at - startedAt,
+      });
+      if (this.cache.size > (this.opts.cacheSize ?? 64))
+        this.cache.delete(this.cache.keys().next().value!);
       return withCoverage(done.json, done.readingCount, current.readingCount, done.at);
     } finally {
       this.inFlight.delete(key);

@@ -22,4 +22,6 @@ export interface JobError {
 
 export type WorkerRequest = { id: number; job: AnalysisJob };
 /** `json`: the answer already serialised in the worker, so the event loop never stringifies it. */
-export type WorkerReply = { id: number; ok: true; json: string; readingCount: number } | { id: number; ok: false; error: JobError };
+export type WorkerReply =
+  | { id: number; ok: true; json: string; readingCount: number }
+  | { id: number; ok: false; error: JobError };

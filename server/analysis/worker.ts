@@ -10,7 +10,15 @@ import { openDatabase } from '../db/connection.js';
 import { initModels, Capture, Dut } from '../models/index.js';
 import { AppError, NotFoundError } from '../errors.js';
 import { AnalysisError } from '../../shared/analysis/index.js';
-import { defaultDrift, prepare, reduce, stabilityOf, withDrift, SUMMARY_VERSION, type CaptureSummary } from '../services/captureAnalysis.js';
+import {
+  defaultDrift,
+  prepare,
+  reduce,
+  stabilityOf,
+  withDrift,
+  SUMMARY_VERSION,
+  type CaptureSummary,
+} from '../services/captureAnalysis.js';
 import type { Series } from '../services/readings.js';
 import { implausibleNote } from '../../shared/protocol/plausibility.js';
 import type { AnalysisJob, JobError, WorkerReply, WorkerRequest } from './protocol.js';
@@ -45,7 +53,12 @@ function concat<T extends Int32Array | Float64Array | Int16Array>(a: T, b: T): T
 
 function toSeries(rows: Array<[number, number, number, number]>): Series {
   const n = rows.length;
-  const s: Series = { seq: new Int32Array(n), t: new Float64Array(n), value: new Float64Array(n), flags: new Int16Array(n) };
+  const s: Series = {
+    seq: new Int32Array(n),
+    t: new Float64Array(n),
+    value: new Float64Array(n),
+    flags: new Int16Array(n),
+  };
   for (let i = 0; i < n; i++) {
     const r = rows[i];
     s.seq[i] = r[0];
@@ -65,7 +78,10 @@ async function seriesOf(captureId: number): Promise<Held> {
   const client = await db.pool.connect();
   try {
     await client.query('BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY');
-    const countRes = await client.query<{ reading_count: number }>('SELECT reading_count FROM captures WHERE id = $1', [captureId]);
+    const countRes = await client.query<{ reading_count: number }>(
+      'SELECT reading_count FROM captures WHERE id = $1',
+      [captureId],
+    );
     const count = countRes.rows[0]?.reading_count ?? 0;
     const prev = held.get(captureId);
     const read = async (after: number) =>
@@ -81,7 +97,8 @@ async function seriesOf(captureId: number): Promise<Held> {
     let next: Held;
     if (prev && prev.count === count) next = prev;
     else {
-      const last = prev && prev.series.seq.length ? prev.series.seq[prev.series.seq.length - 1] : -1;
+      const last =
+        prev && prev.series.seq.length ? prev.series.seq[prev.series.seq.length - 1] : -1;
       const fresh = prev ? await read(last) : null;
       if (prev && fresh && prev.count + fresh.seq.length === count) {
         next = {
@@ -119,7 +136,8 @@ async function analyse(job: AnalysisJob): Promise<{ result: unknown; readingCoun
   const drift = job.drift ?? defaultDrift(c);
   const stored = c.summary as CaptureSummary | null;
   const custom = drift !== defaultDrift(c);
-  const useStored = c.state !== 'open' && !!stored && (stored.version ?? 0) >= SUMMARY_VERSION && !custom;
+  const useStored =
+    c.state !== 'open' && !!stored && (stored.version ?? 0) >= SUMMARY_VERSION && !custom;
   const defaultStability = job.kind === 'oadev' && job.taus === 'octave' && !job.confidence;
   let summary: CaptureSummary;
   let prepared = null;
@@ -135,7 +153,9 @@ async function analyse(job: AnalysisJob): Promise<{ result: unknown; readingCoun
       if (note) summary = { ...summary, notes: [...summary.notes, note] };
     }
   }
-  const stability = defaultStability ? summary.stability : stabilityOf(withDrift(prepared!, drift, []).prepared, job.kind, job.taus, job.confidence);
+  const stability = defaultStability
+    ? summary.stability
+    : stabilityOf(withDrift(prepared!, drift, []).prepared, job.kind, job.taus, job.confidence);
   return {
     readingCount,
     result: {
@@ -156,15 +176,38 @@ async function analyse(job: AnalysisJob): Promise<{ result: unknown; readingCoun
 }
 
 function asJobError(err: unknown): JobError {
-  if (err instanceof AppError) return { type: 'app', status: err.status, code: err.code, message: err.message, details: err.details };
-  if (err instanceof AnalysisError) return { type: 'analysis', code: err.code, message: err.message };
+  if (err instanceof AppError)
+    return {
+      type: 'app',
+      status: err.status,
+      code: err.code,
+      message: err.message,
+      details: err.details,
+    };
+  if (err instanceof AnalysisError)
+    return { type: 'analysis', code: err.code, message: err.message };
   const e = err as { code?: unknown; message?: unknown };
-  return { type: 'internal', code: typeof e?.code === 'string' ? e.code : 'internal', message: String(e?.message ?? err) };
+  return {
+    type: 'internal',
+    code: typeof e?.code === 'string' ? e.code : 'internal',
+    message: String(e?.message ?? err),
+  };
 }
 
 parentPort!.on('message', (msg: WorkerRequest) => {
   analyse(msg.job).then(
-    ({ result, readingCount }) => parentPort!.postMessage({ id: msg.id, ok: true, json: JSON.stringify(result), readingCount } satisfies WorkerReply),
-    (err) => parentPort!.postMessage({ id: msg.id, ok: false, error: asJobError(err) } satisfies WorkerReply),
+    ({ result, readingCount }) =>
+      parentPort!.postMessage({
+        id: msg.id,
+        ok: true,
+        json: JSON.stringify(result),
+        readingCount,
+      } satisfies WorkerReply),
+    (err) =>
+      parentPort!.postMessage({
+        id: msg.id,
+        ok: false,
+        error: asJobError(err),
+      } satisfies WorkerReply),
   );
 });

@@ -36,7 +36,11 @@ export function openDatabase(url: string, opts: { poolMax?: number } = {}): Data
 }
 
 /** Creates database `name` on the server of `adminUrl` if it does not exist (optionally from a template). */
-export async function ensureDatabase(adminUrl: string, name: string, template?: string): Promise<void> {
+export async function ensureDatabase(
+  adminUrl: string,
+  name: string,
+  template?: string,
+): Promise<void> {
   if (!/^[a-z_][a-z0-9_]*$/.test(name)) throw new Error(`unsafe database name: ${name}`);
   const client = new pg.Client({ connectionString: adminUrl });
   await client.connect();

@@ -12,7 +12,9 @@ import { audit } from '../services/audit.js';
  * Returns the e-mails deactivated.
  */
 export async function retireDemoAccounts(log?: Logger): Promise<string[]> {
-  const candidates = await User.findAll({ where: { email: { [Op.like]: `%@${DEMO_DOMAIN}` }, active: true } });
+  const candidates = await User.findAll({
+    where: { email: { [Op.like]: `%@${DEMO_DOMAIN}` }, active: true },
+  });
   const retired: string[] = [];
   for (const user of candidates) {
     if (!(await passwordMatches(DEMO_PASSWORD, user.passwordHash))) continue;
@@ -20,10 +22,21 @@ export async function retireDemoAccounts(log?: Logger): Promise<string[]> {
       user.active = false;
       user.tokenVersion = user.tokenVersion + 1;
       await user.save({ transaction });
-      await audit(null, 'user.deactivate', 'user', user.id, { reason: 'demo account in production' }, transaction);
+      await audit(
+        null,
+        'user.deactivate',
+        'user',
+        user.id,
+        { reason: 'demo account in production' },
+        transaction,
+      );
     });
     retired.push(user.email);
   }
-  if (retired.length) log?.warn({ accounts: retired }, 'demo accounts deactivated: production mode without DRIFTBENCH_DEMO=1');
+  if (retired.length)
+    log?.warn(
+      { accounts: retired },
+      'demo accounts deactivated: production mode without DRIFTBENCH_DEMO=1',
+    );
   return retired;
 }

@@ -23,7 +23,13 @@ import type { LiveHub } from '../ws/live.js';
 import { SimCounter } from '../../simulators/counter.js';
 import { ManualClock } from '../../simulators/clock.js';
 import { createRng, subSeed } from '../../simulators/noise.js';
-import { ACCEL_PRESET, presetCounter, presetSeed, type CheckpointIndex, type CounterPresetName } from '../../simulators/presets.js';
+import {
+  ACCEL_PRESET,
+  presetCounter,
+  presetSeed,
+  type CheckpointIndex,
+  type CounterPresetName,
+} from '../../simulators/presets.js';
 import { DEMO_PASSWORD } from './seed.js';
 
 export const DEMO_STUDY_TITLE = 'Aqueous ultrasonic wash — sensor-hub board rev C';
@@ -60,19 +66,35 @@ async function cast(): Promise<Cast | null> {
 }
 
 /** Counter readings of a preset at a checkpoint: frequency in Hz as the simulated counter displays it. */
-export function counterReadings(preset: CounterPresetName, checkpoint: CheckpointIndex, n: number, opts: { noiseScale?: number; seedOffset?: number } = {}): number[] {
+export function counterReadings(
+  preset: CounterPresetName,
+  checkpoint: CheckpointIndex,
+  n: number,
+  opts: { noiseScale?: number; seedOffset?: number } = {},
+): number[] {
   const config = presetCounter(preset, checkpoint);
   const scale = opts.noiseScale ?? 1;
-  const noise = Object.fromEntries(Object.entries(config.oscillator.noise).map(([k, v]) => [k, (v ?? 0) * scale]));
+  const noise = Object.fromEntries(
+    Object.entries(config.oscillator.noise).map(([k, v]) => [k, (v ?? 0) * scale]),
+  );
   const sim = new SimCounter(
-    { ...config, oscillator: { ...config.oscillator, noise }, garble: 0, seed: config.seed + (opts.seedOffset ?? 0) },
+    {
+      ...config,
+      oscillator: { ...config.oscillator, noise },
+      garble: 0,
+      seed: config.seed + (opts.seedOffset ?? 0),
+    },
     new ManualClock(),
   );
   return Array.from({ length: n }, () => sim.nextReading().value);
 }
 
 /** Z-axis readings of the demo accelerometer (mg) in one orientation: gravity, the part's bias and scale error, noise. */
-function accelReadings(checkpoint: CheckpointIndex, orientation: 'flat' | 'on-edge' | 'inverted', n: number): number[] {
+function accelReadings(
+  checkpoint: CheckpointIndex,
+  orientation: 'flat' | 'on-edge' | 'inverted',
+  n: number,
+): number[] {
   const p = ACCEL_PRESET;
   const rng = createRng(subSeed(presetSeed('accel', checkpoint), orientation.length));
   const g = orientation === 'flat' ? 1000 : orientation === 'inverted' ? -1000 : 0;
@@ -91,7 +113,9 @@ async function capture(
   const c = await createCapture({ ...create, simulated: true }, who);
   const gate = create.gateTime;
   for (let start = 0; start < values.length; start += 2000) {
-    const readings = values.slice(start, start + 2000).map((value, i) => ({ seq: start + i, t: (start + i) * gate, value }));
+    const readings = values
+      .slice(start, start + 2000)
+      .map((value, i) => ({ seq: start + i, t: (start + i) * gate, value }));
     await ingestReadings(pool, hub, who, c.id, { readings });
   }
   if (opts.finish ?? true) await finishCapture(pool, hub, who, c.id);
@@ -99,7 +123,11 @@ async function capture(
 }
 
 /** Seeds the story once; returns the id of the capture left on air (or null when nothing was seeded). */
-export async function seedDemoStory(pool: pg.Pool, hub: LiveHub, log?: Logger): Promise<number | null> {
+export async function seedDemoStory(
+  pool: pg.Pool,
+  hub: LiveHub,
+  log?: Logger,
+): Promise<number | null> {
   const study = await Study.findOne({ where: { title: DEMO_STUDY_TITLE } });
   if (!study) return null;
   const duts = await Dut.findAll({ where: { studyId: study.id }, order: [['id', 'ASC']] });
@@ -107,9 +135,18 @@ export async function seedDemoStory(pool: pg.Pool, hub: LiveHub, log?: Logger): 
   const people = await cast();
   if (!people) return null;
   const started = Date.now();
-  const checkpoints = await Checkpoint.findAll({ where: { studyId: study.id }, order: [['position', 'ASC'], ['id', 'ASC']] });
+  const checkpoints = await Checkpoint.findAll({
+    where: { studyId: study.id },
+    order: [
+      ['position', 'ASC'],
+      ['id', 'ASC'],
+    ],
+  });
   const counter = await Instrument.findOne({ where: { kind: 'counter' }, order: [['id', 'ASC']] });
-  const bridge = await Instrument.findOne({ where: { kind: 'spi-bridge' }, order: [['id', 'ASC']] });
+  const bridge = await Instrument.findOne({
+    where: { kind: 'spi-bridge' },
+    order: [['id', 'ASC']],
+  });
   const reference = await Reference.findOne({ order: [['id', 'ASC']] });
   const { technician } = people;
   let onAir: number | null = null;
@@ -133,9 +170,30 @@ export async function seedDemoStory(pool: pg.Pool, hub: LiveHub, log?: Logger): 
       if (preset === 'xtal-16m' && cp === 3) {
         // A short capture while the bench was being moved: 20 readings with the noise raised a
         // thousand-fold. Its U spans the limit, so the cell is honestly inconclusive.
-        await capture(pool, hub, technician, { ...base, notes: 'Short capture; the bench was disturbed (door slammed, cable moved). Re-capture planned.' }, counterReadings(preset, cp, 20, { noiseScale: 2000 }));
+        await capture(
+          pool,
+          hub,
+          technician,
+          {
+            ...base,
+            notes:
+              'Short capture; the bench was disturbed (door slammed, cable moved). Re-capture planned.',
+          },
+          counterReadings(preset, cp, 20, { noiseScale: 2000 }),
+        );
         // The re-capture is on air: started now, fed by the demo feeder while the server runs.
-        onAir = await capture(pool, hub, technician, { ...base, notes: 'Re-capture of the disturbed after-bake reading (demo: fed live by the simulator).' }, counterReadings(preset, cp, 30, { seedOffset: 7 }), { finish: false });
+        onAir = await capture(
+          pool,
+          hub,
+          technician,
+          {
+            ...base,
+            notes:
+              'Re-capture of the disturbed after-bake reading (demo: fed live by the simulator).',
+          },
+          counterReadings(preset, cp, 30, { seedOffset: 7 }),
+          { finish: false },
+        );
         continue;
       }
       await capture(pool, hub, technician, base, counterReadings(preset, cp, READINGS));
@@ -149,7 +207,8 @@ export async function seedDemoStory(pool: pg.Pool, hub: LiveHub, log?: Logger): 
     for (const cp of [0, 1, 2, 3] as CheckpointIndex[]) {
       const checkpoint = checkpoints[cp];
       if (!checkpoint) continue;
-      const orientations = cp === 0 || cp === 3 ? (['on-edge', 'inverted', 'flat'] as const) : (['flat'] as const);
+      const orientations =
+        cp === 0 || cp === 3 ? (['on-edge', 'inverted', 'flat'] as const) : (['flat'] as const);
       const ids: Partial<Record<(typeof orientations)[number], number>> = {};
       for (const orientation of orientations) {
         ids[orientation] = await capture(
@@ -173,7 +232,18 @@ export async function seedDemoStory(pool: pg.Pool, hub: LiveHub, log?: Logger): 
       }
       // The tilt check's result, stored as the bench stores it: the matrix compares it across checkpoints.
       if (ids.flat && ids.inverted) {
-        await recordTiltCheck(pool, accel.id, { checkpointId: checkpoint.id, axis: 'z', flatCaptureId: ids.flat, invertedCaptureId: ids.inverted, onEdgeCaptureId: ids['on-edge'] ?? null }, technician.id);
+        await recordTiltCheck(
+          pool,
+          accel.id,
+          {
+            checkpointId: checkpoint.id,
+            axis: 'z',
+            flatCaptureId: ids.flat,
+            invertedCaptureId: ids.inverted,
+            onEdgeCaptureId: ids['on-edge'] ?? null,
+          },
+          technician.id,
+        );
       }
     }
   }
@@ -184,31 +254,86 @@ export async function seedDemoStory(pool: pg.Pool, hub: LiveHub, log?: Logger): 
 }
 
 /** A small reflow study, captured, submitted by the engineer and approved by the lead: a report to read. */
-async function seedApprovedStudy(pool: pg.Pool, hub: LiveHub, people: Cast, counterId?: number, referenceId?: number): Promise<void> {
+async function seedApprovedStudy(
+  pool: pg.Pool,
+  hub: LiveHub,
+  people: Cast,
+  counterId?: number,
+  referenceId?: number,
+): Promise<void> {
   const created = await createStudy(
     {
       title: DEMO_APPROVED_TITLE,
       process: 'Reflow soldering, profile B (one pass)',
-      description: 'Check that one pass of reflow profile B leaves the 16 MHz crystal on the carrier board within ±1 ppm.',
+      description:
+        'Check that one pass of reflow profile B leaves the 16 MHz crystal on the carrier board within ±1 ppm.',
     },
     people.engineer.id,
   );
   const studyId = created.id;
   await Study.update({ allowSimulated: true }, { where: { id: studyId } });
   const baseline = await addCheckpoint(studyId, { name: 'Baseline' }, people.engineer.id);
-  const after = await addCheckpoint(studyId, { name: 'After reflow (1 pass)', exposure: { kind: 'reflow', process: 'Reflow, profile B', peakC: 245, secondsAboveLiquidus: 60, passes: 1 } }, people.engineer.id);
-  const dut = await addDut(studyId, { label: 'Y1 16 MHz crystal (carrier)', kind: 'crystal', nominal: 16_000_000, unit: 'Hz', limit: 1, limitUnit: 'ppm', position: 'Y1', serial: 'CB-0007-Y1' }, people.engineer.id);
-  for (const [cp, checkpoint] of [[0, baseline], [1, after]] as const) {
+  const after = await addCheckpoint(
+    studyId,
+    {
+      name: 'After reflow (1 pass)',
+      exposure: {
+        kind: 'reflow',
+        process: 'Reflow, profile B',
+        peakC: 245,
+        secondsAboveLiquidus: 60,
+        passes: 1,
+      },
+    },
+    people.engineer.id,
+  );
+  const dut = await addDut(
+    studyId,
+    {
+      label: 'Y1 16 MHz crystal (carrier)',
+      kind: 'crystal',
+      nominal: 16_000_000,
+      unit: 'Hz',
+      limit: 1,
+      limitUnit: 'ppm',
+      position: 'Y1',
+      serial: 'CB-0007-Y1',
+    },
+    people.engineer.id,
+  );
+  for (const [cp, checkpoint] of [
+    [0, baseline],
+    [1, after],
+  ] as const) {
     await capture(
       pool,
       hub,
       people.technician,
-      { dutId: dut.id, checkpointId: checkpoint.id, quantity: 'frequency', unit: 'Hz', gateTime: 1, instrumentId: counterId, referenceId, ambientC: AMBIENT[cp] },
+      {
+        dutId: dut.id,
+        checkpointId: checkpoint.id,
+        quantity: 'frequency',
+        unit: 'Hz',
+        gateTime: 1,
+        instrumentId: counterId,
+        referenceId,
+        ambientC: AMBIENT[cp],
+      },
       counterReadings('xtal-16m', cp as CheckpointIndex, READINGS, { seedOffset: 101 }),
     );
   }
-  await submitStudy(studyId, people.engineer, 'Both captures finished; the crystal moved by a few ppb.');
-  await approveStudy(pool, studyId, people.lead, DEMO_PASSWORD, 'Within ±1 ppm with margin; approved.');
+  await submitStudy(
+    studyId,
+    people.engineer,
+    'Both captures finished; the crystal moved by a few ppb.',
+  );
+  await approveStudy(
+    pool,
+    studyId,
+    people.lead,
+    DEMO_PASSWORD,
+    'Within ±1 ppm with margin; approved.',
+  );
 }
 
 /**
@@ -216,7 +341,12 @@ async function seedApprovedStudy(pool: pg.Pool, hub: LiveHub, people: Cast, coun
  * can watch a capture live. Resumes after a restart from the capture's highest stored seq. Returns
  * a stop function.
  */
-export function startDemoFeeder(pool: pg.Pool, hub: LiveHub, captureId: number, log?: Logger): () => void {
+export function startDemoFeeder(
+  pool: pg.Pool,
+  hub: LiveHub,
+  captureId: number,
+  log?: Logger,
+): () => void {
   let stopped = false;
   let timer: NodeJS.Timeout | undefined;
   const tick = async () => {
@@ -228,7 +358,9 @@ export function startDemoFeeder(pool: pg.Pool, hub: LiveHub, captureId: number, 
       if (!operator) return;
       const seq = c.highestSeq + 1;
       const [value] = counterReadings('xtal-16m', 3, 1, { seedOffset: 1000 + seq });
-      await ingestReadings(pool, hub, asAuth(operator), captureId, { readings: [{ seq, t: seq * c.gateTime, value }] });
+      await ingestReadings(pool, hub, asAuth(operator), captureId, {
+        readings: [{ seq, t: seq * c.gateTime, value }],
+      });
     } catch (err) {
       log?.warn({ err }, 'demo feeder: a reading was not stored');
     }
@@ -246,6 +378,9 @@ export async function findOnAir(): Promise<number | null> {
   const study = await Study.findOne({ where: { title: DEMO_STUDY_TITLE } });
   if (!study) return null;
   const duts = await Dut.findAll({ where: { studyId: study.id }, attributes: ['id'] });
-  const open = await Capture.findOne({ where: { dutId: duts.map((d) => d.id), state: ['open', 'stalled'] }, order: [['id', 'DESC']] });
+  const open = await Capture.findOne({
+    where: { dutId: duts.map((d) => d.id), state: ['open', 'stalled'] },
+    order: [['id', 'DESC']],
+  });
   return open?.id ?? null;
 }

@@ -40,11 +40,24 @@ const CONNECTION_MESSAGES = [
 /** True when `err` (or its cause) says the database cannot be reached, rather than that a query was wrong. */
 export function isDatabaseUnavailable(err: unknown, depth = 0): boolean {
   if (!err || typeof err !== 'object' || depth > 4) return false;
-  const e = err as { code?: unknown; name?: unknown; message?: unknown; original?: unknown; parent?: unknown; cause?: unknown };
+  const e = err as {
+    code?: unknown;
+    name?: unknown;
+    message?: unknown;
+    original?: unknown;
+    parent?: unknown;
+    cause?: unknown;
+  };
   if (typeof e.code === 'string' && CONNECTION_CODES.has(e.code)) return true;
   if (typeof e.name === 'string' && CONNECTION_NAMES.has(e.name)) return true;
-  if (typeof e.message === 'string' && CONNECTION_MESSAGES.some((re) => re.test(e.message as string))) return true;
-  return [e.original, e.parent, e.cause].some((c) => c !== err && isDatabaseUnavailable(c, depth + 1));
+  if (
+    typeof e.message === 'string' &&
+    CONNECTION_MESSAGES.some((re) => re.test(e.message as string))
+  )
+    return true;
+  return [e.original, e.parent, e.cause].some(
+    (c) => c !== err && isDatabaseUnavailable(c, depth + 1),
+  );
 }
 
 /**

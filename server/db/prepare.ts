@@ -6,7 +6,10 @@ import { isEmpty, seedDemo } from './seed.js';
 import { retireDemoAccounts } from './demoAccounts.js';
 
 /** Opens the database at `url`, applies pending migrations, binds the models and seeds the demo lab when asked and empty. */
-export async function prepareDatabase(url: string, opts: { demo: boolean; log?: Logger; poolMax?: number; retireDemo?: boolean }): Promise<Database> {
+export async function prepareDatabase(
+  url: string,
+  opts: { demo: boolean; log?: Logger; poolMax?: number; retireDemo?: boolean },
+): Promise<Database> {
   const db = openDatabase(url, { poolMax: opts.poolMax });
   await db.sequelize.authenticate();
   const applied = await migrate(db.sequelize);

@@ -1,4 +1,12 @@
-import { User, Instrument, Reference, Study, Checkpoint, Dut, CalibrationRecord } from '../models/index.js';
+import {
+  User,
+  Instrument,
+  Reference,
+  Study,
+  Checkpoint,
+  Dut,
+  CalibrationRecord,
+} from '../models/index.js';
 import { hashPassword } from '../services/auth.js';
 import type { Sequelize } from 'sequelize';
 import type { Role } from '../../shared/protocol/roles.js';
@@ -33,17 +41,57 @@ export async function seedDemo(sequelize: Sequelize): Promise<void> {
   const hash = await hashPassword(DEMO_PASSWORD);
   await sequelize.transaction(async (transaction) => {
     const users = await User.bulkCreate(
-      DEMO_USERS.map((u) => ({ email: `${u.role}@${DEMO_DOMAIN}`, name: u.name, role: u.role, passwordHash: hash })),
+      DEMO_USERS.map((u) => ({
+        email: `${u.role}@${DEMO_DOMAIN}`,
+        name: u.name,
+        role: u.role,
+        passwordHash: hash,
+      })),
       { transaction, returning: true },
     );
     const engineer = users.find((u) => u.role === 'engineer')!;
 
     const instrumentsCreated = await Instrument.bulkCreate(
       [
-        { name: 'Counter C-1', kind: 'counter', maker: 'Driftbench Labs (simulated)', model: 'SIM-CNT-1', serial: 'KB-CNT-0001', calibrationDue: isoDate(200), notes: 'Reciprocal counter, 100 ps single-shot resolution; timebase locked to the GPS 10 MHz.', counterType: 'reciprocal', counterResolution: 100e-12 },
-        { name: 'SPI bridge B-1', kind: 'spi-bridge', maker: 'Driftbench Labs (simulated)', model: 'SIM-SPI-1', serial: 'KB-SPI-0001', calibrationDue: null, notes: 'Hex-line SPI bridge for the accelerometer.' },
-        { name: 'GPS 10 MHz reference', kind: 'reference', maker: 'Driftbench Labs (simulated)', model: 'SIM-GPSDO-1', serial: 'KB-REF-0001', calibrationDue: isoDate(20), notes: 'Settled for more than 24 h before use.' },
-        { name: 'Bench thermometer T-1', kind: 'thermometer', maker: 'Driftbench Labs (simulated)', model: 'SIM-T-1', serial: 'KB-TMP-0001', calibrationDue: isoDate(-5), notes: 'Ambient temperature beside the board.' },
+        {
+          name: 'Counter C-1',
+          kind: 'counter',
+          maker: 'Driftbench Labs (simulated)',
+          model: 'SIM-CNT-1',
+          serial: 'KB-CNT-0001',
+          calibrationDue: isoDate(200),
+          notes:
+            'Reciprocal counter, 100 ps single-shot resolution; timebase locked to the GPS 10 MHz.',
+          counterType: 'reciprocal',
+          counterResolution: 100e-12,
+        },
+        {
+          name: 'SPI bridge B-1',
+          kind: 'spi-bridge',
+          maker: 'Driftbench Labs (simulated)',
+          model: 'SIM-SPI-1',
+          serial: 'KB-SPI-0001',
+          calibrationDue: null,
+          notes: 'Hex-line SPI bridge for the accelerometer.',
+        },
+        {
+          name: 'GPS 10 MHz reference',
+          kind: 'reference',
+          maker: 'Driftbench Labs (simulated)',
+          model: 'SIM-GPSDO-1',
+          serial: 'KB-REF-0001',
+          calibrationDue: isoDate(20),
+          notes: 'Settled for more than 24 h before use.',
+        },
+        {
+          name: 'Bench thermometer T-1',
+          kind: 'thermometer',
+          maker: 'Driftbench Labs (simulated)',
+          model: 'SIM-T-1',
+          serial: 'KB-TMP-0001',
+          calibrationDue: isoDate(-5),
+          notes: 'Ambient temperature beside the board.',
+        },
       ],
       { transaction, returning: true },
     );
@@ -70,9 +118,34 @@ export async function seedDemo(sequelize: Sequelize): Promise<void> {
     // Calibration history: the counter's and the thermometer's last certificates, the reference's last comparison.
     await CalibrationRecord.bulkCreate(
       [
-        { instrumentId: counter.id, calibratedOn: isoDate(-165), dueOn: isoDate(200), certificate: 'DBX-C-2291', issuedBy: 'Driftbench demo calibration lab', uncertainty: '±2 × 10⁻¹¹ (k = 2) on 10 MHz', recordedBy: users[0].id },
-        { instrumentId: thermometer.id, calibratedOn: isoDate(-370), dueOn: isoDate(-5), certificate: 'DBX-T-0457', issuedBy: 'Driftbench demo calibration lab', uncertainty: '±0.05 °C (k = 2), 15–35 °C', recordedBy: users[0].id },
-        { referenceId: reference.id, calibratedOn: isoDate(-10), dueOn: isoDate(355), certificate: 'DBX-R-0102', issuedBy: 'Compared against a second disciplined oscillator over 24 h', fractionalOffset: 2e-12, standardUncertainty: 1e-11, recordedBy: users[0].id },
+        {
+          instrumentId: counter.id,
+          calibratedOn: isoDate(-165),
+          dueOn: isoDate(200),
+          certificate: 'DBX-C-2291',
+          issuedBy: 'Driftbench demo calibration lab',
+          uncertainty: '±2 × 10⁻¹¹ (k = 2) on 10 MHz',
+          recordedBy: users[0].id,
+        },
+        {
+          instrumentId: thermometer.id,
+          calibratedOn: isoDate(-370),
+          dueOn: isoDate(-5),
+          certificate: 'DBX-T-0457',
+          issuedBy: 'Driftbench demo calibration lab',
+          uncertainty: '±0.05 °C (k = 2), 15–35 °C',
+          recordedBy: users[0].id,
+        },
+        {
+          referenceId: reference.id,
+          calibratedOn: isoDate(-10),
+          dueOn: isoDate(355),
+          certificate: 'DBX-R-0102',
+          issuedBy: 'Compared against a second disciplined oscillator over 24 h',
+          fractionalOffset: 2e-12,
+          standardUncertainty: 1e-11,
+          recordedBy: users[0].id,
+        },
       ],
       { transaction },
     );
@@ -93,19 +166,107 @@ export async function seedDemo(sequelize: Sequelize): Promise<void> {
     await Checkpoint.bulkCreate(
       [
         { studyId: study.id, name: 'Baseline', position: 0, exposure: null },
-        { studyId: study.id, name: 'After wash (3 min/side)', position: 1, exposure: { kind: 'wash', process: 'Aqueous ultrasonic wash', bathKHz: 40, temperatureC: 45, solvent: 'Aqueous detergent, 5 %', minutesPerSide: 3, cumulativeMinutes: 6 } },
-        { studyId: study.id, name: 'After over-exposure (30 min/side)', position: 2, exposure: { kind: 'wash', process: 'Aqueous ultrasonic wash', bathKHz: 40, temperatureC: 45, solvent: 'Aqueous detergent, 5 %', minutesPerSide: 30, cumulativeMinutes: 66 } },
-        { studyId: study.id, name: 'After bake (4 h)', position: 3, exposure: { kind: 'bake', process: 'Bake-out', temperatureC: 85, hours: 4, notes: 'To drive out moisture after the washes' } },
+        {
+          studyId: study.id,
+          name: 'After wash (3 min/side)',
+          position: 1,
+          exposure: {
+            kind: 'wash',
+            process: 'Aqueous ultrasonic wash',
+            bathKHz: 40,
+            temperatureC: 45,
+            solvent: 'Aqueous detergent, 5 %',
+            minutesPerSide: 3,
+            cumulativeMinutes: 6,
+          },
+        },
+        {
+          studyId: study.id,
+          name: 'After over-exposure (30 min/side)',
+          position: 2,
+          exposure: {
+            kind: 'wash',
+            process: 'Aqueous ultrasonic wash',
+            bathKHz: 40,
+            temperatureC: 45,
+            solvent: 'Aqueous detergent, 5 %',
+            minutesPerSide: 30,
+            cumulativeMinutes: 66,
+          },
+        },
+        {
+          studyId: study.id,
+          name: 'After bake (4 h)',
+          position: 3,
+          exposure: {
+            kind: 'bake',
+            process: 'Bake-out',
+            temperatureC: 85,
+            hours: 4,
+            notes: 'To drive out moisture after the washes',
+          },
+        },
       ],
       { transaction },
     );
     await Dut.bulkCreate(
       [
-        { studyId: study.id, label: 'Y1 16 MHz crystal', kind: 'crystal', nominal: 16_000_000, unit: 'Hz', limitValue: 1, limitUnit: 'ppm', position: 'Y1', serial: 'RC-0001-Y1' },
-        { studyId: study.id, label: 'X2 25 MHz oscillator', kind: 'oscillator', nominal: 25_000_000, unit: 'Hz', limitValue: 1, limitUnit: 'ppm', position: 'X2', serial: 'RC-0001-X2' },
-        { studyId: study.id, label: 'Y3 32.768 kHz tuning fork', kind: 'tuning-fork', nominal: 32_768, unit: 'Hz', limitValue: 1, limitUnit: 'ppm', position: 'Y3', serial: 'RC-0001-Y3' },
-        { studyId: study.id, label: 'U4 12.8 MHz TCXO', kind: 'tcxo', nominal: 12_800_000, unit: 'Hz', limitValue: 1, limitUnit: 'ppm', position: 'U4', serial: 'RC-0001-U4' },
-        { studyId: study.id, label: 'U5 3-axis accelerometer', kind: 'accelerometer', nominal: 1000, unit: 'mg', limitValue: 20, limitUnit: 'mg', quantityLimits: { sensitivity: { limit: 1 } }, position: 'U5', serial: 'RC-0001-U5' },
+        {
+          studyId: study.id,
+          label: 'Y1 16 MHz crystal',
+          kind: 'crystal',
+          nominal: 16_000_000,
+          unit: 'Hz',
+          limitValue: 1,
+          limitUnit: 'ppm',
+          position: 'Y1',
+          serial: 'RC-0001-Y1',
+        },
+        {
+          studyId: study.id,
+          label: 'X2 25 MHz oscillator',
+          kind: 'oscillator',
+          nominal: 25_000_000,
+          unit: 'Hz',
+          limitValue: 1,
+          limitUnit: 'ppm',
+          position: 'X2',
+          serial: 'RC-0001-X2',
+        },
+        {
+          studyId: study.id,
+          label: 'Y3 32.768 kHz tuning fork',
+          kind: 'tuning-fork',
+          nominal: 32_768,
+          unit: 'Hz',
+          limitValue: 1,
+          limitUnit: 'ppm',
+          position: 'Y3',
+          serial: 'RC-0001-Y3',
+        },
+        {
+          studyId: study.id,
+          label: 'U4 12.8 MHz TCXO',
+          kind: 'tcxo',
+          nominal: 12_800_000,
+          unit: 'Hz',
+          limitValue: 1,
+          limitUnit: 'ppm',
+          position: 'U4',
+          serial: 'RC-0001-U4',
+        },
+        {
+          studyId: study.id,
+          label: 'U5 3-axis accelerometer',
+          kind: 'accelerometer',
+          nominal: 1000,
+          unit: 'mg',
+          limitValue: 20,
+          limitUnit: 'mg',
+          quantityLimits: { sensitivity: { limit: 1 } },
+          position: 'U5',
+          serial: 'RC-0001-U5',
+        },
       ],
       { transaction },
     );

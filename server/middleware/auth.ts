@@ -26,7 +26,11 @@ export function authenticate(secret: string, pool: pg.Pool) {
     if (!match) throw new UnauthorizedError('unauthorized', 'Sign in to continue.');
     req.user = await userFromToken(match[1], secret, pool);
     if (req.user.mustChangePassword && !WHILE_MUST_CHANGE.has(`${req.method} ${req.path}`)) {
-      throw new AppError(403, 'password-change-required', 'Choose a new password before continuing.');
+      throw new AppError(
+        403,
+        'password-change-required',
+        'Choose a new password before continuing.',
+      );
     }
     next();
   };

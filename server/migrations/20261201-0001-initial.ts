@@ -139,7 +139,17 @@ export async function up({ context: qi }: { context: QueryInterface }): Promise<
 }
 
 export async function down({ context: qi }: { context: QueryInterface }): Promise<void> {
-  for (const t of ['audit_events', 'readings', 'captures', 'duts', 'checkpoints', 'studies', 'frequency_references', 'instruments', 'users']) {
+  for (const t of [
+    'audit_events',
+    'readings',
+    'captures',
+    'duts',
+    'checkpoints',
+    'studies',
+    'frequency_references',
+    'instruments',
+    'users',
+  ]) {
     await qi.dropTable(t, { cascade: true });
   }
 }

@@ -38,7 +38,9 @@ export async function up({ context: qi }: { context: QueryInterface }): Promise<
     ADD COLUMN parabolic_b_u double precision NULL CHECK (parabolic_b_u >= 0),
     ADD CONSTRAINT duts_limit_present CHECK (limit_value > 0 OR limit_low IS NOT NULL OR limit_high IS NOT NULL),
     ADD CONSTRAINT duts_limit_order CHECK (limit_low IS NULL OR limit_high IS NULL OR limit_low < limit_high)`);
-  await q(`ALTER TABLE duts ADD CONSTRAINT duts_limit_unit_check CHECK (limit_unit IN ('ppm', 'ppb', 'Hz', 'mg', '%'))`);
+  await q(
+    `ALTER TABLE duts ADD CONSTRAINT duts_limit_unit_check CHECK (limit_unit IN ('ppm', 'ppb', 'Hz', 'mg', '%'))`,
+  );
 }
 
 export async function down({ context: qi }: { context: QueryInterface }): Promise<void> {

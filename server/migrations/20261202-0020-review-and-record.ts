@@ -68,7 +68,9 @@ export async function up({ context: qi }: { context: QueryInterface }): Promise<
         prev := h;
       END LOOP;
     END $$`);
-  await q('ALTER TABLE audit_events ALTER COLUMN prev_hash SET NOT NULL, ALTER COLUMN hash SET NOT NULL');
+  await q(
+    'ALTER TABLE audit_events ALTER COLUMN prev_hash SET NOT NULL, ALTER COLUMN hash SET NOT NULL',
+  );
   await q('CREATE INDEX audit_events_actor ON audit_events (actor_id, id)');
   await q('CREATE INDEX audit_events_action ON audit_events (action, id)');
   await q('CREATE INDEX audit_events_created ON audit_events (created_at)');
@@ -107,7 +109,9 @@ export async function up({ context: qi }: { context: QueryInterface }): Promise<
     sent_at timestamptz NULL,
     dedupe_key varchar(200) NULL UNIQUE,
     created_at timestamptz NOT NULL DEFAULT now())`);
-  await q(`CREATE INDEX mail_outbox_due ON mail_outbox (next_attempt_at) WHERE status IN ('queued', 'retrying')`);
+  await q(
+    `CREATE INDEX mail_outbox_due ON mail_outbox (next_attempt_at) WHERE status IN ('queued', 'retrying')`,
+  );
 
   await q(`CREATE TABLE mail_received (
     id serial PRIMARY KEY,
@@ -122,7 +126,9 @@ export async function up({ context: qi }: { context: QueryInterface }): Promise<
 
 export async function down({ context: qi }: { context: QueryInterface }): Promise<void> {
   const q = (sql: string) => qi.sequelize.query(sql);
-  await q('DROP TABLE IF EXISTS mail_received, mail_outbox, attachments, study_revisions, study_reviews');
+  await q(
+    'DROP TABLE IF EXISTS mail_received, mail_outbox, attachments, study_revisions, study_reviews',
+  );
   await q(`ALTER TABLE captures DROP COLUMN seal_sha256, DROP COLUMN sealed_at, DROP COLUMN planned_minutes,
     DROP COLUMN overdue_notified_at`);
   await q('DROP INDEX IF EXISTS audit_events_actor, audit_events_action, audit_events_created');

@@ -6,9 +6,15 @@ import type { QueryInterface } from 'sequelize';
  * Captures already stored are marked from the link profile they were recorded with.
  */
 export async function up({ context: qi }: { context: QueryInterface }): Promise<void> {
-  await qi.sequelize.query(`ALTER TABLE captures ADD COLUMN simulated boolean NOT NULL DEFAULT false`);
-  await qi.sequelize.query(`UPDATE captures SET simulated = true WHERE link_profile->>'kind' = 'simulator'`);
-  await qi.sequelize.query(`ALTER TABLE studies ADD COLUMN allow_simulated boolean NOT NULL DEFAULT false`);
+  await qi.sequelize.query(
+    `ALTER TABLE captures ADD COLUMN simulated boolean NOT NULL DEFAULT false`,
+  );
+  await qi.sequelize.query(
+    `UPDATE captures SET simulated = true WHERE link_profile->>'kind' = 'simulator'`,
+  );
+  await qi.sequelize.query(
+    `ALTER TABLE studies ADD COLUMN allow_simulated boolean NOT NULL DEFAULT false`,
+  );
   // A study that already holds simulated captures keeps accepting them.
   await qi.sequelize.query(`
     UPDATE studies SET allow_simulated = true

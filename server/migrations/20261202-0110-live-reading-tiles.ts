@@ -62,5 +62,7 @@ export async function down({ context: qi }: { context: QueryInterface }): Promis
   await qi.sequelize.query('DROP TRIGGER IF EXISTS readings_merge_tiles ON readings');
   await qi.sequelize.query('DROP FUNCTION IF EXISTS driftbench_merge_tiles()');
   // Tiles of captures still open were made by the trigger: the old code reads tiles of finished captures only.
-  await qi.sequelize.query(`DELETE FROM reading_tiles WHERE capture_id IN (SELECT id FROM captures WHERE state = 'open')`);
+  await qi.sequelize.query(
+    `DELETE FROM reading_tiles WHERE capture_id IN (SELECT id FROM captures WHERE state = 'open')`,
+  );
 }

@@ -22,10 +22,14 @@ async function replaceKindCheck(qi: QueryInterface, kinds: string[]): Promise<vo
      WHERE conrelid = 'instruments'::regclass AND contype = 'c' AND pg_get_constraintdef(oid) ~ '\\mkind\\M'`,
   )) as [Array<{ conname: string }>, unknown];
   for (const { conname } of rows) {
-    await qi.sequelize.query(`ALTER TABLE instruments DROP CONSTRAINT "${conname.replace(/"/g, '""')}"`);
+    await qi.sequelize.query(
+      `ALTER TABLE instruments DROP CONSTRAINT "${conname.replace(/"/g, '""')}"`,
+    );
   }
   const list = kinds.map((k) => `'${k}'`).join(', ');
-  await qi.sequelize.query(`ALTER TABLE instruments ADD CONSTRAINT instruments_kind_allowed CHECK (kind IN (${list}))`);
+  await qi.sequelize.query(
+    `ALTER TABLE instruments ADD CONSTRAINT instruments_kind_allowed CHECK (kind IN (${list}))`,
+  );
 }
 
 export async function up({ context: qi }: { context: QueryInterface }): Promise<void> {

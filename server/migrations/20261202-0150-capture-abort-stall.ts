@@ -16,7 +16,10 @@ async function dropStateChecks(qi: QueryInterface): Promise<void> {
      WHERE conrelid = 'captures'::regclass AND contype = 'c'
        AND pg_get_constraintdef(oid) ~ '^CHECK \\(+state\\)*(::text)? = ANY'`,
   )) as [Array<{ conname: string }>, unknown];
-  for (const r of rows) await qi.sequelize.query(`ALTER TABLE captures DROP CONSTRAINT "${r.conname.replace(/"/g, '""')}"`);
+  for (const r of rows)
+    await qi.sequelize.query(
+      `ALTER TABLE captures DROP CONSTRAINT "${r.conname.replace(/"/g, '""')}"`,
+    );
 }
 
 export async function up({ context: qi }: { context: QueryInterface }): Promise<void> {
@@ -40,10 +43,14 @@ export async function up({ context: qi }: { context: QueryInterface }): Promise<
 
 export async function down({ context: qi }: { context: QueryInterface }): Promise<void> {
   await qi.sequelize.query(`DROP INDEX IF EXISTS captures_open_idx`);
-  await qi.sequelize.query(`ALTER TABLE captures DROP CONSTRAINT IF EXISTS captures_abort_reason_check`);
+  await qi.sequelize.query(
+    `ALTER TABLE captures DROP CONSTRAINT IF EXISTS captures_abort_reason_check`,
+  );
   await qi.sequelize.query(`ALTER TABLE captures DROP CONSTRAINT IF EXISTS captures_state_check`);
   await qi.sequelize.query(`UPDATE captures SET state = 'open' WHERE state = 'stalled'`);
-  await qi.sequelize.query(`ALTER TABLE captures ADD CONSTRAINT captures_state_check CHECK (state IN ('open', 'finished', 'aborted'))`);
+  await qi.sequelize.query(
+    `ALTER TABLE captures ADD CONSTRAINT captures_state_check CHECK (state IN ('open', 'finished', 'aborted'))`,
+  );
   await qi.sequelize.query(`ALTER TABLE captures
     DROP COLUMN aborted_by, DROP COLUMN abort_reason, DROP COLUMN stalled_at, DROP COLUMN last_reading_at`);
 }

@@ -16,7 +16,10 @@ import * as m0140 from './20261202-0140-process-kinds-and-editing.js';
 import * as m0150 from './20261202-0150-capture-abort-stall.js';
 import * as m0151 from './20261202-0151-capture-state-constraint-name.js';
 
-type Step = { up(p: { context: QueryInterface }): Promise<void>; down(p: { context: QueryInterface }): Promise<void> };
+type Step = {
+  up(p: { context: QueryInterface }): Promise<void>;
+  down(p: { context: QueryInterface }): Promise<void>;
+};
 
 /** Every migration in order. A migration that has landed is never edited: add a new one. */
 const MIGRATIONS: Array<[string, Step]> = [

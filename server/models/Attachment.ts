@@ -1,9 +1,19 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
+import {
+  DataTypes,
+  Model,
+  type Sequelize,
+  type CreationOptional,
+  type InferAttributes,
+  type InferCreationAttributes,
+} from 'sequelize';
 
 export type AttachmentOwner = 'study' | 'checkpoint' | 'capture';
 
 /** A file on a study, a checkpoint or a capture. The bytes live in the attachment store under `storageKey`. */
-export class Attachment extends Model<InferAttributes<Attachment>, InferCreationAttributes<Attachment>> {
+export class Attachment extends Model<
+  InferAttributes<Attachment>,
+  InferCreationAttributes<Attachment>
+> {
   declare id: CreationOptional<number>;
   declare studyId: number;
   declare ownerType: AttachmentOwner;

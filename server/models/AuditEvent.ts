@@ -1,7 +1,17 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
+import {
+  DataTypes,
+  Model,
+  type Sequelize,
+  type CreationOptional,
+  type InferAttributes,
+  type InferCreationAttributes,
+} from 'sequelize';
 
 /** One audited action, chained by hash to the one before it (server/services/audit.ts writes them). Never updated or deleted. */
-export class AuditEvent extends Model<InferAttributes<AuditEvent>, InferCreationAttributes<AuditEvent>> {
+export class AuditEvent extends Model<
+  InferAttributes<AuditEvent>,
+  InferCreationAttributes<AuditEvent>
+> {
   declare id: CreationOptional<number>;
   declare actorId: number | null;
   declare action: string;

@@ -1,4 +1,12 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes, type NonAttribute } from 'sequelize';
+import {
+  DataTypes,
+  Model,
+  type Sequelize,
+  type CreationOptional,
+  type InferAttributes,
+  type InferCreationAttributes,
+  type NonAttribute,
+} from 'sequelize';
 import type { Dut } from './Dut.js';
 import type { Checkpoint } from './Checkpoint.js';
 import type { User } from './User.js';

@@ -1,8 +1,18 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
+import {
+  DataTypes,
+  Model,
+  type Sequelize,
+  type CreationOptional,
+  type InferAttributes,
+  type InferCreationAttributes,
+} from 'sequelize';
 import type { Exposure } from '../../shared/protocol/api.js';
 
 /** A point in a study at which every DUT is captured (baseline, after exposure 1, …). */
-export class Checkpoint extends Model<InferAttributes<Checkpoint>, InferCreationAttributes<Checkpoint>> {
+export class Checkpoint extends Model<
+  InferAttributes<Checkpoint>,
+  InferCreationAttributes<Checkpoint>
+> {
   declare id: CreationOptional<number>;
   declare studyId: number;
   declare name: string;
@@ -14,7 +24,14 @@ export class Checkpoint extends Model<InferAttributes<Checkpoint>, InferCreation
   declare updatedAt: CreationOptional<Date>;
 
   toPublic() {
-    return { id: this.id, studyId: this.studyId, name: this.name, order: this.position, exposure: this.exposure, archived: this.archivedAt != null };
+    return {
+      id: this.id,
+      studyId: this.studyId,
+      name: this.name,
+      order: this.position,
+      exposure: this.exposure,
+      archived: this.archivedAt != null,
+    };
   }
 
   static initModel(sequelize: Sequelize): void {

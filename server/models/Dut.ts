@@ -1,13 +1,30 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes, type NonAttribute } from 'sequelize';
+import {
+  DataTypes,
+  Model,
+  type Sequelize,
+  type CreationOptional,
+  type InferAttributes,
+  type InferCreationAttributes,
+  type NonAttribute,
+} from 'sequelize';
 import type { Study } from './Study.js';
-import { quantityLimitsView, type QuantityKey, type QuantityLimit } from '../../shared/protocol/dutQuantities.js';
+import {
+  quantityLimitsView,
+  type QuantityKey,
+  type QuantityLimit,
+} from '../../shared/protocol/dutQuantities.js';
 
 /**
  * A tuning fork's parabola when the DUT gives none (common practice, no source; makers'
  * datasheets print T0 = 25 ± 5 °C and B = −0.034 ppm/°C² within about ±0.006): the tolerances
  * read as rectangular, so u(T0) = 5/√3 °C and u(B) = 0.006/√3 ppm/°C² (JCGM 100 §4.3.7).
  */
-export const TUNING_FORK_DEFAULTS = { T0: 25, uT0: 5 / Math.sqrt(3), B: -0.034, uB: 0.006 / Math.sqrt(3) } as const;
+export const TUNING_FORK_DEFAULTS = {
+  T0: 25,
+  uT0: 5 / Math.sqrt(3),
+  B: -0.034,
+  uB: 0.006 / Math.sqrt(3),
+} as const;
 
 /** A device under test on a study's board, with its acceptance limit. */
 export class Dut extends Model<InferAttributes<Dut>, InferCreationAttributes<Dut>> {
@@ -54,14 +71,27 @@ export class Dut extends Model<InferAttributes<Dut>, InferCreationAttributes<Dut
       ...(this.kind === 'tuning-fork' ? { tuningFork: this.tuningFork() } : {}),
       position: this.position,
       serial: this.serial,
-      limits: quantityLimitsView(this.kind, { limit: this.limitValue, limitLow: this.limitLow, limitHigh: this.limitHigh, limitUnit: this.limitUnit }, this.quantityLimits),
+      limits: quantityLimitsView(
+        this.kind,
+        {
+          limit: this.limitValue,
+          limitLow: this.limitLow,
+          limitHigh: this.limitHigh,
+          limitUnit: this.limitUnit,
+        },
+        this.quantityLimits,
+      ),
       archived: this.archivedAt != null,
     };
   }
 
   /** The tuning-fork parameters in force: the DUT's own, else Driftbench's defaults (captureAnalysis). */
   tuningFork(): { T0: number; uT0: number; B: number; uB: number; defaults: boolean } {
-    const own = this.turnoverC !== null || this.turnoverU !== null || this.parabolicB !== null || this.parabolicBU !== null;
+    const own =
+      this.turnoverC !== null ||
+      this.turnoverU !== null ||
+      this.parabolicB !== null ||
+      this.parabolicBU !== null;
     return {
       T0: this.turnoverC ?? TUNING_FORK_DEFAULTS.T0,
       uT0: this.turnoverU ?? TUNING_FORK_DEFAULTS.uT0,

@@ -1,6 +1,16 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
+import {
+  DataTypes,
+  Model,
+  type Sequelize,
+  type CreationOptional,
+  type InferAttributes,
+  type InferCreationAttributes,
+} from 'sequelize';
 
-export class Instrument extends Model<InferAttributes<Instrument>, InferCreationAttributes<Instrument>> {
+export class Instrument extends Model<
+  InferAttributes<Instrument>,
+  InferCreationAttributes<Instrument>
+> {
   declare id: CreationOptional<number>;
   declare name: string;
   declare kind: 'counter' | 'spi-bridge' | 'reference' | 'thermometer' | 'other';

@@ -1,7 +1,17 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
+import {
+  DataTypes,
+  Model,
+  type Sequelize,
+  type CreationOptional,
+  type InferAttributes,
+  type InferCreationAttributes,
+} from 'sequelize';
 
 /** A frequency reference (e.g. a GPS-disciplined 10 MHz) whose fractional offset and uncertainty are known. */
-export class Reference extends Model<InferAttributes<Reference>, InferCreationAttributes<Reference>> {
+export class Reference extends Model<
+  InferAttributes<Reference>,
+  InferCreationAttributes<Reference>
+> {
   declare id: CreationOptional<number>;
   declare name: string;
   declare nominalHz: number;

@@ -1,4 +1,11 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
+import {
+  DataTypes,
+  Model,
+  type Sequelize,
+  type CreationOptional,
+  type InferAttributes,
+  type InferCreationAttributes,
+} from 'sequelize';
 import type { StudyStatus } from '../../shared/protocol/api.js';
 
 export class Study extends Model<InferAttributes<Study>, InferCreationAttributes<Study>> {

@@ -1,9 +1,19 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
+import {
+  DataTypes,
+  Model,
+  type Sequelize,
+  type CreationOptional,
+  type InferAttributes,
+  type InferCreationAttributes,
+} from 'sequelize';
 
 export type ReviewAction = 'start' | 'submit' | 'approve' | 'return' | 'reopen';
 
 /** One step of a study's review history: who moved it from which status to which, with their note. */
-export class StudyReview extends Model<InferAttributes<StudyReview>, InferCreationAttributes<StudyReview>> {
+export class StudyReview extends Model<
+  InferAttributes<StudyReview>,
+  InferCreationAttributes<StudyReview>
+> {
   declare id: CreationOptional<number>;
   declare studyId: number;
   declare revision: number;

@@ -1,4 +1,11 @@
-import { DataTypes, Model, type Sequelize, type CreationOptional, type InferAttributes, type InferCreationAttributes } from 'sequelize';
+import {
+  DataTypes,
+  Model,
+  type Sequelize,
+  type CreationOptional,
+  type InferAttributes,
+  type InferCreationAttributes,
+} from 'sequelize';
 import type { Role } from '../../shared/protocol/roles.js';
 
 export class User extends Model<InferAttributes<User>, InferCreationAttributes<User>> {

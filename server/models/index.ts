@@ -12,7 +12,20 @@ import { StudyReview } from './StudyReview.js';
 import { CalibrationRecord } from './CalibrationRecord.js';
 import { TiltCheck } from './TiltCheck.js';
 
-export { User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview, CalibrationRecord, TiltCheck };
+export {
+  User,
+  Instrument,
+  Reference,
+  Study,
+  Checkpoint,
+  Dut,
+  Capture,
+  AuditEvent,
+  Attachment,
+  StudyReview,
+  CalibrationRecord,
+  TiltCheck,
+};
 
 let initialised: Sequelize | undefined;
 
@@ -21,7 +34,21 @@ export function initModels(sequelize: Sequelize): void {
   if (initialised === sequelize) return;
   if (initialised) throw new Error('models are already bound to another connection');
   initialised = sequelize;
-  for (const m of [User, Instrument, Reference, Study, Checkpoint, Dut, Capture, AuditEvent, Attachment, StudyReview, CalibrationRecord, TiltCheck]) m.initModel(sequelize);
+  for (const m of [
+    User,
+    Instrument,
+    Reference,
+    Study,
+    Checkpoint,
+    Dut,
+    Capture,
+    AuditEvent,
+    Attachment,
+    StudyReview,
+    CalibrationRecord,
+    TiltCheck,
+  ])
+    m.initModel(sequelize);
 
   Study.hasMany(Checkpoint, { as: 'checkpoints', foreignKey: 'studyId' });
   Checkpoint.belongsTo(Study, { as: 'study', foreignKey: 'studyId' });

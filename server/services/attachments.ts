@@ -14,7 +14,14 @@ import type { AttachmentOwner } from '../../shared/protocol/review.js';
 import { roleCan } from '../../shared/protocol/roles.js';
 
 /** What an upload may be, by default: photos, printouts as PDF, CSV and plain-text exports. */
-export const DEFAULT_UPLOAD_TYPES = ['image/png', 'image/jpeg', 'image/webp', 'application/pdf', 'text/csv', 'text/plain'];
+export const DEFAULT_UPLOAD_TYPES = [
+  'image/png',
+  'image/jpeg',
+  'image/webp',
+  'application/pdf',
+  'text/csv',
+  'text/plain',
+];
 export const DEFAULT_UPLOAD_MAX_BYTES = 25 * 1024 * 1024;
 
 /** File-name endings each type may carry; a name that disagrees with its declared type is refused. */
@@ -30,9 +37,12 @@ const EXTENSIONS: Record<string, string[]> = {
 
 /** The first bytes a type must start with, where the format has a signature. */
 const SIGNATURES: Record<string, (head: Buffer) => boolean> = {
-  'image/png': (h) => h.subarray(0, 8).equals(Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a])),
+  'image/png': (h) =>
+    h.subarray(0, 8).equals(Buffer.from([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a])),
   'image/jpeg': (h) => h[0] === 0xff && h[1] === 0xd8 && h[2] === 0xff,
-  'image/webp': (h) => h.subarray(0, 4).toString('latin1') === 'RIFF' && h.subarray(8, 12).toString('latin1') === 'WEBP',
+  'image/webp': (h) =>
+    h.subarray(0, 4).toString('latin1') === 'RIFF' &&
+    h.subarray(8, 12).toString('latin1') === 'WEBP',
   'image/gif': (h) => h.subarray(0, 4).toString('latin1') === 'GIF8',
   'application/pdf': (h) => h.subarray(0, 5).toString('latin1') === '%PDF-',
   'text/csv': (h) => !h.includes(0),
@@ -47,8 +57,11 @@ export interface UploadPolicy {
 /** A file name safe to store and show: no folders, no control characters, at most 200 characters. */
 export function safeFilename(name: string): string {
   const base = name.split(/[\\/]/).pop() ?? '';
-  // eslint-disable-next-line no-control-regex
-  const clean = base.replace(/[\u0000-\u001f\u007f"<>|:*?]/g, '_').replace(/^\.+/, '').trim();
+  const clean = base
+    // eslint-disable-next-line no-control-regex -- control characters are what this removes
+    .replace(/[\u0000-\u001f\u007f"<>|:*?]/g, '_')
+    .replace(/^\.+/, '')
+    .trim();
   return (clean || 'file').slice(-200);
 }
 
@@ -63,7 +76,11 @@ interface Stored {
 class StoreEngine implements multer.StorageEngine {
   constructor(private store: BlobStore) {}
 
-  _handleFile(_req: Request, file: Express.Multer.File, cb: (error?: unknown, info?: Partial<Express.Multer.File> & Partial<Stored>) => void): void {
+  _handleFile(
+    _req: Request,
+    file: Express.Multer.File,
+    cb: (error?: unknown, info?: Partial<Express.Multer.File> & Partial<Stored>) => void,
+  ): void {
     const key = `${new Date().toISOString().slice(0, 7).replace('-', '/')}/${randomUUID()}`;
     const hash = createHash('sha256');
     let size = 0;
@@ -84,9 +101,16 @@ class StoreEngine implements multer.StorageEngine {
     );
   }
 
-  _removeFile(_req: Request, file: Express.Multer.File & Partial<Stored>, cb: (error: Error | null) => void): void {
+  _removeFile(
+    _req: Request,
+    file: Express.Multer.File & Partial<Stored>,
+    cb: (error: Error | null) => void,
+  ): void {
     if (!file.key) return cb(null);
-    this.store.delete(file.key).then(() => cb(null), (err: Error) => cb(err));
+    this.store.delete(file.key).then(
+      () => cb(null),
+      (err: Error) => cb(err),
+    );
   }
 }
 
@@ -99,11 +123,23 @@ export function uploadMiddleware(store: BlobStore, policy: UploadPolicy) {
       const type = file.mimetype.toLowerCase();
       const ext = path.extname(file.originalname).toLowerCase();
       if (!policy.types.includes(type)) {
-        return cb(new AppError(415, 'unsupported-type', `Files of type ${type} are not accepted. Allowed: ${policy.types.join(', ')}.`));
+        return cb(
+          new AppError(
+            415,
+            'unsupported-type',
+            `Files of type ${type} are not accepted. Allowed: ${policy.types.join(', ')}.`,
+          ),
+        );
       }
       const endings = EXTENSIONS[type];
       if (endings && !endings.includes(ext)) {
-        return cb(new AppError(415, 'unsupported-type', `The name “${safeFilename(file.originalname)}” does not end like a ${type} file (${endings.join(', ')}).`));
+        return cb(
+          new AppError(
+            415,
+            'unsupported-type',
+            `The name “${safeFilename(file.originalname)}” does not end like a ${type} file (${endings.join(', ')}).`,
+          ),
+        );
       }
       cb(null, true);
     },
@@ -114,16 +150,32 @@ export function uploadMiddleware(store: BlobStore, policy: UploadPolicy) {
         if (!err) return resolve();
         if (err instanceof multer.MulterError) {
           if (err.code === 'LIMIT_FILE_SIZE') {
-            return reject(new AppError(413, 'too-large', `The file is larger than the ${Math.round(policy.maxBytes / 1024 / 1024)} MB an attachment may be.`));
+            return reject(
+              new AppError(
+                413,
+                'too-large',
+                `The file is larger than the ${Math.round(policy.maxBytes / 1024 / 1024)} MB an attachment may be.`,
+              ),
+            );
           }
-          return reject(new AppError(400, 'validation', `Upload refused: ${err.message} (send one file in the field "file").`));
+          return reject(
+            new AppError(
+              400,
+              'validation',
+              `Upload refused: ${err.message} (send one file in the field "file").`,
+            ),
+          );
         }
         reject(err);
       });
     });
 }
 
-const PART_OF: Record<AttachmentOwner, StudyPart> = { study: 'study', checkpoint: 'checkpoint', capture: 'capture' };
+const PART_OF: Record<AttachmentOwner, StudyPart> = {
+  study: 'study',
+  checkpoint: 'checkpoint',
+  capture: 'capture',
+};
 
 /** Resolves the owner to its study and refuses a locked study before any byte is read. */
 export async function preflightUpload(ownerType: AttachmentOwner, ownerId: number) {
@@ -138,7 +190,10 @@ export async function recordUpload(
   file: (Express.Multer.File & Partial<Stored>) | undefined,
   user: AuthUser,
 ) {
-  if (!file || !file.key) throw new AppError(400, 'validation', 'file: send one file in the multipart field "file".', [{ path: 'file', message: 'is required' }]);
+  if (!file || !file.key)
+    throw new AppError(400, 'validation', 'file: send one file in the multipart field "file".', [
+      { path: 'file', message: 'is required' },
+    ]);
   const type = file.mimetype.toLowerCase();
   const sig = SIGNATURES[type];
   if (sig && file.size! > 0 && !sig(file.head ?? Buffer.alloc(0))) {
@@ -147,7 +202,12 @@ export async function recordUpload(
   }
   try {
     return await Study.sequelize!.transaction(async (transaction) => {
-      const study = await assertStudyWritable(PART_OF[ownerType], ownerId, 'attaching a file', transaction);
+      const study = await assertStudyWritable(
+        PART_OF[ownerType],
+        ownerId,
+        'attaching a file',
+        transaction,
+      );
       const row = await Attachment.create(
         {
           studyId: study.id,
@@ -168,7 +228,11 @@ export async function recordUpload(
         'attachment.upload',
         'attachment',
         row.id,
-        { studyId: study.id, owner: { type: ownerType, id: ownerId }, after: { filename: row.filename, type, size: file.size, sha256: file.sha256 } },
+        {
+          studyId: study.id,
+          owner: { type: ownerType, id: ownerId },
+          after: { filename: row.filename, type, size: file.size, sha256: file.sha256 },
+        },
         transaction,
       );
       return { ...row.toPublic(), uploaderName: user.name };
@@ -179,7 +243,11 @@ export async function recordUpload(
   }
 }
 
-export async function listAttachments(where: { studyId?: number; ownerType?: AttachmentOwner; ownerId?: number }) {
+export async function listAttachments(where: {
+  studyId?: number;
+  ownerType?: AttachmentOwner;
+  ownerId?: number;
+}) {
   const bind: unknown[] = [];
   const cond: string[] = [];
   if (where.studyId) {
@@ -207,7 +275,11 @@ export async function requireAttachment(id: number): Promise<Attachment> {
 }
 
 /** Deletes an attachment: its uploader or a lead, never while the study is locked; audited. */
-export async function deleteAttachment(store: BlobStore, id: number, user: AuthUser): Promise<void> {
+export async function deleteAttachment(
+  store: BlobStore,
+  id: number,
+  user: AuthUser,
+): Promise<void> {
   const key = await Study.sequelize!.transaction(async (transaction) => {
     const a = await Attachment.findByPk(id, { transaction, lock: transaction.LOCK.UPDATE });
     if (!a) throw new NotFoundError('Attachment');
@@ -217,7 +289,17 @@ export async function deleteAttachment(store: BlobStore, id: number, user: AuthU
     await assertStudyWritable('study', a.studyId, 'deleting an attachment', transaction);
     const before = a.toPublic();
     await a.destroy({ transaction });
-    await audit(user.id, 'attachment.delete', 'attachment', id, { studyId: a.studyId, before: { filename: before.filename, sha256: before.sha256, size: before.size } }, transaction);
+    await audit(
+      user.id,
+      'attachment.delete',
+      'attachment',
+      id,
+      {
+        studyId: a.studyId,
+        before: { filename: before.filename, sha256: before.sha256, size: before.size },
+      },
+      transaction,
+    );
     return a.storageKey;
   });
   await store.delete(key);

@@ -41,7 +41,11 @@ export async function audit(
 ): Promise<number> {
   const sequelize = AuditEvent.sequelize!;
   const write = async (t: Transaction) => {
-    await sequelize.query('SELECT pg_advisory_xact_lock($1)', { bind: [AUDIT_CHAIN_LOCK], transaction: t, type: QueryTypes.SELECT });
+    await sequelize.query('SELECT pg_advisory_xact_lock($1)', {
+      bind: [AUDIT_CHAIN_LOCK],
+      transaction: t,
+      type: QueryTypes.SELECT,
+    });
     const rows = (await sequelize.query(INSERT_SQL, {
       bind: [actorId, action, subjectType, subjectId, JSON.stringify(details ?? null)],
       transaction: t,
@@ -55,7 +59,9 @@ export async function audit(
 
 /** The same write for code on the raw pg pool (ingest, finish): `client` must be inside BEGIN … COMMIT. */
 export async function auditWithClient(
-  client: { query(text: string, values?: unknown[]): Promise<{ rows: Array<Record<string, unknown>> }> },
+  client: {
+    query(text: string, values?: unknown[]): Promise<{ rows: Array<Record<string, unknown>> }>;
+  },
   actorId: number | null,
   action: string,
   subjectType: string,
@@ -63,12 +69,21 @@ export async function auditWithClient(
   details?: unknown,
 ): Promise<number> {
   await client.query('SELECT pg_advisory_xact_lock($1)', [AUDIT_CHAIN_LOCK]);
-  const { rows } = await client.query(INSERT_SQL, [actorId, action, subjectType, subjectId, JSON.stringify(details ?? null)]);
+  const { rows } = await client.query(INSERT_SQL, [
+    actorId,
+    action,
+    subjectType,
+    subjectId,
+    JSON.stringify(details ?? null),
+  ]);
   return Number(rows[0].id);
 }
 
 /** `{ field: { from, to } }` for every field of `after` that differs from `before`. */
-export function changes(before: Record<string, unknown>, after: Record<string, unknown>): Record<string, { from: unknown; to: unknown }> {
+export function changes(
+  before: Record<string, unknown>,
+  after: Record<string, unknown>,
+): Record<string, { from: unknown; to: unknown }> {
   const out: Record<string, { from: unknown; to: unknown }> = {};
   for (const [key, to] of Object.entries(after)) {
     if (to === undefined) continue;
@@ -106,7 +121,13 @@ export async function verifyAuditChain(): Promise<ChainVerification> {
             driftbench_audit_hash(prev_hash, id, actor_id, action, subject_type, subject_id, details, created_at) AS recomputed
      FROM audit_events ORDER BY id`,
     { type: QueryTypes.SELECT },
-  )) as Array<{ id: number | string; prev_hash: string; hash: string; expected_prev: string | null; recomputed: string }>;
+  )) as Array<{
+    id: number | string;
+    prev_hash: string;
+    hash: string;
+    expected_prev: string | null;
+    recomputed: string;
+  }>;
   let headHash: string | null = null;
   for (const r of rows) {
     const id = Number(r.id);
@@ -128,7 +149,11 @@ export async function verifyAuditChain(): Promise<ChainVerification> {
         ok: false,
         checked: rows.length,
         headHash: null,
-        firstBroken: { id, reason: 'content-changed', message: `Event ${id} was changed after it was written: its content no longer matches its hash.` },
+        firstBroken: {
+          id,
+          reason: 'content-changed',
+          message: `Event ${id} was changed after it was written: its content no longer matches its hash.`,
+        },
       };
     }
     headHash = r.hash;

@@ -38,7 +38,13 @@ export async function listAudit(q: AuditQuery) {
   if (q.to) {
     // A bare date means the whole of that day.
     const to = new Date(q.to);
-    if (to.getUTCHours() === 0 && to.getUTCMinutes() === 0 && to.getUTCSeconds() === 0 && to.getUTCMilliseconds() === 0) to.setUTCDate(to.getUTCDate() + 1);
+    if (
+      to.getUTCHours() === 0 &&
+      to.getUTCMinutes() === 0 &&
+      to.getUTCSeconds() === 0 &&
+      to.getUTCMilliseconds() === 0
+    )
+      to.setUTCDate(to.getUTCDate() + 1);
     else to.setTime(to.getTime() + 1);
     add((n) => `e.created_at < $${n}`, to);
   }

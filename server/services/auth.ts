@@ -8,7 +8,11 @@ import { User } from '../models/index.js';
 import type { Role } from '../../shared/protocol/roles.js';
 import { AppError, UnauthorizedError, ValidationError } from '../errors.js';
 import type { LoginRequest } from '../../shared/protocol/api.js';
-import { PASSWORD_MAX_BYTES, utf8Bytes, type PasswordChange } from '../../shared/protocol/password.js';
+import {
+  PASSWORD_MAX_BYTES,
+  utf8Bytes,
+  type PasswordChange,
+} from '../../shared/protocol/password.js';
 import { audit } from './audit.js';
 
 export const BCRYPT_COST = 11;
@@ -40,7 +44,8 @@ export function hashPassword(password: string): Promise<string> {
 
 /** True when `password` matches `hash` (false for more than 72 bytes: bcrypt would compare a prefix). */
 export function passwordMatches(password: string, hash: string): Promise<boolean> {
-  if (utf8Bytes(password) > PASSWORD_MAX_BYTES) return bcrypt.compare('', DUMMY_HASH).then(() => false);
+  if (utf8Bytes(password) > PASSWORD_MAX_BYTES)
+    return bcrypt.compare('', DUMMY_HASH).then(() => false);
   return bcrypt.compare(password, hash);
 }
 
@@ -57,12 +62,19 @@ export function sessionUser(u: { id: number; email: string; name: string; role: 
 }
 
 /** A sign-in token for `user` at its current token version. */
-export function issueToken(user: { id: number; role: Role; tokenVersion: number }, secret: string): string {
-  return jwt.sign({ role: user.role, tv: user.tokenVersion } satisfies Omit<TokenClaims, 'sub'>, secret, {
-    algorithm: 'HS256',
-    subject: String(user.id),
-    expiresIn: TOKEN_TTL,
-  });
+export function issueToken(
+  user: { id: number; role: Role; tokenVersion: number },
+  secret: string,
+): string {
+  return jwt.sign(
+    { role: user.role, tv: user.tokenVersion } satisfies Omit<TokenClaims, 'sub'>,
+    secret,
+    {
+      algorithm: 'HS256',
+      subject: String(user.id),
+      expiresIn: TOKEN_TTL,
+    },
+  );
 }
 
 /**
@@ -78,7 +90,11 @@ export async function login(input: LoginRequest, secret: string) {
   }
   user.lastLoginAt = new Date();
   await user.save();
-  return { token: issueToken(user, secret), user: sessionUser(user), mustChangePassword: user.mustChangePassword };
+  return {
+    token: issueToken(user, secret),
+    user: sessionUser(user),
+    mustChangePassword: user.mustChangePassword,
+  };
 }
 
 /** The signed-in user as every request sees it. */
@@ -123,7 +139,10 @@ export function verifyToken(token: string, secret: string): jwt.JwtPayload {
     return decoded;
   } catch (err) {
     if (err instanceof jwt.TokenExpiredError) {
-      throw new UnauthorizedError('token-expired', 'Your session has expired. Please sign in again.');
+      throw new UnauthorizedError(
+        'token-expired',
+        'Your session has expired. Please sign in again.',
+      );
     }
     throw new UnauthorizedError('unauthorized', 'The sign-in token is not valid.');
   }
@@ -134,7 +153,11 @@ export function verifyToken(token: string, secret: string): jwt.JwtPayload {
  * deactivated user's token stops working at once, and so does a token issued before the user's
  * token version moved on (sign-out, password or role change, deactivation).
  */
-export async function userFromToken(token: string, secret: string, pool: pg.Pool): Promise<AuthUser> {
+export async function userFromToken(
+  token: string,
+  secret: string,
+  pool: pg.Pool,
+): Promise<AuthUser> {
   const claims = verifyToken(token, secret);
   const id = Number(claims.sub);
   const found = Number.isInteger(id)
@@ -145,11 +168,21 @@ export async function userFromToken(token: string, secret: string, pool: pg.Pool
     : null;
   const user = found?.rows[0];
   if (!user) throw new UnauthorizedError('unauthorized', 'The sign-in token is not valid.');
-  if (!user.active) throw new UnauthorizedError('account-disabled', 'This account has been deactivated.');
+  if (!user.active)
+    throw new UnauthorizedError('account-disabled', 'This account has been deactivated.');
   if ((claims.tv ?? 0) !== user.token_version) {
-    throw new UnauthorizedError('session-ended', 'This session has ended (signed out, or the account changed). Please sign in again.');
+    throw new UnauthorizedError(
+      'session-ended',
+      'This session has ended (signed out, or the account changed). Please sign in again.',
+    );
   }
-  return { id: user.id, email: user.email, name: user.name, role: user.role, mustChangePassword: user.must_change_password };
+  return {
+    id: user.id,
+    email: user.email,
+    name: user.name,
+    role: user.role,
+    mustChangePassword: user.must_change_password,
+  };
 }
 
 /** Signs out: every token of the user stops working (the token version moves on). */

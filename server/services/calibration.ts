@@ -40,5 +40,11 @@ export function calibrationStatus(
         : daysLeft <= CALIBRATION_SOON_DAYS
           ? 'due-soon'
           : 'valid';
-  return { state, daysLeft, dueOn, awaySince, needsAttention: state === 'overdue' || state === 'due-soon' || state === 'away' };
+  return {
+    state,
+    daysLeft,
+    dueOn,
+    awaySince,
+    needsAttention: state === 'overdue' || state === 'due-soon' || state === 'away',
+  };
 }

@@ -96,8 +96,23 @@ export function prepare(c: Capture, s: Series): Prepared {
     stats = values.length >= 2 ? summarize(values) : null;
   }
   const nominal = c.nominal ?? stats?.mean ?? 0;
-  const y = c.quantity === 'frequency' && nominal > 0 ? values.map((v) => (v - nominal) / nominal) : values.slice();
-  return { values, t, tUnflagged, y, tau0: tau0Of(c), gateTime: c.gateTime, total: s.seq.length, flagged, outliers, stats, yRef };
+  const y =
+    c.quantity === 'frequency' && nominal > 0
+      ? values.map((v) => (v - nominal) / nominal)
+      : values.slice();
+  return {
+    values,
+    t,
+    tUnflagged,
+    y,
+    tau0: tau0Of(c),
+    gateTime: c.gateTime,
+    total: s.seq.length,
+    flagged,
+    outliers,
+    stats,
+    yRef,
+  };
 }
 
 /** The averaging factors of a τ set for a series of n points. */
@@ -107,11 +122,25 @@ export function msFor(set: 'octave' | 'decade' | 'all', n: number, kind: Stabili
   return octaveMs(n, kind);
 }
 
-export function stabilityOf(p: Prepared, kind: StabilityKind, taus: 'octave' | 'decade' | 'all', confidence?: number) {
-  if (p.y.length < 3) return { kind, tau0: p.tau0, points: [], skipped: [{ m: 1, reason: 'fewer than 3 usable readings' }] };
+export function stabilityOf(
+  p: Prepared,
+  kind: StabilityKind,
+  taus: 'octave' | 'decade' | 'all',
+  confidence?: number,
+) {
+  if (p.y.length < 3)
+    return {
+      kind,
+      tau0: p.tau0,
+      points: [],
+      skipped: [{ m: 1, reason: 'fewer than 3 usable readings' }],
+    };
   // Dead-time bias (ADEV/OADEV) is corrected only for frequency readings with a known gate shorter than τ0.
   const gateTime = p.gateTime > 0 && p.gateTime < p.tau0 ? p.gateTime : undefined;
-  const r = stability(kind, p.y, p.tau0, msFor(taus, p.y.length, kind), { ...(confidence ? { confidence } : {}), gateTime });
+  const r = stability(kind, p.y, p.tau0, msFor(taus, p.y.length, kind), {
+    ...(confidence ? { confidence } : {}),
+    gateTime,
+  });
   return {
     kind,
     tau0: p.tau0,
@@ -144,7 +173,14 @@ export function stabilityOf(p: Prepared, kind: StabilityKind, taus: 'octave' | '
  * Review of issue 8, F8; slopes from NIST SP 1065 Table 3.
  */
 function longTermInstability(
-  last: { tau: number; dev: number; edf: number; noise: string; noiseSupported: boolean; slope: number | null },
+  last: {
+    tau: number;
+    dev: number;
+    edf: number;
+    noise: string;
+    noiseSupported: boolean;
+    slope: number | null;
+  },
   span: number,
   notes: string[],
 ): { dev: number; edf: number } {
@@ -173,7 +209,9 @@ function longTermInstability(
 function resolutionFor(
   c: Capture,
   p: Prepared,
-  counter: { kind: 'gated'; counts: number; assumed?: boolean } | { kind: 'reciprocal' | 'time-interval'; tRes: number; assumed?: boolean },
+  counter:
+    | { kind: 'gated'; counts: number; assumed?: boolean }
+    | { kind: 'reciprocal' | 'time-interval'; tRes: number; assumed?: boolean },
   notes: string[],
 ): { kind: 'gated'; counts: number } | { kind: 'reciprocal' | 'time-interval'; tRes: number } {
   if (c.counterType) return counter;
@@ -184,7 +222,7 @@ function resolutionFor(
   const reciprocalHz = (ASSUMED_COUNTER.tRes / c.gateTime) * nominal;
   if (step === null) {
     notes.push(
-      'The counter type was not recorded and every reading is identical: the resolution is taken as a gated counter\'s ±1 count in the gate (±' +
+      "The counter type was not recorded and every reading is identical: the resolution is taken as a gated counter's ±1 count in the gate (±" +
         `${Number((1 / c.gateTime).toPrecision(3))} Hz).`,
     );
     return { kind: 'gated', counts: 1 };
@@ -195,7 +233,9 @@ function resolutionFor(
     );
     return { kind: 'gated', counts: step * perUnit * c.gateTime };
   }
-  notes.push('The counter type was not recorded: the readings resolve finer than a 100 ps reciprocal counter, which is assumed.');
+  notes.push(
+    'The counter type was not recorded: the readings resolve finer than a 100 ps reciprocal counter, which is assumed.',
+  );
   return { kind: ASSUMED_COUNTER.kind, tRes: ASSUMED_COUNTER.tRes };
 }
 
@@ -230,8 +270,13 @@ export function defaultDrift(c: Pick<Capture, 'quantity'>): DriftModel {
  * The series with the chosen drift removed (the mean kept), ready for stabilityOf, and the fit.
  * Too few or disordered timestamps leave the series as it is and say why.
  */
-export function withDrift(p: Prepared, model: DriftModel, notes: string[]): { prepared: Prepared; fit: DriftRemoval | null } {
-  if (model === 'none' || p.y.length < (model === 'quadratic' ? 4 : 3)) return { prepared: p, fit: null };
+export function withDrift(
+  p: Prepared,
+  model: DriftModel,
+  notes: string[],
+): { prepared: Prepared; fit: DriftRemoval | null } {
+  if (model === 'none' || p.y.length < (model === 'quadratic' ? 4 : 3))
+    return { prepared: p, fit: null };
   const fit = tryAnalysis(() => fitDrift(p.t, p.y, model), notes, 'Drift removal');
   if (!fit) return { prepared: p, fit: null };
   return { prepared: { ...p, y: fit.detrended }, fit };
@@ -246,7 +291,10 @@ function daysSinceVerification(c: Capture, p: Prepared): number | null {
 }
 
 /** The middle of a capture's readings in wall-clock time (start + mean of first and last t). */
-export function captureMidpoint(c: Pick<Capture, 'startedAt'>, p: Pick<Prepared, 't'>): Date | null {
+export function captureMidpoint(
+  c: Pick<Capture, 'startedAt'>,
+  p: Pick<Prepared, 't'>,
+): Date | null {
   if (!c.startedAt || p.t.length === 0) return null;
   return new Date(new Date(c.startedAt).getTime() + ((p.t[0] + p.t[p.t.length - 1]) / 2) * 1000);
 }
@@ -263,15 +311,30 @@ function tryAnalysis<T>(run: () => T, notes: string[], what: string): T | null {
 }
 
 /** The full reduction of one capture: what the capture page shows and what a comparison uses. */
-export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?: DriftModel } = {}) {
+export function reduce(
+  c: Capture,
+  dut: Dut | null,
+  p: Prepared,
+  opts: { drift?: DriftModel } = {},
+) {
   const notes: string[] = [];
   const driftModel = opts.drift ?? defaultDrift(c);
-  if (p.flagged) notes.push(`${p.flagged} flagged reading(s) (garbled or timed out) left out of the analysis.`);
-  if (p.outliers) notes.push(`${p.outliers} outlier(s) by robust z > 5 left out of the statistics; raw readings kept.`);
+  if (p.flagged)
+    notes.push(`${p.flagged} flagged reading(s) (garbled or timed out) left out of the analysis.`);
+  if (p.outliers)
+    notes.push(
+      `${p.outliers} outlier(s) by robust z > 5 left out of the statistics; raw readings kept.`,
+    );
   // Timestamps come from outside (the bench, a CSV): a series whose times run backwards or stand
   // still still reduces; only the gap and drift figures that need ordered times are left out.
-  const gaps = p.tUnflagged.length >= 2 ? (tryAnalysis(() => findGaps(p.tUnflagged, p.tau0), notes, 'Gaps') ?? []) : [];
-  if (gaps.length) notes.push(`${gaps.length} gap(s) in the timestamps; stability treats the series as contiguous.`);
+  const gaps =
+    p.tUnflagged.length >= 2
+      ? (tryAnalysis(() => findGaps(p.tUnflagged, p.tau0), notes, 'Gaps') ?? [])
+      : [];
+  if (gaps.length)
+    notes.push(
+      `${gaps.length} gap(s) in the timestamps; stability treats the series as contiguous.`,
+    );
   const linear = p.t.length >= 3 ? tryAnalysis(() => driftFit(p.t, p.y), notes, 'Drift') : null;
   // Stability and noise identification run on the series with its drift removed (issue 8).
   const detrended = withDrift(p, driftModel, notes);
@@ -294,17 +357,23 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?:
       }
     : null;
   const span = p.t.length ? p.t[p.t.length - 1] - p.t[0] + p.tau0 : 0;
-  const counter: { kind: 'gated'; counts: number; assumed?: boolean } | { kind: 'reciprocal' | 'time-interval'; tRes: number; assumed?: boolean } =
+  const counter:
+    | { kind: 'gated'; counts: number; assumed?: boolean }
+    | { kind: 'reciprocal' | 'time-interval'; tRes: number; assumed?: boolean } =
     c.counterType === 'gated'
       ? { kind: 'gated', counts: c.counterResolution ?? 1 }
       : c.counterType
         ? { kind: c.counterType, tRes: c.counterResolution ?? ASSUMED_COUNTER.tRes }
         : { ...ASSUMED_COUNTER, assumed: true };
   let uncertainty = null;
-  let usedResolution: { kind: 'gated'; counts: number } | { kind: 'reciprocal' | 'time-interval'; tRes: number } = counter;
+  let usedResolution:
+    { kind: 'gated'; counts: number } | { kind: 'reciprocal' | 'time-interval'; tRes: number } =
+    counter;
   const perUnit = hzPerUnit(c.unit);
   if (c.quantity === 'frequency' && p.stats && (c.nominal ?? 0) > 0 && perUnit === null) {
-    notes.push(`No uncertainty budget: a frequency budget needs readings in Hz, kHz, MHz or GHz, not ${c.unit}.`);
+    notes.push(
+      `No uncertainty budget: a frequency budget needs readings in Hz, kHz, MHz or GHz, not ${c.unit}.`,
+    );
   }
   if (c.quantity === 'frequency' && p.stats && (c.nominal ?? 0) > 0 && perUnit !== null) {
     const last = stab.points[stab.points.length - 1];
@@ -350,9 +419,22 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?:
       noise: last?.noiseSupported ? last.noise : undefined,
       resolution: (usedResolution = resolutionFor(c, p, counter, notes)),
       reference:
-        c.referenceUncertainty !== null ? { offset: c.referenceOffset ?? 0, u: c.referenceUncertainty, ...(ageing ? { ageing } : {}) } : undefined,
+        c.referenceUncertainty !== null
+          ? {
+              offset: c.referenceOffset ?? 0,
+              u: c.referenceUncertainty,
+              ...(ageing ? { ageing } : {}),
+            }
+          : undefined,
       temperature: tempco !== undefined ? { coeffPerC: tempco, uC: THERMOMETER_U_C } : undefined,
-      drift: fit ? { model: fit.model, trendSd: fit.trendSd, ratePerDay: fit.ratePerDay, rateStderrPerDay: fit.rateStderrPerDay } : undefined,
+      drift: fit
+        ? {
+            model: fit.model,
+            trendSd: fit.trendSd,
+            ratePerDay: fit.ratePerDay,
+            rateStderrPerDay: fit.rateStderrPerDay,
+          }
+        : undefined,
     });
     // The statistics are already reference-corrected (prepare); the budget's own mean would
     // apply the correction a second time. Its uncertainty components are what we need.
@@ -360,13 +442,21 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?:
   }
   if (c.quantity === 'acceleration' && c.unit === 'mg' && p.stats) {
     // An acceleration capture's own budget: the scatter, the sensor's LSB and the board's pose.
-    uncertainty = accelerationBudget(p.stats, zOrientation(c.orientation), { lsbMg: DEFAULT_ACCEL_LSB_MG, orientationErrorDeg: DEFAULT_ORIENTATION_ERROR_DEG });
+    uncertainty = accelerationBudget(p.stats, zOrientation(c.orientation), {
+      lsbMg: DEFAULT_ACCEL_LSB_MG,
+      orientationErrorDeg: DEFAULT_ORIENTATION_ERROR_DEG,
+    });
   }
   const nominal = c.nominal ?? 0;
-  const offsetPpm = c.quantity === 'frequency' && p.stats && nominal > 0 ? ((p.stats.mean - nominal) / nominal) * 1e6 : null;
+  const offsetPpm =
+    c.quantity === 'frequency' && p.stats && nominal > 0
+      ? ((p.stats.mean - nominal) / nominal) * 1e6
+      : null;
   const fork = dut?.kind === 'tuning-fork' ? dut.tuningFork() : null;
   const normalizedPpm =
-    fork && offsetPpm !== null && c.ambientC !== null ? offsetPpm - tuningForkShift(c.ambientC, { B: fork.B, T0: fork.T0 }) : null;
+    fork && offsetPpm !== null && c.ambientC !== null
+      ? offsetPpm - tuningForkShift(c.ambientC, { B: fork.B, T0: fork.T0 })
+      : null;
   if (fork && c.quantity === 'frequency' && c.ambientC === null) {
     notes.push(
       `No ambient temperature was recorded: this tuning fork's mean cannot be taken to its turnover (${fork.T0} °C); a comparison takes the ambient anywhere in ${LAB_AMBIENT_RANGE_C[0]}–${LAB_AMBIENT_RANGE_C[1]} °C and widens U.`,
@@ -385,10 +475,19 @@ export function reduce(c: Capture, dut: Dut | null, p: Prepared, opts: { drift?:
       convention: 'f_true = f_displayed · (1 + y_ref)',
     },
     offsetPpm,
-    temperature: { ambientC: c.ambientC, normalizedPpm, t0: fork?.T0 ?? TUNING_FORK_T0, ...(fork ? { tuningFork: fork } : {}) },
+    temperature: {
+      ambientC: c.ambientC,
+      normalizedPpm,
+      t0: fork?.T0 ?? TUNING_FORK_T0,
+      ...(fork ? { tuningFork: fork } : {}),
+    },
     drift,
     midpoint: midpoint ? midpoint.toISOString() : null,
-    counter: { kind: usedResolution.kind, resolution: 'counts' in usedResolution ? usedResolution.counts : usedResolution.tRes, assumed: !c.counterType },
+    counter: {
+      kind: usedResolution.kind,
+      resolution: 'counts' in usedResolution ? usedResolution.counts : usedResolution.tRes,
+      assumed: !c.counterType,
+    },
     gaps,
     stability: stab,
     uncertainty,

@@ -66,7 +66,11 @@ class ParseEngine implements multer.StorageEngine {
   result: Parsed | null = null;
   constructor(private readonly user: AuthUser) {}
 
-  _handleFile(req: Request, file: Express.Multer.File, cb: (error?: unknown, info?: Partial<Express.Multer.File>) => void): void {
+  _handleFile(
+    req: Request,
+    file: Express.Multer.File,
+    cb: (error?: unknown, info?: Partial<Express.Multer.File>) => void,
+  ): void {
     this.start(req, file).then(
       (parsed) => {
         this.result = parsed;
@@ -84,14 +88,20 @@ class ParseEngine implements multer.StorageEngine {
   }
 
   private async start(req: Request, file: Express.Multer.File): Promise<Parsed> {
-    if (file.fieldname !== 'file') throw new ValidationError(`${file.fieldname}: unexpected file field; send the file as "file"`);
+    if (file.fieldname !== 'file')
+      throw new ValidationError(
+        `${file.fieldname}: unexpected file field; send the file as "file"`,
+      );
     const fields = parse(CaptureImportFields, req.body ?? {});
     const dut = await Dut.findByPk(fields.dutId);
-    if (!dut) throw new ValidationError('dutId: no such DUT', [{ path: 'dutId', message: 'no such DUT' }]);
+    if (!dut)
+      throw new ValidationError('dutId: no such DUT', [{ path: 'dutId', message: 'no such DUT' }]);
     // Checked again by createCapture; here so a wrong form fails before a large file is read.
     const checkpoint = await Checkpoint.findByPk(fields.checkpointId);
     if (!checkpoint || checkpoint.studyId !== dut.studyId) {
-      throw new ValidationError('checkpointId: no such checkpoint in the DUT\'s study', [{ path: 'checkpointId', message: "not a checkpoint of the DUT's study" }]);
+      throw new ValidationError("checkpointId: no such checkpoint in the DUT's study", [
+        { path: 'checkpointId', message: "not a checkpoint of the DUT's study" },
+      ]);
     }
     await assertStudyWritable('dut', dut.id, 'importing a capture');
     const reader = new ImportReader({
@@ -109,7 +119,10 @@ class ParseEngine implements multer.StorageEngine {
     // The delimiter is guessed from the first 64 kB (the header block included), then the whole
     // stream — those bytes first — goes through papaparse.
     const head = await readHead(file.stream, 65_536);
-    const delimiter = fields.delimiter === 'auto' ? guessDelimiter(head.toString('utf8'), fields.decimalSeparator) : fields.delimiter;
+    const delimiter =
+      fields.delimiter === 'auto'
+        ? guessDelimiter(head.toString('utf8'), fields.decimalSeparator)
+        : fields.delimiter;
     const input = Readable.from(
       (async function* () {
         if (head.length) yield head;
@@ -197,27 +210,48 @@ function lineError(err: ImportLineError): ValidationError {
  * (summary, tiles, seal). The whole file is read and checked before anything is stored; a failure
  * while storing deletes the half-made capture, so a refused import leaves nothing behind.
  */
-export async function importCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser, req: Request, res: Response): Promise<CaptureImportResult> {
+export async function importCapture(
+  pool: pg.Pool,
+  hub: LiveHub,
+  user: AuthUser,
+  req: Request,
+  res: Response,
+): Promise<CaptureImportResult> {
   if (!req.is('multipart/form-data')) {
-    throw new ValidationError('Send the file as multipart/form-data: the fields first, then "file".');
+    throw new ValidationError(
+      'Send the file as multipart/form-data: the fields first, then "file".',
+    );
   }
   const engine = new ParseEngine(user);
-  const upload = multer({ storage: engine, limits: { fileSize: MAX_IMPORT_BYTES, files: 1, fields: 40, fieldSize: 10_000 } }).single('file');
+  const upload = multer({
+    storage: engine,
+    limits: { fileSize: MAX_IMPORT_BYTES, files: 1, fields: 40, fieldSize: 10_000 },
+  }).single('file');
   let key: string | undefined;
   try {
-    await new Promise<void>((resolve, reject) => upload(req, res, (err?: unknown) => (err ? reject(err) : resolve())));
+    await new Promise<void>((resolve, reject) =>
+      upload(req, res, (err?: unknown) => (err ? reject(err) : resolve())),
+    );
   } catch (err) {
     key = typeof req.body?.progressKey === 'string' ? req.body.progressKey : undefined;
     track(key, user.id, { phase: 'failed' });
     if (err instanceof ImportLineError) throw lineError(err);
     if (err instanceof multer.MulterError) {
-      if (err.code === 'LIMIT_FILE_SIZE') throw new AppError(413, 'too-large', `The file is larger than ${MAX_IMPORT_BYTES / 1024 / 1024} MB.`);
+      if (err.code === 'LIMIT_FILE_SIZE')
+        throw new AppError(
+          413,
+          'too-large',
+          `The file is larger than ${MAX_IMPORT_BYTES / 1024 / 1024} MB.`,
+        );
       throw new ValidationError(`${err.field ?? 'form'}: ${err.message}`);
     }
     throw err;
   }
   const parsed = engine.result;
-  if (!parsed) throw new ValidationError('file: required (multipart field "file", after the other fields)', [{ path: 'file', message: 'required' }]);
+  if (!parsed)
+    throw new ValidationError('file: required (multipart field "file", after the other fields)', [
+      { path: 'file', message: 'required' },
+    ]);
   const { reader, fields, dut } = parsed;
   key = fields.progressKey;
   const created = await createCapture(

@@ -12,7 +12,12 @@ import { audit, auditWithClient } from './audit.js';
 import { enqueueMail } from './mail.js';
 import { capturePublic } from './captures.js';
 import { assertStudyWritable } from './studyLock.js';
-import { isRecording, STALL_GATES, STALL_MIN_MS, type StallSweepResult } from '../../shared/protocol/captureLifecycle.js';
+import {
+  isRecording,
+  STALL_GATES,
+  STALL_MIN_MS,
+  type StallSweepResult,
+} from '../../shared/protocol/captureLifecycle.js';
 
 /**
  * Abandons an open (or stalled) capture: it takes no more readings, keeps every reading it has
@@ -21,7 +26,13 @@ import { isRecording, STALL_GATES, STALL_MIN_MS, type StallSweepResult } from '.
  * An aborted capture has no summary and never enters a verdict, the matrix or a comparison.
  * Only its operator, a lead or an admin may abort it; a finished or aborted capture answers 409.
  */
-export async function abortCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser, id: number, reason: string) {
+export async function abortCapture(
+  pool: pg.Pool,
+  hub: LiveHub,
+  user: AuthUser,
+  id: number,
+  reason: string,
+) {
   await assertStudyWritable('capture', id, 'aborting a capture');
   const client = await pool.connect();
   try {
@@ -32,9 +43,15 @@ export async function abortCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser, 
     );
     if (lock.rowCount === 0) throw new NotFoundError('Capture');
     const { state, operator_id: operatorId } = lock.rows[0];
-    if (!canWriteCapture(user, operatorId)) throw new ForbiddenError("Only the capture's operator, a lead or an admin may abort it.");
+    if (!canWriteCapture(user, operatorId))
+      throw new ForbiddenError("Only the capture's operator, a lead or an admin may abort it.");
     if (!isRecording(state)) {
-      throw new AppError(409, state === 'aborted' ? 'capture-aborted' : 'capture-finished', `This capture is ${state}: only an open capture can be aborted.`, { state });
+      throw new AppError(
+        409,
+        state === 'aborted' ? 'capture-aborted' : 'capture-finished',
+        `This capture is ${state}: only an open capture can be aborted.`,
+        { state },
+      );
     }
     const series = await loadSeries(client, id);
     await buildTiles(client, id, series);
@@ -102,7 +119,18 @@ export async function sweepStalledCaptures(now = new Date()): Promise<StallSweep
     let notified = 0;
     for (const r of rows) {
       const quietMin = Math.round((now.getTime() - new Date(r.lastAt).getTime()) / 60_000);
-      await audit(null, 'capture.stall', 'capture', r.id, { state: { from: 'open', to: 'stalled' }, quietMinutes: quietMin, readings: r.readingCount }, transaction);
+      await audit(
+        null,
+        'capture.stall',
+        'capture',
+        r.id,
+        {
+          state: { from: 'open', to: 'stalled' },
+          quietMinutes: quietMin,
+          readings: r.readingCount,
+        },
+        transaction,
+      );
       if (!r.email || !r.active) continue;
       const sent = await enqueueMail(
         {
@@ -125,7 +153,9 @@ export async function sweepStalledCaptures(now = new Date()): Promise<StallSweep
 }
 
 /** Runs the stall sweep every `intervalMs` (default one minute: the shortest stall is ten). */
-export function startStallSweep(opts: { intervalMs?: number; log?: Logger } = {}): { stop(): void } {
+export function startStallSweep(opts: { intervalMs?: number; log?: Logger } = {}): {
+  stop(): void;
+} {
   const timer = setInterval(() => {
     sweepStalledCaptures().catch((err: unknown) => opts.log?.error({ err }, 'stall sweep failed'));
   }, opts.intervalMs ?? 60_000);

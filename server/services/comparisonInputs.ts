@@ -14,13 +14,25 @@ export interface ComparisonInputs {
 }
 
 /** Two queries whatever the number of captures (none when they name no reference or instrument). */
-export async function loadComparisonInputs(captures: readonly Capture[], duts: readonly Dut[]): Promise<ComparisonInputs> {
-  const ids = (pick: (c: Capture) => number | null) => [...new Set(captures.map(pick).filter((x): x is number => x !== null))];
+export async function loadComparisonInputs(
+  captures: readonly Capture[],
+  duts: readonly Dut[],
+): Promise<ComparisonInputs> {
+  const ids = (pick: (c: Capture) => number | null) => [
+    ...new Set(captures.map(pick).filter((x): x is number => x !== null)),
+  ];
   const referenceIds = ids((c) => c.referenceId);
   const instrumentIds = ids((c) => c.instrumentId);
   const [references, instruments] = await Promise.all([
-    referenceIds.length ? Reference.findAll({ where: { id: { [Op.in]: referenceIds } } }) : Promise.resolve([]),
-    instrumentIds.length ? Instrument.findAll({ where: { id: { [Op.in]: instrumentIds } }, attributes: ['id', 'name'] }) : Promise.resolve([]),
+    referenceIds.length
+      ? Reference.findAll({ where: { id: { [Op.in]: referenceIds } } })
+      : Promise.resolve([]),
+    instrumentIds.length
+      ? Instrument.findAll({
+          where: { id: { [Op.in]: instrumentIds } },
+          attributes: ['id', 'name'],
+        })
+      : Promise.resolve([]),
   ]);
   return {
     captures: new Map(captures.map((c) => [c.id, c])),

@@ -1,5 +1,10 @@
 import type pg from 'pg';
-import { AnalysisError, compare, tuningForkDelta, type DeltaTerm } from '../../shared/analysis/index.js';
+import {
+  AnalysisError,
+  compare,
+  tuningForkDelta,
+  type DeltaTerm,
+} from '../../shared/analysis/index.js';
 import { Capture, Checkpoint, Dut, Reference, Study } from '../models/index.js';
 import { AppError, NotFoundError, ValidationError } from '../errors.js';
 import { conditionsBetween } from './conditions.js';
@@ -8,7 +13,12 @@ import { baselineOfOrientation, needsSameOrientation, orientationWord } from './
 import { tiltCellsFor, tiltChecksOf } from './tiltChecks.js';
 import { summaryOf } from './summaries.js';
 import { chosenCells, representatives } from './cells.js';
-import { LAB_AMBIENT_RANGE_C, THERMOMETER_BIAS_U_C, THERMOMETER_U_C, type CaptureSummary } from './captureAnalysis.js';
+import {
+  LAB_AMBIENT_RANGE_C,
+  THERMOMETER_BIAS_U_C,
+  THERMOMETER_U_C,
+  type CaptureSummary,
+} from './captureAnalysis.js';
 
 const DAY_MS = 86_400_000;
 
@@ -33,7 +43,14 @@ export const DEFAULT_AGEING_PER_DAY: Record<string, number> = {
  * (review8 F7; common practice, no source): mg for the demo's ±2 g accelerometer at 0.0625 mg/LSB,
  * a 6½-digit voltmeter's last digit, one count.
  */
-export const DEFAULT_LSB: Record<string, number> = { mg: 0.0625, g: 0.0625e-3, V: 1e-6, mV: 1e-3, counts: 1, count: 1 };
+export const DEFAULT_LSB: Record<string, number> = {
+  mg: 0.0625,
+  g: 0.0625e-3,
+  V: 1e-6,
+  mV: 1e-3,
+  counts: 1,
+  count: 1,
+};
 
 function sameInstant(a: string | Date | null, b: string | Date | null): boolean {
   if (a === null || b === null) return a === b;
@@ -47,7 +64,18 @@ function sameInstant(a: string | Date | null, b: string | Date | null): boolean 
  */
 function plainBudget(c: Capture, s: CaptureSummary, notes: string[]) {
   const { n, sem } = s.stats!;
-  const lines: Array<{ name: string; value: number; contribution: number; dof: number; type: 'A' | 'B'; distribution: 'normal' | 'rectangular'; unit: string; note: string; source: string; key: string }> = [
+  const lines: Array<{
+    name: string;
+    value: number;
+    contribution: number;
+    dof: number;
+    type: 'A' | 'B';
+    distribution: 'normal' | 'rectangular';
+    unit: string;
+    note: string;
+    source: string;
+    key: string;
+  }> = [
     {
       name: 'Repeatability (standard error of the mean)',
       value: sem,
@@ -77,7 +105,9 @@ function plainBudget(c: Capture, s: CaptureSummary, notes: string[]) {
       key: 'resolution',
     });
   } else if (!notes.some((x) => x.startsWith('No reading resolution'))) {
-    notes.push(`No reading resolution is known for ${c.unit}: identical readings would understate U.`);
+    notes.push(
+      `No reading resolution is known for ${c.unit}: identical readings would understate U.`,
+    );
   }
   return lines;
 }
@@ -86,7 +116,12 @@ function plainBudget(c: Capture, s: CaptureSummary, notes: string[]) {
  * Before/after comparison of one DUT: Δ in the quantity's unit and in ppm, U (k = 2) and the
  * guard-banded verdict against the DUT's limit. Both captures must belong to the same DUT.
  */
-export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: number, loaded?: ComparisonInputs) {
+export async function compareCaptures(
+  pool: pg.Pool,
+  beforeId: number,
+  afterId: number,
+  loaded?: ComparisonInputs,
+) {
   // The matrix passes what it loaded for all its cells; a single comparison loads its own.
   const [before, after] = loaded
     ? [loaded.captures.get(beforeId) ?? null, loaded.captures.get(afterId) ?? null]
@@ -94,17 +129,30 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
   if (!before) throw new NotFoundError('Capture "before"');
   if (!after) throw new NotFoundError('Capture "after"');
   // An aborted capture keeps its readings as a record, never as evidence for a verdict (issue 13).
-  for (const [side, c] of [['before', before], ['after', after]] as const) {
+  for (const [side, c] of [
+    ['before', before],
+    ['after', after],
+  ] as const) {
     if (c.state === 'aborted') {
-      throw new AppError(409, 'capture-aborted', `Capture ${c.id} ("${side}") was aborted${c.abortReason ? ` (${c.abortReason})` : ''}: it enters no comparison.`, { captureId: c.id });
+      throw new AppError(
+        409,
+        'capture-aborted',
+        `Capture ${c.id} ("${side}") was aborted${c.abortReason ? ` (${c.abortReason})` : ''}: it enters no comparison.`,
+        { captureId: c.id },
+      );
     }
   }
   if (before.dutId !== after.dutId) {
-    throw new ValidationError('after: both captures must be of the same DUT', [{ path: 'after', message: 'is of another DUT' }]);
+    throw new ValidationError('after: both captures must be of the same DUT', [
+      { path: 'after', message: 'is of another DUT' },
+    ]);
   }
   const dut = loaded?.duts.get(before.dutId) ?? (await Dut.findByPk(before.dutId));
   if (!dut) throw new NotFoundError('DUT');
-  if ((needsSameOrientation(before) || needsSameOrientation(after)) && (before.orientation ?? null) !== (after.orientation ?? null)) {
+  if (
+    (needsSameOrientation(before) || needsSameOrientation(after)) &&
+    (before.orientation ?? null) !== (after.orientation ?? null)
+  ) {
     throw new AppError(
       422,
       'orientation-mismatch',
@@ -112,7 +160,12 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
     );
   }
   const [sb, sa] = await Promise.all([summaryOf(pool, before, dut), summaryOf(pool, after, dut)]);
-  if (!sb.stats || !sa.stats) throw new AppError(422, 'not-enough-readings', 'Each capture needs at least two usable readings.');
+  if (!sb.stats || !sa.stats)
+    throw new AppError(
+      422,
+      'not-enough-readings',
+      'Each capture needs at least two usable readings.',
+    );
 
   // A tuning fork's frequency follows its parabola with temperature: each mean is taken to the
   // turnover T0 before Δ is formed, and T0, B and the thermometer's bias — the same for both
@@ -135,10 +188,14 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
     shifts = { before: d.shiftBeforePpm, after: d.shiftAfterPpm };
     replaceKeys.push('temperature');
     for (const t of d.terms) {
-      deltaTerms.push({ ...t, sensitivity: t.sensitivityPpm * nominal * 1e-6, note: `${t.note} (${t.sensitivityPpm.toPrecision(3)} ppm per ${t.unit})` });
+      deltaTerms.push({
+        ...t,
+        sensitivity: t.sensitivityPpm * nominal * 1e-6,
+        note: `${t.note} (${t.sensitivityPpm.toPrecision(3)} ppm per ${t.unit})`,
+      });
     }
     notes.push(
-      `Tuning fork: both means taken to T0 = ${fork.T0.toPrecision(3)} °C with B = ${fork.B} ppm/°C²${fork.defaults ? ' (defaults, common practice)' : ' (this DUT\'s own)'}; ` +
+      `Tuning fork: both means taken to T0 = ${fork.T0.toPrecision(3)} °C with B = ${fork.B} ppm/°C²${fork.defaults ? ' (defaults, common practice)' : " (this DUT's own)"}; ` +
         `ambient ${before.ambientC ?? 'not recorded'} → ${after.ambientC ?? 'not recorded'} °C.`,
       ...d.notes,
     );
@@ -163,13 +220,26 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
   if (sameReference && frequency) {
     // One reference in both captures: its offset cancels, its change between them does not.
     const [mb, ma] = [sb.midpoint ?? null, sa.midpoint ?? null];
-    let rate: number | null = after.referenceAgeingPerDay !== null ? Math.hypot(after.referenceAgeingPerDay, after.referenceAgeingUPerDay ?? 0) : null;
-    let rateText = rate !== null ? `a = ${after.referenceAgeingPerDay!.toExponential(2)}/day from its calibration record` : '';
+    let rate: number | null =
+      after.referenceAgeingPerDay !== null
+        ? Math.hypot(after.referenceAgeingPerDay, after.referenceAgeingUPerDay ?? 0)
+        : null;
+    let rateText =
+      rate !== null
+        ? `a = ${after.referenceAgeingPerDay!.toExponential(2)}/day from its calibration record`
+        : '';
     if (rate === null) {
-      const ref = after.referenceId === null ? null : loaded ? (loaded.references.get(after.referenceId) ?? null) : await Reference.findByPk(after.referenceId);
+      const ref =
+        after.referenceId === null
+          ? null
+          : loaded
+            ? (loaded.references.get(after.referenceId) ?? null)
+            : await Reference.findByPk(after.referenceId);
       rate = DEFAULT_AGEING_PER_DAY[ref?.kind ?? 'other'] ?? DEFAULT_AGEING_PER_DAY.other;
       rateText = `no ageing rate recorded: ${rate.toExponential(1)}/day assumed for a ${ref?.kind ?? 'reference of unknown kind'} (common practice, no source)`;
-      notes.push(`The reference has no ageing rate recorded: its change between the captures is taken as ${rate.toExponential(1)}/day (a default for its kind). Record the rate to replace it.`);
+      notes.push(
+        `The reference has no ageing rate recorded: its change between the captures is taken as ${rate.toExponential(1)}/day (a default for its kind). Record the rate to replace it.`,
+      );
     }
     if (mb && ma) {
       const days = Math.abs(new Date(ma).getTime() - new Date(mb).getTime()) / DAY_MS;
@@ -187,7 +257,9 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
         source: 'Reference calibration record; JCGM 100 §5.2',
       });
     } else {
-      notes.push('A capture has no time stamps for its readings: the reference\'s ageing between the captures is not in Δ\'s budget.');
+      notes.push(
+        "A capture has no time stamps for its readings: the reference's ageing between the captures is not in Δ's budget.",
+      );
     }
   } else if (frequency && (!hasReference(before) || !hasReference(after))) {
     // No reference: nothing in either budget covers the counter's own timebase, whose offset
@@ -206,14 +278,17 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
       source: 'Common practice, no source; JCGM 100 §4.3.7',
     });
     notes.push(
-      'No reference was used: a default ±1 ppm (rectangular) for the counter\'s timebase between the captures is in Δ\'s budget. Measure against a verified reference to narrow U.',
+      "No reference was used: a default ±1 ppm (rectangular) for the counter's timebase between the captures is in Δ's budget. Measure against a verified reference to narrow U.",
     );
   }
   const side = (c: Capture, s: CaptureSummary, shiftPpm: number) => {
-    const refComponent = s.uncertainty?.components.find((x) => x.key === 'reference-offset' || /reference offset/i.test(x.name));
+    const refComponent = s.uncertainty?.components.find(
+      (x) => x.key === 'reference-offset' || /reference offset/i.test(x.name),
+    );
     const mean = normalise ? s.stats!.mean / (1 + shiftPpm * 1e-6) : s.stats!.mean;
     const lines = s.uncertainty?.components ?? plainBudget(c, s, notes);
-    const u = s.uncertainty?.combined ?? Math.sqrt(lines.reduce((acc, l) => acc + l.contribution ** 2, 0));
+    const u =
+      s.uncertainty?.combined ?? Math.sqrt(lines.reduce((acc, l) => acc + l.contribution ** 2, 0));
     return {
       mean,
       u,
@@ -246,8 +321,18 @@ export async function compareCaptures(pool: pg.Pool, beforeId: number, afterId: 
     limitInUnit: result.limit.quantity,
     limitLowInUnit: result.limit.low,
     limitHighInUnit: result.limit.high,
-    before: { id: before.id, mean: sb.stats.mean, checkpointId: before.checkpointId, ambientC: before.ambientC },
-    after: { id: after.id, mean: sa.stats.mean, checkpointId: after.checkpointId, ambientC: after.ambientC },
+    before: {
+      id: before.id,
+      mean: sb.stats.mean,
+      checkpointId: before.checkpointId,
+      ambientC: before.ambientC,
+    },
+    after: {
+      id: after.id,
+      mean: sa.stats.mean,
+      checkpointId: after.checkpointId,
+      ambientC: after.ambientC,
+    },
     dut: dut.toPublic(),
   };
 }
@@ -262,12 +347,21 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
   // Archived DUTs and checkpoints keep their captures but leave the matrix.
   const [duts, checkpoints] = await Promise.all([
     Dut.findAll({ where: { studyId, archivedAt: null }, order: [['id', 'ASC']] }),
-    Checkpoint.findAll({ where: { studyId, archivedAt: null }, order: [['position', 'ASC'], ['id', 'ASC']] }),
+    Checkpoint.findAll({
+      where: { studyId, archivedAt: null },
+      order: [
+        ['position', 'ASC'],
+        ['id', 'ASC'],
+      ],
+    }),
   ]);
-  if (checkpoints.length === 0 && duts.length === 0 && !(await Study.findByPk(studyId))) throw new NotFoundError('Study');
+  if (checkpoints.length === 0 && duts.length === 0 && !(await Study.findByPk(studyId)))
+    throw new NotFoundError('Study');
   const dutIds = duts.map((d) => d.id);
   const [captures, chosen] = await Promise.all([
-    dutIds.length ? Capture.findAll({ where: { dutId: dutIds, state: 'finished', excludedAt: null } }) : Promise.resolve([]),
+    dutIds.length
+      ? Capture.findAll({ where: { dutId: dutIds, state: 'finished', excludedAt: null } })
+      : Promise.resolve([]),
     chosenCells(dutIds),
   ]);
   // Each cell: the capture a lead chose, else the latest valid one (finished, not excluded).
@@ -276,12 +370,17 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
   // Everything the cells' comparisons read, loaded once (two queries), so no cell queries alone;
   // the accelerometers' tilt checks likewise in one query for the whole study.
   const loaded = await loadComparisonInputs(captures, duts);
-  const tiltRows = await tiltChecksOf(duts, checkpoints.map((x) => x.id));
+  const tiltRows = await tiltChecksOf(
+    duts,
+    checkpoints.map((x) => x.id),
+  );
   const baselineId = checkpoints[0]?.id;
   const rows = [];
   for (const dut of duts) {
     const rowBase = baselineId ? latest.get(`${dut.id}:${baselineId}`) : undefined;
-    const baseCandidates = captures.filter((x) => x.dutId === dut.id && x.checkpointId === baselineId);
+    const baseCandidates = captures.filter(
+      (x) => x.dutId === dut.id && x.checkpointId === baselineId,
+    );
     const cells = [];
     for (const cp of checkpoints) {
       const c = latest.get(`${dut.id}:${cp.id}`);
@@ -290,9 +389,22 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
         continue;
       }
       const s = c.summary as CaptureSummary | null;
-      const capture = { id: c.id, readingCount: c.readingCount, ambientC: c.ambientC, mean: s?.stats?.mean ?? null, offsetPpm: s?.offsetPpm ?? null, simulated: c.simulated ?? false, sealBroken: c.sealBrokenAt != null, chosen: cellOf.get(`${dut.id}:${cp.id}`)?.chosen ?? false };
+      const capture = {
+        id: c.id,
+        readingCount: c.readingCount,
+        ambientC: c.ambientC,
+        mean: s?.stats?.mean ?? null,
+        offsetPpm: s?.offsetPpm ?? null,
+        simulated: c.simulated ?? false,
+        sealBroken: c.sealBrokenAt != null,
+        chosen: cellOf.get(`${dut.id}:${cp.id}`)?.chosen ?? false,
+      };
       // Acceleration is compared only with a baseline of the same orientation (services/baseline.ts).
-      const { base, problem: orientationProblem } = baselineOfOrientation(c, rowBase, baseCandidates);
+      const { base, problem: orientationProblem } = baselineOfOrientation(
+        c,
+        rowBase,
+        baseCandidates,
+      );
       if (orientationProblem && cp.id !== baselineId) {
         cells.push({ checkpointId: cp.id, capture, comparison: null, problem: orientationProblem });
         continue;
@@ -332,8 +444,18 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
       cells.push({ checkpointId: cp.id, capture, comparison });
     }
     // An accelerometer's tilt checks: the DUT's result per checkpoint and its change per axis (other kinds' cells carry none).
-    const tilt = await tiltCellsFor(dut, checkpoints.map((x) => x.id), tiltRows);
-    rows.push({ dut: dut.toPublic(), cells: dut.kind === 'accelerometer' ? cells.map((cell) => ({ ...cell, tiltCheck: tilt.get(cell.checkpointId) ?? null })) : cells });
+    const tilt = await tiltCellsFor(
+      dut,
+      checkpoints.map((x) => x.id),
+      tiltRows,
+    );
+    rows.push({
+      dut: dut.toPublic(),
+      cells:
+        dut.kind === 'accelerometer'
+          ? cells.map((cell) => ({ ...cell, tiltCheck: tilt.get(cell.checkpointId) ?? null }))
+          : cells,
+    });
   }
   return { studyId, checkpoints: checkpoints.map((c) => c.toPublic()), rows };
 }

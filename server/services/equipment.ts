@@ -5,7 +5,10 @@ import { audit } from './audit.js';
 import { utcToday } from './calibration.js';
 import { publicInstrument } from './instruments.js';
 import { publicReference } from './lab.js';
-import type { CalibrationRecord as CalibrationRecordOut, CalibrationRecordCreate } from '../../shared/protocol/equipment.js';
+import type {
+  CalibrationRecord as CalibrationRecordOut,
+  CalibrationRecordCreate,
+} from '../../shared/protocol/equipment.js';
 
 /**
  * The lab's equipment over time: calibrations recorded (never overwritten), a trip to the
@@ -23,7 +26,11 @@ class EquipmentConflict extends AppError {
 
 const LABEL: Record<Subject, string> = { instrument: 'Instrument', reference: 'Reference' };
 
-async function lockRow(subject: Subject, id: number, transaction: Transaction): Promise<Instrument | Reference> {
+async function lockRow(
+  subject: Subject,
+  id: number,
+  transaction: Transaction,
+): Promise<Instrument | Reference> {
   const row =
     subject === 'instrument'
       ? await Instrument.findByPk(id, { transaction, lock: transaction.LOCK.UPDATE })
@@ -33,17 +40,23 @@ async function lockRow(subject: Subject, id: number, transaction: Transaction): 
 }
 
 async function exists(subject: Subject, id: number): Promise<void> {
-  const row = subject === 'instrument' ? await Instrument.findByPk(id) : await Reference.findByPk(id);
+  const row =
+    subject === 'instrument' ? await Instrument.findByPk(id) : await Reference.findByPk(id);
   if (!row) throw new NotFoundError(LABEL[subject]);
 }
 
 function publicOf(subject: Subject, row: Instrument | Reference) {
-  return subject === 'instrument' ? publicInstrument(row as Instrument) : publicReference(row as Reference);
+  return subject === 'instrument'
+    ? publicInstrument(row as Instrument)
+    : publicReference(row as Reference);
 }
 
 function refuseRetired(subject: Subject, row: Instrument | Reference, what: string): void {
   if (row.retiredAt) {
-    throw new EquipmentConflict('equipment-retired', `${LABEL[subject]} “${row.name}” is retired: return it to service before ${what}.`);
+    throw new EquipmentConflict(
+      'equipment-retired',
+      `${LABEL[subject]} “${row.name}” is retired: return it to service before ${what}.`,
+    );
   }
 }
 
@@ -79,7 +92,10 @@ function publicRecord(r: RecordRow): CalibrationRecordOut {
 }
 
 /** GET …/:id/calibrations: every calibration of one instrument or reference, newest first. */
-export async function calibrationHistory(subject: Subject, id: number): Promise<{ calibrations: CalibrationRecordOut[] }> {
+export async function calibrationHistory(
+  subject: Subject,
+  id: number,
+): Promise<{ calibrations: CalibrationRecordOut[] }> {
   await exists(subject, id);
   const column = subject === 'instrument' ? 'instrument_id' : 'reference_id';
   const rows = await CalibrationRecord.sequelize!.query<RecordRow>(
@@ -96,14 +112,27 @@ export async function calibrationHistory(subject: Subject, id: number): Promise<
  * replaces the newer calibration. A current record also brings the equipment back from the
  * calibration lab, which clears "overdue" and "away".
  */
-export async function recordCalibration(subject: Subject, id: number, input: CalibrationRecordCreate, actorId: number, now = new Date()) {
+export async function recordCalibration(
+  subject: Subject,
+  id: number,
+  input: CalibrationRecordCreate,
+  actorId: number,
+  now = new Date(),
+) {
   if (input.calibratedOn > utcToday(now)) {
-    throw new ValidationError('calibratedOn: must not be in the future', [{ path: 'calibratedOn', message: 'must not be in the future' }]);
+    throw new ValidationError('calibratedOn: must not be in the future', [
+      { path: 'calibratedOn', message: 'must not be in the future' },
+    ]);
   }
   if (subject === 'reference') {
-    const missing = (['fractionalOffset', 'standardUncertainty'] as const).filter((k) => input[k] === undefined);
+    const missing = (['fractionalOffset', 'standardUncertainty'] as const).filter(
+      (k) => input[k] === undefined,
+    );
     if (missing.length > 0) {
-      throw new ValidationError(`${missing[0]}: is required for a reference (as found by the calibration)`, missing.map((path) => ({ path, message: 'is required for a reference' })));
+      throw new ValidationError(
+        `${missing[0]}: is required for a reference (as found by the calibration)`,
+        missing.map((path) => ({ path, message: 'is required for a reference' })),
+      );
     }
   }
   return CalibrationRecord.sequelize!.transaction(async (transaction) => {
@@ -134,7 +163,10 @@ export async function recordCalibration(subject: Subject, id: number, input: Cal
     const changed: Record<string, { from: unknown; to: unknown }> = {};
     const set = (key: string, value: unknown) => {
       // An instrument or a reference: both typed models, read and written here by field name.
-      const target = row as unknown as { getDataValue(k: string): unknown; setDataValue(k: string, v: unknown): void };
+      const target = row as unknown as {
+        getDataValue(k: string): unknown;
+        setDataValue(k: string, v: unknown): void;
+      };
       const before = target.getDataValue(key);
       if (before !== value) changed[key] = { from: before ?? null, to: value };
       target.setDataValue(key, value);
@@ -155,31 +187,61 @@ export async function recordCalibration(subject: Subject, id: number, input: Cal
       `${subject}.calibration.record`,
       subject,
       id,
-      { calibrationId: record.id, calibratedOn: input.calibratedOn, dueOn: input.dueOn ?? null, certificate: input.certificate, issuedBy: input.issuedBy, current, changes: changed },
+      {
+        calibrationId: record.id,
+        calibratedOn: input.calibratedOn,
+        dueOn: input.dueOn ?? null,
+        certificate: input.certificate,
+        issuedBy: input.issuedBy,
+        current,
+        changes: changed,
+      },
       transaction,
     );
-    const [stored] = await CalibrationRecord.sequelize!.query<RecordRow>(`${RECORD_SQL} WHERE r.id = $1`, {
-      bind: [record.id],
-      type: QueryTypes.SELECT,
-      transaction,
-    });
+    const [stored] = await CalibrationRecord.sequelize!.query<RecordRow>(
+      `${RECORD_SQL} WHERE r.id = $1`,
+      {
+        bind: [record.id],
+        type: QueryTypes.SELECT,
+        transaction,
+      },
+    );
     return { calibration: publicRecord(stored), [subject]: publicOf(subject, row) };
   });
 }
 
 /** POST …/:id/away: sent to a calibration lab. Its state reads "Away for calibration" until a calibration is recorded. */
-export async function sendAway(subject: Subject, id: number, sentOn: string | undefined, actorId: number, now = new Date()) {
+export async function sendAway(
+  subject: Subject,
+  id: number,
+  sentOn: string | undefined,
+  actorId: number,
+  now = new Date(),
+) {
   const day = sentOn ?? utcToday(now);
   if (day > utcToday(now)) {
-    throw new ValidationError('sentOn: must not be in the future', [{ path: 'sentOn', message: 'must not be in the future' }]);
+    throw new ValidationError('sentOn: must not be in the future', [
+      { path: 'sentOn', message: 'must not be in the future' },
+    ]);
   }
   return Instrument.sequelize!.transaction(async (transaction) => {
     const row = await lockRow(subject, id, transaction);
     refuseRetired(subject, row, 'sending it for calibration');
-    if (row.awaySince) throw new EquipmentConflict('equipment-away', `${LABEL[subject]} “${row.name}” has been away for calibration since ${row.awaySince}.`);
+    if (row.awaySince)
+      throw new EquipmentConflict(
+        'equipment-away',
+        `${LABEL[subject]} “${row.name}” has been away for calibration since ${row.awaySince}.`,
+      );
     row.awaySince = day;
     await row.save({ transaction });
-    await audit(actorId, `${subject}.away`, subject, id, { awaySince: { from: null, to: day } }, transaction);
+    await audit(
+      actorId,
+      `${subject}.away`,
+      subject,
+      id,
+      { awaySince: { from: null, to: day } },
+      transaction,
+    );
     return { [subject]: publicOf(subject, row) };
   });
 }
@@ -188,7 +250,11 @@ export async function sendAway(subject: Subject, id: number, sentOn: string | un
 export async function retire(subject: Subject, id: number, reason: string, actorId: number) {
   return Instrument.sequelize!.transaction(async (transaction) => {
     const row = await lockRow(subject, id, transaction);
-    if (row.retiredAt) throw new EquipmentConflict('equipment-retired', `${LABEL[subject]} “${row.name}” is already retired.`);
+    if (row.retiredAt)
+      throw new EquipmentConflict(
+        'equipment-retired',
+        `${LABEL[subject]} “${row.name}” is already retired.`,
+      );
     row.retiredAt = new Date();
     row.retiredReason = reason;
     if (row instanceof Reference) row.labDefault = false;
@@ -203,9 +269,15 @@ export async function reinstate(subject: Subject, id: number, actorId: number) {
   return Instrument.sequelize!.transaction(async (transaction) => {
     const row = await lockRow(subject, id, transaction);
     if (!row.retiredAt && !row.awaySince) {
-      throw new EquipmentConflict('equipment-in-service', `${LABEL[subject]} “${row.name}” is already in service.`);
+      throw new EquipmentConflict(
+        'equipment-in-service',
+        `${LABEL[subject]} “${row.name}” is already in service.`,
+      );
     }
-    const details = { retiredAt: { from: row.retiredAt, to: null }, awaySince: { from: row.awaySince, to: null } };
+    const details = {
+      retiredAt: { from: row.retiredAt, to: null },
+      awaySince: { from: row.awaySince, to: null },
+    };
     row.retiredAt = null;
     row.retiredReason = null;
     row.awaySince = null;
@@ -227,7 +299,14 @@ export async function makeLabReference(id: number, actorId: number) {
     }
     row.labDefault = true;
     await row.save({ transaction });
-    await audit(actorId, 'reference.lab-default', 'reference', id, { labDefault: { from: before?.id ?? null, to: id } }, transaction);
+    await audit(
+      actorId,
+      'reference.lab-default',
+      'reference',
+      id,
+      { labDefault: { from: before?.id ?? null, to: id } },
+      transaction,
+    );
     return { reference: publicReference(row) };
   });
 }

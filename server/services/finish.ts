@@ -25,7 +25,12 @@ function reduceOrExplain(capture: Capture, dut: Dut | null, series: Series) {
     return reduce(capture, dut, prepare(capture, series));
   } catch (err) {
     if (!(err instanceof AnalysisError)) throw err;
-    const empty: Series = { seq: new Int32Array(0), t: new Float64Array(0), value: new Float64Array(0), flags: new Int16Array(0) };
+    const empty: Series = {
+      seq: new Int32Array(0),
+      t: new Float64Array(0),
+      value: new Float64Array(0),
+      flags: new Int16Array(0),
+    };
     const summary = reduce(capture, dut, prepare(capture, empty));
     summary.counts = { ...summary.counts, total: series.seq.length };
     summary.notes.push(`Analysis not computed: ${err.message} The readings are kept.`);
@@ -49,9 +54,15 @@ export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser,
       [id],
     );
     if (lock.rowCount === 0) throw new NotFoundError('Capture');
-    if (!canWriteCapture(user, lock.rows[0].operator_id)) throw new ForbiddenError('Only the capture\'s operator, a lead or an admin may finish it.');
+    if (!canWriteCapture(user, lock.rows[0].operator_id))
+      throw new ForbiddenError("Only the capture's operator, a lead or an admin may finish it.");
     const from = lock.rows[0].state;
-    if (from === 'aborted') throw new AppError(409, 'capture-aborted', 'This capture was aborted: it cannot be finished.');
+    if (from === 'aborted')
+      throw new AppError(
+        409,
+        'capture-aborted',
+        'This capture was aborted: it cannot be finished.',
+      );
     if (isRecording(from)) {
       const capture = (await Capture.findByPk(id))!;
       const dut = await Dut.findByPk(capture.dutId);
@@ -64,11 +75,19 @@ export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser,
       await client.query(
         `UPDATE captures SET state = 'finished', ended_at = now(), updated_at = now(), summary = $2::jsonb,
            reading_count = $3, highest_seq = $4 WHERE id = $1`,
-        [id, JSON.stringify(summary), series.seq.length, series.seq.length ? series.seq[series.seq.length - 1] : -1],
+        [
+          id,
+          JSON.stringify(summary),
+          series.seq.length,
+          series.seq.length ? series.seq[series.seq.length - 1] : -1,
+        ],
       );
       // The seal: SHA-256 of the raw readings in the canonical serialisation (seal.ts).
       const seal = sealOf(series);
-      await client.query('UPDATE captures SET seal_sha256 = $2, sealed_at = now() WHERE id = $1', [id, seal]);
+      await client.query('UPDATE captures SET seal_sha256 = $2, sealed_at = now() WHERE id = $1', [
+        id,
+        seal,
+      ]);
       await auditWithClient(client, user.id, 'capture.finish', 'capture', id, {
         state: { from, to: 'finished' },
         readings: series.seq.length,

@@ -1,6 +1,10 @@
 import type pg from 'pg';
 import { AppError, ForbiddenError, NotFoundError, ValidationError } from '../errors.js';
-import { findBadReading, type IngestResult, type ReadingIn } from '../../shared/protocol/captures.js';
+import {
+  findBadReading,
+  type IngestResult,
+  type ReadingIn,
+} from '../../shared/protocol/captures.js';
 import type { LiveHub } from './liveHub.js';
 import type { AuthUser } from './auth.js';
 import { PlausibilityWindow, PLAUSIBILITY } from '../../shared/protocol/plausibility.js';
@@ -77,7 +81,10 @@ async function plausibilityFor(pool: pg.Pool, captureId: number): Promise<Plausi
  * Who may add readings to a capture: a role that runs captures, when it is the capture's operator
  * or holds `captures:write-any` (shared/protocol/roles.ts). Viewers never.
  */
-export function canWriteCapture(user: Pick<AuthUser, 'id' | 'role'>, operatorId: number | null): boolean {
+export function canWriteCapture(
+  user: Pick<AuthUser, 'id' | 'role'>,
+  operatorId: number | null,
+): boolean {
   if (!roleCan(user.role, 'captures:run')) return false;
   return roleCan(user.role, 'captures:write-any') || operatorId === user.id;
 }
@@ -103,7 +110,10 @@ export async function ingestReadings(
   if (Buffer.isBuffer(body)) {
     const cols = decodeReadingsF64(body);
     if ('reason' in cols) {
-      throw new ValidationError(cols.index >= 0 ? `reading ${cols.index}: ${cols.reason}` : cols.reason, { index: cols.index, reason: cols.reason });
+      throw new ValidationError(
+        cols.index >= 0 ? `reading ${cols.index}: ${cols.reason}` : cols.reason,
+        { index: cols.index, reason: cols.reason },
+      );
     }
     ({ seq: seqs, t: ts, value: values, flags } = cols);
   } else {
@@ -143,10 +153,12 @@ export async function ingestReadings(
   // Implausible values (shared/protocol/plausibility.ts) are stored with their flag bit set, so
   // one absurd number never blocks the analysis or the finish.
   const judge = await plausibilityFor(pool, captureId);
-  for (let i = 0; i < n; i++) if (flags[i] === 0 && !judge.check(values[i])) flags[i] |= ReadingFlag.implausible;
+  for (let i = 0; i < n; i++)
+    if (flags[i] === 0 && !judge.check(values[i])) flags[i] |= ReadingFlag.implausible;
   const watched = hub.hasWatchers(captureId);
   const mayWriteAny = roleCan(user.role, 'captures:write-any');
-  if (!roleCan(user.role, 'captures:run')) throw new ForbiddenError('Your role cannot add readings.');
+  if (!roleCan(user.role, 'captures:run'))
+    throw new ForbiddenError('Your role cannot add readings.');
 
   // One statement, so one round trip and one commit: lock the capture row, insert only if it is
   // open and the user may write it, count what was new, and move the capture's counters.
@@ -167,29 +179,49 @@ export async function ingestReadings(
   // cannot conflict, so it skips the per-row conflict check (about 1.5× faster in PostgreSQL).
   // When the capture already holds higher readings, the statement inserts nothing and says so,
   // and the batch goes again through the conflict-safe path.
-  let res = increasing && n > 0 ? await pool.query<IngestRow>(ingestSql(false, watched), params) : null;
-  if (!res || (res.rows[0] && isRecording(res.rows[0].state) && res.rows[0].may_write && !res.rows[0].fits)) {
+  let res =
+    increasing && n > 0 ? await pool.query<IngestRow>(ingestSql(false, watched), params) : null;
+  if (
+    !res ||
+    (res.rows[0] && isRecording(res.rows[0].state) && res.rows[0].may_write && !res.rows[0].fits)
+  ) {
     res = await pool.query<IngestRow>(ingestSql(true, watched), params);
   }
   if (res.rowCount === 0) throw new NotFoundError('Capture');
   const row = res.rows[0];
-  if (!row.may_write) throw new ForbiddenError("Only the capture's operator, a lead or an admin may add readings.");
-  if (row.state === 'aborted') throw new AppError(409, 'capture-aborted', 'This capture was aborted: it takes no more readings.');
-  if (!isRecording(row.state)) throw new AppError(409, 'capture-finished', 'This capture is finished: it takes no more readings.');
+  if (!row.may_write)
+    throw new ForbiddenError("Only the capture's operator, a lead or an admin may add readings.");
+  if (row.state === 'aborted')
+    throw new AppError(
+      409,
+      'capture-aborted',
+      'This capture was aborted: it takes no more readings.',
+    );
+  if (!isRecording(row.state))
+    throw new AppError(
+      409,
+      'capture-finished',
+      'This capture is finished: it takes no more readings.',
+    );
   const accepted = row.accepted;
   const highestSeq = row.highest_seq;
   const inserted = row.seqs;
   // A stalled capture that receives readings again is recording: the statement set it back to
   // 'open'; the return is audited (rare, so off the hot path's single round trip).
   if (row.state === 'stalled' && accepted > 0) {
-    await audit(user.id, 'capture.resume', 'capture', captureId, { state: { from: 'stalled', to: 'open' }, readings: accepted });
+    await audit(user.id, 'capture.resume', 'capture', captureId, {
+      state: { from: 'stalled', to: 'open' },
+      readings: accepted,
+    });
   }
 
   if (watched && inserted && inserted.length) {
     // Watchers get what was stored, as stored (an implausible reading carries its flag).
     const fresh = new Set(inserted);
     const out: Array<{ seq: number; t: number; value: number; flags: number }> = [];
-    for (let i = 0; i < n; i++) if (fresh.delete(seqs[i])) out.push({ seq: seqs[i], t: ts[i], value: values[i], flags: flags[i] });
+    for (let i = 0; i < n; i++)
+      if (fresh.delete(seqs[i]))
+        out.push({ seq: seqs[i], t: ts[i], value: values[i], flags: flags[i] });
     hub.publishReadings(captureId, out);
   }
   return { accepted, duplicates: n - accepted, highestSeq };

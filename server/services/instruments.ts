@@ -78,17 +78,38 @@ export async function createInstrument(input: InstrumentFields, actorId: number)
       },
       { transaction },
     );
-    await audit(actorId, 'instrument.create', 'instrument', created.id, { name: input.name, kind: input.kind }, transaction);
+    await audit(
+      actorId,
+      'instrument.create',
+      'instrument',
+      created.id,
+      { name: input.name, kind: input.kind },
+      transaction,
+    );
     return created;
   });
   return publicInstrument(instrument);
 }
 
 /** Changes an instrument's registration fields; the audit event lists the fields changed. */
-export async function updateInstrument(id: number, patch: Partial<InstrumentFields>, actorId: number) {
+export async function updateInstrument(
+  id: number,
+  patch: Partial<InstrumentFields>,
+  actorId: number,
+) {
   const instrument = await find(id);
   const changed: Record<string, { from: unknown; to: unknown }> = {};
-  for (const key of ['name', 'kind', 'maker', 'model', 'serial', 'calibrationDue', 'notes', 'counterType', 'counterResolution'] as const) {
+  for (const key of [
+    'name',
+    'kind',
+    'maker',
+    'model',
+    'serial',
+    'calibrationDue',
+    'notes',
+    'counterType',
+    'counterResolution',
+  ] as const) {
     if (patch[key] === undefined) continue;
     const before = instrument.get(key) as unknown;
     if (before !== patch[key]) changed[key] = { from: before, to: patch[key] };
@@ -96,13 +117,18 @@ export async function updateInstrument(id: number, patch: Partial<InstrumentFiel
   }
   await Instrument.sequelize!.transaction(async (transaction) => {
     await instrument.save({ transaction });
-    if (Object.keys(changed).length > 0) await audit(actorId, 'instrument.update', 'instrument', id, changed, transaction);
+    if (Object.keys(changed).length > 0)
+      await audit(actorId, 'instrument.update', 'instrument', id, changed, transaction);
   });
   return publicInstrument(instrument);
 }
 
 /** Stores the link profile the bench and the link page offer for this instrument. */
-export async function saveLinkProfile(id: number, profile: LinkProfile, actorId: number): Promise<LinkProfile> {
+export async function saveLinkProfile(
+  id: number,
+  profile: LinkProfile,
+  actorId: number,
+): Promise<LinkProfile> {
   const instrument = await find(id);
   const had = instrument.linkProfile != null;
   instrument.linkProfile = profile;

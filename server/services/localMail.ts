@@ -19,7 +19,10 @@ export interface LocalMailService {
 /** Largest message the local service accepts (attachments are never mailed). */
 const MAX_MESSAGE_BYTES = 2 * 1024 * 1024;
 
-export async function startLocalMail(pool: pg.Pool, opts: { port?: number; log?: Logger } = {}): Promise<LocalMailService> {
+export async function startLocalMail(
+  pool: pg.Pool,
+  opts: { port?: number; log?: Logger } = {},
+): Promise<LocalMailService> {
   const server = new SMTPServer({
     secure: false,
     authOptional: true,
@@ -32,7 +35,9 @@ export async function startLocalMail(pool: pg.Pool, opts: { port?: number; log?:
       stream.on('data', (c: Buffer) => chunks.push(c));
       stream.on('end', () => {
         if (stream.sizeExceeded) {
-          const err = Object.assign(new Error('Message exceeds the local service size limit'), { responseCode: 552 });
+          const err = Object.assign(new Error('Message exceeds the local service size limit'), {
+            responseCode: 552,
+          });
           return callback(err);
         }
         const raw = Buffer.concat(chunks);
@@ -48,14 +53,18 @@ export async function startLocalMail(pool: pg.Pool, opts: { port?: number; log?:
             () => callback(),
             (err: Error) => {
               opts.log?.error({ err: err.message }, 'local mail service could not store a message');
-              callback(Object.assign(new Error('Temporary storage failure'), { responseCode: 451 }));
+              callback(
+                Object.assign(new Error('Temporary storage failure'), { responseCode: 451 }),
+              );
             },
           );
       });
       stream.on('error', (err: Error) => callback(err));
     },
   });
-  server.on('error', (err: Error) => opts.log?.warn({ err: err.message }, 'local mail service error'));
+  server.on('error', (err: Error) =>
+    opts.log?.warn({ err: err.message }, 'local mail service error'),
+  );
   await new Promise<void>((resolve, reject) => {
     server.server.once('error', reject);
     server.listen(opts.port ?? 0, '127.0.0.1', () => resolve());
@@ -116,7 +125,10 @@ function textOf(headers: Map<string, string>, body: string): string {
   if (encoding === 'base64') bytes = Buffer.from(body.replace(/\s+/g, ''), 'base64');
   else if (encoding === 'quoted-printable') bytes = decodeQuotedPrintable(body);
   else bytes = Buffer.from(body, 'latin1');
-  return new TextDecoder(charset === 'us-ascii' ? 'utf-8' : charset).decode(bytes).replace(/\r\n/g, '\n').replace(/\n$/, '');
+  return new TextDecoder(charset === 'us-ascii' ? 'utf-8' : charset)
+    .decode(bytes)
+    .replace(/\r\n/g, '\n')
+    .replace(/\n$/, '');
 }
 
 function decodeQuotedPrintable(s: string): Buffer {
@@ -136,8 +148,11 @@ function decodeQuotedPrintable(s: string): Buffer {
 function decodeWords(s: string): string {
   const bytesToText = (bytes: Buffer) => new TextDecoder('utf-8').decode(bytes);
   const decoded = s.replace(/\?=\s+=\?/g, '?==?');
-  return decoded.replace(/=\?([^?]+)\?([BbQq])\?([^?]*)\?=/g, (_all, _charset: string, enc: string, text: string) => {
-    if (enc.toUpperCase() === 'B') return bytesToText(Buffer.from(text, 'base64'));
-    return bytesToText(decodeQuotedPrintable(text.replace(/_/g, ' ')));
-  });
+  return decoded.replace(
+    /=\?([^?]+)\?([BbQq])\?([^?]*)\?=/g,
+    (_all, _charset: string, enc: string, text: string) => {
+      if (enc.toUpperCase() === 'B') return bytesToText(Buffer.from(text, 'base64'));
+      return bytesToText(decodeQuotedPrintable(text.replace(/_/g, ' ')));
+    },
+  );
 }

@@ -31,7 +31,17 @@ export async function enqueueMail(input: MailInput, transaction?: Transaction): 
   const rows = (await Study.sequelize!.query(
     `INSERT INTO mail_outbox (kind, to_address, subject, body, dedupe_key) VALUES ($1, $2, $3, $4, $5)
      ON CONFLICT (dedupe_key) DO NOTHING RETURNING id`,
-    { bind: [input.kind, input.to, input.subject.slice(0, 300), input.text, input.dedupeKey ?? null], transaction, type: QueryTypes.SELECT },
+    {
+      bind: [
+        input.kind,
+        input.to,
+        input.subject.slice(0, 300),
+        input.text,
+        input.dedupeKey ?? null,
+      ],
+      transaction,
+      type: QueryTypes.SELECT,
+    },
   )) as unknown[];
   if (rows.length > 0) {
     if (transaction) transaction.afterCommit(() => nudgeMail());
@@ -126,7 +136,13 @@ export interface MailWorker {
  * `FOR UPDATE SKIP LOCKED` (two workers never send one message twice), sends each through
  * `transport` and records the outcome.
  */
-export function startMailWorker(opts: { transport: Transporter; log?: Logger; intervalMs?: number; from?: string; autoStart?: boolean }): MailWorker {
+export function startMailWorker(opts: {
+  transport: Transporter;
+  log?: Logger;
+  intervalMs?: number;
+  from?: string;
+  autoStart?: boolean;
+}): MailWorker {
   const sequelize = Study.sequelize!;
   let running: Promise<{ sent: number; failed: number }> | null = null;
   let stopped = false;
@@ -141,25 +157,51 @@ export function startMailWorker(opts: { transport: Transporter; log?: Logger; in
            WHERE status IN ('queued', 'retrying') AND next_attempt_at <= $1
            ORDER BY next_attempt_at, id LIMIT 1 FOR UPDATE SKIP LOCKED`,
           { bind: [now], transaction: t, type: QueryTypes.SELECT },
-        )) as Array<{ id: number; to_address: string; subject: string; body: string; attempts: number }>;
+        )) as Array<{
+          id: number;
+          to_address: string;
+          subject: string;
+          body: string;
+          attempts: number;
+        }>;
         if (rows.length === 0) return null;
         const m = rows[0];
         const attempt = m.attempts + 1;
         try {
-          await opts.transport.sendMail({ from: opts.from ?? MAIL_FROM, to: m.to_address, subject: m.subject, text: m.body });
-          await sequelize.query(`UPDATE mail_outbox SET status = 'sent', attempts = $2, sent_at = now(), last_error = NULL WHERE id = $1`, {
-            bind: [m.id, attempt],
-            transaction: t,
+          await opts.transport.sendMail({
+            from: opts.from ?? MAIL_FROM,
+            to: m.to_address,
+            subject: m.subject,
+            text: m.body,
           });
+          await sequelize.query(
+            `UPDATE mail_outbox SET status = 'sent', attempts = $2, sent_at = now(), last_error = NULL WHERE id = $1`,
+            {
+              bind: [m.id, attempt],
+              transaction: t,
+            },
+          );
           return 'sent' as const;
         } catch (err) {
           const reason = err instanceof Error ? err.message : String(err);
           const gaveUp = attempt >= MAX_ATTEMPTS;
           await sequelize.query(
             `UPDATE mail_outbox SET status = $2, attempts = $3, last_error = $4, next_attempt_at = $5 WHERE id = $1`,
-            { bind: [m.id, gaveUp ? 'failed' : 'retrying', attempt, reason.slice(0, 2000), new Date(now.getTime() + retryDelayMs(attempt))], transaction: t },
+            {
+              bind: [
+                m.id,
+                gaveUp ? 'failed' : 'retrying',
+                attempt,
+                reason.slice(0, 2000),
+                new Date(now.getTime() + retryDelayMs(attempt)),
+              ],
+              transaction: t,
+            },
           );
-          opts.log?.warn({ mailId: m.id, attempt, err: reason }, gaveUp ? 'mail delivery failed for good' : 'mail delivery failed; will retry');
+          opts.log?.warn(
+            { mailId: m.id, attempt, err: reason },
+            gaveUp ? 'mail delivery failed for good' : 'mail delivery failed; will retry',
+          );
           return 'failed' as const;
         }
       });
@@ -175,9 +217,11 @@ export function startMailWorker(opts: { transport: Transporter; log?: Logger; in
     const prev = running ?? Promise.resolve({ sent: 0, failed: 0 });
     const next = prev.catch(() => ({ sent: 0, failed: 0 })).then(() => deliverOnce(now));
     running = next;
-    void next.finally(() => {
-      if (running === next) running = null;
-    }).catch(() => {});
+    void next
+      .finally(() => {
+        if (running === next) running = null;
+      })
+      .catch(() => {});
     return next;
   }
 

@@ -19,14 +19,24 @@ export const TILE_BASE = 64;
 const MAX_LEVEL = 20;
 
 /** Loads every reading of a capture (or a seq range) into typed arrays. */
-export async function loadSeries(pool: pg.Pool | pg.PoolClient, captureId: number, from = 0, to = 2_147_483_647): Promise<Series> {
+export async function loadSeries(
+  pool: pg.Pool | pg.PoolClient,
+  captureId: number,
+  from = 0,
+  to = 2_147_483_647,
+): Promise<Series> {
   const res = await pool.query<[number, number, number, number]>({
     text: 'SELECT seq, t, value, flags FROM readings WHERE capture_id = $1 AND seq BETWEEN $2 AND $3 ORDER BY seq',
     values: [captureId, from, to],
     rowMode: 'array',
   });
   const n = res.rows.length;
-  const s: Series = { seq: new Int32Array(n), t: new Float64Array(n), value: new Float64Array(n), flags: new Int16Array(n) };
+  const s: Series = {
+    seq: new Int32Array(n),
+    t: new Float64Array(n),
+    value: new Float64Array(n),
+    flags: new Int16Array(n),
+  };
   for (let i = 0; i < n; i++) {
     const r = res.rows[i];
     s.seq[i] = r[0];
@@ -40,7 +50,9 @@ export async function loadSeries(pool: pg.Pool | pg.PoolClient, captureId: numbe
 function toPoints(s: Series): SeriesPoint[] {
   const out: SeriesPoint[] = new Array(s.seq.length);
   for (let i = 0; i < s.seq.length; i++) {
-    out[i] = s.flags[i] ? { seq: s.seq[i], t: s.t[i], value: s.value[i], flags: s.flags[i] } : { seq: s.seq[i], t: s.t[i], value: s.value[i] };
+    out[i] = s.flags[i]
+      ? { seq: s.seq[i], t: s.t[i], value: s.value[i], flags: s.flags[i] }
+      : { seq: s.seq[i], t: s.t[i], value: s.value[i] };
   }
   return out;
 }
@@ -49,7 +61,11 @@ function toPoints(s: Series): SeriesPoint[] {
  * Builds the min/max tiles of a finished capture: level L groups 64·2^L consecutive sequence
  * numbers and keeps the lowest and the highest reading of each group.
  */
-export async function buildTiles(client: pg.PoolClient | pg.Pool, captureId: number, s: Series): Promise<void> {
+export async function buildTiles(
+  client: pg.PoolClient | pg.Pool,
+  captureId: number,
+  s: Series,
+): Promise<void> {
   await client.query('DELETE FROM reading_tiles WHERE capture_id = $1', [captureId]);
   const n = s.seq.length;
   if (n === 0) return;
@@ -63,7 +79,8 @@ export async function buildTiles(client: pg.PoolClient | pg.Pool, captureId: num
     for (let i = 0; i < n; i++) {
       const b = Math.floor(s.seq[i] / size);
       if (b !== bucket) {
-        if (bucket >= 0) rows.push([bucket, s.seq[lo], s.t[lo], s.value[lo], s.seq[hi], s.t[hi], s.value[hi]]);
+        if (bucket >= 0)
+          rows.push([bucket, s.seq[lo], s.t[lo], s.value[lo], s.seq[hi], s.t[hi], s.value[hi]]);
         bucket = b;
         lo = hi = i;
       } else {
@@ -76,7 +93,17 @@ export async function buildTiles(client: pg.PoolClient | pg.Pool, captureId: num
     await client.query(
       `INSERT INTO reading_tiles (capture_id, level, bucket, min_seq, min_t, min_value, max_seq, max_t, max_value)
        SELECT $1, $2, * FROM unnest($3::int[], $4::int[], $5::float8[], $6::float8[], $7::int[], $8::float8[], $9::float8[])`,
-      [captureId, level, column(0), column(1), column(2), column(3), column(4), column(5), column(6)],
+      [
+        captureId,
+        level,
+        column(0),
+        column(1),
+        column(2),
+        column(3),
+        column(4),
+        column(5),
+        column(6),
+      ],
     );
     if (size > maxSeq) break;
   }
@@ -121,9 +148,18 @@ export async function readSeries(
         rowMode: 'array',
       });
       if ((res.rowCount ?? 0) > 0) {
-        const head = from < firstFull * size ? edgeExtremes(await loadSeries(pool, captureId, from, firstFull * size - 1)) : [];
-        const tail = to >= (lastFull + 1) * size ? edgeExtremes(await loadSeries(pool, captureId, (lastFull + 1) * size, to)) : [];
-        return { readings: [...head, ...tilesToPoints(res.rows, from, to), ...tail], decimated: true };
+        const head =
+          from < firstFull * size
+            ? edgeExtremes(await loadSeries(pool, captureId, from, firstFull * size - 1))
+            : [];
+        const tail =
+          to >= (lastFull + 1) * size
+            ? edgeExtremes(await loadSeries(pool, captureId, (lastFull + 1) * size, to))
+            : [];
+        return {
+          readings: [...head, ...tilesToPoints(res.rows, from, to), ...tail],
+          decimated: true,
+        };
       }
     }
   }
@@ -155,7 +191,11 @@ function edgeExtremes(s: Series): SeriesPoint[] {
   return lo < hi ? [point(lo), point(hi)] : [point(hi), point(lo)];
 }
 
-function tilesToPoints(rows: Array<[number, number, number, number, number, number]>, from: number, to: number): SeriesPoint[] {
+function tilesToPoints(
+  rows: Array<[number, number, number, number, number, number]>,
+  from: number,
+  to: number,
+): SeriesPoint[] {
   const out: SeriesPoint[] = [];
   for (const [minSeq, minT, minV, maxSeq, maxT, maxV] of rows) {
     const a = { seq: minSeq, t: minT, value: minV };

@@ -4,7 +4,11 @@ import { audit } from './audit.js';
 import { assertStudyWritable } from './studyLock.js';
 import { publicReference } from './lab.js';
 import { applyQuantityLimits } from './dutLimits.js';
-import type { ReferenceCreate, ReferencePatch, DutPatch } from '../../shared/protocol/uncertainty.js';
+import type {
+  ReferenceCreate,
+  ReferencePatch,
+  DutPatch,
+} from '../../shared/protocol/uncertainty.js';
 
 const REFERENCE_FIELDS = [
   'name',
@@ -21,7 +25,9 @@ const REFERENCE_FIELDS = [
 
 async function checkInstrument(id: number | null | undefined): Promise<void> {
   if (id && !(await Instrument.findByPk(id))) {
-    throw new ValidationError('instrumentId: no such instrument', [{ path: 'instrumentId', message: 'no such instrument' }]);
+    throw new ValidationError('instrumentId: no such instrument', [
+      { path: 'instrumentId', message: 'no such instrument' },
+    ]);
   }
 }
 
@@ -47,7 +53,14 @@ export async function createReference(input: ReferenceCreate, actorId: number) {
       },
       { transaction },
     );
-    await audit(actorId, 'reference.create', 'reference', created.id, { after: publicReference(created) }, transaction);
+    await audit(
+      actorId,
+      'reference.create',
+      'reference',
+      created.id,
+      { after: publicReference(created) },
+      transaction,
+    );
     return created;
   });
   return publicReference(ref);
@@ -67,12 +80,21 @@ export async function updateReference(id: number, patch: ReferencePatch, actorId
   }
   await Reference.sequelize!.transaction(async (transaction) => {
     await ref.save({ transaction });
-    if (Object.keys(changed).length > 0) await audit(actorId, 'reference.update', 'reference', id, changed, transaction);
+    if (Object.keys(changed).length > 0)
+      await audit(actorId, 'reference.update', 'reference', id, changed, transaction);
   });
   return publicReference(ref);
 }
 
-const DUT_FIELDS = ['label', 'position', 'serial', 'turnoverC', 'turnoverU', 'parabolicB', 'parabolicBU'] as const;
+const DUT_FIELDS = [
+  'label',
+  'position',
+  'serial',
+  'turnoverC',
+  'turnoverU',
+  'parabolicB',
+  'parabolicBU',
+] as const;
 
 /**
  * Changes a DUT's limit (symmetric ±limit, or lower/upper bounds with one side open), its
@@ -82,13 +104,15 @@ const DUT_FIELDS = ['label', 'position', 'serial', 'turnoverC', 'turnoverU', 'pa
 export async function updateDut(id: number, patch: DutPatch, actorId: number) {
   const dut = await Dut.findByPk(id);
   if (!dut) throw new NotFoundError('DUT');
-  await assertStudyWritable('dut', id, "changing a DUT or its limit");
+  await assertStudyWritable('dut', id, 'changing a DUT or its limit');
   const before = dut.toPublic();
   for (const key of DUT_FIELDS) if (patch[key] !== undefined) dut.set(key, patch[key]);
   // Archiving keeps the DUT and its captures but takes it out of the matrix and the bench.
-  if (patch.archived !== undefined) dut.archivedAt = patch.archived ? (dut.archivedAt ?? new Date()) : null;
+  if (patch.archived !== undefined)
+    dut.archivedAt = patch.archived ? (dut.archivedAt ?? new Date()) : null;
   applyQuantityLimits(dut, patch.limits);
-  const limitGiven = patch.limit !== undefined || patch.limitLow !== undefined || patch.limitHigh !== undefined;
+  const limitGiven =
+    patch.limit !== undefined || patch.limitLow !== undefined || patch.limitHigh !== undefined;
   if (limitGiven) {
     if (patch.limit != null) {
       dut.limitValue = patch.limit;
@@ -101,10 +125,14 @@ export async function updateDut(id: number, patch: DutPatch, actorId: number) {
     }
     const bounds = dut.limitLow !== null || dut.limitHigh !== null;
     if (dut.limitValue === null && !bounds) {
-      throw new ValidationError('limit: is required (or give a lower and/or upper bound)', [{ path: 'limit', message: 'is required (or give a lower and/or upper bound)' }]);
+      throw new ValidationError('limit: is required (or give a lower and/or upper bound)', [
+        { path: 'limit', message: 'is required (or give a lower and/or upper bound)' },
+      ]);
     }
     if (dut.limitLow !== null && dut.limitHigh !== null && !(dut.limitLow < dut.limitHigh)) {
-      throw new ValidationError('limitHigh: must be above the lower bound', [{ path: 'limitHigh', message: 'must be above the lower bound' }]);
+      throw new ValidationError('limitHigh: must be above the lower bound', [
+        { path: 'limitHigh', message: 'must be above the lower bound' },
+      ]);
     }
   }
   const after = dut.toPublic();
@@ -115,9 +143,10 @@ export async function updateDut(id: number, patch: DutPatch, actorId: number) {
   }
   await Dut.sequelize!.transaction(async (transaction) => {
     // Checked again under the study's row lock, so a concurrent submit cannot slip in between.
-    await assertStudyWritable('dut', id, "changing a DUT or its limit", transaction);
+    await assertStudyWritable('dut', id, 'changing a DUT or its limit', transaction);
     await dut.save({ transaction });
-    if (Object.keys(changed).length > 0) await audit(actorId, 'dut.update', 'dut', id, changed, transaction);
+    if (Object.keys(changed).length > 0)
+      await audit(actorId, 'dut.update', 'dut', id, changed, transaction);
   });
   return after;
 }

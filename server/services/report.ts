@@ -15,7 +15,7 @@ export const DECISION_RULE =
   'uncertainty U of Δ (coverage about 95 %), the guarded-acceptance rule of ILAC-G8: the change is "within" ' +
   'when the whole interval Δ ± U lies inside the limit, "exceeds" when the whole interval lies outside it, ' +
   'and "inconclusive" otherwise. A reference shared by both captures is treated as fully correlated and ' +
-  'cancels in Δ. The baseline of each DUT is its latest finished capture at the study\'s first checkpoint.';
+  "cancels in Δ. The baseline of each DUT is its latest finished capture at the study's first checkpoint.";
 
 /**
  * Everything the printable report shows, read from the same services the study and capture pages
@@ -27,27 +27,48 @@ export async function buildStudyReport(pool: pg.Pool, studyId: number, t?: Trans
   const study = await Study.findByPk(studyId, { transaction: t });
   if (!study) throw new NotFoundError('Study');
   const [checkpoints, duts, matrix, reviews] = await Promise.all([
-    Checkpoint.findAll({ where: { studyId }, order: [['position', 'ASC'], ['id', 'ASC']] }),
+    Checkpoint.findAll({
+      where: { studyId },
+      order: [
+        ['position', 'ASC'],
+        ['id', 'ASC'],
+      ],
+    }),
     Dut.findAll({ where: { studyId }, order: [['id', 'ASC']] }),
     studyMatrix(pool, studyId),
     reviewHistory(studyId, t),
   ]);
 
   // The captures the report uses: the latest finished one per DUT × checkpoint (the matrix's).
-  const usedIds = matrix.rows.flatMap((r) => r.cells.map((c) => c.capture?.id).filter((id): id is number => id != null));
-  const captures = usedIds.length ? await Capture.findAll({ where: { id: usedIds }, order: [['id', 'ASC']] }) : [];
-  const instrumentIds = [...new Set(captures.map((c) => c.instrumentId).filter((x): x is number => x != null))];
-  const referenceIds = [...new Set(captures.map((c) => c.referenceId).filter((x): x is number => x != null))];
-  const operatorIds = [...new Set(captures.map((c) => c.operatorId).filter((x): x is number => x != null))];
+  const usedIds = matrix.rows.flatMap((r) =>
+    r.cells.map((c) => c.capture?.id).filter((id): id is number => id != null),
+  );
+  const captures = usedIds.length
+    ? await Capture.findAll({ where: { id: usedIds }, order: [['id', 'ASC']] })
+    : [];
+  const instrumentIds = [
+    ...new Set(captures.map((c) => c.instrumentId).filter((x): x is number => x != null)),
+  ];
+  const referenceIds = [
+    ...new Set(captures.map((c) => c.referenceId).filter((x): x is number => x != null)),
+  ];
+  const operatorIds = [
+    ...new Set(captures.map((c) => c.operatorId).filter((x): x is number => x != null)),
+  ];
   const [instruments, references, operators] = await Promise.all([
-    instrumentIds.length ? Instrument.findAll({ where: { id: instrumentIds }, order: [['name', 'ASC']] }) : [],
-    referenceIds.length ? Reference.findAll({ where: { id: referenceIds }, order: [['name', 'ASC']] }) : [],
+    instrumentIds.length
+      ? Instrument.findAll({ where: { id: instrumentIds }, order: [['name', 'ASC']] })
+      : [],
+    referenceIds.length
+      ? Reference.findAll({ where: { id: referenceIds }, order: [['name', 'ASC']] })
+      : [],
     operatorIds.length ? User.findAll({ where: { id: operatorIds } }) : [],
   ]);
   const names = new Map(operators.map((u) => [u.id, u.name]));
   const people = new Map<number, string>();
   for (const id of [study.createdBy, study.submittedBy, study.approvedBy]) {
-    if (id && !people.has(id)) people.set(id, (await User.findByPk(id, { transaction: t }))?.name ?? `user ${id}`);
+    if (id && !people.has(id))
+      people.set(id, (await User.findByPk(id, { transaction: t }))?.name ?? `user ${id}`);
   }
 
   const captureRows = [];
@@ -64,13 +85,18 @@ export async function buildStudyReport(pool: pg.Pool, studyId: number, t?: Trans
       gateTime: c.gateTime,
       ambientC: c.ambientC,
       orientation: c.orientation,
-      operator: c.operatorId ? names.get(c.operatorId) ?? null : null,
+      operator: c.operatorId ? (names.get(c.operatorId) ?? null) : null,
       instrumentId: c.instrumentId,
       referenceId: c.referenceId,
       referenceOffset: c.referenceOffset,
       referenceUncertainty: c.referenceUncertainty,
       notes: c.notes,
-      seal: { sha256: seal.sha256, recomputed: seal.recomputed, verified: seal.verified, readings: seal.readings },
+      seal: {
+        sha256: seal.sha256,
+        recomputed: seal.recomputed,
+        verified: seal.verified,
+        readings: seal.readings,
+      },
       stats: s?.stats ?? null,
       offsetPpm: s?.offsetPpm ?? null,
       uncertainty: s?.uncertainty ?? null,
@@ -85,10 +111,18 @@ export async function buildStudyReport(pool: pg.Pool, studyId: number, t?: Trans
     for (const cell of row.cells) {
       if (!cell.comparison || !cell.capture) continue;
       try {
-        comparisons.push({ dutId: row.dut.id, checkpointId: cell.checkpointId, result: await compareCaptures(pool, cell.comparison.before, cell.capture.id) });
+        comparisons.push({
+          dutId: row.dut.id,
+          checkpointId: cell.checkpointId,
+          result: await compareCaptures(pool, cell.comparison.before, cell.capture.id),
+        });
       } catch (err) {
         if (!(err instanceof AppError) && !(err instanceof AnalysisError)) throw err;
-        comparisons.push({ dutId: row.dut.id, checkpointId: cell.checkpointId, problem: err.message });
+        comparisons.push({
+          dutId: row.dut.id,
+          checkpointId: cell.checkpointId,
+          problem: err.message,
+        });
       }
     }
   }
@@ -105,11 +139,11 @@ export async function buildStudyReport(pool: pg.Pool, studyId: number, t?: Trans
       status: study.status,
       revision: study.revision,
       createdAt: study.createdAt,
-      createdBy: study.createdBy ? people.get(study.createdBy) ?? null : null,
+      createdBy: study.createdBy ? (people.get(study.createdBy) ?? null) : null,
       submittedAt: study.submittedAt,
-      submittedBy: study.submittedBy ? people.get(study.submittedBy) ?? null : null,
+      submittedBy: study.submittedBy ? (people.get(study.submittedBy) ?? null) : null,
       approvedAt: study.approvedAt,
-      approvedBy: study.approvedBy ? people.get(study.approvedBy) ?? null : null,
+      approvedBy: study.approvedBy ? (people.get(study.approvedBy) ?? null) : null,
     },
     checkpoints: checkpoints.map((c) => c.toPublic()),
     duts: duts.map((d) => d.toPublic()),

@@ -20,9 +20,12 @@ export async function calibrationReminders(now = new Date()): Promise<number> {
      ORDER BY calibration_due, id`,
     { bind: [now.toISOString().slice(0, 10)], type: QueryTypes.SELECT },
   )) as Array<{ id: number; name: string; calibrationDue: string; awaySince: string | null }>;
-  const admins = (await sequelize.query(`SELECT id, email FROM users WHERE role = 'admin' AND active ORDER BY id`, {
-    type: QueryTypes.SELECT,
-  })) as Array<{ id: number; email: string }>;
+  const admins = (await sequelize.query(
+    `SELECT id, email FROM users WHERE role = 'admin' AND active ORDER BY id`,
+    {
+      type: QueryTypes.SELECT,
+    },
+  )) as Array<{ id: number; email: string }>;
   const day = now.toISOString().slice(0, 10);
   let queued = 0;
   for (const i of instruments) {
@@ -30,7 +33,10 @@ export async function calibrationReminders(now = new Date()): Promise<number> {
     const { state, daysLeft } = calibrationStatus(i, now);
     if (state !== 'overdue' && state !== 'due-soon') continue;
     const days = daysLeft ?? 0;
-    const when = state === 'overdue' ? `was due on ${i.calibrationDue} (${-days} day(s) ago)` : `is due on ${i.calibrationDue} (in ${days} day(s))`;
+    const when =
+      state === 'overdue'
+        ? `was due on ${i.calibrationDue} (${-days} day(s) ago)`
+        : `is due on ${i.calibrationDue} (in ${days} day(s))`;
     for (const a of admins) {
       const sent = await enqueueMail({
         kind: 'calibration-due',
@@ -58,7 +64,16 @@ export async function overdueCaptureReminders(now = new Date()): Promise<number>
        AND c.started_at + make_interval(mins => c.planned_minutes) < $1
      ORDER BY c.id`,
     { bind: [now], type: QueryTypes.SELECT },
-  )) as Array<{ id: number; startedAt: Date; plannedMinutes: number; email: string; name: string; label: string; title: string; studyId: number }>;
+  )) as Array<{
+    id: number;
+    startedAt: Date;
+    plannedMinutes: number;
+    email: string;
+    name: string;
+    label: string;
+    title: string;
+    studyId: number;
+  }>;
   let queued = 0;
   for (const c of rows) {
     await sequelize.transaction(async (transaction) => {
@@ -75,7 +90,10 @@ export async function overdueCaptureReminders(now = new Date()): Promise<number>
         },
         transaction,
       );
-      await sequelize.query('UPDATE captures SET overdue_notified_at = $2 WHERE id = $1', { bind: [c.id, now], transaction });
+      await sequelize.query('UPDATE captures SET overdue_notified_at = $2 WHERE id = $1', {
+        bind: [c.id, now],
+        transaction,
+      });
       if (sent) queued++;
     });
   }
@@ -83,13 +101,19 @@ export async function overdueCaptureReminders(now = new Date()): Promise<number>
 }
 
 /** One pass of every schedule. */
-export async function runSchedules(now = new Date()): Promise<{ calibration: number; overdueCaptures: number }> {
-  return { calibration: await calibrationReminders(now), overdueCaptures: await overdueCaptureReminders(now) };
+export async function runSchedules(
+  now = new Date(),
+): Promise<{ calibration: number; overdueCaptures: number }> {
+  return {
+    calibration: await calibrationReminders(now),
+    overdueCaptures: await overdueCaptureReminders(now),
+  };
 }
 
 /** Runs the schedules every `intervalMs` (default 10 minutes; the calibration check sends once per day by its dedupe key). */
 export function startSchedules(opts: { intervalMs?: number; log?: Logger } = {}): { stop(): void } {
-  const run = () => runSchedules().catch((err: unknown) => opts.log?.error({ err }, 'e-mail schedules failed'));
+  const run = () =>
+    runSchedules().catch((err: unknown) => opts.log?.error({ err }, 'e-mail schedules failed'));
   const first = setTimeout(run, 5_000);
   const timer = setInterval(run, opts.intervalMs ?? 10 * 60_000);
   first.unref();

@@ -191,10 +191,16 @@ export function tiltLimits(dut: Dut): {
 }
 
 /** The tilt checks of every accelerometer among `duts` at these checkpoints, oldest first: one query for a whole matrix. */
-export async function tiltChecksOf(duts: readonly Dut[], checkpointIds: number[]): Promise<TiltCheck[]> {
+export async function tiltChecksOf(
+  duts: readonly Dut[],
+  checkpointIds: number[],
+): Promise<TiltCheck[]> {
   const ids = duts.filter((d) => d.kind === 'accelerometer').map((d) => d.id);
   if (ids.length === 0 || checkpointIds.length === 0) return [];
-  return TiltCheck.findAll({ where: { dutId: ids, checkpointId: checkpointIds }, order: [['id', 'ASC']] });
+  return TiltCheck.findAll({
+    where: { dutId: ids, checkpointId: checkpointIds },
+    order: [['id', 'ASC']],
+  });
 }
 
 /**
@@ -211,7 +217,10 @@ export async function tiltCellsFor(
   if (dut.kind !== 'accelerometer' || checkpointIds.length === 0) return cells;
   const rows = preloaded
     ? preloaded.filter((r) => r.dutId === dut.id && checkpointIds.includes(r.checkpointId))
-    : await TiltCheck.findAll({ where: { dutId: dut.id, checkpointId: checkpointIds }, order: [['id', 'ASC']] });
+    : await TiltCheck.findAll({
+        where: { dutId: dut.id, checkpointId: checkpointIds },
+        order: [['id', 'ASC']],
+      });
   // Latest per checkpoint and axis.
   const latest = new Map<number, Map<Axis, TiltCheck>>();
   for (const r of rows) {

@@ -18,13 +18,24 @@ export async function createUser(input: UserCreate, actorId: number) {
   try {
     // The account and its audit event are one transaction.
     const user = await User.sequelize!.transaction(async (transaction) => {
-      const created = await User.create({ email: input.email, name: input.name, role: input.role, passwordHash }, { transaction });
-      await audit(actorId, 'user.create', 'user', created.id, { email: created.email, role: created.role }, transaction);
+      const created = await User.create(
+        { email: input.email, name: input.name, role: input.role, passwordHash },
+        { transaction },
+      );
+      await audit(
+        actorId,
+        'user.create',
+        'user',
+        created.id,
+        { email: created.email, role: created.role },
+        transaction,
+      );
       return created;
     });
     return user.toPublic();
   } catch (err) {
-    if (err instanceof UniqueConstraintError) throw new ConflictError('A user with this e-mail already exists.');
+    if (err instanceof UniqueConstraintError)
+      throw new ConflictError('A user with this e-mail already exists.');
     throw err;
   }
 }
@@ -48,12 +59,34 @@ export async function updateUser(id: number, patch: UserPatch, actorId: number) 
   if (roleChanged || deactivated) user.tokenVersion = user.tokenVersion + 1;
   await User.sequelize!.transaction(async (transaction) => {
     await user.save({ transaction });
-    if (roleChanged) await audit(actorId, 'user.role', 'user', id, { from: before.role, to: patch.role }, transaction);
+    if (roleChanged)
+      await audit(
+        actorId,
+        'user.role',
+        'user',
+        id,
+        { from: before.role, to: patch.role },
+        transaction,
+      );
     if (patch.active !== undefined && patch.active !== before.active) {
-      await audit(actorId, patch.active ? 'user.activate' : 'user.deactivate', 'user', id, undefined, transaction);
+      await audit(
+        actorId,
+        patch.active ? 'user.activate' : 'user.deactivate',
+        'user',
+        id,
+        undefined,
+        transaction,
+      );
     }
     if (patch.name !== undefined && patch.name !== before.name) {
-      await audit(actorId, 'user.rename', 'user', id, { from: before.name, to: patch.name }, transaction);
+      await audit(
+        actorId,
+        'user.rename',
+        'user',
+        id,
+        { from: before.name, to: patch.name },
+        transaction,
+      );
     }
   });
   return user.toPublic();
@@ -66,7 +99,8 @@ export async function updateUser(id: number, patch: UserPatch, actorId: number) 
 export async function resetPassword(id: number, temporaryPassword: string, actorId: number) {
   const user = await User.findByPk(id);
   if (!user) throw new NotFoundError('User');
-  if (id === actorId) throw new ConflictError('Change your own password with "Change password", not a reset.');
+  if (id === actorId)
+    throw new ConflictError('Change your own password with "Change password", not a reset.');
   const hash = await hashPassword(temporaryPassword);
   await User.sequelize!.transaction(async (transaction) => {
     user.passwordHash = hash;

@@ -3,10 +3,21 @@ import { Op } from 'sequelize';
 import { Capture, Checkpoint, Dut, Reference, Study, User } from '../models/index.js';
 import { AppError, NotFoundError, ValidationError } from '../errors.js';
 import { referenceCorrect, type StabilityKind } from '../../shared/analysis/index.js';
-import { defaultDrift, prepare, stabilityOf, withDrift, type CaptureSummary } from './captureAnalysis.js';
+import {
+  defaultDrift,
+  prepare,
+  stabilityOf,
+  withDrift,
+  type CaptureSummary,
+} from './captureAnalysis.js';
 import type { Series } from './readings.js';
 
-const EMPTY: Series = { seq: new Int32Array(), t: new Float64Array(), value: new Float64Array(), flags: new Int16Array() };
+const EMPTY: Series = {
+  seq: new Int32Array(),
+  t: new Float64Array(),
+  value: new Float64Array(),
+  flags: new Int16Array(),
+};
 
 /** Most captures one overlay request may name. */
 export const MAX_OVERLAY = 12;
@@ -25,13 +36,19 @@ async function named(ids: number[]): Promise<Named[]> {
   if (missing.length) throw new NotFoundError(`Capture ${missing.join(', ')}`);
   const [duts, checkpoints] = await Promise.all([
     Dut.findAll({ where: { id: { [Op.in]: [...new Set(captures.map((c) => c.dutId))] } } }),
-    Checkpoint.findAll({ where: { id: { [Op.in]: [...new Set(captures.map((c) => c.checkpointId))] } } }),
+    Checkpoint.findAll({
+      where: { id: { [Op.in]: [...new Set(captures.map((c) => c.checkpointId))] } },
+    }),
   ]);
   const dutOf = new Map(duts.map((d) => [d.id, d]));
   const cpOf = new Map(checkpoints.map((c) => [c.id, c]));
   return ids.map((id) => {
     const capture = byId.get(id)!;
-    return { capture, dut: dutOf.get(capture.dutId) ?? null, checkpoint: cpOf.get(capture.checkpointId) ?? null };
+    return {
+      capture,
+      dut: dutOf.get(capture.dutId) ?? null,
+      checkpoint: cpOf.get(capture.checkpointId) ?? null,
+    };
   });
 }
 
@@ -50,7 +67,12 @@ async function seriesOf(pool: pg.Pool, ids: number[]): Promise<Map<number, Serie
     let j = i;
     while (j < rows.length && rows[j][0] === id) j++;
     const n = j - i;
-    const s: Series = { seq: new Int32Array(n), t: new Float64Array(n), value: new Float64Array(n), flags: new Int16Array(n) };
+    const s: Series = {
+      seq: new Int32Array(n),
+      t: new Float64Array(n),
+      value: new Float64Array(n),
+      flags: new Int16Array(n),
+    };
     for (let k = 0; k < n; k++) {
       const r = rows[i + k];
       s.seq[k] = r[1];
@@ -74,23 +96,40 @@ async function seriesOf(pool: pg.Pool, ids: number[]): Promise<Map<number, Serie
 export async function overlayCurves(pool: pg.Pool, ids: number[], kind: StabilityKind) {
   const unique = [...new Set(ids)];
   if (unique.length > MAX_OVERLAY) {
-    throw new ValidationError(`ids: at most ${MAX_OVERLAY} captures in one overlay`, [{ path: 'ids', message: `at most ${MAX_OVERLAY}` }]);
+    throw new ValidationError(`ids: at most ${MAX_OVERLAY} captures in one overlay`, [
+      { path: 'ids', message: `at most ${MAX_OVERLAY}` },
+    ]);
   }
   const list = await named(unique);
   const open = list.filter((x) => x.capture.state !== 'finished').map((x) => x.capture.id);
-  if (open.length) throw new AppError(409, 'capture-not-finished', `Only finished captures can be overlaid; not finished: ${open.join(', ')}.`, { ids: open });
-  const fromSummary = kind === 'oadev' && list.every((x) => (x.capture.summary as CaptureSummary | null)?.stability);
+  if (open.length)
+    throw new AppError(
+      409,
+      'capture-not-finished',
+      `Only finished captures can be overlaid; not finished: ${open.join(', ')}.`,
+      { ids: open },
+    );
+  const fromSummary =
+    kind === 'oadev' && list.every((x) => (x.capture.summary as CaptureSummary | null)?.stability);
   const series = fromSummary ? null : await seriesOf(pool, unique);
   return {
     kind,
     curves: list.map(({ capture: c, dut, checkpoint }) => {
       const stability = fromSummary
         ? (c.summary as CaptureSummary).stability
-        : stabilityOf(withDrift(prepare(c, series!.get(c.id) ?? EMPTY), defaultDrift(c), []).prepared, kind, 'octave');
+        : stabilityOf(
+            withDrift(prepare(c, series!.get(c.id) ?? EMPTY), defaultDrift(c), []).prepared,
+            kind,
+            'octave',
+          );
       return {
         captureId: c.id,
-        dut: dut ? { id: dut.id, label: dut.label, unit: dut.unit, kind: dut.kind, studyId: dut.studyId } : null,
-        checkpoint: checkpoint ? { id: checkpoint.id, name: checkpoint.name, order: checkpoint.position } : null,
+        dut: dut
+          ? { id: dut.id, label: dut.label, unit: dut.unit, kind: dut.kind, studyId: dut.studyId }
+          : null,
+        checkpoint: checkpoint
+          ? { id: checkpoint.id, name: checkpoint.name, order: checkpoint.position }
+          : null,
         readingCount: c.readingCount,
         startedAt: c.startedAt,
         stability,
@@ -102,10 +141,17 @@ export async function overlayCurves(pool: pg.Pool, ids: number[], kind: Stabilit
 /** The metadata every export carries, in a fixed order, as (key, value) pairs. */
 function metadataOf(
   c: Capture,
-  d: { dut: Dut | null; checkpoint: Checkpoint | null; study: Study | null; reference: Reference | null; operator: User | null },
+  d: {
+    dut: Dut | null;
+    checkpoint: Checkpoint | null;
+    study: Study | null;
+    reference: Reference | null;
+    operator: User | null;
+  },
 ): Array<[string, string]> {
   const s = c.summary as CaptureSummary | null;
-  const u = s?.uncertainty as { combined?: number; expanded?: number; k?: number } | null | undefined;
+  const u = s?.uncertainty as
+    { combined?: number; expanded?: number; k?: number } | null | undefined;
   return [
     ['capture', String(c.id)],
     ['study', d.study ? `${d.study.id} ${d.study.title}` : ''],
@@ -149,14 +195,16 @@ function headerValue(v: string): string {
 }
 
 async function detailsOf(captures: Capture[]) {
-  const ids = <T,>(xs: Array<T | null>) => [...new Set(xs.filter((x): x is T => x !== null))];
+  const ids = <T>(xs: Array<T | null>) => [...new Set(xs.filter((x): x is T => x !== null))];
   const [duts, checkpoints, references, operators] = await Promise.all([
     Dut.findAll({ where: { id: { [Op.in]: ids(captures.map((c) => c.dutId)) } } }),
     Checkpoint.findAll({ where: { id: { [Op.in]: ids(captures.map((c) => c.checkpointId)) } } }),
     Reference.findAll({ where: { id: { [Op.in]: ids(captures.map((c) => c.referenceId)) } } }),
     User.findAll({ where: { id: { [Op.in]: ids(captures.map((c) => c.operatorId)) } } }),
   ]);
-  const studies = await Study.findAll({ where: { id: { [Op.in]: ids(duts.map((d) => d.studyId)) } } });
+  const studies = await Study.findAll({
+    where: { id: { [Op.in]: ids(duts.map((d) => d.studyId)) } },
+  });
   const m = <T extends { id: number }>(xs: T[]) => new Map(xs.map((x) => [x.id, x]));
   const [dm, cm, rm, om, sm] = [m(duts), m(checkpoints), m(references), m(operators), m(studies)];
   return (c: Capture) => {
@@ -188,7 +236,9 @@ export async function captureCsv(pool: pg.Pool, id: number): Promise<string> {
   if (series && series.seq.length) {
     const corrected = referenceCorrect(series.value, yRef);
     for (let i = 0; i < series.seq.length; i++) {
-      lines.push(`${series.seq[i]},${series.t[i]},${series.value[i]},${corrected[i]},${series.flags[i]}`);
+      lines.push(
+        `${series.seq[i]},${series.t[i]},${series.value[i]},${corrected[i]},${series.flags[i]}`,
+      );
     }
   }
   return lines.join('\n') + '\n';
@@ -200,11 +250,25 @@ export async function studyCapturesCsv(studyId: number): Promise<string> {
   if (!study) throw new NotFoundError('Study');
   const duts = await Dut.findAll({ where: { studyId }, attributes: ['id'] });
   const captures = duts.length
-    ? await Capture.findAll({ where: { dutId: { [Op.in]: duts.map((d) => d.id) }, state: 'finished' }, order: [['id', 'ASC']] })
+    ? await Capture.findAll({
+        where: { dutId: { [Op.in]: duts.map((d) => d.id) }, state: 'finished' },
+        order: [['id', 'ASC']],
+      })
     : [];
   const details = await detailsOf(captures);
-  const header = metadataOf(Capture.build({} as never), { dut: null, checkpoint: null, study: null, reference: null, operator: null }).map(([k]) => k);
+  const header = metadataOf(Capture.build({} as never), {
+    dut: null,
+    checkpoint: null,
+    study: null,
+    reference: null,
+    operator: null,
+  }).map(([k]) => k);
   const lines = [header.join(',')];
-  for (const c of captures) lines.push(metadataOf(c, details(c)).map(([, v]) => csvField(v)).join(','));
+  for (const c of captures)
+    lines.push(
+      metadataOf(c, details(c))
+        .map(([, v]) => csvField(v))
+        .join(','),
+    );
   return lines.join('\n') + '\n';
 }

@@ -55,14 +55,38 @@ function refuse(study: Study, action: ReviewAction): never {
   );
 }
 
-async function move(study: Study, action: ReviewAction, actor: { id: number } | null, note: string | null, t: Transaction) {
+async function move(
+  study: Study,
+  action: ReviewAction,
+  actor: { id: number } | null,
+  note: string | null,
+  t: Transaction,
+) {
   const from = study.status;
   const to = TRANSITIONS[action].to;
   if (!TRANSITIONS[action].from.includes(from)) refuse(study, action);
   study.status = to as Study['status'];
   await study.save({ transaction: t });
-  await StudyReview.create({ studyId: study.id, revision: study.revision, action, fromStatus: from, toStatus: to, actorId: actor?.id ?? null, note }, { transaction: t });
-  await audit(actor?.id ?? null, `study.${action}`, 'study', study.id, { status: { from, to }, revision: study.revision, note }, t);
+  await StudyReview.create(
+    {
+      studyId: study.id,
+      revision: study.revision,
+      action,
+      fromStatus: from,
+      toStatus: to,
+      actorId: actor?.id ?? null,
+      note,
+    },
+    { transaction: t },
+  );
+  await audit(
+    actor?.id ?? null,
+    `study.${action}`,
+    'study',
+    study.id,
+    { status: { from, to }, revision: study.revision, note },
+    t,
+  );
 }
 
 function studyLink(study: Study): string {
@@ -79,9 +103,14 @@ export async function startStudy(id: number, user: AuthUser) {
 }
 
 /** Called inside the transaction that opens a study's first capture: a draft becomes running. */
-export async function startOnFirstCapture(studyId: number, actorId: number, t: Transaction): Promise<void> {
+export async function startOnFirstCapture(
+  studyId: number,
+  actorId: number,
+  t: Transaction,
+): Promise<void> {
   const study = await lockStudy(studyId, t);
-  if (study.status === 'draft') await move(study, 'start', { id: actorId }, 'first capture opened', t);
+  if (study.status === 'draft')
+    await move(study, 'start', { id: actorId }, 'first capture opened', t);
 }
 
 /** Running or returned → in review. Every capture must be finished and at least one must exist. */
@@ -89,20 +118,42 @@ export async function submitStudy(id: number, user: AuthUser, note: string | nul
   await Study.sequelize!.transaction(async (t) => {
     const study = await lockStudy(id, t);
     if (!TRANSITIONS.submit.from.includes(study.status)) refuse(study, 'submit');
-    const dutIds = (await Dut.findAll({ where: { studyId: id }, attributes: ['id'], transaction: t })).map((d) => d.id);
-    const captures = dutIds.length ? await Capture.findAll({ where: { dutId: { [Op.in]: dutIds } }, attributes: ['id', 'state'], transaction: t }) : [];
-    const open = captures.filter((c) => c.state === 'open' || c.state === 'stalled').map((c) => c.id);
+    const dutIds = (
+      await Dut.findAll({ where: { studyId: id }, attributes: ['id'], transaction: t })
+    ).map((d) => d.id);
+    const captures = dutIds.length
+      ? await Capture.findAll({
+          where: { dutId: { [Op.in]: dutIds } },
+          attributes: ['id', 'state'],
+          transaction: t,
+        })
+      : [];
+    const open = captures
+      .filter((c) => c.state === 'open' || c.state === 'stalled')
+      .map((c) => c.id);
     if (open.length) {
-      throw new AppError(409, 'captures-open', `Finish the open capture(s) ${open.map((c) => `#${c}`).join(', ')} before submitting the study for review.`, { open });
+      throw new AppError(
+        409,
+        'captures-open',
+        `Finish the open capture(s) ${open.map((c) => `#${c}`).join(', ')} before submitting the study for review.`,
+        { open },
+      );
     }
     if (!captures.some((c) => c.state === 'finished')) {
-      throw new AppError(409, 'nothing-to-review', 'The study has no finished capture yet: there is nothing to review.');
+      throw new AppError(
+        409,
+        'nothing-to-review',
+        'The study has no finished capture yet: there is nothing to review.',
+      );
     }
     study.submittedBy = user.id;
     study.submittedAt = new Date();
     await move(study, 'submit', user, note, t);
     const reviewers = [...PERMISSIONS['studies:review']];
-    const leads = await User.findAll({ where: { role: reviewers, active: true, id: { [Op.ne]: user.id } }, transaction: t });
+    const leads = await User.findAll({
+      where: { role: reviewers, active: true, id: { [Op.ne]: user.id } },
+      transaction: t,
+    });
     for (const lead of leads) {
       await enqueueMail(
         {
@@ -131,16 +182,30 @@ const failedSignatures = new Map<number, number[]>();
  * The report of the approved revision is kept as it is now (study_revisions), so a later reopen
  * never changes what was approved.
  */
-export async function approveStudy(pool: pg.Pool, id: number, user: AuthUser, password: string, note: string | null) {
+export async function approveStudy(
+  pool: pg.Pool,
+  id: number,
+  user: AuthUser,
+  password: string,
+  note: string | null,
+) {
   const now = Date.now();
   const recent = (failedSignatures.get(user.id) ?? []).filter((t) => now - t < SIGNATURE_WINDOW_MS);
   if (recent.length >= SIGNATURE_ATTEMPTS) {
-    throw new AppError(429, 'too-many-signatures', 'Too many wrong passwords for a signature: wait 15 minutes before approving again.');
+    throw new AppError(
+      429,
+      'too-many-signatures',
+      'Too many wrong passwords for a signature: wait 15 minutes before approving again.',
+    );
   }
   const signer = await User.findByPk(user.id);
   if (!signer || !(await bcrypt.compare(password, signer.passwordHash))) {
     failedSignatures.set(user.id, [...recent, now]);
-    throw new AppError(403, 'signature-refused', 'The password does not match: the approval was not signed.');
+    throw new AppError(
+      403,
+      'signature-refused',
+      'The password does not match: the approval was not signed.',
+    );
   }
   failedSignatures.delete(user.id);
   await Study.sequelize!.transaction(async (t) => {
@@ -155,12 +220,20 @@ export async function approveStudy(pool: pg.Pool, id: number, user: AuthUser, pa
     const report = await buildStudyReport(pool, id, t);
     await Study.sequelize!.query(
       'INSERT INTO study_revisions (study_id, revision, approved_by, approved_at, report) VALUES ($1, $2, $3, $4, $5::jsonb)',
-      { bind: [id, study.revision, user.id, study.approvedAt, JSON.stringify(report)], transaction: t },
+      {
+        bind: [id, study.revision, user.id, study.approvedAt, JSON.stringify(report)],
+        transaction: t,
+      },
     );
-    await mailSubmitter(study, t, 'study-approved', `Driftbench: “${study.title}” was approved`,
+    await mailSubmitter(
+      study,
+      t,
+      'study-approved',
+      `Driftbench: “${study.title}” was approved`,
       `${user.name} approved study ${study.id} “${study.title}” (revision ${study.revision}).\n` +
         (note ? `\nTheir note: ${note}\n` : '') +
-        `\nThe approved report: ${studyLink(study)}/report\n`);
+        `\nThe approved report: ${studyLink(study)}/report\n`,
+    );
   });
   return getStudy(id);
 }
@@ -170,9 +243,14 @@ export async function returnStudy(id: number, user: AuthUser, comment: string) {
   await Study.sequelize!.transaction(async (t) => {
     const study = await lockStudy(id, t);
     await move(study, 'return', user, comment, t);
-    await mailSubmitter(study, t, 'study-returned', `Driftbench: “${study.title}” was returned`,
+    await mailSubmitter(
+      study,
+      t,
+      'study-returned',
+      `Driftbench: “${study.title}” was returned`,
       `${user.name} returned study ${study.id} “${study.title}” (revision ${study.revision}) with this comment:\n\n` +
-        `${comment}\n\nOpen ${studyLink(study)} in Driftbench, address the comment and submit it again.\n`);
+        `${comment}\n\nOpen ${studyLink(study)} in Driftbench, address the comment and submit it again.\n`,
+    );
   });
   return getStudy(id);
 }
@@ -189,12 +267,25 @@ export async function reopenStudy(id: number, user: AuthUser, reason: string) {
     study.approvedBy = null;
     study.approvedAt = null;
     await move(study, 'reopen', user, reason, t);
-    await audit(user.id, 'study.revision', 'study', id, { revision: { from, to: study.revision } }, t);
+    await audit(
+      user.id,
+      'study.revision',
+      'study',
+      id,
+      { revision: { from, to: study.revision } },
+      t,
+    );
   });
   return getStudy(id);
 }
 
-async function mailSubmitter(study: Study, t: Transaction, kind: string, subject: string, text: string) {
+async function mailSubmitter(
+  study: Study,
+  t: Transaction,
+  kind: string,
+  subject: string,
+  text: string,
+) {
   if (!study.submittedBy) return;
   const submitter = await User.findByPk(study.submittedBy, { transaction: t });
   if (submitter?.active) await enqueueMail({ kind, to: submitter.email, subject, text }, t);
@@ -209,15 +300,23 @@ export async function listRevisions(studyId: number) {
     `SELECT v.revision, v.approved_at AS "approvedAt", v.approved_by AS "approvedBy", u.name AS "approvedByName"
      FROM study_revisions v LEFT JOIN users u ON u.id = v.approved_by WHERE v.study_id = $1 ORDER BY v.revision`,
     { bind: [studyId], type: QueryTypes.SELECT },
-  )) as Array<{ revision: number; approvedAt: Date; approvedBy: number | null; approvedByName: string | null }>;
+  )) as Array<{
+    revision: number;
+    approvedAt: Date;
+    approvedBy: number | null;
+    approvedByName: string | null;
+  }>;
 }
 
 /** The report of an approved revision exactly as it was approved. */
 export async function revisionReport(studyId: number, revision: number) {
-  const rows = (await Study.sequelize!.query('SELECT report FROM study_revisions WHERE study_id = $1 AND revision = $2', {
-    bind: [studyId, revision],
-    type: QueryTypes.SELECT,
-  })) as Array<{ report: unknown }>;
+  const rows = (await Study.sequelize!.query(
+    'SELECT report FROM study_revisions WHERE study_id = $1 AND revision = $2',
+    {
+      bind: [studyId, revision],
+      type: QueryTypes.SELECT,
+    },
+  )) as Array<{ report: unknown }>;
   if (!rows.length) throw new NotFoundError(`Approved revision ${revision} of study ${studyId}`);
   return rows[0].report;
 }

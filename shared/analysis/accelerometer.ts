@@ -86,7 +86,8 @@ export function tiltFromAxes(axisMg: number, normalMg: number, localGravity = G_
   assertNumber(normalMg, 'normalMg');
   assertNumber(localGravity, 'localGravity', true);
   const magnitudeMg = Math.hypot(axisMg, normalMg);
-  if (!(magnitudeMg > 0)) throw new AnalysisError('bad-argument', 'both axes read zero: no tilt can be formed');
+  if (!(magnitudeMg > 0))
+    throw new AnalysisError('bad-argument', 'both axes read zero: no tilt can be formed');
   const expectedMg = (1000 * localGravity) / G_N;
   return {
     tiltDeg: (Math.atan2(axisMg, normalMg) * 180) / Math.PI,
@@ -121,7 +122,11 @@ export function offsetSensitivityFromFlipPair(
   const ideal = (1000 * g) / G_N;
   const sensitivity = (upMg - downMg) / 2 / ideal;
   if (!(sensitivity > 0)) throw new AnalysisError('bad-argument', 'up must read more than down');
-  return { offsetMg: (upMg + downMg) / 2, sensitivity, sensitivityErrorPct: (sensitivity - 1) * 100 };
+  return {
+    offsetMg: (upMg + downMg) / 2,
+    sensitivity,
+    sensitivityErrorPct: (sensitivity - 1) * 100,
+  };
 }
 
 /** A three-axis reading in mg. */
@@ -154,7 +159,9 @@ export function sixPosition(
     const up = readings[`+${axis}`];
     const down = readings[`-${axis}`];
     if (!up || !down) throw new AnalysisError('bad-argument', `missing ±${axis} position`);
-    const level = axes.filter((a) => a !== axis).flatMap((a) => [readings[`+${a}`], readings[`-${a}`]]);
+    const level = axes
+      .filter((a) => a !== axis)
+      .flatMap((a) => [readings[`+${a}`], readings[`-${a}`]]);
     let sum = 0;
     for (const r of level) {
       if (!r) throw new AnalysisError('bad-argument', 'missing position');
@@ -202,7 +209,9 @@ export function compareSensor(
     notes.push('Offset uncertainty not given for both states: taken as zero, so U is understated.');
   }
   if (before.uSensitivityPct === undefined || after.uSensitivityPct === undefined) {
-    notes.push('Sensitivity uncertainty not given for both states: taken as zero, so U is understated.');
+    notes.push(
+      'Sensitivity uncertainty not given for both states: taken as zero, so U is understated.',
+    );
   }
   const check = (b: number, a: number, ub: number, ua: number, limit: number): SensorCheck => {
     assertNumber(b, 'before');

@@ -6,7 +6,10 @@ import type { BudgetComponent, Distribution } from './uncertaintyBudget';
 import { guardBandVerdictInterval, type Verdict } from './verdict';
 
 /** A budget line of one side, as uncertaintyBudget gives it (value and contribution in the quantity unit). */
-export type CompareSideLine = Pick<BudgetComponent, 'name' | 'value' | 'contribution' | 'dof' | 'type' | 'distribution'> &
+export type CompareSideLine = Pick<
+  BudgetComponent,
+  'name' | 'value' | 'contribution' | 'dof' | 'type' | 'distribution'
+> &
   Partial<Pick<BudgetComponent, 'symbol' | 'unit' | 'sensitivity' | 'note' | 'source' | 'key'>>;
 
 /** One side of a before/after comparison. */
@@ -126,7 +129,10 @@ interface Line extends GroupedInput {
  * the limit is relative (ppm, ppb, %).
  */
 export function compare(before: CompareSide, after: CompareSide, opts: CompareOptions): Comparison {
-  for (const [name, side] of [['before', before], ['after', after]] as const) {
+  for (const [name, side] of [
+    ['before', before],
+    ['after', after],
+  ] as const) {
     assertNumber(side?.mean, `${name}.mean`);
     assertNumber(side.u, `${name}.u`);
     if (side.u < 0) throw new AnalysisError('bad-argument', `${name}.u is negative`);
@@ -135,7 +141,11 @@ export function compare(before: CompareSide, after: CompareSide, opts: CompareOp
     throw new AnalysisError('mismatched', `units differ: ${before.unit} vs ${after.unit}`);
   }
   const nominal = opts.nominal ?? before.nominal ?? after.nominal;
-  if (before.nominal !== undefined && after.nominal !== undefined && before.nominal !== after.nominal) {
+  if (
+    before.nominal !== undefined &&
+    after.nominal !== undefined &&
+    before.nominal !== after.nominal
+  ) {
     throw new AnalysisError('mismatched', 'before and after have different nominals');
   }
   const unit = before.unit ?? after.unit ?? (opts.limitUnit === 'mg' ? 'mg' : 'Hz');
@@ -146,7 +156,10 @@ export function compare(before: CompareSide, after: CompareSide, opts: CompareOp
   let referenceCorrelated = false;
   const shared = opts.sameReference === true;
   const replace = new Set(opts.replaceKeys ?? []);
-  for (const [side, sign, label] of [[before, -1, 'Before'], [after, 1, 'After']] as const) {
+  for (const [side, sign, label] of [
+    [before, -1, 'Before'],
+    [after, 1, 'After'],
+  ] as const) {
     if (side.components && side.components.length > 0) {
       for (const c of side.components) {
         if (c.key && replace.has(c.key)) continue;
@@ -157,11 +170,42 @@ export function compare(before: CompareSide, after: CompareSide, opts: CompareOp
     } else {
       // A side known only by its combined u: the reference part (if any) split off.
       const uRef = side.uReference ?? 0;
-      const rest = shared && side.uReference !== undefined ? Math.sqrt(Math.max(0, side.u ** 2 - uRef ** 2)) : side.u;
-      lines.push(line(`${label}: combined`, { name: 'combined', value: rest, contribution: rest, dof: Infinity, type: 'B', distribution: 'normal' }, sign));
+      const rest =
+        shared && side.uReference !== undefined
+          ? Math.sqrt(Math.max(0, side.u ** 2 - uRef ** 2))
+          : side.u;
+      lines.push(
+        line(
+          `${label}: combined`,
+          {
+            name: 'combined',
+            value: rest,
+            contribution: rest,
+            dof: Infinity,
+            type: 'B',
+            distribution: 'normal',
+          },
+          sign,
+        ),
+      );
       if (shared && side.uReference !== undefined) {
         referenceCorrelated = true;
-        lines.push(line(`${label}: reference`, { name: 'reference', value: uRef, contribution: uRef, dof: Infinity, type: 'B', distribution: 'normal', key: 'reference-offset' }, sign, 'reference-offset'));
+        lines.push(
+          line(
+            `${label}: reference`,
+            {
+              name: 'reference',
+              value: uRef,
+              contribution: uRef,
+              dof: Infinity,
+              type: 'B',
+              distribution: 'normal',
+              key: 'reference-offset',
+            },
+            sign,
+            'reference-offset',
+          ),
+        );
       }
     }
   }
@@ -202,9 +246,14 @@ export function compare(before: CompareSide, after: CompareSide, opts: CompareOp
   const coverageText = coverage?.text ?? `k = ${k} (given)`;
   const expandedUncertainty = k * u;
   const delta = after.mean - before.mean;
-  const verdict = guardBandVerdictInterval(delta, expandedUncertainty, { low: limit.low, high: limit.high });
+  const verdict = guardBandVerdictInterval(delta, expandedUncertainty, {
+    low: limit.low,
+    high: limit.high,
+  });
   if (verdict === 'inconclusive') {
-    notes.push('Inconclusive: a limit lies within Δ ± U; more averaging or a better reference narrows U.');
+    notes.push(
+      'Inconclusive: a limit lies within Δ ± U; more averaging or a better reference narrows U.',
+    );
   }
   if (before.ambientC !== undefined && after.ambientC !== undefined) {
     const warning = temperatureWarning(before.ambientC, after.ambientC, opts.maxAmbientDeltaC ?? 1);
@@ -230,7 +279,10 @@ export function compare(before: CompareSide, after: CompareSide, opts: CompareOp
       k,
       coverage: coverageText,
       expanded: expandedUncertainty,
-      relativeExpanded: nominal !== undefined && nominal > 0 && unit === 'Hz' ? expandedUncertainty / nominal : null,
+      relativeExpanded:
+        nominal !== undefined && nominal > 0 && unit === 'Hz'
+          ? expandedUncertainty / nominal
+          : null,
       notes: [],
     },
     notes,
@@ -299,8 +351,14 @@ function displayLines(lines: Line[]): BudgetComponent[] {
   return out;
 }
 
-function limitsInQuantity(opts: CompareOptions, nominal: number | undefined, valuesUnit: string | undefined) {
-  const asymmetric = (opts.limitLow !== undefined && opts.limitLow !== null) || (opts.limitHigh !== undefined && opts.limitHigh !== null);
+function limitsInQuantity(
+  opts: CompareOptions,
+  nominal: number | undefined,
+  valuesUnit: string | undefined,
+) {
+  const asymmetric =
+    (opts.limitLow !== undefined && opts.limitLow !== null) ||
+    (opts.limitHigh !== undefined && opts.limitHigh !== null);
   const givenLow = asymmetric ? (opts.limitLow ?? null) : null;
   const givenHigh = asymmetric ? (opts.limitHigh ?? null) : null;
   let given: number | null = null;
@@ -317,7 +375,8 @@ function limitsInQuantity(opts: CompareOptions, nominal: number | undefined, val
   const rel = RELATIVE[opts.limitUnit];
   let scale = 1;
   if (rel !== undefined) {
-    if (nominal === undefined) throw new AnalysisError('bad-argument', `a limit in ${opts.limitUnit} needs a nominal value`);
+    if (nominal === undefined)
+      throw new AnalysisError('bad-argument', `a limit in ${opts.limitUnit} needs a nominal value`);
     assertNumber(nominal, 'nominal', true);
     scale = rel * nominal;
   } else if (valuesUnit && valuesUnit !== opts.limitUnit) {

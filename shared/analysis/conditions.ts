@@ -19,7 +19,8 @@ export interface CaptureConditions {
   simulated?: boolean;
 }
 
-export type ConditionKey = 'reference' | 'gate' | 'instrument' | 'orientation' | 'ambient' | 'simulated';
+export type ConditionKey =
+  'reference' | 'gate' | 'instrument' | 'orientation' | 'ambient' | 'simulated';
 
 export interface ConditionMismatch {
   key: ConditionKey;
@@ -49,7 +50,10 @@ function seconds(v: number): string {
  * (reference, gate, instrument, orientation, ambient, simulated); empty when they agree.
  * Gate times are compared to 1 part in 10⁹ (common practice, no source: binary round-off).
  */
-export function conditionMismatches(before: CaptureConditions, after: CaptureConditions): ConditionMismatch[] {
+export function conditionMismatches(
+  before: CaptureConditions,
+  after: CaptureConditions,
+): ConditionMismatch[] {
   const out: ConditionMismatch[] = [];
   if (before.referenceId !== after.referenceId) {
     const b = named(before.referenceId, before.referenceName, 'no reference');
@@ -60,7 +64,10 @@ export function conditionMismatches(before: CaptureConditions, after: CaptureCon
         : `Different references: before ${b}, after ${a}. Their offsets do not cancel in Δ.`;
     out.push({ key: 'reference', message, before: before.referenceId, after: after.referenceId });
   }
-  if (Math.abs(before.gateTime - after.gateTime) > 1e-9 * Math.max(before.gateTime, after.gateTime)) {
+  if (
+    Math.abs(before.gateTime - after.gateTime) >
+    1e-9 * Math.max(before.gateTime, after.gateTime)
+  ) {
     out.push({
       key: 'gate',
       message: `Different gate times: before ${seconds(before.gateTime)}, after ${seconds(after.gateTime)}. Resolution and averaging differ.`,

@@ -27,7 +27,11 @@ export interface DeviationInterval {
  * σ²_min = σ²·edf/χ²(1−(1−p)/2), σ²_max = σ²·edf/χ²((1−p)/2); returns the square roots.
  * Domain: σ ≥ 0, edf > 0, 0 < p < 1.
  */
-export function chiSquareInterval(dev: number, edf: number, confidence = ONE_SIGMA): DeviationInterval {
+export function chiSquareInterval(
+  dev: number,
+  edf: number,
+  confidence = ONE_SIGMA,
+): DeviationInterval {
   assertNumber(dev, 'dev');
   if (dev < 0) throw new AnalysisError('bad-argument', 'dev must not be negative');
   assertNumber(edf, 'edf', true);

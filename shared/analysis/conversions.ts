@@ -6,7 +6,10 @@ import { AnalysisError, assertNumber, assertSeries } from './errors';
  */
 export function fractionalFrequency(f: number, f0: number): number;
 export function fractionalFrequency(f: ArrayLike<number>, f0: number): Float64Array;
-export function fractionalFrequency(f: number | ArrayLike<number>, f0: number): number | Float64Array {
+export function fractionalFrequency(
+  f: number | ArrayLike<number>,
+  f0: number,
+): number | Float64Array {
   assertNumber(f0, 'f0');
   if (f0 === 0) throw new AnalysisError('bad-argument', 'f0 must not be zero');
   if (typeof f === 'number') {
@@ -44,7 +47,10 @@ export function referenceCorrect(
 /** Inverse of referenceCorrect: f_displayed = f_true/(1 + y_ref) (same convention). */
 export function referenceUncorrect(fTrue: number, yRef: number): number;
 export function referenceUncorrect(fTrue: ArrayLike<number>, yRef: number): Float64Array;
-export function referenceUncorrect(fTrue: number | ArrayLike<number>, yRef: number): number | Float64Array {
+export function referenceUncorrect(
+  fTrue: number | ArrayLike<number>,
+  yRef: number,
+): number | Float64Array {
   assertNumber(yRef, 'yRef');
   const k = 1 + yRef;
   if (k === 0) throw new AnalysisError('bad-argument', 'yRef must not be −1');

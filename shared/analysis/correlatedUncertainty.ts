@@ -13,10 +13,17 @@ export interface CorrelatedInput {
  * u_c² = Σ_i Σ_j c_i c_j u(x_i) u(x_j) r(x_i, x_j), with r the correlation matrix (symmetric,
  * unit diagonal, entries in [−1, 1]). Domain: u_i ≥ 0; r square of the inputs' size.
  */
-export function combineCorrelated(inputs: readonly CorrelatedInput[], r: readonly (readonly number[])[]): number {
+export function combineCorrelated(
+  inputs: readonly CorrelatedInput[],
+  r: readonly (readonly number[])[],
+): number {
   const n = inputs.length;
   if (n === 0) throw new AnalysisError('empty', 'no uncertainty inputs');
-  if (!Array.isArray(r) || r.length !== n || r.some((row) => !Array.isArray(row) || row.length !== n)) {
+  if (
+    !Array.isArray(r) ||
+    r.length !== n ||
+    r.some((row) => !Array.isArray(row) || row.length !== n)
+  ) {
     throw new AnalysisError('mismatched', `the correlation matrix must be ${n} × ${n}`);
   }
   const cu = inputs.map((x, i) => {
@@ -31,9 +38,12 @@ export function combineCorrelated(inputs: readonly CorrelatedInput[], r: readonl
     for (let j = 0; j < n; j++) {
       const rij = r[i][j];
       assertNumber(rij, `r[${i}][${j}]`);
-      if (rij < -1 || rij > 1) throw new AnalysisError('bad-argument', `r[${i}][${j}] lies outside [−1, 1]`);
-      if (i === j && rij !== 1) throw new AnalysisError('bad-argument', 'the correlation matrix needs a unit diagonal');
-      if (Math.abs(rij - r[j][i]) > 1e-12) throw new AnalysisError('bad-argument', 'the correlation matrix must be symmetric');
+      if (rij < -1 || rij > 1)
+        throw new AnalysisError('bad-argument', `r[${i}][${j}] lies outside [−1, 1]`);
+      if (i === j && rij !== 1)
+        throw new AnalysisError('bad-argument', 'the correlation matrix needs a unit diagonal');
+      if (Math.abs(rij - r[j][i]) > 1e-12)
+        throw new AnalysisError('bad-argument', 'the correlation matrix must be symmetric');
       sum += cu[i] * cu[j] * rij;
     }
   }
@@ -59,7 +69,11 @@ export interface GroupedInput {
  * (G.2b), which needs independent terms; a group's ν is the smallest of its lines' (conservative,
  * Driftbench's choice). Domain: finite contributions, ν > 0.
  */
-export function combineGrouped(lines: readonly GroupedInput[]): { uc: number; nuEff: number; terms: { group: string | null; contribution: number; dof: number }[] } {
+export function combineGrouped(lines: readonly GroupedInput[]): {
+  uc: number;
+  nuEff: number;
+  terms: { group: string | null; contribution: number; dof: number }[];
+} {
   if (lines.length === 0) throw new AnalysisError('empty', 'no uncertainty lines');
   const terms: { group: string | null; contribution: number; dof: number }[] = [];
   const byGroup = new Map<string, { group: string; contribution: number; dof: number }>();
@@ -87,5 +101,9 @@ export function combineGrouped(lines: readonly GroupedInput[]): { uc: number; nu
     if (Number.isFinite(t.dof)) sumQuartic += t.contribution ** 4 / t.dof;
   }
   const uc = Math.sqrt(sumSq);
-  return { uc, nuEff: sumQuartic > 0 ? uc ** 4 / sumQuartic : Infinity, terms: terms.map((t) => ({ ...t, contribution: Math.abs(t.contribution) })) };
+  return {
+    uc,
+    nuEff: sumQuartic > 0 ? uc ** 4 / sumQuartic : Infinity,
+    terms: terms.map((t) => ({ ...t, contribution: Math.abs(t.contribution) })),
+  };
 }

@@ -49,13 +49,21 @@ export function counterResolution(input: CounterResolutionInput): CounterResolut
   assertNumber(input.gateTime, 'gateTime', true);
   assertNumber(input.f, 'f', true);
   const perUnit = hzPerUnit(input.unit);
-  if (perUnit === null) throw new AnalysisError('bad-argument', `a counter reads Hz, kHz, MHz or GHz, not ${String(input.unit)}`);
+  if (perUnit === null)
+    throw new AnalysisError(
+      'bad-argument',
+      `a counter reads Hz, kHz, MHz or GHz, not ${String(input.unit)}`,
+    );
   if (input.kind === 'gated') {
     const counts = input.counts ?? 1;
     assertNumber(counts, 'counts', true);
     // ±counts in the gate is a frequency in Hz whatever unit f is stated in (review8 F11).
     const absoluteHz = counts / input.gateTime;
-    return { absoluteHz, absolute: absoluteHz / perUnit, relative: absoluteHz / (input.f * perUnit) };
+    return {
+      absoluteHz,
+      absolute: absoluteHz / perUnit,
+      relative: absoluteHz / (input.f * perUnit),
+    };
   }
   if (input.kind === 'reciprocal' || input.kind === 'time-interval') {
     const tRes = input.tRes ?? 100e-12;

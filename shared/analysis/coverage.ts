@@ -30,22 +30,34 @@ export const COVERAGE_FLOOR = 2;
  * where t = 1.96) it reports the familiar k = 2, which covers at least 95 % — a conservative
  * choice, never a smaller U than the t quantile. Domain: ν_eff > 0 or Infinity; 0 < p < 1.
  */
-export function coverageFactor(effectiveDof: number, probability = 0.95, floor = COVERAGE_FLOOR): Coverage {
+export function coverageFactor(
+  effectiveDof: number,
+  probability = 0.95,
+  floor = COVERAGE_FLOOR,
+): Coverage {
   if (typeof effectiveDof !== 'number' || Number.isNaN(effectiveDof) || !(effectiveDof > 0)) {
     throw new AnalysisError('bad-argument', 'effective degrees of freedom must be > 0');
   }
-  if (!(probability > 0 && probability < 1)) throw new AnalysisError('bad-argument', 'probability must lie in (0, 1)');
+  if (!(probability > 0 && probability < 1))
+    throw new AnalysisError('bad-argument', 'probability must lie in (0, 1)');
   const upper = 1 - (1 - probability) / 2;
   const finite = Number.isFinite(effectiveDof);
   const dofUsed = finite ? Math.max(1, Math.floor(effectiveDof)) : null;
   // jstat's t quantile loses accuracy past ~10⁶ degrees of freedom (0 at 10²⁰); beyond 10⁵ the t
   // and normal quantiles agree to 1e-5, so the normal one is used there.
-  const tQuantile = dofUsed === null || dofUsed > 1e5 ? jStat.normal.inv(upper, 0, 1) : jStat.studentt.inv(upper, dofUsed);
+  const tQuantile =
+    dofUsed === null || dofUsed > 1e5
+      ? jStat.normal.inv(upper, 0, 1)
+      : jStat.studentt.inv(upper, dofUsed);
   const floorApplied = tQuantile < floor;
   const k = floorApplied ? floor : tQuantile;
   const pct = `${Number((probability * 100).toPrecision(3))} %`;
   // Past a thousand the t quantile no longer moves: say "> 1000" rather than print 20 digits.
-  const nu = !finite ? '= ∞' : effectiveDof > 1000 ? '> 1000' : `= ${Number(effectiveDof.toPrecision(3))}`;
+  const nu = !finite
+    ? '= ∞'
+    : effectiveDof > 1000
+      ? '> 1000'
+      : `= ${Number(effectiveDof.toPrecision(3))}`;
   const text = floorApplied
     ? `k = ${k.toFixed(2)} with ν_eff ${nu} (t gives ${tQuantile.toFixed(2)}; Driftbench's floor is ${floor.toFixed(2)}), at least ${pct} coverage`
     : `k = ${k.toFixed(2)} from ν_eff ${nu}, about ${pct} coverage`;

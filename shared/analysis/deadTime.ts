@@ -34,7 +34,12 @@ export function barnesAllanB2(r: number, mu: number): number {
 }
 
 /** μ of σ²_y(τ) ∝ τ^μ for the noises whose dead-time bias B2 corrects (SP 1065 Table 3); FPM: none. */
-export const DEAD_TIME_MU: Readonly<Partial<Record<NoiseType, number>>> = { wpm: -2, wfm: -1, ffm: 0, rwfm: 1 };
+export const DEAD_TIME_MU: Readonly<Partial<Record<NoiseType, number>>> = {
+  wpm: -2,
+  wfm: -1,
+  ffm: 0,
+  rwfm: 1,
+};
 
 /**
  * Dead-time ratio at averaging factor m for readings of gate `gate` every τ0 (τ0 − gate is dead):
@@ -55,7 +60,8 @@ export function deadTimeRatio(tau0: number, gate: number, m: number): number {
  * Returns null for phase noises, where SP 1065 gives no correction.
  */
 export function totdevBias(noise: NoiseType, tau: number, recordLength: number): number | null {
-  const a = noise === 'wfm' ? 0 : noise === 'ffm' ? 1 / (3 * Math.LN2) : noise === 'rwfm' ? 0.75 : null;
+  const a =
+    noise === 'wfm' ? 0 : noise === 'ffm' ? 1 / (3 * Math.LN2) : noise === 'rwfm' ? 0.75 : null;
   if (a === null) return null;
   return 1 - (a * tau) / recordLength;
 }

@@ -12,7 +12,11 @@ export interface Decimated {
  * extreme survives; at most 2·buckets points. Passes a copy through when n ≤ 2·buckets. Domain:
  * finite t and v of equal length, integer buckets ≥ 1.
  */
-export function decimateMinMax(t: ArrayLike<number>, v: ArrayLike<number>, buckets: number): Decimated {
+export function decimateMinMax(
+  t: ArrayLike<number>,
+  v: ArrayLike<number>,
+  buckets: number,
+): Decimated {
   if (!Number.isInteger(buckets) || buckets < 1) {
     throw new AnalysisError('bad-argument', 'buckets must be an integer ≥ 1');
   }

@@ -67,7 +67,11 @@ export function driftFit(t: ArrayLike<number>, y: ArrayLike<number>): DriftFit {
  * y with the fitted slope removed about the pivot, y − slope·(t − tRef): the level (mean) is kept,
  * only the drift goes (SP 1065 §6, drift removal). Domain: as driftFit, same length as the fit's t.
  */
-export function removeDrift(t: ArrayLike<number>, y: ArrayLike<number>, fit: DriftFit): Float64Array {
+export function removeDrift(
+  t: ArrayLike<number>,
+  y: ArrayLike<number>,
+  fit: DriftFit,
+): Float64Array {
   assertSeries(t, 't');
   assertSeries(y, 'y');
   assertSameLength(t, y, 't and y');
@@ -115,23 +119,46 @@ export interface DriftRemoval {
  * trend removed is the fitted curve minus its mean, so the mean of y is unchanged. Domain: ≥ 3
  * (linear) or ≥ 4 (quadratic) finite pairs, t not all equal.
  */
-export function fitDrift(t: ArrayLike<number>, y: ArrayLike<number>, model: DriftModel): DriftRemoval {
+export function fitDrift(
+  t: ArrayLike<number>,
+  y: ArrayLike<number>,
+  model: DriftModel,
+): DriftRemoval {
   assertSameLength(t, y, 't and y');
   const p = model === 'quadratic' ? 3 : model === 'linear' ? 2 : 1;
   assertSeries(t, 't', p === 1 ? 1 : p + 1);
   assertSeries(y, 'y', p === 1 ? 1 : p + 1);
-  if (!DRIFT_MODELS.includes(model)) throw new AnalysisError('bad-argument', `unknown drift model ${String(model)}`);
+  if (!DRIFT_MODELS.includes(model))
+    throw new AnalysisError('bad-argument', `unknown drift model ${String(model)}`);
   const n = t.length;
   const tRef = compensatedSum(t) / n;
   if (model === 'none') {
-    return { model, ratePerSecond: 0, ratePerDay: 0, rateStderrPerDay: 0, curvaturePerDay2: 0, tRef, residualSd: NaN, trendSd: 0, detrended: Float64Array.from(y), n };
+    return {
+      model,
+      ratePerSecond: 0,
+      ratePerDay: 0,
+      rateStderrPerDay: 0,
+      curvaturePerDay2: 0,
+      tRef,
+      residualSd: NaN,
+      trendSd: 0,
+      detrended: Float64Array.from(y),
+      n,
+    };
   }
   let half = 0;
   for (let i = 0; i < n; i++) half = Math.max(half, Math.abs(t[i] - tRef));
-  if (!(half > 0)) throw new AnalysisError('bad-argument', 'all timestamps are equal: no drift can be fitted');
+  if (!(half > 0))
+    throw new AnalysisError('bad-argument', 'all timestamps are equal: no drift can be fitted');
   // Normal equations in s = (t − t̄)/half: XᵀX β = Xᵀy with columns 1, s, s².
   // Power sums Σs^k (k ≤ 4) and Σs^k·y (k ≤ 2) in one pass, without allocating per point.
-  let s1 = 0, s2 = 0, s3 = 0, s4 = 0, y0 = 0, y1 = 0, y2 = 0;
+  let s1 = 0,
+    s2 = 0,
+    s3 = 0,
+    s4 = 0,
+    y0 = 0,
+    y1 = 0,
+    y2 = 0;
   for (let i = 0; i < n; i++) {
     const s = (t[i] - tRef) / half;
     const ss = s * s;
@@ -145,7 +172,9 @@ export function fitDrift(t: ArrayLike<number>, y: ArrayLike<number>, model: Drif
     y2 += ss * v;
   }
   const moments = [n, s1, s2, s3, s4];
-  const xtx = Array.from({ length: p }, (_, a) => Array.from({ length: p }, (_, b) => moments[a + b]));
+  const xtx = Array.from({ length: p }, (_, a) =>
+    Array.from({ length: p }, (_, b) => moments[a + b]),
+  );
   const xty = [y0, y1, y2].slice(0, p);
   const inv = invertSymmetric(xtx);
   const beta = inv.map((row) => row.reduce((acc, v, j) => acc + v * xty[j], 0));
@@ -189,7 +218,8 @@ function invertSymmetric(m: number[][]): number[][] {
   for (let c = 0; c < n; c++) {
     let piv = c;
     for (let r = c + 1; r < n; r++) if (Math.abs(a[r][c]) > Math.abs(a[piv][c])) piv = r;
-    if (!(Math.abs(a[piv][c]) > 1e-300)) throw new AnalysisError('bad-argument', 'too few distinct timestamps for this drift model');
+    if (!(Math.abs(a[piv][c]) > 1e-300))
+      throw new AnalysisError('bad-argument', 'too few distinct timestamps for this drift model');
     [a[c], a[piv]] = [a[piv], a[c]];
     const d = a[c][c];
     for (let j = 0; j < 2 * n; j++) a[c][j] /= d;

@@ -12,7 +12,9 @@ export function oadevEdf(nPhase: number, m: number, noise: NoiseType): number {
     case 'wpm':
       return ((N + 1) * (N - 2 * m)) / (2 * (N - m));
     case 'fpm':
-      return Math.exp(Math.sqrt(Math.log((N - 1) / (2 * m)) * Math.log(((2 * m + 1) * (N - 1)) / 4)));
+      return Math.exp(
+        Math.sqrt(Math.log((N - 1) / (2 * m)) * Math.log(((2 * m + 1) * (N - 1)) / 4)),
+      );
     case 'wfm':
       return ((3 * (N - 1)) / (2 * m) - (2 * (N - 2)) / N) * ((4 * m * m) / (4 * m * m + 5));
     case 'ffm':
@@ -54,7 +56,9 @@ export interface DifferenceEstimator {
 }
 
 /** d, modification and overlap of every kind (NIST SP 1065 §5.2; TOTDEV is handled apart). */
-export const DIFFERENCE_ESTIMATOR: Readonly<Record<Exclude<StabilityKind, 'totdev'>, DifferenceEstimator>> = {
+export const DIFFERENCE_ESTIMATOR: Readonly<
+  Record<Exclude<StabilityKind, 'totdev'>, DifferenceEstimator>
+> = {
   adev: { d: 2, modified: false, overlapping: false },
   oadev: { d: 2, modified: false, overlapping: true },
   mdev: { d: 2, modified: true, overlapping: true },
@@ -125,7 +129,12 @@ function averagedOver(alpha: number, window: number): PhaseCovariance {
   return (t) => F * F * (2 * sw(t, alpha) - sw(t - window, alpha) - sw(t + window, alpha));
 }
 
-function phaseCovariance(alpha: number, m: number, modified: boolean, gridF?: number): PhaseCovariance {
+function phaseCovariance(
+  alpha: number,
+  m: number,
+  modified: boolean,
+  gridF?: number,
+): PhaseCovariance {
   if (!modified) {
     if (alpha >= 1) return averagedOver(alpha, 1 / (gridF ?? m));
     return (t) => sw(t, alpha + 2);
@@ -134,7 +143,8 @@ function phaseCovariance(alpha: number, m: number, modified: boolean, gridF?: nu
   // The mean of m instantaneous phase samples τ0 = τ/m apart: Σ_l (m − |l|)·γ(t + l/m) / m².
   return (t) => {
     let s = m * sw(t, alpha + 2);
-    for (let l = 1; l < m; l++) s += (m - l) * (sw(t + l / m, alpha + 2) + sw(t - l / m, alpha + 2));
+    for (let l = 1; l < m; l++)
+      s += (m - l) * (sw(t + l / m, alpha + 2) + sw(t - l / m, alpha + 2));
     return s / (m * m);
   };
 }
@@ -198,7 +208,8 @@ export function greenhallEdf(input: GreenhallInput): number {
   const q = J_MAX / J;
   const Mq = M * q;
   const Sq = S * q;
-  const szGrid = alpha >= 1 && !modified ? termCovariance(phaseCovariance(alpha, m, false, Sq), d) : sz;
+  const szGrid =
+    alpha >= 1 && !modified ? termCovariance(phaseCovariance(alpha, m, false, Sq), d) : sz;
   return (Mq * sz0 * sz0) / basicSum(szGrid, J_MAX, Mq, Sq);
 }
 
@@ -238,7 +249,11 @@ export function stabilityEdf(
       if (alpha >= 1) {
         const tOverTau = (nPhase - 1) / m;
         const oadevEdfHere = greenhallEdf({ ...oadev, nPhase });
-        edf = Math.min(noEdgeLoss, TOTDEV_PM_B * tOverTau, Math.max(oadevEdfHere, (TOTDEV_PM_B / 2) * tOverTau));
+        edf = Math.min(
+          noEdgeLoss,
+          TOTDEV_PM_B * tOverTau,
+          Math.max(oadevEdfHere, (TOTDEV_PM_B / 2) * tOverTau),
+        );
       } else {
         edf = Math.min(noEdgeLoss, totdevEdf(nPhase, m, noise));
       }

@@ -1,5 +1,6 @@
 /** Why an analysis input was refused. */
-export type AnalysisErrorCode = 'empty' | 'too-short' | 'non-finite' | 'mismatched' | 'bad-argument';
+export type AnalysisErrorCode =
+  'empty' | 'too-short' | 'non-finite' | 'mismatched' | 'bad-argument';
 
 /** The one error type thrown by shared/analysis for inputs outside a function's domain. */
 export class AnalysisError extends Error {
@@ -19,7 +20,10 @@ export function assertSeries(values: ArrayLike<number>, name: string, min = 1): 
   }
   if (values.length === 0) throw new AnalysisError('empty', `${name} is empty`);
   if (values.length < min) {
-    throw new AnalysisError('too-short', `${name} needs at least ${min} values, got ${values.length}`);
+    throw new AnalysisError(
+      'too-short',
+      `${name} needs at least ${min} values, got ${values.length}`,
+    );
   }
   for (let i = 0; i < values.length; i++) {
     if (!Number.isFinite(values[i])) {
@@ -36,7 +40,11 @@ export function assertSameLength(a: ArrayLike<number>, b: ArrayLike<number>, nam
 }
 
 /** Throws unless `value` is a finite number, and strictly positive when `positive` is set. */
-export function assertNumber(value: unknown, name: string, positive = false): asserts value is number {
+export function assertNumber(
+  value: unknown,
+  name: string,
+  positive = false,
+): asserts value is number {
   if (typeof value !== 'number' || !Number.isFinite(value)) {
     throw new AnalysisError('bad-argument', `${name} must be a finite number`);
   }

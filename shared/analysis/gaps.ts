@@ -21,7 +21,11 @@ export interface FindGapsOptions {
  * Gaps where consecutive timestamps differ by more than factor·gateTime (default 1.5, common
  * practice, no source). Domain: finite, non-decreasing timestamps in seconds (≥ 1), gateTime > 0.
  */
-export function findGaps(t: ArrayLike<number>, gateTime: number, opts: FindGapsOptions = {}): Gap[] {
+export function findGaps(
+  t: ArrayLike<number>,
+  gateTime: number,
+  opts: FindGapsOptions = {},
+): Gap[] {
   assertSeries(t, 't');
   assertNumber(gateTime, 'gateTime', true);
   const factor = opts.factor ?? 1.5;

@@ -22,8 +22,12 @@ export const FREE_AIR_GRADIENT = -3.086e-6;
 export function wgs84Gravity(latDeg: number, heightM = 0): number {
   assertNumber(latDeg, 'latDeg');
   assertNumber(heightM, 'heightM');
-  if (latDeg < -90 || latDeg > 90) throw new AnalysisError('bad-argument', 'latitude must be within ±90°');
+  if (latDeg < -90 || latDeg > 90)
+    throw new AnalysisError('bad-argument', 'latitude must be within ±90°');
   const s = Math.sin((latDeg * Math.PI) / 180);
   const s2 = s * s;
-  return (WGS84_GAMMA_E * (1 + WGS84_K * s2)) / Math.sqrt(1 - WGS84_E2 * s2) + FREE_AIR_GRADIENT * heightM;
+  return (
+    (WGS84_GAMMA_E * (1 + WGS84_K * s2)) / Math.sqrt(1 - WGS84_E2 * s2) +
+    FREE_AIR_GRADIENT * heightM
+  );
 }

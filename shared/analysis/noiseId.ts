@@ -98,7 +98,8 @@ export function estimateNoise(
   opts: { data?: DataKind } = {},
 ): NoiseEstimate {
   const data = opts.data ?? 'frequency';
-  if (!Number.isInteger(m) || m < 1) throw new AnalysisError('bad-argument', 'm must be an integer ≥ 1');
+  if (!Number.isInteger(m) || m < 1)
+    throw new AnalysisError('bad-argument', 'm must be an integer ≥ 1');
   const u = normalizedPhase(values, 1, data);
   const count = Math.floor((u.length - 1) / m) + (data === 'phase' ? 1 : 0);
   if (count < LAG1_MIN_POINTS) {

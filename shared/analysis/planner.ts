@@ -50,9 +50,18 @@ export function modelDev(m: NoiseModel, tau: number): number {
  * when unknown). Needs at least two points with τ > 0 and σ > 0. When the unconstrained fit gives a negative term, that term is set to zero and the
  * other refitted alone.
  */
-export function fitNoiseModel(points: readonly CurvePoint[], source: NoiseModel['source'] = 'measured'): NoiseModel {
-  const pts = points.filter((p) => p.tau > 0 && p.dev > 0 && Number.isFinite(p.tau) && Number.isFinite(p.dev));
-  if (pts.length < 2) throw new AnalysisError('too-short', 'the stability curve needs at least two points to plan from');
+export function fitNoiseModel(
+  points: readonly CurvePoint[],
+  source: NoiseModel['source'] = 'measured',
+): NoiseModel {
+  const pts = points.filter(
+    (p) => p.tau > 0 && p.dev > 0 && Number.isFinite(p.tau) && Number.isFinite(p.dev),
+  );
+  if (pts.length < 2)
+    throw new AnalysisError(
+      'too-short',
+      'the stability curve needs at least two points to plan from',
+    );
   // Weighted linear least squares of s = σ² on x = 1/τ, weights w = edf/σ⁴.
   let sw = 0;
   let swx = 0;
@@ -151,7 +160,11 @@ export function plannedU(input: Omit<PlanInput, 'limit' | 'shift'>, length: numb
 /** Predicts U of Δ against capture length and the shortest capture that decides for a shift. */
 export function planCapture(input: PlanInput): Plan {
   const { model, limit, shift, tau0 } = input;
-  if (!(limit > 0)) throw new AnalysisError('bad-argument', 'the limit must be greater than zero to plan a capture');
+  if (!(limit > 0))
+    throw new AnalysisError(
+      'bad-argument',
+      'the limit must be greater than zero to plan a capture',
+    );
   if (!(shift >= 0)) throw new AnalysisError('bad-argument', 'the shift must be zero or more');
   if (!(tau0 > 0)) throw new AnalysisError('bad-argument', 'τ0 must be greater than zero');
   const k = input.k ?? 2;
@@ -162,7 +175,8 @@ export function planCapture(input: PlanInput): Plan {
   const m = baselineFixed ? 1 : 2;
   const Ufloor = k * Math.sqrt(C);
   const margin = Math.abs(limit - shift);
-  const verdict = shift === limit || margin <= Ufloor ? 'undecidable' : shift < limit ? 'within' : 'exceeds';
+  const verdict =
+    shift === limit || margin <= Ufloor ? 'undecidable' : shift < limit ? 'within' : 'exceeds';
   let shortest: number | null = null;
   if (verdict !== 'undecidable') {
     // U(T)² = k²(m·a/T + C) ≤ margin²  ⇔  T ≥ k²·m·a / (margin² − k²·C). Exceeds needs U < margin strictly: same T in practice.
@@ -229,20 +243,38 @@ export interface LiveDecision {
  */
 export function liveDecision(input: LiveDecisionInput): LiveDecision {
   const delta = input.mean - input.baselineMean;
-  if (input.n < 2) return { delta, Umean: Infinity, U: Infinity, margin: input.limit - Math.abs(delta), verdict: 'inconclusive', decided: false };
+  if (input.n < 2)
+    return {
+      delta,
+      Umean: Infinity,
+      U: Infinity,
+      margin: input.limit - Math.abs(delta),
+      verdict: 'inconclusive',
+      decided: false,
+    };
   const sem2 = (input.sd * input.sd) / input.n;
   const uMean = Math.sqrt(sem2 + (input.floor ?? 0) ** 2);
   const extra = input.deltaTerms ?? [];
-  const u2 = uMean * uMean + input.baselineU * input.baselineU + (input.fixedU ?? 0) ** 2 + extra.reduce((s, t) => s + t.u * t.u, 0);
+  const u2 =
+    uMean * uMean +
+    input.baselineU * input.baselineU +
+    (input.fixedU ?? 0) ** 2 +
+    extra.reduce((s, t) => s + t.u * t.u, 0);
   const u = Math.sqrt(u2);
   // Welch–Satterthwaite (JCGM 100 G.2b): the running SEM has ν = n − 1, the rest as given (∞).
-  const den = (sem2 * sem2) / (input.n - 1) + extra.reduce((s, t) => s + (t.dof !== undefined && Number.isFinite(t.dof) ? t.u ** 4 / t.dof : 0), 0);
+  const den =
+    (sem2 * sem2) / (input.n - 1) +
+    extra.reduce(
+      (s, t) => s + (t.dof !== undefined && Number.isFinite(t.dof) ? t.u ** 4 / t.dof : 0),
+      0,
+    );
   // (the 1e-9 keeps ν = n − 1 from rounding down to n − 2 through floating point)
   const nuEff = den > 0 ? ((u2 * u2) / den) * (1 + 1e-9) : Infinity;
   const k = input.k ?? coverageFactor(nuEff > 0 ? nuEff : 1).k;
   const U = k * u;
   const abs = Math.abs(delta);
-  const verdict = abs + U <= input.limit ? 'within' : abs - U > input.limit ? 'exceeds' : 'inconclusive';
+  const verdict =
+    abs + U <= input.limit ? 'within' : abs - U > input.limit ? 'exceeds' : 'inconclusive';
   // A "within" on a budget that lacks terms of the final comparison is only a hint (review8 F6):
   // the comparison may widen U and say "inconclusive"; it must never be shown as decided.
   const decided = verdict === 'exceeds' || (verdict === 'within' && input.complete === true);

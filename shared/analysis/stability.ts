@@ -128,7 +128,8 @@ export function stability(
   }
   if (opts.gateTime !== undefined) {
     assertNumber(opts.gateTime, 'gateTime', true);
-    if (opts.gateTime > tau0 * (1 + 1e-9)) throw new AnalysisError('bad-argument', 'the gate time exceeds τ0');
+    if (opts.gateTime > tau0 * (1 + 1e-9))
+      throw new AnalysisError('bad-argument', 'the gate time exceeds τ0');
   }
   const nPhase = data === 'phase' ? values.length : values.length + 1;
   const u = normalizedPhase(values, tau0, data, borrowWorkspace(0, nPhase));
@@ -137,7 +138,8 @@ export function stability(
 
   const raw: Array<{ m: number; tau: number; dev: number; terms: number }> = [];
   const skipped: SkippedTau[] = [];
-  const ext = kind === 'totdev' && top >= 1 ? reflectPhase(u, borrowWorkspace(1, 3 * nPhase - 4)) : null;
+  const ext =
+    kind === 'totdev' && top >= 1 ? reflectPhase(u, borrowWorkspace(1, 3 * nPhase - 4)) : null;
 
   for (const m of wanted) {
     if (!Number.isInteger(m) || m < 1) {
@@ -145,7 +147,10 @@ export function stability(
       continue;
     }
     if (m > top) {
-      skipped.push({ m, reason: `${kind} needs more data: at most m = ${top} for ${nPhase} phase points` });
+      skipped.push({
+        m,
+        reason: `${kind} needs more data: at most m = ${top} for ${nPhase} phase points`,
+      });
       continue;
     }
     const { variance, terms } = varianceAt(kind, u, ext, m);
@@ -167,8 +172,10 @@ export function stability(
       const rDead = deadTimeRatio(tau0, opts.gateTime, r.m);
       if (rDead > 1 + 1e-12) {
         const mu = DEAD_TIME_MU[noise];
-        if (!noiseSupported) uncorrected = 'dead-time bias not corrected: noise type not identified at this τ';
-        else if (mu === undefined) uncorrected = 'dead-time bias not corrected: no B2 for flicker PM';
+        if (!noiseSupported)
+          uncorrected = 'dead-time bias not corrected: noise type not identified at this τ';
+        else if (mu === undefined)
+          uncorrected = 'dead-time bias not corrected: no B2 for flicker PM';
         else {
           const b2 = barnesAllanB2(rDead, mu);
           if (Math.abs(b2 - 1) > 1e-12) corrections.push({ kind: 'dead-time', ratio: b2 });
@@ -179,8 +186,10 @@ export function stability(
     if (kind === 'totdev' && r.m > 1) {
       const bias = totdevBias(noise, r.tau, recordLength);
       if (noise !== 'wfm') {
-        if (!noiseSupported) uncorrected = 'TOTDEV bias not corrected: noise type not identified at this τ';
-        else if (bias === null) uncorrected = 'TOTDEV bias not corrected: none is published for phase noise';
+        if (!noiseSupported)
+          uncorrected = 'TOTDEV bias not corrected: noise type not identified at this τ';
+        else if (bias === null)
+          uncorrected = 'TOTDEV bias not corrected: none is published for phase noise';
         else if (bias > 0) {
           corrections.push({ kind: 'totdev', ratio: bias });
           ratio *= bias;
@@ -189,7 +198,22 @@ export function stability(
     }
     const dev = r.dev / Math.sqrt(ratio);
     const { lo, hi } = chiSquareInterval(dev, edf, confidence);
-    return { m: r.m, tau: r.tau, dev, devRaw: r.dev, n: r.terms, edf, lo, hi, noise, noiseSource, noiseSupported, slope, corrections, uncorrected };
+    return {
+      m: r.m,
+      tau: r.tau,
+      dev,
+      devRaw: r.dev,
+      n: r.terms,
+      edf,
+      lo,
+      hi,
+      noise,
+      noiseSource,
+      noiseSupported,
+      slope,
+      corrections,
+      uncorrected,
+    };
   });
   return { kind, points, skipped };
 }
@@ -221,7 +245,13 @@ function identifyNoise(
   // sd of ln σ ≈ 1/√(2·edf) (SP 1065 §5.3); the white-FM EDF is the yardstick for the slope's sd
   const sdLn = raw.map((r) => 1 / Math.sqrt(2 * stabilityEdf(kind, nPhase, r.m, r.terms, 'wfm')));
   const slopes = raw.map((_, i) => localSlope(raw, sdLn, i));
-  if (given) return raw.map((_, i) => ({ noise: given, noiseSource: 'given', noiseSupported: true, slope: slopes[i]?.value ?? null }));
+  if (given)
+    return raw.map((_, i) => ({
+      noise: given,
+      noiseSource: 'given',
+      noiseSupported: true,
+      slope: slopes[i]?.value ?? null,
+    }));
 
   const lag1 = raw.map((r) => lag1NoiseOnPhase(u, r.m, data));
   const out: NoiseId[] = [];
@@ -257,7 +287,8 @@ function identifyNoise(
     if (slope !== null && (source === 'lag1' || source === 'b1')) {
       const nearest = nearestBySlope(kind, slope.value);
       const distance = Math.abs(slope.value - expectedSlope(kind, noise));
-      supported = distance <= 2 * slope.sd || expectedSlope(kind, nearest) === expectedSlope(kind, noise);
+      supported =
+        distance <= 2 * slope.sd || expectedSlope(kind, nearest) === expectedSlope(kind, noise);
       if (!supported) alternative = nearest;
     } else if (slope !== null) {
       alternative = nearestBySlope(kind, slope.value);
@@ -270,7 +301,12 @@ function identifyNoise(
         if (source === 'carried' || source === 'default') source = 'slope';
       }
     }
-    out.push({ noise, noiseSource: source, noiseSupported: supported, slope: slope?.value ?? null });
+    out.push({
+      noise,
+      noiseSource: source,
+      noiseSupported: supported,
+      slope: slope?.value ?? null,
+    });
   });
   return out;
 }

@@ -47,7 +47,11 @@ export function phasePointCount(n: number, data: DataKind = 'frequency'): number
 }
 
 /** Octave averaging factors m = 1, 2, 4, … supported for n input values (SP 1065 §5.2). */
-export function octaveMs(n: number, kind: StabilityKind = 'oadev', data: DataKind = 'frequency'): number[] {
+export function octaveMs(
+  n: number,
+  kind: StabilityKind = 'oadev',
+  data: DataKind = 'frequency',
+): number[] {
   const top = maxM(kind, phasePointCount(n, data));
   const ms: number[] = [];
   for (let m = 1; m <= top; m *= 2) ms.push(m);
@@ -55,7 +59,11 @@ export function octaveMs(n: number, kind: StabilityKind = 'oadev', data: DataKin
 }
 
 /** Decade averaging factors in 1-2-5 steps (1, 2, 5, 10, 20, …) supported for n input values. */
-export function decadeMs(n: number, kind: StabilityKind = 'oadev', data: DataKind = 'frequency'): number[] {
+export function decadeMs(
+  n: number,
+  kind: StabilityKind = 'oadev',
+  data: DataKind = 'frequency',
+): number[] {
   const top = maxM(kind, phasePointCount(n, data));
   const ms: number[] = [];
   for (let decade = 1; decade <= top; decade *= 10) {
@@ -65,7 +73,11 @@ export function decadeMs(n: number, kind: StabilityKind = 'oadev', data: DataKin
 }
 
 /** Every averaging factor 1…max supported for n input values ("all τ"); O(N) work per m. */
-export function allMs(n: number, kind: StabilityKind = 'oadev', data: DataKind = 'frequency'): number[] {
+export function allMs(
+  n: number,
+  kind: StabilityKind = 'oadev',
+  data: DataKind = 'frequency',
+): number[] {
   const top = maxM(kind, phasePointCount(n, data));
   const ms: number[] = [];
   for (let m = 1; m <= top; m++) ms.push(m);

@@ -116,13 +116,21 @@ export function tuningForkDelta(
   thermometer: ThermometerModel,
 ): TuningForkDelta {
   const { B, uB, T0, uT0 } = fork;
-  for (const [v, n] of [[B, 'B'], [uB, 'u(B)'], [T0, 'T0'], [uT0, 'u(T0)'], [thermometer.uReading, 'u(reading)'], [thermometer.uBias, 'u(bias)']] as const) {
+  for (const [v, n] of [
+    [B, 'B'],
+    [uB, 'u(B)'],
+    [T0, 'T0'],
+    [uT0, 'u(T0)'],
+    [thermometer.uReading, 'u(reading)'],
+    [thermometer.uBias, 'u(bias)'],
+  ] as const) {
     assertNumber(v, n);
   }
   const [lo, hi] = thermometer.labRange;
   assertNumber(lo, 'labRange low');
   assertNumber(hi, 'labRange high');
-  if (!(lo < hi)) throw new AnalysisError('bad-argument', 'the lab range must run from low to high');
+  if (!(lo < hi))
+    throw new AnalysisError('bad-argument', 'the lab range must run from low to high');
   const mid = (lo + hi) / 2;
   const uLab = (hi - lo) / (2 * Math.sqrt(3));
   const side = (T: number | null) => {
@@ -138,7 +146,8 @@ export function tuningForkDelta(
   const terms: TuningForkTerm[] = [];
   const notes: string[] = [];
   const source = 'JCGM 100:2008 §5.2 eq. 16 (shared input, r = 1)';
-  const push = (t: Omit<TuningForkTerm, 'contributionPpm'>) => terms.push({ ...t, contributionPpm: t.sensitivityPpm * t.value });
+  const push = (t: Omit<TuningForkTerm, 'contributionPpm'>) =>
+    terms.push({ ...t, contributionPpm: t.sensitivityPpm * t.value });
 
   push({
     name: 'Turnover temperature T0 (shared)',
@@ -173,7 +182,10 @@ export function tuningForkDelta(
       source,
     });
   }
-  for (const [s, which] of [[b, 'before'], [a, 'after']] as const) {
+  for (const [s, which] of [
+    [b, 'before'],
+    [a, 'after'],
+  ] as const) {
     const sign = which === 'after' ? -1 : 1;
     if (s.known) {
       push({
@@ -197,7 +209,7 @@ export function tuningForkDelta(
         distribution: 'rectangular',
         note:
           `No ambient was recorded: taken as rectangular over the lab range ${fmt(lo)}–${fmt(hi)} °C (never as 25 °C); ` +
-          'the sensitivity includes the parabola\'s second-order term.',
+          "the sensitivity includes the parabola's second-order term.",
         source: 'JCGM 100:2008 §4.3.7, §5.1.2',
       });
       notes.push(
@@ -228,12 +240,27 @@ export function tuningForkDelta(
       source: 'JCGM 100:2008 §5.1.2 note (higher-order terms)',
     });
   }
-  return { shiftBeforePpm: b.shift, shiftAfterPpm: a.shift, ambientBefore: b.est, ambientAfter: a.est, terms, notes };
+  return {
+    shiftBeforePpm: b.shift,
+    shiftAfterPpm: a.shift,
+    ambientBefore: b.est,
+    ambientAfter: a.est,
+    terms,
+    notes,
+  };
 }
 
 /** 3-point Gauss rules as (offset in standard uncertainties, weight), exact to degree 5. */
-const RECT_RULE: ReadonlyArray<readonly [number, number]> = [[-Math.sqrt(3 * 0.6), 5 / 18], [0, 8 / 18], [Math.sqrt(3 * 0.6), 5 / 18]];
-const NORMAL_RULE: ReadonlyArray<readonly [number, number]> = [[-Math.sqrt(3), 1 / 6], [0, 2 / 3], [Math.sqrt(3), 1 / 6]];
+const RECT_RULE: ReadonlyArray<readonly [number, number]> = [
+  [-Math.sqrt(3 * 0.6), 5 / 18],
+  [0, 8 / 18],
+  [Math.sqrt(3 * 0.6), 5 / 18],
+];
+const NORMAL_RULE: ReadonlyArray<readonly [number, number]> = [
+  [-Math.sqrt(3), 1 / 6],
+  [0, 2 / 3],
+  [Math.sqrt(3), 1 / 6],
+];
 
 /**
  * Exact variance (ppm²) of Δ_T = −B[(T_a − T0)² − (T_b − T0)²] + (the expected shifts, constants)
@@ -252,11 +279,13 @@ function exactVariance(
   const mid = (lo + hi) / 2;
   const uLab = (hi - lo) / (2 * Math.sqrt(3));
   type Axis = ReadonlyArray<readonly [number, number]>;
-  const axis = (m: number, u: number, rule: Axis): Axis => (u > 0 ? rule.map(([z, w]) => [m + z * u, w] as const) : [[m, 1] as const]);
+  const axis = (m: number, u: number, rule: Axis): Axis =>
+    u > 0 ? rule.map(([z, w]) => [m + z * u, w] as const) : [[m, 1] as const];
   const Bs = axis(fork.B, fork.uB, RECT_RULE);
   const T0s = axis(fork.T0, fork.uT0, RECT_RULE);
   const bias = axis(0, a.known || b.known ? th.uBias : 0, NORMAL_RULE);
-  const side = (s: { known: boolean; est: number }) => (s.known ? axis(s.est, th.uReading, NORMAL_RULE) : axis(mid, uLab, RECT_RULE));
+  const side = (s: { known: boolean; est: number }) =>
+    s.known ? axis(s.est, th.uReading, NORMAL_RULE) : axis(mid, uLab, RECT_RULE);
   const As = side(a);
   const Bsd = side(b);
   let m1 = 0;

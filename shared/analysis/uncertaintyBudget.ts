@@ -56,7 +56,12 @@ export interface UncertaintyBudgetInput {
    * ageing rate (fractional per day, with standard uncertainty) and the days from its
    * verification to this capture, the offset's ageing since verification becomes a line.
    */
-  reference?: { offset: number; u: number; dof?: number; ageing?: { perDay: number; uPerDay: number; days: number } };
+  reference?: {
+    offset: number;
+    u: number;
+    dof?: number;
+    ageing?: { perDay: number; uPerDay: number; days: number };
+  };
   /**
    * The drift found in the series: trendSd is the standard deviation of the fitted trend over the
    * capture (fractional), ratePerDay the rate (fractional per day), model the fit.
@@ -293,8 +298,12 @@ function typeA(input: UncertaintyBudgetInput, notes: string[]): BudgetComponent 
   }
   if (noise === 'ffm' || noise === 'rwfm') {
     if (adevHz === undefined) {
-      notes.push(`Noise is ${noise} but no ADEV at span was given: s/√n understates the uncertainty.`);
-      return semComponent('s/√n; understated for flicker or random-walk FM (no ADEV at span given).');
+      notes.push(
+        `Noise is ${noise} but no ADEV at span was given: s/√n understates the uncertainty.`,
+      );
+      return semComponent(
+        's/√n; understated for flicker or random-walk FM (no ADEV at span given).',
+      );
     }
     return adevComponent(`σ_y${span} × nominal: s/√n does not fall as 1/√n for ${noise}.`);
   }

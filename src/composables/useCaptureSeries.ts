@@ -63,7 +63,11 @@ function floorIndex(a: Float64Array, x: number): number {
  * The seq range covering times tMin…tMax in a window, widened by one point on each side so the
  * line runs to the chart's edges.
  */
-export function seqRangeFor(w: SeriesWindow, tMin: number, tMax: number): { from: number; to: number } | null {
+export function seqRangeFor(
+  w: SeriesWindow,
+  tMin: number,
+  tMax: number,
+): { from: number; to: number } | null {
   if (w.t.length === 0) return null;
   const a = Math.max(0, floorIndex(w.t, tMin) - 1);
   const b = Math.min(w.t.length - 1, floorIndex(w.t, tMax) + 2);
@@ -88,7 +92,10 @@ export function chartColumns(w: SeriesWindow, opts: { nominal: number | null; pp
   /** The seq of each x (−1 at a gap's null), for the hover readout. */
   const seqs: number[] = [];
   const flaggedT: number[] = [];
-  const scale = opts.ppm && opts.nominal ? (v: number) => ((v - opts.nominal!) / opts.nominal!) * 1e6 : (v: number) => v;
+  const scale =
+    opts.ppm && opts.nominal
+      ? (v: number) => ((v - opts.nominal!) / opts.nominal!) * 1e6
+      : (v: number) => v;
   let prevSeq = -1;
   let prevT = NaN;
   for (let i = 0; i < w.seq.length; i++) {
@@ -138,12 +145,17 @@ export function useCaptureSeries(captureId: () => number, readingCount: () => nu
     loading.value = true;
     error.value = null;
     try {
-      const page = await getReadings(captureId(), { maxPoints: maxPointsFor(readingCount()) }, { signal: controller!.signal });
+      const page = await getReadings(
+        captureId(),
+        { maxPoints: maxPointsFor(readingCount()) },
+        { signal: controller!.signal },
+      );
       if (mine !== generation) return;
       overview.value = toWindow(page.readings, page.decimated);
       current.value = overview.value;
     } catch (cause) {
-      if (mine === generation && !(cause instanceof DOMException && cause.name === 'AbortError')) error.value = cause;
+      if (mine === generation && !(cause instanceof DOMException && cause.name === 'AbortError'))
+        error.value = cause;
     } finally {
       if (mine === generation) loading.value = false;
     }
@@ -179,7 +191,8 @@ export function useCaptureSeries(captureId: () => number, readingCount: () => nu
       );
       if (mine === generation) current.value = toWindow(page.readings, page.decimated);
     } catch (cause) {
-      if (mine === generation && !(cause instanceof DOMException && cause.name === 'AbortError')) error.value = cause;
+      if (mine === generation && !(cause instanceof DOMException && cause.name === 'AbortError'))
+        error.value = cause;
     } finally {
       if (mine === generation) refining.value = false;
     }

@@ -18,7 +18,11 @@ export function useEquipmentActions(options: {
 }) {
   const busy = ref(false);
 
-  async function run(action: () => Promise<unknown>, success: string, failure: string): Promise<void> {
+  async function run(
+    action: () => Promise<unknown>,
+    success: string,
+    failure: string,
+  ): Promise<void> {
     busy.value = true;
     try {
       await action();
@@ -42,7 +46,11 @@ export function useEquipmentActions(options: {
     } catch {
       return;
     }
-    await run(options.calls.away, `“${name}” is away for calibration`, 'It could not be marked as away.');
+    await run(
+      options.calls.away,
+      `“${name}” is away for calibration`,
+      'It could not be marked as away.',
+    );
   }
 
   async function retire(): Promise<void> {
@@ -57,7 +65,8 @@ export function useEquipmentActions(options: {
           cancelButtonText: 'Cancel',
           type: 'warning',
           inputPlaceholder: 'e.g. timebase failed; replaced by C-4',
-          inputValidator: (v: string) => (v && v.trim().length > 0 ? true : 'Give the reason it leaves service'),
+          inputValidator: (v: string) =>
+            v && v.trim().length > 0 ? true : 'Give the reason it leaves service',
           confirmButtonClass: 'el-button--danger',
         },
       );
@@ -71,14 +80,22 @@ export function useEquipmentActions(options: {
   async function reinstate(): Promise<void> {
     const name = options.what();
     try {
-      await ElMessageBox.confirm(`Return “${name}” to service without recording a new calibration?`, 'Return to service', {
-        confirmButtonText: 'Return to service',
-        cancelButtonText: 'Cancel',
-      });
+      await ElMessageBox.confirm(
+        `Return “${name}” to service without recording a new calibration?`,
+        'Return to service',
+        {
+          confirmButtonText: 'Return to service',
+          cancelButtonText: 'Cancel',
+        },
+      );
     } catch {
       return;
     }
-    await run(options.calls.reinstate, `“${name}” is back in service`, 'It could not be returned to service.');
+    await run(
+      options.calls.reinstate,
+      `“${name}” is back in service`,
+      'It could not be returned to service.',
+    );
   }
 
   return { busy, sendAway, retire, reinstate };

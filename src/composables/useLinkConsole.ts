@@ -209,7 +209,11 @@ export function useLinkConsole() {
       return r.ok || r.kind === 'overrange';
     };
     try {
-      for await (const r of session.client.poll(p.queryCommand, { intervalMs: p.intervalMs, signal: pollAbort.signal, accept })) {
+      for await (const r of session.client.poll(p.queryCommand, {
+        intervalMs: p.intervalMs,
+        signal: pollAbort.signal,
+        accept,
+      })) {
         if (r.frame) {
           const parsed = parseLine(r.frame, p);
           addReading(parsed.ok ? parsed.value : NaN, parsed.flags, r.frame.text);
@@ -241,14 +245,25 @@ export function useLinkConsole() {
     const sentAt = performance.now();
     const entry: ConsoleExchange = { id: ++exchangeId, command, reply: null, ms: 0 };
     try {
-      if (listenOnly.value) throw new Error('your role reads links but sends nothing to an instrument');
+      if (listenOnly.value)
+        throw new Error('your role reads links but sends nothing to an instrument');
       if (!session) throw new Error('connect a link first');
-      if (profile.value?.mode === 'talk' || !expectsReply(command)) await session.client.send(command);
+      if (profile.value?.mode === 'talk' || !expectsReply(command))
+        await session.client.send(command);
       else entry.reply = await session.client.query(command, { accept: () => true, retries: 0 });
       // The profile's own poll sent by hand is a reading like any polled one.
       const p = profile.value;
-      if (entry.reply !== null && p && p.parseRule !== 'hex-spi' && p.queryCommand.trim() && command.trim().toUpperCase() === p.queryCommand.trim().toUpperCase()) {
-        const parsed = parseLine({ text: entry.reply, bytes: new TextEncoder().encode(entry.reply), flags: 0 }, p);
+      if (
+        entry.reply !== null &&
+        p &&
+        p.parseRule !== 'hex-spi' &&
+        p.queryCommand.trim() &&
+        command.trim().toUpperCase() === p.queryCommand.trim().toUpperCase()
+      ) {
+        const parsed = parseLine(
+          { text: entry.reply, bytes: new TextEncoder().encode(entry.reply), flags: 0 },
+          p,
+        );
         addReading(parsed.ok ? parsed.value : NaN, parsed.flags, entry.reply);
       }
     } catch (err) {

@@ -9,9 +9,21 @@
  * src/utils/benchPlanning.ts (both re-exported here for older imports).
  */
 import { onBeforeUnmount, reactive } from 'vue';
-import { createCapture, finishCapture, postReadings, refusedReadingIndex, type Capture } from '../api/captures';
+import {
+  createCapture,
+  finishCapture,
+  postReadings,
+  refusedReadingIndex,
+  type Capture,
+} from '../api/captures';
 import { ReadingUploader, type PendingStore, type UploaderState } from '../api/uploader';
-import { defaultPendingStore, isPermanentRefusal, readingsText, resumeBacklog, type ResumeOutcome } from '../api/backlog';
+import {
+  defaultPendingStore,
+  isPermanentRefusal,
+  readingsText,
+  resumeBacklog,
+  type ResumeOutcome,
+} from '../api/backlog';
 import { readLink } from '../links/linkReader';
 import { serialOptions, type SerialLink } from '../links/SerialLink';
 import type { CaptureCreate, ReadingIn } from '../../shared/protocol/captures';
@@ -71,7 +83,17 @@ export interface LiveCaptureState {
   drainFrom: number;
 }
 
-const EMPTY_UPLOAD: UploaderState = { pending: 0, sent: 0, duplicates: 0, failures: 0, offline: false, storeErrors: 0, held: 0, refused: 0, lost: 0 };
+const EMPTY_UPLOAD: UploaderState = {
+  pending: 0,
+  sent: 0,
+  duplicates: 0,
+  failures: 0,
+  offline: false,
+  storeErrors: 0,
+  held: 0,
+  refused: 0,
+  lost: 0,
+};
 
 /** The state before any reading: on creation (idle) and again when a capture starts (connecting). */
 function freshState(phase: CapturePhase): LiveCaptureState {
@@ -167,7 +189,9 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
         const t = tBase + (plan.pacedGate ? lines * plan.pacedGate : r.t);
         const seq = seqBase + r.seq;
         opts.series.push(t, r.value, 0);
-        buffer.push(r.flags ? { seq, t, value: r.value, flags: r.flags } : { seq, t, value: r.value });
+        buffer.push(
+          r.flags ? { seq, t, value: r.value, flags: r.flags } : { seq, t, value: r.value },
+        );
         state.taken = seq + 1;
         state.elapsed = t;
         if (reached(plan)) {
@@ -182,7 +206,8 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
 
   /** Opens the capture and the link, then reads until stopped, the target is reached or the link drops. */
   async function start(plan: CapturePlan): Promise<void> {
-    if (state.phase === 'connecting' || state.phase === 'capturing' || state.phase === 'finishing') return;
+    if (state.phase === 'connecting' || state.phase === 'capturing' || state.phase === 'finishing')
+      return;
     Object.assign(state, freshState('connecting'));
     opts.series.clear();
     stopping = null;
@@ -286,7 +311,8 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
 
   /** Back to the setup form after a finished or failed capture. */
   function reset(): void {
-    if (state.phase === 'capturing' || state.phase === 'connecting' || state.phase === 'finishing') return;
+    if (state.phase === 'capturing' || state.phase === 'connecting' || state.phase === 'finishing')
+      return;
     state.phase = 'idle';
     state.capture = null;
     state.error = null;
@@ -324,4 +350,3 @@ export function useLiveCapture(opts: LiveCaptureOptions): LiveCapture {
   onBeforeUnmount(c.dispose);
   return c;
 }
-

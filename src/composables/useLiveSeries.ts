@@ -108,10 +108,22 @@ export interface WindowView {
  * The readings in a window of `span` seconds ending at `end` (the newest reading when omitted),
  * min/max-decimated to about `pixels` buckets when there are more readings than pixels.
  */
-export function windowView(ring: RingSeries, span: number, pixels: number, end?: number): WindowView {
+export function windowView(
+  ring: RingSeries,
+  span: number,
+  pixels: number,
+  end?: number,
+): WindowView {
   const stop = end ?? ring.lastT;
   if (!ring.length || !Number.isFinite(stop)) {
-    return { t: new Float64Array(0), v: new Float64Array(0), count: 0, decimated: false, start: 0, end: 0 };
+    return {
+      t: new Float64Array(0),
+      v: new Float64Array(0),
+      count: 0,
+      decimated: false,
+      start: 0,
+      end: 0,
+    };
   }
   const start = Number.isFinite(span) ? stop - span : -Infinity;
   const from = ring.lowerBound(start);
@@ -219,13 +231,23 @@ export function createLiveSeries(opts: LiveSeriesOptions): LiveSeries {
   let raf: number | null = null;
   const every = opts.statsEveryMs ?? 1000;
 
-  const schedule = typeof requestAnimationFrame === 'function' ? requestAnimationFrame : (cb: () => void) => setTimeout(cb, 16) as unknown as number;
-  const cancel = typeof cancelAnimationFrame === 'function' ? cancelAnimationFrame : (id: number) => clearTimeout(id);
+  const schedule =
+    typeof requestAnimationFrame === 'function'
+      ? requestAnimationFrame
+      : (cb: () => void) => setTimeout(cb, 16) as unknown as number;
+  const cancel =
+    typeof cancelAnimationFrame === 'function'
+      ? cancelAnimationFrame
+      : (id: number) => clearTimeout(id);
 
   function refreshStats() {
     statsDirty = false;
     try {
-      stats.value = computeLiveStats(ring, { nominal: opts.nominal(), tau0: opts.tau0(), frequency: opts.frequency() });
+      stats.value = computeLiveStats(ring, {
+        nominal: opts.nominal(),
+        tau0: opts.tau0(),
+        frequency: opts.frequency(),
+      });
     } catch {
       // a series the analysis refuses (e.g. non-finite values): keep the last figures
     }
@@ -243,7 +265,8 @@ export function createLiveSeries(opts: LiveSeriesOptions): LiveSeries {
           // The full statistics follow once a second; the counts never lag the footer.
           const s = stats.value;
           if (!s && ring.length) refreshStats();
-          else if (s && (s.n !== ring.count || s.flagged !== ring.flagged)) stats.value = { ...s, n: ring.count, flagged: ring.flagged };
+          else if (s && (s.n !== ring.count || s.flagged !== ring.flagged))
+            stats.value = { ...s, n: ring.count, flagged: ring.flagged };
         }
       });
     }

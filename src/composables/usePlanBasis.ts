@@ -50,21 +50,49 @@ export function usePlanBasis(dut: Ref<CaptureDutRef | null>, studyId: Ref<number
       const matrix = await getStudyMatrix(sid);
       const first = inOrder(matrix.checkpoints)[0];
       const row = matrix.rows.find((r) => r.dut.id === d.id);
-      const baselineId = first ? (row?.cells.find((c) => c.checkpointId === first.id)?.capture?.id ?? null) : null;
+      const baselineId = first
+        ? (row?.cells.find((c) => c.checkpointId === first.id)?.capture?.id ?? null)
+        : null;
       let next: PlanBasis;
       const analysis = baselineId ? await getAnalysis(baselineId) : null;
       const points = analysis?.stability.points ?? [];
       if (analysis && analysis.stats && points.length >= 2) {
         const model = fitNoiseModel(points.map((p) => ({ tau: p.tau, dev: p.dev, edf: p.edf })));
         const b = analysis.uncertainty;
-        const fixed = b ? Math.sqrt(b.components.filter((c) => c.type === 'B').reduce((s, c) => s + c.contribution ** 2, 0)) : 0;
+        const fixed = b
+          ? Math.sqrt(
+              b.components
+                .filter((c) => c.type === 'B')
+                .reduce((s, c) => s + c.contribution ** 2, 0),
+            )
+          : 0;
         const u = b?.combined ?? analysis.stats.sem;
-        next = { model, baselineId, baselineMean: analysis.stats.mean, baselineU: u * scale, fixedU: fixed * scale, limit, scale, frequency, baselineCheckpointId: first?.id ?? null };
+        next = {
+          model,
+          baselineId,
+          baselineMean: analysis.stats.mean,
+          baselineU: u * scale,
+          fixedU: fixed * scale,
+          limit,
+          scale,
+          frequency,
+          baselineCheckpointId: first?.id ?? null,
+        };
       } else {
         // Typical curves are fractional for frequency parts and in g for accelerometers.
         const typical = typicalModel(d.kind);
         const f = frequency ? 1 : (unitFactor('g') ?? 1) / (unitFactor(d.unit) ?? 1);
-        next = { model: { ...typical, a: typical.a * f * f, floor: typical.floor * f }, baselineId: null, baselineMean: null, baselineU: null, fixedU: 0, limit, scale, frequency, baselineCheckpointId: first?.id ?? null };
+        next = {
+          model: { ...typical, a: typical.a * f * f, floor: typical.floor * f },
+          baselineId: null,
+          baselineMean: null,
+          baselineU: null,
+          fixedU: 0,
+          limit,
+          scale,
+          frequency,
+          baselineCheckpointId: first?.id ?? null,
+        };
       }
       if (mine === generation) basis.value = next;
     } catch (err) {
@@ -74,6 +102,10 @@ export function usePlanBasis(dut: Ref<CaptureDutRef | null>, studyId: Ref<number
     }
   }
 
-  watch(() => [dut.value?.id, studyId.value], () => void load(), { immediate: true });
+  watch(
+    () => [dut.value?.id, studyId.value],
+    () => void load(),
+    { immediate: true },
+  );
   return { basis, loading, error, reload: load };
 }

@@ -31,7 +31,9 @@ export class ReplayClock {
 
   /** The play head, s of capture time, within [origin, duration]. */
   position(): number {
-    const p = this.playing ? this.base + ((this.now() - this.since) / 1000) * this.speed : this.base;
+    const p = this.playing
+      ? this.base + ((this.now() - this.since) / 1000) * this.speed
+      : this.base;
     return Math.min(Math.max(p, this.origin), this.duration);
   }
 
@@ -101,7 +103,12 @@ export interface ReplayState {
 
 function toPage(rows: ReadingOut[]): Page {
   const n = rows.length;
-  const p: Page = { seq: new Int32Array(n), t: new Float64Array(n), v: new Float64Array(n), flags: new Uint16Array(n) };
+  const p: Page = {
+    seq: new Int32Array(n),
+    t: new Float64Array(n),
+    v: new Float64Array(n),
+    flags: new Uint16Array(n),
+  };
   for (let i = 0; i < n; i++) {
     p.seq[i] = rows[i].seq;
     p.t[i] = rows[i].t;
@@ -157,7 +164,8 @@ export function createReplay(opts: ReplayOptions) {
 
   function prefetch() {
     for (let p = cursor.page; p <= Math.min(lastPage, cursor.page + 2); p++) {
-      if (!pages.has(p)) load(p).catch((err) => (state.error = String(err instanceof Error ? err.message : err)));
+      if (!pages.has(p))
+        load(p).catch((err) => (state.error = String(err instanceof Error ? err.message : err)));
     }
   }
 
@@ -271,7 +279,8 @@ export function createReplay(opts: ReplayOptions) {
     // Readings before the refilled pages still count as replayed (seqs run on without holes).
     const first = pages.get(startPage);
     const origin = pages.get(0);
-    if (first?.seq.length && origin?.seq.length) opts.series.ring.offset = first.seq[0] - origin.seq[0];
+    if (first?.seq.length && origin?.seq.length)
+      opts.series.ring.offset = first.seq[0] - origin.seq[0];
     feed(target);
     opts.series.refreshStats();
     state.position = target;

@@ -29,7 +29,11 @@ export function isCompactChart(width: number): boolean {
  * resize crosses the compact width the chart is rebuilt, so `build` can drop an axis on phones.
  * Streaming callers keep their buffers in typed arrays and call `setData` themselves.
  */
-export function useUplot(el: Ref<HTMLElement | null>, build: (width: number) => uPlot.Options, initial: uPlot.AlignedData) {
+export function useUplot(
+  el: Ref<HTMLElement | null>,
+  build: (width: number) => uPlot.Options,
+  initial: uPlot.AlignedData,
+) {
   const chart = shallowRef<uPlot | null>(null);
   let observer: ResizeObserver | null = null;
   let data = initial;

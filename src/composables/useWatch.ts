@@ -25,7 +25,11 @@ export interface WatchState {
 export const WATCH_HISTORY = 100_000;
 const PAGE = 20_000;
 
-export function createWatch(opts: { id: number; series: LiveSeries; getToken: () => string | null }) {
+export function createWatch(opts: {
+  id: number;
+  series: LiveSeries;
+  getToken: () => string | null;
+}) {
   const state = reactive<WatchState>({
     captureState: 'open',
     socket: 'connecting',

@@ -33,7 +33,10 @@ export const MIN_STALL_S = 15;
  * {@link MIN_STALL_S}.
  */
 export function stallAfterS(tau0: number, captureSecondsPerWallSecond: number | null): number {
-  const interval = captureSecondsPerWallSecond && captureSecondsPerWallSecond > 0 ? tau0 / captureSecondsPerWallSecond : tau0;
+  const interval =
+    captureSecondsPerWallSecond && captureSecondsPerWallSecond > 0
+      ? tau0 / captureSecondsPerWallSecond
+      : tau0;
   return Math.max(MIN_STALL_S, 5 * interval);
 }
 
@@ -41,12 +44,19 @@ export function stallAfterS(tau0: number, captureSecondsPerWallSecond: number | 
  * Progress from the oldest and newest arrivals of a recent window (`first`, `last`), at wall
  * time `now` (ms). The pace is taken from the window, so a simulator at 100× or a pause shows.
  */
-export function watchProgress(target: WatchTarget | null, first: Arrival | null, last: Arrival | null, now: number, tau0: number): WatchProgress {
+export function watchProgress(
+  target: WatchTarget | null,
+  first: Arrival | null,
+  last: Arrival | null,
+  now: number,
+  tau0: number,
+): WatchProgress {
   if (!last) return { fraction: target ? 0 : null, leftS: null, stalled: false, quietS: 0 };
   const quietS = Math.max(0, (now - last.wall) / 1000);
   const span = first ? (last.wall - first.wall) / 1000 : 0;
   const tRate = first && span > 0 && last.t > first.t ? (last.t - first.t) / span : null;
-  const nRate = first && span > 0 && last.count > first.count ? (last.count - first.count) / span : null;
+  const nRate =
+    first && span > 0 && last.count > first.count ? (last.count - first.count) / span : null;
   const stalled = quietS > stallAfterS(tau0, tRate);
   if (!target) return { fraction: null, leftS: null, stalled, quietS };
   if (target.kind === 'duration') {

@@ -45,5 +45,11 @@ export function serialOptions(s: {
   stopBits: 1 | 2;
   flowControl: 'none' | 'hardware';
 }): SerialOpenOptions {
-  return { baudRate: s.baudRate, dataBits: s.dataBits, parity: s.parity, stopBits: s.stopBits, flowControl: s.flowControl };
+  return {
+    baudRate: s.baudRate,
+    dataBits: s.dataBits,
+    parity: s.parity,
+    stopBits: s.stopBits,
+    flowControl: s.flowControl,
+  };
 }

@@ -16,7 +16,13 @@ export interface RawLine {
   partial: boolean;
 }
 
-const CONTROL_GLYPHS: Record<number, string> = { 0x0d: '\u240D', 0x0a: '\u240A', 0x09: '\u2409', 0x00: '\u2400', 0x1b: '\u241B' };
+const CONTROL_GLYPHS: Record<number, string> = {
+  0x0d: '\u240D',
+  0x0a: '\u240A',
+  0x09: '\u2409',
+  0x00: '\u2400',
+  0x1b: '\u241B',
+};
 
 /**
  * Bytes as the raw view shows them: `2B 31 0D 0A` and `+1␍␊`. CR, LF, TAB, NUL and ESC become
@@ -110,11 +116,16 @@ export function decodeValueField(
 }
 
 /** Hex bytes typed by a person: `A0 00`, `a0,00`, `0xA0 0x00` → bytes, or a message. */
-export function parseHexInput(text: string): { ok: true; bytes: Uint8Array } | { ok: false; message: string } {
+export function parseHexInput(
+  text: string,
+): { ok: true; bytes: Uint8Array } | { ok: false; message: string } {
   const cleaned = text.replace(/0x/gi, ' ');
   const d = decodeHexLine(cleaned);
   if (d.ok) return d;
-  return { ok: false, message: d.reason === 'empty' ? 'enter at least one byte, e.g. 03 00 00' : d.message };
+  return {
+    ok: false,
+    message: d.reason === 'empty' ? 'enter at least one byte, e.g. 03 00 00' : d.message,
+  };
 }
 
 /**
@@ -132,7 +143,9 @@ export function formatReadingValue(value: number, decimals?: number, significant
 }
 
 /** Decimals that show a profile's resolution: a hex-spi scale's own (0.0625 → 4); else none fixed. */
-export function readingDecimals(profile: Pick<LinkProfile, 'parseRule' | 'hexSpi'>): number | undefined {
+export function readingDecimals(
+  profile: Pick<LinkProfile, 'parseRule' | 'hexSpi'>,
+): number | undefined {
   if (profile.parseRule !== 'hex-spi' || !profile.hexSpi) return undefined;
   const text = String(profile.hexSpi.scale);
   const dot = text.indexOf('.');
@@ -158,9 +171,20 @@ export interface LinkSourceConfig {
 }
 
 /** The simulator hub path and query parameters for a link-page setting. */
-export function simulatorTarget(c: LinkSourceConfig): { path: '/sim/counter' | '/sim/spi-bridge'; params: Record<string, string> } {
+export function simulatorTarget(c: LinkSourceConfig): {
+  path: '/sim/counter' | '/sim/spi-bridge';
+  params: Record<string, string>;
+} {
   if (c.device === 'spi-bridge') {
-    return { path: '/sim/spi-bridge', params: { preset: 'accel', checkpoint: String(c.checkpoint), orientation: c.orientation, accel: String(c.accel) } };
+    return {
+      path: '/sim/spi-bridge',
+      params: {
+        preset: 'accel',
+        checkpoint: String(c.checkpoint),
+        orientation: c.orientation,
+        accel: String(c.accel),
+      },
+    };
   }
   return {
     path: '/sim/counter',
@@ -177,5 +201,9 @@ export function simulatorTarget(c: LinkSourceConfig): { path: '/sim/counter' | '
 
 /** The link preset that fits a simulated device. */
 export function presetForDevice(device: SimDevice): 'talk-counter' | 'scpi-counter' | 'spi-bridge' {
-  return device === 'counter-talk' ? 'talk-counter' : device === 'counter-query' ? 'scpi-counter' : 'spi-bridge';
+  return device === 'counter-talk'
+    ? 'talk-counter'
+    : device === 'counter-query'
+      ? 'scpi-counter'
+      : 'spi-bridge';
 }

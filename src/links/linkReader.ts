@@ -49,7 +49,12 @@ export function parseLine(frame: Frame, profile: LinkProfile): LineParse {
   if (frame.flags & FrameFlag.partial) flags |= ReadingFlag.partial;
   if (frame.flags & FrameFlag.garbage) flags |= ReadingFlag.garbled;
   if (flags !== 0) {
-    return { ok: false, kind: 'garbled', flags: flags | ReadingFlag.garbled, message: 'damaged line' };
+    return {
+      ok: false,
+      kind: 'garbled',
+      flags: flags | ReadingFlag.garbled,
+      message: 'damaged line',
+    };
   }
   if (profile.parseRule === 'hex-spi') {
     const d = decodeHexLine(frame.text);
@@ -59,7 +64,12 @@ export function parseLine(frame: Frame, profile: LinkProfile): LineParse {
     }
     const f = profile.hexSpi!;
     if (f.offset + 1 >= d.bytes.length) {
-      return { ok: false, kind: 'garbled', flags: ReadingFlag.garbled, message: 'reply shorter than the value field' };
+      return {
+        ok: false,
+        kind: 'garbled',
+        flags: ReadingFlag.garbled,
+        message: 'reply shorter than the value field',
+      };
     }
     return { ok: true, value: readInt16(d.bytes, f.offset, f.bigEndian) * f.scale, flags: 0 };
   }
@@ -71,13 +81,19 @@ export function parseLine(frame: Frame, profile: LinkProfile): LineParse {
     converted = true;
   }
   if (!r.ok) {
-    if (r.reason === 'overrange') return { ok: false, kind: 'overrange', flags: ReadingFlag.overrange, message: r.message };
+    if (r.reason === 'overrange')
+      return { ok: false, kind: 'overrange', flags: ReadingFlag.overrange, message: r.message };
     return { ok: false, kind: 'garbled', flags: ReadingFlag.garbled, message: r.message };
   }
   try {
     return { ok: true, value: converted ? fromBaseUnit(r.value, profile.unit) : r.value, flags: 0 };
   } catch {
-    return { ok: false, kind: 'garbled', flags: ReadingFlag.garbled, message: `cannot express in ${profile.unit}` };
+    return {
+      ok: false,
+      kind: 'garbled',
+      flags: ReadingFlag.garbled,
+      message: `cannot express in ${profile.unit}`,
+    };
   }
 }
 
@@ -134,13 +150,20 @@ export function openScpi(link: SerialLink, profile: LinkProfile, onLine?: (text:
   const io = openLines(link, profile.terminator, onLine);
   const client = createScpiClient(
     { write: io.write, lines: io.lines },
-    { writeTerminator: TERMINATOR_TEXT[profile.writeTerminator], timeoutMs: profile.timeoutMs, retries: profile.retries },
+    {
+      writeTerminator: TERMINATOR_TEXT[profile.writeTerminator],
+      timeoutMs: profile.timeoutMs,
+      retries: profile.retries,
+    },
   );
   return { client, lines: io.lines, release: io.release };
 }
 
 /** Reads the link until aborted or closed, yielding readings (see the module comment). */
-export async function* readLink(link: SerialLink, options: LinkReaderOptions): AsyncGenerator<LinkReading> {
+export async function* readLink(
+  link: SerialLink,
+  options: LinkReaderOptions,
+): AsyncGenerator<LinkReading> {
   const { profile, signal } = options;
   const now = options.now ?? (() => performance.now());
   const start = now();
@@ -163,10 +186,12 @@ export async function* readLink(link: SerialLink, options: LinkReaderOptions): A
           continue;
         }
         const p = parseLine(frame, profile);
-        if (p.ok) yield { seq: seq++, t: elapsed(), value: p.value, flags: p.flags, raw: frame.text };
+        if (p.ok)
+          yield { seq: seq++, t: elapsed(), value: p.value, flags: p.flags, raw: frame.text };
         else {
           issue(p.kind, frame.text, p.message);
-          if (options.keepInvalid) yield { seq: seq++, t: elapsed(), value: NaN, flags: p.flags, raw: frame.text };
+          if (options.keepInvalid)
+            yield { seq: seq++, t: elapsed(), value: NaN, flags: p.flags, raw: frame.text };
         }
       }
       return;
@@ -181,15 +206,22 @@ export async function* readLink(link: SerialLink, options: LinkReaderOptions): A
       const p = parseLine(f, profile);
       return p.ok || p.kind === 'overrange';
     };
-    for await (const r of client.poll(profile.queryCommand, { intervalMs: profile.intervalMs, signal, accept, now })) {
+    for await (const r of client.poll(profile.queryCommand, {
+      intervalMs: profile.intervalMs,
+      signal,
+      accept,
+      now,
+    })) {
       const discarded = r.discarded;
       if (r.frame) {
         for (const raw of discarded) issue('garbled', raw, 'discarded before a good reply');
         const p = parseLine(r.frame, profile);
-        if (p.ok) yield { seq: seq++, t: elapsed(), value: p.value, flags: p.flags, raw: r.frame.text };
+        if (p.ok)
+          yield { seq: seq++, t: elapsed(), value: p.value, flags: p.flags, raw: r.frame.text };
         else {
           issue(p.kind, r.frame.text, p.message);
-          if (options.keepInvalid) yield { seq: seq++, t: elapsed(), value: NaN, flags: p.flags, raw: r.frame.text };
+          if (options.keepInvalid)
+            yield { seq: seq++, t: elapsed(), value: NaN, flags: p.flags, raw: r.frame.text };
         }
       } else {
         for (const raw of discarded) issue('garbled', raw, 'unusable reply');

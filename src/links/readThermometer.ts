@@ -24,7 +24,10 @@ export async function readThermometer(link: SerialLink, timeoutMs = 5000): Promi
   try {
     await writer.write(new TextEncoder().encode('MEAS:TEMP?\r\n'));
     const timeout = new Promise<never>((_, reject) => {
-      timer = setTimeout(() => reject(new Error('The thermometer did not answer within 5 s.')), timeoutMs);
+      timer = setTimeout(
+        () => reject(new Error('The thermometer did not answer within 5 s.')),
+        timeoutMs,
+      );
     });
     for (;;) {
       const { value, done } = await Promise.race([reader.read(), timeout]);

@@ -27,7 +27,10 @@ export interface WebSocketLike {
   onerror: ((ev: unknown) => void) | null;
 }
 
-export type WebSocketConstructorLike = new (url: string, protocols?: string | string[]) => WebSocketLike;
+export type WebSocketConstructorLike = new (
+  url: string,
+  protocols?: string | string[],
+) => WebSocketLike;
 
 export interface SimulatorLinkOptions {
   /** `/sim/counter` or `/sim/spi-bridge`; ignored when `url` is given. */
@@ -41,7 +44,11 @@ export interface SimulatorLinkOptions {
 }
 
 /** `ws(s)://<this page's host><path>?<params>` — the hub mounted on the app's own server. */
-export function simulatorUrl(path: string, params: Record<string, string | number> = {}, origin?: string): string {
+export function simulatorUrl(
+  path: string,
+  params: Record<string, string | number> = {},
+  origin?: string,
+): string {
   const base = origin ?? (globalThis as { location?: { origin: string } }).location?.origin;
   if (!base) throw new Error('no page origin: pass a full simulator URL');
   const u = new URL(path, base);
@@ -66,7 +73,8 @@ const OPEN = 1;
 export function createSimulatorLink(options: SimulatorLinkOptions): SerialLink {
   const url = options.url ?? simulatorUrl(options.path ?? '/sim/counter', options.params);
   const Ctor =
-    options.WebSocket ?? ((globalThis as { WebSocket?: unknown }).WebSocket as WebSocketConstructorLike | undefined);
+    options.WebSocket ??
+    ((globalThis as { WebSocket?: unknown }).WebSocket as WebSocketConstructorLike | undefined);
   let ws: WebSocketLike | null = null;
   let readable: ReadableStream<Uint8Array> | null = null;
   let writable: WritableStream<Uint8Array> | null = null;
@@ -83,11 +91,15 @@ export function createSimulatorLink(options: SimulatorLinkOptions): SerialLink {
       return writable;
     },
     open(_options: SerialOpenOptions) {
-      if (!Ctor) return Promise.reject(new SimulatorLinkError('no WebSocket implementation available'));
+      if (!Ctor)
+        return Promise.reject(new SimulatorLinkError('no WebSocket implementation available'));
       if (ws) return Promise.reject(new SimulatorLinkError('link is already open'));
       closing = false;
       return new Promise<void>((resolve, reject) => {
-        const sock = new Ctor(url, socketProtocols(options.token !== undefined ? options.token : tokenSource()));
+        const sock = new Ctor(
+          url,
+          socketProtocols(options.token !== undefined ? options.token : tokenSource()),
+        );
         ws = sock;
         sock.binaryType = 'arraybuffer';
         let opened = false;
@@ -103,7 +115,8 @@ export function createSimulatorLink(options: SimulatorLinkOptions): SerialLink {
           });
           writable = new WritableStream<Uint8Array>({
             write(chunk) {
-              if (sock.readyState !== OPEN) throw new SimulatorLinkError('simulator link is closed');
+              if (sock.readyState !== OPEN)
+                throw new SimulatorLinkError('simulator link is closed');
               sock.send(chunk);
             },
           });

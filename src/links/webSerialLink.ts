@@ -16,7 +16,9 @@ export interface WebSerialPortLike {
 
 /** The part of `navigator.serial` this module uses. */
 export interface WebSerialLike {
-  requestPort(options?: { filters?: { usbVendorId?: number; usbProductId?: number }[] }): Promise<WebSerialPortLike>;
+  requestPort(options?: {
+    filters?: { usbVendorId?: number; usbProductId?: number }[];
+  }): Promise<WebSerialPortLike>;
   getPorts(): Promise<WebSerialPortLike[]>;
   addEventListener(type: 'disconnect', listener: (ev: { target: unknown }) => void): void;
   removeEventListener(type: 'disconnect', listener: (ev: { target: unknown }) => void): void;
@@ -33,7 +35,10 @@ export function serialSupported(): boolean {
 }
 
 /** Wraps a Web Serial port as a {@link SerialLink}. */
-export function wrapSerialPort(port: WebSerialPortLike, serial: WebSerialLike | null = navigatorSerial()): SerialLink {
+export function wrapSerialPort(
+  port: WebSerialPortLike,
+  serial: WebSerialLike | null = navigatorSerial(),
+): SerialLink {
   let opened = false;
   const onDisconnect = (ev: { target: unknown }) => {
     if (ev.target !== port) return;

@@ -123,7 +123,10 @@ export const routes: RouteRecordRaw[] = [
     path: '/captures/:id(\\d+)/live',
     name: 'capture-live',
     component: () => import('../views/CaptureLiveView.vue'),
-    props: (route) => ({ id: Number(route.params.id), mode: route.query.mode === 'replay' ? 'replay' : 'watch' }),
+    props: (route) => ({
+      id: Number(route.params.id),
+      mode: route.query.mode === 'replay' ? 'replay' : 'watch',
+    }),
     meta: { title: 'Live view' },
   },
   {
@@ -179,8 +182,13 @@ export function createAppRouter(history: RouterHistory = createWebHistory()): Ro
     const next = to.fullPath === '/' ? undefined : to.fullPath;
     if (!session.token) return { name: 'sign-in', query: { next } };
     const ended = await session.restore();
-    if (ended) return { name: 'sign-in', query: { next, reason: ended === 'signed-out' ? undefined : ended } };
-    if (session.mustChangePassword && to.name !== 'change-password') return { name: 'change-password', query: { next } };
+    if (ended)
+      return {
+        name: 'sign-in',
+        query: { next, reason: ended === 'signed-out' ? undefined : ended },
+      };
+    if (session.mustChangePassword && to.name !== 'change-password')
+      return { name: 'change-password', query: { next } };
     if (!session.mustChangePassword && to.name === 'change-password') return { name: 'dashboard' };
     if (to.meta.permission && !session.can(to.meta.permission)) return { name: 'forbidden' };
     return true;

@@ -1,6 +1,17 @@
 import type { Component } from 'vue';
 import type { RouteLocationNamedRaw, Router } from 'vue-router';
-import { Collection, Connection, Cpu, DataLine, Message, Notebook, QuestionFilled, TrendCharts, User, VideoPlay } from '@element-plus/icons-vue';
+import {
+  Collection,
+  Connection,
+  Cpu,
+  DataLine,
+  Message,
+  Notebook,
+  QuestionFilled,
+  TrendCharts,
+  User,
+  VideoPlay,
+} from '@element-plus/icons-vue';
 import type { Role } from '../api/auth';
 import { roleCan } from '../../shared/protocol/roles';
 

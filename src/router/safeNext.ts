@@ -3,5 +3,7 @@
  * the router lazy-loads (sign-in, change password) never import the router back.
  */
 export function safeNext(value: unknown): string {
-  return typeof value === 'string' && value.startsWith('/') && !value.startsWith('//') ? value : '/';
+  return typeof value === 'string' && value.startsWith('/') && !value.startsWith('//')
+    ? value
+    : '/';
 }

@@ -94,7 +94,11 @@ export const useBenchStore = defineStore('bench', () => {
     try {
       localStorage.setItem(
         BENCH_KEY,
-        JSON.stringify({ choices: choices.value, site: site.value, accelSamples: accelSamples.value } satisfies Stored),
+        JSON.stringify({
+          choices: choices.value,
+          site: site.value,
+          accelSamples: accelSamples.value,
+        } satisfies Stored),
       );
     } catch {
       // private mode or full storage: choices last for this tab

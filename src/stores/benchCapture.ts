@@ -48,7 +48,10 @@ function errorText(err: unknown): string {
 
 function linkFor(req: BenchStart): Promise<SerialLink> | SerialLink {
   if (req.linkKind === 'serial') return requestSerialLink();
-  return createSimulatorLink({ path: req.profile.simulator!.path, params: req.profile.simulator!.params });
+  return createSimulatorLink({
+    path: req.profile.simulator!.path,
+    params: req.profile.simulator!.params,
+  });
 }
 
 /**
@@ -70,15 +73,20 @@ export const useBenchCaptureStore = defineStore('benchCapture', () => {
 
   const pending = defaultPendingStore();
   // Kept raw: the ring buffer and the engine must not become deep reactive proxies of the store.
-  const series = markRaw(createLiveSeries({
-    nominal: () => request.value?.create.nominal ?? null,
-    tau0: () => request.value?.create.gateTime ?? 1,
-    frequency: () => request.value?.create.quantity === 'frequency',
-  }));
+  const series = markRaw(
+    createLiveSeries({
+      nominal: () => request.value?.create.nominal ?? null,
+      tau0: () => request.value?.create.gateTime ?? 1,
+      frequency: () => request.value?.create.quantity === 'frequency',
+    }),
+  );
   const engine = createLiveCapture({ series, store: pending });
   const state = engine.state;
 
-  const running = computed(() => state.phase === 'connecting' || state.phase === 'capturing' || state.phase === 'finishing');
+  const running = computed(
+    () =>
+      state.phase === 'connecting' || state.phase === 'capturing' || state.phase === 'finishing',
+  );
   const live = computed(() => state.phase !== 'idle' && !guided.value);
   const captureId = computed(() => state.capture?.id ?? null);
 
@@ -129,7 +137,10 @@ export const useBenchCaptureStore = defineStore('benchCapture', () => {
       for (const b of list) backlogs.set(b.captureId, b.done);
       if (list.length) {
         backlogNotice.value = list
-          .map((w) => `Sending ${groupDigits(w.pending)} readings of capture ${w.captureId} left from an earlier session…`)
+          .map(
+            (w) =>
+              `Sending ${groupDigits(w.pending)} readings of capture ${w.captureId} left from an earlier session…`,
+          )
           .join(' ');
       }
     })();

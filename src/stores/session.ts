@@ -1,6 +1,13 @@
 import { computed, ref } from 'vue';
 import { defineStore } from 'pinia';
-import { changePassword as postPasswordChange, fetchMe, login, logout as postLogout, type Role, type SessionUser } from '../api/auth';
+import {
+  changePassword as postPasswordChange,
+  fetchMe,
+  login,
+  logout as postLogout,
+  type Role,
+  type SessionUser,
+} from '../api/auth';
 import { ApiError, configureHttp } from '../api/http';
 import { configureSimulatorToken } from '../links/simulatorLink';
 import { roleCan, type Permission } from '../../shared/protocol/roles';
@@ -26,7 +33,12 @@ function readStored(): StoredSession | null {
   if (!raw) return null;
   try {
     const parsed = JSON.parse(raw) as Partial<StoredSession>;
-    if (typeof parsed.token === 'string') return { token: parsed.token, user: parsed.user ?? null, mustChangePassword: parsed.mustChangePassword === true };
+    if (typeof parsed.token === 'string')
+      return {
+        token: parsed.token,
+        user: parsed.user ?? null,
+        mustChangePassword: parsed.mustChangePassword === true,
+      };
   } catch {
     // A bare token (e.g. put there by a test) is accepted too; /me supplies the user.
   }
@@ -133,7 +145,11 @@ export const useSessionStore = defineStore('session', () => {
         user.value = me;
         mustChangePassword.value = mustChange === true;
         verified.value = true;
-        writeStored({ token: token.value as string, user: me, mustChangePassword: mustChangePassword.value });
+        writeStored({
+          token: token.value as string,
+          user: me,
+          mustChangePassword: mustChangePassword.value,
+        });
         return null;
       } catch (error) {
         if (error instanceof ApiError && error.status === 401) {

@@ -27,7 +27,6 @@ export interface BenchStart {
   guided: boolean;
 }
 
-
 /** The simulator presets the counter and the SPI bridge offer. */
 export type SimulatorPreset = 'xtal-16m' | 'osc-25m' | 'tf-32k' | 'tcxo-12m8' | 'accel';
 
@@ -48,7 +47,8 @@ export function simulatorPresetFor(dut: { kind: string; nominal: number | null }
   const f = Number(dut.nominal);
   if (Number.isFinite(f) && f > 0) {
     let best = PRESET_NOMINALS[0];
-    for (const p of PRESET_NOMINALS) if (Math.abs(Math.log(p[1] / f)) < Math.abs(Math.log(best[1] / f))) best = p;
+    for (const p of PRESET_NOMINALS)
+      if (Math.abs(Math.log(p[1] / f)) < Math.abs(Math.log(best[1] / f))) best = p;
     return best[0];
   }
   return 'xtal-16m';
@@ -87,7 +87,10 @@ export function buildProfile(c: ProfileChoice): LinkProfile {
   const factor = c.linkKind === 'simulator' && c.acceleration > 0 ? c.acceleration : 1;
   const gateWallMs = (c.gateTime * 1000) / factor;
   if (c.accelerometer) {
-    const p = c.linkKind === 'serial' && c.instrumentProfile ? structuredClone(c.instrumentProfile) : linkPreset('spi-bridge');
+    const p =
+      c.linkKind === 'serial' && c.instrumentProfile
+        ? structuredClone(c.instrumentProfile)
+        : linkPreset('spi-bridge');
     p.intervalMs = Math.max(1, Math.round(gateWallMs));
     if (c.linkKind === 'simulator') {
       p.kind = 'simulator';
@@ -105,7 +108,8 @@ export function buildProfile(c: ProfileChoice): LinkProfile {
   }
   let p: LinkProfile;
   if (c.linkKind === 'serial' && c.instrumentProfile) p = structuredClone(c.instrumentProfile);
-  else if (c.linkKind === 'simulator') p = linkPreset(c.mode === 'talk' ? 'talk-counter' : 'scpi-counter');
+  else if (c.linkKind === 'simulator')
+    p = linkPreset(c.mode === 'talk' ? 'talk-counter' : 'scpi-counter');
   else p = linkPreset(c.presetId);
   p.mode = c.mode;
   if (c.mode === 'query' && !p.queryCommand.trim()) p.queryCommand = 'READ?';
@@ -123,7 +127,10 @@ export function buildProfile(c: ProfileChoice): LinkProfile {
       },
     };
   } else if (c.mode === 'query' && p.parseRule !== 'hex-spi') {
-    p.initCommands = [...p.initCommands.filter((x) => !/GATE/i.test(x)), `:FREQ:GATE:TIME ${c.gateTime}`];
+    p.initCommands = [
+      ...p.initCommands.filter((x) => !/GATE/i.test(x)),
+      `:FREQ:GATE:TIME ${c.gateTime}`,
+    ];
   }
   p.timeoutMs = Math.min(600_000, Math.max(p.timeoutMs, Math.round(gateWallMs * 3 + 1000)));
   return p;
@@ -133,16 +140,22 @@ export function buildProfile(c: ProfileChoice): LinkProfile {
 
 const gateSchema = CaptureCreate.shape.gateTime;
 /** The gate time (or sample interval) the API takes, s: the shared schema's limits (0.001–1000 s). */
-export const GATE_LIMITS = { min: gateSchema.minValue ?? 0.001, max: gateSchema.maxValue ?? 1000 } as const;
+export const GATE_LIMITS = {
+  min: gateSchema.minValue ?? 0.001,
+  max: gateSchema.maxValue ?? 1000,
+} as const;
 
 /** Why a gate time is refused, in the form's words, or null when the API would take it. */
 export function gateTimeProblem(v: number | null | undefined): string | null {
   if (v === null || v === undefined || !Number.isFinite(v)) return 'Enter a gate time';
-  return gateSchema.safeParse(v).success ? null : `Gate time must be between ${GATE_LIMITS.min} s and ${GATE_LIMITS.max} s`;
+  return gateSchema.safeParse(v).success
+    ? null
+    : `Gate time must be between ${GATE_LIMITS.min} s and ${GATE_LIMITS.max} s`;
 }
 
 /** What the bench plans: run for a duration (capture seconds), take n readings, or until stopped. */
-export type CaptureTarget = { kind: 'duration'; seconds: number } | { kind: 'count'; n: number } | { kind: 'none' };
+export type CaptureTarget =
+  { kind: 'duration'; seconds: number } | { kind: 'count'; n: number } | { kind: 'none' };
 
 export interface TargetChoice {
   target: 'duration' | 'count' | 'none';
@@ -170,7 +183,8 @@ export function estimateText(c: TargetChoice & { gateTime: number }, timeFactor:
   if (c.target === 'duration') {
     return `about ${groupDigits(Math.round(c.targetSeconds * perSecond))} readings, ${groupDigits(Math.round(c.targetSeconds / factor))} s on the wall clock`;
   }
-  if (c.target === 'count') return `about ${groupDigits(Math.round(perSecond > 0 ? c.targetCount / perSecond / factor : 0))} s on the wall clock`;
+  if (c.target === 'count')
+    return `about ${groupDigits(Math.round(perSecond > 0 ? c.targetCount / perSecond / factor : 0))} s on the wall clock`;
   return 'until you stop it';
 }
 
@@ -194,7 +208,11 @@ function positiveId(v: unknown): number | null {
 
 /** The choices `/bench?study=…&checkpoint=…&dut=…` carries (anything malformed is ignored). */
 export function benchPickFromQuery(query: Record<string, unknown>): BenchPick {
-  return { studyId: positiveId(query.study), checkpointId: positiveId(query.checkpoint), dutId: positiveId(query.dut) };
+  return {
+    studyId: positiveId(query.study),
+    checkpointId: positiveId(query.checkpoint),
+    dutId: positiveId(query.dut),
+  };
 }
 
 /** True when the query names at least a study. */
@@ -203,7 +221,11 @@ export function hasBenchPick(p: BenchPick): boolean {
 }
 
 /** The route that opens the bench with these choices made. */
-export function benchRoute(p: { studyId: number; checkpointId?: number | null; dutId?: number | null }): RouteLocationRaw {
+export function benchRoute(p: {
+  studyId: number;
+  checkpointId?: number | null;
+  dutId?: number | null;
+}): RouteLocationRaw {
   const query: Record<string, string> = { study: String(p.studyId) };
   if (p.checkpointId) query.checkpoint = String(p.checkpointId);
   if (p.dutId) query.dut = String(p.dutId);
@@ -220,7 +242,8 @@ export function resolvePick(
   pick: { checkpointId: number | null; dutId: number | null },
 ): { checkpointId: number | null; dutId: number | null; misses: Array<'checkpoint' | 'dut'> } {
   const misses: Array<'checkpoint' | 'dut'> = [];
-  const cpOk = pick.checkpointId !== null && study.checkpoints.some((c) => c.id === pick.checkpointId);
+  const cpOk =
+    pick.checkpointId !== null && study.checkpoints.some((c) => c.id === pick.checkpointId);
   const dutOk = pick.dutId !== null && study.duts.some((d) => d.id === pick.dutId);
   if (pick.checkpointId !== null && !cpOk) misses.push('checkpoint');
   if (pick.dutId !== null && !dutOk) misses.push('dut');
@@ -235,7 +258,11 @@ export function resolvePick(
  * The DUT to capture after `currentId` at the same checkpoint: the next in the study's order that
  * has no capture there yet, else simply the next one; null after the last DUT.
  */
-export function nextDut<D extends { id: number }>(duts: readonly D[], currentId: number, captured: ReadonlySet<number> = new Set()): D | null {
+export function nextDut<D extends { id: number }>(
+  duts: readonly D[],
+  currentId: number,
+  captured: ReadonlySet<number> = new Set(),
+): D | null {
   const i = duts.findIndex((d) => d.id === currentId);
   if (i < 0) return null;
   const after = duts.slice(i + 1);

@@ -25,7 +25,12 @@ export function curveScale(dut: Pick<LimitDut, 'nominal' | 'unit'>): number {
  * one (the planner decides against the side a shift would reach first). Null without a limit.
  */
 export function limitInCurveUnits(dut: LimitDut): number | null {
-  const sides = dut.limit !== null && dut.limit !== undefined ? [dut.limit] : [dut.limitLow, dut.limitHigh].filter((x): x is number => typeof x === 'number').map(Math.abs);
+  const sides =
+    dut.limit !== null && dut.limit !== undefined
+      ? [dut.limit]
+      : [dut.limitLow, dut.limitHigh]
+          .filter((x): x is number => typeof x === 'number')
+          .map(Math.abs);
   if (!sides.length) return null;
   const L = Math.min(...sides);
   if (!(L > 0)) return null;

@@ -16,7 +16,21 @@ const PREFIXES: Array<[number, string]> = [
 ];
 
 /** Units that are never given an SI prefix: already prefixed, relative, or counts. */
-const UNPREFIXED = new Set(['mg', 'mV', 'µV', 'mA', 'ms', 'µs', 'ns', '%', 'ppm', 'ppb', '°C', 'count', 'counts']);
+const UNPREFIXED = new Set([
+  'mg',
+  'mV',
+  'µV',
+  'mA',
+  'ms',
+  'µs',
+  'ns',
+  '%',
+  'ppm',
+  'ppb',
+  '°C',
+  'count',
+  'counts',
+]);
 
 /** Trims trailing zeros of a fixed-point text: "1.500" → "1.5", "2.000" → "2". */
 function trimZeros(text: string): string {

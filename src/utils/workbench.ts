@@ -15,7 +15,8 @@ export interface Selection {
 }
 
 type QueryValue = string | null | undefined | Array<string | null>;
-const first = (v: QueryValue): string | undefined => (Array.isArray(v) ? (v[0] ?? undefined) : (v ?? undefined));
+const first = (v: QueryValue): string | undefined =>
+  Array.isArray(v) ? (v[0] ?? undefined) : (v ?? undefined);
 const positive = (v: QueryValue): number | null => {
   const n = Number(first(v));
   return Number.isFinite(n) && n > 0 ? n : null;
@@ -31,13 +32,22 @@ export function parseSelection(q: Record<string, QueryValue>, max = 12): Selecti
         .filter((n) => Number.isInteger(n) && n > 0),
     ),
   ].slice(0, max);
-  const kind = (STABILITY_KINDS as readonly string[]).includes(first(q.kind) ?? '') ? (first(q.kind) as StabilityKind) : 'oadev';
+  const kind = (STABILITY_KINDS as readonly string[]).includes(first(q.kind) ?? '')
+    ? (first(q.kind) as StabilityKind)
+    : 'oadev';
   const pick = (v: QueryValue) => {
     const n = positive(v);
     return n !== null && Number.isInteger(n) && ids.includes(n) ? n : null;
   };
   const study = positive(q.study);
-  return { ids, kind, tau: positive(q.tau), before: pick(q.before), after: pick(q.after), study: study && Number.isInteger(study) ? study : null };
+  return {
+    ids,
+    kind,
+    tau: positive(q.tau),
+    before: pick(q.before),
+    after: pick(q.after),
+    study: study && Number.isInteger(study) ? study : null,
+  };
 }
 
 /** The query that reproduces a selection (only what differs from the defaults). */
@@ -63,7 +73,10 @@ export interface CurvePointLike {
  * The deviation at τ: the point itself when the curve has it, otherwise a straight line between
  * the neighbours on log–log axes (how the curve is drawn); null outside the curve's τ range.
  */
-export function devAt(points: readonly CurvePointLike[], tau: number): { dev: number; lo?: number; hi?: number; exact: boolean } | null {
+export function devAt(
+  points: readonly CurvePointLike[],
+  tau: number,
+): { dev: number; lo?: number; hi?: number; exact: boolean } | null {
   const pts = points.filter((p) => p.tau > 0 && p.dev > 0).sort((a, b) => a.tau - b.tau);
   const hit = pts.find((p) => Math.abs(p.tau / tau - 1) < 1e-9);
   if (hit) return { dev: hit.dev, lo: hit.lo, hi: hit.hi, exact: true };
@@ -86,7 +99,10 @@ export function csvField(v: string | number | null | undefined): string {
   return /[",\r\n]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
 }
 
-export function toCsv(header: string[], rows: Array<Array<string | number | null | undefined>>): string {
+export function toCsv(
+  header: string[],
+  rows: Array<Array<string | number | null | undefined>>,
+): string {
   return [header, ...rows].map((r) => r.map(csvField).join(',')).join('\n') + '\n';
 }
 
@@ -97,13 +113,19 @@ export interface SvgSeries {
   points: CurvePointLike[];
 }
 
-const esc = (s: string) => s.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
+const esc = (s: string) =>
+  s.replace(/&/g, '&amp;').replace(/</g, '&lt;').replace(/>/g, '&gt;').replace(/"/g, '&quot;');
 
 /**
  * The overlay as a standalone SVG: log–log axes with a line per decade, each curve as markers
  * joined by lines with its interval as a translucent band, and a legend. Vector, for reports.
  */
-export function stabilitySvg(series: SvgSeries[], title: string, width = 800, height = 500): string {
+export function stabilitySvg(
+  series: SvgSeries[],
+  title: string,
+  width = 800,
+  height = 500,
+): string {
   const all = series.flatMap((s) => s.points.filter((p) => p.tau > 0 && p.dev > 0));
   const left = 80;
   const right = 20;
@@ -121,7 +143,9 @@ export function stabilitySvg(series: SvgSeries[], title: string, width = 800, he
     parts.push(`<text x="${left}" y="${top + 20}">No stability points.</text></svg>`);
     return parts.join('');
   }
-  const ys = all.flatMap((p) => [p.dev, p.lo, p.hi].filter((v): v is number => typeof v === 'number' && v > 0));
+  const ys = all.flatMap((p) =>
+    [p.dev, p.lo, p.hi].filter((v): v is number => typeof v === 'number' && v > 0),
+  );
   const x0 = Math.floor(Math.log10(Math.min(...all.map((p) => p.tau))));
   const x1 = Math.max(x0 + 1, Math.ceil(Math.log10(Math.max(...all.map((p) => p.tau)))));
   const y0 = Math.floor(Math.log10(Math.min(...ys)));
@@ -129,23 +153,35 @@ export function stabilitySvg(series: SvgSeries[], title: string, width = 800, he
   const X = (tau: number) => left + ((Math.log10(tau) - x0) / (x1 - x0)) * w;
   const Y = (v: number) => top + h - ((Math.log10(v) - y0) / (y1 - y0)) * h;
   const f = (n: number) => n.toFixed(1);
-  parts.push(`<rect x="${left}" y="${top}" width="${w}" height="${h}" fill="none" stroke="#cfc8b9"/>`);
+  parts.push(
+    `<rect x="${left}" y="${top}" width="${w}" height="${h}" fill="none" stroke="#cfc8b9"/>`,
+  );
   for (let d = x0; d <= x1; d++) {
-    parts.push(`<line x1="${f(X(10 ** d))}" y1="${top}" x2="${f(X(10 ** d))}" y2="${top + h}" stroke="#e2ddd2"/>`);
-    parts.push(`<text x="${f(X(10 ** d))}" y="${top + h + 16}" text-anchor="middle">1e${d} s</text>`);
+    parts.push(
+      `<line x1="${f(X(10 ** d))}" y1="${top}" x2="${f(X(10 ** d))}" y2="${top + h}" stroke="#e2ddd2"/>`,
+    );
+    parts.push(
+      `<text x="${f(X(10 ** d))}" y="${top + h + 16}" text-anchor="middle">1e${d} s</text>`,
+    );
   }
   for (let d = y0; d <= y1; d++) {
-    parts.push(`<line x1="${left}" y1="${f(Y(10 ** d))}" x2="${left + w}" y2="${f(Y(10 ** d))}" stroke="#e2ddd2"/>`);
+    parts.push(
+      `<line x1="${left}" y1="${f(Y(10 ** d))}" x2="${left + w}" y2="${f(Y(10 ** d))}" stroke="#e2ddd2"/>`,
+    );
     parts.push(`<text x="${left - 6}" y="${f(Y(10 ** d) + 4)}" text-anchor="end">1e${d}</text>`);
   }
-  parts.push(`<text x="${left + w / 2}" y="${top + h + 34}" text-anchor="middle">averaging time τ</text>`);
+  parts.push(
+    `<text x="${left + w / 2}" y="${top + h + 34}" text-anchor="middle">averaging time τ</text>`,
+  );
   series.forEach((s, i) => {
     const pts = s.points.filter((p) => p.tau > 0 && p.dev > 0).sort((a, b) => a.tau - b.tau);
     const band = pts.filter((p) => (p.lo ?? 0) > 0 && (p.hi ?? 0) > 0);
     if (band.length > 1) {
       const upper = band.map((p) => `${f(X(p.tau))},${f(Y(p.hi!))}`);
       const lower = band.map((p) => `${f(X(p.tau))},${f(Y(p.lo!))}`).reverse();
-      parts.push(`<polygon points="${[...upper, ...lower].join(' ')}" fill="${s.colour}" fill-opacity="0.16" stroke="none"/>`);
+      parts.push(
+        `<polygon points="${[...upper, ...lower].join(' ')}" fill="${s.colour}" fill-opacity="0.16" stroke="none"/>`,
+      );
     }
     parts.push(
       `<polyline points="${pts.map((p) => `${f(X(p.tau))},${f(Y(p.dev))}`).join(' ')}" fill="none" stroke="${s.colour}" stroke-width="1.25"${s.dashed ? ' stroke-dasharray="6 4"' : ''}/>`,
@@ -158,7 +194,9 @@ export function stabilitySvg(series: SvgSeries[], title: string, width = 800, he
       );
     }
     const ly = top + h + 52 + i * 18;
-    parts.push(`<line x1="${left}" y1="${ly - 4}" x2="${left + 26}" y2="${ly - 4}" stroke="${s.colour}" stroke-width="1.5"${s.dashed ? ' stroke-dasharray="6 4"' : ''}/>`);
+    parts.push(
+      `<line x1="${left}" y1="${ly - 4}" x2="${left + 26}" y2="${ly - 4}" stroke="${s.colour}" stroke-width="1.5"${s.dashed ? ' stroke-dasharray="6 4"' : ''}/>`,
+    );
     parts.push(`<text x="${left + 34}" y="${ly}">${esc(s.label)}</text>`);
   });
   parts.push('</svg>');

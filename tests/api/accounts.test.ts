@@ -19,11 +19,16 @@ afterAll(async () => {
   await t.close();
 });
 
-const login = (email: string, password: string) => request(t.app).post('/api/auth/login').send({ email, password });
-const me = (token: string) => request(t.app).get('/api/auth/me').set('authorization', `Bearer ${token}`);
+const login = (email: string, password: string) =>
+  request(t.app).post('/api/auth/login').send({ email, password });
+const me = (token: string) =>
+  request(t.app).get('/api/auth/me').set('authorization', `Bearer ${token}`);
 
 async function newUser(email: string, role = 'technician', password = 'a-long-password') {
-  const res = await request(t.app).post('/api/users').set('authorization', `Bearer ${admin}`).send({ email, name: email.split('@')[0], role, password });
+  const res = await request(t.app)
+    .post('/api/users')
+    .set('authorization', `Bearer ${admin}`)
+    .send({ email, name: email.split('@')[0], role, password });
   expect(res.status).toBe(201);
   const signed = await login(email, password);
   expect(signed.status).toBe(200);
@@ -78,7 +83,12 @@ describe('change my password (POST /api/auth/password)', () => {
     const res = await request(t.app)
       .post('/api/users')
       .set('authorization', `Bearer ${admin}`)
-      .send({ email: 'weak@kestrelbay.example', name: 'Weak', role: 'viewer', password: 'administrator' });
+      .send({
+        email: 'weak@kestrelbay.example',
+        name: 'Weak',
+        role: 'viewer',
+        password: 'administrator',
+      });
     expect(res.status).toBe(400);
     expect(res.body.error.details[0].path).toBe('password');
   });
@@ -91,7 +101,9 @@ describe('change my password (POST /api/auth/password)', () => {
 describe('sign-out and token revocation', () => {
   it('POST /api/auth/logout ends the session: the token answers 401 afterwards', async () => {
     const u = await newUser('leaver@kestrelbay.example');
-    const out = await request(t.app).post('/api/auth/logout').set('authorization', `Bearer ${u.token}`);
+    const out = await request(t.app)
+      .post('/api/auth/logout')
+      .set('authorization', `Bearer ${u.token}`);
     expect(out.status).toBe(204);
     const after = await me(u.token);
     expect(after.status).toBe(401);
@@ -100,15 +112,26 @@ describe('sign-out and token revocation', () => {
 
   it('a role change revokes the tokens the user holds', async () => {
     const u = await newUser('promoted@kestrelbay.example');
-    const patch = await request(t.app).patch(`/api/users/${u.id}`).set('authorization', `Bearer ${admin}`).send({ role: 'engineer' });
+    const patch = await request(t.app)
+      .patch(`/api/users/${u.id}`)
+      .set('authorization', `Bearer ${admin}`)
+      .send({ role: 'engineer' });
     expect(patch.status).toBe(200);
     expect((await me(u.token)).status).toBe(401);
   });
 
   it('a deactivation revokes the tokens, and reactivating does not bring them back', async () => {
     const u = await newUser('paused@kestrelbay.example');
-    await request(t.app).patch(`/api/users/${u.id}`).set('authorization', `Bearer ${admin}`).send({ active: false }).expect(200);
-    await request(t.app).patch(`/api/users/${u.id}`).set('authorization', `Bearer ${admin}`).send({ active: true }).expect(200);
+    await request(t.app)
+      .patch(`/api/users/${u.id}`)
+      .set('authorization', `Bearer ${admin}`)
+      .send({ active: false })
+      .expect(200);
+    await request(t.app)
+      .patch(`/api/users/${u.id}`)
+      .set('authorization', `Bearer ${admin}`)
+      .send({ active: true })
+      .expect(200);
     const res = await me(u.token);
     expect(res.status).toBe(401);
     expect(res.body.error.code).toBe('session-ended');
@@ -116,15 +139,26 @@ describe('sign-out and token revocation', () => {
 
   it('a renaming leaves the tokens alone', async () => {
     const u = await newUser('renamed@kestrelbay.example');
-    await request(t.app).patch(`/api/users/${u.id}`).set('authorization', `Bearer ${admin}`).send({ name: 'Renamed Tech' }).expect(200);
+    await request(t.app)
+      .patch(`/api/users/${u.id}`)
+      .set('authorization', `Bearer ${admin}`)
+      .send({ name: 'Renamed Tech' })
+      .expect(200);
     expect((await me(u.token)).status).toBe(200);
   });
 
   it('refuses a token without a token version once the user has moved on', async () => {
     const u = await newUser('legacy@kestrelbay.example');
-    const legacy = jwt.sign({ role: 'technician' }, TEST_JWT_SECRET, { algorithm: 'HS256', subject: String(u.id), expiresIn: '1h' });
+    const legacy = jwt.sign({ role: 'technician' }, TEST_JWT_SECRET, {
+      algorithm: 'HS256',
+      subject: String(u.id),
+      expiresIn: '1h',
+    });
     expect((await me(legacy)).status).toBe(200);
-    await request(t.app).post('/api/auth/logout').set('authorization', `Bearer ${u.token}`).expect(204);
+    await request(t.app)
+      .post('/api/auth/logout')
+      .set('authorization', `Bearer ${u.token}`)
+      .expect(204);
     expect((await me(legacy)).status).toBe(401);
   });
 });
@@ -147,7 +181,9 @@ describe('admin password reset (POST /api/users/:id/password-reset)', () => {
     const meRes = await me(token);
     expect(meRes.status).toBe(200);
     expect(meRes.body.mustChangePassword).toBe(true);
-    const blocked = await request(t.app).get('/api/studies').set('authorization', `Bearer ${token}`);
+    const blocked = await request(t.app)
+      .get('/api/studies')
+      .set('authorization', `Bearer ${token}`);
     expect(blocked.status).toBe(403);
     expect(blocked.body.error.code).toBe('password-change-required');
 
@@ -157,7 +193,13 @@ describe('admin password reset (POST /api/users/:id/password-reset)', () => {
       .send({ currentPassword: 'temporary-bench-key', newPassword: 'my own bench key 42' });
     expect(changed.status).toBe(200);
     expect(changed.body.mustChangePassword).toBe(false);
-    expect((await request(t.app).get('/api/studies').set('authorization', `Bearer ${changed.body.token}`)).status).toBe(200);
+    expect(
+      (
+        await request(t.app)
+          .get('/api/studies')
+          .set('authorization', `Bearer ${changed.body.token}`)
+      ).status,
+    ).toBe(200);
   });
 
   it('is for admins only', async () => {
@@ -170,8 +212,15 @@ describe('admin password reset (POST /api/users/:id/password-reset)', () => {
 
   it('writes an audit event without the password', async () => {
     const u = await newUser('audited@kestrelbay.example');
-    await request(t.app).post(`/api/users/${u.id}/password-reset`).set('authorization', `Bearer ${admin}`).send({ temporaryPassword: 'temporary-bench-key' }).expect(200);
-    const rows = await t.db.pool.query("SELECT details::text AS d FROM audit_events WHERE action = 'user.password.reset' AND subject_id = $1", [u.id]);
+    await request(t.app)
+      .post(`/api/users/${u.id}/password-reset`)
+      .set('authorization', `Bearer ${admin}`)
+      .send({ temporaryPassword: 'temporary-bench-key' })
+      .expect(200);
+    const rows = await t.db.pool.query(
+      "SELECT details::text AS d FROM audit_events WHERE action = 'user.password.reset' AND subject_id = $1",
+      [u.id],
+    );
     expect(rows.rowCount).toBe(1);
     expect(String(rows.rows[0].d)).not.toContain('temporary-bench-key');
   });
@@ -192,7 +241,12 @@ describe('demo accounts in production', () => {
       .send({ currentPassword: DEMO_PASSWORD, newPassword: 'lead has her own key' })
       .expect(200);
     const retired = await retireDemoAccounts();
-    expect(retired.sort()).toEqual([`admin@${DEMO_DOMAIN}`, `engineer@${DEMO_DOMAIN}`, `technician@${DEMO_DOMAIN}`, `viewer@${DEMO_DOMAIN}`]);
+    expect(retired.sort()).toEqual([
+      `admin@${DEMO_DOMAIN}`,
+      `engineer@${DEMO_DOMAIN}`,
+      `technician@${DEMO_DOMAIN}`,
+      `viewer@${DEMO_DOMAIN}`,
+    ]);
     expect((await login(`viewer@${DEMO_DOMAIN}`, DEMO_PASSWORD)).status).toBe(401);
     expect((await login(`lead@${DEMO_DOMAIN}`, 'lead has her own key')).status).toBe(200);
   });

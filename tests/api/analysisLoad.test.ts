@@ -23,7 +23,12 @@ beforeAll(async () => {
   t = await createTestApp();
   // openFreshMs 0: every new reading makes the next answer a fresh computation.
   analysis = new AnalysisPool(t.db.url, 1, { openFreshMs: 0 });
-  app = createApp({ db: t.db, jwtSecret: TEST_JWT_SECRET, log: pino({ level: 'silent' }), analysis });
+  app = createApp({
+    db: t.db,
+    jwtSecret: TEST_JWT_SECRET,
+    log: pino({ level: 'silent' }),
+    analysis,
+  });
   token = await t.tokenFor('lead');
   ids = await demoIds(app, token);
 });
@@ -36,14 +41,27 @@ async function openCapture(): Promise<number> {
   const res = await request(app)
     .post('/api/captures')
     .set(auth())
-    .send({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], quantity: 'frequency', unit: 'Hz', gateTime: 1 });
+    .send({
+      dutId: ids.crystal.id,
+      checkpointId: ids.checkpoints[0],
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+    });
   expect(res.status).toBe(201);
   return res.body.id;
 }
 
 async function send(id: number, from: number, n: number, value: (seq: number) => number) {
-  const readings = Array.from({ length: n }, (_, i) => ({ seq: from + i, t: from + i, value: value(from + i) }));
-  const res = await request(app).post(`/api/captures/${id}/readings`).set(auth()).send({ readings });
+  const readings = Array.from({ length: n }, (_, i) => ({
+    seq: from + i,
+    t: from + i,
+    value: value(from + i),
+  }));
+  const res = await request(app)
+    .post(`/api/captures/${id}/readings`)
+    .set(auth())
+    .send({ readings });
   expect(res.status).toBe(200);
   return res.body;
 }
@@ -56,7 +74,9 @@ describe('analysis off the event loop (item 2)', () => {
     const id = await openCapture();
     await send(id, 0, 5000, steady);
     const before = { ...analysis.stats };
-    const answers = await Promise.all(Array.from({ length: 4 }, () => request(app).get(`/api/captures/${id}/analysis`).set(auth())));
+    const answers = await Promise.all(
+      Array.from({ length: 4 }, () => request(app).get(`/api/captures/${id}/analysis`).set(auth())),
+    );
     for (const a of answers) {
       expect(a.status).toBe(200);
       expect(a.body.counts.total).toBe(5000);
@@ -81,12 +101,16 @@ describe('analysis off the event loop (item 2)', () => {
   it('pages raw reads: at most MAX_RAW_READINGS per answer, with nextFrom to continue', async () => {
     const id = await openCapture();
     const total = MAX_RAW_READINGS + 2500;
-    for (let from = 0; from < total; from += 20_000) await send(id, from, Math.min(20_000, total - from), steady);
+    for (let from = 0; from < total; from += 20_000)
+      await send(id, from, Math.min(20_000, total - from), steady);
     const first = await request(app).get(`/api/captures/${id}/readings`).set(auth());
     expect(first.status).toBe(200);
     expect(first.body.readings).toHaveLength(MAX_RAW_READINGS);
     expect(first.body.nextFrom).toBe(MAX_RAW_READINGS);
-    const rest = await request(app).get(`/api/captures/${id}/readings`).query({ from: first.body.nextFrom }).set(auth());
+    const rest = await request(app)
+      .get(`/api/captures/${id}/readings`)
+      .query({ from: first.body.nextFrom })
+      .set(auth());
     expect(rest.body.readings).toHaveLength(2500);
     expect(rest.body.nextFrom).toBeNull();
     expect(rest.body.readings[0].seq).toBe(MAX_RAW_READINGS);
@@ -110,7 +134,10 @@ describe('implausible readings (item 7)', () => {
   it('flags 1e308 at ingest, keeps it, leaves it out of the analysis, names the rule, and finishes', async () => {
     const id = await openCapture();
     await send(id, 0, 2000, (seq) => (seq === 1234 ? 1e308 : steady()));
-    const stored = await t.db.pool.query('SELECT value, flags FROM readings WHERE capture_id = $1 AND seq = 1234', [id]);
+    const stored = await t.db.pool.query(
+      'SELECT value, flags FROM readings WHERE capture_id = $1 AND seq = 1234',
+      [id],
+    );
     expect(stored.rows[0].value).toBe(1e308);
     expect(stored.rows[0].flags & ReadingFlag.implausible).toBe(ReadingFlag.implausible);
 
@@ -136,7 +163,10 @@ describe('implausible readings (item 7)', () => {
       `INSERT INTO readings (capture_id, seq, t, value, flags) SELECT $1, s, s, CASE WHEN s = 5 THEN 1e308 ELSE 16e6 + s * 1e-3 END, 0 FROM generate_series(0, 99) s`,
       [id],
     );
-    await t.db.pool.query('UPDATE captures SET reading_count = 100, highest_seq = 99 WHERE id = $1', [id]);
+    await t.db.pool.query(
+      'UPDATE captures SET reading_count = 100, highest_seq = 99 WHERE id = $1',
+      [id],
+    );
     const fin = await request(app).post(`/api/captures/${id}/finish`).set(auth());
     expect(fin.status).toBe(200);
     expect(fin.body.state).toBe('finished');
@@ -150,7 +180,12 @@ describe('an open capture polled while it grows (item 2)', () => {
   it('serves a recent answer for a few seconds and says which reading count it covers', async () => {
     // A pool that keeps an open capture's answer for a minute, as a busy server would for seconds.
     const slow = new AnalysisPool(t.db.url, 1, { openFreshMs: 60_000 });
-    const slowApp = createApp({ db: t.db, jwtSecret: TEST_JWT_SECRET, log: pino({ level: 'silent' }), analysis: slow });
+    const slowApp = createApp({
+      db: t.db,
+      jwtSecret: TEST_JWT_SECRET,
+      log: pino({ level: 'silent' }),
+      analysis: slow,
+    });
     try {
       const id = await openCapture();
       await send(id, 0, 3000, steady);
@@ -176,14 +211,19 @@ describe('an open capture polled while it grows (item 2)', () => {
     }
   });
 
-  it.skipIf(process.platform !== 'linux')('computes in a thread that runs at a lower CPU priority than the event loop', async () => {
-    const id = await openCapture();
-    await send(id, 0, 100, steady);
-    expect((await request(app).get(`/api/captures/${id}/analysis`).set(auth())).status).toBe(200);
-    const { readdirSync, readFileSync } = await import('node:fs');
-    // Field 19 of /proc/<pid>/task/<tid>/stat is the thread's nice value (proc(5)).
-    const nice = readdirSync('/proc/self/task').map((tid) => Number(readFileSync(`/proc/self/task/${tid}/stat`, 'utf8').split(') ')[1].split(' ')[16]));
-    expect(nice).toContain(10);
-    expect(nice).toContain(0);
-  });
+  it.skipIf(process.platform !== 'linux')(
+    'computes in a thread that runs at a lower CPU priority than the event loop',
+    async () => {
+      const id = await openCapture();
+      await send(id, 0, 100, steady);
+      expect((await request(app).get(`/api/captures/${id}/analysis`).set(auth())).status).toBe(200);
+      const { readdirSync, readFileSync } = await import('node:fs');
+      // Field 19 of /proc/<pid>/task/<tid>/stat is the thread's nice value (proc(5)).
+      const nice = readdirSync('/proc/self/task').map((tid) =>
+        Number(readFileSync(`/proc/self/task/${tid}/stat`, 'utf8').split(') ')[1].split(' ')[16]),
+      );
+      expect(nice).toContain(10);
+      expect(nice).toContain(0);
+    },
+  );
 });

@@ -18,8 +18,14 @@ let root: string;
 let plan: Awaited<ReturnType<typeof plannedStudy>>;
 
 // A 1×1 PNG's first bytes: the 8-byte signature and the IHDR chunk header (PNG specification §5.2, §11.2.2).
-const PNG = Buffer.from('89504e470d0a1a0a0000000d49484452000000010000000108060000001f15c489', 'hex');
-const PDF = Buffer.from('%PDF-1.4\n%\u00e2\u00e3\n1 0 obj << >> endobj\ntrailer << >>\n%%EOF\n', 'latin1');
+const PNG = Buffer.from(
+  '89504e470d0a1a0a0000000d49484452000000010000000108060000001f15c489',
+  'hex',
+);
+const PDF = Buffer.from(
+  '%PDF-1.4\n%\u00e2\u00e3\n1 0 obj << >> endobj\ntrailer << >>\n%%EOF\n',
+  'latin1',
+);
 
 function filesUnder(dir: string): string[] {
   const out: string[] = [];
@@ -36,9 +42,21 @@ beforeAll(async () => {
   root = mkdtempSync(path.join(os.tmpdir(), 'driftbench-attach-test-'));
   const store = new FolderStore(root);
   const log = pino({ level: 'silent' });
-  app = createApp({ db: t.db, jwtSecret: TEST_JWT_SECRET, log, attachmentStore: store, loginRateLimit: 1000 });
+  app = createApp({
+    db: t.db,
+    jwtSecret: TEST_JWT_SECRET,
+    log,
+    attachmentStore: store,
+    loginRateLimit: 1000,
+  });
   // The same app with a 2 kB limit and CSV only: the limits are configuration.
-  small = createApp({ db: t.db, jwtSecret: TEST_JWT_SECRET, log, attachmentStore: store, uploadPolicy: { maxBytes: 2048, types: ['text/csv'] } });
+  small = createApp({
+    db: t.db,
+    jwtSecret: TEST_JWT_SECRET,
+    log,
+    attachmentStore: store,
+    uploadPolicy: { maxBytes: 2048, types: ['text/csv'] },
+  });
   plan = await plannedStudy(t, 'Attachments study');
 });
 afterAll(async () => {
@@ -65,7 +83,9 @@ describe('attachments', () => {
     });
     const files = filesUnder(root);
     expect(files.some((f) => statSync(f).size === PNG.length)).toBe(true);
-    const audit = await request(app).get(`/api/studies/${plan.studyId}/audit`).set(await as(t, 'viewer'));
+    const audit = await request(app)
+      .get(`/api/studies/${plan.studyId}/audit`)
+      .set(await as(t, 'viewer'));
     const ev = audit.body.events.find((e: { action: string }) => e.action === 'attachment.upload');
     expect(ev.details.after).toMatchObject({ filename: 'board-top.png', size: PNG.length });
   });
@@ -79,13 +99,30 @@ describe('attachments', () => {
     const b = await request(app)
       .post(`/api/captures/${cap}/attachments`)
       .set(await as(t, 'engineer'))
-      .attach('file', Buffer.from('seq,value\n0,1\n'), { filename: 'export.csv', contentType: 'text/csv' });
+      .attach('file', Buffer.from('seq,value\n0,1\n'), {
+        filename: 'export.csv',
+        contentType: 'text/csv',
+      });
     expect([a.status, b.status]).toEqual([201, 201]);
-    const list = await request(app).get(`/api/studies/${plan.studyId}/attachments`).set(await as(t, 'viewer'));
-    expect(list.body.attachments.map((x: { filename: string }) => x.filename)).toEqual(['export.csv', 'printout.pdf', 'board-top.png']);
-    const onCapture = await request(app).get(`/api/captures/${cap}/attachments`).set(await as(t, 'viewer'));
+    const list = await request(app)
+      .get(`/api/studies/${plan.studyId}/attachments`)
+      .set(await as(t, 'viewer'));
+    expect(list.body.attachments.map((x: { filename: string }) => x.filename)).toEqual([
+      'export.csv',
+      'printout.pdf',
+      'board-top.png',
+    ]);
+    const onCapture = await request(app)
+      .get(`/api/captures/${cap}/attachments`)
+      .set(await as(t, 'viewer'));
     expect(onCapture.body.attachments).toHaveLength(1);
-    expect((await request(app).get('/api/captures/999999/attachments').set(await as(t, 'viewer'))).status).toBe(404);
+    expect(
+      (
+        await request(app)
+          .get('/api/captures/999999/attachments')
+          .set(await as(t, 'viewer'))
+      ).status,
+    ).toBe(404);
   });
 
   it('downloads with the original name in a Content-Disposition that odd names cannot break', async () => {
@@ -95,16 +132,23 @@ describe('attachments', () => {
       .set(await as(t, 'engineer'))
       .attach('file', Buffer.from('a,b\n1,2\n'), { filename: odd, contentType: 'text/csv' });
     expect(up.status).toBe(201);
-    const res = await request(app).get(`/api/attachments/${up.body.id}`).set(await as(t, 'viewer')).buffer(true);
+    const res = await request(app)
+      .get(`/api/attachments/${up.body.id}`)
+      .set(await as(t, 'viewer'))
+      .buffer(true);
     expect(res.status).toBe(200);
     expect(res.headers['x-evil']).toBeUndefined();
     const cd = res.headers['content-disposition'];
-    expect(cd).toMatch(/^attachment; filename="[\x20-\x7e]*"; filename\*=UTF-8''[A-Za-z0-9%._~!$&+,;=:@-]+$/);
+    expect(cd).toMatch(
+      /^attachment; filename="[\x20-\x7e]*"; filename\*=UTF-8''[A-Za-z0-9%._~!$&+,;=:@-]+$/,
+    );
     expect(decodeURIComponent(cd.split("''")[1])).toBe(up.body.filename);
     expect(up.body.filename).not.toMatch(/[\r\n"]/);
     expect(up.body.filename).toContain('— Ω.csv');
     expect(res.text).toBe('a,b\n1,2\n');
-    expect(res.headers['x-content-sha256']).toBe(createHash('sha256').update('a,b\n1,2\n').digest('hex'));
+    expect(res.headers['x-content-sha256']).toBe(
+      createHash('sha256').update('a,b\n1,2\n').digest('hex'),
+    );
   });
 
   it('refuses a file over the configured size with 413 and keeps nothing', async () => {
@@ -123,12 +167,18 @@ describe('attachments', () => {
     const exe = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
       .set(eng)
-      .attach('file', Buffer.from('MZ'), { filename: 'tool.exe', contentType: 'application/x-msdownload' });
+      .attach('file', Buffer.from('MZ'), {
+        filename: 'tool.exe',
+        contentType: 'application/x-msdownload',
+      });
     expect(exe.status).toBe(415);
     const html = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
       .set(eng)
-      .attach('file', Buffer.from('<script>alert(1)</script>'), { filename: 'page.html', contentType: 'text/html' });
+      .attach('file', Buffer.from('<script>alert(1)</script>'), {
+        filename: 'page.html',
+        contentType: 'text/html',
+      });
     expect(html.status).toBe(415);
     const renamed = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
@@ -138,7 +188,10 @@ describe('attachments', () => {
     const fake = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
       .set(eng)
-      .attach('file', Buffer.from('not a png at all'), { filename: 'fake.png', contentType: 'image/png' });
+      .attach('file', Buffer.from('not a png at all'), {
+        filename: 'fake.png',
+        contentType: 'image/png',
+      });
     expect(fake.status).toBe(415);
     const pdfOnSmall = await request(small)
       .post(`/api/studies/${plan.studyId}/attachments`)
@@ -148,7 +201,10 @@ describe('attachments', () => {
   });
 
   it('refuses a request without a file with 400 and uploads by viewers with 403', async () => {
-    const none = await request(app).post(`/api/studies/${plan.studyId}/attachments`).set(await as(t, 'engineer')).field('note', 'x');
+    const none = await request(app)
+      .post(`/api/studies/${plan.studyId}/attachments`)
+      .set(await as(t, 'engineer'))
+      .field('note', 'x');
     expect(none.status).toBe(400);
     const viewer = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
@@ -163,20 +219,44 @@ describe('attachments', () => {
       .set(await as(t, 'technician'))
       .attach('file', PNG, { filename: 'mine.png', contentType: 'image/png' });
     for (const role of ['engineer', 'admin', 'viewer']) {
-      const res = await request(app).delete(`/api/attachments/${up.body.id}`).set(await as(t, role));
+      const res = await request(app)
+        .delete(`/api/attachments/${up.body.id}`)
+        .set(await as(t, role));
       expect(res.status, role).toBe(403);
     }
-    expect((await request(app).delete(`/api/attachments/${up.body.id}`).set(await as(t, 'technician'))).status).toBe(204);
-    expect((await request(app).get(`/api/attachments/${up.body.id}`).set(await as(t, 'viewer'))).status).toBe(404);
+    expect(
+      (
+        await request(app)
+          .delete(`/api/attachments/${up.body.id}`)
+          .set(await as(t, 'technician'))
+      ).status,
+    ).toBe(204);
+    expect(
+      (
+        await request(app)
+          .get(`/api/attachments/${up.body.id}`)
+          .set(await as(t, 'viewer'))
+      ).status,
+    ).toBe(404);
 
     const other = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
       .set(await as(t, 'technician'))
       .attach('file', PNG, { filename: 'theirs.png', contentType: 'image/png' });
     const before = filesUnder(root).length;
-    expect((await request(app).delete(`/api/attachments/${other.body.id}`).set(await as(t, 'lead'))).status).toBe(204);
+    expect(
+      (
+        await request(app)
+          .delete(`/api/attachments/${other.body.id}`)
+          .set(await as(t, 'lead'))
+      ).status,
+    ).toBe(204);
     expect(filesUnder(root).length).toBe(before - 1);
-    const audit = await request(app).get(`/api/studies/${plan.studyId}/audit`).set(await as(t, 'viewer'));
-    expect(audit.body.events.filter((e: { action: string }) => e.action === 'attachment.delete')).toHaveLength(2);
+    const audit = await request(app)
+      .get(`/api/studies/${plan.studyId}/audit`)
+      .set(await as(t, 'viewer'));
+    expect(
+      audit.body.events.filter((e: { action: string }) => e.action === 'attachment.delete'),
+    ).toHaveLength(2);
   });
 });

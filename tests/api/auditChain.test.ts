@@ -12,7 +12,10 @@ afterAll(async () => {
   await t.close();
 });
 
-const verify = async () => request(t.app).get('/api/audit/verify').set(await as(t, 'admin'));
+const verify = async () =>
+  request(t.app)
+    .get('/api/audit/verify')
+    .set(await as(t, 'admin'));
 
 /**
  * The chain as docs/record.md describes it, recomputed here independently of the server: SHA-256
@@ -27,7 +30,16 @@ async function recomputeInJs() {
   );
   let prev = '0'.repeat(64);
   for (const r of rows) {
-    const content = [prev, String(r.id), r.actor_id ?? '', r.action, r.subject_type, r.subject_id ?? '', r.details ?? 'null', r.at].join('\u001f');
+    const content = [
+      prev,
+      String(r.id),
+      r.actor_id ?? '',
+      r.action,
+      r.subject_type,
+      r.subject_id ?? '',
+      r.details ?? 'null',
+      r.at,
+    ].join('\u001f');
     const h = createHash('sha256').update(content, 'utf8').digest('hex');
     if (r.prev_hash !== prev || r.hash !== h) return { ok: false, at: Number(r.id) };
     prev = h;
@@ -50,10 +62,17 @@ describe('the audit chain', () => {
   it('cannot fork under concurrent writers: 30 audited changes at once leave one straight chain', async () => {
     const eng = await as(t, 'engineer');
     const results = await Promise.all(
-      Array.from({ length: 30 }, (_, i) => request(t.app).post('/api/studies').set(eng).send({ title: `Concurrent study ${i}` })),
+      Array.from({ length: 30 }, (_, i) =>
+        request(t.app)
+          .post('/api/studies')
+          .set(eng)
+          .send({ title: `Concurrent study ${i}` }),
+      ),
     );
     expect(results.every((r) => r.status === 201)).toBe(true);
-    const { rows } = await t.db.pool.query('SELECT prev_hash, count(*)::int AS n FROM audit_events GROUP BY prev_hash HAVING count(*) > 1');
+    const { rows } = await t.db.pool.query(
+      'SELECT prev_hash, count(*)::int AS n FROM audit_events GROUP BY prev_hash HAVING count(*) > 1',
+    );
     expect(rows).toEqual([]);
     expect((await verify()).body.ok).toBe(true);
   });
@@ -62,26 +81,62 @@ describe('the audit chain', () => {
     const created = await request(t.app)
       .post('/api/users')
       .set(await as(t, 'admin'))
-      .send({ email: 'chain.viewer@kestrelbay.example', name: 'Chain Viewer', role: 'viewer', password: 'chain-viewer-passphrase-3' });
+      .send({
+        email: 'chain.viewer@kestrelbay.example',
+        name: 'Chain Viewer',
+        role: 'viewer',
+        password: 'chain-viewer-passphrase-3',
+      });
     const id = created.body.user.id;
-    await request(t.app).patch(`/api/users/${id}`).set(await as(t, 'admin')).send({ role: 'technician' });
-    const res = await request(t.app).get(`/api/audit?kind=user.role`).set(await as(t, 'admin'));
-    expect(res.body.events[0]).toMatchObject({ subjectId: id, details: { from: 'viewer', to: 'technician' }, actorName: 'Ada Admin' });
+    await request(t.app)
+      .patch(`/api/users/${id}`)
+      .set(await as(t, 'admin'))
+      .send({ role: 'technician' });
+    const res = await request(t.app)
+      .get(`/api/audit?kind=user.role`)
+      .set(await as(t, 'admin'));
+    expect(res.body.events[0]).toMatchObject({
+      subjectId: id,
+      details: { from: 'viewer', to: 'technician' },
+      actorName: 'Ada Admin',
+    });
   });
 
-  it.each(['lead', 'engineer', 'technician', 'viewer'])('keeps the lab-wide log and its check for admins: 403 for the %s', async (role) => {
-    expect((await request(t.app).get('/api/audit').set(await as(t, role))).status).toBe(403);
-    expect((await request(t.app).get('/api/audit/verify').set(await as(t, role))).status).toBe(403);
-  });
+  it.each(['lead', 'engineer', 'technician', 'viewer'])(
+    'keeps the lab-wide log and its check for admins: 403 for the %s',
+    async (role) => {
+      expect(
+        (
+          await request(t.app)
+            .get('/api/audit')
+            .set(await as(t, role))
+        ).status,
+      ).toBe(403);
+      expect(
+        (
+          await request(t.app)
+            .get('/api/audit/verify')
+            .set(await as(t, role))
+        ).status,
+      ).toBe(403);
+    },
+  );
 
   it('filters by user, kind and date, newest first, in pages that follow the cursor', async () => {
     const admin = await as(t, 'admin');
     const users = await request(t.app).get('/api/users').set(admin);
     const engineer = users.body.users.find((u: { role: string }) => u.role === 'engineer');
-    const byUser = await request(t.app).get(`/api/audit?userId=${engineer.id}&kind=study&limit=500`).set(admin);
+    const byUser = await request(t.app)
+      .get(`/api/audit?userId=${engineer.id}&kind=study&limit=500`)
+      .set(admin);
     expect(byUser.status).toBe(200);
     expect(byUser.body.events.length).toBeGreaterThanOrEqual(31);
-    expect(byUser.body.events.every((e: { actorId: number; action: string }) => e.actorId === engineer.id && e.action.startsWith('study.'))).toBe(true);
+    expect(
+      byUser.body.events.every(
+        (e: { actorId: number; action: string }) =>
+          e.actorId === engineer.id && e.action.startsWith('study.'),
+      ),
+    ).toBe(true);
     const ids = byUser.body.events.map((e: { id: number }) => e.id);
     expect(ids).toEqual([...ids].sort((a: number, b: number) => b - a));
 
@@ -89,7 +144,9 @@ describe('the audit chain', () => {
     let cursor: string | null = null;
     for (let page = 0; page < 20; page++) {
       const res: request.Response = await request(t.app)
-        .get(`/api/audit?userId=${engineer.id}&kind=study&limit=7${cursor ? `&cursor=${cursor}` : ''}`)
+        .get(
+          `/api/audit?userId=${engineer.id}&kind=study&limit=7${cursor ? `&cursor=${cursor}` : ''}`,
+        )
         .set(admin);
       expect(res.body.events.length).toBeLessThanOrEqual(7);
       seen.push(...res.body.events.map((e: { id: number }) => e.id));
@@ -99,7 +156,9 @@ describe('the audit chain', () => {
     expect(seen).toEqual(ids);
 
     const today = new Date().toISOString().slice(0, 10);
-    const dated = await request(t.app).get(`/api/audit?from=${today}&to=${today}&limit=1`).set(admin);
+    const dated = await request(t.app)
+      .get(`/api/audit?from=${today}&to=${today}&limit=1`)
+      .set(admin);
     expect(dated.body.events).toHaveLength(1);
     const none = await request(t.app).get('/api/audit?from=2001-01-01&to=2001-01-02').set(admin);
     expect(none.body).toEqual({ events: [], nextCursor: null });
@@ -108,9 +167,14 @@ describe('the audit chain', () => {
   });
 
   it('names the first broken link when a row is edited in SQL', async () => {
-    const { rows } = await t.db.pool.query(`SELECT id FROM audit_events WHERE action = 'study.create' ORDER BY id LIMIT 1 OFFSET 3`);
+    const { rows } = await t.db.pool.query(
+      `SELECT id FROM audit_events WHERE action = 'study.create' ORDER BY id LIMIT 1 OFFSET 3`,
+    );
     const victim = Number(rows[0].id);
-    await t.db.pool.query(`UPDATE audit_events SET details = jsonb_set(details, '{title}', '"Quietly renamed"') WHERE id = $1`, [victim]);
+    await t.db.pool.query(
+      `UPDATE audit_events SET details = jsonb_set(details, '{title}', '"Quietly renamed"') WHERE id = $1`,
+      [victim],
+    );
     const v = await verify();
     expect(v.body.ok).toBe(false);
     expect(v.body.firstBroken).toMatchObject({ id: victim, reason: 'content-changed' });
@@ -119,7 +183,9 @@ describe('the audit chain', () => {
   });
 
   it('names the row after a deleted one, even when the edited row is restored', async () => {
-    const { rows } = await t.db.pool.query(`SELECT id FROM audit_events ORDER BY id LIMIT 3 OFFSET 1`);
+    const { rows } = await t.db.pool.query(
+      `SELECT id FROM audit_events ORDER BY id LIMIT 3 OFFSET 1`,
+    );
     const [deleted, next] = [Number(rows[0].id), Number(rows[1].id)];
     await t.db.pool.query('DELETE FROM audit_events WHERE id = $1', [deleted]);
     const v = await verify();

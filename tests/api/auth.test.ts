@@ -13,17 +13,25 @@ afterAll(async () => {
 
 describe('sign-in', () => {
   it('signs in a demo user and returns a token and the user', async () => {
-    const res = await request(t.app).post('/api/auth/login').send({ email: 'Engineer@KestrelBay.example', password: 'driftbench-demo' });
+    const res = await request(t.app)
+      .post('/api/auth/login')
+      .send({ email: 'Engineer@KestrelBay.example', password: 'driftbench-demo' });
     expect(res.status).toBe(200);
     expect(res.body.user).toMatchObject({ email: 'engineer@kestrelbay.example', role: 'engineer' });
     expect(Object.keys(res.body.user).sort()).toEqual(['email', 'id', 'name', 'role']);
-    const claims = jwt.verify(res.body.token, TEST_JWT_SECRET, { algorithms: ['HS256'] }) as jwt.JwtPayload;
+    const claims = jwt.verify(res.body.token, TEST_JWT_SECRET, {
+      algorithms: ['HS256'],
+    }) as jwt.JwtPayload;
     expect(claims.exp! - claims.iat!).toBe(12 * 3600);
   });
 
   it('answers a wrong password and an unknown user the same way', async () => {
-    const wrong = await request(t.app).post('/api/auth/login').send({ email: 'lead@kestrelbay.example', password: 'not-the-password' });
-    const unknown = await request(t.app).post('/api/auth/login').send({ email: 'nobody@kestrelbay.example', password: 'not-the-password' });
+    const wrong = await request(t.app)
+      .post('/api/auth/login')
+      .send({ email: 'lead@kestrelbay.example', password: 'not-the-password' });
+    const unknown = await request(t.app)
+      .post('/api/auth/login')
+      .send({ email: 'nobody@kestrelbay.example', password: 'not-the-password' });
     expect(wrong.status).toBe(401);
     expect(unknown.status).toBe(401);
     expect(wrong.body).toEqual(unknown.body);
@@ -38,7 +46,10 @@ describe('sign-in', () => {
   });
 
   it('refuses malformed JSON with 400', async () => {
-    const res = await request(t.app).post('/api/auth/login').set('content-type', 'application/json').send('{"email":');
+    const res = await request(t.app)
+      .post('/api/auth/login')
+      .set('content-type', 'application/json')
+      .send('{"email":');
     expect(res.status).toBe(400);
     expect(res.body.error.code).toBe('bad-json');
   });
@@ -46,9 +57,14 @@ describe('sign-in', () => {
 
 describe('me', () => {
   it('returns the signed-in user', async () => {
-    const res = await request(t.app).get('/api/auth/me').set('authorization', `Bearer ${await t.tokenFor('technician')}`);
+    const res = await request(t.app)
+      .get('/api/auth/me')
+      .set('authorization', `Bearer ${await t.tokenFor('technician')}`);
     expect(res.status).toBe(200);
-    expect(res.body.user).toMatchObject({ email: 'technician@kestrelbay.example', role: 'technician' });
+    expect(res.body.user).toMatchObject({
+      email: 'technician@kestrelbay.example',
+      role: 'technician',
+    });
   });
 
   it('answers 401 without a token', async () => {
@@ -64,14 +80,21 @@ describe('me', () => {
   });
 
   it('answers 401 token-expired to an expired token', async () => {
-    const expired = jwt.sign({ role: 'viewer', exp: Math.floor(Date.now() / 1000) - 60 }, TEST_JWT_SECRET, { algorithm: 'HS256', subject: '1' });
+    const expired = jwt.sign(
+      { role: 'viewer', exp: Math.floor(Date.now() / 1000) - 60 },
+      TEST_JWT_SECRET,
+      { algorithm: 'HS256', subject: '1' },
+    );
     const res = await request(t.app).get('/api/auth/me').set('authorization', `Bearer ${expired}`);
     expect(res.status).toBe(401);
     expect(res.body.error.code).toBe('token-expired');
   });
 
   it('refuses a token signed with another secret', async () => {
-    const forged = jwt.sign({ role: 'admin' }, 'another-secret-another-secret-another', { algorithm: 'HS256', subject: '1' });
+    const forged = jwt.sign({ role: 'admin' }, 'another-secret-another-secret-another', {
+      algorithm: 'HS256',
+      subject: '1',
+    });
     const res = await request(t.app).get('/api/auth/me').set('authorization', `Bearer ${forged}`);
     expect(res.status).toBe(401);
   });
@@ -79,7 +102,9 @@ describe('me', () => {
 
 describe('the rest of /api', () => {
   it('answers 404 JSON for an unknown route', async () => {
-    const res = await request(t.app).get('/api/no-such-thing').set('authorization', `Bearer ${await t.tokenFor('viewer')}`);
+    const res = await request(t.app)
+      .get('/api/no-such-thing')
+      .set('authorization', `Bearer ${await t.tokenFor('viewer')}`);
     expect(res.status).toBe(404);
     expect(res.body.error.code).toBe('not-found');
   });

@@ -20,15 +20,27 @@ async function capture(extra: Record<string, unknown> = {}) {
   const res = await request(t.app)
     .post('/api/captures')
     .set(await auth('technician'))
-    .send({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], quantity: 'frequency', unit: 'Hz', gateTime: 1, ...extra });
+    .send({
+      dutId: ids.crystal.id,
+      checkpointId: ids.checkpoints[0],
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+      ...extra,
+    });
   expect(res.status).toBe(201);
   return res.body.id as number;
 }
 async function send(id: number, readings: unknown[]) {
-  return request(t.app).post(`/api/captures/${id}/readings`).set(await auth('technician')).send({ readings });
+  return request(t.app)
+    .post(`/api/captures/${id}/readings`)
+    .set(await auth('technician'))
+    .send({ readings });
 }
 async function finish(id: number) {
-  return request(t.app).post(`/api/captures/${id}/finish`).set(await auth('technician'));
+  return request(t.app)
+    .post(`/api/captures/${id}/finish`)
+    .set(await auth('technician'));
 }
 
 describe('the data path on awkward input', () => {
@@ -42,37 +54,72 @@ describe('the data path on awkward input', () => {
   it.each([
     ['run backwards', (i: number) => 20 - i],
     ['stand still', () => 0],
-  ])('finishes a capture whose timestamps %s, with a note instead of gaps and drift', async (_, time) => {
-    const id = await capture();
-    await send(id, Array.from({ length: 20 }, (_, i) => ({ seq: i, t: time(i), value: 16e6 + (i % 3) * 1e-3 })));
-    const fin = await finish(id);
-    expect(fin.status).toBe(200);
-    expect(fin.body.state).toBe('finished');
-    const analysis = await request(t.app).get(`/api/captures/${id}/analysis`).set(await auth('viewer'));
-    expect(analysis.status).toBe(200);
-    expect(analysis.body.notes.join(' ')).toMatch(/not computed/);
-  });
+  ])(
+    'finishes a capture whose timestamps %s, with a note instead of gaps and drift',
+    async (_, time) => {
+      const id = await capture();
+      await send(
+        id,
+        Array.from({ length: 20 }, (_, i) => ({
+          seq: i,
+          t: time(i),
+          value: 16e6 + (i % 3) * 1e-3,
+        })),
+      );
+      const fin = await finish(id);
+      expect(fin.status).toBe(200);
+      expect(fin.body.state).toBe('finished');
+      const analysis = await request(t.app)
+        .get(`/api/captures/${id}/analysis`)
+        .set(await auth('viewer'));
+      expect(analysis.status).toBe(200);
+      expect(analysis.body.notes.join(' ')).toMatch(/not computed/);
+    },
+  );
 
   it('reports the reference-corrected mean once in the budget', async () => {
     // f_true = f_displayed·(1 + y_ref) is applied once, before the statistics.
-    const refs = await request(t.app).get('/api/references').set(await auth('viewer'));
+    const refs = await request(t.app)
+      .get('/api/references')
+      .set(await auth('viewer'));
     const id = await capture({ referenceId: refs.body.references[0].id });
     const rnd = seeded(7);
-    await send(id, Array.from({ length: 200 }, (_, i) => ({ seq: i, t: i, value: 16e6 + 1e-3 * rnd.gauss() })));
+    await send(
+      id,
+      Array.from({ length: 200 }, (_, i) => ({ seq: i, t: i, value: 16e6 + 1e-3 * rnd.gauss() })),
+    );
     await finish(id);
-    const analysis = await request(t.app).get(`/api/captures/${id}/analysis`).set(await auth('viewer'));
+    const analysis = await request(t.app)
+      .get(`/api/captures/${id}/analysis`)
+      .set(await auth('viewer'));
     expect(analysis.body.uncertainty.mean).toBe(analysis.body.stats.mean);
   });
 
   it('keeps every extreme inside a zoomed range of a finished capture, and none outside it', async () => {
     const id = await capture();
     const n = 60_000;
-    const value = (i: number) => (i === 50 ? 16e6 - 2000 : i === 150 ? 16e6 - 1000 : i === 59_990 ? 16e6 + 500 : 16e6 + Math.sin(i / 300));
+    const value = (i: number) =>
+      i === 50
+        ? 16e6 - 2000
+        : i === 150
+          ? 16e6 - 1000
+          : i === 59_990
+            ? 16e6 + 500
+            : 16e6 + Math.sin(i / 300);
     for (let from = 0; from < n; from += 20_000) {
-      await send(id, Array.from({ length: 20_000 }, (_, k) => ({ seq: from + k, t: from + k, value: value(from + k) })));
+      await send(
+        id,
+        Array.from({ length: 20_000 }, (_, k) => ({
+          seq: from + k,
+          t: from + k,
+          value: value(from + k),
+        })),
+      );
     }
     await finish(id);
-    const res = await request(t.app).get(`/api/captures/${id}/readings?from=100&to=50099&maxPoints=200`).set(await auth('viewer'));
+    const res = await request(t.app)
+      .get(`/api/captures/${id}/readings?from=100&to=50099&maxPoints=200`)
+      .set(await auth('viewer'));
     expect(res.status).toBe(200);
     expect(res.body.decimated).toBe(true);
     expect(res.body.readings.length).toBeLessThanOrEqual(200);
@@ -81,7 +128,9 @@ describe('the data path on awkward input', () => {
     expect(Math.min(...seqs)).toBeGreaterThanOrEqual(100);
     expect(Math.max(...seqs)).toBeLessThanOrEqual(50_099);
     expect(seqs).toEqual([...seqs].sort((a, b) => a - b));
-    const tail = await request(t.app).get(`/api/captures/${id}/readings?from=30001&to=59999&maxPoints=100`).set(await auth('viewer'));
+    const tail = await request(t.app)
+      .get(`/api/captures/${id}/readings?from=30001&to=59999&maxPoints=100`)
+      .set(await auth('viewer'));
     expect(tail.body.readings.map((r: { seq: number }) => r.seq)).toContain(59_990);
   });
 
@@ -89,18 +138,33 @@ describe('the data path on awkward input', () => {
     const res = await request(t.app)
       .post('/api/captures')
       .set(await auth('technician'))
-      .send({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], quantity: 'frequency', unit: 'MHz', gateTime: 1 });
+      .send({
+        dutId: ids.crystal.id,
+        checkpointId: ids.checkpoints[0],
+        quantity: 'frequency',
+        unit: 'MHz',
+        gateTime: 1,
+      });
     expect(res.status).toBe(400);
     expect(res.body.error.details[0].path).toBe('unit');
   });
 
   it('keeps the ambient temperature of a finished capture as recorded', async () => {
     const id = await capture({ ambientC: 23 });
-    await send(id, [{ seq: 0, t: 0, value: 16e6 }, { seq: 1, t: 1, value: 16e6 }]);
+    await send(id, [
+      { seq: 0, t: 0, value: 16e6 },
+      { seq: 1, t: 1, value: 16e6 },
+    ]);
     await finish(id);
-    const res = await request(t.app).patch(`/api/captures/${id}`).set(await auth('engineer')).send({ ambientC: 30 });
+    const res = await request(t.app)
+      .patch(`/api/captures/${id}`)
+      .set(await auth('engineer'))
+      .send({ ambientC: 30 });
     expect(res.status).toBe(409);
-    const notes = await request(t.app).patch(`/api/captures/${id}`).set(await auth('engineer')).send({ notes: 'lid closed', ambientC: 23 });
+    const notes = await request(t.app)
+      .patch(`/api/captures/${id}`)
+      .set(await auth('engineer'))
+      .send({ notes: 'lid closed', ambientC: 23 });
     expect(notes.status).toBe(200);
   });
 
@@ -109,16 +173,30 @@ describe('the data path on awkward input', () => {
     // 28 °C −0.306 ppm (computed). A part that did not change reads +0.544 ppm apart raw.
     const f0 = ids.tuningFork.nominal;
     const at = async (checkpoint: number, T: number, seed: number) => {
-      const id = await capture({ dutId: ids.tuningFork.id, checkpointId: checkpoint, ambientC: T, referenceId: 1 });
+      const id = await capture({
+        dutId: ids.tuningFork.id,
+        checkpointId: checkpoint,
+        ambientC: T,
+        referenceId: 1,
+      });
       const rnd = seeded(seed);
       const shift = -0.034 * (T - 25) ** 2 * 1e-6;
-      await send(id, Array.from({ length: 400 }, (_, i) => ({ seq: i, t: i, value: f0 * (1 + shift) + 1e-6 * rnd.gauss() })));
+      await send(
+        id,
+        Array.from({ length: 400 }, (_, i) => ({
+          seq: i,
+          t: i,
+          value: f0 * (1 + shift) + 1e-6 * rnd.gauss(),
+        })),
+      );
       await finish(id);
       return id;
     };
     const before = await at(ids.checkpoints[0], 20, 11);
     const after = await at(ids.checkpoints[1], 28, 12);
-    const res = await request(t.app).get(`/api/comparisons?before=${before}&after=${after}`).set(await auth('viewer'));
+    const res = await request(t.app)
+      .get(`/api/comparisons?before=${before}&after=${after}`)
+      .set(await auth('viewer'));
     expect(res.status).toBe(200);
     expect(res.body.temperatureNormalised).toBe(true);
     expect(Math.abs(res.body.deltaPpm)).toBeLessThan(0.01);
@@ -127,9 +205,14 @@ describe('the data path on awkward input', () => {
     expect(res.body.verdict).toBe('inconclusive');
     // With this part's own turnover known to ±0.5 °C (standard uncertainty) the line is 0.27 ppm
     // and the unchanged part reads within again.
-    const known = await request(t.app).patch(`/api/duts/${ids.tuningFork.id}`).set(await auth('engineer')).send({ turnoverC: 25, turnoverU: 0.5 });
+    const known = await request(t.app)
+      .patch(`/api/duts/${ids.tuningFork.id}`)
+      .set(await auth('engineer'))
+      .send({ turnoverC: 25, turnoverU: 0.5 });
     expect(known.status).toBe(200);
-    const again = await request(t.app).get(`/api/comparisons?before=${before}&after=${after}`).set(await auth('viewer'));
+    const again = await request(t.app)
+      .get(`/api/comparisons?before=${before}&after=${after}`)
+      .set(await auth('viewer'));
     expect(again.body.verdict).toBe('within');
   });
 });

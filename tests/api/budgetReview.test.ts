@@ -24,12 +24,27 @@ async function finishedCapture(values: number[], extra: Record<string, unknown> 
   const c = await request(t.app)
     .post('/api/captures')
     .set(head)
-    .send({ dutId: ids.tuningFork.id, checkpointId: ids.checkpoints[0], quantity: 'frequency', unit: 'Hz', gateTime: 1, ambientC: 23, ...extra });
+    .send({
+      dutId: ids.tuningFork.id,
+      checkpointId: ids.checkpoints[0],
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+      ambientC: 23,
+      ...extra,
+    });
   expect(c.status).toBe(201);
   const readings = values.map((value, seq) => ({ seq, t: seq, value }));
-  expect((await request(t.app).post(`/api/captures/${c.body.id}/readings`).set(head).send({ readings })).status).toBe(200);
-  expect((await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(head)).status).toBe(200);
-  const analysis = await request(t.app).get(`/api/captures/${c.body.id}/analysis?drift=none`).set(head);
+  expect(
+    (await request(t.app).post(`/api/captures/${c.body.id}/readings`).set(head).send({ readings }))
+      .status,
+  ).toBe(200);
+  expect((await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(head)).status).toBe(
+    200,
+  );
+  const analysis = await request(t.app)
+    .get(`/api/captures/${c.body.id}/analysis?drift=none`)
+    .set(head);
   expect(analysis.status).toBe(200);
   return analysis.body;
 }
@@ -49,7 +64,9 @@ describe('a capture whose counter is not recorded', () => {
 
   it('books one display step of the readings when they resolve only whole hertz', async () => {
     const g = gaussian(3);
-    const a = await finishedCapture(Array.from({ length: 200 }, () => 32_768 + Math.round(2 * g())));
+    const a = await finishedCapture(
+      Array.from({ length: 200 }, () => 32_768 + Math.round(2 * g())),
+    );
     const res = (a.uncertainty.components as Line[]).find((l) => /resolution/i.test(l.name))!;
     expect(res.value).toBeCloseTo(1 / Math.sqrt(3), 6); // step 1 Hz inferred from the data
   });

@@ -23,18 +23,35 @@ async function newCapture(role: string, checkpointId: number, gateTime = 1) {
   const res = await request(t.app)
     .post('/api/captures')
     .set(await auth(role))
-    .send({ dutId: ids.crystal.id, checkpointId, quantity: 'frequency', unit: 'Hz', gateTime, ambientC: 23 });
+    .send({
+      dutId: ids.crystal.id,
+      checkpointId,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime,
+      ambientC: 23,
+    });
   expect(res.status).toBe(201);
   return res.body.id as number;
 }
 
 async function addReadings(id: number, role: string, from: number, n: number) {
-  const readings = Array.from({ length: n }, (_, i) => ({ seq: from + i, t: from + i, value: 16e6 + 0.01 * Math.sin(from + i) }));
-  return request(t.app).post(`/api/captures/${id}/readings`).set(await auth(role)).send({ readings });
+  const readings = Array.from({ length: n }, (_, i) => ({
+    seq: from + i,
+    t: from + i,
+    value: 16e6 + 0.01 * Math.sin(from + i),
+  }));
+  return request(t.app)
+    .post(`/api/captures/${id}/readings`)
+    .set(await auth(role))
+    .send({ readings });
 }
 
 async function auditOf(id: number, action: string) {
-  const { rows } = await t.db.pool.query<{ actor_id: number | null; details: Record<string, unknown> }>(
+  const { rows } = await t.db.pool.query<{
+    actor_id: number | null;
+    details: Record<string, unknown>;
+  }>(
     "SELECT actor_id, details FROM audit_events WHERE subject_type = 'capture' AND subject_id = $1 AND action = $2 ORDER BY id",
     [id, action],
   );
@@ -45,74 +62,142 @@ describe('aborting a capture', () => {
   it('keeps the readings, marks it aborted with the reason, audits it and refuses more readings', async () => {
     const id = await newCapture('technician', ids.checkpoints[1]);
     expect((await addReadings(id, 'technician', 0, 25)).status).toBe(200);
-    const lead = await request(t.app).post(`/api/captures/${id}/abort`).set(await auth('lead')).send({ reason: 'fixture cable came loose' });
+    const lead = await request(t.app)
+      .post(`/api/captures/${id}/abort`)
+      .set(await auth('lead'))
+      .send({ reason: 'fixture cable came loose' });
     expect(lead.status).toBe(200);
     expect(lead.body.state).toBe('aborted');
     expect(lead.body.abortReason).toBe('fixture cable came loose');
     expect(lead.body.readingCount).toBe(25);
     expect(lead.body.endedAt).not.toBeNull();
-    const { rows } = await t.db.pool.query('SELECT count(*)::int AS n FROM readings WHERE capture_id = $1', [id]);
+    const { rows } = await t.db.pool.query(
+      'SELECT count(*)::int AS n FROM readings WHERE capture_id = $1',
+      [id],
+    );
     expect(rows[0].n).toBe(25);
     // The kept readings still draw (tiles) and are sealed against later change.
-    const chart = await request(t.app).get(`/api/captures/${id}/readings?maxPoints=100`).set(await auth('viewer'));
+    const chart = await request(t.app)
+      .get(`/api/captures/${id}/readings?maxPoints=100`)
+      .set(await auth('viewer'));
     expect(chart.status).toBe(200);
     expect(chart.body.readings.length).toBeGreaterThan(0);
     expect(lead.body.sealSha256).toMatch(/^[0-9a-f]{64}$/);
 
     const events = await auditOf(id, 'capture.abort');
     expect(events).toHaveLength(1);
-    expect(events[0].details).toMatchObject({ reason: 'fixture cable came loose', readings: 25, state: { from: 'open', to: 'aborted' } });
+    expect(events[0].details).toMatchObject({
+      reason: 'fixture cable came loose',
+      readings: 25,
+      state: { from: 'open', to: 'aborted' },
+    });
 
     const more = await addReadings(id, 'technician', 25, 1);
     expect(more.status).toBe(409);
     expect(more.body.error.code).toBe('capture-aborted');
-    const finish = await request(t.app).post(`/api/captures/${id}/finish`).set(await auth('technician')).send();
+    const finish = await request(t.app)
+      .post(`/api/captures/${id}/finish`)
+      .set(await auth('technician'))
+      .send();
     expect(finish.status).toBe(409);
-    const again = await request(t.app).post(`/api/captures/${id}/abort`).set(await auth('lead')).send({ reason: 'twice' });
+    const again = await request(t.app)
+      .post(`/api/captures/${id}/abort`)
+      .set(await auth('lead'))
+      .send({ reason: 'twice' });
     expect(again.status).toBe(409);
-    const listed = await request(t.app).get(`/api/captures?state=aborted&dutId=${ids.crystal.id}`).set(await auth('viewer'));
+    const listed = await request(t.app)
+      .get(`/api/captures?state=aborted&dutId=${ids.crystal.id}`)
+      .set(await auth('viewer'));
     expect(listed.body.captures.map((c: { id: number }) => c.id)).toContain(id);
   });
 
   it('lets its operator abort, but not another technician or a viewer, and asks for a reason', async () => {
     const id = await newCapture('technician', ids.checkpoints[1]);
-    const noReason = await request(t.app).post(`/api/captures/${id}/abort`).set(await auth('technician')).send({});
+    const noReason = await request(t.app)
+      .post(`/api/captures/${id}/abort`)
+      .set(await auth('technician'))
+      .send({});
     expect(noReason.status).toBe(400);
-    const blank = await request(t.app).post(`/api/captures/${id}/abort`).set(await auth('technician')).send({ reason: '  ' });
+    const blank = await request(t.app)
+      .post(`/api/captures/${id}/abort`)
+      .set(await auth('technician'))
+      .send({ reason: '  ' });
     expect(blank.status).toBe(400);
-    const viewer = await request(t.app).post(`/api/captures/${id}/abort`).set(await auth('viewer')).send({ reason: 'not mine' });
+    const viewer = await request(t.app)
+      .post(`/api/captures/${id}/abort`)
+      .set(await auth('viewer'))
+      .send({ reason: 'not mine' });
     expect(viewer.status).toBe(403);
     const engineerId = await newCapture('engineer', ids.checkpoints[1]);
-    const other = await request(t.app).post(`/api/captures/${engineerId}/abort`).set(await auth('technician')).send({ reason: 'not mine' });
+    const other = await request(t.app)
+      .post(`/api/captures/${engineerId}/abort`)
+      .set(await auth('technician'))
+      .send({ reason: 'not mine' });
     expect(other.status).toBe(403);
-    const own = await request(t.app).post(`/api/captures/${id}/abort`).set(await auth('technician')).send({ reason: 'wrong DUT on the fixture' });
+    const own = await request(t.app)
+      .post(`/api/captures/${id}/abort`)
+      .set(await auth('technician'))
+      .send({ reason: 'wrong DUT on the fixture' });
     expect(own.status).toBe(200);
     expect(own.body.state).toBe('aborted');
-    const missing = await request(t.app).post('/api/captures/999999/abort').set(await auth('lead')).send({ reason: 'gone' });
+    const missing = await request(t.app)
+      .post('/api/captures/999999/abort')
+      .set(await auth('lead'))
+      .send({ reason: 'gone' });
     expect(missing.status).toBe(404);
   });
 
   it('keeps an aborted capture out of the matrix and out of every comparison', async () => {
     const base = await newCapture('technician', ids.checkpoints[0]);
     await addReadings(base, 'technician', 0, 30);
-    expect((await request(t.app).post(`/api/captures/${base}/finish`).set(await auth('technician')).send()).status).toBe(200);
+    expect(
+      (
+        await request(t.app)
+          .post(`/api/captures/${base}/finish`)
+          .set(await auth('technician'))
+          .send()
+      ).status,
+    ).toBe(200);
     const good = await newCapture('technician', ids.checkpoints[1]);
     await addReadings(good, 'technician', 0, 30);
-    expect((await request(t.app).post(`/api/captures/${good}/finish`).set(await auth('technician')).send()).status).toBe(200);
+    expect(
+      (
+        await request(t.app)
+          .post(`/api/captures/${good}/finish`)
+          .set(await auth('technician'))
+          .send()
+      ).status,
+    ).toBe(200);
     // A later capture of the same cell, aborted: the cell keeps the finished one.
     const aborted = await newCapture('technician', ids.checkpoints[1]);
     await addReadings(aborted, 'technician', 0, 30);
-    expect((await request(t.app).post(`/api/captures/${aborted}/abort`).set(await auth('lead')).send({ reason: 'bath splashed the board' })).status).toBe(200);
+    expect(
+      (
+        await request(t.app)
+          .post(`/api/captures/${aborted}/abort`)
+          .set(await auth('lead'))
+          .send({ reason: 'bath splashed the board' })
+      ).status,
+    ).toBe(200);
 
-    const matrix = await request(t.app).get(`/api/studies/${ids.studyId}/matrix`).set(await auth('viewer'));
+    const matrix = await request(t.app)
+      .get(`/api/studies/${ids.studyId}/matrix`)
+      .set(await auth('viewer'));
     expect(matrix.status).toBe(200);
     const row = matrix.body.rows.find((r: { dut: { id: number } }) => r.dut.id === ids.crystal.id);
-    const cell = row.cells.find((c: { checkpointId: number }) => c.checkpointId === ids.checkpoints[1]);
+    const cell = row.cells.find(
+      (c: { checkpointId: number }) => c.checkpointId === ids.checkpoints[1],
+    );
     expect(cell.capture.id).toBe(good);
-    const ids_ = matrix.body.rows.flatMap((r: { cells: Array<{ capture: { id: number } | null }> }) => r.cells.map((c) => c.capture?.id));
+    const ids_ = matrix.body.rows.flatMap(
+      (r: { cells: Array<{ capture: { id: number } | null }> }) =>
+        r.cells.map((c) => c.capture?.id),
+    );
     expect(ids_).not.toContain(aborted);
 
-    const cmp = await request(t.app).get(`/api/comparisons?before=${base}&after=${aborted}`).set(await auth('viewer'));
+    const cmp = await request(t.app)
+      .get(`/api/comparisons?before=${base}&after=${aborted}`)
+      .set(await auth('viewer'));
     expect(cmp.status).toBe(409);
     expect(cmp.body.error.code).toBe('capture-aborted');
   });
@@ -124,9 +209,12 @@ describe('the stall sweep', () => {
       "SELECT pg_get_constraintdef(oid) AS def FROM pg_constraint WHERE conrelid = 'captures'::regclass AND conname = 'captures_state_allowed'",
     );
     expect(rows).toHaveLength(1);
-    for (const s of ['open', 'stalled', 'finished', 'aborted']) expect(rows[0].def).toContain(`'${s}'`);
+    for (const s of ['open', 'stalled', 'finished', 'aborted'])
+      expect(rows[0].def).toContain(`'${s}'`);
     const id = await newCapture('technician', ids.checkpoints[1]);
-    await expect(t.db.pool.query("UPDATE captures SET state = 'paused' WHERE id = $1", [id])).rejects.toMatchObject({ code: '23514' });
+    await expect(
+      t.db.pool.query("UPDATE captures SET state = 'paused' WHERE id = $1", [id]),
+    ).rejects.toMatchObject({ code: '23514' });
   });
 
   it('waits max(gate × 100, 10 min): 10 min for a 1 s gate, 100 × gate beyond that', () => {
@@ -142,16 +230,28 @@ describe('the stall sweep', () => {
     // Nine minutes without readings: still open.
     const early = await sweepStalledCaptures(new Date(now + 9 * 60_000));
     expect(early.stalled).not.toContain(id);
-    expect((await request(t.app).get(`/api/captures/${id}`).set(await auth('viewer'))).body.state).toBe('open');
+    expect(
+      (
+        await request(t.app)
+          .get(`/api/captures/${id}`)
+          .set(await auth('viewer'))
+      ).body.state,
+    ).toBe('open');
 
     const later = await sweepStalledCaptures(new Date(now + 11 * 60_000));
     expect(later.stalled).toContain(id);
-    const c = await request(t.app).get(`/api/captures/${id}`).set(await auth('viewer'));
+    const c = await request(t.app)
+      .get(`/api/captures/${id}`)
+      .set(await auth('viewer'));
     expect(c.body.state).toBe('stalled');
     expect(c.body.stalledAt).not.toBeNull();
     expect(await auditOf(id, 'capture.stall')).toHaveLength(1);
 
-    const { rows: mail } = await t.db.pool.query<{ to_address: string; subject: string; body: string }>(
+    const { rows: mail } = await t.db.pool.query<{
+      to_address: string;
+      subject: string;
+      body: string;
+    }>(
       "SELECT to_address, subject, body FROM mail_outbox WHERE kind = 'capture-stalled' AND subject LIKE $1",
       [`%capture #${id} %`],
     );
@@ -163,14 +263,18 @@ describe('the stall sweep', () => {
     expect(again.stalled).not.toContain(id);
 
     // The stalled capture is listed as such and cannot go into review.
-    const list = await request(t.app).get('/api/captures?state=stalled').set(await auth('viewer'));
+    const list = await request(t.app)
+      .get('/api/captures?state=stalled')
+      .set(await auth('viewer'));
     expect(list.body.captures.map((x: { id: number }) => x.id)).toContain(id);
 
     // Readings again: back to open, audited, every reading kept.
     const back = await addReadings(id, 'technician', 5, 3);
     expect(back.status).toBe(200);
     expect(back.body.accepted).toBe(3);
-    const revived = await request(t.app).get(`/api/captures/${id}`).set(await auth('viewer'));
+    const revived = await request(t.app)
+      .get(`/api/captures/${id}`)
+      .set(await auth('viewer'));
     expect(revived.body.state).toBe('open');
     expect(revived.body.readingCount).toBe(8);
     expect(await auditOf(id, 'capture.resume')).toHaveLength(1);
@@ -196,12 +300,20 @@ describe('the stall sweep', () => {
     await addReadings(b, 'technician', 0, 10);
     const sweep = await sweepStalledCaptures(new Date(Date.now() + 11 * 60_000));
     expect(sweep.stalled).toEqual(expect.arrayContaining([a, b]));
-    const fin = await request(t.app).post(`/api/captures/${a}/finish`).set(await auth('technician')).send();
+    const fin = await request(t.app)
+      .post(`/api/captures/${a}/finish`)
+      .set(await auth('technician'))
+      .send();
     expect(fin.status).toBe(200);
     expect(fin.body.state).toBe('finished');
     expect(fin.body.readingCount).toBe(10);
-    const ab = await request(t.app).post(`/api/captures/${b}/abort`).set(await auth('lead')).send({ reason: 'left over the weekend' });
+    const ab = await request(t.app)
+      .post(`/api/captures/${b}/abort`)
+      .set(await auth('lead'))
+      .send({ reason: 'left over the weekend' });
     expect(ab.status).toBe(200);
-    expect((await auditOf(b, 'capture.abort'))[0].details).toMatchObject({ state: { from: 'stalled', to: 'aborted' } });
+    expect((await auditOf(b, 'capture.abort'))[0].details).toMatchObject({
+      state: { from: 'stalled', to: 'aborted' },
+    });
   });
 });

@@ -17,7 +17,8 @@ beforeAll(async () => {
   t = await createTestApp();
   // Rows in the tables the demo seed leaves empty, written raw so each column has a row to test.
   const pool = t.db.pool;
-  const study = (await pool.query(`SELECT id FROM studies ORDER BY id LIMIT 1`)).rows[0].id as number;
+  const study = (await pool.query(`SELECT id FROM studies ORDER BY id LIMIT 1`)).rows[0]
+    .id as number;
   await pool.query(
     `INSERT INTO study_reviews (study_id, revision, action, from_status, to_status) VALUES ($1, 1, 'start', 'draft', 'running')`,
     [study],
@@ -26,8 +27,12 @@ beforeAll(async () => {
     `INSERT INTO captures (dut_id, checkpoint_id, quantity, unit, gate_time, started_at, created_at, updated_at)
      SELECT (SELECT min(id) FROM duts), (SELECT min(id) FROM checkpoints), 'frequency', 'Hz', 1, now(), now(), now()`,
   );
-  await pool.query(`INSERT INTO readings (capture_id, seq, t, value) SELECT max(id), 0, 0, 1 FROM captures`);
-  await pool.query(`INSERT INTO mail_outbox (kind, to_address, subject, body) VALUES ('test', 'a@example.test', 's', 'b')`);
+  await pool.query(
+    `INSERT INTO readings (capture_id, seq, t, value) SELECT max(id), 0, 0, 1 FROM captures`,
+  );
+  await pool.query(
+    `INSERT INTO mail_outbox (kind, to_address, subject, body) VALUES ('test', 'a@example.test', 's', 'b')`,
+  );
   await pool.query(
     `INSERT INTO attachments (study_id, owner_type, owner_id, filename, content_type, size_bytes, sha256, storage_key, uploaded_by)
      SELECT $1, 'study', $1, 'a.txt', 'text/plain', 1, repeat('0', 64), 'k', (SELECT min(id) FROM users)`,
@@ -39,11 +44,19 @@ afterAll(async () => {
 });
 
 /** Runs `sql` on the first row of `table` inside a transaction that is always rolled back. */
-async function tryOnFirstRow(pool: pg.Pool, table: string, set: string, params: unknown[]): Promise<{ code?: string; rows: number }> {
+async function tryOnFirstRow(
+  pool: pg.Pool,
+  table: string,
+  set: string,
+  params: unknown[],
+): Promise<{ code?: string; rows: number }> {
   const client = await pool.connect();
   try {
     await client.query('BEGIN');
-    const res = await client.query(`UPDATE ${table} SET ${set} WHERE ctid = (SELECT ctid FROM ${table} LIMIT 1)`, params);
+    const res = await client.query(
+      `UPDATE ${table} SET ${set} WHERE ctid = (SELECT ctid FROM ${table} LIMIT 1)`,
+      params,
+    );
     return { rows: res.rowCount ?? 0 };
   } catch (error) {
     return { code: (error as { code?: string }).code, rows: 0 };
@@ -79,18 +92,25 @@ describe('CHECK constraints on state, status, role and kind columns', () => {
     expect(res.code).toBe('23514'); // check_violation (PostgreSQL error codes, appendix A)
   });
 
-  it.each(COLUMNS.filter(([, , values]) => values !== null))('%s.%s accepts every value of its shared enum', async (table, column, values) => {
-    for (const value of values!) {
-      const res = await tryOnFirstRow(t.db.pool, table, `${column} = $1`, [value]);
-      expect(res, `${table}.${column} = '${value}'`).toEqual({ rows: 1 });
-    }
-  });
+  it.each(COLUMNS.filter(([, , values]) => values !== null))(
+    '%s.%s accepts every value of its shared enum',
+    async (table, column, values) => {
+      for (const value of values!) {
+        const res = await tryOnFirstRow(t.db.pool, table, `${column} = $1`, [value]);
+        expect(res, `${table}.${column} = '${value}'`).toEqual({ rows: 1 });
+      }
+    },
+  );
 
   it('a stored link profile names a known link kind', async () => {
-    const bad = await tryOnFirstRow(t.db.pool, 'instruments', `link_profile = $1::jsonb`, [JSON.stringify({ kind: 'carrier-pigeon' })]);
+    const bad = await tryOnFirstRow(t.db.pool, 'instruments', `link_profile = $1::jsonb`, [
+      JSON.stringify({ kind: 'carrier-pigeon' }),
+    ]);
     expect(bad.code).toBe('23514');
     for (const kind of ['serial', 'simulator']) {
-      const good = await tryOnFirstRow(t.db.pool, 'instruments', `link_profile = $1::jsonb`, [JSON.stringify({ kind })]);
+      const good = await tryOnFirstRow(t.db.pool, 'instruments', `link_profile = $1::jsonb`, [
+        JSON.stringify({ kind }),
+      ]);
       expect(good).toEqual({ rows: 1 });
     }
   });
@@ -98,7 +118,9 @@ describe('CHECK constraints on state, status, role and kind columns', () => {
   it('a reading carries only the known flag bits', async () => {
     const all = Object.values(ReadingFlag).reduce((a, b) => a | b, 0);
     expect((await tryOnFirstRow(t.db.pool, 'readings', 'flags = $1', [all])).rows).toBe(1);
-    expect((await tryOnFirstRow(t.db.pool, 'readings', 'flags = $1', [all + 1])).code).toBe('23514');
+    expect((await tryOnFirstRow(t.db.pool, 'readings', 'flags = $1', [all + 1])).code).toBe(
+      '23514',
+    );
     expect((await tryOnFirstRow(t.db.pool, 'readings', 'flags = $1', [-1])).code).toBe('23514');
   });
 });

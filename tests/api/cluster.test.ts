@@ -5,7 +5,12 @@ import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
 import pg from 'pg';
-import { clusterDataDir, freePort, runningPostmaster, startCluster } from '../../server/db/cluster.js';
+import {
+  clusterDataDir,
+  freePort,
+  runningPostmaster,
+  startCluster,
+} from '../../server/db/cluster.js';
 import { PROJECT_ROOT } from '../../server/index.js';
 
 // Issue 10, items 4 and 5: `npm start`'s own PostgreSQL asks every connection for a generated
@@ -35,24 +40,30 @@ afterAll(() => {
 });
 
 /** `npm start` (tsx scripts/start.ts) with its data in `tmp`; resolves with its output once it serves. */
-function npmStart(env: Record<string, string> = {}): Promise<{ child: ChildProcess; output: string }> {
+function npmStart(
+  env: Record<string, string> = {},
+): Promise<{ child: ChildProcess; output: string }> {
   return new Promise((resolve, reject) => {
-    const child = spawn(process.execPath, ['--import', 'tsx', path.join(PROJECT_ROOT, 'scripts/start.ts')], {
-      cwd: PROJECT_ROOT,
-      env: {
-        PATH: process.env.PATH,
-        HOME: process.env.HOME,
-        NODE_ENV: 'development',
-        DRIFTBENCH_DATA: tmp,
-        PGPORT_LOCAL: String(pgPort),
-        PORT: String(httpPort),
-        DRIFTBENCH_SKIP_BUILD: '1',
-        DRIFTBENCH_SIMULATORS: '0',
-        LOG_LEVEL: 'silent',
-        ...env,
+    const child = spawn(
+      process.execPath,
+      ['--import', 'tsx', path.join(PROJECT_ROOT, 'scripts/start.ts')],
+      {
+        cwd: PROJECT_ROOT,
+        env: {
+          PATH: process.env.PATH,
+          HOME: process.env.HOME,
+          NODE_ENV: 'development',
+          DRIFTBENCH_DATA: tmp,
+          PGPORT_LOCAL: String(pgPort),
+          PORT: String(httpPort),
+          DRIFTBENCH_SKIP_BUILD: '1',
+          DRIFTBENCH_SIMULATORS: '0',
+          LOG_LEVEL: 'silent',
+          ...env,
+        },
+        stdio: ['ignore', 'pipe', 'pipe'],
       },
-      stdio: ['ignore', 'pipe', 'pipe'],
-    });
+    );
     children.push(child);
     let output = '';
     const onData = (d: Buffer) => {
@@ -90,13 +101,33 @@ describe('npm start and its local PostgreSQL', () => {
     const password = readFileSync(file, 'utf8').trim();
     expect(password.length).toBeGreaterThanOrEqual(24);
 
-    const without = new pg.Client({ host: '127.0.0.1', port: pgPort, user: 'postgres', database: 'postgres', password: '' });
+    const without = new pg.Client({
+      host: '127.0.0.1',
+      port: pgPort,
+      user: 'postgres',
+      database: 'postgres',
+      password: '',
+    });
     await expect(without.connect()).rejects.toThrow();
-    const wrong = new pg.Client({ host: '127.0.0.1', port: pgPort, user: 'postgres', database: 'postgres', password: 'not-the-password' });
+    const wrong = new pg.Client({
+      host: '127.0.0.1',
+      port: pgPort,
+      user: 'postgres',
+      database: 'postgres',
+      password: 'not-the-password',
+    });
     await expect(wrong.connect()).rejects.toThrow(/password authentication failed/);
-    const right = new pg.Client({ host: '127.0.0.1', port: pgPort, user: 'postgres', database: 'postgres', password });
+    const right = new pg.Client({
+      host: '127.0.0.1',
+      port: pgPort,
+      user: 'postgres',
+      database: 'postgres',
+      password,
+    });
     await right.connect();
-    const hba = await right.query("SELECT count(*)::int AS n FROM pg_hba_file_rules WHERE auth_method = 'trust'");
+    const hba = await right.query(
+      "SELECT count(*)::int AS n FROM pg_hba_file_rules WHERE auth_method = 'trust'",
+    );
     expect(hba.rows[0].n).toBe(0);
     const listen = await right.query('SHOW listen_addresses');
     expect(listen.rows[0].listen_addresses).toBe('127.0.0.1');
@@ -110,7 +141,9 @@ describe('npm start and its local PostgreSQL', () => {
     try {
       const other = mkdtempSync(path.join(os.tmpdir(), 'driftbench-start-'));
       chmodSync(other, 0o755);
-      await expect(npmStart({ PGPORT_LOCAL: String(foreignPort), DRIFTBENCH_DATA: other })).rejects.toThrow(/in use by another program/);
+      await expect(
+        npmStart({ PGPORT_LOCAL: String(foreignPort), DRIFTBENCH_DATA: other }),
+      ).rejects.toThrow(/in use by another program/);
       rmSync(other, { recursive: true, force: true });
     } finally {
       squatter.close();

@@ -11,7 +11,9 @@ let seedMs = 0;
 const tokens = new Map<string, string>();
 async function auth(role: string) {
   if (!tokens.has(role)) {
-    const res = await request(srv.url).post('/api/auth/login').send({ email: `${role}@${DEMO_DOMAIN}`, password: DEMO_PASSWORD });
+    const res = await request(srv.url)
+      .post('/api/auth/login')
+      .send({ email: `${role}@${DEMO_DOMAIN}`, password: DEMO_PASSWORD });
     tokens.set(role, res.body.token);
   }
   return { authorization: `Bearer ${tokens.get(role)}` };
@@ -31,14 +33,23 @@ describe('the demo story', () => {
   it('gives a viewer a matrix of verdicts: the tuning fork exceeds after the over-exposure, the disturbed crystal is inconclusive, the rest within', async () => {
     const head = await auth('viewer');
     const studies = (await request(srv.url).get('/api/studies').set(head)).body;
-    const list = (studies.items ?? studies.studies ?? studies) as Array<{ id: number; title: string; status: string }>;
+    const list = (studies.items ?? studies.studies ?? studies) as Array<{
+      id: number;
+      title: string;
+      status: string;
+    }>;
     const wash = list.find((s) => s.title.startsWith('Aqueous ultrasonic wash'))!;
     const matrix = (await request(srv.url).get(`/api/studies/${wash.id}/matrix`).set(head)).body;
     const verdicts = Object.fromEntries(
-      matrix.rows.map((r: { dut: { label: string }; cells: Array<{ comparison: { verdict: string } | null }> }) => [
-        r.dut.label.split(' ')[0],
-        r.cells.slice(1).map((c) => c.comparison?.verdict ?? null),
-      ]),
+      matrix.rows.map(
+        (r: {
+          dut: { label: string };
+          cells: Array<{ comparison: { verdict: string } | null }>;
+        }) => [
+          r.dut.label.split(' ')[0],
+          r.cells.slice(1).map((c) => c.comparison?.verdict ?? null),
+        ],
+      ),
     );
     // simulators/presets.ts: only the tuning fork shifts (+2.5 ppm from the over-exposure on)
     expect(verdicts).toEqual({
@@ -53,7 +64,10 @@ describe('the demo story', () => {
   it('leaves one capture on air and feeds it a reading per gate', async () => {
     const head = await auth('viewer');
     const open = (await request(srv.url).get('/api/captures?state=open').set(head)).body;
-    const items = (open.items ?? open.captures ?? open) as Array<{ id: number; readingCount: number }>;
+    const items = (open.items ?? open.captures ?? open) as Array<{
+      id: number;
+      readingCount: number;
+    }>;
     expect(items).toHaveLength(1);
     const before = items[0].readingCount;
     await new Promise((r) => setTimeout(r, 2600));
@@ -64,7 +78,10 @@ describe('the demo story', () => {
   it('has an approved reflow study to read', async () => {
     const head = await auth('viewer');
     const studies = (await request(srv.url).get('/api/studies').set(head)).body;
-    const list = (studies.items ?? studies.studies ?? studies) as Array<{ title: string; status: string }>;
+    const list = (studies.items ?? studies.studies ?? studies) as Array<{
+      title: string;
+      status: string;
+    }>;
     expect(list.find((s) => s.title === DEMO_APPROVED_TITLE)?.status).toBe('approved');
   });
 

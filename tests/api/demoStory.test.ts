@@ -8,7 +8,11 @@ import request from 'supertest';
 import { createTestApp, type TestApp } from '../helpers/app.js';
 import { SimCounter } from '../../simulators/counter.js';
 import { ManualClock } from '../../simulators/clock.js';
-import { presetCounter, type CheckpointIndex, type CounterPresetName } from '../../simulators/presets.js';
+import {
+  presetCounter,
+  type CheckpointIndex,
+  type CounterPresetName,
+} from '../../simulators/presets.js';
 
 let t: TestApp;
 const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
@@ -31,7 +35,9 @@ describe('the demo study after issue 8', () => {
   it('still shows the tuning fork exceeding after the over-exposure and every other part within', async () => {
     const head = await auth('technician');
     const study = (await request(t.app).get('/api/studies/1').set(head)).body;
-    const checkpoints = [...study.checkpoints].sort((a: { order: number }, b: { order: number }) => a.order - b.order);
+    const checkpoints = [...study.checkpoints].sort(
+      (a: { order: number }, b: { order: number }) => a.order - b.order,
+    );
     const { instruments } = (await request(t.app).get('/api/instruments').set(head)).body;
     const counter = instruments.find((i: { kind: string }) => i.kind === 'counter').id;
     for (const [preset, position] of PARTS) {
@@ -41,21 +47,45 @@ describe('the demo study after issue 8', () => {
         const c = await request(t.app)
           .post('/api/captures')
           .set(head)
-          .send({ dutId: dut.id, checkpointId: checkpoints[cp].id, quantity: 'frequency', unit: 'Hz', gateTime: 1, referenceId: 1, instrumentId: counter, ambientC: 23 });
+          .send({
+            dutId: dut.id,
+            checkpointId: checkpoints[cp].id,
+            quantity: 'frequency',
+            unit: 'Hz',
+            gateTime: 1,
+            referenceId: 1,
+            instrumentId: counter,
+            ambientC: 23,
+          });
         expect(c.status).toBe(201);
-        const readings = Array.from({ length: 600 }, (_, i) => ({ seq: i, t: i, value: sim.nextReading().value }));
-        await request(t.app).post(`/api/captures/${c.body.id}/readings`).set(head).send({ readings });
-        expect((await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(head)).status).toBe(200);
+        const readings = Array.from({ length: 600 }, (_, i) => ({
+          seq: i,
+          t: i,
+          value: sim.nextReading().value,
+        }));
+        await request(t.app)
+          .post(`/api/captures/${c.body.id}/readings`)
+          .set(head)
+          .send({ readings });
+        expect(
+          (await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(head)).status,
+        ).toBe(200);
       }
     }
-    const matrix = (await request(t.app).get('/api/studies/1/matrix').set(await auth('viewer'))).body;
+    const matrix = (
+      await request(t.app)
+        .get('/api/studies/1/matrix')
+        .set(await auth('viewer'))
+    ).body;
     const verdicts = Object.fromEntries(
       matrix.rows
         .filter((r: { dut: { kind: string } }) => r.dut.kind !== 'accelerometer')
-        .map((r: { dut: { label: string }; cells: Array<{ comparison: { verdict: string; k: number } | null }> }) => [
-          r.dut.label.split(' ')[0],
-          r.cells.slice(1, 3).map((c) => c.comparison?.verdict),
-        ]),
+        .map(
+          (r: {
+            dut: { label: string };
+            cells: Array<{ comparison: { verdict: string; k: number } | null }>;
+          }) => [r.dut.label.split(' ')[0], r.cells.slice(1, 3).map((c) => c.comparison?.verdict)],
+        ),
     );
     expect(verdicts).toEqual({
       Y1: ['within', 'within'],

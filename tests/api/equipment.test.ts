@@ -12,7 +12,9 @@ const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFo
 
 /** Today + n days as YYYY-MM-DD (UTC), the calendar the rule counts in. */
 function day(n: number, from = new Date()): string {
-  return new Date(Date.UTC(from.getUTCFullYear(), from.getUTCMonth(), from.getUTCDate() + n)).toISOString().slice(0, 10);
+  return new Date(Date.UTC(from.getUTCFullYear(), from.getUTCMonth(), from.getUTCDate() + n))
+    .toISOString()
+    .slice(0, 10);
 }
 
 interface Item {
@@ -24,8 +26,10 @@ interface Item {
 
 async function lists() {
   const viewer = await auth('viewer');
-  const instruments = (await request(t.app).get('/api/instruments').set(viewer)).body.instruments as Item[];
-  const references = (await request(t.app).get('/api/references').set(viewer)).body.references as Item[];
+  const instruments = (await request(t.app).get('/api/instruments').set(viewer)).body
+    .instruments as Item[];
+  const references = (await request(t.app).get('/api/references').set(viewer)).body
+    .references as Item[];
   const dashboard = (await request(t.app).get('/api/dashboard').set(viewer)).body as {
     calibration: Array<{ subject: string; id: number; name: string; state: string }>;
   };
@@ -55,8 +59,13 @@ describe('the one calibration rule', () => {
   });
 
   it('reads "away" whatever the due date, and "no due date" without one', () => {
-    expect(calibrationStatus({ calibrationDue: '2020-01-01', awaySince: '2026-11-30' }, now).state).toBe('away');
-    expect(calibrationStatus({ calibrationDue: null }, now)).toMatchObject({ state: 'no-due-date', needsAttention: false });
+    expect(
+      calibrationStatus({ calibrationDue: '2020-01-01', awaySince: '2026-11-30' }, now).state,
+    ).toBe('away');
+    expect(calibrationStatus({ calibrationDue: null }, now)).toMatchObject({
+      state: 'no-due-date',
+      needsAttention: false,
+    });
   });
 
   it('words each state one way only', () => {
@@ -69,10 +78,24 @@ describe('the one calibration rule', () => {
 
   it('is the one the API answers: the 30th day is due soon and listed, the 31st valid and not', async () => {
     const admin = await auth('admin');
-    const at30 = await request(t.app).post('/api/instruments').set(admin).send({ name: 'Counter D-30', kind: 'counter', calibrationDue: day(30) });
-    const at31 = await request(t.app).post('/api/instruments').set(admin).send({ name: 'Counter D-31', kind: 'counter', calibrationDue: day(31) });
-    expect(at30.body.instrument.calibration).toMatchObject({ state: 'due-soon', daysLeft: 30, needsAttention: true });
-    expect(at31.body.instrument.calibration).toMatchObject({ state: 'valid', daysLeft: 31, needsAttention: false });
+    const at30 = await request(t.app)
+      .post('/api/instruments')
+      .set(admin)
+      .send({ name: 'Counter D-30', kind: 'counter', calibrationDue: day(30) });
+    const at31 = await request(t.app)
+      .post('/api/instruments')
+      .set(admin)
+      .send({ name: 'Counter D-31', kind: 'counter', calibrationDue: day(31) });
+    expect(at30.body.instrument.calibration).toMatchObject({
+      state: 'due-soon',
+      daysLeft: 30,
+      needsAttention: true,
+    });
+    expect(at31.body.instrument.calibration).toMatchObject({
+      state: 'valid',
+      daysLeft: 31,
+      needsAttention: false,
+    });
     const { dashboard } = await lists();
     const names = dashboard.calibration.map((c) => c.name);
     expect(names).toContain('Counter D-30');
@@ -81,7 +104,10 @@ describe('the one calibration rule', () => {
 
   it('makes the lab lists and the dashboard count the same equipment', async () => {
     const { instruments, references, dashboard } = await lists();
-    const counted = [...instruments, ...references].filter((i) => !i.retiredAt && i.calibration.needsAttention).map((i) => i.name).sort();
+    const counted = [...instruments, ...references]
+      .filter((i) => !i.retiredAt && i.calibration.needsAttention)
+      .map((i) => i.name)
+      .sort();
     expect(dashboard.calibration.map((c) => c.name).sort()).toEqual(counted);
     // The SPI bridge has no due date: shown as such, never counted.
     const bridge = instruments.find((i) => i.name === 'SPI bridge B-1')!;
@@ -98,59 +124,129 @@ describe('calibration records', () => {
   });
 
   it('starts from the demo lab: the thermometer is overdue by 5 days with one certificate on file', async () => {
-    const res = await request(t.app).get(`/api/instruments/${thermometerId}`).set(await auth('viewer'));
-    expect(res.body.instrument).toMatchObject({ kind: 'thermometer', calibration: { state: 'overdue', daysLeft: -5 } });
-    const history = await request(t.app).get(`/api/instruments/${thermometerId}/calibrations`).set(await auth('technician'));
+    const res = await request(t.app)
+      .get(`/api/instruments/${thermometerId}`)
+      .set(await auth('viewer'));
+    expect(res.body.instrument).toMatchObject({
+      kind: 'thermometer',
+      calibration: { state: 'overdue', daysLeft: -5 },
+    });
+    const history = await request(t.app)
+      .get(`/api/instruments/${thermometerId}/calibrations`)
+      .set(await auth('technician'));
     expect(history.status).toBe(200);
     expect(history.body.calibrations).toHaveLength(1);
-    expect(history.body.calibrations[0]).toMatchObject({ subject: 'instrument', subjectId: thermometerId, certificate: 'DBX-T-0457' });
+    expect(history.body.calibrations[0]).toMatchObject({
+      subject: 'instrument',
+      subjectId: thermometerId,
+      certificate: 'DBX-T-0457',
+    });
   });
 
   it('records a new calibration: overdue clears, the dashboard drops it, the history keeps both and the audit says so', async () => {
-    const body = { calibratedOn: day(-1), dueOn: day(364), certificate: 'DBX-T-0502', issuedBy: 'Driftbench demo calibration lab', uncertainty: '±0.05 °C (k = 2)' };
-    const res = await request(t.app).post(`/api/instruments/${thermometerId}/calibrations`).set(await auth('admin')).send(body);
+    const body = {
+      calibratedOn: day(-1),
+      dueOn: day(364),
+      certificate: 'DBX-T-0502',
+      issuedBy: 'Driftbench demo calibration lab',
+      uncertainty: '±0.05 °C (k = 2)',
+    };
+    const res = await request(t.app)
+      .post(`/api/instruments/${thermometerId}/calibrations`)
+      .set(await auth('admin'))
+      .send(body);
     expect(res.status).toBe(201);
-    expect(res.body.calibration).toMatchObject({ ...body, recordedBy: 'Ada Admin', fractionalOffset: null });
-    expect(res.body.instrument).toMatchObject({ calibrationDue: day(364), calibration: { state: 'valid', daysLeft: 364 } });
+    expect(res.body.calibration).toMatchObject({
+      ...body,
+      recordedBy: 'Ada Admin',
+      fractionalOffset: null,
+    });
+    expect(res.body.instrument).toMatchObject({
+      calibrationDue: day(364),
+      calibration: { state: 'valid', daysLeft: 364 },
+    });
 
     const { dashboard } = await lists();
     expect(dashboard.calibration.map((c) => c.name)).not.toContain('Bench thermometer T-1');
-    const history = (await request(t.app).get(`/api/instruments/${thermometerId}/calibrations`).set(await auth('viewer'))).body.calibrations;
-    expect(history.map((c: { certificate: string }) => c.certificate)).toEqual(['DBX-T-0502', 'DBX-T-0457']);
-    const events = await AuditEvent.findAll({ where: { action: 'instrument.calibration.record', subjectId: thermometerId } });
+    const history = (
+      await request(t.app)
+        .get(`/api/instruments/${thermometerId}/calibrations`)
+        .set(await auth('viewer'))
+    ).body.calibrations;
+    expect(history.map((c: { certificate: string }) => c.certificate)).toEqual([
+      'DBX-T-0502',
+      'DBX-T-0457',
+    ]);
+    const events = await AuditEvent.findAll({
+      where: { action: 'instrument.calibration.record', subjectId: thermometerId },
+    });
     expect(events).toHaveLength(1);
-    expect(events[0].details).toMatchObject({ certificate: 'DBX-T-0502', current: true, changes: { calibrationDue: { to: day(364) } } });
+    expect(events[0].details).toMatchObject({
+      certificate: 'DBX-T-0502',
+      current: true,
+      changes: { calibrationDue: { to: day(364) } },
+    });
   });
 
   it('keeps an older certificate entered late as history without moving the current due date', async () => {
     const res = await request(t.app)
       .post(`/api/instruments/${thermometerId}/calibrations`)
       .set(await auth('admin'))
-      .send({ calibratedOn: day(-800), dueOn: day(-435), certificate: 'DBX-T-0311', issuedBy: 'Driftbench demo calibration lab' });
+      .send({
+        calibratedOn: day(-800),
+        dueOn: day(-435),
+        certificate: 'DBX-T-0311',
+        issuedBy: 'Driftbench demo calibration lab',
+      });
     expect(res.status).toBe(201);
     expect(res.body.instrument.calibrationDue).toBe(day(364));
-    const history = (await request(t.app).get(`/api/instruments/${thermometerId}/calibrations`).set(await auth('viewer'))).body.calibrations;
-    expect(history.map((c: { certificate: string }) => c.certificate)).toEqual(['DBX-T-0502', 'DBX-T-0457', 'DBX-T-0311']);
+    const history = (
+      await request(t.app)
+        .get(`/api/instruments/${thermometerId}/calibrations`)
+        .set(await auth('viewer'))
+    ).body.calibrations;
+    expect(history.map((c: { certificate: string }) => c.certificate)).toEqual([
+      'DBX-T-0502',
+      'DBX-T-0457',
+      'DBX-T-0311',
+    ]);
   });
 
   it('never overwrites a record: the database refuses an UPDATE', async () => {
-    await expect(t.db.pool.query(`UPDATE calibration_records SET certificate = 'forged' WHERE instrument_id = $1`, [thermometerId])).rejects.toThrow(
-      /calibration records are history/,
-    );
+    await expect(
+      t.db.pool.query(
+        `UPDATE calibration_records SET certificate = 'forged' WHERE instrument_id = $1`,
+        [thermometerId],
+      ),
+    ).rejects.toThrow(/calibration records are history/);
   });
 
   it.each([
-    [{ calibratedOn: day(-1), dueOn: day(-2), certificate: 'X', issuedBy: 'Lab' }, 'dueOn', 'after the calibration date'],
+    [
+      { calibratedOn: day(-1), dueOn: day(-2), certificate: 'X', issuedBy: 'Lab' },
+      'dueOn',
+      'after the calibration date',
+    ],
     [{ calibratedOn: day(2), certificate: 'X', issuedBy: 'Lab' }, 'calibratedOn', 'future'],
     [{ calibratedOn: day(-1), certificate: ' ', issuedBy: 'Lab' }, 'certificate', 'is required'],
-    [{ calibratedOn: '2026-02-30', certificate: 'X', issuedBy: 'Lab' }, 'calibratedOn', 'not a calendar date'],
+    [
+      { calibratedOn: '2026-02-30', certificate: 'X', issuedBy: 'Lab' },
+      'calibratedOn',
+      'not a calendar date',
+    ],
     [{ certificate: 'X', issuedBy: 'Lab' }, 'calibratedOn', ''],
-  ])('refuses an incomplete or impossible record with 400 naming the field (%#)', async (body, field, words) => {
-    const res = await request(t.app).post(`/api/instruments/${thermometerId}/calibrations`).set(await auth('admin')).send(body);
-    expect(res.status).toBe(400);
-    const detail = res.body.error.details.find((d: { path: string }) => d.path === field);
-    expect(detail?.message).toContain(words);
-  });
+  ])(
+    'refuses an incomplete or impossible record with 400 naming the field (%#)',
+    async (body, field, words) => {
+      const res = await request(t.app)
+        .post(`/api/instruments/${thermometerId}/calibrations`)
+        .set(await auth('admin'))
+        .send(body);
+      expect(res.status).toBe(400);
+      const detail = res.body.error.details.find((d: { path: string }) => d.path === field);
+      expect(detail?.message).toContain(words);
+    },
+  );
 
   it('leaves instruments to admins: a lead may not record an instrument calibration (403)', async () => {
     const res = await request(t.app)
@@ -161,23 +257,43 @@ describe('calibration records', () => {
   });
 
   it('answers 404 for the history of an instrument that does not exist', async () => {
-    expect((await request(t.app).get('/api/instruments/99999/calibrations').set(await auth('viewer'))).status).toBe(404);
+    expect(
+      (
+        await request(t.app)
+          .get('/api/instruments/99999/calibrations')
+          .set(await auth('viewer'))
+      ).status,
+    ).toBe(404);
   });
 });
 
 describe('away for calibration, retired, back in service', () => {
   let id: number;
   beforeAll(async () => {
-    const res = await request(t.app).post('/api/instruments').set(await auth('admin')).send({ name: 'Counter A-1', kind: 'counter', calibrationDue: day(120) });
+    const res = await request(t.app)
+      .post('/api/instruments')
+      .set(await auth('admin'))
+      .send({ name: 'Counter A-1', kind: 'counter', calibrationDue: day(120) });
     id = res.body.instrument.id;
   });
 
   it('reads "away" once sent to the calibration lab, is listed on the dashboard, and cannot be sent twice', async () => {
-    const res = await request(t.app).post(`/api/instruments/${id}/away`).set(await auth('admin')).send({});
+    const res = await request(t.app)
+      .post(`/api/instruments/${id}/away`)
+      .set(await auth('admin'))
+      .send({});
     expect(res.status).toBe(200);
-    expect(res.body.instrument).toMatchObject({ awaySince: day(0), calibration: { state: 'away', needsAttention: true } });
-    expect((await lists()).dashboard.calibration).toContainEqual(expect.objectContaining({ name: 'Counter A-1', state: 'away' }));
-    const again = await request(t.app).post(`/api/instruments/${id}/away`).set(await auth('admin')).send({});
+    expect(res.body.instrument).toMatchObject({
+      awaySince: day(0),
+      calibration: { state: 'away', needsAttention: true },
+    });
+    expect((await lists()).dashboard.calibration).toContainEqual(
+      expect.objectContaining({ name: 'Counter A-1', state: 'away' }),
+    );
+    const again = await request(t.app)
+      .post(`/api/instruments/${id}/away`)
+      .set(await auth('admin'))
+      .send({});
     expect(again.status).toBe(409);
     expect(again.body.error.code).toBe('equipment-away');
   });
@@ -186,16 +302,30 @@ describe('away for calibration, retired, back in service', () => {
     const res = await request(t.app)
       .post(`/api/instruments/${id}/calibrations`)
       .set(await auth('admin'))
-      .send({ calibratedOn: day(0), dueOn: day(365), certificate: 'DBX-C-3001', issuedBy: 'Driftbench demo calibration lab' });
+      .send({
+        calibratedOn: day(0),
+        dueOn: day(365),
+        certificate: 'DBX-C-3001',
+        issuedBy: 'Driftbench demo calibration lab',
+      });
     expect(res.status).toBe(201);
     expect(res.body.instrument).toMatchObject({ awaySince: null, calibration: { state: 'valid' } });
   });
 
   it('retires with a reason (required), leaves the dashboard, refuses new records, and returns to service', async () => {
-    const noReason = await request(t.app).post(`/api/instruments/${id}/retire`).set(await auth('admin')).send({});
+    const noReason = await request(t.app)
+      .post(`/api/instruments/${id}/retire`)
+      .set(await auth('admin'))
+      .send({});
     expect(noReason.status).toBe(400);
-    await request(t.app).post(`/api/instruments/${id}/away`).set(await auth('admin')).send({ sentOn: day(-1) });
-    const res = await request(t.app).post(`/api/instruments/${id}/retire`).set(await auth('admin')).send({ reason: 'Timebase failed; replaced by C-4.' });
+    await request(t.app)
+      .post(`/api/instruments/${id}/away`)
+      .set(await auth('admin'))
+      .send({ sentOn: day(-1) });
+    const res = await request(t.app)
+      .post(`/api/instruments/${id}/retire`)
+      .set(await auth('admin'))
+      .send({ reason: 'Timebase failed; replaced by C-4.' });
     expect(res.status).toBe(200);
     expect(res.body.instrument.retiredAt).not.toBeNull();
     expect(res.body.instrument.retiredReason).toBe('Timebase failed; replaced by C-4.');
@@ -207,23 +337,68 @@ describe('away for calibration, retired, back in service', () => {
       .send({ calibratedOn: day(0), certificate: 'X', issuedBy: 'Lab' });
     expect(record.status).toBe(409);
     expect(record.body.error.code).toBe('equipment-retired');
-    expect((await request(t.app).post(`/api/instruments/${id}/retire`).set(await auth('admin')).send({ reason: 'again' })).status).toBe(409);
+    expect(
+      (
+        await request(t.app)
+          .post(`/api/instruments/${id}/retire`)
+          .set(await auth('admin'))
+          .send({ reason: 'again' })
+      ).status,
+    ).toBe(409);
 
     // A retired instrument records no new capture.
-    const study = (await request(t.app).get('/api/studies').set(await auth('engineer'))).body.studies[0];
-    const plan = (await request(t.app).get(`/api/studies/${study.id}`).set(await auth('engineer'))).body;
+    const study = (
+      await request(t.app)
+        .get('/api/studies')
+        .set(await auth('engineer'))
+    ).body.studies[0];
+    const plan = (
+      await request(t.app)
+        .get(`/api/studies/${study.id}`)
+        .set(await auth('engineer'))
+    ).body;
     const capture = await request(t.app)
       .post('/api/captures')
       .set(await auth('engineer'))
-      .send({ dutId: plan.duts[0].id, checkpointId: plan.checkpoints[0].id, quantity: 'frequency', unit: 'Hz', gateTime: 1, instrumentId: id, ambientC: 23 });
+      .send({
+        dutId: plan.duts[0].id,
+        checkpointId: plan.checkpoints[0].id,
+        quantity: 'frequency',
+        unit: 'Hz',
+        gateTime: 1,
+        instrumentId: id,
+        ambientC: 23,
+      });
     expect(capture.status).toBe(409);
     expect(capture.body.error.code).toBe('equipment-retired');
 
-    const back = await request(t.app).post(`/api/instruments/${id}/reinstate`).set(await auth('admin')).send({});
+    const back = await request(t.app)
+      .post(`/api/instruments/${id}/reinstate`)
+      .set(await auth('admin'))
+      .send({});
     expect(back.status).toBe(200);
-    expect(back.body.instrument).toMatchObject({ retiredAt: null, awaySince: null, calibration: { state: 'valid' } });
-    expect((await request(t.app).post(`/api/instruments/${id}/reinstate`).set(await auth('admin')).send({})).status).toBe(409);
-    expect(await AuditEvent.count({ where: { subjectType: 'instrument', subjectId: id, action: ['instrument.away', 'instrument.retire', 'instrument.reinstate'] } })).toBe(4);
+    expect(back.body.instrument).toMatchObject({
+      retiredAt: null,
+      awaySince: null,
+      calibration: { state: 'valid' },
+    });
+    expect(
+      (
+        await request(t.app)
+          .post(`/api/instruments/${id}/reinstate`)
+          .set(await auth('admin'))
+          .send({})
+      ).status,
+    ).toBe(409);
+    expect(
+      await AuditEvent.count({
+        where: {
+          subjectType: 'instrument',
+          subjectId: id,
+          action: ['instrument.away', 'instrument.retire', 'instrument.reinstate'],
+        },
+      }),
+    ).toBe(4);
   });
 });
 
@@ -235,28 +410,54 @@ describe('references', () => {
     const res = await request(t.app)
       .post('/api/references')
       .set(await auth('lead'))
-      .send({ name: 'Bench OCXO R-2', kind: 'ocxo', nominalHz: 10e6, fractionalOffset: 0, standardUncertainty: 5e-10 });
+      .send({
+        name: 'Bench OCXO R-2',
+        kind: 'ocxo',
+        nominalHz: 10e6,
+        fractionalOffset: 0,
+        standardUncertainty: 5e-10,
+      });
     ocxoId = res.body.reference.id;
   });
 
   it('starts with the demo lab’s GPS reference as the lab’s reference, due in 355 days', async () => {
-    const res = await request(t.app).get(`/api/references/${gpsId}`).set(await auth('viewer'));
+    const res = await request(t.app)
+      .get(`/api/references/${gpsId}`)
+      .set(await auth('viewer'));
     expect(res.status).toBe(200);
-    expect(res.body.reference).toMatchObject({ labDefault: true, calibration: { state: 'valid', daysLeft: 355 } });
+    expect(res.body.reference).toMatchObject({
+      labDefault: true,
+      calibration: { state: 'valid', daysLeft: 355 },
+    });
   });
 
   it('lets a lead record a reference calibration; its offset and uncertainty become the reference’s record', async () => {
     const missing = await request(t.app)
       .post(`/api/references/${ocxoId}/calibrations`)
       .set(await auth('lead'))
-      .send({ calibratedOn: day(-2), dueOn: day(180), certificate: 'DBX-R-0777', issuedBy: 'Driftbench demo calibration lab' });
+      .send({
+        calibratedOn: day(-2),
+        dueOn: day(180),
+        certificate: 'DBX-R-0777',
+        issuedBy: 'Driftbench demo calibration lab',
+      });
     expect(missing.status).toBe(400);
-    expect(missing.body.error.details.map((d: { path: string }) => d.path)).toEqual(['fractionalOffset', 'standardUncertainty']);
+    expect(missing.body.error.details.map((d: { path: string }) => d.path)).toEqual([
+      'fractionalOffset',
+      'standardUncertainty',
+    ]);
 
     const res = await request(t.app)
       .post(`/api/references/${ocxoId}/calibrations`)
       .set(await auth('lead'))
-      .send({ calibratedOn: day(-2), dueOn: day(180), certificate: 'DBX-R-0777', issuedBy: 'Driftbench demo calibration lab', fractionalOffset: 3.1e-9, standardUncertainty: 2e-10 });
+      .send({
+        calibratedOn: day(-2),
+        dueOn: day(180),
+        certificate: 'DBX-R-0777',
+        issuedBy: 'Driftbench demo calibration lab',
+        fractionalOffset: 3.1e-9,
+        standardUncertainty: 2e-10,
+      });
     expect(res.status).toBe(201);
     expect(res.body.reference).toMatchObject({
       fractionalOffset: 3.1e-9,
@@ -266,22 +467,47 @@ describe('references', () => {
       calibrationDue: day(180),
       calibration: { state: 'valid' },
     });
-    const history = await request(t.app).get(`/api/references/${ocxoId}/calibrations`).set(await auth('viewer'));
+    const history = await request(t.app)
+      .get(`/api/references/${ocxoId}/calibrations`)
+      .set(await auth('viewer'));
     expect(history.body.calibrations).toHaveLength(1);
-    expect(history.body.calibrations[0]).toMatchObject({ subject: 'reference', fractionalOffset: 3.1e-9 });
+    expect(history.body.calibrations[0]).toMatchObject({
+      subject: 'reference',
+      fractionalOffset: 3.1e-9,
+    });
   });
 
   it('keeps one lab reference: choosing another moves the mark, and retiring it clears it', async () => {
-    const res = await request(t.app).post(`/api/references/${ocxoId}/lab-default`).set(await auth('lead')).send({});
+    const res = await request(t.app)
+      .post(`/api/references/${ocxoId}/lab-default`)
+      .set(await auth('lead'))
+      .send({});
     expect(res.status).toBe(200);
     expect(res.body.reference.labDefault).toBe(true);
     const { references } = await lists();
-    expect(references.filter((r) => (r as unknown as { labDefault: boolean }).labDefault).map((r) => r.id)).toEqual([ocxoId]);
+    expect(
+      references
+        .filter((r) => (r as unknown as { labDefault: boolean }).labDefault)
+        .map((r) => r.id),
+    ).toEqual([ocxoId]);
 
-    const retired = await request(t.app).post(`/api/references/${ocxoId}/retire`).set(await auth('lead')).send({ reason: 'Sold.' });
+    const retired = await request(t.app)
+      .post(`/api/references/${ocxoId}/retire`)
+      .set(await auth('lead'))
+      .send({ reason: 'Sold.' });
     expect(retired.body.reference).toMatchObject({ labDefault: false });
-    const refused = await request(t.app).post(`/api/references/${ocxoId}/lab-default`).set(await auth('lead')).send({});
+    const refused = await request(t.app)
+      .post(`/api/references/${ocxoId}/lab-default`)
+      .set(await auth('lead'))
+      .send({});
     expect(refused.status).toBe(409);
-    expect((await request(t.app).post(`/api/references/${gpsId}/lab-default`).set(await auth('engineer')).send({})).status).toBe(403);
+    expect(
+      (
+        await request(t.app)
+          .post(`/api/references/${gpsId}/lab-default`)
+          .set(await auth('engineer'))
+          .send({})
+      ).status,
+    ).toBe(403);
   });
 });

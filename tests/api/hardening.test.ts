@@ -23,17 +23,24 @@ afterAll(async () => {
   await t.close();
 });
 
-const count = async (table: string) => Number((await t.db.pool.query(`SELECT count(*)::int AS n FROM ${table}`)).rows[0].n);
+const count = async (table: string) =>
+  Number((await t.db.pool.query(`SELECT count(*)::int AS n FROM ${table}`)).rows[0].n);
 
 describe('bodies are read only after sign-in (item 3)', () => {
   it('answers an anonymous malformed body with 401, not a parse error: the body was never read', async () => {
-    const res = await request(t.app).post('/api/studies').set('content-type', 'application/json').send('{"title":');
+    const res = await request(t.app)
+      .post('/api/studies')
+      .set('content-type', 'application/json')
+      .send('{"title":');
     expect(res.status).toBe(401);
   });
 
   it('answers an anonymous 9 MB body with 401, not 413', async () => {
     const big = JSON.stringify({ title: 'x'.repeat(9 * 1024 * 1024) });
-    const res = await request(t.app).post('/api/studies').set('content-type', 'application/json').send(big);
+    const res = await request(t.app)
+      .post('/api/studies')
+      .set('content-type', 'application/json')
+      .send(big);
     expect(res.status).toBe(401);
   });
 
@@ -52,10 +59,23 @@ describe('bodies are read only after sign-in (item 3)', () => {
     const capture = await request(t.app)
       .post('/api/captures')
       .set(auth(lead))
-      .send({ dutId: study.duts[0].id, checkpointId: study.checkpoints[0].id, quantity: 'frequency', unit: 'Hz', gateTime: 1 });
+      .send({
+        dutId: study.duts[0].id,
+        checkpointId: study.checkpoints[0].id,
+        quantity: 'frequency',
+        unit: 'Hz',
+        gateTime: 1,
+      });
     expect(capture.status).toBe(201);
-    const readings = Array.from({ length: 20_000 }, (_, seq) => ({ seq, t: seq, value: 16_000_000.123456 + (seq % 7) * 1e-3 }));
-    const res = await request(t.app).post(`/api/captures/${capture.body.id}/readings`).set(auth(lead)).send({ readings });
+    const readings = Array.from({ length: 20_000 }, (_, seq) => ({
+      seq,
+      t: seq,
+      value: 16_000_000.123456 + (seq % 7) * 1e-3,
+    }));
+    const res = await request(t.app)
+      .post(`/api/captures/${capture.body.id}/readings`)
+      .set(auth(lead))
+      .send({ readings });
     expect(res.status).toBe(200);
     expect(res.body.accepted).toBe(20_000);
   });
@@ -79,7 +99,10 @@ describe('odd text and impossible dates are a 400 with nothing kept (item 6)', (
 
   it.each(odd)('refuses an instrument named %j with 400 and creates nothing', async (name) => {
     const before = await count('instruments');
-    const res = await request(t.app).post('/api/instruments').set(auth(admin)).send({ name, kind: 'counter' });
+    const res = await request(t.app)
+      .post('/api/instruments')
+      .set(auth(admin))
+      .send({ name, kind: 'counter' });
     expect(res.status).toBe(400);
     expect(res.body.error.details[0].path).toBe('name');
     expect(await count('instruments')).toBe(before);
@@ -91,12 +114,21 @@ describe('odd text and impossible dates are a 400 with nothing kept (item 6)', (
     const dut = await request(t.app)
       .post('/api/studies/1/duts')
       .set(auth(lead))
-      .send({ label: text, kind: 'crystal', nominal: 16e6, unit: 'Hz', limit: 1, limitUnit: 'ppm' });
+      .send({
+        label: text,
+        kind: 'crystal',
+        nominal: 16e6,
+        unit: 'Hz',
+        limit: 1,
+        limitUnit: 'ppm',
+      });
     expect(dut.status).toBe(400);
     const before = (await t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name;
     const user = await request(t.app).patch('/api/users/5').set(auth(admin)).send({ name: text });
     expect(user.status).toBe(400);
-    expect((await t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name).toBe(before);
+    expect((await t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name).toBe(
+      before,
+    );
   });
 
   it('refuses NUL inside a link profile (JSON) with 400', async () => {
@@ -107,11 +139,17 @@ describe('odd text and impossible dates are a 400 with nothing kept (item 6)', (
     expect(res.status).toBe(400);
   });
 
-  it.each(['0000-01-01', '2027-02-30', '9999-12-31', '1899-12-31'])('refuses the calibration date %s with 400', async (calibrationDue) => {
-    const res = await request(t.app).patch('/api/instruments/1').set(auth(admin)).send({ calibrationDue });
-    expect(res.status).toBe(400);
-    expect(res.body.error.details[0].path).toBe('calibrationDue');
-  });
+  it.each(['0000-01-01', '2027-02-30', '9999-12-31', '1899-12-31'])(
+    'refuses the calibration date %s with 400',
+    async (calibrationDue) => {
+      const res = await request(t.app)
+        .patch('/api/instruments/1')
+        .set(auth(admin))
+        .send({ calibrationDue });
+      expect(res.status).toBe(400);
+      expect(res.body.error.details[0].path).toBe('calibrationDue');
+    },
+  );
 });
 
 describe('a change and its audit event are one transaction (item 6)', () => {
@@ -122,20 +160,45 @@ describe('a change and its audit event are one transaction (item 6)', () => {
       BEGIN IF NEW.action IN ('instrument.update', 'user.rename', 'instrument.create') THEN RAISE EXCEPTION 'audit refused for the test'; END IF; RETURN NEW; END $$;
       CREATE TRIGGER refuse_audit BEFORE INSERT ON audit_events FOR EACH ROW EXECUTE FUNCTION refuse_audit();`);
     try {
-      const before = (await t.db.pool.query('SELECT name FROM instruments WHERE id = 1')).rows[0].name;
-      const patch = await request(t.app).patch('/api/instruments/1').set(auth(admin)).send({ name: 'Renamed without audit' });
+      const before = (await t.db.pool.query('SELECT name FROM instruments WHERE id = 1')).rows[0]
+        .name;
+      const patch = await request(t.app)
+        .patch('/api/instruments/1')
+        .set(auth(admin))
+        .send({ name: 'Renamed without audit' });
       expect(patch.status).toBe(500);
-      expect((await t.db.pool.query('SELECT name FROM instruments WHERE id = 1')).rows[0].name).toBe(before);
+      expect(
+        (await t.db.pool.query('SELECT name FROM instruments WHERE id = 1')).rows[0].name,
+      ).toBe(before);
 
       const instruments = await count('instruments');
-      expect((await request(t.app).post('/api/instruments').set(auth(admin)).send({ name: 'Unaudited', kind: 'other' })).status).toBe(500);
+      expect(
+        (
+          await request(t.app)
+            .post('/api/instruments')
+            .set(auth(admin))
+            .send({ name: 'Unaudited', kind: 'other' })
+        ).status,
+      ).toBe(500);
       expect(await count('instruments')).toBe(instruments);
 
-      const userBefore = (await t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name;
-      expect((await request(t.app).patch('/api/users/5').set(auth(admin)).send({ name: 'Renamed without audit' })).status).toBe(500);
-      expect((await t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name).toBe(userBefore);
+      const userBefore = (await t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0]
+        .name;
+      expect(
+        (
+          await request(t.app)
+            .patch('/api/users/5')
+            .set(auth(admin))
+            .send({ name: 'Renamed without audit' })
+        ).status,
+      ).toBe(500);
+      expect((await t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name).toBe(
+        userBefore,
+      );
     } finally {
-      await t.db.pool.query('DROP TRIGGER refuse_audit ON audit_events; DROP FUNCTION refuse_audit();');
+      await t.db.pool.query(
+        'DROP TRIGGER refuse_audit ON audit_events; DROP FUNCTION refuse_audit();',
+      );
     }
   });
 });
@@ -149,13 +212,20 @@ describe('a database outage answers 503 (item 11)', () => {
         done();
       },
     });
-    const app = createApp({ db: t.db, jwtSecret: TEST_JWT_SECRET, log: pino({ level: 'info' }, sink) });
+    const app = createApp({
+      db: t.db,
+      jwtSecret: TEST_JWT_SECRET,
+      log: pino({ level: 'info' }, sink),
+    });
     const dbName = new URL(t.db.url).pathname.slice(1);
     const adminClient = new pg.Client({ connectionString: process.env.DRIFTBENCH_TEST_PG });
     await adminClient.connect();
     try {
       await adminClient.query(`ALTER DATABASE "${dbName}" ALLOW_CONNECTIONS false`);
-      await adminClient.query('SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE datname = $1 AND pid <> pg_backend_pid()', [dbName]);
+      await adminClient.query(
+        'SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE datname = $1 AND pid <> pg_backend_pid()',
+        [dbName],
+      );
       for (let i = 0; i < 4; i++) {
         const res = await request(app).get('/api/studies').set(auth(lead));
         expect(res.status).toBe(503);
@@ -172,7 +242,8 @@ describe('a database outage answers 503 (item 11)', () => {
     }
     // Back: requests succeed again.
     let status = 0;
-    for (let i = 0; i < 10 && status !== 200; i++) status = (await request(app).get('/api/studies').set(auth(lead))).status;
+    for (let i = 0; i < 10 && status !== 200; i++)
+      status = (await request(app).get('/api/studies').set(auth(lead))).status;
     expect(status).toBe(200);
   });
 });

@@ -17,9 +17,22 @@ afterAll(async () => {
 });
 
 /** Posts a file with the fields first, as the import page does. */
-async function importFile(text: string, fields: Record<string, string | number>, role = 'technician', name = 'log.csv') {
-  let req = request(t.app).post('/api/captures/import').set(await auth(role));
-  for (const [k, v] of Object.entries({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], gateTime: 1, ...fields })) req = req.field(k, String(v));
+async function importFile(
+  text: string,
+  fields: Record<string, string | number>,
+  role = 'technician',
+  name = 'log.csv',
+) {
+  let req = request(t.app)
+    .post('/api/captures/import')
+    .set(await auth(role));
+  for (const [k, v] of Object.entries({
+    dutId: ids.crystal.id,
+    checkpointId: ids.checkpoints[0],
+    gateTime: 1,
+    ...fields,
+  }))
+    req = req.field(k, String(v));
   return req.attach('file', Buffer.from(text, 'utf8'), { filename: name, contentType: 'text/csv' });
 }
 
@@ -29,7 +42,9 @@ async function captureCount(): Promise<number> {
 }
 
 async function readingsOf(id: number) {
-  const res = await request(t.app).get(`/api/captures/${id}/readings?maxPoints=100000`).set(await auth('viewer'));
+  const res = await request(t.app)
+    .get(`/api/captures/${id}/readings?maxPoints=100000`)
+    .set(await auth('viewer'));
   return res.body.readings as Array<{ seq: number; t: number; value: number }>;
 }
 
@@ -47,10 +62,16 @@ describe('importing readings logged elsewhere', () => {
       '2026-11-02T09:15:03.750Z,16000000.018 Hz',
       '',
     ].join('\n');
-    const res = await importFile(file, { timeFormat: 'iso8601', timeColumn: 'time', valueColumn: 'frequency' });
+    const res = await importFile(file, {
+      timeFormat: 'iso8601',
+      timeColumn: 'time',
+      valueColumn: 'frequency',
+    });
     expect(res.status).toBe(201);
     expect(res.body).toEqual({ id: expect.any(Number), readings: 4 });
-    const cap = await request(t.app).get(`/api/captures/${res.body.id}`).set(await auth('viewer'));
+    const cap = await request(t.app)
+      .get(`/api/captures/${res.body.id}`)
+      .set(await auth('viewer'));
     expect(cap.body.state).toBe('finished');
     expect(cap.body.readingCount).toBe(4);
     expect(cap.body.sealSha256).toMatch(/^[0-9a-f]{64}$/);
@@ -60,12 +81,25 @@ describe('importing readings logged elsewhere', () => {
     const rows = await readingsOf(res.body.id);
     // Times: seconds after the first stamp; values: MHz and kHz taken to Hz (the file's own figures).
     expect(rows.map((r) => r.t)).toEqual([0, 1, 2, 3.5]);
-    expect(rows.map((r) => r.value)).toEqual([16000000.012, 16000000.014, 16000000.016, 16000000.018].map((x) => expect.closeTo(x, 6)));
+    expect(rows.map((r) => r.value)).toEqual(
+      [16000000.012, 16000000.014, 16000000.016, 16000000.018].map((x) => expect.closeTo(x, 6)),
+    );
   });
 
   it('imports a TSV with decimal commas, HH:MM:SS.fff times over midnight and columns chosen by position', async () => {
-    const file = ['index\tclock\treading', '1\t23:59:59,000\t16000000,5', '2\t23:59:59,500\t16000000,25', '3\t00:00:00,500\t16 000 000,125', ''].join('\n');
-    const res = await importFile(file, { timeFormat: 'hms', timeColumn: 2, valueColumn: 3, decimalSeparator: ',', delimiter: 'tab' }, 'technician', 'log.tsv');
+    const file = [
+      'index\tclock\treading',
+      '1\t23:59:59,000\t16000000,5',
+      '2\t23:59:59,500\t16000000,25',
+      '3\t00:00:00,500\t16 000 000,125',
+      '',
+    ].join('\n');
+    const res = await importFile(
+      file,
+      { timeFormat: 'hms', timeColumn: 2, valueColumn: 3, decimalSeparator: ',', delimiter: 'tab' },
+      'technician',
+      'log.tsv',
+    );
     expect(res.status).toBe(201);
     expect(res.body.readings).toBe(3);
     const rows = await readingsOf(res.body.id);
@@ -75,12 +109,22 @@ describe('importing readings logged elsewhere', () => {
   });
 
   it('takes bare values in the unit given and times in seconds, or one reading per τ0 without a time column', async () => {
-    const kHz = await importFile('0,16000.0000125\n10,16000.0000250\n20 s,16000.0000375\n', { unit: 'kHz', gateTime: 10 });
+    const kHz = await importFile('0,16000.0000125\n10,16000.0000250\n20 s,16000.0000375\n', {
+      unit: 'kHz',
+      gateTime: 10,
+    });
     expect(kHz.status).toBe(201);
     const rows = await readingsOf(kHz.body.id);
     expect(rows.map((r) => r.t)).toEqual([0, 10, 20]);
-    expect(rows.map((r) => r.value)).toEqual([16000000.0125, 16000000.025, 16000000.0375].map((x) => expect.closeTo(x, 6)));
-    const untimed = await importFile('16000000.1\n16000000.2\n16000000.3\n', { timeFormat: 'none', valueColumn: 1, gateTime: 2, deadTime: 0.5 });
+    expect(rows.map((r) => r.value)).toEqual(
+      [16000000.0125, 16000000.025, 16000000.0375].map((x) => expect.closeTo(x, 6)),
+    );
+    const untimed = await importFile('16000000.1\n16000000.2\n16000000.3\n', {
+      timeFormat: 'none',
+      valueColumn: 1,
+      gateTime: 2,
+      deadTime: 0.5,
+    });
     expect(untimed.status).toBe(201);
     expect((await readingsOf(untimed.body.id)).map((r) => r.t)).toEqual([0, 2.5, 5]);
   });
@@ -89,30 +133,54 @@ describe('importing readings logged elsewhere', () => {
   it.each([
     ['a value that is not a number', [...good, '2,sixteen'], 4, '2 (f)', /not a number/],
     ['an unknown unit', [...good, '2,16000000.03 furlongs'], 4, '2 (f)', /unknown unit/],
-    ['a unit of another quantity', [...good, '2,16 mg'], 4, '2 (f)', /acceleration, expected frequency/],
+    [
+      'a unit of another quantity',
+      [...good, '2,16 mg'],
+      4,
+      '2 (f)',
+      /acceleration, expected frequency/,
+    ],
     ['a missing value', [...good, '2'], 4, '2 (f)', /value is missing/],
     ['a time that is not a time', [...good, 'later,16000000.03'], 4, '1 (t)', /not a time/],
     ['a time running backwards', [...good, '0.5,16000000.03'], 4, '1 (t)', /runs backwards/],
-    ['a bad line in the middle of many good ones', [...good, ...Array.from({ length: 500 }, (_, i) => `${i + 2},16000000.0${i % 10}`), '502,16000000.03.5'], 504, '2 (f)', /unknown unit|not a number/],
-  ])('refuses %s with 400 naming the line and column, and stores nothing', async (_what, lines, line, column, reason) => {
-    const before = await captureCount();
-    const res = await importFile(lines.join('\n'), { timeColumn: 't', valueColumn: 'f' });
-    expect(res.status).toBe(400);
-    expect(res.body.error.details).toMatchObject({ line, column });
-    expect(res.body.error.details.reason).toMatch(reason);
-    expect(res.body.error.message).toContain(`line ${line}`);
-    expect(await captureCount()).toBe(before);
-  });
+    [
+      'a bad line in the middle of many good ones',
+      [
+        ...good,
+        ...Array.from({ length: 500 }, (_, i) => `${i + 2},16000000.0${i % 10}`),
+        '502,16000000.03.5',
+      ],
+      504,
+      '2 (f)',
+      /unknown unit|not a number/,
+    ],
+  ])(
+    'refuses %s with 400 naming the line and column, and stores nothing',
+    async (_what, lines, line, column, reason) => {
+      const before = await captureCount();
+      const res = await importFile(lines.join('\n'), { timeColumn: 't', valueColumn: 'f' });
+      expect(res.status).toBe(400);
+      expect(res.body.error.details).toMatchObject({ line, column });
+      expect(res.body.error.details.reason).toMatch(reason);
+      expect(res.body.error.message).toContain(`line ${line}`);
+      expect(await captureCount()).toBe(before);
+    },
+  );
 
   it('refuses a bad ISO time, a decimal point under a decimal comma, an unknown column and an empty file', async () => {
     const before = await captureCount();
-    const iso = await importFile('2026-11-02T09:15:00Z,1.6e7\n2026-13-02T09:15:01Z,1.6e7\n', { timeFormat: 'iso8601' });
+    const iso = await importFile('2026-11-02T09:15:00Z,1.6e7\n2026-13-02T09:15:01Z,1.6e7\n', {
+      timeFormat: 'iso8601',
+    });
     expect(iso.status).toBe(400);
     expect(iso.body.error.details).toMatchObject({ line: 2, column: '1' });
     const comma = await importFile('0;16000000,5\n1;16000000.5\n', { decimalSeparator: ',' });
     expect(comma.status).toBe(400);
     expect(comma.body.error.details).toMatchObject({ line: 2, column: '2' });
-    const column = await importFile('time,freq\n0,1.6e7\n', { valueColumn: 'frequency', timeColumn: 'time' });
+    const column = await importFile('time,freq\n0,1.6e7\n', {
+      valueColumn: 'frequency',
+      timeColumn: 'time',
+    });
     expect(column.status).toBe(400);
     expect(column.body.error.details.reason).toContain('the columns are "time", "freq"');
     const empty = await importFile('# nothing logged\n', {});
@@ -122,7 +190,12 @@ describe('importing readings logged elsewhere', () => {
   });
 
   it('refuses a missing file, missing fields, a checkpoint of another study and a viewer', async () => {
-    const noFile = await request(t.app).post('/api/captures/import').set(await auth('technician')).field('dutId', ids.crystal.id).field('checkpointId', ids.checkpoints[0]).field('gateTime', 1);
+    const noFile = await request(t.app)
+      .post('/api/captures/import')
+      .set(await auth('technician'))
+      .field('dutId', ids.crystal.id)
+      .field('checkpointId', ids.checkpoints[0])
+      .field('gateTime', 1);
     expect(noFile.status).toBe(400);
     expect(noFile.body.error.message).toMatch(/file/);
     const noGate = await request(t.app)
@@ -133,21 +206,32 @@ describe('importing readings logged elsewhere', () => {
       .attach('file', Buffer.from('0,1\n1,2\n'), 'x.csv');
     expect(noGate.status).toBe(400);
     expect(noGate.body.error.message).toMatch(/gateTime/);
-    const json = await request(t.app).post('/api/captures/import').set(await auth('technician')).send({ dutId: 1 });
+    const json = await request(t.app)
+      .post('/api/captures/import')
+      .set(await auth('technician'))
+      .send({ dutId: 1 });
     expect(json.status).toBe(400);
     const viewer = await importFile('0,1.6e7\n1,1.6e7\n', {}, 'viewer');
     expect(viewer.status).toBe(403);
   });
 
   it('reports the server side of its progress under the key the client chose', async () => {
-    const res = await importFile('0,16000000.1\n1,16000000.2\n', { progressKey: 'import-key-0001' });
+    const res = await importFile('0,16000000.1\n1,16000000.2\n', {
+      progressKey: 'import-key-0001',
+    });
     expect(res.status).toBe(201);
-    const p = await request(t.app).get('/api/captures/import/progress/import-key-0001').set(await auth('technician'));
+    const p = await request(t.app)
+      .get('/api/captures/import/progress/import-key-0001')
+      .set(await auth('technician'));
     expect(p.body).toEqual({ phase: 'done', rows: 2, stored: 2 });
     // Another user does not see it: for them the key holds nothing.
-    const other = await request(t.app).get('/api/captures/import/progress/import-key-0001').set(await auth('engineer'));
+    const other = await request(t.app)
+      .get('/api/captures/import/progress/import-key-0001')
+      .set(await auth('engineer'));
     expect(other.body).toEqual({ phase: 'unknown', rows: 0, stored: 0 });
-    const bad = await request(t.app).get('/api/captures/import/progress/x').set(await auth('technician'));
+    const bad = await request(t.app)
+      .get('/api/captures/import/progress/x')
+      .set(await auth('technician'));
     expect(bad.status).toBe(400);
   });
 
@@ -169,11 +253,16 @@ describe('importing readings logged elsewhere', () => {
     const res = await importFile(file, { gateTime: 0.1 }, 'technician', 'million.csv');
     expect(res.status).toBe(201);
     expect(res.body.readings).toBe(1_000_000);
-    const cap = await request(t.app).get(`/api/captures/${res.body.id}`).set(await auth('viewer'));
+    const cap = await request(t.app)
+      .get(`/api/captures/${res.body.id}`)
+      .set(await auth('viewer'));
     expect(cap.body.state).toBe('finished');
     expect(cap.body.readingCount).toBe(1_000_000);
     expect(cap.body.sealSha256).toMatch(/^[0-9a-f]{64}$/);
-    const { rows } = await t.db.pool.query<{ n: number; last: number }>('SELECT count(*)::int AS n, max(t) AS last FROM readings WHERE capture_id = $1', [res.body.id]);
+    const { rows } = await t.db.pool.query<{ n: number; last: number }>(
+      'SELECT count(*)::int AS n, max(t) AS last FROM readings WHERE capture_id = $1',
+      [res.body.id],
+    );
     // The generator writes t = i / 10 s for line i (common practice, no source).
     expect(rows[0]).toEqual({ n: 1_000_000, last: 99_999.9 });
   }, 180_000);

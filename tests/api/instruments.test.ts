@@ -10,7 +10,9 @@ const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFo
 
 beforeAll(async () => {
   t = await createTestApp();
-  const list = await request(t.app).get('/api/instruments').set(await auth('viewer'));
+  const list = await request(t.app)
+    .get('/api/instruments')
+    .set(await auth('viewer'));
   counterId = list.body.instruments.find((i: { name: string }) => i.name === 'Counter C-1').id;
 });
 afterAll(async () => {
@@ -21,43 +23,84 @@ const profilePath = () => `/api/instruments/${counterId}/link-profile`;
 
 describe('link profiles stored per instrument', () => {
   it('reads one instrument, with no link profile at first', async () => {
-    const res = await request(t.app).get(`/api/instruments/${counterId}`).set(await auth('viewer'));
+    const res = await request(t.app)
+      .get(`/api/instruments/${counterId}`)
+      .set(await auth('viewer'));
     expect(res.status).toBe(200);
-    expect(res.body.instrument).toMatchObject({ id: counterId, name: 'Counter C-1', kind: 'counter', linkProfile: null });
+    expect(res.body.instrument).toMatchObject({
+      id: counterId,
+      name: 'Counter C-1',
+      kind: 'counter',
+      linkProfile: null,
+    });
     expect(res.body.instrument.calibrationState).toBe('valid');
   });
 
   it('saves a profile for a lead, reads it back and audits it', async () => {
-    const profile = { ...linkPreset('scpi-counter'), name: 'C-1 over USB', initCommands: [':SENS:FREQ:GATE:TIME 1'] };
-    const res = await request(t.app).put(profilePath()).set(await auth('lead')).send(profile);
+    const profile = {
+      ...linkPreset('scpi-counter'),
+      name: 'C-1 over USB',
+      initCommands: [':SENS:FREQ:GATE:TIME 1'],
+    };
+    const res = await request(t.app)
+      .put(profilePath())
+      .set(await auth('lead'))
+      .send(profile);
     expect(res.status).toBe(200);
     expect(res.body.linkProfile).toEqual(profile);
 
-    const read = await request(t.app).get(`/api/instruments/${counterId}`).set(await auth('technician'));
+    const read = await request(t.app)
+      .get(`/api/instruments/${counterId}`)
+      .set(await auth('technician'));
     expect(read.body.instrument.linkProfile).toEqual(profile);
-    const listed = await request(t.app).get('/api/instruments').set(await auth('viewer'));
-    expect(listed.body.instruments.find((i: { id: number }) => i.id === counterId).linkProfile.name).toBe('C-1 over USB');
+    const listed = await request(t.app)
+      .get('/api/instruments')
+      .set(await auth('viewer'));
+    expect(
+      listed.body.instruments.find((i: { id: number }) => i.id === counterId).linkProfile.name,
+    ).toBe('C-1 over USB');
 
-    const events = await AuditEvent.findAll({ where: { action: 'instrument.link-profile.set', subjectId: counterId } });
+    const events = await AuditEvent.findAll({
+      where: { action: 'instrument.link-profile.set', subjectId: counterId },
+    });
     expect(events).toHaveLength(1);
     expect(events[0].details).toMatchObject({ name: 'C-1 over USB', mode: 'query' });
   });
 
   it('replaces a profile with a simulator profile for the admin', async () => {
-    const profile = { ...linkPreset('talk-counter'), kind: 'simulator', simulator: { path: '/sim/counter', params: { mode: 'talk', preset: 'osc-25m' } } };
-    const res = await request(t.app).put(profilePath()).set(await auth('admin')).send(profile);
+    const profile = {
+      ...linkPreset('talk-counter'),
+      kind: 'simulator',
+      simulator: { path: '/sim/counter', params: { mode: 'talk', preset: 'osc-25m' } },
+    };
+    const res = await request(t.app)
+      .put(profilePath())
+      .set(await auth('admin'))
+      .send(profile);
     expect(res.status).toBe(200);
     expect(res.body.linkProfile.simulator.params.preset).toBe('osc-25m');
-    expect(await AuditEvent.count({ where: { action: 'instrument.link-profile.replace', subjectId: counterId } })).toBe(1);
+    expect(
+      await AuditEvent.count({
+        where: { action: 'instrument.link-profile.replace', subjectId: counterId },
+      }),
+    ).toBe(1);
   });
 
-  it.each(['viewer', 'technician', 'engineer'])('refuses to let the %s save or clear a profile (403)', async (role) => {
-    const put = await request(t.app).put(profilePath()).set(await auth(role)).send(linkPreset('scpi-counter'));
-    expect(put.status).toBe(403);
-    expect(put.body.error.code).toBe('forbidden');
-    const del = await request(t.app).delete(profilePath()).set(await auth(role));
-    expect(del.status).toBe(403);
-  });
+  it.each(['viewer', 'technician', 'engineer'])(
+    'refuses to let the %s save or clear a profile (403)',
+    async (role) => {
+      const put = await request(t.app)
+        .put(profilePath())
+        .set(await auth(role))
+        .send(linkPreset('scpi-counter'));
+      expect(put.status).toBe(403);
+      expect(put.body.error.code).toBe('forbidden');
+      const del = await request(t.app)
+        .delete(profilePath())
+        .set(await auth(role));
+      expect(del.status).toBe(403);
+    },
+  );
 
   it.each([
     [{ serial: { ...linkPreset('scpi-counter').serial, baudRate: 0 } }, 'serial.baudRate'],
@@ -68,7 +111,10 @@ describe('link profiles stored per instrument', () => {
     [{ terminator: 'CRLFCR' }, 'terminator'],
     [{ name: '' }, 'name'],
   ])('refuses a bad profile with 400 naming the field (%#)', async (change, field) => {
-    const res = await request(t.app).put(profilePath()).set(await auth('lead')).send({ ...linkPreset('scpi-counter'), ...change });
+    const res = await request(t.app)
+      .put(profilePath())
+      .set(await auth('lead'))
+      .send({ ...linkPreset('scpi-counter'), ...change });
     expect(res.status).toBe(400);
     expect(res.body.error.code).toBe('validation');
     expect(res.body.error.details.map((d: { path: string }) => d.path)).toContain(field);
@@ -76,22 +122,61 @@ describe('link profiles stored per instrument', () => {
   });
 
   it('clears a profile, and clearing again is harmless', async () => {
-    const res = await request(t.app).delete(profilePath()).set(await auth('lead'));
+    const res = await request(t.app)
+      .delete(profilePath())
+      .set(await auth('lead'));
     expect(res.status).toBe(204);
-    const read = await request(t.app).get(`/api/instruments/${counterId}`).set(await auth('viewer'));
+    const read = await request(t.app)
+      .get(`/api/instruments/${counterId}`)
+      .set(await auth('viewer'));
     expect(read.body.instrument.linkProfile).toBeNull();
-    expect(await AuditEvent.count({ where: { action: 'instrument.link-profile.clear', subjectId: counterId } })).toBe(1);
-    expect((await request(t.app).delete(profilePath()).set(await auth('lead'))).status).toBe(204);
-    expect(await AuditEvent.count({ where: { action: 'instrument.link-profile.clear', subjectId: counterId } })).toBe(1);
+    expect(
+      await AuditEvent.count({
+        where: { action: 'instrument.link-profile.clear', subjectId: counterId },
+      }),
+    ).toBe(1);
+    expect(
+      (
+        await request(t.app)
+          .delete(profilePath())
+          .set(await auth('lead'))
+      ).status,
+    ).toBe(204);
+    expect(
+      await AuditEvent.count({
+        where: { action: 'instrument.link-profile.clear', subjectId: counterId },
+      }),
+    ).toBe(1);
   });
 
   it('answers 404 for a missing instrument and 400 for a bad id', async () => {
-    expect((await request(t.app).get('/api/instruments/99999').set(await auth('viewer'))).status).toBe(404);
-    const put = await request(t.app).put('/api/instruments/99999/link-profile').set(await auth('admin')).send(linkPreset('spi-bridge'));
+    expect(
+      (
+        await request(t.app)
+          .get('/api/instruments/99999')
+          .set(await auth('viewer'))
+      ).status,
+    ).toBe(404);
+    const put = await request(t.app)
+      .put('/api/instruments/99999/link-profile')
+      .set(await auth('admin'))
+      .send(linkPreset('spi-bridge'));
     expect(put.status).toBe(404);
     expect(put.body.error.code).toBe('not-found');
-    expect((await request(t.app).delete('/api/instruments/99999/link-profile').set(await auth('admin'))).status).toBe(404);
-    expect((await request(t.app).get('/api/instruments/abc').set(await auth('viewer'))).status).toBe(400);
+    expect(
+      (
+        await request(t.app)
+          .delete('/api/instruments/99999/link-profile')
+          .set(await auth('admin'))
+      ).status,
+    ).toBe(404);
+    expect(
+      (
+        await request(t.app)
+          .get('/api/instruments/abc')
+          .set(await auth('viewer'))
+      ).status,
+    ).toBe(400);
   });
 });
 
@@ -107,18 +192,39 @@ describe('registering instruments', () => {
   };
 
   it('registers a counter for an admin, and it joins the lab list', async () => {
-    const res = await request(t.app).post('/api/instruments').set(await auth('admin')).send(counter);
+    const res = await request(t.app)
+      .post('/api/instruments')
+      .set(await auth('admin'))
+      .send(counter);
     expect(res.status).toBe(201);
-    expect(res.body.instrument).toMatchObject({ ...counter, linkProfile: null, calibrationState: 'valid' });
-    const listed = await request(t.app).get('/api/instruments').set(await auth('viewer'));
+    expect(res.body.instrument).toMatchObject({
+      ...counter,
+      linkProfile: null,
+      calibrationState: 'valid',
+    });
+    const listed = await request(t.app)
+      .get('/api/instruments')
+      .set(await auth('viewer'));
     expect(listed.body.instruments.map((i: { name: string }) => i.name)).toContain('Counter C-2');
-    expect(await AuditEvent.count({ where: { action: 'instrument.create', subjectId: res.body.instrument.id } })).toBe(1);
+    expect(
+      await AuditEvent.count({
+        where: { action: 'instrument.create', subjectId: res.body.instrument.id },
+      }),
+    ).toBe(1);
   });
 
   it('registers with only a name and a kind, storing empty texts as none', async () => {
-    const res = await request(t.app).post('/api/instruments').set(await auth('admin')).send({ name: 'Spare bridge', kind: 'spi-bridge', maker: '  ' });
+    const res = await request(t.app)
+      .post('/api/instruments')
+      .set(await auth('admin'))
+      .send({ name: 'Spare bridge', kind: 'spi-bridge', maker: '  ' });
     expect(res.status).toBe(201);
-    expect(res.body.instrument).toMatchObject({ maker: null, model: null, calibrationDue: null, calibrationState: 'no-due-date' });
+    expect(res.body.instrument).toMatchObject({
+      maker: null,
+      model: null,
+      calibrationDue: null,
+      calibrationState: 'no-due-date',
+    });
   });
 
   it.each([
@@ -128,30 +234,79 @@ describe('registering instruments', () => {
     [{ ...counter, calibrationDue: '2031-02-30' }, 'calibrationDue', 'not a calendar date'],
     [{ ...counter, colour: 'blue' }, 'body', 'Unrecognized key'],
   ])('refuses an invalid new instrument with a clear message (%#)', async (body, field, words) => {
-    const res = await request(t.app).post('/api/instruments').set(await auth('admin')).send(body);
+    const res = await request(t.app)
+      .post('/api/instruments')
+      .set(await auth('admin'))
+      .send(body);
     expect(res.status).toBe(400);
     const detail = res.body.error.details.find((d: { path: string }) => d.path === field);
     expect(detail?.message).toContain(words);
   });
 
-  it.each(['lead', 'engineer'])('refuses registration to a %s (403: instruments are the admins’)', async (role) => {
-    expect((await request(t.app).post('/api/instruments').set(await auth(role)).send(counter)).status).toBe(403);
-  });
+  it.each(['lead', 'engineer'])(
+    'refuses registration to a %s (403: instruments are the admins’)',
+    async (role) => {
+      expect(
+        (
+          await request(t.app)
+            .post('/api/instruments')
+            .set(await auth(role))
+            .send(counter)
+        ).status,
+      ).toBe(403);
+    },
+  );
 
   it('patches the calibration date and notes, validating them, and audits the change', async () => {
-    const created = await request(t.app).post('/api/instruments').set(await auth('admin')).send({ name: 'Counter C-3', kind: 'counter' });
+    const created = await request(t.app)
+      .post('/api/instruments')
+      .set(await auth('admin'))
+      .send({ name: 'Counter C-3', kind: 'counter' });
     const id = created.body.instrument.id;
-    const res = await request(t.app).patch(`/api/instruments/${id}`).set(await auth('admin')).send({ calibrationDue: '2030-01-15', notes: 'Back from calibration.' });
+    const res = await request(t.app)
+      .patch(`/api/instruments/${id}`)
+      .set(await auth('admin'))
+      .send({ calibrationDue: '2030-01-15', notes: 'Back from calibration.' });
     expect(res.status).toBe(200);
-    expect(res.body.instrument).toMatchObject({ name: 'Counter C-3', calibrationDue: '2030-01-15', notes: 'Back from calibration.' });
-    const events = await AuditEvent.findAll({ where: { action: 'instrument.update', subjectId: id } });
+    expect(res.body.instrument).toMatchObject({
+      name: 'Counter C-3',
+      calibrationDue: '2030-01-15',
+      notes: 'Back from calibration.',
+    });
+    const events = await AuditEvent.findAll({
+      where: { action: 'instrument.update', subjectId: id },
+    });
     expect(events[0].details).toMatchObject({ calibrationDue: { from: null, to: '2030-01-15' } });
 
-    const bad = await request(t.app).patch(`/api/instruments/${id}`).set(await auth('admin')).send({ calibrationDue: 'soon' });
+    const bad = await request(t.app)
+      .patch(`/api/instruments/${id}`)
+      .set(await auth('admin'))
+      .send({ calibrationDue: 'soon' });
     expect(bad.status).toBe(400);
     expect(bad.body.error.message).toMatch(/^calibrationDue: must be a date as YYYY-MM-DD/);
-    expect((await request(t.app).patch(`/api/instruments/${id}`).set(await auth('admin')).send({})).status).toBe(400);
-    expect((await request(t.app).patch(`/api/instruments/${id}`).set(await auth('technician')).send({ notes: 'x' })).status).toBe(403);
-    expect((await request(t.app).patch('/api/instruments/99999').set(await auth('admin')).send({ notes: 'x' })).status).toBe(404);
+    expect(
+      (
+        await request(t.app)
+          .patch(`/api/instruments/${id}`)
+          .set(await auth('admin'))
+          .send({})
+      ).status,
+    ).toBe(400);
+    expect(
+      (
+        await request(t.app)
+          .patch(`/api/instruments/${id}`)
+          .set(await auth('technician'))
+          .send({ notes: 'x' })
+      ).status,
+    ).toBe(403);
+    expect(
+      (
+        await request(t.app)
+          .patch('/api/instruments/99999')
+          .set(await auth('admin'))
+          .send({ notes: 'x' })
+      ).status,
+    ).toBe(404);
   });
 });

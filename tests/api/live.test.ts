@@ -14,7 +14,13 @@ let drop: () => Promise<void>;
 beforeAll(async () => {
   const db = await createTestDatabase();
   drop = db.drop;
-  server = await startServer({ databaseUrl: db.url, jwtSecret: TEST_JWT_SECRET, demo: true, simulators: true, log: pino({ level: 'silent' }) });
+  server = await startServer({
+    databaseUrl: db.url,
+    jwtSecret: TEST_JWT_SECRET,
+    demo: true,
+    simulators: true,
+    log: pino({ level: 'silent' }),
+  });
 });
 afterAll(async () => {
   await server.close();
@@ -38,7 +44,13 @@ function api(token: string, method: string, path: string, body?: unknown): Promi
   }).then((r) => r.json());
 }
 
-function connect(token: string): Promise<{ ws: WebSocket; messages: ServerMessage[]; next(type: string): Promise<ServerMessage> }> {
+function connect(
+  token: string,
+): Promise<{
+  ws: WebSocket;
+  messages: ServerMessage[];
+  next(type: string): Promise<ServerMessage>;
+}> {
   return new Promise((resolve, reject) => {
     const ws = new WebSocket(`${server.url.replace('http', 'ws')}/ws`, socketProtocols(token));
     const messages: ServerMessage[] = [];
@@ -85,25 +97,39 @@ describe('live watching', () => {
 
     // A resent batch is not sent to watchers again; only the new reading is.
     const second = watcher.next('readings-batch');
-    await api(tech, 'POST', `/api/captures/${capture.id}/readings`, { readings: [...batch, { seq: 3, t: 0.3, value: 16e6 + 3 }] });
-    expect(((await second) as Extract<ServerMessage, { type: 'readings-batch' }>).readings.map((r) => r.seq)).toEqual([3]);
+    await api(tech, 'POST', `/api/captures/${capture.id}/readings`, {
+      readings: [...batch, { seq: 3, t: 0.3, value: 16e6 + 3 }],
+    });
+    expect(
+      ((await second) as Extract<ServerMessage, { type: 'readings-batch' }>).readings.map(
+        (r) => r.seq,
+      ),
+    ).toEqual([3]);
 
     const state = watcher.next('capture-state');
     await api(tech, 'POST', `/api/captures/${capture.id}/finish`);
-    expect(await state).toMatchObject({ type: 'capture-state', captureId: capture.id, state: 'finished' });
+    expect(await state).toMatchObject({
+      type: 'capture-state',
+      captureId: capture.id,
+      state: 'finished',
+    });
     watcher.ws.close();
   });
 
   it('refuses a WebSocket without a valid token', async () => {
     const ws = new WebSocket(`${server.url.replace('http', 'ws')}/ws`, socketProtocols('bogus'));
-    const status = await new Promise<number>((resolve) => ws.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)));
+    const status = await new Promise<number>((resolve) =>
+      ws.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)),
+    );
     expect(status).toBe(401);
   });
 
   it('takes the token from the subprotocol header only: a token in the URL is refused, and the answer never echoes it', async () => {
     const token = await login('viewer');
     const inUrl = new WebSocket(`${server.url.replace('http', 'ws')}/ws?token=${token}`);
-    const status = await new Promise<number>((resolve) => inUrl.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)));
+    const status = await new Promise<number>((resolve) =>
+      inUrl.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)),
+    );
     expect(status).toBe(401);
     const peer = await connect(token);
     expect(peer.ws.protocol).toBe(WS_PROTOCOL);
@@ -114,17 +140,25 @@ describe('live watching', () => {
     const token = await login('engineer');
     const peer = await connect(token);
     const closed = new Promise<number>((resolve) => peer.ws.on('close', (code) => resolve(code)));
-    await fetch(`${server.url}/api/auth/logout`, { method: 'POST', headers: { authorization: `Bearer ${token}` } });
+    await fetch(`${server.url}/api/auth/logout`, {
+      method: 'POST',
+      headers: { authorization: `Bearer ${token}` },
+    });
     await server.hub.recheckSessions();
     expect(await closed).toBe(4401);
   });
 
   it('opens the simulators only for a signed-in session, and ends a socket that sends an oversized frame', async () => {
     const anonymous = new WebSocket(`${server.url.replace('http', 'ws')}/sim/counter`);
-    const status = await new Promise<number>((resolve) => anonymous.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)));
+    const status = await new Promise<number>((resolve) =>
+      anonymous.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)),
+    );
     expect(status).toBe(401);
     const token = await login('technician');
-    const sim = new WebSocket(`${server.url.replace('http', 'ws')}/sim/counter?mode=talk`, socketProtocols(token));
+    const sim = new WebSocket(
+      `${server.url.replace('http', 'ws')}/sim/counter?mode=talk`,
+      socketProtocols(token),
+    );
     await new Promise((resolve, reject) => {
       sim.on('open', resolve);
       sim.on('error', reject);
@@ -142,7 +176,9 @@ describe('live watching', () => {
     peer.ws.send(JSON.stringify({ type: 'constructor', captureId: 1 }));
     peer.ws.send('not json');
     peer.ws.send(JSON.stringify(null));
-    const errors = await new Promise<ServerMessage[]>((resolve) => setTimeout(() => resolve(peer.messages.filter((m) => m.type === 'error')), 300));
+    const errors = await new Promise<ServerMessage[]>((resolve) =>
+      setTimeout(() => resolve(peer.messages.filter((m) => m.type === 'error')), 300),
+    );
     expect(errors).toHaveLength(4);
     const closed = new Promise<void>((resolve) => peer.ws.on('close', () => resolve()));
     peer.ws.send('x'.repeat(100 * 1024));
@@ -156,7 +192,7 @@ describe('live watching', () => {
     const refused = peer.next('error');
     peer.ws.send(JSON.stringify({ type: 'watch', captureId: 'seven' }));
     expect(await refused).toMatchObject({ type: 'error', code: 'bad-message' });
-    expect((await refused as { message: string }).message).toContain('captureId');
+    expect(((await refused) as { message: string }).message).toContain('captureId');
     const unknown = peer.next('error');
     peer.ws.send(JSON.stringify({ type: 'shout' }));
     expect(await unknown).toMatchObject({ type: 'error', code: 'unknown-type' });
@@ -172,7 +208,10 @@ describe('live watching', () => {
     const admin = await login('admin');
     const engineer = await login('engineer');
     const peer = await connect(engineer);
-    const users = (await api(admin, 'GET', '/api/users')).users as Array<{ id: number; role: string }>;
+    const users = (await api(admin, 'GET', '/api/users')).users as Array<{
+      id: number;
+      role: string;
+    }>;
     const id = users.find((u) => u.role === 'engineer')!.id;
     await api(admin, 'PATCH', `/api/users/${id}`, { active: false });
     const code = new Promise<number>((resolve) => peer.ws.on('close', (c) => resolve(c)));

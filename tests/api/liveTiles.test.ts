@@ -21,7 +21,13 @@ async function newCapture() {
   const res = await request(t.app)
     .post('/api/captures')
     .set(await auth('technician'))
-    .send({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], quantity: 'frequency', unit: 'Hz', gateTime: 1 });
+    .send({
+      dutId: ids.crystal.id,
+      checkpointId: ids.checkpoints[0],
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+    });
   expect(res.status).toBe(201);
   return res.body.id as number;
 }
@@ -59,7 +65,14 @@ function expectedTiles(readings: R[], levels: number[]): Tile[] {
         if (r.value < lo.value) lo = r;
         if (r.value > hi.value) hi = r;
       }
-      out.push({ level, bucket, min_seq: lo.seq, min_value: lo.value, max_seq: hi.seq, max_value: hi.value });
+      out.push({
+        level,
+        bucket,
+        min_seq: lo.seq,
+        min_value: lo.value,
+        max_seq: hi.seq,
+        max_value: hi.value,
+      });
     }
   }
   return out;
@@ -80,18 +93,34 @@ describe('tiles of an open capture', () => {
     const rand = seeded(15);
     const kept = new Map<number, R>();
     const post = async (readings: R[]) => {
-      const res = await request(t.app).post(`/api/captures/${id}/readings`).set(await auth('technician')).send({ readings });
+      const res = await request(t.app)
+        .post(`/api/captures/${id}/readings`)
+        .set(await auth('technician'))
+        .send({ readings });
       expect(res.status).toBe(200);
       // What the database keeps: the first value sent for each seq.
       for (const r of readings) if (!kept.has(r.seq)) kept.set(r.seq, r);
     };
-    const make = (seq: number, value?: number): R => ({ seq, t: seq * 0.5, value: value ?? 16e6 + rand.gauss() * 1e-3 });
+    const make = (seq: number, value?: number): R => ({
+      seq,
+      t: seq * 0.5,
+      value: value ?? 16e6 + rand.gauss() * 1e-3,
+    });
     // Seqs 0–2999 in batches of 300, except 1000–1099, which come last.
     for (let b = 0; b < 3000; b += 300) {
-      await post(Array.from({ length: 300 }, (_, i) => make(b + i)).filter((r) => r.seq < 1000 || r.seq >= 1100));
+      await post(
+        Array.from({ length: 300 }, (_, i) => make(b + i)).filter(
+          (r) => r.seq < 1000 || r.seq >= 1100,
+        ),
+      );
     }
     // Equal extremes inside one 64-run: the smaller seq must win for both min and max.
-    await post([make(3000, 16e6 + 1), make(3001, 16e6 - 1), make(3002, 16e6 + 1), make(3003, 16e6 - 1)]);
+    await post([
+      make(3000, 16e6 + 1),
+      make(3001, 16e6 - 1),
+      make(3002, 16e6 + 1),
+      make(3003, 16e6 - 1),
+    ]);
     // The gap, out of order, then a resend of stored seqs with absurd values (refused as duplicates).
     await post(Array.from({ length: 100 }, (_, i) => make(1099 - i)));
     await post([make(10, 16e6 + 1e6), make(2000, 16e6 - 1e6)]);
@@ -107,12 +136,24 @@ describe('tiles of an open capture', () => {
   it('serve the decimated read of an open capture, and the read is the same once it is finished', async () => {
     const id = await newCapture();
     const n = 20_000;
-    const readings = Array.from({ length: n }, (_, i) => ({ seq: i, t: i * 0.01, value: i === 12_345 ? 99 : i === 777 ? -99 : Math.sin(i / 500) }));
+    const readings = Array.from({ length: n }, (_, i) => ({
+      seq: i,
+      t: i * 0.01,
+      value: i === 12_345 ? 99 : i === 777 ? -99 : Math.sin(i / 500),
+    }));
     for (let b = 0; b < n; b += 5000) {
-      const res = await request(t.app).post(`/api/captures/${id}/readings`).set(await auth('technician')).send({ readings: readings.slice(b, b + 5000) });
+      const res = await request(t.app)
+        .post(`/api/captures/${id}/readings`)
+        .set(await auth('technician'))
+        .send({ readings: readings.slice(b, b + 5000) });
       expect(res.status).toBe(200);
     }
-    const read = async (q: string) => (await request(t.app).get(`/api/captures/${id}/readings?${q}`).set(await auth('viewer'))).body;
+    const read = async (q: string) =>
+      (
+        await request(t.app)
+          .get(`/api/captures/${id}/readings?${q}`)
+          .set(await auth('viewer'))
+      ).body;
     const open = await read('maxPoints=200');
     const openZoom = await read('from=1000&to=15000&maxPoints=300');
     expect(open.decimated).toBe(true);
@@ -125,12 +166,20 @@ describe('tiles of an open capture', () => {
     // 200 points = 100 pairs; the finest level whose tiles over 20,000 seqs leave room for two edges:
     // ⌈20000/128⌉ + 2 = 159 > 100, ⌈20000/256⌉ + 2 = 81 ≤ 100 → level 2 (256 seqs a tile).
     const level = 2;
-    const probe = await t.db.pool.query('UPDATE reading_tiles SET max_value = 12345 WHERE capture_id = $1 AND level = $2 AND bucket = 1 RETURNING max_seq', [id, level]);
+    const probe = await t.db.pool.query(
+      'UPDATE reading_tiles SET max_value = 12345 WHERE capture_id = $1 AND level = $2 AND bucket = 1 RETURNING max_seq',
+      [id, level],
+    );
     expect(probe.rowCount).toBe(1);
     expect((await read('maxPoints=200')).readings.map((r: R) => r.value)).toContain(12345);
-    await t.db.pool.query('UPDATE reading_tiles SET max_value = (SELECT value FROM readings WHERE capture_id = $1 AND seq = $3) WHERE capture_id = $1 AND level = $2 AND bucket = 1', [id, level, probe.rows[0].max_seq]);
+    await t.db.pool.query(
+      'UPDATE reading_tiles SET max_value = (SELECT value FROM readings WHERE capture_id = $1 AND seq = $3) WHERE capture_id = $1 AND level = $2 AND bucket = 1',
+      [id, level, probe.rows[0].max_seq],
+    );
 
-    const fin = await request(t.app).post(`/api/captures/${id}/finish`).set(await auth('technician'));
+    const fin = await request(t.app)
+      .post(`/api/captures/${id}/finish`)
+      .set(await auth('technician'));
     expect(fin.status).toBe(200);
     expect(await read('maxPoints=200')).toEqual(open);
     expect(await read('from=1000&to=15000&maxPoints=300')).toEqual(openZoom);

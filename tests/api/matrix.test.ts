@@ -15,17 +15,40 @@ afterAll(async () => {
   await t.close();
 });
 
-async function finished(dutId: number, checkpointId: number, mean: number, seed: number, ambientC: number | null = 23) {
+async function finished(
+  dutId: number,
+  checkpointId: number,
+  mean: number,
+  seed: number,
+  ambientC: number | null = 23,
+) {
   // The bench records the ambient (23 °C by default); a tuning fork without one is compared over
   // the whole lab range (issue 8), which the last test shows.
   const c = await request(t.app)
     .post('/api/captures')
     .set(await auth('technician'))
-    .send({ dutId, checkpointId, quantity: 'frequency', unit: 'Hz', gateTime: 1, referenceId: 1, ...(ambientC === null ? {} : { ambientC }) });
+    .send({
+      dutId,
+      checkpointId,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+      referenceId: 1,
+      ...(ambientC === null ? {} : { ambientC }),
+    });
   const rnd = seeded(seed);
-  const readings = Array.from({ length: 400 }, (_, i) => ({ seq: i, t: i, value: mean + 1e-4 * rnd.gauss() }));
-  await request(t.app).post(`/api/captures/${c.body.id}/readings`).set(await auth('technician')).send({ readings });
-  await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(await auth('technician'));
+  const readings = Array.from({ length: 400 }, (_, i) => ({
+    seq: i,
+    t: i,
+    value: mean + 1e-4 * rnd.gauss(),
+  }));
+  await request(t.app)
+    .post(`/api/captures/${c.body.id}/readings`)
+    .set(await auth('technician'))
+    .send({ readings });
+  await request(t.app)
+    .post(`/api/captures/${c.body.id}/finish`)
+    .set(await auth('technician'));
   return c.body.id as number;
 }
 
@@ -35,7 +58,9 @@ describe('the study matrix', () => {
     await finished(ids.tuningFork.id, ids.checkpoints[0], f0, 1);
     await finished(ids.tuningFork.id, ids.checkpoints[1], f0 + 0.1 * 1e-6 * f0, 2);
     await finished(ids.tuningFork.id, ids.checkpoints[2], f0 + 2.5 * 1e-6 * f0, 3);
-    const res = await request(t.app).get(`/api/studies/${ids.studyId}/matrix`).set(await auth('viewer'));
+    const res = await request(t.app)
+      .get(`/api/studies/${ids.studyId}/matrix`)
+      .set(await auth('viewer'));
     expect(res.status).toBe(200);
     expect(res.body.checkpoints.map((c: { id: number }) => c.id)).toEqual(ids.checkpoints);
     const row = res.body.rows.find((r: { dut: { id: number } }) => r.dut.id === ids.tuningFork.id);
@@ -46,7 +71,9 @@ describe('the study matrix', () => {
     expect(over.comparison.verdict).toBe('exceeds');
     expect(over.comparison.deltaPpm).toBeCloseTo(2.5, 1);
     expect(bake).toEqual({ checkpointId: ids.checkpoints[3], capture: null, comparison: null });
-    const untouched = res.body.rows.find((r: { dut: { id: number } }) => r.dut.id === ids.crystal.id);
+    const untouched = res.body.rows.find(
+      (r: { dut: { id: number } }) => r.dut.id === ids.crystal.id,
+    );
     expect(untouched.cells.every((c: { capture: unknown }) => c.capture === null)).toBe(true);
   });
 
@@ -58,24 +85,50 @@ describe('the study matrix', () => {
     // 2.5 ppm change is inconclusive too (2.5 − 2.1 < 1), and a 4 ppm one exceeds (4 − 2.1 > 1).
     const f0 = ids.tuningFork.nominal;
     const base = await finished(ids.tuningFork.id, ids.checkpoints[0], f0, 11, null);
-    const wash = await finished(ids.tuningFork.id, ids.checkpoints[1], f0 + 0.1 * 1e-6 * f0, 12, null);
-    const over = await finished(ids.tuningFork.id, ids.checkpoints[2], f0 + 2.5 * 1e-6 * f0, 13, null);
-    const a = await request(t.app).get(`/api/comparisons?before=${base}&after=${wash}`).set(await auth('viewer'));
+    const wash = await finished(
+      ids.tuningFork.id,
+      ids.checkpoints[1],
+      f0 + 0.1 * 1e-6 * f0,
+      12,
+      null,
+    );
+    const over = await finished(
+      ids.tuningFork.id,
+      ids.checkpoints[2],
+      f0 + 2.5 * 1e-6 * f0,
+      13,
+      null,
+    );
+    const a = await request(t.app)
+      .get(`/api/comparisons?before=${base}&after=${wash}`)
+      .set(await auth('viewer'));
     expect(a.status).toBe(200);
     expect(a.body.verdict).toBe('inconclusive');
     expect(a.body.notes.join(' ')).toMatch(/no ambient temperature/);
     const names = a.body.budget.components.map((c: { name: string }) => c.name);
-    expect(names).toEqual(expect.arrayContaining(['Ambient not recorded (before)', 'Ambient not recorded (after)', 'Turnover temperature T0 (shared)']));
-    const b = await request(t.app).get(`/api/comparisons?before=${base}&after=${over}`).set(await auth('viewer'));
+    expect(names).toEqual(
+      expect.arrayContaining([
+        'Ambient not recorded (before)',
+        'Ambient not recorded (after)',
+        'Turnover temperature T0 (shared)',
+      ]),
+    );
+    const b = await request(t.app)
+      .get(`/api/comparisons?before=${base}&after=${over}`)
+      .set(await auth('viewer'));
     expect(b.body.verdict).toBe('inconclusive');
     expect(b.body.expandedUncertainty / f0 / 1e-6).toBeGreaterThan(2.0); // review8 F2: ≈ 2.1 ppm
     const far = await finished(ids.tuningFork.id, ids.checkpoints[3], f0 + 4 * 1e-6 * f0, 14, null);
-    const c = await request(t.app).get(`/api/comparisons?before=${base}&after=${far}`).set(await auth('viewer'));
+    const c = await request(t.app)
+      .get(`/api/comparisons?before=${base}&after=${far}`)
+      .set(await auth('viewer'));
     expect(c.body.verdict).toBe('exceeds');
   });
 
   it('answers 404 for a missing study', async () => {
-    const res = await request(t.app).get('/api/studies/9999/matrix').set(await auth('viewer'));
+    const res = await request(t.app)
+      .get('/api/studies/9999/matrix')
+      .set(await auth('viewer'));
     expect(res.status).toBe(404);
   });
 });

@@ -39,7 +39,11 @@ async function everyPage(path: string, key: string, limit: number) {
 describe('paging of list routes', () => {
   it('pages instruments by name with ties, neither skipping nor repeating one', async () => {
     for (const name of ['Probe', 'Probe', 'Probe', 'Amp', 'Zed']) {
-      await request(t.app).post('/api/instruments').set(auth()).send({ name, kind: 'other' }).expect(201);
+      await request(t.app)
+        .post('/api/instruments')
+        .set(auth())
+        .send({ name, kind: 'other' })
+        .expect(201);
     }
     const all = (await request(t.app).get('/api/instruments').set(auth())).body;
     expect(all.nextCursor).toBeNull();
@@ -58,27 +62,61 @@ describe('paging of list routes', () => {
     expect(seen.map((i) => i.id)).toEqual(all.map((i) => i.id));
   });
 
-  it.each(Object.entries(LIST_LIMITS))('refuses a limit over the maximum on /api/%s with 400', async (name, l) => {
-    const res = await request(t.app).get(`/api/${name}`).query({ limit: l.max + 1 }).set(auth());
-    expect(res.status).toBe(400);
-    expect(res.body.error.details[0].path).toBe('limit');
-  });
+  it.each(Object.entries(LIST_LIMITS))(
+    'refuses a limit over the maximum on /api/%s with 400',
+    async (name, l) => {
+      const res = await request(t.app)
+        .get(`/api/${name}`)
+        .query({ limit: l.max + 1 })
+        .set(auth());
+      expect(res.status).toBe(400);
+      expect(res.body.error.details[0].path).toBe('limit');
+    },
+  );
 
-  it.each(['not-a-cursor', 'eyJ4IjoxfQ', ''])('refuses a cursor it did not give (%j) with 400', async (cursor) => {
-    const res = await request(t.app).get('/api/captures').query({ cursor: cursor || '!!' }).set(auth());
-    expect(res.status).toBe(400);
-  });
+  it.each(['not-a-cursor', 'eyJ4IjoxfQ', ''])(
+    'refuses a cursor it did not give (%j) with 400',
+    async (cursor) => {
+      const res = await request(t.app)
+        .get('/api/captures')
+        .query({ cursor: cursor || '!!' })
+        .set(auth());
+      expect(res.status).toBe(400);
+    },
+  );
 });
 
 describe('stored JSON fields have a schema and a size', () => {
   it('refuses a capture whose link profile is not a link profile, or is huge, with 400', async () => {
     const ids = await demoIds(t.app, admin);
-    const base = { dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], quantity: 'frequency', unit: 'Hz', gateTime: 1 };
-    const junk = await request(t.app).post('/api/captures').set(auth()).send({ ...base, linkProfile: { blob: 'x'.repeat(50_000) } });
+    const base = {
+      dutId: ids.crystal.id,
+      checkpointId: ids.checkpoints[0],
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+    };
+    const junk = await request(t.app)
+      .post('/api/captures')
+      .set(auth())
+      .send({ ...base, linkProfile: { blob: 'x'.repeat(50_000) } });
     expect(junk.status).toBe(400);
-    const padded = { ...linkPreset('talk-counter'), initCommands: Array.from({ length: 5000 }, () => 'x') };
-    expect((await request(t.app).post('/api/captures').set(auth()).send({ ...base, linkProfile: padded })).status).toBe(400);
-    const ok = await request(t.app).post('/api/captures').set(auth()).send({ ...base, linkProfile: linkPreset('talk-counter') });
+    const padded = {
+      ...linkPreset('talk-counter'),
+      initCommands: Array.from({ length: 5000 }, () => 'x'),
+    };
+    expect(
+      (
+        await request(t.app)
+          .post('/api/captures')
+          .set(auth())
+          .send({ ...base, linkProfile: padded })
+      ).status,
+    ).toBe(400);
+    const ok = await request(t.app)
+      .post('/api/captures')
+      .set(auth())
+      .send({ ...base, linkProfile: linkPreset('talk-counter') });
     expect(ok.status).toBe(201);
     expect(ok.body.linkProfile.name).toBe('Streaming counter (talk-only)');
   });
@@ -97,9 +135,19 @@ describe('stored JSON fields have a schema and a size', () => {
 
   it('answers the captures list quickly in size however many captures carry profiles', async () => {
     const ids = await demoIds(t.app, admin);
-    const base = { dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], quantity: 'frequency', unit: 'Hz', gateTime: 1 };
+    const base = {
+      dutId: ids.crystal.id,
+      checkpointId: ids.checkpoints[0],
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+    };
     for (let i = 0; i < 20; i++) {
-      await request(t.app).post('/api/captures').set(auth()).send({ ...base, linkProfile: linkPreset('scpi-counter') }).expect(201);
+      await request(t.app)
+        .post('/api/captures')
+        .set(auth())
+        .send({ ...base, linkProfile: linkPreset('scpi-counter') })
+        .expect(201);
     }
     const list = await request(t.app).get('/api/captures').set(auth());
     // 21 captures of about 600 bytes each without profiles (common practice, no source: a generous bound).

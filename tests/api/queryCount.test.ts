@@ -42,14 +42,22 @@ afterAll(async () => {
 
 const NOMINAL = 16_000_000;
 
-async function studyWith(duts: number): Promise<{ id: number; dutIds: number[]; checkpointIds: number[] }> {
+async function studyWith(
+  duts: number,
+): Promise<{ id: number; dutIds: number[]; checkpointIds: number[] }> {
   const planner = await auth('engineer');
-  const study = await request(t.app).post('/api/studies').set(planner).send({ title: `Query count, ${duts} DUTs`, allowSimulated: true });
+  const study = await request(t.app)
+    .post('/api/studies')
+    .set(planner)
+    .send({ title: `Query count, ${duts} DUTs`, allowSimulated: true });
   expect(study.status).toBe(201);
   const id = study.body.id as number;
   const checkpointIds: number[] = [];
   for (const name of ['Baseline', 'After wash', 'After bake']) {
-    const cp = await request(t.app).post(`/api/studies/${id}/checkpoints`).set(planner).send({ name });
+    const cp = await request(t.app)
+      .post(`/api/studies/${id}/checkpoints`)
+      .set(planner)
+      .send({ name });
     expect(cp.status).toBe(201);
     checkpointIds.push(cp.body.id);
   }
@@ -58,7 +66,14 @@ async function studyWith(duts: number): Promise<{ id: number; dutIds: number[]; 
     const d = await request(t.app)
       .post(`/api/studies/${id}/duts`)
       .set(planner)
-      .send({ label: `Y${i + 1}`, kind: 'crystal', nominal: NOMINAL, unit: 'Hz', limit: 1, limitUnit: 'ppm' });
+      .send({
+        label: `Y${i + 1}`,
+        kind: 'crystal',
+        nominal: NOMINAL,
+        unit: 'Hz',
+        limit: 1,
+        limitUnit: 'ppm',
+      });
     expect(d.status).toBe(201);
     dutIds.push(d.body.id);
   }
@@ -70,12 +85,34 @@ async function studyWith(duts: number): Promise<{ id: number; dutIds: number[]; 
       const c = await request(t.app)
         .post('/api/captures')
         .set(tech)
-        .send({ dutId, checkpointId, quantity: 'frequency', unit: 'Hz', gateTime: 1, referenceId: 1, instrumentId: 1, ambientC: 23 });
+        .send({
+          dutId,
+          checkpointId,
+          quantity: 'frequency',
+          unit: 'Hz',
+          gateTime: 1,
+          referenceId: 1,
+          instrumentId: 1,
+          ambientC: 23,
+        });
       expect(c.status).toBe(201);
       const rnd = seeded(seed++);
-      const readings = Array.from({ length: 40 }, (_, i) => ({ seq: i, t: i, value: NOMINAL + 1e-3 * rnd.gauss() }));
-      expect((await request(t.app).post(`/api/captures/${c.body.id}/readings`).set(tech).send({ readings })).status).toBe(200);
-      expect((await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(tech)).status).toBe(200);
+      const readings = Array.from({ length: 40 }, (_, i) => ({
+        seq: i,
+        t: i,
+        value: NOMINAL + 1e-3 * rnd.gauss(),
+      }));
+      expect(
+        (
+          await request(t.app)
+            .post(`/api/captures/${c.body.id}/readings`)
+            .set(tech)
+            .send({ readings })
+        ).status,
+      ).toBe(200);
+      expect(
+        (await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(tech)).status,
+      ).toBe(200);
     }
   }
   return { id, dutIds, checkpointIds };
@@ -111,7 +148,8 @@ describe('a constant number of queries', () => {
 
   it('the captures list carries study, DUT, checkpoint and operator names in as few queries for 10 DUTs as for 2', async () => {
     const viewer = await auth('viewer');
-    const list = (id: number) => request(t.app).get(`/api/captures?studyId=${id}&limit=100`).set(viewer);
+    const list = (id: number) =>
+      request(t.app).get(`/api/captures?studyId=${id}&limit=100`).set(viewer);
     let small6: any;
     let large30: any;
     const few = await queriesOf(async () => (small6 = (await list(small.id)).body));
@@ -129,10 +167,15 @@ describe('a constant number of queries', () => {
 
   it('one capture with all its names is one query besides signing the request in', async () => {
     const viewer = await auth('viewer');
-    const res = await request(t.app).get('/api/captures').query({ studyId: large.id, limit: 1 }).set(viewer);
+    const res = await request(t.app)
+      .get('/api/captures')
+      .query({ studyId: large.id, limit: 1 })
+      .set(viewer);
     const id = res.body.captures[0].id as number;
     let body: any;
-    const n = await queriesOf(async () => (body = (await request(t.app).get(`/api/captures/${id}`).set(viewer)).body));
+    const n = await queriesOf(
+      async () => (body = (await request(t.app).get(`/api/captures/${id}`).set(viewer)).body),
+    );
     expect(body.study.title).toBe('Query count, 10 DUTs');
     expect(body.reference).not.toBeNull();
     expect(body.instrument).not.toBeNull();

@@ -12,7 +12,10 @@ afterAll(async () => {
 
 describe('login rate limit', () => {
   it('answers 429 after too many attempts', async () => {
-    const attempt = () => request(t.app).post('/api/auth/login').send({ email: 'lead@kestrelbay.example', password: 'wrong-password' });
+    const attempt = () =>
+      request(t.app)
+        .post('/api/auth/login')
+        .send({ email: 'lead@kestrelbay.example', password: 'wrong-password' });
     for (let i = 0; i < 3; i++) expect((await attempt()).status).toBe(401);
     const res = await attempt();
     expect(res.status).toBe(429);

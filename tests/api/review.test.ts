@@ -21,7 +21,9 @@ const post = async (path: string, role: string | Record<string, string>, body: o
 describe('study workflow: draft → running', () => {
   it('starts a new study as a draft that cannot be submitted', async () => {
     const { studyId } = await plannedStudy(t);
-    const s = await request(t.app).get(`/api/studies/${studyId}`).set(await as(t, 'viewer'));
+    const s = await request(t.app)
+      .get(`/api/studies/${studyId}`)
+      .set(await as(t, 'viewer'));
     expect(s.body).toMatchObject({ status: 'draft', revision: 1 });
     const res = await post(`/api/studies/${studyId}/submit`, 'engineer', { note: 'early' });
     expect(res.status).toBe(409);
@@ -41,10 +43,21 @@ describe('study workflow: draft → running', () => {
   it('moves draft → running when the first capture opens', async () => {
     const plan = await plannedStudy(t);
     await capture(t, plan, { open: true, role: 'technician' });
-    const s = await request(t.app).get(`/api/studies/${plan.studyId}`).set(await as(t, 'viewer'));
+    const s = await request(t.app)
+      .get(`/api/studies/${plan.studyId}`)
+      .set(await as(t, 'viewer'));
     expect(s.body.status).toBe('running');
-    const h = await request(t.app).get(`/api/studies/${plan.studyId}/reviews`).set(await as(t, 'viewer'));
-    expect(h.body.reviews).toEqual([expect.objectContaining({ action: 'start', fromStatus: 'draft', toStatus: 'running', actorName: 'Tomas Technician' })]);
+    const h = await request(t.app)
+      .get(`/api/studies/${plan.studyId}/reviews`)
+      .set(await as(t, 'viewer'));
+    expect(h.body.reviews).toEqual([
+      expect.objectContaining({
+        action: 'start',
+        fromStatus: 'draft',
+        toStatus: 'running',
+        actorName: 'Tomas Technician',
+      }),
+    ]);
   });
 });
 
@@ -71,24 +84,40 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
   });
 
   it('lets the engineer submit with a note: running → in-review', async () => {
-    const res = await post(`/api/studies/${plan.studyId}/submit`, 'engineer', { note: 'All four checkpoints measured.' });
+    const res = await post(`/api/studies/${plan.studyId}/submit`, 'engineer', {
+      note: 'All four checkpoints measured.',
+    });
     expect(res.status).toBe(200);
     expect(res.body.status).toBe('in-review');
     expect(res.body.submittedBy).toBeTypeOf('number');
     expect((await post(`/api/studies/${plan.studyId}/submit`, 'engineer')).status).toBe(409);
   });
 
-  it.each(['engineer', 'technician', 'viewer', 'admin'])('refuses approve, return and reopen to the %s with 403', async (role) => {
-    expect((await post(`/api/studies/${plan.studyId}/approve`, role, { password: DEMO_PASSWORD })).status).toBe(403);
-    expect((await post(`/api/studies/${plan.studyId}/return`, role, { comment: 'x' })).status).toBe(403);
-    expect((await post(`/api/studies/${plan.studyId}/reopen`, role, { reason: 'x' })).status).toBe(403);
-  });
+  it.each(['engineer', 'technician', 'viewer', 'admin'])(
+    'refuses approve, return and reopen to the %s with 403',
+    async (role) => {
+      expect(
+        (await post(`/api/studies/${plan.studyId}/approve`, role, { password: DEMO_PASSWORD }))
+          .status,
+      ).toBe(403);
+      expect(
+        (await post(`/api/studies/${plan.studyId}/return`, role, { comment: 'x' })).status,
+      ).toBe(403);
+      expect(
+        (await post(`/api/studies/${plan.studyId}/reopen`, role, { reason: 'x' })).status,
+      ).toBe(403);
+    },
+  );
 
   it('refuses an approval whose password does not match, leaving the study in review', async () => {
-    const res = await post(`/api/studies/${plan.studyId}/approve`, 'lead', { password: 'not-the-password' });
+    const res = await post(`/api/studies/${plan.studyId}/approve`, 'lead', {
+      password: 'not-the-password',
+    });
     expect(res.status).toBe(403);
     expect(res.body.error.code).toBe('signature-refused');
-    const s = await request(t.app).get(`/api/studies/${plan.studyId}`).set(await as(t, 'viewer'));
+    const s = await request(t.app)
+      .get(`/api/studies/${plan.studyId}`)
+      .set(await as(t, 'viewer'));
     expect(s.body.status).toBe('in-review');
   });
 
@@ -97,78 +126,157 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
     expect(empty.status).toBe(400);
     expect(empty.body.error.message).toMatch(/comment/);
     expect((await post(`/api/studies/${plan.studyId}/return`, 'lead', {})).status).toBe(400);
-    expect((await post(`/api/studies/${plan.studyId}/reopen`, 'lead', { reason: 'x' })).status).toBe(409);
+    expect(
+      (await post(`/api/studies/${plan.studyId}/reopen`, 'lead', { reason: 'x' })).status,
+    ).toBe(409);
   });
 
   it('returns with a comment: in-review → returned, open for work again', async () => {
-    const res = await post(`/api/studies/${plan.studyId}/return`, 'lead', { comment: 'Add the ambient temperature to every capture.' });
+    const res = await post(`/api/studies/${plan.studyId}/return`, 'lead', {
+      comment: 'Add the ambient temperature to every capture.',
+    });
     expect(res.status).toBe(200);
     expect(res.body.status).toBe('returned');
-    expect((await post(`/api/studies/${plan.studyId}/approve`, 'lead', { password: DEMO_PASSWORD })).status).toBe(409);
-    expect((await post(`/api/studies/${plan.studyId}/return`, 'lead', { comment: 'again' })).status).toBe(409);
+    expect(
+      (await post(`/api/studies/${plan.studyId}/approve`, 'lead', { password: DEMO_PASSWORD }))
+        .status,
+    ).toBe(409);
+    expect(
+      (await post(`/api/studies/${plan.studyId}/return`, 'lead', { comment: 'again' })).status,
+    ).toBe(409);
     // Work continues on a returned study.
     await capture(t, plan);
   });
 
   it('resubmits a returned study and lets a lead who did not submit approve it with the password', async () => {
-    expect((await post(`/api/studies/${plan.studyId}/submit`, 'engineer', { note: 'Ambient added.' })).body.status).toBe('in-review');
-    const res = await post(`/api/studies/${plan.studyId}/approve`, 'lead', { password: DEMO_PASSWORD, note: 'Clean record.' });
+    expect(
+      (await post(`/api/studies/${plan.studyId}/submit`, 'engineer', { note: 'Ambient added.' }))
+        .body.status,
+    ).toBe('in-review');
+    const res = await post(`/api/studies/${plan.studyId}/approve`, 'lead', {
+      password: DEMO_PASSWORD,
+      note: 'Clean record.',
+    });
     expect(res.status).toBe(200);
     expect(res.body).toMatchObject({ status: 'approved', revision: 1 });
     expect(res.body.approvedBy).toBeTypeOf('number');
     expect((await post(`/api/studies/${plan.studyId}/submit`, 'engineer')).status).toBe(409);
-    expect((await post(`/api/studies/${plan.studyId}/return`, 'lead', { comment: 'late' })).status).toBe(409);
-    expect((await post(`/api/studies/${plan.studyId}/approve`, lead2, { password: SECOND_LEAD.password })).status).toBe(409);
+    expect(
+      (await post(`/api/studies/${plan.studyId}/return`, 'lead', { comment: 'late' })).status,
+    ).toBe(409);
+    expect(
+      (
+        await post(`/api/studies/${plan.studyId}/approve`, lead2, {
+          password: SECOND_LEAD.password,
+        })
+      ).status,
+    ).toBe(409);
   });
 
   it('never lets the lead who submitted approve the same study', async () => {
     const other = await plannedStudy(t, 'Lead-submitted study');
     await capture(t, other);
-    expect((await post(`/api/studies/${other.studyId}/submit`, 'lead')).body.status).toBe('in-review');
-    const self = await post(`/api/studies/${other.studyId}/approve`, 'lead', { password: DEMO_PASSWORD });
+    expect((await post(`/api/studies/${other.studyId}/submit`, 'lead')).body.status).toBe(
+      'in-review',
+    );
+    const self = await post(`/api/studies/${other.studyId}/approve`, 'lead', {
+      password: DEMO_PASSWORD,
+    });
     expect(self.status).toBe(403);
     expect(self.body.error.message).toMatch(/another lead/);
-    const ok = await post(`/api/studies/${other.studyId}/approve`, lead2, { password: SECOND_LEAD.password });
+    const ok = await post(`/api/studies/${other.studyId}/approve`, lead2, {
+      password: SECOND_LEAD.password,
+    });
     expect(ok.status).toBe(200);
     expect(ok.body.status).toBe('approved');
   });
 
   it('reopens an approved study as a new revision, keeping the approved report unchanged', async () => {
-    const approvedReport = await request(t.app).get(`/api/studies/${plan.studyId}/report?revision=1`).set(await as(t, 'viewer'));
+    const approvedReport = await request(t.app)
+      .get(`/api/studies/${plan.studyId}/report?revision=1`)
+      .set(await as(t, 'viewer'));
     expect(approvedReport.status).toBe(200);
-    expect(approvedReport.body.study).toMatchObject({ status: 'approved', revision: 1, approvedBy: 'Lena Lead', submittedBy: 'Emil Engineer' });
-    expect((await post(`/api/studies/${plan.studyId}/reopen`, 'lead', { reason: '' })).status).toBe(400);
-    const res = await post(`/api/studies/${plan.studyId}/reopen`, 'lead', { reason: 'The customer asks for a second bake.' });
+    expect(approvedReport.body.study).toMatchObject({
+      status: 'approved',
+      revision: 1,
+      approvedBy: 'Lena Lead',
+      submittedBy: 'Emil Engineer',
+    });
+    expect((await post(`/api/studies/${plan.studyId}/reopen`, 'lead', { reason: '' })).status).toBe(
+      400,
+    );
+    const res = await post(`/api/studies/${plan.studyId}/reopen`, 'lead', {
+      reason: 'The customer asks for a second bake.',
+    });
     expect(res.status).toBe(200);
     expect(res.body).toMatchObject({ status: 'running', revision: 2, approvedBy: null });
     // New work in revision 2 does not touch the approved revision's report.
     await capture(t, plan);
-    const again = await request(t.app).get(`/api/studies/${plan.studyId}/report?revision=1`).set(await as(t, 'viewer'));
+    const again = await request(t.app)
+      .get(`/api/studies/${plan.studyId}/report?revision=1`)
+      .set(await as(t, 'viewer'));
     expect(again.body).toEqual(approvedReport.body);
-    const live = await request(t.app).get(`/api/studies/${plan.studyId}/report`).set(await as(t, 'viewer'));
+    const live = await request(t.app)
+      .get(`/api/studies/${plan.studyId}/report`)
+      .set(await as(t, 'viewer'));
     expect(live.body.study).toMatchObject({ status: 'running', revision: 2 });
-    expect((await request(t.app).get(`/api/studies/${plan.studyId}/report?revision=2`).set(await as(t, 'viewer'))).status).toBe(404);
+    expect(
+      (
+        await request(t.app)
+          .get(`/api/studies/${plan.studyId}/report?revision=2`)
+          .set(await as(t, 'viewer'))
+      ).status,
+    ).toBe(404);
   });
 
   it('keeps the review history with names, dates and comments in order', async () => {
-    const res = await request(t.app).get(`/api/studies/${plan.studyId}/reviews`).set(await as(t, 'viewer'));
+    const res = await request(t.app)
+      .get(`/api/studies/${plan.studyId}/reviews`)
+      .set(await as(t, 'viewer'));
     expect(res.status).toBe(200);
-    expect(res.body.reviews.map((r: { action: string }) => r.action)).toEqual(['start', 'submit', 'return', 'submit', 'approve', 'reopen']);
+    expect(res.body.reviews.map((r: { action: string }) => r.action)).toEqual([
+      'start',
+      'submit',
+      'return',
+      'submit',
+      'approve',
+      'reopen',
+    ]);
     const returned = res.body.reviews[2];
-    expect(returned).toMatchObject({ actorName: 'Lena Lead', note: 'Add the ambient temperature to every capture.', revision: 1 });
+    expect(returned).toMatchObject({
+      actorName: 'Lena Lead',
+      note: 'Add the ambient temperature to every capture.',
+      revision: 1,
+    });
     expect(new Date(returned.at).getTime()).not.toBeNaN();
-    expect(res.body.reviews[5]).toMatchObject({ revision: 2, note: 'The customer asks for a second bake.' });
-    expect(res.body.revisions).toEqual([expect.objectContaining({ revision: 1, approvedByName: 'Lena Lead' })]);
+    expect(res.body.reviews[5]).toMatchObject({
+      revision: 2,
+      note: 'The customer asks for a second bake.',
+    });
+    expect(res.body.revisions).toEqual([
+      expect.objectContaining({ revision: 1, approvedByName: 'Lena Lead' }),
+    ]);
   });
 
   it('records every transition in the study audit trail with before → after', async () => {
-    const res = await request(t.app).get(`/api/studies/${plan.studyId}/audit?limit=100`).set(await as(t, 'technician'));
+    const res = await request(t.app)
+      .get(`/api/studies/${plan.studyId}/audit?limit=100`)
+      .set(await as(t, 'technician'));
     expect(res.status).toBe(200);
     const approve = res.body.events.find((e: { action: string }) => e.action === 'study.approve');
     expect(approve.details.status).toEqual({ from: 'in-review', to: 'approved' });
     expect(approve.actorName).toBe('Lena Lead');
     const kinds = res.body.events.map((e: { action: string }) => e.action);
-    for (const k of ['study.create', 'checkpoint.create', 'dut.create', 'study.start', 'study.submit', 'study.return', 'study.reopen', 'capture.finish']) {
+    for (const k of [
+      'study.create',
+      'checkpoint.create',
+      'dut.create',
+      'study.start',
+      'study.submit',
+      'study.return',
+      'study.reopen',
+      'capture.finish',
+    ]) {
       expect(kinds).toContain(k);
     }
   });
@@ -178,18 +286,27 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
     await capture(t, other);
     await post(`/api/studies/${other.studyId}/submit`, 'engineer');
     for (let i = 0; i < 5; i++) {
-      expect((await post(`/api/studies/${other.studyId}/approve`, lead2, { password: `guess-${i}` })).status).toBe(403);
+      expect(
+        (await post(`/api/studies/${other.studyId}/approve`, lead2, { password: `guess-${i}` }))
+          .status,
+      ).toBe(403);
     }
-    const blocked = await post(`/api/studies/${other.studyId}/approve`, lead2, { password: SECOND_LEAD.password });
+    const blocked = await post(`/api/studies/${other.studyId}/approve`, lead2, {
+      password: SECOND_LEAD.password,
+    });
     expect(blocked.status).toBe(429);
     expect(blocked.body.error.code).toBe('too-many-signatures');
-    const s = await request(t.app).get(`/api/studies/${other.studyId}`).set(await as(t, 'viewer'));
+    const s = await request(t.app)
+      .get(`/api/studies/${other.studyId}`)
+      .set(await as(t, 'viewer'));
     expect(s.body.status).toBe('in-review');
   });
 
   it('answers 404 for a missing study', async () => {
     expect((await post('/api/studies/999999/submit', 'engineer')).status).toBe(404);
-    expect((await post('/api/studies/999999/approve', 'lead', { password: DEMO_PASSWORD })).status).toBe(404);
+    expect(
+      (await post('/api/studies/999999/approve', 'lead', { password: DEMO_PASSWORD })).status,
+    ).toBe(404);
   });
 });
 
@@ -209,19 +326,31 @@ describe('every transition from every status', () => {
     return: { role: 'lead', body: { comment: 'c' } },
     reopen: { role: 'lead', body: { reason: 'r' } },
   };
-  const cases = Object.keys(ALLOWED).flatMap((from) => Object.keys(CALL).map((action) => [from, action] as const));
+  const cases = Object.keys(ALLOWED).flatMap((from) =>
+    Object.keys(CALL).map((action) => [from, action] as const),
+  );
   let plan: Awaited<ReturnType<typeof plannedStudy>>;
   let engineerId: number;
   beforeAll(async () => {
     plan = await plannedStudy(t, 'Transition table');
     await capture(t, plan);
-    const users = await request(t.app).get('/api/users').set(await as(t, 'admin'));
+    const users = await request(t.app)
+      .get('/api/users')
+      .set(await as(t, 'admin'));
     engineerId = users.body.users.find((u: { role: string }) => u.role === 'engineer').id;
   });
 
   it.each(cases)('from %s, %s', async (from, action) => {
-    await t.db.pool.query('UPDATE studies SET status = $2, submitted_by = $3 WHERE id = $1', [plan.studyId, from, engineerId]);
-    const res = await post(`/api/studies/${plan.studyId}/${action}`, CALL[action].role, CALL[action].body);
+    await t.db.pool.query('UPDATE studies SET status = $2, submitted_by = $3 WHERE id = $1', [
+      plan.studyId,
+      from,
+      engineerId,
+    ]);
+    const res = await post(
+      `/api/studies/${plan.studyId}/${action}`,
+      CALL[action].role,
+      CALL[action].body,
+    );
     const to = ALLOWED[from][action];
     if (to) {
       expect(res.status, JSON.stringify(res.body)).toBe(200);
@@ -229,7 +358,9 @@ describe('every transition from every status', () => {
     } else {
       expect(res.status, JSON.stringify(res.body)).toBe(409);
       expect(res.body.error.code).toBe('transition-refused');
-      const s = await request(t.app).get(`/api/studies/${plan.studyId}`).set(await as(t, 'viewer'));
+      const s = await request(t.app)
+        .get(`/api/studies/${plan.studyId}`)
+        .set(await as(t, 'viewer'));
       expect(s.body.status).toBe(from);
     }
   });

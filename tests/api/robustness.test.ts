@@ -32,7 +32,11 @@ describe('robustness against arbitrary input', () => {
   it.each(ROUTES)('answers %s %s with a 4xx envelope for arbitrary JSON', async (method, path) => {
     await fc.assert(
       fc.asyncProperty(fc.jsonValue({ maxDepth: 3 }), async (body) => {
-        const res = await request(t.app)[method](path).set('authorization', `Bearer ${admin}`).set('content-type', 'application/json').send(JSON.stringify(body));
+        const res = await request(t.app)
+          [method](path)
+          .set('authorization', `Bearer ${admin}`)
+          .set('content-type', 'application/json')
+          .send(JSON.stringify(body));
         // A body that happens to be valid may succeed; it must never be a server error.
         expect(res.status).toBeLessThan(500);
         if (res.status >= 400) expect(typeof res.body.error?.code).toBe('string');
@@ -44,8 +48,16 @@ describe('robustness against arbitrary input', () => {
   it('answers arbitrary query strings on the read routes without a 500', async () => {
     await fc.assert(
       fc.asyncProperty(fc.string({ maxLength: 20 }), fc.string({ maxLength: 20 }), async (a, b) => {
-        for (const path of ['/api/captures', '/api/comparisons', '/api/captures/1/readings', '/api/captures/1/analysis']) {
-          const res = await request(t.app).get(path).query({ from: a, to: b, maxPoints: a, kind: b, before: a, after: b, state: a }).set('authorization', `Bearer ${admin}`);
+        for (const path of [
+          '/api/captures',
+          '/api/comparisons',
+          '/api/captures/1/readings',
+          '/api/captures/1/analysis',
+        ]) {
+          const res = await request(t.app)
+            .get(path)
+            .query({ from: a, to: b, maxPoints: a, kind: b, before: a, after: b, state: a })
+            .set('authorization', `Bearer ${admin}`);
           expect(res.status).toBeLessThan(500);
         }
       }),
@@ -55,7 +67,9 @@ describe('robustness against arbitrary input', () => {
 
   it('answers odd path parameters with 400 or 404, never 500', async () => {
     for (const id of ['0', '-1', '1.5', '99999999999999999999', 'abc', '%00']) {
-      const res = await request(t.app).get(`/api/captures/${id}`).set('authorization', `Bearer ${admin}`);
+      const res = await request(t.app)
+        .get(`/api/captures/${id}`)
+        .set('authorization', `Bearer ${admin}`);
       expect([400, 404]).toContain(res.status);
     }
   });
@@ -66,30 +80,100 @@ describe('robustness against arbitrary input', () => {
 // answer of 400 or more never leaves a change behind.
 describe('fuzzing every route of the permission table', () => {
   const KEYS = [
-    'name', 'title', 'label', 'kind', 'email', 'role', 'password', 'notes', 'tags', 'unit', 'nominal', 'limit',
-    'limitUnit', 'calibrationDue', 'active', 'dutId', 'checkpointId', 'quantity', 'gateTime', 'readings',
-    'temporaryPassword', 'currentPassword', 'newPassword', 'linkProfile', 'comment', 'order', 'exposure',
-    'from', 'to', 'maxPoints', 'limit', 'cursor', 'before', 'after', 'state', 'drift', 'kind', 'taus',
+    'name',
+    'title',
+    'label',
+    'kind',
+    'email',
+    'role',
+    'password',
+    'notes',
+    'tags',
+    'unit',
+    'nominal',
+    'limit',
+    'limitUnit',
+    'calibrationDue',
+    'active',
+    'dutId',
+    'checkpointId',
+    'quantity',
+    'gateTime',
+    'readings',
+    'temporaryPassword',
+    'currentPassword',
+    'newPassword',
+    'linkProfile',
+    'comment',
+    'order',
+    'exposure',
+    'from',
+    'to',
+    'maxPoints',
+    'limit',
+    'cursor',
+    'before',
+    'after',
+    'state',
+    'drift',
+    'kind',
+    'taus',
   ];
   const value = fc.oneof(
     fc.string({ unit: 'binary', maxLength: 12 }),
-    fc.constantFrom('0000-01-01', '2027-02-30', 'x\u0000y', '\uD800', 'frequency', 'Hz', 'ppm', 'admin', '', '-1', '1e308'),
+    fc.constantFrom(
+      '0000-01-01',
+      '2027-02-30',
+      'x\u0000y',
+      '\uD800',
+      'frequency',
+      'Hz',
+      'ppm',
+      'admin',
+      '',
+      '-1',
+      '1e308',
+    ),
     fc.integer(),
     fc.double(),
     fc.boolean(),
     fc.constant(null),
     fc.jsonValue({ maxDepth: 2 }),
   );
-  const body = fc.oneof(fc.dictionary(fc.constantFrom(...KEYS), value, { maxKeys: 6 }), fc.jsonValue({ maxDepth: 3 }));
-  const query = fc.dictionary(fc.constantFrom(...KEYS), fc.oneof(fc.string({ unit: 'binary', maxLength: 8 }), fc.integer().map(String)), { maxKeys: 4 });
+  const body = fc.oneof(
+    fc.dictionary(fc.constantFrom(...KEYS), value, { maxKeys: 6 }),
+    fc.jsonValue({ maxDepth: 3 }),
+  );
+  const query = fc.dictionary(
+    fc.constantFrom(...KEYS),
+    fc.oneof(fc.string({ unit: 'binary', maxLength: 8 }), fc.integer().map(String)),
+    { maxKeys: 4 },
+  );
 
   /** A fingerprint of every table a request could change (row text of the small ones, counts of the rest). */
   async function fingerprint(): Promise<string> {
-    const small = ['users', 'studies', 'checkpoints', 'duts', 'instruments', 'frequency_references', 'captures', 'audit_events'];
+    const small = [
+      'users',
+      'studies',
+      'checkpoints',
+      'duts',
+      'instruments',
+      'frequency_references',
+      'captures',
+      'audit_events',
+    ];
     const parts = await Promise.all(
-      small.map(async (table) => (await t.db.pool.query(`SELECT md5(coalesce(string_agg(x::text, '|' ORDER BY x.id), '')) AS h FROM ${table} x`)).rows[0].h as string),
+      small.map(
+        async (table) =>
+          (
+            await t.db.pool.query(
+              `SELECT md5(coalesce(string_agg(x::text, '|' ORDER BY x.id), '')) AS h FROM ${table} x`,
+            )
+          ).rows[0].h as string,
+      ),
     );
-    const readings = (await t.db.pool.query('SELECT count(*)::text AS n FROM readings')).rows[0].n as string;
+    const readings = (await t.db.pool.query('SELECT count(*)::text AS n FROM readings')).rows[0]
+      .n as string;
     return [...parts, readings].join(':');
   }
 
@@ -99,9 +183,19 @@ describe('fuzzing every route of the permission table', () => {
       fc.asyncProperty(body, query, async (b, q) => {
         const before = await fingerprint();
         const call = request(t.app)[method](path).query(q).set('authorization', `Bearer ${admin}`);
-        const res = method === 'get' || method === 'delete' ? await call : await call.set('content-type', 'application/json').send(JSON.stringify(b));
-        expect(res.status, `${method.toUpperCase()} ${path} ${JSON.stringify(b)} → ${res.status} ${res.text.slice(0, 200)}`).toBeLessThan(500);
-        if (res.status >= 400) expect(await fingerprint(), `${method.toUpperCase()} ${path} kept a change after ${res.status}`).toBe(before);
+        const res =
+          method === 'get' || method === 'delete'
+            ? await call
+            : await call.set('content-type', 'application/json').send(JSON.stringify(b));
+        expect(
+          res.status,
+          `${method.toUpperCase()} ${path} ${JSON.stringify(b)} → ${res.status} ${res.text.slice(0, 200)}`,
+        ).toBeLessThan(500);
+        if (res.status >= 400)
+          expect(
+            await fingerprint(),
+            `${method.toUpperCase()} ${path} kept a change after ${res.status}`,
+          ).toBe(before);
       }),
       { numRuns: 8 },
     );

@@ -2,7 +2,14 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
 import type { Express } from 'express';
 import { createTestApp, type TestApp } from '../helpers/app.js';
-import { ROLES, ROUTE_RULES, ROUTES, roleCan, type Permission, type Role } from '../../shared/protocol/roles.js';
+import {
+  ROLES,
+  ROUTE_RULES,
+  ROUTES,
+  roleCan,
+  type Permission,
+  type Role,
+} from '../../shared/protocol/roles.js';
 import { DEMO_DOMAIN, DEMO_PASSWORD } from '../../server/db/seed.js';
 
 // Issue 10, "Also": the route × role test, generated from the one permission table the server
@@ -13,7 +20,9 @@ const tokens = new Map<Role, string>();
 beforeAll(async () => {
   t = await createTestApp();
   for (const role of ROLES) {
-    const res = await request(t.app).post('/api/auth/login').send({ email: `${role}@${DEMO_DOMAIN}`, password: DEMO_PASSWORD });
+    const res = await request(t.app)
+      .post('/api/auth/login')
+      .send({ email: `${role}@${DEMO_DOMAIN}`, password: DEMO_PASSWORD });
     tokens.set(role, res.body.token);
   }
 });
@@ -36,10 +45,12 @@ function registeredRoutes(app: Express): string[] {
         const paths = Array.isArray(layer.route.path) ? layer.route.path : [layer.route.path];
         for (const p of paths) {
           const full = `${prefix}${p}`.replace(/\/$/, '') || '/';
-          for (const m of Object.keys(layer.route.methods)) if (m !== '_all') out.push(`${m.toUpperCase()} ${full}`);
+          for (const m of Object.keys(layer.route.methods))
+            if (m !== '_all') out.push(`${m.toUpperCase()} ${full}`);
         }
       } else if (layer.handle?.stack) {
-        const mount = typeof layer.rawPath === 'string' && layer.rawPath !== '/' ? layer.rawPath : '';
+        const mount =
+          typeof layer.rawPath === 'string' && layer.rawPath !== '/' ? layer.rawPath : '';
         walk(layer.handle.stack, prefix + mount);
       }
     }
@@ -57,33 +68,42 @@ function allowed(access: string, role: Role): boolean {
   return roleCan(role, access as Permission);
 }
 
-const concrete = (path: string) => path.replace(/:[A-Za-z]+/g, (m) => (m === ':key' ? 'no-such-key' : '1'));
+const concrete = (path: string) =>
+  path.replace(/:[A-Za-z]+/g, (m) => (m === ':key' ? 'no-such-key' : '1'));
 
 describe('the permission table', () => {
   it('has a rule for every route the server registers, and a route for every rule', () => {
     const registered = registeredRoutes(t.app);
     expect(registered.length).toBeGreaterThan(20);
     const missing = registered.filter((r) => !(r in ROUTES));
-    expect(missing, `routes without a line in shared/protocol/roles.ts ROUTES: ${missing.join(', ')}`).toEqual([]);
+    expect(
+      missing,
+      `routes without a line in shared/protocol/roles.ts ROUTES: ${missing.join(', ')}`,
+    ).toEqual([]);
     const stale = Object.keys(ROUTES).filter((k) => !registered.includes(k));
     expect(stale, `rules for routes that do not exist: ${stale.join(', ')}`).toEqual([]);
   });
 
   it('answers 401 to every route but the public ones without a token', async () => {
     for (const rule of ROUTE_RULES) {
-      const res = await request(t.app)[rule.method.toLowerCase() as 'get'](concrete(rule.path)).send();
+      const res = await request(t.app)
+        [rule.method.toLowerCase() as 'get'](concrete(rule.path))
+        .send();
       if (rule.permission === 'public') expect(res.status, rule.key).not.toBe(401);
       else expect(res.status, rule.key).toBe(401);
     }
   });
 
   // Sign-out ends the session, so it runs last.
-  const order = [...ROUTE_RULES].sort((a, b) => Number(a.key === 'POST /api/auth/logout') - Number(b.key === 'POST /api/auth/logout'));
+  const order = [...ROUTE_RULES].sort(
+    (a, b) => Number(a.key === 'POST /api/auth/logout') - Number(b.key === 'POST /api/auth/logout'),
+  );
   for (const rule of order) {
     if (rule.permission === 'public') continue;
     it(`${rule.key} (${rule.permission}): 403 exactly for the roles without it`, async () => {
       for (const role of ROLES) {
-        const res = await request(t.app)[rule.method.toLowerCase() as 'get'](concrete(rule.path))
+        const res = await request(t.app)
+          [rule.method.toLowerCase() as 'get'](concrete(rule.path))
           .set('authorization', `Bearer ${tokens.get(role)}`)
           .send(rule.method === 'GET' || rule.method === 'DELETE' ? undefined : {});
         const label = `${rule.key} as ${role}: ${res.status} ${JSON.stringify(res.body?.error ?? '')}`;

@@ -17,7 +17,9 @@ afterAll(async () => {
  * from the server's code): per reading in ascending seq, 22 bytes big-endian — uint32 seq,
  * binary64 t, binary64 value, int16 flags.
  */
-function documentedSeal(readings: Array<{ seq: number; t: number; value: number; flags?: number }>): string {
+function documentedSeal(
+  readings: Array<{ seq: number; t: number; value: number; flags?: number }>,
+): string {
   const buf = new ArrayBuffer(readings.length * 22);
   const dv = new DataView(buf);
   readings.forEach((r, i) => {
@@ -37,7 +39,13 @@ describe('sealed evidence', () => {
     const c = await request(t.app)
       .post('/api/captures')
       .set(eng)
-      .send({ dutId: plan.dutId, checkpointId: plan.checkpointId, quantity: 'frequency', unit: 'Hz', gateTime: 1 });
+      .send({
+        dutId: plan.dutId,
+        checkpointId: plan.checkpointId,
+        quantity: 'frequency',
+        unit: 'Hz',
+        gateTime: 1,
+      });
     const readings = [
       { seq: 0, t: 0, value: 10_000_000.0012 },
       { seq: 1, t: 1.0000001, value: 10_000_000.0015, flags: 1 },
@@ -45,48 +53,94 @@ describe('sealed evidence', () => {
       { seq: 3, t: 3, value: 10_000_000.0009 },
     ];
     // Sent out of order: the seal follows seq, not arrival.
-    await request(t.app).post(`/api/captures/${c.body.id}/readings`).set(eng).send({ readings: [readings[2], readings[0], readings[3], readings[1]] });
-    const open = await request(t.app).get(`/api/captures/${c.body.id}/seal`).set(await as(t, 'viewer'));
+    await request(t.app)
+      .post(`/api/captures/${c.body.id}/readings`)
+      .set(eng)
+      .send({ readings: [readings[2], readings[0], readings[3], readings[1]] });
+    const open = await request(t.app)
+      .get(`/api/captures/${c.body.id}/seal`)
+      .set(await as(t, 'viewer'));
     expect(open.body).toMatchObject({ sha256: null, verified: null, readings: 4 });
     await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(eng);
-    const res = await request(t.app).get(`/api/captures/${c.body.id}/seal`).set(await as(t, 'viewer'));
+    const res = await request(t.app)
+      .get(`/api/captures/${c.body.id}/seal`)
+      .set(await as(t, 'viewer'));
     expect(res.status).toBe(200);
-    expect(res.body).toMatchObject({ sha256: documentedSeal(readings), readings: 4, verified: true });
-    const cap = await request(t.app).get(`/api/captures/${c.body.id}`).set(await as(t, 'viewer'));
+    expect(res.body).toMatchObject({
+      sha256: documentedSeal(readings),
+      readings: 4,
+      verified: true,
+    });
+    const cap = await request(t.app)
+      .get(`/api/captures/${c.body.id}`)
+      .set(await as(t, 'viewer'));
     expect(cap.body.sealSha256).toBe(res.body.sha256);
   });
 
   it('says verified: false after one reading is changed in SQL', async () => {
     const plan = await plannedStudy(t, 'Tampered study');
     const id = await capture(t, plan, { n: 200 });
-    const before = await request(t.app).get(`/api/captures/${id}/seal`).set(await as(t, 'viewer'));
+    const before = await request(t.app)
+      .get(`/api/captures/${id}/seal`)
+      .set(await as(t, 'viewer'));
     expect(before.body.verified).toBe(true);
-    await t.db.pool.query('UPDATE readings SET value = value + 1e-6 WHERE capture_id = $1 AND seq = 117', [id]);
-    const after = await request(t.app).get(`/api/captures/${id}/seal`).set(await as(t, 'viewer'));
-    expect(after.body).toMatchObject({ sha256: before.body.sha256, verified: false, readings: 200 });
+    await t.db.pool.query(
+      'UPDATE readings SET value = value + 1e-6 WHERE capture_id = $1 AND seq = 117',
+      [id],
+    );
+    const after = await request(t.app)
+      .get(`/api/captures/${id}/seal`)
+      .set(await as(t, 'viewer'));
+    expect(after.body).toMatchObject({
+      sha256: before.body.sha256,
+      verified: false,
+      readings: 200,
+    });
     expect(after.body.recomputed).not.toBe(before.body.sha256);
     // The captures list and the capture carry the flag too, without recomputing.
-    const one = await request(t.app).get(`/api/captures/${id}`).set(await as(t, 'viewer'));
+    const one = await request(t.app)
+      .get(`/api/captures/${id}`)
+      .set(await as(t, 'viewer'));
     expect(one.body.sealBroken).toBe(true);
-    const list = await request(t.app).get(`/api/captures?studyId=${plan.studyId}`).set(await as(t, 'viewer'));
+    const list = await request(t.app)
+      .get(`/api/captures?studyId=${plan.studyId}`)
+      .set(await as(t, 'viewer'));
     expect(list.body.captures.find((c: { id: number }) => c.id === id).sealBroken).toBe(true);
-    const matrix = await request(t.app).get(`/api/studies/${plan.studyId}/matrix`).set(await as(t, 'viewer'));
+    const matrix = await request(t.app)
+      .get(`/api/studies/${plan.studyId}/matrix`)
+      .set(await as(t, 'viewer'));
     expect(matrix.body.rows[0].cells[0].capture).toMatchObject({ id, sealBroken: true });
     const untouched = await capture(t, plan, { n: 10 });
-    expect((await request(t.app).get(`/api/captures/${untouched}`).set(await as(t, 'viewer'))).body.sealBroken).toBe(false);
+    expect(
+      (
+        await request(t.app)
+          .get(`/api/captures/${untouched}`)
+          .set(await as(t, 'viewer'))
+      ).body.sealBroken,
+    ).toBe(false);
   });
 
   it('says verified: false when a reading is deleted, and shows it in the report', async () => {
     const plan = await plannedStudy(t, 'Reading removed');
     const id = await capture(t, plan, { n: 20 });
     await t.db.pool.query('DELETE FROM readings WHERE capture_id = $1 AND seq = 3', [id]);
-    const after = await request(t.app).get(`/api/captures/${id}/seal`).set(await as(t, 'viewer'));
+    const after = await request(t.app)
+      .get(`/api/captures/${id}/seal`)
+      .set(await as(t, 'viewer'));
     expect(after.body).toMatchObject({ verified: false, readings: 19 });
-    const report = await request(t.app).get(`/api/studies/${plan.studyId}/report`).set(await as(t, 'viewer'));
+    const report = await request(t.app)
+      .get(`/api/studies/${plan.studyId}/report`)
+      .set(await as(t, 'viewer'));
     expect(report.body.captures.find((c: { id: number }) => c.id === id).seal.verified).toBe(false);
   });
 
   it('answers 404 for a missing capture', async () => {
-    expect((await request(t.app).get('/api/captures/987654/seal').set(await as(t, 'viewer'))).status).toBe(404);
+    expect(
+      (
+        await request(t.app)
+          .get('/api/captures/987654/seal')
+          .set(await as(t, 'viewer'))
+      ).status,
+    ).toBe(404);
   });
 });

@@ -48,9 +48,7 @@ async function captureAt(
   return c.body.id as number;
 }
 
-async function studyEvents(
-  studyId: number,
-): Promise<
+async function studyEvents(studyId: number): Promise<
   Array<{
     action: string;
     subjectType: string;

@@ -25,10 +25,20 @@ async function capture(body: Record<string, unknown>, values: (i: number) => num
     .send({ quantity: 'frequency', unit: 'Hz', gateTime: 1, ...body });
   expect(c.status).toBe(201);
   const readings = Array.from({ length: n }, (_, i) => ({ seq: i, t: i, value: values(i) }));
-  await request(t.app).post(`/api/captures/${c.body.id}/readings`).set(await auth('technician')).send({ readings });
-  const fin = await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(await auth('technician'));
+  await request(t.app)
+    .post(`/api/captures/${c.body.id}/readings`)
+    .set(await auth('technician'))
+    .send({ readings });
+  const fin = await request(t.app)
+    .post(`/api/captures/${c.body.id}/finish`)
+    .set(await auth('technician'));
   expect(fin.status).toBe(200);
-  return fin.body as { id: number; summary: Record<string, any>; counterType: string | null; referenceAgeingPerDay: number | null };
+  return fin.body as {
+    id: number;
+    summary: Record<string, any>;
+    counterType: string | null;
+    referenceAgeingPerDay: number | null;
+  };
 }
 
 describe('frequency references', () => {
@@ -44,24 +54,49 @@ describe('frequency references', () => {
       ageingPerDay: 5e-11,
       ageingUPerDay: 2e-11,
     };
-    const refused = await request(t.app).post('/api/references').set(await auth('engineer')).send(body);
+    const refused = await request(t.app)
+      .post('/api/references')
+      .set(await auth('engineer'))
+      .send(body);
     expect(refused.status).toBe(403);
-    const res = await request(t.app).post('/api/references').set(await auth('lead')).send(body);
+    const res = await request(t.app)
+      .post('/api/references')
+      .set(await auth('lead'))
+      .send(body);
     expect(res.status).toBe(201);
-    expect(res.body.reference).toMatchObject({ kind: 'ocxo', ageingPerDay: 5e-11, ageingUPerDay: 2e-11, verifiedAt: '2026-11-02' });
-    const patched = await request(t.app).patch(`/api/references/${res.body.reference.id}`).set(await auth('admin')).send({ ageingPerDay: 4e-11 });
+    expect(res.body.reference).toMatchObject({
+      kind: 'ocxo',
+      ageingPerDay: 5e-11,
+      ageingUPerDay: 2e-11,
+      verifiedAt: '2026-11-02',
+    });
+    const patched = await request(t.app)
+      .patch(`/api/references/${res.body.reference.id}`)
+      .set(await auth('admin'))
+      .send({ ageingPerDay: 4e-11 });
     expect(patched.status).toBe(200);
     expect(patched.body.reference.ageingPerDay).toBe(4e-11);
-    const { rows } = await t.db.pool.query("SELECT action, details FROM audit_events WHERE subject_type = 'reference' ORDER BY id");
-    expect(rows.map((r: { action: string }) => r.action)).toEqual(['reference.create', 'reference.update']);
+    const { rows } = await t.db.pool.query(
+      "SELECT action, details FROM audit_events WHERE subject_type = 'reference' ORDER BY id",
+    );
+    expect(rows.map((r: { action: string }) => r.action)).toEqual([
+      'reference.create',
+      'reference.update',
+    ]);
     expect(rows[1].details).toEqual({ ageingPerDay: { from: 5e-11, to: 4e-11 } });
   });
 
   it('refuses a kind outside the list and a negative ageing uncertainty with 400', async () => {
     const base = { name: 'X', nominalHz: 10e6, fractionalOffset: 0, standardUncertainty: 1e-11 };
-    const a = await request(t.app).post('/api/references').set(await auth('lead')).send({ ...base, kind: 'sundial' });
+    const a = await request(t.app)
+      .post('/api/references')
+      .set(await auth('lead'))
+      .send({ ...base, kind: 'sundial' });
     expect(a.status).toBe(400);
-    const b = await request(t.app).post('/api/references').set(await auth('lead')).send({ ...base, ageingUPerDay: -1e-12 });
+    const b = await request(t.app)
+      .post('/api/references')
+      .set(await auth('lead'))
+      .send({ ...base, ageingUPerDay: -1e-12 });
     expect(b.status).toBe(400);
     expect(b.body.error.details[0].path).toBe('ageingUPerDay');
   });
@@ -72,15 +107,35 @@ describe('counter type and resolution', () => {
     const inst = await request(t.app)
       .post('/api/instruments')
       .set(await auth('admin'))
-      .send({ name: 'Gated counter G-1', kind: 'counter', counterType: 'gated', counterResolution: 1 });
+      .send({
+        name: 'Gated counter G-1',
+        kind: 'counter',
+        counterType: 'gated',
+        counterResolution: 1,
+      });
     expect(inst.status).toBe(201);
     expect(inst.body.instrument).toMatchObject({ counterType: 'gated', counterResolution: 1 });
-    const c = await capture({ dutId: ids.tuningFork.id, checkpointId: ids.checkpoints[0], instrumentId: inst.body.instrument.id, ambientC: 23 }, () => 32768);
+    const c = await capture(
+      {
+        dutId: ids.tuningFork.id,
+        checkpointId: ids.checkpoints[0],
+        instrumentId: inst.body.instrument.id,
+        ambientC: 23,
+      },
+      () => 32768,
+    );
     expect(c.counterType).toBe('gated');
     // Later changes to the instrument do not rewrite the evidence.
-    await request(t.app).patch(`/api/instruments/${inst.body.instrument.id}`).set(await auth('admin')).send({ counterType: 'reciprocal', counterResolution: 1e-10 });
-    const a = await request(t.app).get(`/api/captures/${c.id}/analysis`).set(await auth('viewer'));
-    const res = a.body.uncertainty.components.find((x: { name: string }) => x.name === 'Counter resolution');
+    await request(t.app)
+      .patch(`/api/instruments/${inst.body.instrument.id}`)
+      .set(await auth('admin'))
+      .send({ counterType: 'reciprocal', counterResolution: 1e-10 });
+    const a = await request(t.app)
+      .get(`/api/captures/${c.id}/analysis`)
+      .set(await auth('viewer'));
+    const res = a.body.uncertainty.components.find(
+      (x: { name: string }) => x.name === 'Counter resolution',
+    );
     expect(res.value).toBeCloseTo(1 / Math.sqrt(3), 12); // ±1/t_gate Hz, a/√3 (counter theory; JCGM 100 §4.3.7)
     expect(a.body.uncertainty.combined).toBeGreaterThan(0.5); // identical readings: no collapse
     expect(a.body.uncertainty.k).toBe(2); // ν_eff = ∞: Driftbench's floor
@@ -88,7 +143,10 @@ describe('counter type and resolution', () => {
   });
 
   it('refuses an unknown counter type with 400', async () => {
-    const res = await request(t.app).post('/api/instruments').set(await auth('admin')).send({ name: 'C', kind: 'counter', counterType: 'magic' });
+    const res = await request(t.app)
+      .post('/api/instruments')
+      .set(await auth('admin'))
+      .send({ name: 'C', kind: 'counter', counterType: 'magic' });
     expect(res.status).toBe(400);
   });
 });
@@ -98,25 +156,42 @@ describe('drift on the analysis route', () => {
     const f0 = ids.crystal.nominal;
     const rnd = seeded(4);
     // 1e-11 per second of drift (0.864 ppm/day = 864 ppb/day) on white noise of 1e-11.
-    const c = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId: 1, ambientC: 23 }, (i) => f0 * (1 + 1e-11 * rnd.gauss() + 1e-11 * i), 1024);
-    const lin = await request(t.app).get(`/api/captures/${c.id}/analysis`).set(await auth('viewer'));
+    const c = await capture(
+      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId: 1, ambientC: 23 },
+      (i) => f0 * (1 + 1e-11 * rnd.gauss() + 1e-11 * i),
+      1024,
+    );
+    const lin = await request(t.app)
+      .get(`/api/captures/${c.id}/analysis`)
+      .set(await auth('viewer'));
     expect(lin.body.driftModel).toBe('linear');
     expect(lin.body.drift.rateUnit).toBe('ppb/day');
     expect(lin.body.drift.rateInUnit).toBeCloseTo(864, 0); // 1e-11/s × 86 400 s × 1e9 (by hand)
     expect(lin.body.drift.rateStderrInUnit).toBeGreaterThan(0);
-    const driftLine = lin.body.uncertainty.components.find((x: { key?: string }) => x.key === 'drift');
+    const driftLine = lin.body.uncertainty.components.find(
+      (x: { key?: string }) => x.key === 'drift',
+    );
     // |D|·T/√12 × f0 with T = 1024 s (by hand): 1e-11 × 1024 / 3.4641 × 16e6 = 0.0473 Hz
     expect(driftLine.value).toBeCloseTo((1e-11 * Math.sqrt(1024 ** 2 - 1) * f0) / Math.sqrt(12), 3);
-    const none = await request(t.app).get(`/api/captures/${c.id}/analysis?drift=none`).set(await auth('viewer'));
+    const none = await request(t.app)
+      .get(`/api/captures/${c.id}/analysis?drift=none`)
+      .set(await auth('viewer'));
     expect(none.body.driftModel).toBe('none');
-    const last = (b: { stability: { points: { dev: number }[] } }) => b.stability.points[b.stability.points.length - 1].dev;
+    const last = (b: { stability: { points: { dev: number }[] } }) =>
+      b.stability.points[b.stability.points.length - 1].dev;
     // Left in, the drift dominates σ_y at the longest τ: D·τ/√2 (SP 1065 §5.2.5, from memory).
     expect(last(none.body)).toBeGreaterThan(100 * last(lin.body));
-    expect(none.body.uncertainty.components.some((x: { key?: string }) => x.key === 'drift')).toBe(false);
-    const quad = await request(t.app).get(`/api/captures/${c.id}/analysis?drift=quadratic&kind=mdev`).set(await auth('viewer'));
+    expect(none.body.uncertainty.components.some((x: { key?: string }) => x.key === 'drift')).toBe(
+      false,
+    );
+    const quad = await request(t.app)
+      .get(`/api/captures/${c.id}/analysis?drift=quadratic&kind=mdev`)
+      .set(await auth('viewer'));
     expect(quad.body.driftModel).toBe('quadratic');
     expect(quad.status).toBe(200);
-    const bad = await request(t.app).get(`/api/captures/${c.id}/analysis?drift=cubic`).set(await auth('viewer'));
+    const bad = await request(t.app)
+      .get(`/api/captures/${c.id}/analysis?drift=cubic`)
+      .set(await auth('viewer'));
     expect(bad.status).toBe(400);
   });
 });
@@ -126,40 +201,83 @@ describe('DUT limits and the comparison budget', () => {
     const created = await request(t.app)
       .post(`/api/studies/${ids.studyId}/duts`)
       .set(await auth('engineer'))
-      .send({ label: 'Y9 10 MHz crystal', kind: 'crystal', nominal: 10e6, unit: 'Hz', limitLow: -1, limitHigh: 2, limitUnit: 'ppm' });
+      .send({
+        label: 'Y9 10 MHz crystal',
+        kind: 'crystal',
+        nominal: 10e6,
+        unit: 'Hz',
+        limitLow: -1,
+        limitHigh: 2,
+        limitUnit: 'ppm',
+      });
     expect(created.status).toBe(201);
     expect(created.body).toMatchObject({ limit: null, limitLow: -1, limitHigh: 2 });
     const both = await request(t.app)
       .post(`/api/studies/${ids.studyId}/duts`)
       .set(await auth('engineer'))
-      .send({ label: 'bad', kind: 'crystal', nominal: 10e6, unit: 'Hz', limit: 1, limitHigh: 2, limitUnit: 'ppm' });
+      .send({
+        label: 'bad',
+        kind: 'crystal',
+        nominal: 10e6,
+        unit: 'Hz',
+        limit: 1,
+        limitHigh: 2,
+        limitUnit: 'ppm',
+      });
     expect(both.status).toBe(400);
     const dutId = created.body.id;
     const f0 = 10e6;
     const rnd = seeded(9);
-    const base = await capture({ dutId, checkpointId: ids.checkpoints[0], referenceId: 1, ambientC: 23 }, () => f0 * (1 + 1e-10 * rnd.gauss()));
-    const up = await capture({ dutId, checkpointId: ids.checkpoints[1], referenceId: 1, ambientC: 23 }, () => f0 * (1 + 1.5e-6 + 1e-10 * rnd.gauss()));
-    const r = await request(t.app).get(`/api/comparisons?before=${base.id}&after=${up.id}`).set(await auth('viewer'));
+    const base = await capture(
+      { dutId, checkpointId: ids.checkpoints[0], referenceId: 1, ambientC: 23 },
+      () => f0 * (1 + 1e-10 * rnd.gauss()),
+    );
+    const up = await capture(
+      { dutId, checkpointId: ids.checkpoints[1], referenceId: 1, ambientC: 23 },
+      () => f0 * (1 + 1.5e-6 + 1e-10 * rnd.gauss()),
+    );
+    const r = await request(t.app)
+      .get(`/api/comparisons?before=${base.id}&after=${up.id}`)
+      .set(await auth('viewer'));
     expect(r.body.deltaPpm).toBeCloseTo(1.5, 3);
     expect(r.body.verdict).toBe('within'); // 1.5 + U ≤ 2 and 1.5 − U ≥ −1 (ILAC-G8 w = U)
     expect(r.body.limitLowInUnit).toBeCloseTo(-10, 9);
     expect(r.body.limitHighInUnit).toBeCloseTo(20, 9);
     // Against a symmetric ±1 ppm the same change exceeds.
-    const sym = await request(t.app).patch(`/api/duts/${dutId}`).set(await auth('engineer')).send({ limit: 1 });
+    const sym = await request(t.app)
+      .patch(`/api/duts/${dutId}`)
+      .set(await auth('engineer'))
+      .send({ limit: 1 });
     expect(sym.status).toBe(200);
     expect(sym.body.dut).toMatchObject({ limit: 1, limitLow: -1, limitHigh: 1 });
-    const r2 = await request(t.app).get(`/api/comparisons?before=${base.id}&after=${up.id}`).set(await auth('viewer'));
+    const r2 = await request(t.app)
+      .get(`/api/comparisons?before=${base.id}&after=${up.id}`)
+      .set(await auth('viewer'));
     expect(r2.body.verdict).toBe('exceeds');
     // One-sided "≤ 1.2 ppm": only the upper bound binds.
-    const one = await request(t.app).patch(`/api/duts/${dutId}`).set(await auth('engineer')).send({ limit: null, limitHigh: 1.2 });
+    const one = await request(t.app)
+      .patch(`/api/duts/${dutId}`)
+      .set(await auth('engineer'))
+      .send({ limit: null, limitHigh: 1.2 });
     expect(one.body.dut).toMatchObject({ limit: null, limitLow: null, limitHigh: 1.2 });
-    const r3 = await request(t.app).get(`/api/comparisons?before=${base.id}&after=${up.id}`).set(await auth('viewer'));
+    const r3 = await request(t.app)
+      .get(`/api/comparisons?before=${base.id}&after=${up.id}`)
+      .set(await auth('viewer'));
     expect(r3.body.verdict).toBe('exceeds');
-    const crossed = await request(t.app).patch(`/api/duts/${dutId}`).set(await auth('engineer')).send({ limitLow: 2 });
+    const crossed = await request(t.app)
+      .patch(`/api/duts/${dutId}`)
+      .set(await auth('engineer'))
+      .send({ limitLow: 2 });
     expect(crossed.status).toBe(400);
-    const viewer = await request(t.app).patch(`/api/duts/${dutId}`).set(await auth('viewer')).send({ limit: 1 });
+    const viewer = await request(t.app)
+      .patch(`/api/duts/${dutId}`)
+      .set(await auth('viewer'))
+      .send({ limit: 1 });
     expect(viewer.status).toBe(403);
-    const { rows } = await t.db.pool.query("SELECT count(*)::int AS n FROM audit_events WHERE action = 'dut.update' AND subject_id = $1", [dutId]);
+    const { rows } = await t.db.pool.query(
+      "SELECT count(*)::int AS n FROM audit_events WHERE action = 'dut.update' AND subject_id = $1",
+      [dutId],
+    );
     expect(rows[0].n).toBe(2);
   });
 
@@ -167,27 +285,52 @@ describe('DUT limits and the comparison budget', () => {
     const created = await request(t.app)
       .post(`/api/studies/${ids.studyId}/duts`)
       .set(await auth('engineer'))
-      .send({ label: 'Y8 tuning fork', kind: 'tuning-fork', nominal: 32768, unit: 'Hz', limit: 2, limitUnit: 'ppm' });
+      .send({
+        label: 'Y8 tuning fork',
+        kind: 'tuning-fork',
+        nominal: 32768,
+        unit: 'Hz',
+        limit: 2,
+        limitUnit: 'ppm',
+      });
     expect(created.body.tuningFork).toMatchObject({ T0: 25, B: -0.034, defaults: true });
     const dutId = created.body.id;
     const f0 = 32768;
     const rnd = seeded(21);
-    const at = (T: number, ppm: number) => () => f0 * (1 + (ppm - 0.034 * (T - 25) ** 2) * 1e-6 + 1e-9 * rnd.gauss());
-    const cold = await capture({ dutId, checkpointId: ids.checkpoints[0], referenceId: 1, ambientC: 20 }, at(20, 0));
-    const warm = await capture({ dutId, checkpointId: ids.checkpoints[1], referenceId: 1, ambientC: 30 }, at(30, 0.1));
-    const r = await request(t.app).get(`/api/comparisons?before=${cold.id}&after=${warm.id}`).set(await auth('viewer'));
+    const at = (T: number, ppm: number) => () =>
+      f0 * (1 + (ppm - 0.034 * (T - 25) ** 2) * 1e-6 + 1e-9 * rnd.gauss());
+    const cold = await capture(
+      { dutId, checkpointId: ids.checkpoints[0], referenceId: 1, ambientC: 20 },
+      at(20, 0),
+    );
+    const warm = await capture(
+      { dutId, checkpointId: ids.checkpoints[1], referenceId: 1, ambientC: 30 },
+      at(30, 0.1),
+    );
+    const r = await request(t.app)
+      .get(`/api/comparisons?before=${cold.id}&after=${warm.id}`)
+      .set(await auth('viewer'));
     expect(r.status).toBe(200);
     expect(r.body.deltaPpm).toBeCloseTo(0.1, 2);
-    const t0 = r.body.budget.components.find((c: { name: string }) => c.name === 'Turnover temperature T0 (shared)');
+    const t0 = r.body.budget.components.find(
+      (c: { name: string }) => c.name === 'Turnover temperature T0 (shared)',
+    );
     // 0.68 ppm/°C × 5/√3 °C = 1.963 ppm (issue 8, by hand), × 32 768 Hz × 1e-6
     expect(t0.contribution / f0 / 1e-6).toBeCloseTo(1.963, 2);
     expect(r.body.verdict).toBe('inconclusive');
     expect(r.body.k).toBeGreaterThanOrEqual(2);
     expect(r.body.coverage).toMatch(/^k = \d\.\d\d (from|with) ν_eff (=|>) /);
     // A DUT's own, tighter T0 shrinks the line: u(T0) = 0.5 °C gives 0.34 ppm (by hand).
-    await request(t.app).patch(`/api/duts/${dutId}`).set(await auth('engineer')).send({ turnoverC: 25, turnoverU: 0.5 });
-    const tight = await request(t.app).get(`/api/comparisons?before=${cold.id}&after=${warm.id}`).set(await auth('viewer'));
-    const t0b = tight.body.budget.components.find((c: { name: string }) => c.name === 'Turnover temperature T0 (shared)');
+    await request(t.app)
+      .patch(`/api/duts/${dutId}`)
+      .set(await auth('engineer'))
+      .send({ turnoverC: 25, turnoverU: 0.5 });
+    const tight = await request(t.app)
+      .get(`/api/comparisons?before=${cold.id}&after=${warm.id}`)
+      .set(await auth('viewer'));
+    const t0b = tight.body.budget.components.find(
+      (c: { name: string }) => c.name === 'Turnover temperature T0 (shared)',
+    );
     expect(t0b.contribution / f0 / 1e-6).toBeCloseTo(0.34, 2);
   });
 
@@ -195,25 +338,53 @@ describe('DUT limits and the comparison budget', () => {
     const ref = await request(t.app)
       .post('/api/references')
       .set(await auth('lead'))
-      .send({ name: 'Counter timebase', kind: 'internal-timebase', nominalHz: 10e6, fractionalOffset: 0, standardUncertainty: 1e-8, verifiedAt: '2026-11-01', ageingPerDay: 1e-9, ageingUPerDay: 0 });
+      .send({
+        name: 'Counter timebase',
+        kind: 'internal-timebase',
+        nominalHz: 10e6,
+        fractionalOffset: 0,
+        standardUncertainty: 1e-8,
+        verifiedAt: '2026-11-01',
+        ageingPerDay: 1e-9,
+        ageingUPerDay: 0,
+      });
     const referenceId = ref.body.reference.id;
     const f0 = ids.crystal.nominal;
-    const a = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId, ambientC: 23 }, () => f0);
+    const a = await capture(
+      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId, ambientC: 23 },
+      () => f0,
+    );
     expect(a.referenceAgeingPerDay).toBe(1e-9);
-    const b = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], referenceId, ambientC: 23 }, () => f0);
+    const b = await capture(
+      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], referenceId, ambientC: 23 },
+      () => f0,
+    );
     // Move the first capture 10 days back in time: the reference aged 1e-8 in between.
-    await t.db.pool.query("UPDATE captures SET started_at = started_at - interval '10 days', summary = jsonb_set(summary, '{version}', '1') WHERE id = $1", [a.id]);
-    const r = await request(t.app).get(`/api/comparisons?before=${a.id}&after=${b.id}`).set(await auth('viewer'));
+    await t.db.pool.query(
+      "UPDATE captures SET started_at = started_at - interval '10 days', summary = jsonb_set(summary, '{version}', '1') WHERE id = $1",
+      [a.id],
+    );
+    const r = await request(t.app)
+      .get(`/api/comparisons?before=${a.id}&after=${b.id}`)
+      .set(await auth('viewer'));
     const names = r.body.budget.components.map((c: { name: string }) => c.name);
     expect(names).toContain('Reference offset (shared, r = 1)');
     expect(names).toContain('Reference ageing between captures');
-    const ageing = r.body.budget.components.find((c: { name: string }) => c.name === 'Reference ageing between captures');
+    const ageing = r.body.budget.components.find(
+      (c: { name: string }) => c.name === 'Reference ageing between captures',
+    );
     expect(ageing.contribution).toBeCloseTo(1e-9 * 10 * f0, 4); // 1e-9/day × 10 days × 16 MHz = 0.16 Hz (by hand)
-    const offset = r.body.budget.components.find((c: { name: string }) => c.name === 'Reference offset (shared, r = 1)');
+    const offset = r.body.budget.components.find(
+      (c: { name: string }) => c.name === 'Reference offset (shared, r = 1)',
+    );
     expect(offset.contribution).toBeLessThan(1e-12); // 1e-8 × f0 on both sides cancels (eq. 16)
     // Each capture's own budget books the ageing since verification (about a month at 1e-9/day).
-    const own = await request(t.app).get(`/api/captures/${b.id}/analysis`).set(await auth('viewer'));
-    const since = own.body.uncertainty.components.find((c: { key?: string }) => c.key === 'reference-ageing');
+    const own = await request(t.app)
+      .get(`/api/captures/${b.id}/analysis`)
+      .set(await auth('viewer'));
+    const since = own.body.uncertainty.components.find(
+      (c: { key?: string }) => c.key === 'reference-ageing',
+    );
     expect(since.value / f0).toBeGreaterThan(1e-9 * 25);
   });
 });
@@ -223,13 +394,33 @@ describe('review8 findings in the comparison', () => {
     const ref = await request(t.app)
       .post('/api/references')
       .set(await auth('lead'))
-      .send({ name: 'Re-verified OCXO', kind: 'ocxo', nominalHz: 10e6, fractionalOffset: 0, standardUncertainty: 1e-7, verifiedAt: '2026-11-01', ageingPerDay: 0, ageingUPerDay: 0 });
+      .send({
+        name: 'Re-verified OCXO',
+        kind: 'ocxo',
+        nominalHz: 10e6,
+        fractionalOffset: 0,
+        standardUncertainty: 1e-7,
+        verifiedAt: '2026-11-01',
+        ageingPerDay: 0,
+        ageingUPerDay: 0,
+      });
     const referenceId = ref.body.reference.id;
     const f0 = ids.crystal.nominal;
-    const a = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId, ambientC: 23 }, () => f0);
-    await request(t.app).patch(`/api/references/${referenceId}`).set(await auth('lead')).send({ fractionalOffset: 2e-8, verifiedAt: '2026-11-20' });
-    const b = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], referenceId, ambientC: 23 }, () => f0);
-    const r = await request(t.app).get(`/api/comparisons?before=${a.id}&after=${b.id}`).set(await auth('viewer'));
+    const a = await capture(
+      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId, ambientC: 23 },
+      () => f0,
+    );
+    await request(t.app)
+      .patch(`/api/references/${referenceId}`)
+      .set(await auth('lead'))
+      .send({ fractionalOffset: 2e-8, verifiedAt: '2026-11-20' });
+    const b = await capture(
+      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], referenceId, ambientC: 23 },
+      () => f0,
+    );
+    const r = await request(t.app)
+      .get(`/api/comparisons?before=${a.id}&after=${b.id}`)
+      .set(await auth('viewer'));
     expect(r.status).toBe(200);
     const names = r.body.budget.components.map((c: { name: string }) => c.name);
     expect(names).not.toContain('Reference offset (shared, r = 1)');
@@ -241,29 +432,59 @@ describe('review8 findings in the comparison', () => {
 
   it('F4: with no reference, a default ±1 ppm timebase term enters Δ, with a note', async () => {
     const f0 = ids.crystal.nominal;
-    const a = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], ambientC: 23 }, () => f0);
-    const b = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], ambientC: 23 }, () => f0);
-    const r = await request(t.app).get(`/api/comparisons?before=${a.id}&after=${b.id}`).set(await auth('viewer'));
+    const a = await capture(
+      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], ambientC: 23 },
+      () => f0,
+    );
+    const b = await capture(
+      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], ambientC: 23 },
+      () => f0,
+    );
+    const r = await request(t.app)
+      .get(`/api/comparisons?before=${a.id}&after=${b.id}`)
+      .set(await auth('viewer'));
     expect(r.status).toBe(200);
-    const tb = r.body.budget.components.find((c: { name: string }) => c.name === 'Counter timebase between captures (no reference)');
+    const tb = r.body.budget.components.find(
+      (c: { name: string }) => c.name === 'Counter timebase between captures (no reference)',
+    );
     expect(tb).toBeDefined();
     // ±1 ppm rectangular: 1e-6/√3 × f0 (common practice, no source; JCGM 100 §4.3.7 a/√3)
     expect(tb.contribution).toBeCloseTo((1e-6 / Math.sqrt(3)) * f0, 6);
     expect(r.body.notes.join(' ')).toMatch(/No reference was used/);
   });
 
-  it('F4: a shared reference without an ageing rate gets its kind\'s default rate between captures', async () => {
+  it("F4: a shared reference without an ageing rate gets its kind's default rate between captures", async () => {
     const ref = await request(t.app)
       .post('/api/references')
       .set(await auth('lead'))
-      .send({ name: 'OCXO without a rate', kind: 'ocxo', nominalHz: 10e6, fractionalOffset: 0, standardUncertainty: 1e-10, verifiedAt: '2026-11-01' });
+      .send({
+        name: 'OCXO without a rate',
+        kind: 'ocxo',
+        nominalHz: 10e6,
+        fractionalOffset: 0,
+        standardUncertainty: 1e-10,
+        verifiedAt: '2026-11-01',
+      });
     const referenceId = ref.body.reference.id;
     const f0 = ids.crystal.nominal;
-    const a = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId, ambientC: 23 }, () => f0);
-    const b = await capture({ dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], referenceId, ambientC: 23 }, () => f0);
-    await t.db.pool.query("UPDATE captures SET started_at = started_at - interval '10 days', summary = jsonb_set(summary, '{version}', '1') WHERE id = $1", [a.id]);
-    const r = await request(t.app).get(`/api/comparisons?before=${a.id}&after=${b.id}`).set(await auth('viewer'));
-    const ageing = r.body.budget.components.find((c: { name: string }) => c.name === 'Reference ageing between captures');
+    const a = await capture(
+      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId, ambientC: 23 },
+      () => f0,
+    );
+    const b = await capture(
+      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], referenceId, ambientC: 23 },
+      () => f0,
+    );
+    await t.db.pool.query(
+      "UPDATE captures SET started_at = started_at - interval '10 days', summary = jsonb_set(summary, '{version}', '1') WHERE id = $1",
+      [a.id],
+    );
+    const r = await request(t.app)
+      .get(`/api/comparisons?before=${a.id}&after=${b.id}`)
+      .set(await auth('viewer'));
+    const ageing = r.body.budget.components.find(
+      (c: { name: string }) => c.name === 'Reference ageing between captures',
+    );
     // OCXO default 1e-9/day (common practice, no source) × 10 days × f0 (by hand)
     expect(ageing.contribution).toBeCloseTo(1e-9 * 10 * f0, 3);
     expect(r.body.notes.join(' ')).toMatch(/no ageing rate recorded/);
@@ -273,22 +494,41 @@ describe('review8 findings in the comparison', () => {
     const created = await request(t.app)
       .post(`/api/studies/${ids.studyId}/duts`)
       .set(await auth('engineer'))
-      .send({ label: 'A7 accelerometer', kind: 'accelerometer', nominal: 1000, unit: 'mg', limit: 5, limitUnit: 'mg' });
+      .send({
+        label: 'A7 accelerometer',
+        kind: 'accelerometer',
+        nominal: 1000,
+        unit: 'mg',
+        limit: 5,
+        limitUnit: 'mg',
+      });
     expect(created.status).toBe(201);
     const dutId = created.body.id;
     const base = { quantity: 'acceleration', unit: 'mg', gateTime: 1 };
     const flat = await capture({ ...base, dutId, checkpointId: ids.checkpoints[0] }, () => 1.0, 5);
     const same = await capture({ ...base, dutId, checkpointId: ids.checkpoints[1] }, () => 1.0, 5);
-    const r = await request(t.app).get(`/api/comparisons?before=${flat.id}&after=${same.id}`).set(await auth('viewer'));
+    const r = await request(t.app)
+      .get(`/api/comparisons?before=${flat.id}&after=${same.id}`)
+      .set(await auth('viewer'));
     expect(r.status).toBe(200);
     // Resolution only: a = 0.0625/2 mg per side, u = a/√3 = 0.018042 mg; u(Δ) = √2 × that = 0.025516 mg
     // (JCGM 100 §4.3.7, by hand; LSB 0.0625 mg common practice, no source)
     expect(r.body.u).toBeCloseTo(0.025516, 5);
     expect(r.body.expandedUncertainty).toBeGreaterThan(0);
     const g = seeded(77);
-    const b2 = await capture({ ...base, dutId, checkpointId: ids.checkpoints[0] }, () => 1 + 0.5 * g.gauss(), 5);
-    const a2 = await capture({ ...base, dutId, checkpointId: ids.checkpoints[1] }, () => 1 + 0.5 * g.gauss(), 5);
-    const r2 = await request(t.app).get(`/api/comparisons?before=${b2.id}&after=${a2.id}`).set(await auth('viewer'));
+    const b2 = await capture(
+      { ...base, dutId, checkpointId: ids.checkpoints[0] },
+      () => 1 + 0.5 * g.gauss(),
+      5,
+    );
+    const a2 = await capture(
+      { ...base, dutId, checkpointId: ids.checkpoints[1] },
+      () => 1 + 0.5 * g.gauss(),
+      5,
+    );
+    const r2 = await request(t.app)
+      .get(`/api/comparisons?before=${b2.id}&after=${a2.id}`)
+      .set(await auth('viewer'));
     // Type A lines dominate: ν_eff near 8 (n = 5 per side) gives k ≈ t_0.975(ν_eff) > 2.3 — t_0.975(8) = 2.306, Student t table (from memory)
     expect(r2.body.effectiveDof).toBeLessThan(9);
     expect(r2.body.k).toBeGreaterThan(2.3);

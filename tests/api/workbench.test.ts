@@ -16,16 +16,39 @@ afterAll(async () => {
   await t.close();
 });
 
-async function capture(dut: { id: number; nominal: number }, checkpointId: number, seed: number, opts: { n?: number; finish?: boolean; referenceId?: number } = {}) {
+async function capture(
+  dut: { id: number; nominal: number },
+  checkpointId: number,
+  seed: number,
+  opts: { n?: number; finish?: boolean; referenceId?: number } = {},
+) {
   const c = await request(t.app)
     .post('/api/captures')
     .set(await auth('technician'))
-    .send({ dutId: dut.id, checkpointId, quantity: 'frequency', unit: 'Hz', gateTime: 1, ambientC: 23.5, referenceId: opts.referenceId ?? 1 });
+    .send({
+      dutId: dut.id,
+      checkpointId,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+      ambientC: 23.5,
+      referenceId: opts.referenceId ?? 1,
+    });
   expect(c.status).toBe(201);
   const rnd = seeded(seed);
-  const readings = Array.from({ length: opts.n ?? 256 }, (_, i) => ({ seq: i, t: i, value: dut.nominal * (1 + 1e-9 * rnd.gauss()) }));
-  await request(t.app).post(`/api/captures/${c.body.id}/readings`).set(await auth('technician')).send({ readings });
-  if (opts.finish !== false) await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(await auth('technician'));
+  const readings = Array.from({ length: opts.n ?? 256 }, (_, i) => ({
+    seq: i,
+    t: i,
+    value: dut.nominal * (1 + 1e-9 * rnd.gauss()),
+  }));
+  await request(t.app)
+    .post(`/api/captures/${c.body.id}/readings`)
+    .set(await auth('technician'))
+    .send({ readings });
+  if (opts.finish !== false)
+    await request(t.app)
+      .post(`/api/captures/${c.body.id}/finish`)
+      .set(await auth('technician'));
   return c.body.id as number;
 }
 
@@ -57,7 +80,9 @@ describe('the overlay of several captures', () => {
     const a = await capture(ids.crystal, ids.checkpoints[0], 1);
     const b = await capture(ids.crystal, ids.checkpoints[1], 2);
     const c = await capture(ids.tuningFork, ids.checkpoints[0], 3);
-    const res = await request(t.app).get(`/api/captures/stability?ids=${c},${a},${b}`).set(await auth('viewer'));
+    const res = await request(t.app)
+      .get(`/api/captures/stability?ids=${c},${a},${b}`)
+      .set(await auth('viewer'));
     expect(res.status).toBe(200);
     expect(res.body.kind).toBe('oadev');
     expect(res.body.curves.map((x: { captureId: number }) => x.captureId)).toEqual([c, a, b]);
@@ -70,21 +95,42 @@ describe('the overlay of several captures', () => {
       expect(curve.stability.points[0].lo).toBeLessThan(curve.stability.points[0].dev);
     }
     // The same curve the capture's own analysis route gives.
-    const own = await request(t.app).get(`/api/captures/${a}/analysis?kind=mdev`).set(await auth('viewer'));
-    const mdev = await request(t.app).get(`/api/captures/stability?ids=${a},${b}&kind=mdev`).set(await auth('viewer'));
+    const own = await request(t.app)
+      .get(`/api/captures/${a}/analysis?kind=mdev`)
+      .set(await auth('viewer'));
+    const mdev = await request(t.app)
+      .get(`/api/captures/stability?ids=${a},${b}&kind=mdev`)
+      .set(await auth('viewer'));
     expect(mdev.status).toBe(200);
-    expect(mdev.body.curves[0].stability.points.map((p: { dev: number }) => p.dev)).toEqual(own.body.stability.points.map((p: { dev: number }) => p.dev));
+    expect(mdev.body.curves[0].stability.points.map((p: { dev: number }) => p.dev)).toEqual(
+      own.body.stability.points.map((p: { dev: number }) => p.dev),
+    );
   });
 
   it('runs the same number of queries for two captures as for eight (no query per capture)', async () => {
     const list: number[] = [];
-    for (let i = 0; i < 8; i++) list.push(await capture(i % 2 ? ids.crystal : ids.tuningFork, ids.checkpoints[i % 4], 10 + i, { n: 64 }));
+    for (let i = 0; i < 8; i++)
+      list.push(
+        await capture(i % 2 ? ids.crystal : ids.tuningFork, ids.checkpoints[i % 4], 10 + i, {
+          n: 64,
+        }),
+      );
     const token = await auth('viewer');
     // Warm the session lookup so both runs pay the same fixed cost.
     await request(t.app).get(`/api/captures/stability?ids=${list[0]}`).set(token);
     for (const kind of ['oadev', 'hdev']) {
-      const two = await countQueries(() => request(t.app).get(`/api/captures/stability?ids=${list.slice(0, 2).join(',')}&kind=${kind}`).set(token).expect(200));
-      const eight = await countQueries(() => request(t.app).get(`/api/captures/stability?ids=${list.join(',')}&kind=${kind}`).set(token).expect(200));
+      const two = await countQueries(() =>
+        request(t.app)
+          .get(`/api/captures/stability?ids=${list.slice(0, 2).join(',')}&kind=${kind}`)
+          .set(token)
+          .expect(200),
+      );
+      const eight = await countQueries(() =>
+        request(t.app)
+          .get(`/api/captures/stability?ids=${list.join(',')}&kind=${kind}`)
+          .set(token)
+          .expect(200),
+      );
       // Session lookup, captures, DUTs, checkpoints (and the readings for a kind not stored): a handful, not one per capture.
       expect(two).toBeGreaterThanOrEqual(4);
       expect(eight).toBe(two);
@@ -93,15 +139,23 @@ describe('the overlay of several captures', () => {
 
   it('refuses more than 12 captures, an open capture and a missing one', async () => {
     const many = Array.from({ length: 13 }, (_, i) => i + 1).join(',');
-    const tooMany = await request(t.app).get(`/api/captures/stability?ids=${many}`).set(await auth('viewer'));
+    const tooMany = await request(t.app)
+      .get(`/api/captures/stability?ids=${many}`)
+      .set(await auth('viewer'));
     expect(tooMany.status).toBe(400);
     expect(tooMany.body.error.message).toContain('at most 12');
     const open = await capture(ids.crystal, ids.checkpoints[2], 30, { finish: false });
-    const refused = await request(t.app).get(`/api/captures/stability?ids=${open}`).set(await auth('viewer'));
+    const refused = await request(t.app)
+      .get(`/api/captures/stability?ids=${open}`)
+      .set(await auth('viewer'));
     expect(refused.status).toBe(409);
-    const missing = await request(t.app).get('/api/captures/stability?ids=999999').set(await auth('viewer'));
+    const missing = await request(t.app)
+      .get('/api/captures/stability?ids=999999')
+      .set(await auth('viewer'));
     expect(missing.status).toBe(404);
-    const bad = await request(t.app).get('/api/captures/stability?ids=1;2').set(await auth('viewer'));
+    const bad = await request(t.app)
+      .get('/api/captures/stability?ids=1;2')
+      .set(await auth('viewer'));
     expect(bad.status).toBe(400);
   });
 });
@@ -109,11 +163,22 @@ describe('the overlay of several captures', () => {
 describe('exports', () => {
   it('a capture’s CSV starts with its metadata as # lines, then raw and reference-corrected readings', async () => {
     const id = await capture(ids.crystal, ids.checkpoints[0], 40, { n: 5 });
-    const res = await request(t.app).get(`/api/captures/${id}/export.csv`).set(await auth('viewer'));
+    const res = await request(t.app)
+      .get(`/api/captures/${id}/export.csv`)
+      .set(await auth('viewer'));
     expect(res.status).toBe(200);
     expect(res.headers['content-type']).toContain('text/csv');
     const lines = res.text.trim().split('\n');
-    const meta = Object.fromEntries(lines.filter((l) => l.startsWith('# ')).map((l) => l.slice(2).split(/: (.*)/s).slice(0, 2)));
+    const meta = Object.fromEntries(
+      lines
+        .filter((l) => l.startsWith('# '))
+        .map((l) =>
+          l
+            .slice(2)
+            .split(/: (.*)/s)
+            .slice(0, 2),
+        ),
+    );
     expect(meta.capture).toBe(String(id));
     expect(meta.dut).toMatch(/^Y1/);
     expect(meta.gate_s).toBe('1');
@@ -137,10 +202,23 @@ describe('exports', () => {
   });
 
   it('the study CSV has one row per finished capture with its metadata and seal', async () => {
-    const res = await request(t.app).get(`/api/studies/${ids.studyId}/captures.csv`).set(await auth('viewer'));
+    const res = await request(t.app)
+      .get(`/api/studies/${ids.studyId}/captures.csv`)
+      .set(await auth('viewer'));
     expect(res.status).toBe(200);
     const [keys, ...rows] = Papa.parse<string[]>(res.text.trim()).data;
-    for (const k of ['dut', 'checkpoint', 'gate_s', 'reference', 'reference_offset', 'ambient_c', 'operator', 'started_at', 'seal_sha256']) expect(keys).toContain(k);
+    for (const k of [
+      'dut',
+      'checkpoint',
+      'gate_s',
+      'reference',
+      'reference_offset',
+      'ambient_c',
+      'operator',
+      'started_at',
+      'seal_sha256',
+    ])
+      expect(keys).toContain(k);
     const { rows: finished } = await t.db.pool.query<{ id: number }>(
       "SELECT c.id FROM captures c JOIN duts d ON d.id = c.dut_id WHERE d.study_id = $1 AND c.state = 'finished' ORDER BY c.id",
       [ids.studyId],
@@ -148,7 +226,9 @@ describe('exports', () => {
     expect(rows.map((r) => Number(r[0]))).toEqual(finished.map((f) => f.id));
     const seal = keys.indexOf('seal_sha256');
     for (const r of rows) expect(r[seal]).toMatch(/^[0-9a-f]{64}$/);
-    const missing = await request(t.app).get('/api/studies/99999/captures.csv').set(await auth('viewer'));
+    const missing = await request(t.app)
+      .get('/api/studies/99999/captures.csv')
+      .set(await auth('viewer'));
     expect(missing.status).toBe(404);
   });
 });

@@ -13,7 +13,8 @@ import { benchFetch, startBenchServer, type BenchServer } from './server.js';
 // Ingest, decimated-read and live-path figures against a real PostgreSQL and a real server
 // process (the load generator runs in this process, the server in another).
 const median = (xs: number[]) => [...xs].sort((a, b) => a - b)[Math.floor(xs.length / 2)];
-const pct = (xs: number[], p: number) => [...xs].sort((a, b) => a - b)[Math.min(xs.length - 1, Math.floor(xs.length * p))];
+const pct = (xs: number[], p: number) =>
+  [...xs].sort((a, b) => a - b)[Math.min(xs.length - 1, Math.floor(xs.length * p))];
 
 export async function benchIngest(): Promise<void> {
   let bench: BenchServer | undefined;
@@ -25,19 +26,32 @@ export async function benchIngest(): Promise<void> {
     const newCapture = (gateTime = 0.01) => bench!.newCapture({ gateTime });
 
     const pool = new pg.Pool({ connectionString: url, max: 4 });
-    const rows = (n: number, offset = 0) => Array.from({ length: n }, (_, i) => ({ seq: offset + i, t: (offset + i) * 0.01, value: 16e6 + Math.sin(i) * 1e-3 }));
+    const rows = (n: number, offset = 0) =>
+      Array.from({ length: n }, (_, i) => ({
+        seq: offset + i,
+        t: (offset + i) * 0.01,
+        value: 16e6 + Math.sin(i) * 1e-3,
+      }));
 
     // 1. Through the API: 4 captures in parallel, batches of 5,000 readings, bodies pre-serialised.
     const perCapture = 150_000;
     const batch = 5_000;
     const concurrency = 4;
     const ids = await Promise.all(Array.from({ length: concurrency }, () => newCapture()));
-    const bodies = ids.map(() => Array.from({ length: perCapture / batch }, (_, b) => JSON.stringify({ readings: rows(batch, b * batch) })));
+    const bodies = ids.map(() =>
+      Array.from({ length: perCapture / batch }, (_, b) =>
+        JSON.stringify({ readings: rows(batch, b * batch) }),
+      ),
+    );
     let t0 = performance.now();
     await Promise.all(
       ids.map(async (id, k) => {
         for (const body of bodies[k]) {
-          const res = await benchFetch(`${base}/api/captures/${id}/readings`, { method: 'POST', headers, body });
+          const res = await benchFetch(`${base}/api/captures/${id}/readings`, {
+            method: 'POST',
+            headers,
+            body,
+          });
           if (!res.ok) throw new Error(`ingest failed: ${res.status}`);
           await res.arrayBuffer();
         }
@@ -51,10 +65,14 @@ export async function benchIngest(): Promise<void> {
     const copyOne = async (id: number) => {
       const client = await pool.connect();
       try {
-        const stream = client.query(copyFrom('COPY readings (capture_id, seq, t, value, flags) FROM STDIN'));
+        const stream = client.query(
+          copyFrom('COPY readings (capture_id, seq, t, value, flags) FROM STDIN'),
+        );
         const lines = function* () {
           for (let b = 0; b < perCapture / batch; b++) {
-            yield rows(batch, b * batch).map((r) => `${id}\t${r.seq}\t${r.t}\t${r.value}\t0\n`).join('');
+            yield rows(batch, b * batch)
+              .map((r) => `${id}\t${r.seq}\t${r.t}\t${r.value}\t0\n`)
+              .join('');
           }
         };
         await pipeline(Readable.from(lines()), stream);
@@ -75,7 +93,10 @@ export async function benchIngest(): Promise<void> {
         `INSERT INTO readings (capture_id, seq, t, value) SELECT $1, g, g * 0.01, 16e6 + sin(g / 1000.0) * 1e-3 + random() * 1e-5 FROM generate_series(0, 999999) g`,
         [big],
       );
-      await client.query('UPDATE captures SET reading_count = 1000000, highest_seq = 999999 WHERE id = $1', [big]);
+      await client.query(
+        'UPDATE captures SET reading_count = 1000000, highest_seq = 999999 WHERE id = $1',
+        [big],
+      );
       client.release();
     }
     t0 = performance.now();
@@ -95,7 +116,12 @@ export async function benchIngest(): Promise<void> {
     for (let i = 0; i < 11; i++) {
       const from = 100_000 + i * 50_000;
       t0 = performance.now();
-      await (await fetch(`${base}/api/captures/${big}/readings?from=${from}&to=${from + 200_000}&maxPoints=2000`, { headers })).json();
+      await (
+        await fetch(
+          `${base}/api/captures/${big}/readings?from=${from}&to=${from + 200_000}&maxPoints=2000`,
+          { headers },
+        )
+      ).json();
       zooms.push(performance.now() - t0);
     }
 
@@ -118,7 +144,11 @@ export async function benchIngest(): Promise<void> {
       store: new MemoryPendingStore(),
       flushMs: 50,
       send: async (id, readings) => {
-        const res = await benchFetch(`${base}/api/captures/${id}/readings`, { method: 'POST', headers, body: JSON.stringify({ readings }) });
+        const res = await benchFetch(`${base}/api/captures/${id}/readings`, {
+          method: 'POST',
+          headers,
+          body: JSON.stringify({ readings }),
+        });
         if (!res.ok) throw new Error(`HTTP ${res.status}`);
         return (await res.json()) as IngestResult;
       },
@@ -146,7 +176,11 @@ export async function benchIngest(): Promise<void> {
           store: new MemoryPendingStore(),
           flushMs: 100,
           send: async (cid, readings) => {
-            const res = await benchFetch(`${base}/api/captures/${cid}/readings`, { method: 'POST', headers, body: JSON.stringify({ readings }) });
+            const res = await benchFetch(`${base}/api/captures/${cid}/readings`, {
+              method: 'POST',
+              headers,
+              body: JSON.stringify({ readings }),
+            });
             if (!res.ok) throw new Error(`HTTP ${res.status}`);
             return (await res.json()) as IngestResult;
           },
@@ -186,13 +220,22 @@ export async function benchIngest(): Promise<void> {
       const now = performance.now();
       for (const at of madeAt.values()) at.fill(now, tick * 10, tick * 10 + 10);
       for (const u of uploaders) {
-        void u.add(Array.from({ length: 10 }, (_, i) => ({ seq: tick * 10 + i, t: (tick * 10 + i) * 0.01, value: 16e6 })));
+        void u.add(
+          Array.from({ length: 10 }, (_, i) => ({
+            seq: tick * 10 + i,
+            t: (tick * 10 + i) * 0.01,
+            value: 16e6,
+          })),
+        );
       }
     }
     await Promise.all(uploaders.map((u) => u.drained()));
     await new Promise((r) => setTimeout(r, 500));
     for (const w of watchers) w.close();
-    const manyMissing = [...seen.values()].reduce((a, s) => a + s.length - s.reduce((x, y) => x + y, 0), 0);
+    const manyMissing = [...seen.values()].reduce(
+      (a, s) => a + s.length - s.reduce((x, y) => x + y, 0),
+      0,
+    );
     const lag = (performance.now() - manyStart) / 1000 - seconds;
     const counts = await pool.query<{ capture_id: number; n: number; d: number }>(
       'SELECT capture_id, count(*)::int AS n, count(DISTINCT seq)::int AS d FROM readings WHERE capture_id = ANY($1) GROUP BY capture_id',
@@ -205,20 +248,39 @@ export async function benchIngest(): Promise<void> {
 
     const f = (x: number) => Math.round(x).toLocaleString('en-US');
     console.log('\nIngest and reads (PostgreSQL 15, server in its own process, 2 cores)');
-    console.log(`  API ingest          ${f(apiRate)} readings/s  (${concurrency} captures × ${f(perCapture)} in batches of ${f(batch)}; target ≥ 50,000)`);
+    console.log(
+      `  API ingest          ${f(apiRate)} readings/s  (${concurrency} captures × ${f(perCapture)} in batches of ${f(batch)}; target ≥ 50,000)`,
+    );
     console.log(`  raw COPY            ${f(copyRate)} rows/s      (same rows, same parallelism)`);
-    console.log(`  API / COPY          ${((apiRate / copyRate) * 100).toFixed(0)} %         (target ≥ 50 %)`);
-    console.log(`  finish 1e6 readings ${finishSeconds.toFixed(2)} s         (summary, stability, budget and tiles, once)`);
-    console.log(`  decimated read      ${median(reads).toFixed(1)} ms median, ${points} points (1,000,000 → 2,000; target ≤ 150 ms)`);
-    console.log(`  zoomed read         ${median(zooms).toFixed(1)} ms median (200,000-reading window → 2,000)`);
-    console.log(`  ${benches} benches       ${complete}/${benches} captures hold exactly ${f(perBench)} readings each, no duplicates; ${seconds} s at 100 readings/s each, drained ${lag.toFixed(1)} s after the last reading, ${failures} failed requests (target: nothing lost, nothing duplicated)`);
-    console.log(`  live path           p50 ${pct(latencies, 0.5).toFixed(1)} ms, p95 ${pct(latencies, 0.95).toFixed(1)} ms over ${latencies.length} readings at 100/s, one capture alone, uploader grouping every 50 ms (anchor)`);
-    console.log(`  live path, ${benches} benches p50 ${pct(manyLatencies, 0.5).toFixed(1)} ms, p95 ${pct(manyLatencies, 0.95).toFixed(1)} ms over ${manyLatencies.length} readings of 10 watched captures, flush every 100 ms included; ${manyMissing} not delivered, ${manyDuplicates} delivered twice (issue 15 target: p95 ≤ 100 ms, 0 lost, 0 duplicated)`);
+    console.log(
+      `  API / COPY          ${((apiRate / copyRate) * 100).toFixed(0)} %         (target ≥ 50 %)`,
+    );
+    console.log(
+      `  finish 1e6 readings ${finishSeconds.toFixed(2)} s         (summary, stability, budget and tiles, once)`,
+    );
+    console.log(
+      `  decimated read      ${median(reads).toFixed(1)} ms median, ${points} points (1,000,000 → 2,000; target ≤ 150 ms)`,
+    );
+    console.log(
+      `  zoomed read         ${median(zooms).toFixed(1)} ms median (200,000-reading window → 2,000)`,
+    );
+    console.log(
+      `  ${benches} benches       ${complete}/${benches} captures hold exactly ${f(perBench)} readings each, no duplicates; ${seconds} s at 100 readings/s each, drained ${lag.toFixed(1)} s after the last reading, ${failures} failed requests (target: nothing lost, nothing duplicated)`,
+    );
+    console.log(
+      `  live path           p50 ${pct(latencies, 0.5).toFixed(1)} ms, p95 ${pct(latencies, 0.95).toFixed(1)} ms over ${latencies.length} readings at 100/s, one capture alone, uploader grouping every 50 ms (anchor)`,
+    );
+    console.log(
+      `  live path, ${benches} benches p50 ${pct(manyLatencies, 0.5).toFixed(1)} ms, p95 ${pct(manyLatencies, 0.95).toFixed(1)} ms over ${manyLatencies.length} readings of 10 watched captures, flush every 100 ms included; ${manyMissing} not delivered, ${manyDuplicates} delivered twice (issue 15 target: p95 ≤ 100 ms, 0 lost, 0 duplicated)`,
+    );
   } finally {
     await bench?.stop();
   }
 }
 
-if (process.argv[1] && path.resolve(process.argv[1]) === path.resolve(PROJECT_ROOT, 'tests', 'bench', 'ingest.ts')) {
+if (
+  process.argv[1] &&
+  path.resolve(process.argv[1]) === path.resolve(PROJECT_ROOT, 'tests', 'bench', 'ingest.ts')
+) {
   await benchIngest();
 }

@@ -11,7 +11,15 @@ if (file) {
   h.enable();
   const timer = setInterval(() => {
     const ms = (ns) => Math.round(ns / 1e4) / 100;
-    appendFileSync(file, JSON.stringify({ at: Date.now(), p50: ms(h.percentile(50)), p99: ms(h.percentile(99)), max: ms(h.max) }) + '\n');
+    appendFileSync(
+      file,
+      JSON.stringify({
+        at: Date.now(),
+        p50: ms(h.percentile(50)),
+        p99: ms(h.percentile(99)),
+        max: ms(h.max),
+      }) + '\n',
+    );
     h.reset();
   }, 1000);
   timer.unref();

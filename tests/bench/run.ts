@@ -8,7 +8,9 @@ import { benchScale } from './scale.js';
 
 // `npm run bench`: every performance figure of the performance targets in README and DEVELOPERS.md, printed, never asserted.
 // Run on an otherwise idle machine: the figures are wall-clock times.
-console.log(`Driftbench benchmarks — Node ${process.version}, ${os.cpus().length} cores, load ${os.loadavg()[0].toFixed(2)}`);
+console.log(
+  `Driftbench benchmarks — Node ${process.version}, ${os.cpus().length} cores, load ${os.loadavg()[0].toFixed(2)}`,
+);
 // `npm run bench -- analysisLoad scale` runs only the named benches (all of them by default).
 const BENCHES: Record<string, () => Promise<unknown>> = {
   analysis: benchAnalysis,
@@ -21,7 +23,9 @@ const BENCHES: Record<string, () => Promise<unknown>> = {
 const chosen = process.argv.slice(2);
 const unknown = chosen.filter((name) => !(name in BENCHES));
 if (unknown.length) {
-  console.error(`Unknown bench ${unknown.join(', ')}; choose from ${Object.keys(BENCHES).join(', ')}.`);
+  console.error(
+    `Unknown bench ${unknown.join(', ')}; choose from ${Object.keys(BENCHES).join(', ')}.`,
+  );
   process.exit(2);
 }
 for (const [name, run] of Object.entries(BENCHES)) {

@@ -23,14 +23,28 @@ const f = (x: number) => Math.round(x).toLocaleString('en-US');
 const mark = (ok: boolean) => (ok ? 'met' : 'NOT met');
 
 type Row = { seq: number; t: number; value: number };
-const rows = (n: number, offset = 0): Row[] => Array.from({ length: n }, (_, i) => ({ seq: offset + i, t: (offset + i) * 0.01, value: 16e6 + Math.sin(offset + i) * 1e-3 }));
+const rows = (n: number, offset = 0): Row[] =>
+  Array.from({ length: n }, (_, i) => ({
+    seq: offset + i,
+    t: (offset + i) * 0.01,
+    value: 16e6 + Math.sin(offset + i) * 1e-3,
+  }));
 
 /**
  * Sends `n` readings to a capture in batches of `batch`, bodies prepared beforehand; readings/s.
  * `binary`: the compact body (shared/protocol/readingsBinary.ts) instead of JSON.
  */
-async function ingestOneStream(bench: BenchServer, id: number, n: number, batch: number, binary = false): Promise<number> {
-  const headers = { ...(await bench.headers('technician')), ...(binary ? { 'content-type': READINGS_F64_TYPE } : {}) };
+async function ingestOneStream(
+  bench: BenchServer,
+  id: number,
+  n: number,
+  batch: number,
+  binary = false,
+): Promise<number> {
+  const headers = {
+    ...(await bench.headers('technician')),
+    ...(binary ? { 'content-type': READINGS_F64_TYPE } : {}),
+  };
   const bodies: Array<string | Uint8Array> = [];
   for (let b = 0; b < n; b += batch) {
     const part = rows(Math.min(batch, n - b), b);
@@ -38,7 +52,11 @@ async function ingestOneStream(bench: BenchServer, id: number, n: number, batch:
   }
   const t0 = performance.now();
   for (const body of bodies) {
-    const res = await benchFetch(`${bench.base}/api/captures/${id}/readings`, { method: 'POST', headers, body });
+    const res = await benchFetch(`${bench.base}/api/captures/${id}/readings`, {
+      method: 'POST',
+      headers,
+      body,
+    });
     if (!res.ok) throw new Error(`ingest answered ${res.status}: ${await res.text()}`);
     await res.arrayBuffer();
   }
@@ -46,13 +64,19 @@ async function ingestOneStream(bench: BenchServer, id: number, n: number, batch:
 }
 
 /** Median time of `k` decimated reads (2,000 points) of a whole capture, ms. */
-async function decimatedRead(bench: BenchServer, id: number, k = 9): Promise<{ ms: number; points: number }> {
+async function decimatedRead(
+  bench: BenchServer,
+  id: number,
+  k = 9,
+): Promise<{ ms: number; points: number }> {
   const headers = await bench.headers('viewer');
   const times: number[] = [];
   let points = 0;
   for (let i = 0; i < k; i++) {
     const t0 = performance.now();
-    const res = await fetch(`${bench.base}/api/captures/${id}/readings?maxPoints=2000`, { headers });
+    const res = await fetch(`${bench.base}/api/captures/${id}/readings?maxPoints=2000`, {
+      headers,
+    });
     const body = (await res.json()) as { readings: unknown[] };
     if (!res.ok) throw new Error(`read answered ${res.status}`);
     times.push(performance.now() - t0);
@@ -79,14 +103,21 @@ async function serverFigures(): Promise<void> {
     const id = await bench.newCapture();
     const apiRate = await ingestOneStream(bench, id, n, 5_000);
     const binaryRate = await ingestOneStream(bench, await bench.newCapture(), n, 5_000, true);
-    await pool.query('CREATE TABLE bench_copy_anchor (LIKE readings INCLUDING DEFAULTS INCLUDING CONSTRAINTS INCLUDING INDEXES)');
+    await pool.query(
+      'CREATE TABLE bench_copy_anchor (LIKE readings INCLUDING DEFAULTS INCLUDING CONSTRAINTS INCLUDING INDEXES)',
+    );
     const client = await pool.connect();
     let copyRate: number;
     try {
       const t0 = performance.now();
-      const stream = client.query(copyFrom('COPY bench_copy_anchor (capture_id, seq, t, value, flags) FROM STDIN'));
+      const stream = client.query(
+        copyFrom('COPY bench_copy_anchor (capture_id, seq, t, value, flags) FROM STDIN'),
+      );
       const lines = function* () {
-        for (let b = 0; b < n; b += 5_000) yield rows(5_000, b).map((r) => `${id}\t${r.seq}\t${r.t}\t${r.value}\t0\n`).join('');
+        for (let b = 0; b < n; b += 5_000)
+          yield rows(5_000, b)
+            .map((r) => `${id}\t${r.seq}\t${r.t}\t${r.value}\t0\n`)
+            .join('');
       };
       await pipeline(Readable.from(lines()), stream);
       copyRate = n / ((performance.now() - t0) / 1000);
@@ -94,10 +125,18 @@ async function serverFigures(): Promise<void> {
       client.release();
     }
     console.log('\nIssue 15 — one stream, reads, cost growth (server in its own process)');
-    console.log(`  one stream, API     ${f(apiRate)} readings/s (200,000 in batches of 5,000, JSON bodies prepared)`);
-    console.log(`  one stream, COPY    ${f(copyRate)} rows/s into a logged table with the same primary key (anchor)`);
-    console.log(`  one stream, binary  ${f(binaryRate)} readings/s (the same, as ${READINGS_F64_TYPE} bodies)`);
-    console.log(`  API / COPY          ${(apiRate / copyRate).toFixed(2)} JSON, ${(binaryRate / copyRate).toFixed(2)} binary — target ≥ 0.50: ${mark(Math.max(apiRate, binaryRate) / copyRate >= 0.5)}`);
+    console.log(
+      `  one stream, API     ${f(apiRate)} readings/s (200,000 in batches of 5,000, JSON bodies prepared)`,
+    );
+    console.log(
+      `  one stream, COPY    ${f(copyRate)} rows/s into a logged table with the same primary key (anchor)`,
+    );
+    console.log(
+      `  one stream, binary  ${f(binaryRate)} readings/s (the same, as ${READINGS_F64_TYPE} bodies)`,
+    );
+    console.log(
+      `  API / COPY          ${(apiRate / copyRate).toFixed(2)} JSON, ${(binaryRate / copyRate).toFixed(2)} binary — target ≥ 0.50: ${mark(Math.max(apiRate, binaryRate) / copyRate >= 0.5)}`,
+    );
 
     // 2. Decimated read of a 1,000,000-reading capture, open, then finished.
     const big = await bench.newCapture();
@@ -107,35 +146,55 @@ async function serverFigures(): Promise<void> {
         [big],
       ),
     );
-    await pool.query('UPDATE captures SET reading_count = 1000000, highest_seq = 999999 WHERE id = $1', [big]);
+    await pool.query(
+      'UPDATE captures SET reading_count = 1000000, highest_seq = 999999 WHERE id = $1',
+      [big],
+    );
     await pool.query('ANALYZE readings');
     const open = await decimatedRead(bench, big);
-    const [finish, finishMs] = await timed(() => fetch(`${bench.base}/api/captures/${big}/finish`, { method: 'POST', headers }));
+    const [finish, finishMs] = await timed(() =>
+      fetch(`${bench.base}/api/captures/${big}/finish`, { method: 'POST', headers }),
+    );
     if (!finish.ok) throw new Error(`finish answered ${finish.status}`);
     const done = await decimatedRead(bench, big);
-    console.log(`  decimated read, open      ${open.ms.toFixed(1)} ms median, ${open.points} points from 1,000,000 — target ≤ 50 ms: ${mark(open.ms <= 50)}`);
-    console.log(`  decimated read, finished  ${done.ms.toFixed(1)} ms median (anchor); the open capture's tiles were made as the rows went in (one INSERT of 1e6 rows with tiles: ${(insertMs / 1000).toFixed(1)} s), finish ${(finishMs / 1000).toFixed(1)} s`);
+    console.log(
+      `  decimated read, open      ${open.ms.toFixed(1)} ms median, ${open.points} points from 1,000,000 — target ≤ 50 ms: ${mark(open.ms <= 50)}`,
+    );
+    console.log(
+      `  decimated read, finished  ${done.ms.toFixed(1)} ms median (anchor); the open capture's tiles were made as the rows went in (one INSERT of 1e6 rows with tiles: ${(insertMs / 1000).toFixed(1)} s), finish ${(finishMs / 1000).toFixed(1)} s`,
+    );
 
     // 3. Cost growth: ingest rate, decimated read and analysis for 10 k, 100 k and 1 M readings.
-    console.log('  cost growth (one stream, batches of 5,000; read = 2,000 points of the open capture; analysis = MDEV at octave τ in the worker, finished capture):');
+    console.log(
+      '  cost growth (one stream, batches of 5,000; read = 2,000 points of the open capture; analysis = MDEV at octave τ in the worker, finished capture):',
+    );
     // Warm the analysis worker first (its start-up compiles the server's TypeScript): a tiny capture.
     const warm = await bench.newCapture();
     await ingestOneStream(bench, warm, 100, 100);
-    await (await fetch(`${bench.base}/api/captures/${warm}/analysis?kind=mdev`, { headers: viewer })).arrayBuffer();
+    await (
+      await fetch(`${bench.base}/api/captures/${warm}/analysis?kind=mdev`, { headers: viewer })
+    ).arrayBuffer();
     for (const size of [10_000, 100_000, 1_000_000]) {
       const c = await bench.newCapture();
       const rate = await ingestOneStream(bench, c, size, 5_000);
       const read = await decimatedRead(bench, c, 5);
-      const fin = await fetch(`${bench.base}/api/captures/${c}/finish`, { method: 'POST', headers });
+      const fin = await fetch(`${bench.base}/api/captures/${c}/finish`, {
+        method: 'POST',
+        headers,
+      });
       if (!fin.ok) throw new Error(`finish answered ${fin.status}`);
-      const [res, analysisMs] = await timed(() => fetch(`${bench.base}/api/captures/${c}/analysis?kind=mdev`, { headers: viewer }));
+      const [res, analysisMs] = await timed(() =>
+        fetch(`${bench.base}/api/captures/${c}/analysis?kind=mdev`, { headers: viewer }),
+      );
       if (!res.ok) throw new Error(`analysis answered ${res.status}`);
       await res.arrayBuffer();
       console.log(
         `    ${f(size).padStart(9)} readings: ingest ${f(rate).padStart(8)} readings/s, read ${read.ms.toFixed(1).padStart(6)} ms, analysis ${analysisMs.toFixed(0).padStart(6)} ms (${(analysisMs / (size / 1e6)).toFixed(0)} ms per million)`,
       );
     }
-    console.log('    10,000,000 readings: skipped — about 3 minutes of ingest alone on this machine; the three sizes above show the trend (reads flat, analysis linear)');
+    console.log(
+      '    10,000,000 readings: skipped — about 3 minutes of ingest alone on this machine; the three sizes above show the trend (reads flat, analysis linear)',
+    );
   } finally {
     await pool.end();
     await bench.stop();
@@ -158,7 +217,9 @@ function analysisFigures(): void {
     parts.push(`${kind} ${took.toFixed(0)}`);
   }
   console.log('\nIssue 15 — analysis');
-  console.log(`  1,000,000 readings, all seven kinds at octave τ: ${total.toFixed(0)} ms (${parts.join(', ')} ms) — target < 1,000 ms: ${mark(total < 1000)}`);
+  console.log(
+    `  1,000,000 readings, all seven kinds at octave τ: ${total.toFixed(0)} ms (${parts.join(', ')} ms) — target < 1,000 ms: ${mark(total < 1000)}`,
+  );
 
   // OADEV against a vectorised numpy reference, same length, same τ, in the same run.
   const ms = octaveMs(N, 'oadev');
@@ -198,7 +259,9 @@ print(best * 1000)
       `  OADEV 1,000,000 points, ${ms.length} octave τ: ${jsMs.toFixed(1)} ms (deviations, noise identification and EDF) against numpy ${npMs.toFixed(1)} ms (deviations only, best of 5) — ratio ${(jsMs / npMs).toFixed(2)}, target ≤ 0.40: ${mark(jsMs / npMs <= 0.4)}`,
     );
   } else {
-    console.log(`  OADEV 1,000,000 points, ${ms.length} octave τ: ${jsMs.toFixed(1)} ms — numpy line skipped (python3 with numpy not found)`);
+    console.log(
+      `  OADEV 1,000,000 points, ${ms.length} octave τ: ${jsMs.toFixed(1)} ms — numpy line skipped (python3 with numpy not found)`,
+    );
   }
 }
 
@@ -212,7 +275,11 @@ function clientFigures(): void {
     return;
   }
   const html = readFileSync(index, 'utf8');
-  const srcs = [...html.matchAll(/<script[^>]+src="([^"]+\.js)"|<link[^>]+rel="modulepreload"[^>]+href="([^"]+\.js)"/g)].map((m) => m[1] ?? m[2]);
+  const srcs = [
+    ...html.matchAll(
+      /<script[^>]+src="([^"]+\.js)"|<link[^>]+rel="modulepreload"[^>]+href="([^"]+\.js)"/g,
+    ),
+  ].map((m) => m[1] ?? m[2]);
   let raw = 0;
   let gz = 0;
   for (const src of new Set(srcs)) {
@@ -229,12 +296,17 @@ function clientFigures(): void {
 }
 
 export async function benchScale(): Promise<void> {
-  console.log(`\n(load average ${os.loadavg()[0].toFixed(2)} on ${os.cpus().length} cores at the start of the issue-15 figures)`);
+  console.log(
+    `\n(load average ${os.loadavg()[0].toFixed(2)} on ${os.cpus().length} cores at the start of the issue-15 figures)`,
+  );
   await serverFigures();
   analysisFigures();
   clientFigures();
 }
 
-if (process.argv[1] && path.resolve(process.argv[1]) === path.resolve(PROJECT_ROOT, 'tests/bench/scale.ts')) {
+if (
+  process.argv[1] &&
+  path.resolve(process.argv[1]) === path.resolve(PROJECT_ROOT, 'tests/bench/scale.ts')
+) {
   await benchScale();
 }

@@ -2,7 +2,12 @@ import { spawn, type ChildProcess } from 'node:child_process';
 import { mkdtempSync, chmodSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { startCluster, destroyCluster, freePort, type LocalCluster } from '../../server/db/cluster.js';
+import {
+  startCluster,
+  destroyCluster,
+  freePort,
+  type LocalCluster,
+} from '../../server/db/cluster.js';
 import { ensureDatabase, openDatabase } from '../../server/db/connection.js';
 import { migrate } from '../../server/migrations/index.js';
 import { PROJECT_ROOT } from '../../server/index.js';
@@ -36,11 +41,23 @@ export interface BenchServer {
 
 const SECRET = 'driftbench-bench-secret-of-at-least-32-characters';
 
-function startServerProcess(databaseUrl: string, port: number, env: Record<string, string>): Promise<ChildProcess> {
+function startServerProcess(
+  databaseUrl: string,
+  port: number,
+  env: Record<string, string>,
+): Promise<ChildProcess> {
   const log = process.env.BENCH_LOG;
   const prof = process.env.BENCH_CPU_PROF;
-  const probe = env.BENCH_LOOP_FILE ? ['--import', path.join(PROJECT_ROOT, 'tests/bench/loopProbe.mjs')] : [];
-  const args = [...(prof ? ['--cpu-prof', `--cpu-prof-dir=${prof}`] : []), ...probe, '--import', 'tsx', path.join(PROJECT_ROOT, 'server/index.ts')];
+  const probe = env.BENCH_LOOP_FILE
+    ? ['--import', path.join(PROJECT_ROOT, 'tests/bench/loopProbe.mjs')]
+    : [];
+  const args = [
+    ...(prof ? ['--cpu-prof', `--cpu-prof-dir=${prof}`] : []),
+    ...probe,
+    '--import',
+    'tsx',
+    path.join(PROJECT_ROOT, 'server/index.ts'),
+  ];
   return new Promise((resolve, reject) => {
     const p = spawn(process.execPath, args, {
       cwd: PROJECT_ROOT,
@@ -67,7 +84,9 @@ function startServerProcess(databaseUrl: string, port: number, env: Record<strin
   });
 }
 
-export async function startBenchServer(opts: { env?: Record<string, string> } = {}): Promise<BenchServer> {
+export async function startBenchServer(
+  opts: { env?: Record<string, string> } = {},
+): Promise<BenchServer> {
   const tmp = mkdtempSync(path.join(os.tmpdir(), 'driftbench-bench-'));
   chmodSync(tmp, 0o755);
   const cluster = startCluster(path.join(tmp, 'pg'), await freePort(), () => {});
@@ -95,20 +114,30 @@ export async function startBenchServer(opts: { env?: Record<string, string> } = 
         const res = await fetch(`${base}/api/auth/login`, {
           method: 'POST',
           headers: { 'content-type': 'application/json' },
-          body: JSON.stringify({ email: `${role}@kestrelbay.example`, password: 'driftbench-demo' }),
+          body: JSON.stringify({
+            email: `${role}@kestrelbay.example`,
+            password: 'driftbench-demo',
+          }),
         });
-        if (!res.ok) throw new Error(`sign-in as ${role} answered ${res.status}: ${await res.text()}`);
+        if (!res.ok)
+          throw new Error(`sign-in as ${role} answered ${res.status}: ${await res.text()}`);
         return ((await res.json()) as { token: string }).token;
       })();
       tokens.set(role, t);
     }
     return t;
   };
-  const headers = async (role: string) => ({ 'content-type': 'application/json', authorization: `Bearer ${await token(role)}` });
+  const headers = async (role: string) => ({
+    'content-type': 'application/json',
+    authorization: `Bearer ${await token(role)}`,
+  });
   const studyTarget = async (unit?: string) => {
     const res = await fetch(`${base}/api/studies/1`, { headers: await headers('technician') });
     if (!res.ok) throw new Error(`GET /api/studies/1 answered ${res.status}: ${await res.text()}`);
-    const study = (await res.json()) as { duts: { id: number; unit: string }[]; checkpoints: { id: number }[] };
+    const study = (await res.json()) as {
+      duts: { id: number; unit: string }[];
+      checkpoints: { id: number }[];
+    };
     const dut = unit ? study.duts.find((d) => d.unit === unit) : study.duts[0];
     if (!dut) throw new Error(`the demo study has no DUT measured in ${unit}`);
     return { dutId: dut.id, checkpointId: study.checkpoints[0].id };
@@ -118,9 +147,15 @@ export async function startBenchServer(opts: { env?: Record<string, string> } = 
     const res = await fetch(`${base}/api/captures`, {
       method: 'POST',
       headers: await headers('technician'),
-      body: JSON.stringify({ ...target, quantity: 'frequency', unit: o.unit ?? 'Hz', gateTime: o.gateTime ?? 0.01 }),
+      body: JSON.stringify({
+        ...target,
+        quantity: 'frequency',
+        unit: o.unit ?? 'Hz',
+        gateTime: o.gateTime ?? 0.01,
+      }),
     });
-    if (res.status !== 201) throw new Error(`POST /api/captures answered ${res.status}: ${await res.text()}`);
+    if (res.status !== 201)
+      throw new Error(`POST /api/captures answered ${res.status}: ${await res.text()}`);
     return ((await res.json()) as { id: number }).id;
   };
   const proc = server;

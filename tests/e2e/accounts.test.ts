@@ -23,9 +23,14 @@ describe('accounts in the browser', () => {
 
   it('after an admin reset, the next sign-in must choose a new password before anything else', async () => {
     const admin = await apiAs(server.url, 'admin');
-    const users = await admin.call<{ users: Array<{ id: number; role: string }> }>('GET', '/api/users');
+    const users = await admin.call<{ users: Array<{ id: number; role: string }> }>(
+      'GET',
+      '/api/users',
+    );
     const viewer = users.users.find((u) => u.role === 'viewer')!;
-    await admin.call('POST', `/api/users/${viewer.id}/password-reset`, { temporaryPassword: 'temporary-bench-key' });
+    await admin.call('POST', `/api/users/${viewer.id}/password-reset`, {
+      temporaryPassword: 'temporary-bench-key',
+    });
 
     const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
     await page.goto(`${server.url}/studies`);
@@ -43,7 +48,9 @@ describe('accounts in the browser', () => {
     await page.fill('input[name="newPassword"]', 'password1234');
     await page.fill('input[name="repeat"]', 'password1234');
     await page.locator('button[type="submit"]').click();
-    await expect.poll(() => page.locator('body').innerText(), { timeout: 10_000 }).toContain('one of the most common passwords');
+    await expect
+      .poll(() => page.locator('body').innerText(), { timeout: 10_000 })
+      .toContain('one of the most common passwords');
     await page.screenshot({ path: path.join(RESULTS, 'password-forced.png') });
 
     await page.fill('input[name="newPassword"]', 'viewer picks her own words');
@@ -64,17 +71,27 @@ describe('accounts in the browser', () => {
     await dialog.locator('input[name="newPassword"]').fill('engineer bench words 9');
     await dialog.locator('input[name="repeat"]').fill('engineer bench words');
     await dialog.locator('input[name="currentPassword"]').click();
-    await expect.poll(() => dialog.innerText(), { timeout: 10_000 }).toContain('The two new passwords differ');
+    await expect
+      .poll(() => dialog.innerText(), { timeout: 10_000 })
+      .toContain('The two new passwords differ');
     await page.screenshot({ path: path.join(RESULTS, 'password-dialog.png') });
     await dialog.locator('input[name="repeat"]').fill('engineer bench words 9');
     await dialog.locator('button[type="submit"]').click();
-    await expect.poll(() => page.locator('body').innerText(), { timeout: 10_000 }).toContain('Password changed');
+    await expect
+      .poll(() => page.locator('body').innerText(), { timeout: 10_000 })
+      .toContain('Password changed');
 
     const token = await pageToken(page);
-    expect((await fetch(`${server.url}/api/auth/me`, { headers: { authorization: `Bearer ${token}` } })).status).toBe(200);
+    expect(
+      (await fetch(`${server.url}/api/auth/me`, { headers: { authorization: `Bearer ${token}` } }))
+        .status,
+    ).toBe(200);
     await page.locator('button[title="Sign out"]').click();
     await page.waitForURL(/\/sign-in/);
-    expect((await fetch(`${server.url}/api/auth/me`, { headers: { authorization: `Bearer ${token}` } })).status).toBe(401);
+    expect(
+      (await fetch(`${server.url}/api/auth/me`, { headers: { authorization: `Bearer ${token}` } }))
+        .status,
+    ).toBe(401);
     expect(errors).toEqual([]);
   });
 });

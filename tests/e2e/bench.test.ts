@@ -18,7 +18,9 @@ const VIEWPORT = { width: 1440, height: 940 };
 async function choose(page: Page, field: string, text: string): Promise<void> {
   await page.click(`[data-field="${field}"] .el-select__wrapper`);
   await page.locator('.el-select-dropdown__item:visible', { hasText: text }).first().click();
-  await expect.poll(() => page.locator(`[data-field="${field}"] .el-select__wrapper`).innerText()).toContain(text);
+  await expect
+    .poll(() => page.locator(`[data-field="${field}"] .el-select__wrapper`).innerText())
+    .toContain(text);
 }
 
 async function radio(page: Page, field: string, text: string): Promise<void> {
@@ -63,14 +65,20 @@ describe('the bench', () => {
     await page.click('[data-testid="start-capture"]');
 
     await page.waitForSelector('.live-chart canvas');
-    await expect.poll(() => page.locator('[data-testid="link-state"]').innerText(), { timeout: 10_000 }).toContain('Capturing');
+    await expect
+      .poll(() => page.locator('[data-testid="link-state"]').innerText(), { timeout: 10_000 })
+      .toContain('Capturing');
     await expect.poll(() => statN(page), { timeout: 10_000 }).toBeGreaterThan(100);
     captureId = Number(await page.locator('[data-testid="capture-id"]').innerText());
 
     // A viewer watches the same capture while it records.
     const watcher = await openPage(browser, { viewport: VIEWPORT });
     await signIn(watcher.page, server.url, 'viewer', `/captures/${captureId}/live?mode=watch`);
-    await expect.poll(() => watcher.page.locator('[data-testid="watch-state"]').innerText(), { timeout: 10_000 }).toContain('On air');
+    await expect
+      .poll(() => watcher.page.locator('[data-testid="watch-state"]').innerText(), {
+        timeout: 10_000,
+      })
+      .toContain('On air');
 
     // Watch the statistics grow for ten seconds.
     let last = await statN(page);
@@ -94,10 +102,16 @@ describe('the bench', () => {
     expect(await page.locator('[data-testid="link-state"]').innerText()).toContain('Finished');
     benchN = await statN(page);
     expect(benchN).toBeGreaterThan(1000);
-    expect(Number((await page.locator('[data-testid="acknowledged"]').innerText()).replace(/\D/g, ''))).toBe(benchN);
+    expect(
+      Number((await page.locator('[data-testid="acknowledged"]').innerText()).replace(/\D/g, '')),
+    ).toBe(benchN);
     await page.screenshot({ path: path.join(RESULTS, 'bench-finished.png') });
 
-    await expect.poll(() => watcher.page.locator('[data-testid="watch-state"]').innerText(), { timeout: 10_000 }).toContain('Finished');
+    await expect
+      .poll(() => watcher.page.locator('[data-testid="watch-state"]').innerText(), {
+        timeout: 10_000,
+      })
+      .toContain('Finished');
     await expect.poll(() => statN(watcher.page), { timeout: 10_000 }).toBe(benchN);
     expect(watcher.errors).toEqual([]);
     await watcher.page.context().close();
@@ -106,13 +120,22 @@ describe('the bench', () => {
     await page.waitForURL(new RegExp(`/captures/${captureId}$`));
 
     const { call: api } = await apiAs(server.url, 'technician');
-    const capture = await api<{ state: string; readingCount: number; highestSeq: number; gateTime: number; quantity: string }>('GET', `/api/captures/${captureId}`);
+    const capture = await api<{
+      state: string;
+      readingCount: number;
+      highestSeq: number;
+      gateTime: number;
+      quantity: string;
+    }>('GET', `/api/captures/${captureId}`);
     expect(capture.state).toBe('finished');
     expect(capture.quantity).toBe('frequency');
     expect(Number(capture.gateTime)).toBe(0.1);
     expect(capture.readingCount).toBe(benchN);
     expect(capture.highestSeq).toBe(benchN - 1);
-    const { readings } = await api<{ readings: Array<{ seq: number }> }>('GET', `/api/captures/${captureId}/readings?from=0`);
+    const { readings } = await api<{ readings: Array<{ seq: number }> }>(
+      'GET',
+      `/api/captures/${captureId}/readings?from=0`,
+    );
     expect(readings.length).toBe(benchN);
     expect(new Set(readings.map((r) => r.seq)).size).toBe(benchN);
     expect(readings.every((r, i) => r.seq === i)).toBe(true);
@@ -125,7 +148,9 @@ describe('the bench', () => {
     await signIn(page, server.url, 'viewer', `/captures/${captureId}/live?mode=replay`);
     await page.waitForURL(/mode=replay/);
     await page.waitForSelector('.live-chart canvas');
-    await page.locator('[data-testid="replay-speed"] .el-radio-button', { hasText: '100×' }).click();
+    await page
+      .locator('[data-testid="replay-speed"] .el-radio-button', { hasText: '100×' })
+      .click();
     await expect.poll(() => page.locator('[data-testid="replay-toggle"]').isEnabled()).toBe(true);
     await page.click('[data-testid="replay-toggle"]');
     await expect.poll(() => statN(page), { timeout: 10_000 }).toBeGreaterThan(200);
@@ -143,7 +168,9 @@ describe('the bench', () => {
     await signIn(page, server.url, 'technician', '/bench');
     await page.waitForSelector('[data-testid="start-capture"]');
     await choose(page, 'dut', 'U5 3-axis accelerometer');
-    await expect.poll(() => page.locator('[data-field="instrument"] .el-select__wrapper').innerText()).toContain('SPI bridge');
+    await expect
+      .poll(() => page.locator('[data-field="instrument"] .el-select__wrapper').innerText())
+      .toContain('SPI bridge');
     await radio(page, 'link-kind', 'Simulator');
     await radio(page, 'acceleration', '10×');
     await page.fill('[data-field="gate"] input', '0.1');
@@ -157,16 +184,28 @@ describe('the bench', () => {
     await page.fill('.accel-check__settings input >> nth=0', '50');
     await page.press('.accel-check__settings input >> nth=0', 'Tab');
     for (const step of ['Flat', 'On edge', 'Inverted']) {
-      await expect.poll(() => page.locator('[data-testid="accel-step"]').innerText()).toContain(step);
+      await expect
+        .poll(() => page.locator('[data-testid="accel-step"]').innerText())
+        .toContain(step);
       await page.click('[data-testid="accel-step"]');
       if (step === 'On edge') {
         await page.waitForTimeout(300);
         await page.screenshot({ path: path.join(RESULTS, 'accel-check-step.png') });
       }
-      await expect.poll(() => page.locator('.accel-check__got').count(), { timeout: 15_000 }).toBe(['Flat', 'On edge', 'Inverted'].indexOf(step) + 1);
+      await expect
+        .poll(() => page.locator('.accel-check__got').count(), { timeout: 15_000 })
+        .toBe(['Flat', 'On edge', 'Inverted'].indexOf(step) + 1);
     }
-    const offset = Number((await page.locator('[data-result="offset"]').innerText()).replace('−', '-').replace(/[^\d.+-]/g, ''));
-    const sensitivity = Number((await page.locator('[data-result="sensitivity"]').innerText()).replace('−', '-').replace(/[^\d.+-]/g, ''));
+    const offset = Number(
+      (await page.locator('[data-result="offset"]').innerText())
+        .replace('−', '-')
+        .replace(/[^\d.+-]/g, ''),
+    );
+    const sensitivity = Number(
+      (await page.locator('[data-result="sensitivity"]').innerText())
+        .replace('−', '-')
+        .replace(/[^\d.+-]/g, ''),
+    );
     // The simulated part: Z bias +6.1 mg, sensitivity error +0.4 % (simulators/README.md).
     expect(offset).toBeGreaterThan(5.1);
     expect(offset).toBeLessThan(7.1);

@@ -2,7 +2,15 @@ import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Browser, Page } from 'playwright-core';
 import { startTestServer } from '../helpers/appServer.js';
-import { RESULTS, apiWith, launchChromium, login, openPage, type Api, type Session } from '../helpers/browser.js';
+import {
+  RESULTS,
+  apiWith,
+  launchChromium,
+  login,
+  openPage,
+  type Api,
+  type Session,
+} from '../helpers/browser.js';
 import { gaussian } from '../helpers/random.js';
 
 // The captures list and a stored capture's page in a real Chromium: a technician records a
@@ -42,7 +50,12 @@ async function recordCapture(
   for (let seq = 0; seq < n; seq++) {
     if (seq >= 1500 && seq < 1520) continue; // a 20 s gap: the link dropped
     const garbled = seq === 700 || seq === 2210;
-    readings.push({ seq, t: seq, value: NOMINAL * (1 + offset + 2e-9 * g()), ...(garbled ? { flags: 1 } : {}) });
+    readings.push({
+      seq,
+      t: seq,
+      value: NOMINAL * (1 + offset + 2e-9 * g()),
+      ...(garbled ? { flags: 1 } : {}),
+    });
   }
   await api('POST', `/api/captures/${capture.id}/readings`, { readings });
   await api('POST', `/api/captures/${capture.id}/finish`);
@@ -89,15 +102,41 @@ describe('the capture pages', () => {
     viewer = await login(server.url, 'viewer');
     const api = apiWith(server.url, technician.token);
     const { studies } = await api<{ studies: Array<{ id: number }> }>('GET', '/api/studies');
-    const study = await api<{ checkpoints: Array<{ id: number; order: number }>; duts: Array<{ id: number; label: string }> }>(
-      'GET', `/api/studies/${studies[0].id}`);
+    const study = await api<{
+      checkpoints: Array<{ id: number; order: number }>;
+      duts: Array<{ id: number; label: string }>;
+    }>('GET', `/api/studies/${studies[0].id}`);
     const checkpoints = [...study.checkpoints].sort((a, b) => a.order - b.order);
     const dutId = study.duts.find((d) => d.label.startsWith('Y1'))!.id;
-    const { instruments } = await api<{ instruments: Array<{ id: number; kind: string }> }>('GET', '/api/instruments');
-    const { references } = await api<{ references: Array<{ id: number }> }>('GET', '/api/references');
-    const ids = { dutId, instrumentId: instruments.find((i) => i.kind === 'counter')!.id, referenceId: references[0].id };
-    baselineId = await recordCapture(api, { ...ids, checkpointId: checkpoints[0].id }, 3000, 4.1e-6, 23.1, 11);
-    afterId = await recordCapture(api, { ...ids, checkpointId: checkpoints[1].id }, 12_000, 4.35e-6, 23.4, 12);
+    const { instruments } = await api<{ instruments: Array<{ id: number; kind: string }> }>(
+      'GET',
+      '/api/instruments',
+    );
+    const { references } = await api<{ references: Array<{ id: number }> }>(
+      'GET',
+      '/api/references',
+    );
+    const ids = {
+      dutId,
+      instrumentId: instruments.find((i) => i.kind === 'counter')!.id,
+      referenceId: references[0].id,
+    };
+    baselineId = await recordCapture(
+      api,
+      { ...ids, checkpointId: checkpoints[0].id },
+      3000,
+      4.1e-6,
+      23.1,
+      11,
+    );
+    afterId = await recordCapture(
+      api,
+      { ...ids, checkpointId: checkpoints[1].id },
+      12_000,
+      4.35e-6,
+      23.4,
+      12,
+    );
     // No reference on the open one: the conditions panel then says the timebase is taken as exact.
     const open = await api<{ id: number }>('POST', '/api/captures', {
       dutId,
@@ -121,9 +160,13 @@ describe('the capture pages', () => {
     await page.waitForSelector('.captures__table .el-table__row');
     const ids = await page.locator('.captures__id').allInnerTexts();
     expect(ids.map((s) => Number(s.trim()))).toEqual([openId, afterId, baselineId]);
-    expect(await page.locator('.captures__table [data-state="open"]').innerText()).toContain('On air');
+    expect(await page.locator('.captures__table [data-state="open"]').innerText()).toContain(
+      'On air',
+    );
     expect(await page.locator('.captures__table').innerText()).toContain('Y1 16 MHz crystal');
-    await expect.poll(() => page.locator('.captures__table').innerText()).toContain('Tomas Technician');
+    await expect
+      .poll(() => page.locator('.captures__table').innerText())
+      .toContain('Tomas Technician');
     await page.screenshot({ path: path.join(RESULTS, 'captures-list.png'), fullPage: true });
 
     await page.locator('.captures__table .el-table__row').nth(1).locator('td').nth(3).click();
@@ -137,7 +180,9 @@ describe('the capture pages', () => {
     await page.goto(`${server.url}/captures/${afterId}`);
 
     await page.waitForSelector('[data-chart="time-series"] canvas');
-    await expect.poll(() => page.locator('[data-stat="mean"]').innerText()).toMatch(/^16\u2009000\u2009069\.\d+ Hz$/);
+    await expect
+      .poll(() => page.locator('[data-stat="mean"]').innerText())
+      .toMatch(/^16\u2009000\u2009069\.\d+ Hz$/);
     expect(await page.locator('[data-stat="offset"]').innerText()).toMatch(/^\+4\.3\d\d ppm$/);
     expect(await page.locator('[data-stat="n"]').innerText()).toMatch(/11\u2009978 \/ 11\u2009980/);
 
@@ -149,20 +194,30 @@ describe('the capture pages', () => {
       `baseline · capture ${baselineId}`,
       `this capture · capture ${afterId}`,
     ]);
-    await page.locator('.stability-plot').screenshot({ path: path.join(RESULTS, 'stability-overlay.png') });
+    await page
+      .locator('.stability-plot')
+      .screenshot({ path: path.join(RESULTS, 'stability-overlay.png') });
     // White FM gives narrow intervals at short τ: the ribbons show most at long τ, this capture's
     // alone beyond the baseline's longest τ and over the baseline's where both have points.
     await expect.poll(() => ribbonPixels(page, [SERIES_2])).toBeGreaterThan(30);
     await expect.poll(() => ribbonPixels(page, [SERIES_1, SERIES_2])).toBeGreaterThan(30);
     expect(await page.locator('.stability-table tbody tr').count()).toBeGreaterThan(5);
 
-    const budget = await page.locator('section[aria-labelledby="budget-title"] .budget').innerText();
+    const budget = await page
+      .locator('section[aria-labelledby="budget-title"] .budget')
+      .innerText();
     expect(budget).toContain('Combined standard uncertainty');
     expect(budget).toContain('Reference offset');
-    expect(await page.locator('section[aria-labelledby="budget-title"] [data-budget="relative"]').innerText()).toMatch(/pp[mb]$/);
+    expect(
+      await page
+        .locator('section[aria-labelledby="budget-title"] [data-budget="relative"]')
+        .innerText(),
+    ).toMatch(/pp[mb]$/);
 
     await page.waitForSelector('.comparison__body');
-    expect(['within', 'exceeds', 'inconclusive']).toContain(await page.locator('.comparison .verdict-glyph__word').innerText());
+    expect(['within', 'exceeds', 'inconclusive']).toContain(
+      await page.locator('.comparison .verdict-glyph__word').innerText(),
+    );
     expect(await page.locator('[data-compare="delta"]').innerText()).toMatch(/^\+\d\.\d+ Hz$/);
     expect(await page.locator('.verdict-glyph__band').count()).toBe(1);
 
@@ -179,7 +234,9 @@ describe('the capture pages', () => {
     const canvas = page.locator('[data-chart="time-series"] .u-over');
     await canvas.scrollIntoViewIfNeeded(); // the page grew: the chart may sit below the fold
     const box = (await canvas.boundingBox())!;
-    const refined = page.waitForResponse((r) => /\/readings\?from=\d+&to=\d+&maxPoints=\d+/.test(r.url()));
+    const refined = page.waitForResponse((r) =>
+      /\/readings\?from=\d+&to=\d+&maxPoints=\d+/.test(r.url()),
+    );
     await page.mouse.move(box.x + box.width * 0.4, box.y + box.height / 2);
     await page.mouse.down();
     await page.mouse.move(box.x + box.width * 0.45, box.y + box.height / 2, { steps: 5 });
@@ -190,7 +247,9 @@ describe('the capture pages', () => {
     await expect.poll(() => page.locator('[data-axis-title]').innerText()).toBe('MDEV Mod σy(τ)');
     await page.locator('[data-control="kind"] label:has-text("OADEV")').click();
     await expect.poll(() => page.locator('[data-axis-title]').innerText()).toBe('OADEV σy(τ)');
-    await page.locator('section[aria-labelledby="stability-title"]').screenshot({ path: path.join(RESULTS, 'stability.png') });
+    await page
+      .locator('section[aria-labelledby="stability-title"]')
+      .screenshot({ path: path.join(RESULTS, 'stability.png') });
     expect(errors).toEqual([]);
     await page.context().close();
 
@@ -198,12 +257,15 @@ describe('the capture pages', () => {
     await dark.page.goto(`${server.url}/captures/${afterId}`);
     await dark.page.waitForSelector('.stability-plot canvas');
     await dark.page.waitForSelector('.comparison__body');
-    await dark.page.screenshot({ path: path.join(RESULTS, 'capture-page-dark.png'), fullPage: true });
+    await dark.page.screenshot({
+      path: path.join(RESULTS, 'capture-page-dark.png'),
+      fullPage: true,
+    });
     expect(dark.errors).toEqual([]);
     await dark.page.context().close();
   });
 
-  it('shows an open capture without readings, and saves a technician\'s notes', async () => {
+  it("shows an open capture without readings, and saves a technician's notes", async () => {
     const { page, errors } = await openAs(technician);
     await page.goto(`${server.url}/captures/${openId}`);
     await page.waitForSelector('text=No readings yet');
@@ -215,7 +277,9 @@ describe('the capture pages', () => {
     await page.fill('textarea[name="notes"]', 'Lid opened at 10:42 to reseat the probe.');
     await page.click('button:has-text("Save")');
     await page.waitForSelector('.conditions__saved');
-    expect(await page.locator('.conditions__text').innerText()).toBe('Lid opened at 10:42 to reseat the probe.');
+    expect(await page.locator('.conditions__text').innerText()).toBe(
+      'Lid opened at 10:42 to reseat the probe.',
+    );
     await page.screenshot({ path: path.join(RESULTS, 'capture-open-empty.png'), fullPage: true });
     expect(errors).toEqual([]);
     await page.context().close();

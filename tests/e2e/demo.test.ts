@@ -37,7 +37,9 @@ describe('the demo lab as a viewer sees it', () => {
     await page.getByText('Aqueous ultrasonic wash', { exact: false }).first().click();
     await page.waitForSelector('[data-cell="compared"]');
     const fork = page.locator('tr', { hasText: 'Y3 32.768 kHz tuning fork' });
-    const verdicts = await fork.locator('td').evaluateAll((cells) => cells.map((c) => c.getAttribute('data-verdict')));
+    const verdicts = await fork
+      .locator('td')
+      .evaluateAll((cells) => cells.map((c) => c.getAttribute('data-verdict')));
     expect(verdicts.slice(1)).toEqual(['within', 'exceeds', 'exceeds']);
     expect(await page.locator('td[data-verdict="inconclusive"]').count()).toBe(1);
     expect(await page.locator('td[data-verdict="within"]').count()).toBeGreaterThanOrEqual(10);

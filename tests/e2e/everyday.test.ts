@@ -2,7 +2,15 @@ import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Browser, Page } from 'playwright-core';
 import { startTestServer } from '../helpers/appServer.js';
-import { RESULTS, apiWith, launchChromium, login, openPage, type Api, type Session } from '../helpers/browser.js';
+import {
+  RESULTS,
+  apiWith,
+  launchChromium,
+  login,
+  openPage,
+  type Api,
+  type Session,
+} from '../helpers/browser.js';
 import { linkPreset } from '../../shared/protocol/linkProfile.js';
 
 // Issue 14 in a real Chromium: the replay seek bar and count, the "simulated" mark wherever a
@@ -30,19 +38,39 @@ describe('everyday use', () => {
     api = apiWith(server.url, engineer.token);
     const { studies } = await api<{ studies: Array<{ id: number }> }>('GET', '/api/studies');
     studyId = studies[0].id;
-    const study = await api<{ checkpoints: Array<{ id: number; order: number }>; duts: Array<{ id: number; label: string; nominal: number }> }>('GET', `/api/studies/${studyId}`);
+    const study = await api<{
+      checkpoints: Array<{ id: number; order: number }>;
+      duts: Array<{ id: number; label: string; nominal: number }>;
+    }>('GET', `/api/studies/${studyId}`);
     const cps = [...study.checkpoints].sort((a, b) => a.order - b.order);
     const dut = study.duts.find((d) => d.label.startsWith('Y1'))!;
     // 600 readings at 1 s from a simulator, 12 of them flagged by the link: the replay must end at 600 of 600.
-    const profile = { ...linkPreset('talk-counter'), kind: 'simulator' as const, simulator: { path: '/sim/counter' as const, params: { preset: 'xtal-16m', checkpoint: '0' } } };
-    const { instruments } = await api<{ instruments: Array<{ id: number; name: string }> }>('GET', '/api/instruments');
+    const profile = {
+      ...linkPreset('talk-counter'),
+      kind: 'simulator' as const,
+      simulator: { path: '/sim/counter' as const, params: { preset: 'xtal-16m', checkpoint: '0' } },
+    };
+    const { instruments } = await api<{ instruments: Array<{ id: number; name: string }> }>(
+      'GET',
+      '/api/instruments',
+    );
     const counter = instruments.find((i) => i.name === 'Counter C-1')!;
     const created = await api<{ id: number; simulated: boolean }>('POST', '/api/captures', {
-      dutId: dut.id, checkpointId: cps[0].id, instrumentId: counter.id, quantity: 'frequency', unit: 'Hz', gateTime: 1, ambientC: 23.1, linkProfile: profile,
+      dutId: dut.id,
+      checkpointId: cps[0].id,
+      instrumentId: counter.id,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+      ambientC: 23.1,
+      linkProfile: profile,
     });
     simulatedId = created.id;
     const readings = Array.from({ length: 600 }, (_, seq) => ({
-      seq, t: seq, value: dut.nominal * (1 + 3.2e-6 + 1e-9 * Math.sin(seq / 7)), ...(seq % 50 === 7 ? { flags: 1 } : {}),
+      seq,
+      t: seq,
+      value: dut.nominal * (1 + 3.2e-6 + 1e-9 * Math.sin(seq / 7)),
+      ...(seq % 50 === 7 ? { flags: 1 } : {}),
     }));
     await api('POST', `/api/captures/${simulatedId}/readings`, { readings });
     await api('POST', `/api/captures/${simulatedId}/finish`);
@@ -91,7 +119,9 @@ describe('everyday use', () => {
 
     // Play to the end at 1000×: every stored reading counted, flagged ones included.
     await page.click('[data-testid="replay-speed"] >> text=1000×');
-    await expect.poll(() => page.locator('[data-testid="replay-count"]').innerText(), { timeout: 15_000 }).toMatch(/^600\s+of 600 readings/);
+    await expect
+      .poll(() => page.locator('[data-testid="replay-count"]').innerText(), { timeout: 15_000 })
+      .toMatch(/^600\s+of 600 readings/);
     await expect.poll(() => page.locator('[data-stat="n"]').innerText()).toBe('600');
     await expect.poll(() => page.locator('[data-stat="garbled"]').innerText()).toBe('12');
     expect(errors).toEqual([]);
@@ -109,7 +139,9 @@ describe('everyday use', () => {
 
     await page.goto(`${server.url}/studies/${studyId}`);
     await page.locator('.matrix [data-testid="simulated-mark"]').first().waitFor();
-    expect(await page.locator('[data-testid="simulated-setting"]').innerText()).toContain('Accepts simulated captures');
+    expect(await page.locator('[data-testid="simulated-setting"]').innerText()).toContain(
+      'Accepts simulated captures',
+    );
     await page.screenshot({ path: path.join(RESULTS, 'simulated-matrix.png') });
     expect(errors).toEqual([]);
     await page.context().close();
@@ -119,7 +151,10 @@ describe('everyday use', () => {
     const technician = await login(server.url, 'technician');
     const { page, errors } = await openPage(browser, { viewport: VIEWPORT, session: technician });
     await page.goto(`${server.url}/bench`);
-    await page.locator('[data-field="reference"] .el-select__selected-item:not(.is-hidden)').first().waitFor();
+    await page
+      .locator('[data-field="reference"] .el-select__selected-item:not(.is-hidden)')
+      .first()
+      .waitFor();
     await expect.poll(() => page.locator('[data-field="reference"]').innerText()).toContain('GPS');
     expect(await page.locator('[data-field="ambient"] input').inputValue()).toBe('');
     await page.click('[data-field="instrument"] .el-select__wrapper');
@@ -138,7 +173,11 @@ describe('everyday use', () => {
   });
 
   it('offers the way back from a study or capture that does not exist', async () => {
-    const { page } = await openPage(browser, { viewport: VIEWPORT, session: engineer, ignoreErrors: [/404/] });
+    const { page } = await openPage(browser, {
+      viewport: VIEWPORT,
+      session: engineer,
+      ignoreErrors: [/404/],
+    });
     await page.goto(`${server.url}/studies/987654`);
     await page.waitForSelector('text=There is no study 987654');
     expect(await page.locator('text=Try again').count()).toBe(0);
@@ -164,7 +203,9 @@ describe('everyday use', () => {
     await dialog.locator('button:has-text("Create study")').click();
     await page.waitForURL(/\/studies\/\d+$/);
     await page.waitForSelector('h1:has-text("Conformal coat — field returns")');
-    expect(await page.locator('[data-testid="simulated-setting"]').innerText()).toContain('Real instruments only');
+    expect(await page.locator('[data-testid="simulated-setting"]').innerText()).toContain(
+      'Real instruments only',
+    );
     expect(errors).toEqual([]);
     await page.context().close();
   });
@@ -176,7 +217,9 @@ describe('everyday use', () => {
     await page.click('nav[aria-label="Main"] >> text=Help');
     await page.waitForSelector('[data-term="Flagged reading"]');
     await page.fill('input[aria-label="Find a word"]', 'garbled');
-    await expect.poll(() => page.locator('[data-term]').allInnerTexts()).toEqual([expect.stringContaining('Flagged reading')]);
+    await expect
+      .poll(() => page.locator('[data-term]').allInnerTexts())
+      .toEqual([expect.stringContaining('Flagged reading')]);
     expect(errors).toEqual([]);
     await page.context().close();
   });

@@ -3,7 +3,14 @@ import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Browser, Page } from 'playwright-core';
 import { startTestServer } from '../helpers/appServer.js';
-import { RESULTS, apiWith, launchChromium, login, openPage, type Session } from '../helpers/browser.js';
+import {
+  RESULTS,
+  apiWith,
+  launchChromium,
+  login,
+  openPage,
+  type Session,
+} from '../helpers/browser.js';
 
 // Every page of the route table, as every role, on a phone (390 × 844) and a tablet (820 × 1180):
 // the page never scrolls sideways and the main menu can be reached — the top bar's menu on the
@@ -37,7 +44,9 @@ function routePaths(ids: { study: number; capture: number; open: number }): Visi
   for (const record of records) {
     const p = /path:\s*'([^']+)'/.exec(record)?.[1];
     if (!p || p === '/sign-in' || p.includes('pathMatch')) continue;
-    const filled = p.replace(/:(\w+)\([^)]*\)|:(\w+)/g, () => String(p.startsWith('/captures') ? ids.capture : ids.study));
+    const filled = p.replace(/:(\w+)\([^)]*\)|:(\w+)/g, () =>
+      String(p.startsWith('/captures') ? ids.capture : ids.study),
+    );
     out.set(filled, /bare:\s*true|public:\s*true/.test(record));
   }
   // An open capture watched live, a finished one replayed, and a page that does not exist.
@@ -49,7 +58,9 @@ function routePaths(ids: { study: number; capture: number; open: number }): Visi
 
 /** Horizontal overflow of the page itself (not of boxes that scroll on their own). */
 function pageOverflow(page: Page): Promise<number> {
-  return page.evaluate('document.documentElement.scrollWidth - document.documentElement.clientWidth') as Promise<number>;
+  return page.evaluate(
+    'document.documentElement.scrollWidth - document.documentElement.clientWidth',
+  ) as Promise<number>;
 }
 
 async function settle(page: Page, url: string, bare = false): Promise<void> {
@@ -68,24 +79,47 @@ describe('layout on phones and tablets', () => {
     browser = await launchChromium();
     const api = apiWith(server.url, (await login(server.url, 'engineer')).token);
     const { studies } = await api<{ studies: Array<{ id: number }> }>('GET', '/api/studies');
-    const study = await api<{ checkpoints: Array<{ id: number; order: number }>; duts: Array<{ id: number; nominal: number }> }>(
-      'GET', `/api/studies/${studies[0].id}`);
+    const study = await api<{
+      checkpoints: Array<{ id: number; order: number }>;
+      duts: Array<{ id: number; nominal: number }>;
+    }>('GET', `/api/studies/${studies[0].id}`);
     const cps = [...study.checkpoints].sort((a, b) => a.order - b.order);
     const dut = study.duts[0];
     const finished = await api<{ id: number }>('POST', '/api/captures', {
-      dutId: dut.id, checkpointId: cps[0].id, quantity: 'frequency', unit: 'Hz', gateTime: 1, ambientC: 23.2,
+      dutId: dut.id,
+      checkpointId: cps[0].id,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+      ambientC: 23.2,
     });
-    const readings = Array.from({ length: 400 }, (_, seq) => ({ seq, t: seq, value: dut.nominal * (1 + 1e-7 + 1e-9 * Math.sin(seq)) }));
+    const readings = Array.from({ length: 400 }, (_, seq) => ({
+      seq,
+      t: seq,
+      value: dut.nominal * (1 + 1e-7 + 1e-9 * Math.sin(seq)),
+    }));
     await api('POST', `/api/captures/${finished.id}/readings`, { readings });
     await api('POST', `/api/captures/${finished.id}/finish`);
     // A later checkpoint 0.3 ppm away: its page carries a verdict against the baseline above.
     const later = await api<{ id: number }>('POST', '/api/captures', {
-      dutId: dut.id, checkpointId: cps[2].id, quantity: 'frequency', unit: 'Hz', gateTime: 1, ambientC: 23.6,
+      dutId: dut.id,
+      checkpointId: cps[2].id,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+      ambientC: 23.6,
     });
-    await api('POST', `/api/captures/${later.id}/readings`, { readings: readings.map((r) => ({ ...r, value: r.value * (1 + 3e-7) })) });
+    await api('POST', `/api/captures/${later.id}/readings`, {
+      readings: readings.map((r) => ({ ...r, value: r.value * (1 + 3e-7) })),
+    });
     await api('POST', `/api/captures/${later.id}/finish`);
     const open = await api<{ id: number }>('POST', '/api/captures', {
-      dutId: dut.id, checkpointId: cps[1].id, quantity: 'frequency', unit: 'Hz', gateTime: 1, ambientC: 23.4,
+      dutId: dut.id,
+      checkpointId: cps[1].id,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+      ambientC: 23.4,
     });
     await api('POST', `/api/captures/${open.id}/readings`, { readings: readings.slice(0, 30) });
     paths = routePaths({ study: studies[0].id, capture: later.id, open: open.id });
@@ -97,71 +131,79 @@ describe('layout on phones and tablets', () => {
     await server?.stop();
   });
 
-  it.each(ROLES)('a %s on a phone: no page scrolls sideways, and the menu opens from the top bar', async (role) => {
-    const session: Session = await login(server.url, role);
-    const { page, errors } = await openPage(browser, { viewport: PHONE, session });
-    const wide: string[] = [];
-    for (const { path: p, bare } of paths) {
-      await settle(page, `${server.url}${p}`, bare);
-      const over = await pageOverflow(page);
-      if (over > 0) wide.push(`${p}: ${over}px`);
-      if (bare) continue;
-      // The rail is gone; the menu button sits in the top bar, on screen.
-      expect(await page.locator('.nav-rail--docked').isVisible(), p).toBe(false);
-      const menu = page.getByRole('button', { name: 'Menu' });
-      expect(await menu.isVisible(), p).toBe(true);
-      const box = (await menu.boundingBox())!;
-      expect(box.x + box.width, p).toBeLessThanOrEqual(PHONE.width);
-    }
-    expect(wide).toEqual([]);
+  it.each(ROLES)(
+    'a %s on a phone: no page scrolls sideways, and the menu opens from the top bar',
+    async (role) => {
+      const session: Session = await login(server.url, role);
+      const { page, errors } = await openPage(browser, { viewport: PHONE, session });
+      const wide: string[] = [];
+      for (const { path: p, bare } of paths) {
+        await settle(page, `${server.url}${p}`, bare);
+        const over = await pageOverflow(page);
+        if (over > 0) wide.push(`${p}: ${over}px`);
+        if (bare) continue;
+        // The rail is gone; the menu button sits in the top bar, on screen.
+        expect(await page.locator('.nav-rail--docked').isVisible(), p).toBe(false);
+        const menu = page.getByRole('button', { name: 'Menu' });
+        expect(await menu.isVisible(), p).toBe(true);
+        const box = (await menu.boundingBox())!;
+        expect(box.x + box.width, p).toBeLessThanOrEqual(PHONE.width);
+      }
+      expect(wide).toEqual([]);
 
-    // The drawer lists the role's pages and takes the technician there.
-    await settle(page, `${server.url}/`);
-    await page.getByRole('button', { name: 'Menu' }).click();
-    const nav = page.locator('.app-menu nav[aria-label="Main"]');
-    await nav.waitFor();
-    expect(await nav.locator('a').allInnerTexts()).toContain('Captures');
-    await page.screenshot({ path: path.join(RESULTS, `phone-menu-${role}.png`) });
-    await nav.locator('a', { hasText: 'Captures' }).click();
-    await page.waitForURL(/\/captures$/);
-    await expect.poll(() => nav.isVisible()).toBe(false);
-    if (role === 'technician') {
-      // For the README: a verdict read on a phone, a capture watched on a phone, and the menu.
-      await settle(page, `${server.url}/captures/${ids.later}`);
-      await page.locator('[data-verdict]').first().waitFor();
-      await page.screenshot({ path: path.join(SCREENSHOTS, 'readme-phone-verdict.png') });
-      await settle(page, `${server.url}/captures/${ids.open}/live`);
-      await page.locator('[data-testid="watch-state"]').waitFor();
-      await page.screenshot({ path: path.join(SCREENSHOTS, 'readme-phone-watch.png') });
+      // The drawer lists the role's pages and takes the technician there.
+      await settle(page, `${server.url}/`);
       await page.getByRole('button', { name: 'Menu' }).click();
-      await page.locator('.app-menu nav[aria-label="Main"]').waitFor();
-      await page.waitForTimeout(400);
-      await page.screenshot({ path: path.join(SCREENSHOTS, 'readme-phone-menu.png') });
-    }
-    expect(errors.filter((e) => !/status of 40[34]/.test(e))).toEqual([]);
-    await page.context().close();
-  }, 360_000);
+      const nav = page.locator('.app-menu nav[aria-label="Main"]');
+      await nav.waitFor();
+      expect(await nav.locator('a').allInnerTexts()).toContain('Captures');
+      await page.screenshot({ path: path.join(RESULTS, `phone-menu-${role}.png`) });
+      await nav.locator('a', { hasText: 'Captures' }).click();
+      await page.waitForURL(/\/captures$/);
+      await expect.poll(() => nav.isVisible()).toBe(false);
+      if (role === 'technician') {
+        // For the README: a verdict read on a phone, a capture watched on a phone, and the menu.
+        await settle(page, `${server.url}/captures/${ids.later}`);
+        await page.locator('[data-verdict]').first().waitFor();
+        await page.screenshot({ path: path.join(SCREENSHOTS, 'readme-phone-verdict.png') });
+        await settle(page, `${server.url}/captures/${ids.open}/live`);
+        await page.locator('[data-testid="watch-state"]').waitFor();
+        await page.screenshot({ path: path.join(SCREENSHOTS, 'readme-phone-watch.png') });
+        await page.getByRole('button', { name: 'Menu' }).click();
+        await page.locator('.app-menu nav[aria-label="Main"]').waitFor();
+        await page.waitForTimeout(400);
+        await page.screenshot({ path: path.join(SCREENSHOTS, 'readme-phone-menu.png') });
+      }
+      expect(errors.filter((e) => !/status of 40[34]/.test(e))).toEqual([]);
+      await page.context().close();
+    },
+    360_000,
+  );
 
-  it.each(ROLES)('a %s on a tablet: no page scrolls sideways, and the narrow rail stays in reach', async (role) => {
-    const session: Session = await login(server.url, role);
-    const { page } = await openPage(browser, { viewport: TABLET, session });
-    const wide: string[] = [];
-    for (const { path: p, bare } of paths) {
-      await settle(page, `${server.url}${p}`, bare);
-      const over = await pageOverflow(page);
-      if (over > 0) wide.push(`${p}: ${over}px`);
-      if (bare) continue;
-      const rail = page.locator('.nav-rail--docked');
-      expect(await rail.isVisible(), p).toBe(true);
-      const box = (await rail.boundingBox())!;
-      expect(box.width, p).toBeLessThan(100);
-      expect(await page.getByRole('button', { name: 'Menu' }).isVisible(), p).toBe(false);
-    }
-    expect(wide).toEqual([]);
-    // Each rail entry is an icon with its name kept for screen readers and as a tooltip.
-    const studies = page.locator('nav[aria-label="Main"] a[title="Studies"]');
-    await studies.click();
-    await page.waitForURL(/\/studies$/);
-    await page.context().close();
-  }, 360_000);
+  it.each(ROLES)(
+    'a %s on a tablet: no page scrolls sideways, and the narrow rail stays in reach',
+    async (role) => {
+      const session: Session = await login(server.url, role);
+      const { page } = await openPage(browser, { viewport: TABLET, session });
+      const wide: string[] = [];
+      for (const { path: p, bare } of paths) {
+        await settle(page, `${server.url}${p}`, bare);
+        const over = await pageOverflow(page);
+        if (over > 0) wide.push(`${p}: ${over}px`);
+        if (bare) continue;
+        const rail = page.locator('.nav-rail--docked');
+        expect(await rail.isVisible(), p).toBe(true);
+        const box = (await rail.boundingBox())!;
+        expect(box.width, p).toBeLessThan(100);
+        expect(await page.getByRole('button', { name: 'Menu' }).isVisible(), p).toBe(false);
+      }
+      expect(wide).toEqual([]);
+      // Each rail entry is an icon with its name kept for screen readers and as a tooltip.
+      const studies = page.locator('nav[aria-label="Main"] a[title="Studies"]');
+      await studies.click();
+      await page.waitForURL(/\/studies$/);
+      await page.context().close();
+    },
+    360_000,
+  );
 });

@@ -2,7 +2,14 @@ import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Browser, Page } from 'playwright-core';
 import { startTestServer } from '../helpers/appServer.js';
-import { RESULTS, apiWith, launchChromium, openPage, pageToken, signIn } from '../helpers/browser.js';
+import {
+  RESULTS,
+  apiWith,
+  launchChromium,
+  openPage,
+  pageToken,
+  signIn,
+} from '../helpers/browser.js';
 
 // The link test page against the simulators (talk-only counter, SCPI counter, SPI bridge), and
 // a link profile saved for an instrument from the Lab page.
@@ -39,7 +46,9 @@ describe('the link test page', () => {
     await chooseDevice(page, 'Counter, talk-only stream');
     await page.click('[data-action="connect"]');
     await page.waitForSelector('[data-state="connected"]');
-    await expect.poll(() => page.locator('[data-reading]').count(), { timeout: 8000 }).toBeGreaterThanOrEqual(5);
+    await expect
+      .poll(() => page.locator('[data-reading]').count(), { timeout: 8000 })
+      .toBeGreaterThanOrEqual(5);
     const latest = number(await page.locator('[data-latest]').innerText());
     expect(Math.abs(latest - 16e6)).toBeLessThan(200); // +3.2 ppm offset ≈ +51 Hz
     expect(await page.locator('.raw__row[data-dir="rx"] .raw__ctl').first().innerText()).toBe('CR');
@@ -51,17 +60,23 @@ describe('the link test page', () => {
     await page.click('[data-action="connect"]');
     await page.waitForSelector('[data-state="connected"]');
     await page.click('[data-action="poll"]');
-    await expect.poll(() => page.locator('[data-reading]').count(), { timeout: 8000 }).toBeGreaterThanOrEqual(3);
+    await expect
+      .poll(() => page.locator('[data-reading]').count(), { timeout: 8000 })
+      .toBeGreaterThanOrEqual(3);
     await page.fill('input[name="command"]', '*IDN?');
     await page.press('input[name="command"]', 'Enter');
-    await expect.poll(() => page.locator('[data-reply]').first().innerText(), { timeout: 5000 }).toContain('Driftbench Labs,SIM-CNT-1');
+    await expect
+      .poll(() => page.locator('[data-reply]').first().innerText(), { timeout: 5000 })
+      .toContain('Driftbench Labs,SIM-CNT-1');
     // A READ? typed by hand is a reading like a polled one.
     await page.click('[data-action="stop-poll"]');
     await page.waitForSelector('[data-action="poll"]');
     const polled = await page.locator('[data-reading]').count();
     await page.fill('input[name="command"]', 'READ?');
     await page.press('input[name="command"]', 'Enter');
-    await expect.poll(() => page.locator('[data-reading]').count(), { timeout: 5000 }).toBe(polled + 1);
+    await expect
+      .poll(() => page.locator('[data-reading]').count(), { timeout: 5000 })
+      .toBe(polled + 1);
     await page.screenshot({ path: path.join(RESULTS, 'links-query.png') });
     await page.click('[data-action="disconnect"]');
 
@@ -74,7 +89,9 @@ describe('the link test page', () => {
     await page.fill('input[name="spi-bytes"]', '03 00 00');
     await page.press('input[name="spi-bytes"]', 'Enter');
     // simulators/README.md: FLAGS 01 (fresh sample), PART DB, REV 03
-    await expect.poll(() => page.locator('[data-transfer]').first().locator('[data-miso]').allInnerTexts()).toEqual(['01', 'DB', '03']);
+    await expect
+      .poll(() => page.locator('[data-transfer]').first().locator('[data-miso]').allInnerTexts())
+      .toEqual(['01', 'DB', '03']);
     await page.click('[data-quick="poll"]');
     await expect.poll(() => page.locator('[data-transfer]').count()).toBe(3);
     const z = await page.locator('[data-transfer]').first().locator('[data-value]').innerText();
@@ -82,7 +99,9 @@ describe('the link test page', () => {
     expect(Number(/value \+(\d+\.\d+) mg/.exec(z)?.[1])).toBeGreaterThan(1000);
     expect(Number(/value \+(\d+\.\d+) mg/.exec(z)?.[1])).toBeLessThan(1020);
     await page.click('[data-action="poll"]');
-    await expect.poll(() => page.locator('[data-reading]').count(), { timeout: 8000 }).toBeGreaterThanOrEqual(5);
+    await expect
+      .poll(() => page.locator('[data-reading]').count(), { timeout: 8000 })
+      .toBeGreaterThanOrEqual(5);
     await page.screenshot({ path: path.join(RESULTS, 'links.png'), fullPage: true });
     await page.click('[data-action="disconnect"]');
     expect(errors).toEqual([]);
@@ -110,12 +129,16 @@ describe('the link test page', () => {
 
   it('says plainly when the browser has no Web Serial and offers the simulator', async () => {
     const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
-    await page.addInitScript("Object.defineProperty(Navigator.prototype, 'serial', { get: () => undefined })");
+    await page.addInitScript(
+      "Object.defineProperty(Navigator.prototype, 'serial', { get: () => undefined })",
+    );
     await signIn(page, server.url, 'technician', '/sign-in');
     await page.goto(`${server.url}/links`);
     await page.waitForSelector('[data-no-serial]');
     expect(await page.locator('[data-no-serial]').innerText()).toContain('no Web Serial');
-    expect(await page.locator('label:has-text("Serial port")').getAttribute('class')).toContain('is-disabled');
+    expect(await page.locator('label:has-text("Serial port")').getAttribute('class')).toContain(
+      'is-disabled',
+    );
     await page.screenshot({ path: path.join(RESULTS, 'links-no-serial.png') });
     expect(errors).toEqual([]);
     await page.context().close();
@@ -143,9 +166,17 @@ describe('the link test page', () => {
     await page.screenshot({ path: path.join(RESULTS, 'lab-link-profiles.png') });
 
     const api = apiWith(server.url, await pageToken(page));
-    const list = await api<{ instruments: { name: string; linkProfile: unknown }[] }>('GET', '/api/instruments');
+    const list = await api<{ instruments: { name: string; linkProfile: unknown }[] }>(
+      'GET',
+      '/api/instruments',
+    );
     const c1 = list.instruments.find((i) => i.name === 'Counter C-1');
-    expect(c1?.linkProfile).toMatchObject({ name: 'C-1 on the bench USB port', mode: 'query', queryCommand: 'READ?', initCommands: ['*RST', ':SENS:FREQ:GATE:TIME 1'] });
+    expect(c1?.linkProfile).toMatchObject({
+      name: 'C-1 on the bench USB port',
+      mode: 'query',
+      queryCommand: 'READ?',
+      initCommands: ['*RST', ':SENS:FREQ:GATE:TIME 1'],
+    });
     expect(errors).toEqual([]);
     await page.context().close();
   });

@@ -2,7 +2,14 @@ import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Browser, Page } from 'playwright-core';
 import { startTestServer } from '../helpers/appServer.js';
-import { RESULTS, apiWith, launchChromium, openPage, pageToken, signIn } from '../helpers/browser.js';
+import {
+  RESULTS,
+  apiWith,
+  launchChromium,
+  openPage,
+  pageToken,
+  signIn,
+} from '../helpers/browser.js';
 
 // The shell in a real Chromium against the built client and a seeded database: sign-in, the
 // role-aware rail, dashboard counts, both themes, and no console errors along the way.
@@ -33,7 +40,16 @@ describe('the Driftbench shell', () => {
     await page.screenshot({ path: path.join(RESULTS, 'sign-in.png') });
 
     await signIn(page, server.url, 'technician');
-    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab', 'Help']);
+    expect(await navLabels(page)).toEqual([
+      'Dashboard',
+      'Studies',
+      'Bench',
+      'Captures',
+      'Compare',
+      'Links',
+      'Lab',
+      'Help',
+    ]);
     await expect.poll(() => page.locator('[data-count="studies"]').innerText()).toMatch(/^\d+$/);
     expect(Number(await page.locator('[data-count="duts"]').innerText())).toBeGreaterThan(0);
     await expect.poll(() => page.locator('.health-line').innerText()).toMatch(/Database connected/);
@@ -43,11 +59,24 @@ describe('the Driftbench shell', () => {
 
     // A capture started elsewhere appears on air without a reload, and leaves when finished.
     const api = apiWith(server.url, await pageToken(page));
-    const study = await api<{ duts: { id: number }[]; checkpoints: { id: number }[] }>('GET', '/api/studies/1');
-    const capture = await api<{ id: number }>('POST', '/api/captures', { dutId: study.duts[0].id, checkpointId: study.checkpoints[0].id, quantity: 'frequency', unit: 'Hz', gateTime: 1 });
-    await expect.poll(() => page.locator('body').innerText(), { timeout: 10_000 }).toContain('Y1 16 MHz crystal');
+    const study = await api<{ duts: { id: number }[]; checkpoints: { id: number }[] }>(
+      'GET',
+      '/api/studies/1',
+    );
+    const capture = await api<{ id: number }>('POST', '/api/captures', {
+      dutId: study.duts[0].id,
+      checkpointId: study.checkpoints[0].id,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+    });
+    await expect
+      .poll(() => page.locator('body').innerText(), { timeout: 10_000 })
+      .toContain('Y1 16 MHz crystal');
     await api('POST', `/api/captures/${capture.id}/finish`);
-    await expect.poll(() => page.locator('body').innerText(), { timeout: 10_000 }).toContain('No captures are running');
+    await expect
+      .poll(() => page.locator('body').innerText(), { timeout: 10_000 })
+      .toContain('No captures are running');
 
     await page.goto(`${server.url}/lab`);
     await page.waitForSelector('text=GPS 10 MHz reference');
@@ -63,7 +92,18 @@ describe('the Driftbench shell', () => {
   it('shows Users to an admin, in either theme', async () => {
     const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
     await signIn(page, server.url, 'admin');
-    expect(await navLabels(page)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab', 'Users', 'Outbox', 'Help']);
+    expect(await navLabels(page)).toEqual([
+      'Dashboard',
+      'Studies',
+      'Bench',
+      'Captures',
+      'Compare',
+      'Links',
+      'Lab',
+      'Users',
+      'Outbox',
+      'Help',
+    ]);
 
     await page.click('nav[aria-label="Main"] >> text=Users');
     await page.waitForSelector('text=admin@kestrelbay.example');
@@ -96,7 +136,10 @@ describe('the Driftbench shell', () => {
 
   it('lists studies for an engineer and sends a lost session back to sign-in', async () => {
     // The only console error allowed is the browser's own note about the refused /me call.
-    const { page, errors } = await openPage(browser, { viewport: VIEWPORT, ignoreErrors: [/status of 401/] });
+    const { page, errors } = await openPage(browser, {
+      viewport: VIEWPORT,
+      ignoreErrors: [/status of 401/],
+    });
     await signIn(page, server.url, 'engineer');
     await page.click('nav[aria-label="Main"] >> text=Studies');
     await page.waitForSelector('.el-table__row');
@@ -109,7 +152,12 @@ describe('the Driftbench shell', () => {
       localStorage.setItem('driftbench.theme', 'dark');
     `);
     await page.goto(`${server.url}/lab`);
-    await page.waitForURL((url) => url.pathname === '/sign-in' && url.searchParams.get('next') === '/lab' && url.searchParams.get('reason') === 'expired');
+    await page.waitForURL(
+      (url) =>
+        url.pathname === '/sign-in' &&
+        url.searchParams.get('next') === '/lab' &&
+        url.searchParams.get('reason') === 'expired',
+    );
     await page.waitForSelector('text=Your session has expired — please sign in again');
     await page.screenshot({ path: path.join(RESULTS, 'sign-in-expired-dark.png') });
 

@@ -84,12 +84,16 @@ describe('no stranded captures; plan to bench in one click', () => {
 
     // Going on: the capture keeps recording in the background and the rail shows it.
     await page.click('.nav-rail--docked a[title="Studies"]');
-    await page.locator('.el-message-box:visible button', { hasText: 'Leave, keep capturing' }).click();
+    await page
+      .locator('.el-message-box:visible button', { hasText: 'Leave, keep capturing' })
+      .click();
     await page.waitForURL(/\/studies$/);
     const rail = page.locator('.nav-rail--docked [data-testid="rail-capturing"]');
     await expect.poll(() => rail.innerText()).toContain(`Capturing · #${id}`);
     const away = (await dbReadings(id)).n;
-    await expect.poll(async () => (await dbReadings(id)).n, { timeout: 10_000 }).toBeGreaterThan(away + 20);
+    await expect
+      .poll(async () => (await dbReadings(id)).n, { timeout: 10_000 })
+      .toBeGreaterThan(away + 20);
     await page.screenshot({ path: path.join(RESULTS, 'rail-capturing.png') });
 
     // Back on the bench through the rail: the same capture, still live; stop and finish.
@@ -107,7 +111,9 @@ describe('no stranded captures; plan to bench in one click', () => {
     const c = await api<{ state: string; readingCount: number }>('GET', `/api/captures/${id}`);
     expect(c.state).toBe('finished');
     expect(c.readingCount).toBe(benchN);
-    await expect.poll(() => page.locator('.nav-rail--docked [data-testid="rail-capturing"]').count()).toBe(0);
+    await expect
+      .poll(() => page.locator('.nav-rail--docked [data-testid="rail-capturing"]').count())
+      .toBe(0);
 
     // The bench offers the next DUT of the same checkpoint in one click.
     const next = page.locator('[data-testid="next-dut"]');
@@ -135,12 +141,18 @@ describe('no stranded captures; plan to bench in one click', () => {
     await page.screenshot({ path: path.join(RESULTS, 'bench-resume.png') });
     const before = (await dbReadings(id)).n;
     await page.click('[data-testid="resume-button"]');
-    await expect.poll(() => page.locator('[data-testid="capture-id"]').innerText(), { timeout: 15_000 }).toBe(String(id));
+    await expect
+      .poll(() => page.locator('[data-testid="capture-id"]').innerText(), { timeout: 15_000 })
+      .toBe(String(id));
     try {
-      await expect.poll(async () => (await dbReadings(id)).n, { timeout: 15_000 }).toBeGreaterThan(before + 20);
+      await expect
+        .poll(async () => (await dbReadings(id)).n, { timeout: 15_000 })
+        .toBeGreaterThan(before + 20);
     } catch (err) {
       await page.screenshot({ path: path.join(RESULTS, 'bench-resume-failed.png') });
-      throw new Error(`${String(err)}: ${(await page.locator('[role="alert"], [role="status"]').allInnerTexts()).join(' | ')}`);
+      throw new Error(
+        `${String(err)}: ${(await page.locator('[role="alert"], [role="status"]').allInnerTexts()).join(' | ')}`,
+      );
     }
     await page.click('[data-testid="stop-capture"]');
     await page.waitForSelector('[data-testid="open-capture"]', { timeout: 30_000 });
@@ -157,12 +169,24 @@ describe('no stranded captures; plan to bench in one click', () => {
   it('lets a lead abort a stranded capture from its page, keeping its readings', async () => {
     const { call: tech } = await apiAs(server.url, 'technician');
     const studies = await tech<{ studies: Array<{ id: number }> }>('GET', '/api/studies');
-    const study = await tech<{ checkpoints: Array<{ id: number }>; duts: Array<{ id: number; label: string }> }>('GET', `/api/studies/${studies.studies[0].id}`);
+    const study = await tech<{
+      checkpoints: Array<{ id: number }>;
+      duts: Array<{ id: number; label: string }>;
+    }>('GET', `/api/studies/${studies.studies[0].id}`);
     const y1 = study.duts.find((d) => d.label.startsWith('Y1'))!;
     const capture = await tech<{ id: number }>('POST', '/api/captures', {
-      dutId: y1.id, checkpointId: study.checkpoints[1].id, quantity: 'frequency', unit: 'Hz', gateTime: 1, ambientC: 23,
+      dutId: y1.id,
+      checkpointId: study.checkpoints[1].id,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+      ambientC: 23,
     });
-    const readings = Array.from({ length: 40 }, (_, i) => ({ seq: i, t: i, value: 16e6 + 0.02 * Math.sin(i) }));
+    const readings = Array.from({ length: 40 }, (_, i) => ({
+      seq: i,
+      t: i,
+      value: 16e6 + 0.02 * Math.sin(i),
+    }));
     await tech('POST', `/api/captures/${capture.id}/readings`, { readings });
 
     const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
@@ -175,17 +199,32 @@ describe('no stranded captures; plan to bench in one click', () => {
     await page.screenshot({ path: path.join(RESULTS, 'capture-abort-dialog.png') });
     await dialog.locator('[data-testid="abort-confirm"]').click();
     await page.locator('[data-testid="aborted-note"]').waitFor();
-    expect(await page.locator('[data-testid="aborted-note"]').innerText()).toContain('Left running over the weekend');
-    await expect.poll(() => page.locator('.capture-state').first().innerText()).toContain('Aborted');
+    expect(await page.locator('[data-testid="aborted-note"]').innerText()).toContain(
+      'Left running over the weekend',
+    );
+    await expect
+      .poll(() => page.locator('.capture-state').first().innerText())
+      .toContain('Aborted');
     expect(await page.locator('[data-action="abort"]').count()).toBe(0);
     await page.screenshot({ path: path.join(RESULTS, 'capture-aborted.png') });
 
-    const { rows } = await server.server.db.pool.query<{ state: string; abort_reason: string; n: number }>(
+    const { rows } = await server.server.db.pool.query<{
+      state: string;
+      abort_reason: string;
+      n: number;
+    }>(
       `SELECT c.state, c.abort_reason, (SELECT count(*)::int FROM readings r WHERE r.capture_id = c.id) AS n FROM captures c WHERE c.id = $1`,
       [capture.id],
     );
-    expect(rows[0]).toEqual({ state: 'aborted', abort_reason: 'Left running over the weekend; the fixture was moved', n: 40 });
-    const audit = await server.server.db.pool.query("SELECT 1 FROM audit_events WHERE action = 'capture.abort' AND subject_id = $1", [capture.id]);
+    expect(rows[0]).toEqual({
+      state: 'aborted',
+      abort_reason: 'Left running over the weekend; the fixture was moved',
+      n: 40,
+    });
+    const audit = await server.server.db.pool.query(
+      "SELECT 1 FROM audit_events WHERE action = 'capture.abort' AND subject_id = $1",
+      [capture.id],
+    );
     expect(audit.rowCount).toBe(1);
     expect(errors).toEqual([]);
     await page.context().close();
@@ -194,11 +233,30 @@ describe('no stranded captures; plan to bench in one click', () => {
   it('opens the bench on the study it came from, and an empty matrix cell with its checkpoint and DUT', async () => {
     // A second study, so the bench's remembered study is not the one asked for.
     const { call: eng } = await apiAs(server.url, 'engineer');
-    const other = await eng<{ id: number }>('POST', '/api/studies', { title: 'Bake-out drift check', allowSimulated: true });
+    const other = await eng<{ id: number }>('POST', '/api/studies', {
+      title: 'Bake-out drift check',
+      allowSimulated: true,
+    });
     await eng('POST', `/api/studies/${other.id}/checkpoints`, { name: 'Before bake' });
-    const after = await eng<{ id: number }>('POST', `/api/studies/${other.id}/checkpoints`, { name: 'After 48 h bake' });
-    await eng('POST', `/api/studies/${other.id}/duts`, { label: 'X7 25 MHz oscillator', kind: 'oscillator', nominal: 25e6, unit: 'Hz', limit: 2, limitUnit: 'ppm' });
-    const x8 = await eng<{ id: number }>('POST', `/api/studies/${other.id}/duts`, { label: 'X8 25 MHz oscillator', kind: 'oscillator', nominal: 25e6, unit: 'Hz', limit: 2, limitUnit: 'ppm' });
+    const after = await eng<{ id: number }>('POST', `/api/studies/${other.id}/checkpoints`, {
+      name: 'After 48 h bake',
+    });
+    await eng('POST', `/api/studies/${other.id}/duts`, {
+      label: 'X7 25 MHz oscillator',
+      kind: 'oscillator',
+      nominal: 25e6,
+      unit: 'Hz',
+      limit: 2,
+      limitUnit: 'ppm',
+    });
+    const x8 = await eng<{ id: number }>('POST', `/api/studies/${other.id}/duts`, {
+      label: 'X8 25 MHz oscillator',
+      kind: 'oscillator',
+      nominal: 25e6,
+      unit: 'Hz',
+      limit: 2,
+      limitUnit: 'ppm',
+    });
 
     const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
     await signIn(page, server.url, 'technician', '/bench');
@@ -221,7 +279,11 @@ describe('no stranded captures; plan to bench in one click', () => {
     await cell.click();
     await page.waitForURL(/\/bench\?/);
     const q = new URL(page.url()).searchParams;
-    expect([q.get('study'), q.get('checkpoint'), q.get('dut')]).toEqual([String(other.id), String(after.id), String(x8.id)]);
+    expect([q.get('study'), q.get('checkpoint'), q.get('dut')]).toEqual([
+      String(other.id),
+      String(after.id),
+      String(x8.id),
+    ]);
     await expect.poll(() => selected(page, 'study')).toContain('Bake-out drift check');
     await expect.poll(() => selected(page, 'checkpoint')).toContain('After 48 h bake');
     await expect.poll(() => selected(page, 'dut')).toContain('X8 25 MHz oscillator');

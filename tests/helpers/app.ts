@@ -19,7 +19,11 @@ export interface TestApp {
 
 /** The real app on a fresh database of its own, seeded with the demo lab. */
 export async function createTestApp(
-  opts: { loginRateLimit?: number; loginAccountLimit?: number; trustProxy?: boolean | number | string[] } = {},
+  opts: {
+    loginRateLimit?: number;
+    loginAccountLimit?: number;
+    trustProxy?: boolean | number | string[];
+  } = {},
 ): Promise<TestApp> {
   const { url, drop } = await createTestDatabase();
   const db = await prepareDatabase(url, { demo: true, poolMax: 5 });
@@ -38,8 +42,11 @@ export async function createTestApp(
     async tokenFor(role) {
       const cached = tokens.get(role);
       if (cached) return cached;
-      const res = await request(app).post('/api/auth/login').send({ email: `${role}@${DEMO_DOMAIN}`, password: DEMO_PASSWORD });
-      if (res.status !== 200) throw new Error(`login as ${role} failed: ${res.status} ${JSON.stringify(res.body)}`);
+      const res = await request(app)
+        .post('/api/auth/login')
+        .send({ email: `${role}@${DEMO_DOMAIN}`, password: DEMO_PASSWORD });
+      if (res.status !== 200)
+        throw new Error(`login as ${role} failed: ${res.status} ${JSON.stringify(res.body)}`);
       tokens.set(role, res.body.token);
       return res.body.token as string;
     },

@@ -5,7 +5,9 @@ import { createTestDatabase } from './db.js';
 import { TEST_JWT_SECRET } from './app.js';
 
 /** A whole Driftbench (API, built client, WebSocket endpoints) on a free port over a fresh seeded database. */
-export async function startTestServer(opts: { demoStory?: boolean } = {}): Promise<{ url: string; server: RunningServer; stop(): Promise<void> }> {
+export async function startTestServer(
+  opts: { demoStory?: boolean } = {},
+): Promise<{ url: string; server: RunningServer; stop(): Promise<void> }> {
   const { url: databaseUrl, drop } = await createTestDatabase();
   const server = await startServer({
     databaseUrl,

@@ -35,8 +35,16 @@ export async function launchChromium(): Promise<Browser> {
   mkdirSync(RESULTS, { recursive: true });
   return chromium.launch({
     executablePath: '/usr/bin/chromium',
-    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run',
-      '--disable-background-networking', '--disable-component-update', '--disable-sync'],
+    args: [
+      '--headless',
+      '--no-sandbox',
+      '--disable-gpu',
+      '--disable-quic',
+      '--no-first-run',
+      '--disable-background-networking',
+      '--disable-component-update',
+      '--disable-sync',
+    ],
   });
 }
 
@@ -47,13 +55,16 @@ export async function openPage(browser: Browser, opts: OpenPageOptions = {}): Pr
     colorScheme: opts.colorScheme ?? 'light',
   });
   if (opts.session) {
-    await context.addInitScript(`localStorage.setItem('driftbench.session', ${JSON.stringify(JSON.stringify(opts.session))})`);
+    await context.addInitScript(
+      `localStorage.setItem('driftbench.session', ${JSON.stringify(JSON.stringify(opts.session))})`,
+    );
   }
   const page = await context.newPage();
   const errors: string[] = [];
   const ignored = opts.ignoreErrors ?? [];
   page.on('console', (msg) => {
-    if (msg.type() === 'error' && !ignored.some((re) => re.test(msg.text()))) errors.push(msg.text());
+    if (msg.type() === 'error' && !ignored.some((re) => re.test(msg.text())))
+      errors.push(msg.text());
   });
   page.on('pageerror', (err) => errors.push(err.message));
   return { page, errors };
@@ -74,14 +85,25 @@ export async function signIn(page: Page, baseUrl: string, role: string, next = '
 
 /** The bearer token of the session a page is signed in with. */
 export async function pageToken(page: Page): Promise<string> {
-  return (await page.evaluate("JSON.parse(localStorage.getItem('driftbench.session') ?? '{}').token")) as string;
+  return (await page.evaluate(
+    "JSON.parse(localStorage.getItem('driftbench.session') ?? '{}').token",
+  )) as string;
 }
 
 /** A JSON call to the API; throws with the status and body when the answer is not 2xx. */
-export async function apiCall<T>(baseUrl: string, method: string, url: string, token: string | null, body?: unknown): Promise<T> {
+export async function apiCall<T>(
+  baseUrl: string,
+  method: string,
+  url: string,
+  token: string | null,
+  body?: unknown,
+): Promise<T> {
   const response = await fetch(`${baseUrl}${url}`, {
     method,
-    headers: { 'content-type': 'application/json', ...(token ? { authorization: `Bearer ${token}` } : {}) },
+    headers: {
+      'content-type': 'application/json',
+      ...(token ? { authorization: `Bearer ${token}` } : {}),
+    },
     body: body === undefined ? undefined : JSON.stringify(body),
   });
   const json = (await response.json()) as T;
@@ -91,7 +113,10 @@ export async function apiCall<T>(baseUrl: string, method: string, url: string, t
 
 /** Signs in as the demo user of `role` through POST /api/auth/login. */
 export function login(baseUrl: string, role: string): Promise<Session> {
-  return apiCall<Session>(baseUrl, 'POST', '/api/auth/login', null, { email: `${role}@${DEMO_DOMAIN}`, password: DEMO_PASSWORD });
+  return apiCall<Session>(baseUrl, 'POST', '/api/auth/login', null, {
+    email: `${role}@${DEMO_DOMAIN}`,
+    password: DEMO_PASSWORD,
+  });
 }
 
 /** JSON calls to the API with one bearer token. */
@@ -103,7 +128,10 @@ export function apiWith(baseUrl: string, token: string): Api {
 }
 
 /** Signs in as `role` through the API: the session (for `openPage`) and calls made with its token. */
-export async function apiAs(baseUrl: string, role: string): Promise<{ session: Session; call: Api }> {
+export async function apiAs(
+  baseUrl: string,
+  role: string,
+): Promise<{ session: Session; call: Api }> {
   const session = await login(baseUrl, role);
   return { session, call: apiWith(baseUrl, session.token) };
 }

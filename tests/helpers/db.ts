@@ -6,7 +6,9 @@ export async function createTestDatabase(): Promise<{ url: string; drop(): Promi
   const admin = process.env.DRIFTBENCH_TEST_PG;
   const template = process.env.DRIFTBENCH_TEST_TEMPLATE;
   if (!admin || !template) {
-    throw new Error('API tests need the throwaway PostgreSQL that `npm test` starts (DRIFTBENCH_TEST_PG is not set).');
+    throw new Error(
+      'API tests need the throwaway PostgreSQL that `npm test` starts (DRIFTBENCH_TEST_PG is not set).',
+    );
   }
   const name = `t_${randomBytes(6).toString('hex')}`;
   await ensureDatabase(admin, name, template);

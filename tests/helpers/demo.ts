@@ -4,8 +4,11 @@ import type { Express } from 'express';
 /** Ids of the demo study's checkpoints and DUTs, looked up through the API. */
 export async function demoIds(app: Express, token: string) {
   const list = await request(app).get('/api/studies').set('authorization', `Bearer ${token}`);
-  const study = await request(app).get(`/api/studies/${list.body.studies[0].id}`).set('authorization', `Bearer ${token}`);
-  const dut = (prefix: string) => study.body.duts.find((d: { label: string }) => d.label.startsWith(prefix));
+  const study = await request(app)
+    .get(`/api/studies/${list.body.studies[0].id}`)
+    .set('authorization', `Bearer ${token}`);
+  const dut = (prefix: string) =>
+    study.body.duts.find((d: { label: string }) => d.label.startsWith(prefix));
   return {
     studyId: study.body.id as number,
     checkpoints: study.body.checkpoints.map((c: { id: number }) => c.id) as number[],

@@ -22,13 +22,18 @@ function sources(dir: string): string[] {
 /** Value imports of a file: `import x from`, `import {a} from`, `import 'x'`, `export … from`, `import('x')`. */
 export function importsOf(code: string): string[] {
   const found: string[] = [];
-  const statement = /(?:^|[;\n])\s*(import|export)\s+(type\s+)?([^'";]*?)\s*from\s*['"]([^'"]+)['"]/g;
+  const statement =
+    /(?:^|[;\n])\s*(import|export)\s+(type\s+)?([^'";]*?)\s*from\s*['"]([^'"]+)['"]/g;
   for (const m of code.matchAll(statement)) {
     if (m[2]) continue; // import type … / export type …
     const clause = m[3].trim();
     // `import { type A, type B } from` is erased too.
     const braces = /^\{([^}]*)\}$/.exec(clause);
-    if (braces && braces[1].split(',').every((part) => part.trim() === '' || /^type\s/.test(part.trim()))) continue;
+    if (
+      braces &&
+      braces[1].split(',').every((part) => part.trim() === '' || /^type\s/.test(part.trim()))
+    )
+      continue;
     found.push(m[4]);
   }
   for (const m of code.matchAll(/(?:^|[;\n])\s*import\s+['"]([^'"]+)['"]/g)) found.push(m[1]);
@@ -39,7 +44,14 @@ export function importsOf(code: string): string[] {
 function resolve(from: string, spec: string): string | null {
   if (!spec.startsWith('.')) return null;
   const base = path.resolve(path.dirname(from), spec);
-  const candidates = [base, base.replace(/\.js$/, '.ts'), base.replace(/\.mjs$/, '.mts'), `${base}.ts`, `${base}.vue`, path.join(base, 'index.ts')];
+  const candidates = [
+    base,
+    base.replace(/\.js$/, '.ts'),
+    base.replace(/\.mjs$/, '.mts'),
+    `${base}.ts`,
+    `${base}.vue`,
+    path.join(base, 'index.ts'),
+  ];
   return candidates.find((c) => existsSync(c) && statSync(c).isFile()) ?? null;
 }
 
@@ -90,7 +102,8 @@ function cycles(g: Map<string, string[]>): string[][] {
         on.delete(w);
         comp.push(w);
       } while (w !== v);
-      if (comp.length > 1 || (g.get(v) ?? []).includes(v)) out.push(comp.map((f) => path.relative(ROOT, f)).sort());
+      if (comp.length > 1 || (g.get(v) ?? []).includes(v))
+        out.push(comp.map((f) => path.relative(ROOT, f)).sort());
     }
   };
   for (const v of g.keys()) if (!idx.has(v)) visit(v);
@@ -108,7 +121,13 @@ describe('import graph', () => {
       "import './side.css';",
       "const V = () => import('./View.vue');",
     ].join('\n');
-    expect(importsOf(code).sort()).toEqual(['./View.vue', './a.js', './e.js', './g.js', './side.css']);
+    expect(importsOf(code).sort()).toEqual([
+      './View.vue',
+      './a.js',
+      './e.js',
+      './g.js',
+      './side.css',
+    ]);
   });
 
   it('finds a planted cycle', () => {
@@ -123,7 +142,9 @@ describe('import graph', () => {
   });
 
   it('keeps services free of the socket layer, even for types (server/ws imports services)', () => {
-    const offenders = sources(path.join(ROOT, 'server/services')).filter((f) => /from\s+['"]\.\.\/ws\//.test(readFileSync(f, 'utf8')));
+    const offenders = sources(path.join(ROOT, 'server/services')).filter((f) =>
+      /from\s+['"]\.\.\/ws\//.test(readFileSync(f, 'utf8')),
+    );
     expect(offenders.map((f) => path.relative(ROOT, f))).toEqual([]);
   });
 

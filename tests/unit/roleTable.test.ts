@@ -17,18 +17,23 @@ function files(dir: string): string[] {
 
 const names = ROLES.join('|');
 /** A role compared or listed in code: `role === 'lead'`, `role !== 'viewer'`, `hasRole(`, `roles: ['admin'`. */
-const DECISION = new RegExp(`role\\s*[!=]==?\\s*'(${names})'|'(${names})'\\s*[!=]==?\\s*\\w*role|hasRole\\(|roles:\\s*\\[\\s*'(${names})'`);
+const DECISION = new RegExp(
+  `role\\s*[!=]==?\\s*'(${names})'|'(${names})'\\s*[!=]==?\\s*\\w*role|hasRole\\(|roles:\\s*\\[\\s*'(${names})'`,
+);
 
 describe('one permission table', () => {
   it('no client code or server service decides by a role name', () => {
-    const offenders = [...files(path.join(ROOT, 'src')), ...files(path.join(ROOT, 'server/services')), ...files(path.join(ROOT, 'server/routes'))]
-      .flatMap((f) =>
-        readFileSync(f, 'utf8')
-          .split('\n')
-          .map((line, i) => [line, i] as const)
-          .filter(([line]) => DECISION.test(line))
-          .map(([line, i]) => `${path.relative(ROOT, f)}:${i + 1}: ${line.trim()}`),
-      );
+    const offenders = [
+      ...files(path.join(ROOT, 'src')),
+      ...files(path.join(ROOT, 'server/services')),
+      ...files(path.join(ROOT, 'server/routes')),
+    ].flatMap((f) =>
+      readFileSync(f, 'utf8')
+        .split('\n')
+        .map((line, i) => [line, i] as const)
+        .filter(([line]) => DECISION.test(line))
+        .map(([line, i]) => `${path.relative(ROOT, f)}:${i + 1}: ${line.trim()}`),
+    );
     expect(offenders).toEqual([]);
   });
 

@@ -14,7 +14,11 @@ function fakeServer(opts: { failFirst?: number } = {}) {
     }
     let accepted = 0;
     for (const r of readings) if (!stored.has(r.seq) && stored.set(r.seq, r)) accepted++;
-    return { accepted, duplicates: readings.length - accepted, highestSeq: Math.max(-1, ...stored.keys()) };
+    return {
+      accepted,
+      duplicates: readings.length - accepted,
+      highestSeq: Math.max(-1, ...stored.keys()),
+    };
   };
   return { stored, send };
 }
@@ -27,15 +31,24 @@ class SlowStore extends MemoryPendingStore implements PendingStore {
   }
 }
 
-const batch = (from: number, n: number) => Array.from({ length: n }, (_, i) => ({ seq: from + i, t: from + i, value: 1 }));
+const batch = (from: number, n: number) =>
+  Array.from({ length: n }, (_, i) => ({ seq: from + i, t: from + i, value: 1 }));
 
 describe('the bench uploader', () => {
   it('sends every reading once the network comes back', async () => {
     const server = fakeServer({ failFirst: 3 });
-    const u = new ReadingUploader(1, { store: new MemoryPendingStore(), send: server.send, flushMs: 1, backoffMs: [2, 8], batchSize: 7 });
+    const u = new ReadingUploader(1, {
+      store: new MemoryPendingStore(),
+      send: server.send,
+      flushMs: 1,
+      backoffMs: [2, 8],
+      batchSize: 7,
+    });
     for (let i = 0; i < 10; i++) await u.add(batch(i * 10, 10));
     await u.drained();
-    expect([...server.stored.keys()].sort((a, b) => a - b)).toEqual(Array.from({ length: 100 }, (_, i) => i));
+    expect([...server.stored.keys()].sort((a, b) => a - b)).toEqual(
+      Array.from({ length: 100 }, (_, i) => i),
+    );
     expect(u.snapshot()).toMatchObject({ pending: 0, failures: 3, sent: 100 });
   });
 
@@ -147,24 +160,39 @@ describe('the bench uploader when browser storage fails', () => {
     expect(u.snapshot()).toMatchObject({ held: 0, pending: 0 });
   });
 
-  it.each(['take', 'count', 'remove'] as const)('backs off and retries when the store fails to %s', async (op) => {
-    const store = new FailingStore();
-    const server = fakeServer();
-    const u = new ReadingUploader(1, { store, send: server.send, flushMs: 1, backoffMs: [2, 8], batchSize: 3 });
-    await u.add(batch(0, 10));
-    store.fails[op] = 2;
-    await u.drained();
-    expect(seqs(server.stored)).toEqual(range(10));
-    expect(u.snapshot()).toMatchObject({ pending: 0, held: 0 });
-    expect(u.snapshot().storeErrors).toBeGreaterThanOrEqual(1);
-    expect(await store.count(1)).toBe(0);
-  });
+  it.each(['take', 'count', 'remove'] as const)(
+    'backs off and retries when the store fails to %s',
+    async (op) => {
+      const store = new FailingStore();
+      const server = fakeServer();
+      const u = new ReadingUploader(1, {
+        store,
+        send: server.send,
+        flushMs: 1,
+        backoffMs: [2, 8],
+        batchSize: 3,
+      });
+      await u.add(batch(0, 10));
+      store.fails[op] = 2;
+      await u.drained();
+      expect(seqs(server.stored)).toEqual(range(10));
+      expect(u.snapshot()).toMatchObject({ pending: 0, held: 0 });
+      expect(u.snapshot().storeErrors).toBeGreaterThanOrEqual(1);
+      expect(await store.count(1)).toBe(0);
+    },
+  );
 
   it('sends held readings even when the store can no longer be read at all', async () => {
     const store = new FailingStore();
     store.fails = { put: Infinity, take: Infinity, remove: Infinity, count: Infinity };
     const server = fakeServer();
-    const u = new ReadingUploader(1, { store, send: server.send, flushMs: 1, backoffMs: [2, 8], batchSize: 4 });
+    const u = new ReadingUploader(1, {
+      store,
+      send: server.send,
+      flushMs: 1,
+      backoffMs: [2, 8],
+      batchSize: 4,
+    });
     await u.add(batch(0, 9));
     await u.drained();
     expect(seqs(server.stored)).toEqual(range(9));

@@ -17,7 +17,9 @@ describe('guard-banded verdict (ILAC-G8:09/2019, w = U; docs/references.md)', ()
   });
 
   it('refuses a non-positive limit', () => {
-    expect(() => guardBandVerdict(0, 0, 0)).toThrow(expect.objectContaining({ code: 'bad-argument' }));
+    expect(() => guardBandVerdict(0, 0, 0)).toThrow(
+      expect.objectContaining({ code: 'bad-argument' }),
+    );
   });
 });
 
@@ -35,14 +37,25 @@ describe('compare', () => {
     expect(r.expandedUncertainty).toBeCloseTo(2 * Math.SQRT2, 12);
     expect(r.k).toBe(2);
     // The limit now also carries its bounds (issue 8: asymmetric limits); ±1 ppm of 16 MHz is ±16 Hz.
-    expect(r.limit).toMatchObject({ quantity: 16, quantityUnit: 'Hz', given: 1, givenUnit: 'ppm', low: -16, high: 16 });
+    expect(r.limit).toMatchObject({
+      quantity: 16,
+      quantityUnit: 'Hz',
+      given: 1,
+      givenUnit: 'ppm',
+      low: -16,
+      high: 16,
+    });
     expect(r.verdict).toBe('within'); // 8 + 2.83 ≤ 16
     expect(r.significant).toBe(true); // 8 > 2.83
   });
 
   it('cancels a shared reference component (one input used twice, r = 1) and says so', () => {
     const side = { mean: 100, u: 1, uReference: 0.8 };
-    const r = compare(side, { ...side, mean: 100.5 }, { limit: 2, limitUnit: 'Hz', sameReference: true });
+    const r = compare(
+      side,
+      { ...side, mean: 100.5 },
+      { limit: 2, limitUnit: 'Hz', sameReference: true },
+    );
     expect(r.u).toBeCloseTo(Math.sqrt(2 * 0.36), 12); // √(1 − 0.64) per side
     expect(r.referenceCorrelated).toBe(true);
     expect(r.notes.join(' ')).toMatch(/cancel/);
@@ -71,7 +84,11 @@ describe('compare', () => {
   });
 
   it('honours a custom coverage factor', () => {
-    const r = compare({ mean: 0, u: 1 }, { mean: 0, u: 0 }, { limit: 5, limitUnit: 'Hz', confidenceK: 3 });
+    const r = compare(
+      { mean: 0, u: 1 },
+      { mean: 0, u: 0 },
+      { limit: 5, limitUnit: 'Hz', confidenceK: 3 },
+    );
     expect(r.expandedUncertainty).toBe(3);
   });
 
@@ -79,20 +96,38 @@ describe('compare', () => {
     ['a relative limit without a nominal', { limit: 1, limitUnit: 'ppm' as const }, 'bad-argument'],
     ['a zero limit', { limit: 0, limitUnit: 'Hz' as const }, 'bad-argument'],
   ])('refuses %s', (_, opts, code) => {
-    expect(() => compare({ mean: 1, u: 0 }, { mean: 1, u: 0 }, opts)).toThrow(expect.objectContaining({ code }));
+    expect(() => compare({ mean: 1, u: 0 }, { mean: 1, u: 0 }, opts)).toThrow(
+      expect.objectContaining({ code }),
+    );
   });
 
   it('refuses sides in different units', () => {
     expect(() =>
-      compare({ mean: 1, u: 0, unit: 'Hz' }, { mean: 1, u: 0, unit: 'mg' }, { limit: 1, limitUnit: 'Hz' }),
+      compare(
+        { mean: 1, u: 0, unit: 'Hz' },
+        { mean: 1, u: 0, unit: 'mg' },
+        { limit: 1, limitUnit: 'Hz' },
+      ),
     ).toThrow(expect.objectContaining({ code: 'mismatched' }));
   });
 });
 
 describe('compareSensor', () => {
   it('checks offset and sensitivity shifts against their limits with guard bands', () => {
-    const before = { offsetMg: 10, sensitivity: 1.002, sensitivityErrorPct: 0.2, uOffsetMg: 2, uSensitivityPct: 0.1 };
-    const after = { offsetMg: 45, sensitivity: 1.004, sensitivityErrorPct: 0.4, uOffsetMg: 2, uSensitivityPct: 0.1 };
+    const before = {
+      offsetMg: 10,
+      sensitivity: 1.002,
+      sensitivityErrorPct: 0.2,
+      uOffsetMg: 2,
+      uSensitivityPct: 0.1,
+    };
+    const after = {
+      offsetMg: 45,
+      sensitivity: 1.004,
+      sensitivityErrorPct: 0.4,
+      uOffsetMg: 2,
+      uSensitivityPct: 0.1,
+    };
     const r = compareSensor(before, after, { offsetLimitMg: 20, sensitivityLimitPct: 1 });
     expect(r.offset.delta).toBe(35);
     expect(r.offset.expanded).toBeCloseTo(2 * Math.hypot(2, 2), 12);
@@ -103,6 +138,8 @@ describe('compareSensor', () => {
 
   it('notes missing uncertainties', () => {
     const s = { offsetMg: 0, sensitivity: 1, sensitivityErrorPct: 0 };
-    expect(compareSensor(s, s, { offsetLimitMg: 20, sensitivityLimitPct: 1 }).notes).toHaveLength(2);
+    expect(compareSensor(s, s, { offsetLimitMg: 20, sensitivityLimitPct: 1 }).notes).toHaveLength(
+      2,
+    );
   });
 });

@@ -1,5 +1,9 @@
 import { describe, expect, it } from 'vitest';
-import { AMBIENT_MISMATCH_C, conditionMismatches, type CaptureConditions } from '../../../shared/analysis/conditions';
+import {
+  AMBIENT_MISMATCH_C,
+  conditionMismatches,
+  type CaptureConditions,
+} from '../../../shared/analysis/conditions';
 
 // Mismatched recording conditions between a baseline and a later capture. The rules are
 // Driftbench's own (no source): any difference of reference, gate, instrument or orientation is
@@ -21,7 +25,11 @@ describe('mismatched capture conditions', () => {
   });
 
   it('flags a referenced baseline compared with an unreferenced later capture, naming both sides', () => {
-    const [m, ...rest] = conditionMismatches(base, { ...base, referenceId: null, referenceName: null });
+    const [m, ...rest] = conditionMismatches(base, {
+      ...base,
+      referenceId: null,
+      referenceName: null,
+    });
     expect(rest).toEqual([]);
     expect(m.key).toBe('reference');
     expect(m.message).toContain('GPS 10 MHz reference');
@@ -40,8 +48,21 @@ describe('mismatched capture conditions', () => {
   });
 
   it('keeps a fixed order when several conditions differ', () => {
-    const after = { ...base, referenceId: 9, gateTime: 0.1, instrumentId: null, orientation: null, ambientC: 30 };
-    expect(conditionMismatches(base, after).map((m) => m.key)).toEqual(['reference', 'gate', 'instrument', 'orientation', 'ambient']);
+    const after = {
+      ...base,
+      referenceId: 9,
+      gateTime: 0.1,
+      instrumentId: null,
+      orientation: null,
+      ambientC: 30,
+    };
+    expect(conditionMismatches(base, after).map((m) => m.key)).toEqual([
+      'reference',
+      'gate',
+      'instrument',
+      'orientation',
+      'ambient',
+    ]);
   });
 
   it('treats gate times equal to binary round-off as the same', () => {

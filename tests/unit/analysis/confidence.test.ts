@@ -1,5 +1,12 @@
 import { describe, expect, it, test } from 'vitest';
-import { chiSquareInterval, chiSquareInv, oadevEdf, ONE_SIGMA, stabilityEdf, totdevEdf } from '../../../shared/analysis';
+import {
+  chiSquareInterval,
+  chiSquareInv,
+  oadevEdf,
+  ONE_SIGMA,
+  stabilityEdf,
+  totdevEdf,
+} from '../../../shared/analysis';
 
 describe('EDF formulas', () => {
   test.each([
@@ -62,6 +69,8 @@ describe('χ² confidence interval (SP 1065 eq 45)', () => {
   });
 
   it('refuses a confidence of 1 or more', () => {
-    expect(() => chiSquareInterval(1, 10, 1)).toThrow(expect.objectContaining({ code: 'bad-argument' }));
+    expect(() => chiSquareInterval(1, 10, 1)).toThrow(
+      expect.objectContaining({ code: 'bad-argument' }),
+    );
   });
 });

@@ -40,7 +40,11 @@ describe('decimateMinMax (min–max bucketing, common plotting practice)', () =>
   });
 
   it('refuses mismatched lengths and bad bucket counts', () => {
-    expect(() => decimateMinMax([1, 2], [1], 1)).toThrow(expect.objectContaining({ code: 'mismatched' }));
-    expect(() => decimateMinMax([1], [1], 0)).toThrow(expect.objectContaining({ code: 'bad-argument' }));
+    expect(() => decimateMinMax([1, 2], [1], 1)).toThrow(
+      expect.objectContaining({ code: 'mismatched' }),
+    );
+    expect(() => decimateMinMax([1], [1], 0)).toThrow(
+      expect.objectContaining({ code: 'bad-argument' }),
+    );
   });
 });

@@ -37,8 +37,12 @@ describe('driftFit', () => {
   });
 
   it('refuses mismatched and too-short input', () => {
-    expect(() => driftFit([1, 2, 3], [1, 2])).toThrow(expect.objectContaining({ code: 'mismatched' }));
+    expect(() => driftFit([1, 2, 3], [1, 2])).toThrow(
+      expect.objectContaining({ code: 'mismatched' }),
+    );
     expect(() => driftFit([1, 2], [1, 2])).toThrow(expect.objectContaining({ code: 'too-short' }));
-    expect(() => driftFit([1, 1, 1], [1, 2, 3])).toThrow(expect.objectContaining({ code: 'bad-argument' }));
+    expect(() => driftFit([1, 1, 1], [1, 2, 3])).toThrow(
+      expect.objectContaining({ code: 'bad-argument' }),
+    );
   });
 });

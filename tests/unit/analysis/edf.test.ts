@@ -9,7 +9,13 @@ import {
   stabilityEdf,
   type NoiseType,
 } from '../../../shared/analysis';
-import { exactEdf, exactTotdevEdf, phaseCoefficients, termCount, type ExactKind } from '../../helpers/exactEdf';
+import {
+  exactEdf,
+  exactTotdevEdf,
+  phaseCoefficients,
+  termCount,
+  type ExactKind,
+} from '../../helpers/exactEdf';
 import { gaussian } from '../../helpers/random';
 
 // Check values for the EDF come from an independent helper (tests/helpers/exactEdf.ts): the exact
@@ -19,22 +25,31 @@ import { gaussian } from '../../helpers/random';
 describe('EDF of the finite-difference estimators (Greenhall & Riley, PTTI 2003)', () => {
   const kinds: ExactKind[] = ['adev', 'oadev', 'mdev', 'hdev', 'ohdev'];
   const cases: Array<[ExactKind, 'x' | 'y', number]> = [];
-  for (const kind of kinds) for (const white of ['x', 'y'] as const) for (const m of [1, 2, 3, 4, 16, 64, 100, 256]) cases.push([kind, white, m]);
+  for (const kind of kinds)
+    for (const white of ['x', 'y'] as const)
+      for (const m of [1, 2, 3, 4, 16, 64, 100, 256]) cases.push([kind, white, m]);
 
-  test.each(cases)('%s with noise white in %s at m = %i equals the exact value (N = 1001)', (kind, white, m) => {
-    const N = 1001;
-    const terms = termCount(kind, N, m);
-    if (terms < 1) return;
-    const noise: NoiseType = white === 'x' ? 'wpm' : 'wfm';
-    const exact = exactEdf(kind, N, m, white); // independent helper, exact
-    const edf = stabilityEdf(kind, N, m, terms, noise);
-    // Exact to rounding below the Riemann grid (J ≤ 400); on the grid within 1e-4 relative.
-    expect(Math.abs(edf / exact - 1)).toBeLessThan(1e-4);
-  });
+  test.each(cases)(
+    '%s with noise white in %s at m = %i equals the exact value (N = 1001)',
+    (kind, white, m) => {
+      const N = 1001;
+      const terms = termCount(kind, N, m);
+      if (terms < 1) return;
+      const noise: NoiseType = white === 'x' ? 'wpm' : 'wfm';
+      const exact = exactEdf(kind, N, m, white); // independent helper, exact
+      const edf = stabilityEdf(kind, N, m, terms, noise);
+      // Exact to rounding below the Riemann grid (J ≤ 400); on the grid within 1e-4 relative.
+      expect(Math.abs(edf / exact - 1)).toBeLessThan(1e-4);
+    },
+  );
 
   it('no longer overstates MDEV for white PM (the old effective-length rule gave 1.7×, 25×, 66×)', () => {
     // exact values from the helper, N = 1001 (1.71×, 25.4×, 66.2× were the old code's ratios)
-    for (const [m, exact] of [[4, exactEdf('mdev', 1001, 4, 'x')], [64, exactEdf('mdev', 1001, 64, 'x')], [256, exactEdf('mdev', 1001, 256, 'x')]]) {
+    for (const [m, exact] of [
+      [4, exactEdf('mdev', 1001, 4, 'x')],
+      [64, exactEdf('mdev', 1001, 64, 'x')],
+      [256, exactEdf('mdev', 1001, 256, 'x')],
+    ]) {
       const edf = stabilityEdf('mdev', 1001, m, termCount('mdev', 1001, m), 'wpm');
       expect(edf / exact).toBeGreaterThan(0.9999);
       expect(edf / exact).toBeLessThan(1.0001);
@@ -42,30 +57,40 @@ describe('EDF of the finite-difference estimators (Greenhall & Riley, PTTI 2003)
   });
 
   it('TDEV has the EDF of MDEV (a fixed multiple of it)', () => {
-    expect(stabilityEdf('tdev', 1001, 16, 954, 'wpm')).toBe(stabilityEdf('mdev', 1001, 16, 954, 'wpm'));
+    expect(stabilityEdf('tdev', 1001, 16, 954, 'wpm')).toBe(
+      stabilityEdf('mdev', 1001, 16, 954, 'wpm'),
+    );
   });
 
-  test.each(['wpm', 'wfm', 'ffm', 'rwfm'] as const)('agrees with SP 1065 Table 5 (OADEV, %s) within 12 %', (noise) => {
-    // SP 1065 Table 5 gives approximate formulas; the general algorithm refines them.
-    for (const m of [2, 4, 16, 64]) {
-      const table = oadevEdf(1025, m, noise);
-      const edf = stabilityEdf('oadev', 1025, m, 1025 - 2 * m, noise);
-      expect(Math.abs(edf / table - 1)).toBeLessThan(0.12);
-    }
-  });
+  test.each(['wpm', 'wfm', 'ffm', 'rwfm'] as const)(
+    'agrees with SP 1065 Table 5 (OADEV, %s) within 12 %',
+    (noise) => {
+      // SP 1065 Table 5 gives approximate formulas; the general algorithm refines them.
+      for (const m of [2, 4, 16, 64]) {
+        const table = oadevEdf(1025, m, noise);
+        const edf = stabilityEdf('oadev', 1025, m, 1025 - 2 * m, noise);
+        expect(Math.abs(edf / table - 1)).toBeLessThan(0.12);
+      }
+    },
+  );
 
   it('is continuous where the algorithm switches to its Riemann grid and to the continuous average', () => {
     for (const noise of ['fpm', 'wfm', 'ffm', 'rwfm'] as const) {
       for (const kind of ['oadev', 'mdev', 'ohdev'] as const) {
         const at = (m: number) => stabilityEdf(kind, 100_001, m, 1000, noise) * m; // ~ flat in m·EDF
-        for (const m of [64, 65, 133, 134, 100, 101]) expect(Math.abs(at(m + 1) / at(m) - 1)).toBeLessThan(0.03);
+        for (const m of [64, 65, 133, 134, 100, 101])
+          expect(Math.abs(at(m + 1) / at(m) - 1)).toBeLessThan(0.03);
       }
     }
   });
 
   it('refuses a noise the difference order cannot handle', () => {
-    expect(() => greenhallEdf({ ...DIFFERENCE_ESTIMATOR.oadev, alpha: -3, m: 1, nPhase: 100 })).toThrow(RangeError);
-    expect(greenhallEdf({ ...DIFFERENCE_ESTIMATOR.ohdev, alpha: -3, m: 4, nPhase: 100 })).toBeGreaterThan(1);
+    expect(() =>
+      greenhallEdf({ ...DIFFERENCE_ESTIMATOR.oadev, alpha: -3, m: 1, nPhase: 100 }),
+    ).toThrow(RangeError);
+    expect(
+      greenhallEdf({ ...DIFFERENCE_ESTIMATOR.ohdev, alpha: -3, m: 4, nPhase: 100 }),
+    ).toBeGreaterThan(1);
   });
 });
 
@@ -81,10 +106,13 @@ describe('EDF of TOTDEV (Driftbench rule, checked against the exact quadratic fo
     expect(Math.abs(stabilityEdf('totdev', 129, m, 127, 'wfm') / exact - 1)).toBeLessThan(0.03);
   });
 
-  test.each([2, 4, 8, 16, 32, 64])('white PM at m = %i never exceeds exact by more than 5 % (N = 129)', (m) => {
-    const exact = exactTotdevEdf(129, m, 'x');
-    expect(stabilityEdf('totdev', 129, m, 127, 'wpm') / exact).toBeLessThan(1.05);
-  });
+  test.each([2, 4, 8, 16, 32, 64])(
+    'white PM at m = %i never exceeds exact by more than 5 % (N = 129)',
+    (m) => {
+      const exact = exactTotdevEdf(129, m, 'x');
+      expect(stabilityEdf('totdev', 129, m, 127, 'wpm') / exact).toBeLessThan(1.05);
+    },
+  );
 });
 
 describe('χ² intervals from the EDF', () => {

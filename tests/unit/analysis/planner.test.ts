@@ -1,27 +1,48 @@
 import { describe, expect, it } from 'vitest';
-import { DecisionHold, fitNoiseModel, liveDecision, modelDev, planCapture, plannedU, stability, octaveMs, typicalModel } from '../../../shared/analysis/index';
+import {
+  DecisionHold,
+  fitNoiseModel,
+  liveDecision,
+  modelDev,
+  planCapture,
+  plannedU,
+  stability,
+  octaveMs,
+  typicalModel,
+} from '../../../shared/analysis/index';
 import { FrequencyNoise, createRng } from '../../../simulators/noise';
 import { gaussian, whiteFm } from '../../helpers/random';
 
 /** OADEV curve of a fractional-frequency series with τ0 = 1 s. */
 function oadev(y: Float64Array) {
-  return stability('oadev', y, 1, octaveMs(y.length, 'oadev')).points.map((p) => ({ tau: p.tau, dev: p.dev, edf: p.edf }));
+  return stability('oadev', y, 1, octaveMs(y.length, 'oadev')).points.map((p) => ({
+    tau: p.tau,
+    dev: p.dev,
+    edf: p.edf,
+  }));
 }
 
 describe('fitting the white-FM-plus-floor model', () => {
   it('recovers a and the floor exactly from a curve built from the model', () => {
     // σ² = a/τ + b² with a = 1e-18, b = 1e-11 (common practice, no source: the model's own definition).
-    const points = [1, 2, 4, 8, 16, 64, 256, 1024, 4096].map((tau) => ({ tau, dev: Math.sqrt(1e-18 / tau + 1e-22) }));
+    const points = [1, 2, 4, 8, 16, 64, 256, 1024, 4096].map((tau) => ({
+      tau,
+      dev: Math.sqrt(1e-18 / tau + 1e-22),
+    }));
     const m = fitNoiseModel(points);
     expect(m.a).toBeCloseTo(1e-18, 28);
     expect(m.floor / 1e-11).toBeCloseTo(1, 9);
   });
 
   it('keeps both terms non-negative: a flat curve is all floor, a pure 1/√τ curve has no floor', () => {
-    const flat = fitNoiseModel([1, 10, 100].map((tau, i) => ({ tau, dev: 1e-10 * (1 + 0.01 * i) })));
+    const flat = fitNoiseModel(
+      [1, 10, 100].map((tau, i) => ({ tau, dev: 1e-10 * (1 + 0.01 * i) })),
+    );
     expect(flat.a).toBeGreaterThanOrEqual(0);
     expect(flat.floor).toBeGreaterThan(0.9e-10);
-    const white = fitNoiseModel([1, 10, 100, 1000].map((tau) => ({ tau, dev: 1e-9 / Math.sqrt(tau) })));
+    const white = fitNoiseModel(
+      [1, 10, 100, 1000].map((tau) => ({ tau, dev: 1e-9 / Math.sqrt(tau) })),
+    );
     expect(white.floor).toBeLessThan(1e-13);
     expect(white.a).toBeCloseTo(1e-18, 27);
   });
@@ -67,11 +88,18 @@ describe('predictions against captures simulated with known noise', () => {
     expect(model.floor / 5e-11).toBeGreaterThan(0.6);
     expect(model.floor / 5e-11).toBeLessThan(1.5);
     // With no baseline the floor counts twice: U(∞) = 2·√2·b (k = 2).
-    const plan = planCapture({ model, limit: 1e-9, shift: 1e-9 - 2 * Math.SQRT2 * model.floor * 0.9, tau0: 1 });
+    const plan = planCapture({
+      model,
+      limit: 1e-9,
+      shift: 1e-9 - 2 * Math.SQRT2 * model.floor * 0.9,
+      tau0: 1,
+    });
     // A margin above U(∞) is decidable, and the plan's length brings U down to it.
     const ok = planCapture({ model, limit: 1e-9, shift: 1e-9 - 4 * model.floor, tau0: 1 });
     expect(ok.verdict).toBe('within');
-    expect(plannedU({ model, tau0: 1 }, ok.shortest!)).toBeLessThanOrEqual(4 * model.floor * (1 + 1e-9));
+    expect(plannedU({ model, tau0: 1 }, ok.shortest!)).toBeLessThanOrEqual(
+      4 * model.floor * (1 + 1e-9),
+    );
     expect(plan.Ufloor).toBeCloseTo(2 * Math.SQRT2 * model.floor, 20);
     expect(plan.verdict).toBe('undecidable');
     expect(plan.shortest).toBeNull();
@@ -90,24 +118,42 @@ describe('the plan', () => {
     expect(plan.shortest).toBeCloseTo(expected, 6);
     expect(plannedU({ model, tau0: 1 }, plan.shortest!)).toBeCloseTo(0.5e-9, 18);
     // U falls with length along the whole curve.
-    for (let i = 1; i < plan.curve.length; i++) expect(plan.curve[i].U).toBeLessThan(plan.curve[i - 1].U);
+    for (let i = 1; i < plan.curve.length; i++)
+      expect(plan.curve[i].U).toBeLessThan(plan.curve[i - 1].U);
   });
 
   it('uses a measured baseline once instead of planning it, and the fixed inputs in quadrature', () => {
-    const plan = planCapture({ model, limit: 1e-9, shift: 2e-9, tau0: 1, baselineU: 1e-10, fixedU: 5e-11 });
+    const plan = planCapture({
+      model,
+      limit: 1e-9,
+      shift: 2e-9,
+      tau0: 1,
+      baselineU: 1e-10,
+      fixedU: 5e-11,
+    });
     expect(plan.verdict).toBe('exceeds');
     // U(T)² = 4·(a/T + b² + uB² + uF²) = (1e-9)² → T = 4a / (1e-18 − 4·(1e-22 + 1e-20 + 2.5e-21)) (hand-derived).
     expect(plan.shortest).toBeCloseTo((4 * 1e-18) / (1e-18 - 4 * (1e-22 + 1e-20 + 2.5e-21)), 6);
   });
 
   it('never plans fewer than two readings, and says when the shift sits on the limit', () => {
-    expect(planCapture({ model: { a: 0, floor: 0, source: 'measured' }, limit: 1, shift: 0, tau0: 10 }).shortest).toBe(20);
+    expect(
+      planCapture({ model: { a: 0, floor: 0, source: 'measured' }, limit: 1, shift: 0, tau0: 10 })
+        .shortest,
+    ).toBe(20);
     expect(planCapture({ model, limit: 1e-9, shift: 1e-9, tau0: 1 }).verdict).toBe('undecidable');
     expect(() => planCapture({ model, limit: 0, shift: 0, tau0: 1 })).toThrow(/limit/);
   });
 
   it('has a typical model for every DUT kind and a generic one for unknown kinds', () => {
-    for (const kind of ['crystal', 'oscillator', 'tcxo', 'tuning-fork', 'accelerometer', 'capacitor']) {
+    for (const kind of [
+      'crystal',
+      'oscillator',
+      'tcxo',
+      'tuning-fork',
+      'accelerometer',
+      'capacitor',
+    ]) {
       const m = typicalModel(kind);
       expect(m.source).toBe('typical');
       expect(m.a).toBeGreaterThan(0);
@@ -120,7 +166,15 @@ describe('the live decision', () => {
     // mean 10, sd 1, n 100 → u_mean = 0.1; u = √(0.1² + 0.05²) = 0.1118; U = 0.2236 (hand-computed).
     // ν_eff = 0.0125²/(0.01²/99) = 155 → t = 1.98, Driftbench's floor k = 2 (coverageFactor).
     // Decided only because the caller says the budget is complete (review8 F6).
-    const d = liveDecision({ mean: 10, sd: 1, n: 100, baselineMean: 9.5, baselineU: 0.05, limit: 1, complete: true });
+    const d = liveDecision({
+      mean: 10,
+      sd: 1,
+      n: 100,
+      baselineMean: 9.5,
+      baselineU: 0.05,
+      limit: 1,
+      complete: true,
+    });
     expect(d.U).toBeCloseTo(0.22361, 4);
     expect(d.Umean).toBeCloseTo(0.2, 10);
     expect(d.margin).toBeCloseTo(0.5, 12);
@@ -128,9 +182,15 @@ describe('the live decision', () => {
   });
 
   it('is decided exceeds once |Δ| − U > L, and undecided in between', () => {
-    expect(liveDecision({ mean: 12, sd: 1, n: 100, baselineMean: 10, baselineU: 0.05, limit: 1 })).toMatchObject({ verdict: 'exceeds', decided: true });
-    expect(liveDecision({ mean: 10.9, sd: 1, n: 100, baselineMean: 10, baselineU: 0.05, limit: 1 })).toMatchObject({ verdict: 'inconclusive', decided: false });
-    expect(liveDecision({ mean: 10, sd: 1, n: 1, baselineMean: 10, baselineU: 0.05, limit: 1 }).decided).toBe(false);
+    expect(
+      liveDecision({ mean: 12, sd: 1, n: 100, baselineMean: 10, baselineU: 0.05, limit: 1 }),
+    ).toMatchObject({ verdict: 'exceeds', decided: true });
+    expect(
+      liveDecision({ mean: 10.9, sd: 1, n: 100, baselineMean: 10, baselineU: 0.05, limit: 1 }),
+    ).toMatchObject({ verdict: 'inconclusive', decided: false });
+    expect(
+      liveDecision({ mean: 10, sd: 1, n: 1, baselineMean: 10, baselineU: 0.05, limit: 1 }).decided,
+    ).toBe(false);
   });
 
   it('on simulated captures with a true shift, the settled verdict (held for a quarter more readings) is the final one', () => {
@@ -151,7 +211,15 @@ describe('the live decision', () => {
         if (n < 2) continue;
         const mean = sum / n;
         const sd = Math.sqrt((sum2 - n * mean * mean) / (n - 1));
-        const d = liveDecision({ mean, sd, n, baselineMean: 0, baselineU: 0.02, limit: 1, complete: true });
+        const d = liveDecision({
+          mean,
+          sd,
+          n,
+          baselineMean: 0,
+          baselineU: 0.02,
+          limit: 1,
+          complete: true,
+        });
         if (settled === null && hold.update(n, d)) settled = d.verdict;
         last = d.verdict;
       }

@@ -78,7 +78,9 @@ describe('accelerometer axes', () => {
   it('refuses out-of-range words and bytes', () => {
     const f = { bits: 12, leftJustified: true, mgPerDigit: 1 } as const;
     expect(() => decodeAxis(0x10000, f)).toThrow(expect.objectContaining({ code: 'bad-argument' }));
-    expect(() => decodeAxis([256, 0], f)).toThrow(expect.objectContaining({ code: 'bad-argument' }));
+    expect(() => decodeAxis([256, 0], f)).toThrow(
+      expect.objectContaining({ code: 'bad-argument' }),
+    );
   });
 
   test.each([

@@ -42,7 +42,9 @@ describe('stability estimators on the NIST nine-point set', () => {
   ] as const)('%s at m = %i matches the published %f', (kind, m, expected) => {
     const [point] = stability(kind, NINE, 1, [m]).points;
     // published to 7 significant figures: agree to within half a unit of the last digit
-    expect(Math.abs(point.dev - expected)).toBeLessThan(0.5 * 10 ** (Math.floor(Math.log10(expected)) - 6));
+    expect(Math.abs(point.dev - expected)).toBeLessThan(
+      0.5 * 10 ** (Math.floor(Math.log10(expected)) - 6),
+    );
   });
 
   it('gives the same values from the phase form of the data', () => {
@@ -143,7 +145,15 @@ describe('unsupported and invalid input', () => {
   });
 
   it('returns only the points from the per-kind functions', () => {
-    const fns: Record<StabilityKind, typeof adev> = { adev, oadev, mdev, tdev, hdev, ohdev, totdev };
+    const fns: Record<StabilityKind, typeof adev> = {
+      adev,
+      oadev,
+      mdev,
+      tdev,
+      hdev,
+      ohdev,
+      totdev,
+    };
     for (const kind of STABILITY_KINDS) {
       expect(fns[kind](NINE, 1, [1, 2, 99]).map((p) => p.m)).toEqual([1, 2]);
     }

@@ -1,13 +1,24 @@
 import { describe, expect, it, test } from 'vitest';
-import { adev, barnesAllanB2, barnesB1, expectedSlope, oadev, totdev, totdevBias } from '../../../shared/analysis';
+import {
+  adev,
+  barnesAllanB2,
+  barnesB1,
+  expectedSlope,
+  oadev,
+  totdev,
+  totdevBias,
+} from '../../../shared/analysis';
 import { frequencyCoefficients, phaseCoefficients } from '../../helpers/exactEdf';
 import { gaussian, randomWalkFm, whiteFm } from '../../helpers/random';
 
 describe('dead-time bias, Barnes & Allan B2 (NIST TN 1318)', () => {
-  test.each([1.5, 2, 5, 10])('is 1 for white FM at r = %f (dead time does not bias white FM)', (r) => {
-    // TN 1318: B2(r, −1) = 1 (from memory; follows from independent readings)
-    expect(barnesAllanB2(r, -1)).toBeCloseTo(1, 12);
-  });
+  test.each([1.5, 2, 5, 10])(
+    'is 1 for white FM at r = %f (dead time does not bias white FM)',
+    (r) => {
+      // TN 1318: B2(r, −1) = 1 (from memory; follows from independent readings)
+      expect(barnesAllanB2(r, -1)).toBeCloseTo(1, 12);
+    },
+  );
   test.each([1.5, 2, 5])('is (3r − 1)/2 for random-walk FM at r = %f', (r) => {
     // TN 1318: B2(r, 1) = (3r − 1)/2 (from memory)
     expect(barnesAllanB2(r, 1)).toBeCloseTo((3 * r - 1) / 2, 12);
@@ -20,7 +31,8 @@ describe('dead-time bias, Barnes & Allan B2 (NIST TN 1318)', () => {
   it('is continuous in μ at flicker FM', () => {
     // the log form at μ = 0 is the limit of the power form (computed)
     const r = 3;
-    const near = (mu: number) => ((r + 1) ** (mu + 2) + (r - 1) ** (mu + 2) - 2 * r ** (mu + 2) - 2) / (4 * (2 ** mu - 1));
+    const near = (mu: number) =>
+      ((r + 1) ** (mu + 2) + (r - 1) ** (mu + 2) - 2 * r ** (mu + 2) - 2) / (4 * (2 ** mu - 1));
     expect(barnesAllanB2(r, 0)).toBeCloseTo(near(1e-6), 4);
   });
 

@@ -29,7 +29,9 @@ describe('white FM of known σ (seeded)', () => {
 
   it('puts the true value inside most one-sigma χ² intervals', () => {
     const points = oadev(y, 1, MS, { noise: 'wfm' });
-    const inside = points.filter((p) => p.lo <= SIGMA / Math.sqrt(p.m) && SIGMA / Math.sqrt(p.m) <= p.hi);
+    const inside = points.filter(
+      (p) => p.lo <= SIGMA / Math.sqrt(p.m) && SIGMA / Math.sqrt(p.m) <= p.hi,
+    );
     // 68 % nominal coverage over 12 points: at least 5 inside is a ≥ 99 % event (binomial; computed)
     expect(inside.length).toBeGreaterThanOrEqual(5);
   });

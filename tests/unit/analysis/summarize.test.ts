@@ -79,7 +79,12 @@ describe('median', () => {
   it('agrees with a sort on larger shuffled input', () => {
     const values = Array.from({ length: 1001 }, (_, i) => (i * 7919) % 1001);
     expect(median(values)).toBe(500);
-    expect(median(values.slice(1))).toBe([...values.slice(1)].sort((a, b) => a - b).slice(499, 501).reduce((a, b) => a + b) / 2);
+    expect(median(values.slice(1))).toBe(
+      [...values.slice(1)]
+        .sort((a, b) => a - b)
+        .slice(499, 501)
+        .reduce((a, b) => a + b) / 2,
+    );
   });
 });
 

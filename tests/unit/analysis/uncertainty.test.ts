@@ -27,7 +27,9 @@ describe('combineUncertainty', () => {
 
   it('refuses an empty list and negative uncertainties', () => {
     expect(() => combineUncertainty([])).toThrow(expect.objectContaining({ code: 'empty' }));
-    expect(() => combineUncertainty([{ value: -1 }])).toThrow(expect.objectContaining({ code: 'bad-argument' }));
+    expect(() => combineUncertainty([{ value: -1 }])).toThrow(
+      expect.objectContaining({ code: 'bad-argument' }),
+    );
   });
 });
 
@@ -77,7 +79,13 @@ describe('uncertaintyBudget', () => {
   });
 
   it('uses the Allan deviation at the span for flicker FM and says so', () => {
-    const b = uncertaintyBudget({ ...base, noise: 'ffm', adevAtSpan: 1e-10, adevEdf: 3, span: 100 });
+    const b = uncertaintyBudget({
+      ...base,
+      noise: 'ffm',
+      adevAtSpan: 1e-10,
+      adevEdf: 3,
+      span: 100,
+    });
     const a = b.components.find((c) => c.type === 'A')!;
     expect(a.value).toBeCloseTo(1.6e-3, 12);
     expect(a.dof).toBe(3);
@@ -91,7 +99,11 @@ describe('uncertaintyBudget', () => {
   });
 
   it('treats an uncorrected temperature offset as a rectangular bound', () => {
-    const b = uncertaintyBudget({ ...base, noise: 'wfm', temperature: { coeffPerC: 1e-8, deltaC: 3 } });
+    const b = uncertaintyBudget({
+      ...base,
+      noise: 'wfm',
+      temperature: { coeffPerC: 1e-8, deltaC: 3 },
+    });
     const t = b.components.find((c) => c.symbol === 'u_ΔT')!;
     expect(t.value).toBeCloseTo((3 * 1e-8 * 16e6) / Math.sqrt(3), 12);
     expect(t.distribution).toBe('rectangular');

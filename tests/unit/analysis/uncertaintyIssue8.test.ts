@@ -39,7 +39,9 @@ describe('coverage factor from ν_eff (JCGM 100:2008 G.4–G.6)', () => {
 
   it('says what it covers', () => {
     expect(coverageFactor(8).text).toBe('k = 2.31 from ν_eff = 8, about 95 % coverage');
-    expect(coverageFactor(Infinity).text).toMatch(/^k = 2\.00 with ν_eff = ∞ .*at least 95 % coverage/);
+    expect(coverageFactor(Infinity).text).toMatch(
+      /^k = 2\.00 with ν_eff = ∞ .*at least 95 % coverage/,
+    );
   });
 
   it('widens a capture budget whose Type A term rests on two degrees of freedom', () => {
@@ -67,7 +69,16 @@ describe('coverage factor from ν_eff (JCGM 100:2008 G.4–G.6)', () => {
     const side = (mean: number) => ({
       mean,
       u: 1,
-      components: [{ name: 'Type A', value: 1, contribution: 1, dof: 4, type: 'A' as const, distribution: 't' as const }],
+      components: [
+        {
+          name: 'Type A',
+          value: 1,
+          contribution: 1,
+          dof: 4,
+          type: 'A' as const,
+          distribution: 't' as const,
+        },
+      ],
     });
     const r = compare(side(0), side(0.5), { limit: 10, limitUnit: 'Hz' });
     expect(r.effectiveDof).toBeCloseTo(8, 12);
@@ -93,8 +104,14 @@ describe('correlated inputs (JCGM 100:2008 §5.2, eq. 16)', () => {
       [0.86, -0.65, 1],
     ];
     const inputs = (c: number[]) => c.map((s, i) => ({ value: u[i], sensitivity: s }));
-    const uR = combineCorrelated(inputs([Math.cos(phi) / I, (-V * Math.cos(phi)) / I ** 2, (-V * Math.sin(phi)) / I]), r);
-    const uX = combineCorrelated(inputs([Math.sin(phi) / I, (-V * Math.sin(phi)) / I ** 2, (V * Math.cos(phi)) / I]), r);
+    const uR = combineCorrelated(
+      inputs([Math.cos(phi) / I, (-V * Math.cos(phi)) / I ** 2, (-V * Math.sin(phi)) / I]),
+      r,
+    );
+    const uX = combineCorrelated(
+      inputs([Math.sin(phi) / I, (-V * Math.sin(phi)) / I ** 2, (V * Math.cos(phi)) / I]),
+      r,
+    );
     const uZ = combineCorrelated(inputs([1 / I, -V / I ** 2, 0]), r);
     expect(Math.abs(uR - 0.071)).toBeLessThan(0.0015); // GUM H.2: 0.071 (the rounded inputs give 0.0700)
     expect(Math.abs(uX - 0.295)).toBeLessThan(0.001); // GUM H.2: 0.295
@@ -106,7 +123,18 @@ describe('correlated inputs (JCGM 100:2008 §5.2, eq. 16)', () => {
 
   it('cancels one input used twice with opposite signs', () => {
     // r = 1, c = ±1, equal u: u_c = |u − u| = 0 (eq. 16, computed by hand)
-    expect(combineCorrelated([{ value: 3, sensitivity: 1 }, { value: 3, sensitivity: -1 }], [[1, 1], [1, 1]])).toBe(0);
+    expect(
+      combineCorrelated(
+        [
+          { value: 3, sensitivity: 1 },
+          { value: 3, sensitivity: -1 },
+        ],
+        [
+          [1, 1],
+          [1, 1],
+        ],
+      ),
+    ).toBe(0);
   });
 });
 
@@ -139,7 +167,12 @@ describe('tuning-fork normalisation with shared T0 and B', () => {
     const f0 = 32768;
     const fAt = (T: number, ppm: number) => f0 * (1 + (ppm - 0.034 * (T - 25) ** 2) * 1e-6);
     const d = tuningForkDelta(20, 30, FORK, THERMO);
-    const side = (T: number, ppm: number, shift: number) => ({ mean: fAt(T, ppm) / (1 + shift * 1e-6), u: 1e-6 * f0 * 0.05, nominal: f0, unit: 'Hz' });
+    const side = (T: number, ppm: number, shift: number) => ({
+      mean: fAt(T, ppm) / (1 + shift * 1e-6),
+      u: 1e-6 * f0 * 0.05,
+      nominal: f0,
+      unit: 'Hz',
+    });
     const r = compare(side(20, 0, d.shiftBeforePpm), side(30, 0.1, d.shiftAfterPpm), {
       limit: 2,
       limitUnit: 'ppm',
@@ -181,16 +214,47 @@ describe('reference ageing between captures', () => {
       mean,
       u: 0.01,
       components: [
-        { name: 'Type A', value: 0.001, contribution: 0.001, dof: Infinity, type: 'A' as const, distribution: 'normal' as const },
-        { name: 'Reference offset', value: 0.1, contribution: 0.1, dof: Infinity, type: 'B' as const, distribution: 'normal' as const, key: 'reference-offset' },
+        {
+          name: 'Type A',
+          value: 0.001,
+          contribution: 0.001,
+          dof: Infinity,
+          type: 'A' as const,
+          distribution: 'normal' as const,
+        },
+        {
+          name: 'Reference offset',
+          value: 0.1,
+          contribution: 0.1,
+          dof: Infinity,
+          type: 'B' as const,
+          distribution: 'normal' as const,
+          key: 'reference-offset',
+        },
       ],
       nominal: 10e6,
       unit: 'Hz',
     });
     // 20 days apart at 1e-10/day: 2e-9 × 10 MHz = 0.02 Hz (by hand)
-    const ageing = { name: 'Reference change between captures', value: 20, unit: 'd', sensitivity: 1e-10 * 10e6, distribution: 'normal' as const, note: '' };
-    const without = compare(side(10e6), side(10e6), { limit: 1, limitUnit: 'ppm', sameReference: true });
-    const withAgeing = compare(side(10e6), side(10e6), { limit: 1, limitUnit: 'ppm', sameReference: true, deltaTerms: [ageing] });
+    const ageing = {
+      name: 'Reference change between captures',
+      value: 20,
+      unit: 'd',
+      sensitivity: 1e-10 * 10e6,
+      distribution: 'normal' as const,
+      note: '',
+    };
+    const without = compare(side(10e6), side(10e6), {
+      limit: 1,
+      limitUnit: 'ppm',
+      sameReference: true,
+    });
+    const withAgeing = compare(side(10e6), side(10e6), {
+      limit: 1,
+      limitUnit: 'ppm',
+      sameReference: true,
+      deltaTerms: [ageing],
+    });
     expect(without.u).toBeCloseTo(Math.SQRT2 * 0.001, 12); // the shared offset cancels (eq. 16)
     expect(withAgeing.u).toBeCloseTo(Math.sqrt(2 * 0.001 ** 2 + 0.02 ** 2), 12);
   });
@@ -204,7 +268,9 @@ describe('counter type and resolution', () => {
     ['reciprocal', 1, 32768, 1e-9, 32768e-9], // 1 ns in 1 s: 1e-9 relative
     ['time-interval', 10, 10e6, 20e-12, 10e6 * 2e-12], // 20 ps over τ = 10 s: 2e-12 relative
   ] as const)('%s counter, %f s gate at %f Hz', (kind, gateTime, f, res, hz) => {
-    const r = counterResolution(kind === 'gated' ? { kind, gateTime, f, counts: res } : { kind, gateTime, f, tRes: res });
+    const r = counterResolution(
+      kind === 'gated' ? { kind, gateTime, f, counts: res } : { kind, gateTime, f, tRes: res },
+    );
     expect(r.absoluteHz).toBeCloseTo(hz, 12);
   });
 
@@ -236,7 +302,9 @@ describe('counter type and resolution', () => {
     });
     expect(b.combined).toBeCloseTo(1e-6 / Math.sqrt(3), 15);
     expect(b.components.every((line) => line.unit === 'MHz')).toBe(true);
-    expect(b.components.find((line) => line.key === 'resolution')?.note).toContain('MHz per reading');
+    expect(b.components.find((line) => line.key === 'resolution')?.note).toContain(
+      'MHz per reading',
+    );
   });
 });
 
@@ -303,17 +371,29 @@ describe('asymmetric and one-sided limits (ILAC-G8:09/2019, guard band w = U on 
 
   it('compares against an asymmetric limit in ppm', () => {
     // −1/+2 ppm at 10 MHz is −10/+20 Hz; Δ = 15 Hz, U = 2·√2 Hz (k floor) → within (17.8 ≤ 20)
-    const r = compare({ mean: 10e6, u: 1 }, { mean: 10e6 + 15, u: 1 }, { limitLow: -1, limitHigh: 2, limitUnit: 'ppm', nominal: 10e6 });
+    const r = compare(
+      { mean: 10e6, u: 1 },
+      { mean: 10e6 + 15, u: 1 },
+      { limitLow: -1, limitHigh: 2, limitUnit: 'ppm', nominal: 10e6 },
+    );
     expect(r.limit.low).toBeCloseTo(-10, 9);
     expect(r.limit.high).toBeCloseTo(20, 9);
     expect(r.verdict).toBe('within');
-    const s = compare({ mean: 10e6, u: 1 }, { mean: 10e6 - 15, u: 1 }, { limitLow: -1, limitHigh: 2, limitUnit: 'ppm', nominal: 10e6 });
+    const s = compare(
+      { mean: 10e6, u: 1 },
+      { mean: 10e6 - 15, u: 1 },
+      { limitLow: -1, limitHigh: 2, limitUnit: 'ppm', nominal: 10e6 },
+    );
     expect(s.verdict).toBe('exceeds'); // −15 + 2.83 < −10
   });
 
   it('refuses crossed bounds', () => {
-    expect(() => guardBandVerdictInterval(0, 0, { low: 2, high: 1 })).toThrow(expect.objectContaining({ code: 'bad-argument' }));
-    expect(() => guardBandVerdictInterval(0, 0, { low: null, high: null })).toThrow(expect.objectContaining({ code: 'bad-argument' }));
+    expect(() => guardBandVerdictInterval(0, 0, { low: 2, high: 1 })).toThrow(
+      expect.objectContaining({ code: 'bad-argument' }),
+    );
+    expect(() => guardBandVerdictInterval(0, 0, { low: null, high: null })).toThrow(
+      expect.objectContaining({ code: 'bad-argument' }),
+    );
   });
 });
 
@@ -324,7 +404,7 @@ describe('tilt from two axes with local gravity', () => {
     const g = 9.7803253359;
     const oneG = (1000 * g) / 9.80665;
     const along = oneG * 0.5;
-    const normal = oneG * Math.sqrt(3) / 2;
+    const normal = (oneG * Math.sqrt(3)) / 2;
     const r = tiltFromAxes(along, normal, g);
     expect(r.tiltDeg).toBeCloseTo(30, 12);
     expect(r.magnitudeErrorPct).toBeCloseTo(0, 10);

@@ -17,7 +17,18 @@ const request = {
   timeFactor: 10,
   target: { kind: 'none' },
   identity: { study: 'Wash study', checkpoint: 'Baseline', dut: 'Y1' },
-  dut: { id: 3, studyId: 1, label: 'Y1', kind: 'crystal', nominal: 16e6, unit: 'Hz', limit: 1, limitUnit: 'ppm', position: null, serial: null },
+  dut: {
+    id: 3,
+    studyId: 1,
+    label: 'Y1',
+    kind: 'crystal',
+    nominal: 16e6,
+    unit: 'Hz',
+    limit: 1,
+    limitUnit: 'ppm',
+    position: null,
+    serial: null,
+  },
   checkpointOrder: 0,
   guided: false,
 } as unknown as BenchStart;
@@ -57,7 +68,10 @@ describe('the bench capture store', () => {
   });
 
   it('offers a remembered capture after a reload, and lets it go on request', async () => {
-    localStorage.setItem(ACTIVE_CAPTURE_KEY, JSON.stringify({ captureId: 7, request, savedAt: '2026-12-02T06:00:00Z' }));
+    localStorage.setItem(
+      ACTIVE_CAPTURE_KEY,
+      JSON.stringify({ captureId: 7, request, savedAt: '2026-12-02T06:00:00Z' }),
+    );
     const status = useBenchStatusStore();
     expect(status.resumableId).toBe(7); // the rail knows before the bench page loads
     const bench = useBenchCaptureStore();

@@ -59,12 +59,24 @@ describe('a replay', () => {
   afterEach(() => vi.useRealTimers());
 
   // 1000 readings, one per 0.1 s (t 0 … 99.9 s), served in seq pages.
-  const readings: ReadingOut[] = Array.from({ length: 1000 }, (_, i) => ({ seq: i, t: i / 10, value: 1e7 + (i % 7) }));
-  const fetchPage = vi.fn(async (from: number, to: number) => readings.filter((r) => r.seq >= from && r.seq <= to));
+  const readings: ReadingOut[] = Array.from({ length: 1000 }, (_, i) => ({
+    seq: i,
+    t: i / 10,
+    value: 1e7 + (i % 7),
+  }));
+  const fetchPage = vi.fn(async (from: number, to: number) =>
+    readings.filter((r) => r.seq >= from && r.seq <= to),
+  );
 
   async function started() {
     const series = createLiveSeries({ nominal: () => 1e7, tau0: () => 0.1, frequency: () => true });
-    const replay = createReplay({ series, fetchPage, pageSize: 100, now: () => Date.now(), tickMs: 50 });
+    const replay = createReplay({
+      series,
+      fetchPage,
+      pageSize: 100,
+      now: () => Date.now(),
+      tickMs: 50,
+    });
     await replay.init(999);
     return { series, replay };
   }

@@ -24,7 +24,14 @@ describe('the bench store', () => {
 
     setActivePinia(createPinia()); // a fresh app reads localStorage again
     const again = useBenchStore();
-    expect(again.choices).toMatchObject({ studyId: 3, dutId: 9, gateTime: 0.1, acceleration: 100, mode: 'query', notes: 'fixture B' });
+    expect(again.choices).toMatchObject({
+      studyId: 3,
+      dutId: 9,
+      gateTime: 0.1,
+      acceleration: 100,
+      mode: 'query',
+      notes: 'fixture B',
+    });
     expect(again.site).toEqual({ latitudeDeg: 51.5, heightM: 300 });
     expect(JSON.parse(localStorage.getItem(BENCH_KEY) ?? '{}').choices.dutId).toBe(9);
   });
@@ -89,6 +96,10 @@ describe('planning a capture', () => {
     expect(p.parseRule).toBe('hex-spi');
     expect(p.intervalMs).toBe(10);
     expect(p.simulator?.path).toBe('/sim/spi-bridge');
-    expect(p.simulator?.params).toMatchObject({ preset: 'accel', orientation: 'edge', gravity: '9.807600' });
+    expect(p.simulator?.params).toMatchObject({
+      preset: 'accel',
+      orientation: 'edge',
+      gravity: '9.807600',
+    });
   });
 });

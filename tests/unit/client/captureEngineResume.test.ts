@@ -18,11 +18,24 @@ function scriptedLink(lines: string[]): SerialLink {
       c.close();
     },
   });
-  return { kind: 'simulator', readable, writable: new WritableStream<Uint8Array>(), open: async () => {}, close: async () => {}, getInfo: () => ({}), ondisconnect: null };
+  return {
+    kind: 'simulator',
+    readable,
+    writable: new WritableStream<Uint8Array>(),
+    open: async () => {},
+    close: async () => {},
+    getInfo: () => ({}),
+    ondisconnect: null,
+  };
 }
 
 const series = (): LiveSeries =>
-  ({ push: vi.fn(), clear: vi.fn(), refreshStats: vi.fn(), ring: { flagged: 0 } }) as unknown as LiveSeries;
+  ({
+    push: vi.fn(),
+    clear: vi.fn(),
+    refreshStats: vi.fn(),
+    ring: { flagged: 0 },
+  }) as unknown as LiveSeries;
 
 describe('resuming a capture in the engine', () => {
   afterEach(() => vi.unstubAllGlobals());
@@ -32,17 +45,29 @@ describe('resuming a capture in the engine', () => {
     const capture = { id: 9, state: 'open', highestSeq: 4 } as unknown as Capture;
     const sent: Array<{ seq: number; t: number }> = [];
     const fetchMock = vi.fn(async (url: string, init?: RequestInit) => {
-      const json = (body: unknown) => new Response(JSON.stringify(body), { status: 200, headers: { 'Content-Type': 'application/json' } });
+      const json = (body: unknown) =>
+        new Response(JSON.stringify(body), {
+          status: 200,
+          headers: { 'Content-Type': 'application/json' },
+        });
       if (url.endsWith('/readings')) {
         const batch = JSON.parse(String(init?.body)).readings as Array<{ seq: number; t: number }>;
         sent.push(...batch);
-        return json({ accepted: batch.length, duplicates: 0, highestSeq: Math.max(...batch.map((r) => r.seq)) });
+        return json({
+          accepted: batch.length,
+          duplicates: 0,
+          highestSeq: Math.max(...batch.map((r) => r.seq)),
+        });
       }
       if (url.endsWith('/finish')) return json({ ...capture, state: 'finished', readingCount: 8 });
       throw new Error(`unexpected ${url}`);
     });
     vi.stubGlobal('fetch', fetchMock);
-    const live = createLiveCapture({ series: series(), store: new MemoryPendingStore(), flushMs: 5 });
+    const live = createLiveCapture({
+      series: series(),
+      store: new MemoryPendingStore(),
+      flushMs: 5,
+    });
     await live.start({
       create: { dutId: 1, checkpointId: 2, quantity: 'frequency', unit: 'Hz', gateTime: 1 },
       profile: linkPreset('talk-counter'),

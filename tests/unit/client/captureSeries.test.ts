@@ -1,5 +1,10 @@
 import { describe, expect, it } from 'vitest';
-import { chartColumns, maxPointsFor, seqRangeFor, toWindow } from '../../../src/composables/useCaptureSeries';
+import {
+  chartColumns,
+  maxPointsFor,
+  seqRangeFor,
+  toWindow,
+} from '../../../src/composables/useCaptureSeries';
 
 const NOMINAL = 16_000_000;
 

@@ -15,7 +15,13 @@ function expectedX(v: number, reach: number): number {
 function geometry(wrapper: ReturnType<typeof mount>) {
   const svg = wrapper.find('svg');
   const n = (name: string) => Number(svg.attributes(`data-${name}`));
-  return { bandFrom: n('band-from'), bandTo: n('band-to'), tick: n('tick'), whiskerFrom: n('whisker-from'), whiskerTo: n('whisker-to') };
+  return {
+    bandFrom: n('band-from'),
+    bandTo: n('band-to'),
+    tick: n('tick'),
+    whiskerFrom: n('whisker-from'),
+    whiskerTo: n('whisker-to'),
+  };
 }
 
 describe('the limit-band verdict glyph', () => {
@@ -64,21 +70,30 @@ describe('the limit-band verdict glyph', () => {
     const hatch = wrapper.find('.verdict-glyph__hatch');
     expect(hatch.exists()).toBe(true);
     expect(Number(hatch.attributes('x'))).toBeCloseTo(g.whiskerFrom, 1);
-    expect(Number(hatch.attributes('x')) + Number(hatch.attributes('width'))).toBeCloseTo(g.whiskerTo, 1);
+    expect(Number(hatch.attributes('x')) + Number(hatch.attributes('width'))).toBeCloseTo(
+      g.whiskerTo,
+      1,
+    );
     expect(hatch.attributes('fill')).toMatch(/^url\(#verdict-hatch-/);
     expect(wrapper.find('pattern').exists()).toBe(true);
     expect(wrapper.find('.verdict-glyph__word').text()).toBe('inconclusive');
   });
 
   it('follows the server verdict and names it for screen readers', () => {
-    const wrapper = mount(VerdictGlyph, { props: { delta: 0.1, expanded: 0.1, limit: 1, verdict: 'inconclusive', unit: 'ppm' } });
+    const wrapper = mount(VerdictGlyph, {
+      props: { delta: 0.1, expanded: 0.1, limit: 1, verdict: 'inconclusive', unit: 'ppm' },
+    });
     expect(wrapper.find('.verdict-glyph__word').text()).toBe('inconclusive');
-    expect(wrapper.find('svg').attributes('aria-label')).toMatch(/against a limit of ±1 ppm: inconclusive$/);
+    expect(wrapper.find('svg').attributes('aria-label')).toMatch(
+      /against a limit of ±1 ppm: inconclusive$/,
+    );
   });
 
   it('draws an asymmetric limit −1/+2 with the band off-centre and decides each side (issue 8)', () => {
     // Δ = 1.5, U = 0.4 against [−1, +2]: 1.9 ≤ 2 and 1.1 ≥ −1 → within (ILAC-G8, w = U per side).
-    const wrapper = mount(VerdictGlyph, { props: { delta: 1.5, expanded: 0.4, limitLow: -1, limitHigh: 2 } });
+    const wrapper = mount(VerdictGlyph, {
+      props: { delta: 1.5, expanded: 0.4, limitLow: -1, limitHigh: 2 },
+    });
     const g = geometry(wrapper);
     expect(g.bandFrom).toBeCloseTo(expectedX(-1, 2), 1); // reach = max(|−1|, 2, 1.9) = 2
     expect(g.bandTo).toBeCloseTo(expectedX(2, 2), 1);
@@ -88,12 +103,18 @@ describe('the limit-band verdict glyph', () => {
 
   it('leaves the open side of a one-sided limit open and notches the side crossed', () => {
     // "At most +3": Δ = 2.5, U = 1 straddles +3 → inconclusive; Δ = 4.5 → exceeds.
-    const open = mount(VerdictGlyph, { props: { delta: 2.5, expanded: 1, limitLow: null, limitHigh: 3 } });
+    const open = mount(VerdictGlyph, {
+      props: { delta: 2.5, expanded: 1, limitLow: null, limitHigh: 3 },
+    });
     expect(geometry(open).bandFrom).toBe(PAD);
     expect(open.attributes('data-verdict')).toBe('inconclusive');
-    const over = mount(VerdictGlyph, { props: { delta: 4.5, expanded: 1, limitLow: null, limitHigh: 3, k: 2.31 } });
+    const over = mount(VerdictGlyph, {
+      props: { delta: 4.5, expanded: 1, limitLow: null, limitHigh: 3, k: 2.31 },
+    });
     expect(over.attributes('data-verdict')).toBe('exceeds');
     expect(over.find('.verdict-glyph__notch').exists()).toBe(true);
-    expect(over.find('svg').attributes('aria-label')).toContain('(k = 2.31) against a limit of at most 3');
+    expect(over.find('svg').attributes('aria-label')).toContain(
+      '(k = 2.31) against a limit of at most 3',
+    );
   });
 });

@@ -23,4 +23,9 @@ export const technician = {
   role: 'technician' as const,
 };
 
-export const admin = { id: 1, email: 'admin@kestrelbay.example', name: 'Ada Marsh', role: 'admin' as const };
+export const admin = {
+  id: 1,
+  email: 'admin@kestrelbay.example',
+  name: 'Ada Marsh',
+  role: 'admin' as const,
+};

@@ -44,22 +44,33 @@ describe('http wrapper', () => {
   });
 
   it('reports a lost session on 401 token-expired when a token was sent', async () => {
-    queueFetch({ status: 401, body: { error: { code: 'token-expired', message: 'Your session has expired' } } });
-    await expect(http.get('/api/dashboard')).rejects.toMatchObject({ status: 401, code: 'token-expired' });
+    queueFetch({
+      status: 401,
+      body: { error: { code: 'token-expired', message: 'Your session has expired' } },
+    });
+    await expect(http.get('/api/dashboard')).rejects.toMatchObject({
+      status: 401,
+      code: 'token-expired',
+    });
     expect(onSessionLost).toHaveBeenCalledTimes(1);
     expect(onSessionLost.mock.calls[0][0]).toMatchObject({ code: 'token-expired' });
   });
 
   it('does not report a lost session when no token was sent', async () => {
     token = null;
-    queueFetch({ status: 401, body: { error: { code: 'unauthorized', message: 'Sign in first' } } });
+    queueFetch({
+      status: 401,
+      body: { error: { code: 'unauthorized', message: 'Sign in first' } },
+    });
     await expect(http.get('/api/dashboard')).rejects.toMatchObject({ code: 'unauthorized' });
     expect(onSessionLost).not.toHaveBeenCalled();
   });
 
   it('does not treat wrong credentials as a lost session', async () => {
     queueFetch({ status: 401, body: { error: { code: 'invalid-credentials', message: 'Wrong' } } });
-    await expect(http.post('/api/auth/login', {})).rejects.toMatchObject({ code: 'invalid-credentials' });
+    await expect(http.post('/api/auth/login', {})).rejects.toMatchObject({
+      code: 'invalid-credentials',
+    });
     expect(onSessionLost).not.toHaveBeenCalled();
   });
 
@@ -71,7 +82,10 @@ describe('http wrapper', () => {
   });
 
   it('gives a readable message for a non-JSON server failure', async () => {
-    vi.stubGlobal('fetch', vi.fn(async () => new Response('<html>Bad gateway</html>', { status: 502 })));
+    vi.stubGlobal(
+      'fetch',
+      vi.fn(async () => new Response('<html>Bad gateway</html>', { status: 502 })),
+    );
     const error = await http.get('/api/dashboard').catch((e: unknown) => e);
     expect(error).toMatchObject({ status: 502, code: 'server' });
     expect((error as ApiError).message).not.toMatch(/html/i);

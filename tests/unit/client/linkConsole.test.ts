@@ -23,7 +23,10 @@ describe('the raw view of link bytes', () => {
   });
 
   it('marks bytes outside printable ASCII with a dot and tabs with their symbol', () => {
-    expect(renderBytes(Uint8Array.of(0x41, 0xff, 0x09, 0x00))).toEqual({ hex: '41 FF 09 00', text: 'A\u00B7\u2409\u2400' });
+    expect(renderBytes(Uint8Array.of(0x41, 0xff, 0x09, 0x00))).toEqual({
+      hex: '41 FF 09 00',
+      text: 'A\u00B7\u2409\u2400',
+    });
   });
 
   it('splits the stream after LF, after a lone CR, and keeps CR LF together across chunks', () => {
@@ -69,7 +72,7 @@ describe('the bounded console buffers', () => {
   });
 });
 
-describe('SPI transfers read by the link profile\'s value field', () => {
+describe("SPI transfers read by the link profile's value field", () => {
   // Exchanges from simulators/README.md (the accel preset lying flat, noise off).
   const field = { offset: 1, bigEndian: true, scale: 0.0625 };
 
@@ -80,11 +83,13 @@ describe('SPI transfers read by the link profile\'s value field', () => {
   });
 
   it('follows the byte order and sign the field names', () => {
-    expect(decodeValueField(Uint8Array.of(0x01, 0xd5, 0xff), { ...field, bigEndian: false })?.digits).toBe(-43); // 0xFFD5
+    expect(
+      decodeValueField(Uint8Array.of(0x01, 0xd5, 0xff), { ...field, bigEndian: false })?.digits,
+    ).toBe(-43); // 0xFFD5
     expect(decodeValueField(Uint8Array.of(0x01, 0xff, 0xd5), field)?.digits).toBe(-43);
   });
 
-  it('reads nothing without a field or past the reply\'s end', () => {
+  it("reads nothing without a field or past the reply's end", () => {
     expect(decodeValueField(Uint8Array.of(0x01, 0x3f, 0x22), undefined)).toBeNull();
     expect(decodeValueField(Uint8Array.of(0x01, 0x3f), field)).toBeNull();
   });
@@ -101,8 +106,14 @@ describe('typed hex and reading values', () => {
   });
 
   it('explains input that is not hex', () => {
-    expect(parseHexInput('')).toEqual({ ok: false, message: 'enter at least one byte, e.g. 03 00 00' });
-    expect(parseHexInput('A0 G1')).toMatchObject({ ok: false, message: expect.stringContaining('byte 2') });
+    expect(parseHexInput('')).toEqual({
+      ok: false,
+      message: 'enter at least one byte, e.g. 03 00 00',
+    });
+    expect(parseHexInput('A0 G1')).toMatchObject({
+      ok: false,
+      message: expect.stringContaining('byte 2'),
+    });
   });
 
   it.each([
@@ -116,12 +127,27 @@ describe('typed hex and reading values', () => {
 });
 
 describe('the simulator a link-page setting opens', () => {
-  const base = { source: 'simulator' as const, counterPreset: 'osc-25m', checkpoint: 2, accel: 10, gate: 1, garble: 0.01, orientation: 'edge' };
+  const base = {
+    source: 'simulator' as const,
+    counterPreset: 'osc-25m',
+    checkpoint: 2,
+    accel: 10,
+    gate: 1,
+    garble: 0.01,
+    orientation: 'edge',
+  };
 
   it('asks the counter to talk or to answer queries, with the scenario parameters', () => {
     expect(simulatorTarget({ ...base, device: 'counter-talk' })).toEqual({
       path: '/sim/counter',
-      params: { mode: 'talk', preset: 'osc-25m', checkpoint: '2', accel: '10', gate: '1', garble: '0.01' },
+      params: {
+        mode: 'talk',
+        preset: 'osc-25m',
+        checkpoint: '2',
+        accel: '10',
+        gate: '1',
+        garble: '0.01',
+      },
     });
     expect(simulatorTarget({ ...base, device: 'counter-query' }).params.mode).toBe('query');
     expect(presetForDevice('counter-query')).toBe('scpi-counter');
@@ -137,8 +163,13 @@ describe('the simulator a link-page setting opens', () => {
 });
 
 describe('the resolution a reading is shown at', () => {
-  it('shows an SPI value at its scale\'s resolution and a counter value at 13 digits', () => {
-    expect(readingDecimals({ parseRule: 'hex-spi', hexSpi: { offset: 1, bigEndian: false, scale: 0.0625 } })).toBe(4);
+  it("shows an SPI value at its scale's resolution and a counter value at 13 digits", () => {
+    expect(
+      readingDecimals({
+        parseRule: 'hex-spi',
+        hexSpi: { offset: 1, bigEndian: false, scale: 0.0625 },
+      }),
+    ).toBe(4);
     expect(readingDecimals({ parseRule: 'number-with-unit' })).toBeUndefined();
     expect(formatReadingValue(1010.6875, 4)).toBe('1\u2009010.6875');
   });

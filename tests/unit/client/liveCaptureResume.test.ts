@@ -4,13 +4,21 @@ import { mount } from '@vue/test-utils';
 import { ApiError, configureHttp, http } from '../../../src/api/http';
 import { refusedReadingIndex } from '../../../src/api/captures';
 import { MemoryPendingStore, type UploaderState } from '../../../src/api/uploader';
-import { createLiveCapture, type LiveCaptureState, type ResumeOutcome } from '../../../src/composables/useLiveCapture';
+import {
+  createLiveCapture,
+  type LiveCaptureState,
+  type ResumeOutcome,
+} from '../../../src/composables/useLiveCapture';
 import type { LiveSeries } from '../../../src/composables/useLiveSeries';
 import BenchFooter from '../../../src/components/BenchFooter.vue';
 import { queueFetch } from './helpers';
 
-const readings = (n: number) => Array.from({ length: n }, (_, i) => ({ seq: i, t: i, value: 16e6 }));
-const refusal = (status: number, code: string, details?: unknown) => ({ status, body: { error: { code, message: `refused (${code})`, details } } });
+const readings = (n: number) =>
+  Array.from({ length: n }, (_, i) => ({ seq: i, t: i, value: 16e6 }));
+const refusal = (status: number, code: string, details?: unknown) => ({
+  status,
+  body: { error: { code, message: `refused (${code})`, details } },
+});
 
 /** Resumes the backlog of capture 5 (n readings) against the queued answers; resolves with how it ended. */
 async function resumeWith(n: number, ...answers: Parameters<typeof queueFetch>) {
@@ -30,7 +38,9 @@ describe('resuming readings left by an earlier session', () => {
   configureHttp({ getToken: () => 'jwt', onSessionLost: () => {} });
 
   it('sends them and says so', async () => {
-    const { outcome, store } = await resumeWith(3, { body: { accepted: 3, duplicates: 0, highestSeq: 2 } });
+    const { outcome, store } = await resumeWith(3, {
+      body: { accepted: 3, duplicates: 0, highestSeq: 2 },
+    });
     expect(outcome.kind).toBe('sent');
     expect(await store.count(5)).toBe(0);
   });
@@ -65,13 +75,18 @@ describe('resuming readings left by an earlier session', () => {
     expect(outcome.kind).toBe('sent');
     expect(outcome.message).toContain('1 reading the server named as malformed was dropped');
     expect(up.refused).toBe(1);
-    const second = JSON.parse(String(fetchMock.mock.calls[1][1]?.body)) as { readings: Array<{ seq: number }> };
+    const second = JSON.parse(String(fetchMock.mock.calls[1][1]?.body)) as {
+      readings: Array<{ seq: number }>;
+    };
     expect(second.readings.map((r) => r.seq)).toEqual([0, 1, 3]);
     expect(await store.count(5)).toBe(0);
   });
 
   it('keeps them on a 400 that names no reading', async () => {
-    const { outcome, store } = await resumeWith(3, refusal(400, 'validation', { index: -1, reason: 'readings must be an array' }));
+    const { outcome, store } = await resumeWith(
+      3,
+      refusal(400, 'validation', { index: -1, reason: 'readings must be an array' }),
+    );
     expect(outcome.kind).toBe('kept');
     expect(await store.count(5)).toBe(3);
   });
@@ -81,19 +96,32 @@ describe('the API error of a refused reading', () => {
   afterEach(() => vi.unstubAllGlobals());
 
   it('exposes object details as context and names the bad index', async () => {
-    queueFetch(refusal(400, 'validation', { index: 7, reason: 'seq must be a whole number from 0' }));
-    const err = await http.post('/api/captures/1/readings', { readings: [] }).catch((e: unknown) => e);
+    queueFetch(
+      refusal(400, 'validation', { index: 7, reason: 'seq must be a whole number from 0' }),
+    );
+    const err = await http
+      .post('/api/captures/1/readings', { readings: [] })
+      .catch((e: unknown) => e);
     expect(err).toBeInstanceOf(ApiError);
-    expect((err as ApiError).context).toEqual({ index: 7, reason: 'seq must be a whole number from 0' });
+    expect((err as ApiError).context).toEqual({
+      index: 7,
+      reason: 'seq must be a whole number from 0',
+    });
     expect(refusedReadingIndex(err)).toBe(7);
     expect(refusedReadingIndex(new ApiError(403, 'forbidden', 'no'))).toBeNull();
   });
 
   it('turns a timed-out request into a retryable failure', async () => {
-    vi.stubGlobal('fetch', vi.fn(async () => {
-      throw new DOMException('The operation timed out.', 'TimeoutError');
-    }));
-    await expect(http.post('/api/captures/1/readings', {})).rejects.toMatchObject({ status: 0, code: 'timeout' });
+    vi.stubGlobal(
+      'fetch',
+      vi.fn(async () => {
+        throw new DOMException('The operation timed out.', 'TimeoutError');
+      }),
+    );
+    await expect(http.post('/api/captures/1/readings', {})).rejects.toMatchObject({
+      status: 0,
+      code: 'timeout',
+    });
   });
 });
 
@@ -104,7 +132,18 @@ describe('the bench footer', () => {
     error: null,
     linkLost: null,
     taken: 10,
-    upload: { pending: 10, sent: 0, duplicates: 0, failures: 0, offline: false, storeErrors: 0, held: 0, refused: 0, lost: 0, ...upload },
+    upload: {
+      pending: 10,
+      sent: 0,
+      duplicates: 0,
+      failures: 0,
+      offline: false,
+      storeErrors: 0,
+      held: 0,
+      refused: 0,
+      lost: 0,
+      ...upload,
+    },
     elapsed: 1,
     garbled: 0,
     timeouts: 0,
@@ -114,12 +153,22 @@ describe('the bench footer', () => {
   });
 
   it('warns when readings are held in memory because browser storage failed', () => {
-    const w = mount(BenchFooter, { props: { state: state({ held: 1200, storeErrors: 1, storeError: 'QuotaExceededError' }), target: { kind: 'none' }, timeFactor: 1 } });
-    expect(w.get('[data-testid="storage-warning"]').text()).toMatch(/browser storage failed .* held in memory; do not close this tab/i);
+    const w = mount(BenchFooter, {
+      props: {
+        state: state({ held: 1200, storeErrors: 1, storeError: 'QuotaExceededError' }),
+        target: { kind: 'none' },
+        timeFactor: 1,
+      },
+    });
+    expect(w.get('[data-testid="storage-warning"]').text()).toMatch(
+      /browser storage failed .* held in memory; do not close this tab/i,
+    );
   });
 
   it('says nothing about storage when it works', () => {
-    const w = mount(BenchFooter, { props: { state: state({}), target: { kind: 'none' }, timeFactor: 1 } });
+    const w = mount(BenchFooter, {
+      props: { state: state({}), target: { kind: 'none' }, timeFactor: 1 },
+    });
     expect(w.find('[data-testid="storage-warning"]').exists()).toBe(false);
   });
 });

@@ -12,13 +12,22 @@ describe('the replay count', () => {
 
   // 600 readings at 1 s; every 50th is a garbled line stored flagged and without a value.
   const readings: ReadingOut[] = Array.from({ length: 600 }, (_, i) =>
-    i % 50 === 7 ? ({ seq: i, t: i, value: null as unknown as number, flags: 1 }) : { seq: i, t: i, value: 1e7 + (i % 5) },
+    i % 50 === 7
+      ? { seq: i, t: i, value: null as unknown as number, flags: 1 }
+      : { seq: i, t: i, value: 1e7 + (i % 5) },
   );
-  const fetchPage = async (from: number, to: number) => readings.filter((r) => r.seq >= from && r.seq <= to);
+  const fetchPage = async (from: number, to: number) =>
+    readings.filter((r) => r.seq >= from && r.seq <= to);
 
   function started() {
     const series = createLiveSeries({ nominal: () => 1e7, tau0: () => 1, frequency: () => true });
-    const replay = createReplay({ series, fetchPage, pageSize: 100, now: () => Date.now(), tickMs: 50 });
+    const replay = createReplay({
+      series,
+      fetchPage,
+      pageSize: 100,
+      now: () => Date.now(),
+      tickMs: 50,
+    });
     return { series, replay };
   }
 
@@ -46,8 +55,13 @@ describe('the replay count', () => {
     series.dispose();
   });
 
-  it('keeps the statistics\' count level with the readings between the once-a-second refreshes', async () => {
-    const series = createLiveSeries({ nominal: () => 1e7, tau0: () => 1, frequency: () => true, statsEveryMs: 1000 });
+  it("keeps the statistics' count level with the readings between the once-a-second refreshes", async () => {
+    const series = createLiveSeries({
+      nominal: () => 1e7,
+      tau0: () => 1,
+      frequency: () => true,
+      statsEveryMs: 1000,
+    });
     for (let i = 0; i < 21; i++) series.push(i, 1e7 + i);
     await vi.advanceTimersByTimeAsync(1000);
     expect(series.stats.value?.n).toBe(21);

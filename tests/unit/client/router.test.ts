@@ -82,9 +82,37 @@ describe('router guard', () => {
 
   it('shows Users and Outbox to admins only and Bench to everyone who captures', () => {
     const router = createAppRouter(createMemoryHistory());
-    expect(navItemsFor(router, 'admin').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab', 'Users', 'Outbox', 'Help']);
-    expect(navItemsFor(router, 'technician').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Bench', 'Captures', 'Compare', 'Links', 'Lab', 'Help']);
-    expect(navItemsFor(router, 'viewer').map((i) => i.label)).toEqual(['Dashboard', 'Studies', 'Captures', 'Compare', 'Links', 'Lab', 'Help']);
+    expect(navItemsFor(router, 'admin').map((i) => i.label)).toEqual([
+      'Dashboard',
+      'Studies',
+      'Bench',
+      'Captures',
+      'Compare',
+      'Links',
+      'Lab',
+      'Users',
+      'Outbox',
+      'Help',
+    ]);
+    expect(navItemsFor(router, 'technician').map((i) => i.label)).toEqual([
+      'Dashboard',
+      'Studies',
+      'Bench',
+      'Captures',
+      'Compare',
+      'Links',
+      'Lab',
+      'Help',
+    ]);
+    expect(navItemsFor(router, 'viewer').map((i) => i.label)).toEqual([
+      'Dashboard',
+      'Studies',
+      'Captures',
+      'Compare',
+      'Links',
+      'Lab',
+      'Help',
+    ]);
   });
 
   it('gates pages by the permission table the server enforces', () => {
@@ -95,17 +123,24 @@ describe('router guard', () => {
       for (const role of ROLES) {
         const shown = navItemsFor(router, role).some((i) => i.to.name === r.name);
         const onRail = navItemsFor(router, 'admin').some((i) => i.to.name === r.name);
-        if (onRail) expect(shown, `${String(r.name)} for ${role}`).toBe(roleCan(role, r.meta.permission!));
+        if (onRail)
+          expect(shown, `${String(r.name)} for ${role}`).toBe(roleCan(role, r.meta.permission!));
       }
     }
   });
 
   it('lets a lead open the bench and keeps a viewer out, as the server table says', async () => {
-    localStorage.setItem(SESSION_KEY, JSON.stringify({ token: 't', user: { ...technician, role: 'viewer' } }));
+    localStorage.setItem(
+      SESSION_KEY,
+      JSON.stringify({ token: 't', user: { ...technician, role: 'viewer' } }),
+    );
     queueFetch({ body: { user: { ...technician, role: 'viewer' } } });
     expect((await routerAt('/bench')).currentRoute.value.name).toBe('forbidden');
     setActivePinia(createPinia());
-    localStorage.setItem(SESSION_KEY, JSON.stringify({ token: 't', user: { ...technician, role: 'lead' } }));
+    localStorage.setItem(
+      SESSION_KEY,
+      JSON.stringify({ token: 't', user: { ...technician, role: 'lead' } }),
+    );
     queueFetch({ body: { user: { ...technician, role: 'lead' } } });
     expect((await routerAt('/bench')).currentRoute.value.name).toBe('bench');
   });

@@ -28,11 +28,18 @@ describe('session store', () => {
     expect(session.user).toEqual(technician);
     expect(session.isAuthenticated).toBe(true);
     // the stored session also says whether an admin reset asks for a new password first
-    expect(JSON.parse(localStorage.getItem(SESSION_KEY) ?? '{}')).toEqual({ token: 'jwt-1', user: technician, mustChangePassword: false });
+    expect(JSON.parse(localStorage.getItem(SESSION_KEY) ?? '{}')).toEqual({
+      token: 'jwt-1',
+      user: technician,
+      mustChangePassword: false,
+    });
   });
 
   it('sends the stored token on later requests', async () => {
-    const fetchMock = queueFetch({ body: { token: 'jwt-2', user: technician } }, { body: { user: technician } });
+    const fetchMock = queueFetch(
+      { body: { token: 'jwt-2', user: technician } },
+      { body: { user: technician } },
+    );
     const session = useSessionStore();
     await session.signIn('technician@kestrelbay.example', 'driftbench-demo');
     session.verified = false;
@@ -57,7 +64,10 @@ describe('session store', () => {
   });
 
   it('keeps nothing when the credentials are refused', async () => {
-    queueFetch({ status: 401, body: { error: { code: 'invalid-credentials', message: 'E-mail or password is wrong' } } });
+    queueFetch({
+      status: 401,
+      body: { error: { code: 'invalid-credentials', message: 'E-mail or password is wrong' } },
+    });
     const session = useSessionStore();
 
     await expect(session.signIn('technician@kestrelbay.example', 'nope')).rejects.toMatchObject({
@@ -81,7 +91,10 @@ describe('session store', () => {
 
   it('ends a stored session that the server calls expired', async () => {
     localStorage.setItem(SESSION_KEY, JSON.stringify({ token: 'old', user: technician }));
-    queueFetch({ status: 401, body: { error: { code: 'token-expired', message: 'Session expired' } } });
+    queueFetch({
+      status: 401,
+      body: { error: { code: 'token-expired', message: 'Session expired' } },
+    });
     const session = useSessionStore();
 
     expect(await session.restore()).toBe('expired');

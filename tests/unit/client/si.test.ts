@@ -98,7 +98,9 @@ describe('scientific form for deviations', () => {
 describe('log-axis ticks', () => {
   it('puts nine ticks in each decade, labels 1, 2 and 5 and grids the decades', () => {
     const ticks = logTicks(1, 100);
-    expect(ticks.map((t) => t.value)).toEqual([1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 20, 30, 40, 50, 60, 70, 80, 90, 100]);
+    expect(ticks.map((t) => t.value)).toEqual([
+      1, 2, 3, 4, 5, 6, 7, 8, 9, 10, 20, 30, 40, 50, 60, 70, 80, 90, 100,
+    ]);
     expect(ticks.filter((t) => t.labelled).map((t) => t.value)).toEqual([1, 2, 5, 10, 20, 50, 100]);
     expect(ticks.filter((t) => t.decade).map((t) => t.value)).toEqual([1, 10, 100]);
   });
@@ -111,7 +113,9 @@ describe('log-axis ticks', () => {
   });
 
   it('keeps only ticks inside a range that starts and ends mid-decade', () => {
-    expect(logTicks(0.3, 4).map((t) => t.value)).toEqual([0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1, 2, 3, 4]);
+    expect(logTicks(0.3, 4).map((t) => t.value)).toEqual([
+      0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1, 2, 3, 4,
+    ]);
   });
 
   it('returns no ticks for a range that is not positive', () => {

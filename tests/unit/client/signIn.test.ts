@@ -13,7 +13,10 @@ async function mountAt(path: string) {
   const router = createAppRouter(createMemoryHistory());
   await router.push(path);
   await router.isReady();
-  const wrapper = mount(SignInView, { global: { plugins: [pinia, router] }, attachTo: document.body });
+  const wrapper = mount(SignInView, {
+    global: { plugins: [pinia, router] },
+    attachTo: document.body,
+  });
   return { wrapper, router };
 }
 
@@ -30,7 +33,10 @@ describe('sign-in page', () => {
   });
 
   it('shows the rate-limit answer inline', async () => {
-    queueFetch({ status: 429, body: { error: { code: 'rate-limited', message: 'Too many requests' } } });
+    queueFetch({
+      status: 429,
+      body: { error: { code: 'rate-limited', message: 'Too many requests' } },
+    });
     const { wrapper } = await mountAt('/sign-in');
     await wrapper.find('input[name="email"]').setValue('technician@kestrelbay.example');
     await wrapper.find('input[name="password"]').setValue('wrong-password');

@@ -1,18 +1,41 @@
 import { describe, expect, it } from 'vitest';
-import { csvField, devAt, parseSelection, selectionQuery, stabilitySvg, toCsv } from '../../../src/utils/workbench';
+import {
+  csvField,
+  devAt,
+  parseSelection,
+  selectionQuery,
+  stabilitySvg,
+  toCsv,
+} from '../../../src/utils/workbench';
 import { curveScale, formatDuration, limitInCurveUnits } from '../../../src/utils/plan';
 import { guessDelimiter } from '../../../shared/protocol/importCsv';
 
 describe('the workbench selection in the URL', () => {
   it('round-trips through the query string', () => {
-    const s = parseSelection({ ids: '5,3,9', kind: 'mdev', tau: '16', before: '3', after: '9', study: '2' });
+    const s = parseSelection({
+      ids: '5,3,9',
+      kind: 'mdev',
+      tau: '16',
+      before: '3',
+      after: '9',
+      study: '2',
+    });
     expect(s).toEqual({ ids: [5, 3, 9], kind: 'mdev', tau: 16, before: 3, after: 9, study: 2 });
     expect(parseSelection(selectionQuery(s))).toEqual(s);
   });
 
   it('drops what is malformed instead of failing: bad ids, unknown kinds, a pair outside the selection', () => {
-    expect(parseSelection({ ids: '1,x,-2,1,4', kind: 'nope', before: '7', after: '4' })).toEqual({ ids: [1, 4], kind: 'oadev', tau: null, before: null, after: 4, study: null });
-    expect(parseSelection({ ids: Array.from({ length: 20 }, (_, i) => i + 1).join(',') }).ids).toHaveLength(12);
+    expect(parseSelection({ ids: '1,x,-2,1,4', kind: 'nope', before: '7', after: '4' })).toEqual({
+      ids: [1, 4],
+      kind: 'oadev',
+      tau: null,
+      before: null,
+      after: 4,
+      study: null,
+    });
+    expect(
+      parseSelection({ ids: Array.from({ length: 20 }, (_, i) => i + 1).join(',') }).ids,
+    ).toHaveLength(12);
   });
 });
 
@@ -43,8 +66,23 @@ describe('CSV and SVG exports', () => {
   it('draws one polyline and one legend entry per curve, and escapes labels', () => {
     const svg = stabilitySvg(
       [
-        { label: 'Y1 <a>', colour: '#123456', points: [{ tau: 1, dev: 1e-9, lo: 8e-10, hi: 1.2e-9 }, { tau: 10, dev: 3e-10, lo: 2e-10, hi: 4e-10 }] },
-        { label: 'Y3', colour: '#654321', dashed: true, points: [{ tau: 1, dev: 2e-9 }, { tau: 10, dev: 6e-10 }] },
+        {
+          label: 'Y1 <a>',
+          colour: '#123456',
+          points: [
+            { tau: 1, dev: 1e-9, lo: 8e-10, hi: 1.2e-9 },
+            { tau: 10, dev: 3e-10, lo: 2e-10, hi: 4e-10 },
+          ],
+        },
+        {
+          label: 'Y3',
+          colour: '#654321',
+          dashed: true,
+          points: [
+            { tau: 1, dev: 2e-9 },
+            { tau: 10, dev: 6e-10 },
+          ],
+        },
       ],
       'OADEV',
     );
@@ -63,7 +101,10 @@ describe('planner units', () => {
     // 32 Hz on 16 MHz is 2 ppm (hand-computed).
     expect(limitInCurveUnits({ ...crystal, limit: 32, limitUnit: 'Hz' })).toBeCloseTo(2e-6, 18);
     expect(limitInCurveUnits({ nominal: 1000, unit: 'mg', limit: 5, limitUnit: 'mg' })).toBe(5);
-    expect(limitInCurveUnits({ ...crystal, limit: null, limitLow: -3, limitHigh: 1 })).toBeCloseTo(1e-6, 18);
+    expect(limitInCurveUnits({ ...crystal, limit: null, limitLow: -3, limitHigh: 1 })).toBeCloseTo(
+      1e-6,
+      18,
+    );
     expect(limitInCurveUnits({ ...crystal, limit: null })).toBeNull();
     expect(curveScale(crystal)).toBe(1 / 16e6);
   });

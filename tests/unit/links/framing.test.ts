@@ -1,6 +1,11 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { createLineFramer, FrameFlag, type Frame, type Terminator } from '../../../shared/protocol/framing';
+import {
+  createLineFramer,
+  FrameFlag,
+  type Frame,
+  type Terminator,
+} from '../../../shared/protocol/framing';
 
 const enc = new TextEncoder();
 const bytes = (s: string) => enc.encode(s);
@@ -26,7 +31,8 @@ function split(data: Uint8Array, cuts: number[]): Uint8Array[] {
   return out;
 }
 
-const simplify = (fs: Frame[]) => fs.map((f) => ({ text: f.text, bytes: Array.from(f.bytes), flags: f.flags }));
+const simplify = (fs: Frame[]) =>
+  fs.map((f) => ({ text: f.text, bytes: Array.from(f.bytes), flags: f.flags }));
 
 // Streams mixing readings, every terminator style, garbage bytes and long lines.
 const streamArb = fc
@@ -46,13 +52,22 @@ describe('line framer', () => {
     'gives the same frames for every split of a stream into chunks (%s)',
     (terminator) => {
       fc.assert(
-        fc.property(streamArb, fc.array(fc.nat(), { maxLength: 12 }), fc.integer({ min: 4, max: 64 }), (data, cuts, maxLine) => {
-          const whole = frameAll(terminator, [data], maxLine);
-          const pieces = frameAll(terminator, split(data, cuts), maxLine);
-          const bytewise = frameAll(terminator, Array.from(data, (b) => Uint8Array.of(b)), maxLine);
-          expect(simplify(pieces)).toEqual(simplify(whole));
-          expect(simplify(bytewise)).toEqual(simplify(whole));
-        }),
+        fc.property(
+          streamArb,
+          fc.array(fc.nat(), { maxLength: 12 }),
+          fc.integer({ min: 4, max: 64 }),
+          (data, cuts, maxLine) => {
+            const whole = frameAll(terminator, [data], maxLine);
+            const pieces = frameAll(terminator, split(data, cuts), maxLine);
+            const bytewise = frameAll(
+              terminator,
+              Array.from(data, (b) => Uint8Array.of(b)),
+              maxLine,
+            );
+            expect(simplify(pieces)).toEqual(simplify(whole));
+            expect(simplify(bytewise)).toEqual(simplify(whole));
+          },
+        ),
         { numRuns: 300 },
       );
     },
@@ -71,7 +86,9 @@ describe('line framer', () => {
   });
 
   it('finds a multi-byte terminator split across chunks', () => {
-    const texts = frameAll('CRLF', [bytes('12.5 mg\r'), bytes('\n13'), bytes('.0 mg\r\n')]).map((x) => x.text);
+    const texts = frameAll('CRLF', [bytes('12.5 mg\r'), bytes('\n13'), bytes('.0 mg\r\n')]).map(
+      (x) => x.text,
+    );
     expect(texts).toEqual(['12.5 mg', '13.0 mg']);
   });
 

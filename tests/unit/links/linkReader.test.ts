@@ -2,7 +2,12 @@
 import { describe, expect, it } from 'vitest';
 import { parseLine, readLink } from '../../../src/links/linkReader';
 import type { SerialLink } from '../../../src/links/SerialLink';
-import { linkPreset, FrameFlag, ReadingFlag, type LinkReading } from '../../../shared/protocol/links';
+import {
+  linkPreset,
+  FrameFlag,
+  ReadingFlag,
+  type LinkReading,
+} from '../../../shared/protocol/links';
 
 /** A link whose RX carries the given chunks, then ends. */
 function scriptedLink(chunks: (string | Uint8Array)[]): SerialLink {
@@ -32,10 +37,18 @@ async function all(gen: AsyncGenerator<LinkReading>): Promise<LinkReading[]> {
 
 describe('link reader, talk-only', () => {
   it('numbers good readings and reports bad lines without stopping', async () => {
-    const link = scriptedLink(['+1.6000', '01E+07\r\n+1.6\u00ff0E+07\r\n', '16.000002 MHz\r', '\n+1.6000']);
+    const link = scriptedLink([
+      '+1.6000',
+      '01E+07\r\n+1.6\u00ff0E+07\r\n',
+      '16.000002 MHz\r',
+      '\n+1.6000',
+    ]);
     const issues: string[] = [];
     const readings = await all(
-      readLink(link, { profile: linkPreset('talk-counter'), onIssue: (i) => issues.push(`${i.kind}:${i.raw}`) }),
+      readLink(link, {
+        profile: linkPreset('talk-counter'),
+        onIssue: (i) => issues.push(`${i.kind}:${i.raw}`),
+      }),
     );
     expect(readings.map((r) => r.seq)).toEqual([0, 1]);
     expect(readings[0].value).toBe(16000010);
@@ -45,7 +58,9 @@ describe('link reader, talk-only', () => {
 
   it('yields placeholders with flags when asked to keep invalid lines', async () => {
     const link = scriptedLink(['+1\r\nxx\r\n+9.9E+37\r\n+2\r\n']);
-    const readings = await all(readLink(link, { profile: linkPreset('talk-counter'), keepInvalid: true, startSeq: 100 }));
+    const readings = await all(
+      readLink(link, { profile: linkPreset('talk-counter'), keepInvalid: true, startSeq: 100 }),
+    );
     expect(readings.map((r) => r.seq)).toEqual([100, 101, 102, 103]);
     expect(readings[1].flags).toBe(ReadingFlag.garbled);
     expect(Number.isNaN(readings[1].value)).toBe(true);
@@ -57,7 +72,11 @@ describe('link reader, talk-only', () => {
     let ms = 1000;
     const link = scriptedLink(['+1\n', '+2\n']);
     const readings: LinkReading[] = [];
-    for await (const r of readLink(link, { profile: linkPreset('talk-counter'), now: () => (ms += 250) })) readings.push(r);
+    for await (const r of readLink(link, {
+      profile: linkPreset('talk-counter'),
+      now: () => (ms += 250),
+    }))
+      readings.push(r);
     expect(readings[0].t).toBeGreaterThan(0);
     expect(readings[1].t).toBeGreaterThan(readings[0].t);
   });
@@ -83,7 +102,10 @@ describe('parseLine', () => {
 
   it('refuses damaged frames whatever they contain', () => {
     const p = linkPreset('talk-counter');
-    expect(parseLine(frame('+1.6E+07', FrameFlag.partial), p)).toMatchObject({ ok: false, flags: ReadingFlag.partial | ReadingFlag.garbled });
+    expect(parseLine(frame('+1.6E+07', FrameFlag.partial), p)).toMatchObject({
+      ok: false,
+      flags: ReadingFlag.partial | ReadingFlag.garbled,
+    });
     expect(parseLine(frame('+1.6E+07', FrameFlag.overlong), p)).toMatchObject({ ok: false });
   });
 });

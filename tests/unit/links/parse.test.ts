@@ -1,5 +1,9 @@
 import { describe, expect, it } from 'vitest';
-import { fromBaseUnit, parseMeasurement, type UnitQuantity as Quantity } from '../../../shared/protocol/parse';
+import {
+  fromBaseUnit,
+  parseMeasurement,
+  type UnitQuantity as Quantity,
+} from '../../../shared/protocol/parse';
 
 describe('parseMeasurement', () => {
   // Expected values are the SI prefix definitions (BIPM SI Brochure, 9th ed., Table 7);

@@ -15,7 +15,12 @@ function fake(replies: (string | null)[]) {
       async write(bytes: Uint8Array) {
         sent.push(new TextDecoder().decode(bytes));
         const r = replies.shift();
-        if (r != null) setTimeout(() => framer.push(Uint8Array.from(r, (c) => c.charCodeAt(0))).forEach((f) => lines.push(f)), 1);
+        if (r != null)
+          setTimeout(
+            () =>
+              framer.push(Uint8Array.from(r, (c) => c.charCodeAt(0))).forEach((f) => lines.push(f)),
+            1,
+          );
       },
     },
   };

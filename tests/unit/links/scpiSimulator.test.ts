@@ -2,7 +2,10 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import WebSocket from 'ws';
 import { startHub } from '../simulators/startHub';
-import { createSimulatorLink, type WebSocketConstructorLike } from '../../../src/links/simulatorLink';
+import {
+  createSimulatorLink,
+  type WebSocketConstructorLike,
+} from '../../../src/links/simulatorLink';
 import { openScpi, readLink } from '../../../src/links/linkReader';
 import { linkPreset, parseScpiError, parseMeasurement } from '../../../shared/protocol/links';
 import type { SerialLink } from '../../../src/links/SerialLink';
@@ -32,8 +35,14 @@ describe('SCPI over the simulator link', () => {
     await client.send(':SENS:FREQ:GATE:TIME 0.5');
     expect(Number(await client.query(':SENS:FREQ:GATE:TIME?'))).toBe(0.5);
     await client.send(':NOPE:NOT:HERE');
-    expect(parseScpiError(await client.query(':SYST:ERR?'))).toEqual({ code: -113, message: 'Undefined header' });
-    expect(parseScpiError(await client.query(':SYST:ERR?'))).toEqual({ code: 0, message: 'No error' });
+    expect(parseScpiError(await client.query(':SYST:ERR?'))).toEqual({
+      code: -113,
+      message: 'Undefined header',
+    });
+    expect(parseScpiError(await client.query(':SYST:ERR?'))).toEqual({
+      code: 0,
+      message: 'No error',
+    });
     await release();
     await link.close();
   });
@@ -58,7 +67,11 @@ describe('SCPI over the simulator link', () => {
     const issues: string[] = [];
     const ac = new AbortController();
     const values: number[] = [];
-    for await (const r of readLink(link, { profile, signal: ac.signal, onIssue: (i) => issues.push(i.kind) })) {
+    for await (const r of readLink(link, {
+      profile,
+      signal: ac.signal,
+      onIssue: (i) => issues.push(i.kind),
+    })) {
       expect(r.seq).toBe(values.length);
       values.push(r.value);
       if (values.length === 30) ac.abort();

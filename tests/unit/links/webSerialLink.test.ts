@@ -1,6 +1,11 @@
 /** The Web Serial wrapper against a fake port and a fake navigator.serial. */
 import { describe, expect, it } from 'vitest';
-import { wrapSerialPort, serialSupported, type WebSerialLike, type WebSerialPortLike } from '../../../src/links/webSerialLink';
+import {
+  wrapSerialPort,
+  serialSupported,
+  type WebSerialLike,
+  type WebSerialPortLike,
+} from '../../../src/links/webSerialLink';
 
 function fakes() {
   const listeners = new Set<(ev: { target: unknown }) => void>();
@@ -32,8 +37,16 @@ describe('Web Serial link', () => {
     const link = wrapSerialPort(f.port, f.serial);
     expect(link.kind).toBe('serial');
     expect(link.readable).toBeNull();
-    await link.open({ baudRate: 115200, dataBits: 8, parity: 'none', stopBits: 1, flowControl: 'none' });
-    expect(f.opened).toEqual([{ baudRate: 115200, dataBits: 8, parity: 'none', stopBits: 1, flowControl: 'none' }]);
+    await link.open({
+      baudRate: 115200,
+      dataBits: 8,
+      parity: 'none',
+      stopBits: 1,
+      flowControl: 'none',
+    });
+    expect(f.opened).toEqual([
+      { baudRate: 115200, dataBits: 8, parity: 'none', stopBits: 1, flowControl: 'none' },
+    ]);
     expect(link.readable).toBe(f.port.readable);
     expect(link.getInfo()).toEqual({ usbVendorId: 0x1234, usbProductId: 0x0001 });
     await link.close();

@@ -1,6 +1,13 @@
 import { describe, expect, it } from 'vitest';
 import { ManualClock } from '../../../simulators/clock';
-import { SimAccelerometer, ORIENTATIONS, REG, command, type AccelConfig, type OrientationName } from '../../../simulators/accelerometer';
+import {
+  SimAccelerometer,
+  ORIENTATIONS,
+  REG,
+  command,
+  type AccelConfig,
+  type OrientationName,
+} from '../../../simulators/accelerometer';
 import { SimSpiBridge } from '../../../simulators/spiBridge';
 import { decodeHexLine, readInt16 } from '../../../shared/protocol/hex';
 import { ACCEL_PRESET } from '../../../simulators/presets';
@@ -102,7 +109,7 @@ describe('simulated accelerometer', () => {
   const b = ACCEL_PRESET.biasMg;
   const s = ACCEL_PRESET.sensErrPct;
   it.each<[OrientationName, [number, number, number]]>([
-    ['flat', [b.x / 1000, b.y / 1000, (1 + s.z / 100) + b.z / 1000]],
+    ['flat', [b.x / 1000, b.y / 1000, 1 + s.z / 100 + b.z / 1000]],
     ['edge', [1 + s.x / 100 + b.x / 1000, b.y / 1000, b.z / 1000]],
     ['inverted', [b.x / 1000, b.y / 1000, -(1 + s.z / 100) + b.z / 1000]],
   ])('reads the expected g lying %s', (name, expected) => {
@@ -128,7 +135,10 @@ describe('simulated accelerometer', () => {
   });
 
   it('shifts its bias after the exposure time of the scenario', () => {
-    const { ask, meanG, clock } = rig({ noiseMg: 0, biasStep: { mg: { x: 0, y: 0, z: 25 }, afterS: 60 } });
+    const { ask, meanG, clock } = rig({
+      noiseMg: 0,
+      biasStep: { mg: { x: 0, y: 0, z: 25 }, afterS: 60 },
+    });
     ask('10 01\n');
     const before = meanG(1)[2];
     clock.advance(61_000);

@@ -5,7 +5,10 @@ import { DEFAULT_AMBIENT } from '../../../simulators/oscillator';
 
 const dec = new TextDecoder();
 
-function config(over: Partial<CounterConfig> = {}, osc: Partial<CounterConfig['oscillator']> = {}): CounterConfig {
+function config(
+  over: Partial<CounterConfig> = {},
+  osc: Partial<CounterConfig['oscillator']> = {},
+): CounterConfig {
   return {
     oscillator: {
       nominal: 16e6,
@@ -143,7 +146,10 @@ describe('simulated counter, SCPI query mode', () => {
   it('displays f/(1 + y_ref) when its own timebase is fast by y_ref', () => {
     // docs/references.md, "Frequency counters": displayed = true/(1 + y_ref) (Driftbench's convention).
     const yRef = 2e-7;
-    const c = new SimCounter(config({ refOffset: yRef }, { noise: {}, offsetPpm: 1 }), new ManualClock());
+    const c = new SimCounter(
+      config({ refOffset: yRef }, { noise: {}, offsetPpm: 1 }),
+      new ManualClock(),
+    );
     const r = c.nextReading();
     expect(r.value).toBeCloseTo((16e6 * (1 + 1e-6)) / (1 + yRef), 6);
   });

@@ -21,7 +21,13 @@ import { DEFAULT_AMBIENT } from '../../../simulators/oscillator';
 
 const NOMINAL = 10e6;
 
-function fractional(noise: NoiseLevels, seed: number, n: number, offsetPpm = 0, gate = 1): Float64Array {
+function fractional(
+  noise: NoiseLevels,
+  seed: number,
+  n: number,
+  offsetPpm = 0,
+  gate = 1,
+): Float64Array {
   const c = new SimCounter(
     {
       oscillator: {
@@ -60,27 +66,33 @@ describe('counter simulator statistics', () => {
     expect(Math.abs(mean(y) - 2.5e-6)).toBeLessThan((4 * SIGMA) / Math.sqrt(N));
   });
 
-  it.each([11, 22, 33])('gives OADEV(τ0) equal to the configured white-FM σ within the 99.9 %% χ² interval (seed %i)', (seed) => {
-    const y = fractional({ wfm: SIGMA }, seed, N, 2.5);
-    const [p] = oadev(y, 1, [1], { noise: 'wfm' });
-    const ci = chiSquareInterval(p.dev, p.edf, 0.999);
-    expect(SIGMA).toBeGreaterThan(ci.lo);
-    expect(SIGMA).toBeLessThan(ci.hi);
-    expect(ci.hi / ci.lo).toBeLessThan(1.15); // the interval is tight enough to mean something
-  });
+  it.each([11, 22, 33])(
+    'gives OADEV(τ0) equal to the configured white-FM σ within the 99.9 %% χ² interval (seed %i)',
+    (seed) => {
+      const y = fractional({ wfm: SIGMA }, seed, N, 2.5);
+      const [p] = oadev(y, 1, [1], { noise: 'wfm' });
+      const ci = chiSquareInterval(p.dev, p.edf, 0.999);
+      expect(SIGMA).toBeGreaterThan(ci.lo);
+      expect(SIGMA).toBeLessThan(ci.hi);
+      expect(ci.hi / ci.lo).toBeLessThan(1.15); // the interval is tight enough to mean something
+    },
+  );
 
   it.each<[NoiseType, number]>([
     ['wpm', 5],
     ['fpm', 6],
     ['ffm', 7],
     ['rwfm', 8],
-  ])('gives OADEV(τ0) equal to the configured %s level within the 99.9 %% χ² interval', (type, seed) => {
-    const y = fractional({ [type]: SIGMA }, seed, N);
-    const [p] = oadev(y, 1, [1], { noise: type });
-    const ci = chiSquareInterval(p.dev, p.edf, 0.999);
-    expect(SIGMA).toBeGreaterThan(ci.lo);
-    expect(SIGMA).toBeLessThan(ci.hi);
-  });
+  ])(
+    'gives OADEV(τ0) equal to the configured %s level within the 99.9 %% χ² interval',
+    (type, seed) => {
+      const y = fractional({ [type]: SIGMA }, seed, N);
+      const [p] = oadev(y, 1, [1], { noise: type });
+      const ci = chiSquareInterval(p.dev, p.edf, 0.999);
+      expect(SIGMA).toBeGreaterThan(ci.lo);
+      expect(SIGMA).toBeLessThan(ci.hi);
+    },
+  );
 
   // Slopes of σ_y(τ) per NIST SP 1065 Table 3 (white PM τ^−1, white FM τ^−1/2, flicker FM τ^0);
   // random-walk FM is checked against the discrete-time value σ²(m)/σ²(1) = (2m² + 1)/(3m)

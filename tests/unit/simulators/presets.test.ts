@@ -15,7 +15,8 @@ function capturePpm(name: CounterPresetName, cp: CheckpointIndex): number {
   const cfg = presetCounter(name, cp);
   const c = new SimCounter(cfg, new ManualClock());
   let sum = 0;
-  for (let i = 0; i < 300; i++) sum += (c.nextReading().value * (1 + cfg.refOffset)) / cfg.oscillator.nominal - 1;
+  for (let i = 0; i < 300; i++)
+    sum += (c.nextReading().value * (1 + cfg.refOffset)) / cfg.oscillator.nominal - 1;
   return (sum / 300) * 1e6;
 }
 
@@ -34,7 +35,8 @@ describe('Kestrel Bay demo presets', () => {
     const ref = new SimAccelerometer(presetAccel(0), new ManualClock()).expectedG();
     for (const cp of [1, 2, 3] as const) {
       const e = new SimAccelerometer(presetAccel(cp), new ManualClock()).expectedG();
-      for (const a of ['x', 'y', 'z'] as const) expect(Math.abs(e[a] - ref[a]) * 1000).toBeLessThan(0.5);
+      for (const a of ['x', 'y', 'z'] as const)
+        expect(Math.abs(e[a] - ref[a]) * 1000).toBeLessThan(0.5);
     }
   });
 

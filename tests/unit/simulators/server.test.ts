@@ -9,7 +9,9 @@ afterEach(async () => {
 });
 
 function nextMessage(ws: WebSocket): Promise<{ data: Buffer; binary: boolean }> {
-  return new Promise((resolve) => ws.once('message', (data, binary) => resolve({ data: data as Buffer, binary })));
+  return new Promise((resolve) =>
+    ws.once('message', (data, binary) => resolve({ data: data as Buffer, binary })),
+  );
 }
 
 describe('simulator hub', () => {
