@@ -40,25 +40,21 @@ export function errorHandler(log: Logger, outage?: OutageMonitor) {
       outage?.report(err, { method: req.method, url: req.originalUrl });
       if (res.headersSent) return;
       res.setHeader('Retry-After', String(OUTAGE_RETRY_AFTER_S));
-      res
-        .status(503)
-        .json({
-          error: {
-            code: 'database-unavailable',
-            message: 'The database is not reachable just now. Try again in a few seconds.',
-          },
-        });
+      res.status(503).json({
+        error: {
+          code: 'database-unavailable',
+          message: 'The database is not reachable just now. Try again in a few seconds.',
+        },
+      });
       return;
     }
     log.error({ err, method: req.method, url: req.originalUrl }, 'unhandled error');
     if (res.headersSent) return;
-    res
-      .status(500)
-      .json({
-        error: {
-          code: 'internal',
-          message: 'Something went wrong on the server. It has been logged.',
-        },
-      });
+    res.status(500).json({
+      error: {
+        code: 'internal',
+        message: 'Something went wrong on the server. It has been logged.',
+      },
+    });
   };
 }

@@ -38,16 +38,13 @@ afterAll(async () => {
 });
 
 async function openCapture(): Promise<number> {
-  const res = await request(app)
-    .post('/api/captures')
-    .set(auth())
-    .send({
-      dutId: ids.crystal.id,
-      checkpointId: ids.checkpoints[0],
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-    });
+  const res = await request(app).post('/api/captures').set(auth()).send({
+    dutId: ids.crystal.id,
+    checkpointId: ids.checkpoints[0],
+    quantity: 'frequency',
+    unit: 'Hz',
+    gateTime: 1,
+  });
   expect(res.status).toBe(201);
   return res.body.id;
 }

@@ -44,19 +44,16 @@ describe('the demo study after issue 8', () => {
       const dut = study.duts.find((d: { label: string }) => d.label.startsWith(position));
       for (const cp of [0, 1, 2] as CheckpointIndex[]) {
         const sim = new SimCounter({ ...presetCounter(preset, cp), garble: 0 }, new ManualClock());
-        const c = await request(t.app)
-          .post('/api/captures')
-          .set(head)
-          .send({
-            dutId: dut.id,
-            checkpointId: checkpoints[cp].id,
-            quantity: 'frequency',
-            unit: 'Hz',
-            gateTime: 1,
-            referenceId: 1,
-            instrumentId: counter,
-            ambientC: 23,
-          });
+        const c = await request(t.app).post('/api/captures').set(head).send({
+          dutId: dut.id,
+          checkpointId: checkpoints[cp].id,
+          quantity: 'frequency',
+          unit: 'Hz',
+          gateTime: 1,
+          referenceId: 1,
+          instrumentId: counter,
+          ambientC: 23,
+        });
         expect(c.status).toBe(201);
         const readings = Array.from({ length: 600 }, (_, i) => ({
           seq: i,

@@ -56,16 +56,13 @@ describe('bodies are read only after sign-in (item 3)', () => {
 
   it('still takes a batch of 20,000 readings (about 1 MB) on the ingest route', async () => {
     const study = (await request(t.app).get('/api/studies/1').set(auth(lead))).body;
-    const capture = await request(t.app)
-      .post('/api/captures')
-      .set(auth(lead))
-      .send({
-        dutId: study.duts[0].id,
-        checkpointId: study.checkpoints[0].id,
-        quantity: 'frequency',
-        unit: 'Hz',
-        gateTime: 1,
-      });
+    const capture = await request(t.app).post('/api/captures').set(auth(lead)).send({
+      dutId: study.duts[0].id,
+      checkpointId: study.checkpoints[0].id,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+    });
     expect(capture.status).toBe(201);
     const readings = Array.from({ length: 20_000 }, (_, seq) => ({
       seq,
@@ -111,17 +108,14 @@ describe('odd text and impossible dates are a 400 with nothing kept (item 6)', (
   it.each(odd)('refuses a study, a DUT and a user named %j with 400', async (text) => {
     const study = await request(t.app).post('/api/studies').set(auth(lead)).send({ title: text });
     expect(study.status).toBe(400);
-    const dut = await request(t.app)
-      .post('/api/studies/1/duts')
-      .set(auth(lead))
-      .send({
-        label: text,
-        kind: 'crystal',
-        nominal: 16e6,
-        unit: 'Hz',
-        limit: 1,
-        limitUnit: 'ppm',
-      });
+    const dut = await request(t.app).post('/api/studies/1/duts').set(auth(lead)).send({
+      label: text,
+      kind: 'crystal',
+      nominal: 16e6,
+      unit: 'Hz',
+      limit: 1,
+      limitUnit: 'ppm',
+    });
     expect(dut.status).toBe(400);
     const before = (await t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name;
     const user = await request(t.app).patch('/api/users/5').set(auth(admin)).send({ name: text });

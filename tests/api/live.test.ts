@@ -44,9 +44,7 @@ function api(token: string, method: string, path: string, body?: unknown): Promi
   }).then((r) => r.json());
 }
 
-function connect(
-  token: string,
-): Promise<{
+function connect(token: string): Promise<{
   ws: WebSocket;
   messages: ServerMessage[];
   next(type: string): Promise<ServerMessage>;

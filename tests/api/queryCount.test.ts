@@ -82,19 +82,16 @@ async function studyWith(
   let seed = duts * 100;
   for (const dutId of dutIds) {
     for (const checkpointId of checkpointIds) {
-      const c = await request(t.app)
-        .post('/api/captures')
-        .set(tech)
-        .send({
-          dutId,
-          checkpointId,
-          quantity: 'frequency',
-          unit: 'Hz',
-          gateTime: 1,
-          referenceId: 1,
-          instrumentId: 1,
-          ambientC: 23,
-        });
+      const c = await request(t.app).post('/api/captures').set(tech).send({
+        dutId,
+        checkpointId,
+        quantity: 'frequency',
+        unit: 'Hz',
+        gateTime: 1,
+        referenceId: 1,
+        instrumentId: 1,
+        ambientC: 23,
+      });
       expect(c.status).toBe(201);
       const rnd = seeded(seed++);
       const readings = Array.from({ length: 40 }, (_, i) => ({

@@ -81,16 +81,13 @@ afterAll(async () => {
 
 async function captureWith(n: number): Promise<number> {
   const study = await request(app).get('/api/studies/1').set(auth());
-  const res = await request(app)
-    .post('/api/captures')
-    .set(auth())
-    .send({
-      dutId: study.body.duts[0].id,
-      checkpointId: study.body.checkpoints[0].id,
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-    });
+  const res = await request(app).post('/api/captures').set(auth()).send({
+    dutId: study.body.duts[0].id,
+    checkpointId: study.body.checkpoints[0].id,
+    quantity: 'frequency',
+    unit: 'Hz',
+    gateTime: 1,
+  });
   expect(res.status).toBe(201);
   const readings = Array.from({ length: n }, (_, i) => ({
     seq: i,

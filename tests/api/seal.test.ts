@@ -36,16 +36,13 @@ describe('sealed evidence', () => {
   it('stores the digest of the documented serialisation when a capture finishes and verifies it', async () => {
     const plan = await plannedStudy(t, 'Sealed study');
     const eng = await as(t, 'engineer');
-    const c = await request(t.app)
-      .post('/api/captures')
-      .set(eng)
-      .send({
-        dutId: plan.dutId,
-        checkpointId: plan.checkpointId,
-        quantity: 'frequency',
-        unit: 'Hz',
-        gateTime: 1,
-      });
+    const c = await request(t.app).post('/api/captures').set(eng).send({
+      dutId: plan.dutId,
+      checkpointId: plan.checkpointId,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+    });
     const readings = [
       { seq: 0, t: 0, value: 10_000_000.0012 },
       { seq: 1, t: 1.0000001, value: 10_000_000.0015, flags: 1 },

@@ -19,17 +19,14 @@ export async function plannedStudy(t: TestApp, title = 'Reflow study — review 
     .post(`/api/studies/${study.body.id}/checkpoints`)
     .set(eng)
     .send({ name: 'Baseline' });
-  const dut = await request(t.app)
-    .post(`/api/studies/${study.body.id}/duts`)
-    .set(eng)
-    .send({
-      label: 'Y9 10 MHz crystal',
-      kind: 'crystal',
-      nominal: 10_000_000,
-      unit: 'Hz',
-      limit: 1,
-      limitUnit: 'ppm',
-    });
+  const dut = await request(t.app).post(`/api/studies/${study.body.id}/duts`).set(eng).send({
+    label: 'Y9 10 MHz crystal',
+    kind: 'crystal',
+    nominal: 10_000_000,
+    unit: 'Hz',
+    limit: 1,
+    limitUnit: 'ppm',
+  });
   if (cp.status !== 201 || dut.status !== 201)
     throw new Error(`plan: ${cp.status} ${dut.status} ${JSON.stringify(dut.body)}`);
   return {
@@ -46,16 +43,13 @@ export async function capture(
   opts: { n?: number; open?: boolean; role?: string } = {},
 ) {
   const h = await as(t, opts.role ?? 'engineer');
-  const c = await request(t.app)
-    .post('/api/captures')
-    .set(h)
-    .send({
-      dutId: plan.dutId,
-      checkpointId: plan.checkpointId,
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-    });
+  const c = await request(t.app).post('/api/captures').set(h).send({
+    dutId: plan.dutId,
+    checkpointId: plan.checkpointId,
+    quantity: 'frequency',
+    unit: 'Hz',
+    gateTime: 1,
+  });
   if (c.status !== 201) throw new Error(`capture: ${c.status} ${JSON.stringify(c.body)}`);
   const n = opts.n ?? 50;
   const readings = Array.from({ length: n }, (_, i) => ({
