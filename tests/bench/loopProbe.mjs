@@ -4,9 +4,12 @@
 // long the server's loop stood still during each phase.
 import { monitorEventLoopDelay } from 'node:perf_hooks';
 import { appendFileSync } from 'node:fs';
+import { isMainThread } from 'node:worker_threads';
 
+// Worker threads inherit --import: only the main thread's loop is measured (an analysis worker's
+// loop is busy by design while it computes, and once wrote its seconds-long delays here).
 const file = process.env.BENCH_LOOP_FILE;
-if (file) {
+if (file && isMainThread) {
   const h = monitorEventLoopDelay({ resolution: 10 });
   h.enable();
   const timer = setInterval(() => {
