@@ -31,6 +31,7 @@ import {
   type CounterPresetName,
 } from '../../simulators/presets.js';
 import { DEMO_PASSWORD } from './seed.js';
+import type { StaticOrientation } from '../../shared/analysis/tiltCheck.js';
 
 export const DEMO_STUDY_TITLE = 'Aqueous ultrasonic wash — sensor-hub board rev C';
 export const DEMO_APPROVED_TITLE = 'Reflow profile B — 16 MHz crystal on the carrier board';
@@ -92,7 +93,7 @@ export function counterReadings(
 /** Z-axis readings of the demo accelerometer (mg) in one orientation: gravity, the part's bias and scale error, noise. */
 function accelReadings(
   checkpoint: CheckpointIndex,
-  orientation: 'flat' | 'on-edge' | 'inverted',
+  orientation: StaticOrientation,
   n: number,
 ): number[] {
   const p = ACCEL_PRESET;

@@ -20,12 +20,9 @@ import type {
   TiltChange,
   TiltCheckCreate,
 } from '../../shared/protocol/accelerometer.js';
-import type { TiltQuantityChange } from '../../shared/analysis/tiltCheck.js';
+import type { StaticOrientation, TiltQuantityChange } from '../../shared/analysis/tiltCheck.js';
 
-const ROLE: Record<
-  'flatCaptureId' | 'invertedCaptureId' | 'onEdgeCaptureId',
-  'flat' | 'inverted' | 'on-edge'
-> = {
+const ROLE: Record<'flatCaptureId' | 'invertedCaptureId' | 'onEdgeCaptureId', StaticOrientation> = {
   flatCaptureId: 'flat',
   invertedCaptureId: 'inverted',
   onEdgeCaptureId: 'on-edge',
@@ -58,9 +55,7 @@ export async function recordTiltCheck(
       { path: 'checkpointId', message: "is not a checkpoint of this DUT's study" },
     ]);
   }
-  const stats: Partial<
-    Record<'flat' | 'inverted' | 'on-edge', { n: number; mean: number; sd: number }>
-  > = {};
+  const stats: Partial<Record<StaticOrientation, { n: number; mean: number; sd: number }>> = {};
   for (const field of ['flatCaptureId', 'invertedCaptureId', 'onEdgeCaptureId'] as const) {
     const id = input[field];
     if (id == null) continue;

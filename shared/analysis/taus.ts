@@ -1,13 +1,7 @@
 import { AnalysisError } from './errors';
 
-/** The stability estimators Driftbench computes (NIST SP 1065 §5.2). */
-export type StabilityKind = 'adev' | 'oadev' | 'mdev' | 'tdev' | 'hdev' | 'ohdev' | 'totdev';
-
-/** Whether a series holds fractional frequency y or phase x in seconds (IEEE Std 1139-2008). */
-export type DataKind = 'frequency' | 'phase';
-
-/** All estimator names, in the order Driftbench lists them. */
-export const STABILITY_KINDS: readonly StabilityKind[] = [
+/** The stability estimators Driftbench computes (NIST SP 1065 §5.2), in the order it lists them. */
+export const STABILITY_KINDS = [
   'adev',
   'oadev',
   'mdev',
@@ -15,7 +9,11 @@ export const STABILITY_KINDS: readonly StabilityKind[] = [
   'hdev',
   'ohdev',
   'totdev',
-];
+] as const;
+export type StabilityKind = (typeof STABILITY_KINDS)[number];
+
+/** Whether a series holds fractional frequency y or phase x in seconds (IEEE Std 1139-2008). */
+export type DataKind = 'frequency' | 'phase';
 
 /**
  * Largest averaging factor m an estimator supports on nPhase phase points, from the sum limits in

@@ -14,7 +14,9 @@ import type { BudgetComponent } from './uncertaintyBudget';
  */
 
 /** Orientations whose sensing axis lies along gravity (±1 g) or across it (0 g). */
-export type StaticOrientation = 'flat' | 'inverted' | 'on-edge';
+/** The guided tilt check's three poses, in the order the bench takes them. */
+export const TILT_POSES = ['flat', 'on-edge', 'inverted'] as const;
+export type StaticOrientation = (typeof TILT_POSES)[number];
 
 /** Statistics of one static capture in mg. */
 export interface StaticReadings {

@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { STABILITY_KINDS, type StabilityKind } from '../analysis/taus.js';
 import { DRIFT_CHOICES } from './uncertainty.js';
 import { Text } from './text.js';
 import { LinkProfile } from './linkProfile.js';
@@ -98,16 +99,8 @@ export const ReadingsQuery = z.object({
   maxPoints: z.coerce.number().int().min(10).max(100_000).optional(),
 });
 
-export const STABILITY_KINDS = [
-  'adev',
-  'oadev',
-  'mdev',
-  'hdev',
-  'ohdev',
-  'tdev',
-  'totdev',
-] as const;
-export type StabilityKind = (typeof STABILITY_KINDS)[number];
+// The estimators have one list, beside their science.
+export { STABILITY_KINDS, type StabilityKind };
 
 export const AnalysisQuery = z.object({
   kind: z.enum(STABILITY_KINDS).default('oadev'),

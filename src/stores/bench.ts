@@ -1,6 +1,7 @@
 import { computed, ref, watch } from 'vue';
 import { defineStore } from 'pinia';
 import { G_N, wgs84Gravity } from '../../shared/analysis/gravity';
+import type { StaticOrientation } from '../../shared/analysis/tiltCheck';
 
 export const BENCH_KEY = 'driftbench.bench';
 
@@ -23,7 +24,7 @@ export interface BenchChoices {
   gateTime: number;
   mode: BenchMode;
   ambientC: number | null;
-  orientation: 'flat' | 'on-edge' | 'inverted' | null;
+  orientation: StaticOrientation | null;
   notes: string;
   target: BenchTarget;
   /** Seconds of capture time. */

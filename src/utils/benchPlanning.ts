@@ -8,6 +8,7 @@ import type { RouteLocationRaw } from 'vue-router';
 import { CaptureCreate } from '../../shared/protocol/captures';
 import { linkPreset, type LinkPreset, type LinkProfile } from '../../shared/protocol/linkProfile';
 import { groupDigits } from './format';
+import type { StaticOrientation } from '../../shared/analysis/tiltCheck';
 import type { CaptureDutRef } from '../api/captures';
 import type { StudyDetail } from '../api/studies';
 
@@ -71,7 +72,7 @@ export interface ProfileChoice {
   simulatorPreset: SimulatorPreset;
   checkpointIndex: number;
   acceleration: number;
-  orientation?: 'flat' | 'on-edge' | 'inverted' | null;
+  orientation?: StaticOrientation | null;
   /** Local gravity for the simulated accelerometer, m/s². */
   gravity?: number;
 }
