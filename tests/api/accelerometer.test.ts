@@ -101,6 +101,18 @@ describe('per-kind DUT limits', () => {
     // The offset is the primary quantity: it keeps the DUT's own limit, which plain captures use.
     expect(res.body.dut.limit).toBe(20);
     expect(res.body.dut.limitUnit).toBe('mg');
+    // The demo seed already gives these limits (nothing changed, nothing audited): a real change
+    // is audited, and the seed's ±1 % comes back afterwards for the tests below.
+    const wider = await request(t.app)
+      .patch(`/api/duts/${ids.accelerometer.id}`)
+      .set(await auth('engineer'))
+      .send({ limits: { sensitivity: { limit: 1.5 } } });
+    expect(wider.status).toBe(200);
+    const back = await request(t.app)
+      .patch(`/api/duts/${ids.accelerometer.id}`)
+      .set(await auth('engineer'))
+      .send({ limits: { sensitivity: { limit: 1 } } });
+    expect(back.status).toBe(200);
     const audit = await request(t.app)
       .get(`/api/studies/${ids.studyId}/audit`)
       .set(await auth('lead'));
