@@ -109,7 +109,7 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
       log.info({ url: localMail.url }, 'local mail service listening');
     }
     mailWorker = startMailWorker({ transport: transportFor(smtpUrl), log });
-    schedules = startSchedules({ log });
+    schedules = startSchedules({ log, hub });
   }
 
   const upgrades: UpgradeHandler[] = [hub];

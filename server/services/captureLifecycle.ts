@@ -96,9 +96,12 @@ interface StalledRow {
  * for readings: the next accepted batch returns it to `open` (server/services/ingest.ts).
  * The server runs this every minute (startStallSweep); tests call it with their own clock.
  */
-export async function sweepStalledCaptures(now = new Date()): Promise<StallSweepResult> {
+export async function sweepStalledCaptures(
+  now = new Date(),
+  hub?: Pick<LiveHub, 'publishState'>,
+): Promise<StallSweepResult> {
   const sequelize = Capture.sequelize!;
-  return sequelize.transaction(async (transaction) => {
+  const result = await sequelize.transaction(async (transaction) => {
     const rows = (await sequelize.query(
       `WITH due AS (
          SELECT c.id FROM captures c
@@ -150,14 +153,21 @@ export async function sweepStalledCaptures(now = new Date()): Promise<StallSweep
     }
     return { stalled: rows.map((r) => r.id), notified };
   });
+  // Watchers see the stall at once (after the commit), not on their next read.
+  for (const id of result.stalled) hub?.publishState(id, 'stalled');
+  return result;
 }
 
 /** Runs the stall sweep every `intervalMs` (default one minute: the shortest stall is ten). */
-export function startStallSweep(opts: { intervalMs?: number; log?: Logger } = {}): {
+export function startStallSweep(
+  opts: { intervalMs?: number; log?: Logger; hub?: Pick<LiveHub, 'publishState'> } = {},
+): {
   stop(): void;
 } {
   const timer = setInterval(() => {
-    sweepStalledCaptures().catch((err: unknown) => opts.log?.error({ err }, 'stall sweep failed'));
+    sweepStalledCaptures(new Date(), opts.hub).catch((err: unknown) =>
+      opts.log?.error({ err }, 'stall sweep failed'),
+    );
   }, opts.intervalMs ?? 60_000);
   timer.unref();
   return { stop: () => clearInterval(timer) };

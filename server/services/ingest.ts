@@ -213,6 +213,7 @@ export async function ingestReadings(
       state: { from: 'stalled', to: 'open' },
       readings: accepted,
     });
+    hub.publishState(captureId, 'open');
   }
 
   if (watched && inserted && inserted.length) {

@@ -3,6 +3,7 @@ import type { Logger } from 'pino';
 import { Study } from '../models/index.js';
 import { enqueueMail } from './mail.js';
 import { startStallSweep } from './captureLifecycle.js';
+import type { LiveHub } from './liveHub.js';
 import { calibrationStatus } from './calibration.js';
 
 /**
@@ -111,7 +112,9 @@ export async function runSchedules(
 }
 
 /** Runs the schedules every `intervalMs` (default 10 minutes; the calibration check sends once per day by its dedupe key). */
-export function startSchedules(opts: { intervalMs?: number; log?: Logger } = {}): { stop(): void } {
+export function startSchedules(
+  opts: { intervalMs?: number; log?: Logger; hub?: Pick<LiveHub, 'publishState'> } = {},
+): { stop(): void } {
   const run = () =>
     runSchedules().catch((err: unknown) => opts.log?.error({ err }, 'e-mail schedules failed'));
   const first = setTimeout(run, 5_000);
@@ -119,7 +122,7 @@ export function startSchedules(opts: { intervalMs?: number; log?: Logger } = {})
   first.unref();
   timer.unref();
   // Stalled captures are looked for every minute (the shortest stall is ten minutes).
-  const stalls = startStallSweep({ log: opts.log });
+  const stalls = startStallSweep({ log: opts.log, hub: opts.hub });
   return {
     stop() {
       clearTimeout(first);

@@ -238,8 +238,13 @@ describe('the stall sweep', () => {
       ).body.state,
     ).toBe('open');
 
-    const later = await sweepStalledCaptures(new Date(now + 11 * 60_000));
+    // The sweep tells the live hub, so watchers see the stall at once.
+    const published: Array<[number, string]> = [];
+    const later = await sweepStalledCaptures(new Date(now + 11 * 60_000), {
+      publishState: (captureId, state) => published.push([captureId, state]),
+    });
     expect(later.stalled).toContain(id);
+    expect(published).toContainEqual([id, 'stalled']);
     const c = await request(t.app)
       .get(`/api/captures/${id}`)
       .set(await auth('viewer'));
