@@ -102,38 +102,74 @@ export const InstrumentPatch = z
   .refine((v) => Object.keys(v).length > 0, { message: 'nothing to change' });
 export type InstrumentPatch = z.infer<typeof InstrumentPatch>;
 
+/** Today's date in UTC as YYYY-MM-DD, on the machine that checks the record. */
+const utcDay = (): string => new Date().toISOString().slice(0, 10);
+
+const calibrationRecordFields = {
+  calibratedOn: CalendarDate,
+  dueOn: CalendarDate.nullable().optional(),
+  certificate: Text({ min: 1, max: 120 }),
+  issuedBy: Text({ min: 1, max: 200 }),
+  /** As stated on the certificate, e.g. "±0.05 °C (k = 2)". */
+  uncertainty: optionalText(200),
+  fractionalOffset: z.number().finite().min(-1e-3).max(1e-3).optional(),
+  standardUncertainty: z
+    .number()
+    .finite()
+    .positive('must be greater than zero')
+    .max(1e-3)
+    .optional(),
+  notes: optionalText(2000),
+};
+
+/** A certificate is issued after the calibration: not dated in the future, due after it. */
+function checkCalibrationDates(
+  v: { calibratedOn: string; dueOn?: string | null },
+  ctx: z.RefinementCtx,
+): void {
+  if (v.calibratedOn > utcDay()) {
+    ctx.addIssue({ code: 'custom', path: ['calibratedOn'], message: 'must not be in the future' });
+  }
+  if (v.dueOn && v.dueOn <= v.calibratedOn) {
+    ctx.addIssue({
+      code: 'custom',
+      path: ['dueOn'],
+      message: 'must be after the calibration date',
+    });
+  }
+}
+
 /**
  * POST /api/instruments/:id/calibrations and /api/references/:id/calibrations: one calibration as
  * its certificate states it. A reference's record also gives the offset and standard uncertainty
  * it was found with (fractional); they become the reference's current record.
  */
 export const CalibrationRecordCreate = z
+  .strictObject(calibrationRecordFields)
+  .superRefine(checkCalibrationDates);
+export type CalibrationRecordCreate = z.infer<typeof CalibrationRecordCreate>;
+
+const requiredForReference = { error: 'is required for a reference (as found by the calibration)' };
+
+/** POST /api/references/:id/calibrations: the offset and its uncertainty are required. */
+export const ReferenceCalibrationRecordCreate = z
   .strictObject({
-    calibratedOn: CalendarDate,
-    dueOn: CalendarDate.nullable().optional(),
-    certificate: Text({ min: 1, max: 120 }),
-    issuedBy: Text({ min: 1, max: 200 }),
-    /** As stated on the certificate, e.g. "±0.05 °C (k = 2)". */
-    uncertainty: optionalText(200),
-    fractionalOffset: z.number().finite().min(-1e-3).max(1e-3).optional(),
+    ...calibrationRecordFields,
+    fractionalOffset: z.number(requiredForReference).finite().min(-1e-3).max(1e-3),
     standardUncertainty: z
-      .number()
+      .number(requiredForReference)
       .finite()
       .positive('must be greater than zero')
-      .max(1e-3)
-      .optional(),
-    notes: optionalText(2000),
+      .max(1e-3),
   })
-  .superRefine((v, ctx) => {
-    if (v.dueOn && v.dueOn <= v.calibratedOn) {
-      ctx.addIssue({
-        code: 'custom',
-        path: ['dueOn'],
-        message: 'must be after the calibration date',
-      });
-    }
-  });
-export type CalibrationRecordCreate = z.infer<typeof CalibrationRecordCreate>;
+  .superRefine(checkCalibrationDates);
+
+/** The calibration record schema of an instrument or a reference. */
+export function calibrationRecordSchema(
+  subject: 'instrument' | 'reference',
+): z.ZodType<CalibrationRecordCreate> {
+  return subject === 'reference' ? ReferenceCalibrationRecordCreate : CalibrationRecordCreate;
+}
 
 /** POST …/:id/away: sent to a calibration lab on `sentOn` (today when left out). */
 export const EquipmentAway = z.strictObject({ sentOn: CalendarDate.optional() });

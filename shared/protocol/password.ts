@@ -100,12 +100,41 @@ export const NewPassword = z.string().superRefine((p, ctx) => {
   if (problem) ctx.addIssue({ code: 'custom', message: problem });
 });
 
-/** `POST /api/auth/password`: change my own password. */
-export const PasswordChange = z.strictObject({
+const passwordChangeFields = {
   currentPassword: z.string().min(1, 'is required').max(200),
   newPassword: NewPassword,
-});
+};
+
+/** A change that keeps the same password changes nothing: the new one must differ. */
+function checkNewDiffers(
+  v: { currentPassword: string; newPassword: string },
+  ctx: z.RefinementCtx,
+): void {
+  if (v.currentPassword && v.newPassword === v.currentPassword) {
+    ctx.addIssue({
+      code: 'custom',
+      path: ['newPassword'],
+      message: 'must differ from the current password',
+    });
+  }
+}
+
+/** `POST /api/auth/password`: change my own password. */
+export const PasswordChange = z.strictObject(passwordChangeFields).superRefine(checkNewDiffers);
 export type PasswordChange = z.infer<typeof PasswordChange>;
+
+/**
+ * The change-password form: the request's fields and the new password typed a second time, which
+ * must match (the browser checks it; the request does not carry it).
+ */
+export const PasswordChangeForm = z
+  .strictObject({ ...passwordChangeFields, repeat: z.string() })
+  .superRefine(checkNewDiffers)
+  .superRefine((v, ctx) => {
+    if (v.repeat !== v.newPassword) {
+      ctx.addIssue({ code: 'custom', path: ['repeat'], message: 'must match the new password' });
+    }
+  });
 
 /** `POST /api/users/:id/password-reset`: an admin sets a temporary password the user must change. */
 export const PasswordReset = z.strictObject({

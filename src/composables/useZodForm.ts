@@ -9,14 +9,19 @@ import { fieldErrors } from '../api/studyPlan';
  *
  * `body()` builds the request body from the form; `fields` maps each form item's `prop` to the
  * schema path whose issue it shows (`{ bathKHz: 'exposure.bathKHz' }`; a prop missing from the map
- * uses its own name). Every rule parses the whole body (cross-field rules such as "high above low"
- * land on their field), and `wording` replaces the generic message of a path.
+ * uses its own name; a list of paths shows the first that has an issue, e.g. a bound's own issue or
+ * else the limit's). Every rule parses the whole body (cross-field rules such as "high above low"
+ * land on their field), and `wording` replaces the generic message of a path — with a sentence, or
+ * with a function of the schema's own message ("must be at least 12 characters" → "The password
+ * must be at least 12 characters.").
  */
 export function useZodForm<T>(options: {
   schema: z.ZodType<T> | (() => z.ZodType<T>);
   body: () => unknown;
-  fields: readonly string[] | Record<string, string>;
-  wording?: Record<string, string>;
+  fields: readonly string[] | Record<string, string | readonly string[]>;
+  wording?: Record<string, string | ((message: string) => string)>;
+  /** When a field re-checks: on every change (default, with blur) or, for sign-in style forms, on blur. */
+  trigger?: 'blur' | 'change' | ('blur' | 'change')[];
 }): {
   formRef: Ref<FormInstance | undefined>;
   rules: ComputedRef<FormRules>;
@@ -27,21 +32,36 @@ export function useZodForm<T>(options: {
   const formRef = ref<FormInstance>();
   const schema = (): z.ZodType<T> =>
     typeof options.schema === 'function' ? options.schema() : options.schema;
-  const check = () => fieldErrors(schema(), options.body(), options.wording ?? {});
-  const paths = computed<Record<string, string>>(() =>
+  const check = () => {
+    const wording = options.wording ?? {};
+    const fixed = Object.fromEntries(
+      Object.entries(wording).filter((e): e is [string, string] => typeof e[1] === 'string'),
+    );
+    const result = fieldErrors(schema(), options.body(), fixed);
+    for (const [path, message] of Object.entries(result.errors)) {
+      const reword = wording[path];
+      if (typeof reword === 'function') result.errors[path] = reword(message);
+    }
+    return result;
+  };
+  const paths = computed<Record<string, readonly string[]>>(() =>
     Array.isArray(options.fields)
-      ? Object.fromEntries(options.fields.map((f) => [f, f]))
-      : (options.fields as Record<string, string>),
+      ? Object.fromEntries(options.fields.map((f) => [f, [f]]))
+      : Object.fromEntries(
+          Object.entries(options.fields as Record<string, string | readonly string[]>).map(
+            ([prop, path]) => [prop, typeof path === 'string' ? [path] : path],
+          ),
+        ),
   );
 
   const rules = computed<FormRules>(() => {
     const out: FormRules = {};
-    for (const [prop, path] of Object.entries(paths.value)) {
+    for (const [prop, list] of Object.entries(paths.value)) {
       const rule: FormItemRule = {
-        trigger: ['blur', 'change'],
+        trigger: options.trigger ?? ['blur', 'change'],
         validator: (_rule, _value, callback) => {
           const { errors } = check();
-          const message = errors[path];
+          const message = list.map((path) => errors[path]).find(Boolean);
           if (message) callback(new Error(message));
           else callback();
         },
@@ -70,6 +90,8 @@ type Walkable = z.ZodType & {
   options?: z.ZodType[];
   minValue?: number | null;
   maxValue?: number | null;
+  maxLength?: number | null;
+  in?: z.ZodType;
   def?: { innerType?: z.ZodType };
 };
 
@@ -82,13 +104,27 @@ export function boundsOf(
   path: readonly string[],
   variant?: string,
 ): { min: number | null; max: number | null } {
+  const node = walk(schema, path, variant);
+  return { min: node.minValue ?? null, max: node.maxValue ?? null };
+}
+
+/** The longest text a shared schema takes for one field (a textarea's `maxlength`), or undefined. */
+export function maxLengthOf(
+  schema: z.ZodType,
+  path: readonly string[],
+  variant?: string,
+): number | undefined {
+  return walk(schema, path, variant).maxLength ?? undefined;
+}
+
+/** The schema of one field, wrappers (optional, nullable, default, pipe) taken off. */
+function walk(schema: z.ZodType, path: readonly string[], variant?: string): Walkable {
   let node = schema as Walkable;
   for (const key of path) {
     node = peel(node, variant);
     node = (node.shape?.[key] ?? node) as Walkable;
   }
-  node = peel(node, variant);
-  return { min: node.minValue ?? null, max: node.maxValue ?? null };
+  return peel(node, variant);
 }
 
 function peel(node: Walkable, variant?: string): Walkable {
@@ -110,6 +146,11 @@ function peel(node: Walkable, variant?: string): Walkable {
     }
     if (node.def?.innerType) {
       node = node.def.innerType as Walkable;
+      continue;
+    }
+    // A pipe (a transform, or a check after trimming) keeps its limits on the input side.
+    if (node.in && !node.shape) {
+      node = node.in as Walkable;
       continue;
     }
     break;
