@@ -6,6 +6,7 @@ import {
   RESPONSES,
   responseSpec,
   type JsonRouteKey,
+  type ResponseKey,
 } from '../../shared/protocol/responses.js';
 
 /**
@@ -32,6 +33,29 @@ export function reply<K extends JsonRouteKey>(
 ): void {
   void key;
   res.status(status).json(value);
+}
+
+/**
+ * Sends `text`, JSON already serialised elsewhere (the analysis worker's answer), as route `key`'s
+ * answer without parsing it again on the server's thread. The key must be a JSON route of the
+ * contract; under test `validateResponses()` parses the text and checks it like any other answer.
+ */
+export function replyText(res: Response, key: JsonRouteKey, text: string, status = 200): void {
+  void key;
+  res.status(status).type('application/json').send(text);
+}
+
+/** The routes whose answer is a CSV download. */
+export type CsvRouteKey = {
+  [K in ResponseKey]: (typeof RESPONSES)[K] extends 'csv' ? K : never;
+}[ResponseKey];
+
+/** Sends `body` as route `key`'s CSV download, saved by the browser as `filename`. */
+export function replyCsv(res: Response, key: CsvRouteKey, filename: string, body: string): void {
+  void key;
+  res.setHeader('content-type', 'text/csv; charset=utf-8');
+  res.setHeader('content-disposition', `attachment; filename="${filename}"`);
+  res.send(body);
 }
 
 /** The first problem of a body against a schema, as `path: message`, or null when it conforms. */

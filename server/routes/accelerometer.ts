@@ -2,6 +2,7 @@ import { Router } from 'express';
 import type pg from 'pg';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
+import { reply } from '../middleware/responses.js';
 import { IdParam } from '../../shared/protocol/api.js';
 import { TiltCheckCreate } from '../../shared/protocol/accelerometer.js';
 import { listTiltChecks, recordTiltCheck } from '../services/tiltChecks.js';
@@ -12,18 +13,17 @@ export function tiltChecksRouter(pool: pg.Pool): Router {
   const r = Router();
   r.post('/:id/tilt-checks', authorize('captures:run'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.status(201).json({
-      tiltCheck: await recordTiltCheck(
-        pool,
-        id,
-        parse(TiltCheckCreate, req.body),
-        currentUser(req).id,
-      ),
-    });
+    const input = parse(TiltCheckCreate, req.body);
+    reply(
+      res,
+      'POST /api/duts/:id/tilt-checks',
+      { tiltCheck: await recordTiltCheck(pool, id, input, currentUser(req).id) },
+      201,
+    );
   });
   r.get('/:id/tilt-checks', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json({ tiltChecks: await listTiltChecks(id) });
+    reply(res, 'GET /api/duts/:id/tilt-checks', { tiltChecks: await listTiltChecks(id) });
   });
   return r;
 }
@@ -33,7 +33,7 @@ export function captureBaselineRouter(): Router {
   const r = Router();
   r.get('/:id/baseline', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await captureBaseline(id));
+    reply(res, 'GET /api/captures/:id/baseline', await captureBaseline(id));
   });
   return r;
 }

@@ -2,6 +2,8 @@ import { Router } from 'express';
 import { parse } from '../middleware/validate.js';
 import { AppError } from '../errors.js';
 import { authorize, currentUser } from '../middleware/auth.js';
+import { reply } from '../middleware/responses.js';
+import type { JsonRouteKey } from '../../shared/protocol/responses.js';
 import { IdParam } from '../../shared/protocol/api.js';
 import type { AttachmentOwner } from '../../shared/protocol/review.js';
 import {
@@ -17,6 +19,22 @@ import type { BlobStore } from '../services/storage.js';
 import { requireStudy } from '../services/studies.js';
 import { assertStudyWritable } from '../services/studyLock.js';
 
+/** The contract's name for each owner's attachment routes. */
+const OWNER_KEYS = {
+  study: {
+    list: 'GET /api/studies/:id/attachments',
+    upload: 'POST /api/studies/:id/attachments',
+  },
+  checkpoint: {
+    list: 'GET /api/checkpoints/:id/attachments',
+    upload: 'POST /api/checkpoints/:id/attachments',
+  },
+  capture: {
+    list: 'GET /api/captures/:id/attachments',
+    upload: 'POST /api/captures/:id/attachments',
+  },
+} as const satisfies Record<AttachmentOwner, Record<string, JsonRouteKey>>;
+
 /**
  * `POST /api/{studies|checkpoints|captures}/:id/attachments` (multipart, field `file`) and the
  * matching lists, mounted under each owner's path; `GET` / `DELETE /api/attachments/:id`.
@@ -28,25 +46,25 @@ export function ownerAttachmentsRouter(
 ): Router {
   const r = Router();
   const upload = uploadMiddleware(store, policy);
+  const keys = OWNER_KEYS[ownerType];
   r.post('/:id/attachments', authorize('attachments:upload'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
     await preflightUpload(ownerType, id);
     await upload(req);
-    res
-      .status(201)
-      .json(await recordUpload(store, ownerType, id, req.file as never, currentUser(req)));
+    const stored = await recordUpload(store, ownerType, id, req.file as never, currentUser(req));
+    reply(res, keys.upload, stored, 201);
   });
   r.get('/:id/attachments', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
     if (ownerType === 'study') {
       await requireStudy(id);
-      res.json({ attachments: await listAttachments({ studyId: id }) });
+      reply(res, keys.list, { attachments: await listAttachments({ studyId: id }) });
     } else {
       // 404 for a missing checkpoint or capture (the lock state does not matter for reading).
       await assertStudyWritable(ownerType, id, 'reading').catch((err: { status?: number }) => {
         if (err.status === 404) throw err;
       });
-      res.json({ attachments: await listAttachments({ ownerType, ownerId: id }) });
+      reply(res, keys.list, { attachments: await listAttachments({ ownerType, ownerId: id }) });
     }
   });
   return r;

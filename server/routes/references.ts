@@ -5,20 +5,8 @@ import { reply } from '../middleware/responses.js';
 import { IdParam } from '../../shared/protocol/api.js';
 import { DutPatch, ReferenceCreate, ReferencePatch } from '../../shared/protocol/uncertainty.js';
 import { createReference, updateDut, updateReference } from '../services/references.js';
-import {
-  calibrationHistory,
-  getReference,
-  makeLabReference,
-  recordCalibration,
-  reinstate,
-  retire,
-  sendAway,
-} from '../services/equipment.js';
-import {
-  CalibrationRecordCreate,
-  EquipmentAway,
-  EquipmentRetire,
-} from '../../shared/protocol/equipment.js';
+import { getReference, makeLabReference } from '../services/equipment.js';
+import { calibrationRoutes } from './equipmentRoutes.js';
 
 /**
  * One frequency reference (admin, lead; every change audited): register, edit, its calibrations,
@@ -44,44 +32,7 @@ export function referencesRouter(): Router {
     const { id } = parse(IdParam, req.params, 'id');
     reply(res, 'GET /api/references/:id', { reference: await getReference(id) });
   });
-  r.get('/:id/calibrations', authorize('read'), async (req, res) => {
-    const { id } = parse(IdParam, req.params, 'id');
-    reply(res, 'GET /api/references/:id/calibrations', await calibrationHistory('reference', id));
-  });
-  r.post('/:id/calibrations', authorize('lab:manage'), async (req, res) => {
-    const { id } = parse(IdParam, req.params, 'id');
-    res
-      .status(201)
-      .json(
-        await recordCalibration(
-          'reference',
-          id,
-          parse(CalibrationRecordCreate, req.body),
-          currentUser(req).id,
-        ),
-      );
-  });
-  r.post('/:id/away', authorize('lab:manage'), async (req, res) => {
-    const { id } = parse(IdParam, req.params, 'id');
-    res.json(
-      await sendAway(
-        'reference',
-        id,
-        parse(EquipmentAway, req.body ?? {}).sentOn,
-        currentUser(req).id,
-      ),
-    );
-  });
-  r.post('/:id/retire', authorize('lab:manage'), async (req, res) => {
-    const { id } = parse(IdParam, req.params, 'id');
-    res.json(
-      await retire('reference', id, parse(EquipmentRetire, req.body).reason, currentUser(req).id),
-    );
-  });
-  r.post('/:id/reinstate', authorize('lab:manage'), async (req, res) => {
-    const { id } = parse(IdParam, req.params, 'id');
-    res.json(await reinstate('reference', id, currentUser(req).id));
-  });
+  calibrationRoutes(r, 'reference', 'lab:manage');
   r.post('/:id/lab-default', authorize('lab:manage'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
     reply(

@@ -1,6 +1,7 @@
 import { Router } from 'express';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
+import { reply } from '../middleware/responses.js';
 import { IdParam } from '../../shared/protocol/api.js';
 import {
   CaptureExclude,
@@ -28,7 +29,8 @@ export function studyEditRouter(): Router {
   const r = Router();
   r.patch('/:id', authorize('studies:plan'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await updateStudy(id, parse(StudyPatch, req.body), currentUser(req).id));
+    const patch = parse(StudyPatch, req.body);
+    reply(res, 'PATCH /api/studies/:id', await updateStudy(id, patch, currentUser(req).id));
   });
   r.delete('/:id', authorize('studies:plan'), async (req, res) => {
     await deleteStudy(parse(IdParam, req.params, 'id').id, currentUser(req).id);
@@ -36,22 +38,20 @@ export function studyEditRouter(): Router {
   });
   r.post('/:id/checkpoints/order', authorize('studies:plan'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json({
-      checkpoints: await reorderCheckpoints(
-        id,
-        parse(CheckpointOrder, req.body).ids,
-        currentUser(req).id,
-      ),
+    const { ids } = parse(CheckpointOrder, req.body);
+    reply(res, 'POST /api/studies/:id/checkpoints/order', {
+      checkpoints: await reorderCheckpoints(id, ids, currentUser(req).id),
     });
   });
   r.get('/:id/cells', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
     const q = parse(CellQuery, req.query, 'query');
-    res.json(await cellCaptures(id, q.dutId, q.checkpointId));
+    reply(res, 'GET /api/studies/:id/cells', await cellCaptures(id, q.dutId, q.checkpointId));
   });
   r.put('/:id/cells', authorize('studies:review'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await chooseCell(id, parse(CellChoice, req.body), currentUser(req).id));
+    const choice = parse(CellChoice, req.body);
+    reply(res, 'PUT /api/studies/:id/cells', await chooseCell(id, choice, currentUser(req).id));
   });
   return r;
 }
@@ -61,7 +61,12 @@ export function checkpointsRouter(): Router {
   const r = Router();
   r.patch('/:id', authorize('studies:plan'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await updateCheckpoint(id, parse(CheckpointPatch, req.body), currentUser(req).id));
+    const patch = parse(CheckpointPatch, req.body);
+    reply(
+      res,
+      'PATCH /api/checkpoints/:id',
+      await updateCheckpoint(id, patch, currentUser(req).id),
+    );
   });
   r.delete('/:id', authorize('studies:plan'), async (req, res) => {
     await deleteCheckpoint(parse(IdParam, req.params, 'id').id, currentUser(req).id);
@@ -85,11 +90,16 @@ export function captureEvidenceRouter(): Router {
   const r = Router();
   r.post('/:id/exclude', authorize('studies:review'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await excludeCapture(id, parse(CaptureExclude, req.body).reason, currentUser(req).id));
+    const { reason } = parse(CaptureExclude, req.body);
+    reply(
+      res,
+      'POST /api/captures/:id/exclude',
+      await excludeCapture(id, reason, currentUser(req).id),
+    );
   });
   r.post('/:id/include', authorize('studies:review'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    res.json(await includeCapture(id, currentUser(req).id));
+    reply(res, 'POST /api/captures/:id/include', await includeCapture(id, currentUser(req).id));
   });
   return r;
 }

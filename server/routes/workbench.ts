@@ -3,7 +3,7 @@ import type pg from 'pg';
 import { z } from 'zod';
 import { parse } from '../middleware/validate.js';
 import { authorize } from '../middleware/auth.js';
-import { reply } from '../middleware/responses.js';
+import { reply, replyCsv } from '../middleware/responses.js';
 import { IdParam } from '../../shared/protocol/api.js';
 import { STABILITY_KINDS } from '../../shared/protocol/captures.js';
 import { captureCsv, overlayCurves, studyCapturesCsv } from '../services/workbench.js';
@@ -15,12 +15,6 @@ const OverlayQuery = z.object({
     .transform((s) => s.split(',').map(Number)),
   kind: z.enum(STABILITY_KINDS).default('oadev'),
 });
-
-function sendCsv(res: import('express').Response, name: string, body: string): void {
-  res.setHeader('content-type', 'text/csv; charset=utf-8');
-  res.setHeader('content-disposition', `attachment; filename="${name}"`);
-  res.send(body);
-}
 
 /**
  * The comparison workbench (issue 12), mounted under `/captures` before the captures router:
@@ -35,7 +29,12 @@ export function workbenchCapturesRouter(pool: pg.Pool): Router {
   });
   r.get('/:id/export.csv', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    sendCsv(res, `driftbench-capture-${id}.csv`, await captureCsv(pool, id));
+    replyCsv(
+      res,
+      'GET /api/captures/:id/export.csv',
+      `driftbench-capture-${id}.csv`,
+      await captureCsv(pool, id),
+    );
   });
   return r;
 }
@@ -45,7 +44,12 @@ export function workbenchStudiesRouter(): Router {
   const r = Router();
   r.get('/:id/captures.csv', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    sendCsv(res, `driftbench-study-${id}-captures.csv`, await studyCapturesCsv(id));
+    replyCsv(
+      res,
+      'GET /api/studies/:id/captures.csv',
+      `driftbench-study-${id}-captures.csv`,
+      await studyCapturesCsv(id),
+    );
   });
   return r;
 }

@@ -10,7 +10,7 @@ import type { AuthUser } from './auth.js';
 import { audit } from './audit.js';
 import { assertStudyWritable, type StudyPart } from './studyLock.js';
 import type { BlobStore } from './storage.js';
-import type { AttachmentOwner } from '../../shared/protocol/review.js';
+import type { AttachmentInfo, AttachmentOwner } from '../../shared/protocol/review.js';
 import { roleCan } from '../../shared/protocol/roles.js';
 
 /** What an upload may be, by default: photos, printouts as PDF, CSV and plain-text exports. */
@@ -243,6 +243,9 @@ export async function recordUpload(
   }
 }
 
+/** An attachment as the list query reads it (the timestamp still a Date). */
+type AttachmentRow = Omit<AttachmentInfo, 'createdAt'> & { createdAt: Date };
+
 export async function listAttachments(where: {
   studyId?: number;
   ownerType?: AttachmentOwner;
@@ -258,14 +261,14 @@ export async function listAttachments(where: {
     bind.push(where.ownerType, where.ownerId);
     cond.push(`a.owner_type = $${bind.length - 1} AND a.owner_id = $${bind.length}`);
   }
-  return (await Study.sequelize!.query(
+  return Study.sequelize!.query<AttachmentRow>(
     `SELECT a.id, a.study_id AS "studyId", a.owner_type AS "ownerType", a.owner_id AS "ownerId", a.filename,
             a.content_type AS "contentType", a.size_bytes AS size, a.sha256, a.uploaded_by AS "uploadedBy",
             u.name AS "uploaderName", a.created_at AS "createdAt"
      FROM attachments a LEFT JOIN users u ON u.id = a.uploaded_by
      WHERE ${cond.join(' AND ') || 'true'} ORDER BY a.id DESC LIMIT 500`,
     { bind, type: QueryTypes.SELECT },
-  )) as unknown[];
+  );
 }
 
 export async function requireAttachment(id: number): Promise<Attachment> {

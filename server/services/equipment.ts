@@ -45,10 +45,15 @@ async function exists(subject: Subject, id: number): Promise<void> {
   if (!row) throw new NotFoundError(LABEL[subject]);
 }
 
-function publicOf(subject: Subject, row: Instrument | Reference) {
+/** The equipment as it now stands, under its subject's key — what the routes answer. */
+export type Standing =
+  | { instrument: ReturnType<typeof publicInstrument> }
+  | { reference: ReturnType<typeof publicReference> };
+
+function standingOf(subject: Subject, row: Instrument | Reference): Standing {
   return subject === 'instrument'
-    ? publicInstrument(row as Instrument)
-    : publicReference(row as Reference);
+    ? { instrument: publicInstrument(row as Instrument) }
+    : { reference: publicReference(row as Reference) };
 }
 
 function refuseRetired(subject: Subject, row: Instrument | Reference, what: string): void {
@@ -206,7 +211,7 @@ export async function recordCalibration(
         transaction,
       },
     );
-    return { calibration: publicRecord(stored), [subject]: publicOf(subject, row) };
+    return { calibration: publicRecord(stored), ...standingOf(subject, row) };
   });
 }
 
@@ -242,7 +247,7 @@ export async function sendAway(
       { awaySince: { from: null, to: day } },
       transaction,
     );
-    return { [subject]: publicOf(subject, row) };
+    return standingOf(subject, row);
   });
 }
 
@@ -260,7 +265,7 @@ export async function retire(subject: Subject, id: number, reason: string, actor
     if (row instanceof Reference) row.labDefault = false;
     await row.save({ transaction });
     await audit(actorId, `${subject}.retire`, subject, id, { reason }, transaction);
-    return { [subject]: publicOf(subject, row) };
+    return standingOf(subject, row);
   });
 }
 
@@ -283,7 +288,7 @@ export async function reinstate(subject: Subject, id: number, actorId: number) {
     row.awaySince = null;
     await row.save({ transaction });
     await audit(actorId, `${subject}.reinstate`, subject, id, details, transaction);
-    return { [subject]: publicOf(subject, row) };
+    return standingOf(subject, row);
   });
 }
 

@@ -2,7 +2,7 @@
  * Accelerometers (issue 13): the guided tilt check's stored results and the baseline a capture is
  * compared with (the same orientation for acceleration). Types come from shared/protocol.
  */
-import { http } from './http';
+import { callRoute } from './http';
 import type {
   CaptureBaseline,
   TiltCheck,
@@ -19,16 +19,15 @@ export type {
 
 /** POST /api/duts/:id/tilt-checks: records a finished tilt check as the DUT's result at its checkpoint. */
 export async function recordTiltCheck(dutId: number, body: TiltCheckBody): Promise<TiltCheck> {
-  return (await http.post<{ tiltCheck: TiltCheck }>(`/api/duts/${dutId}/tilt-checks`, body))
-    .tiltCheck;
+  return (await callRoute('POST /api/duts/:id/tilt-checks', { id: dutId }, { body })).tiltCheck;
 }
 
 /** GET /api/duts/:id/tilt-checks: every tilt check of a DUT, oldest first. */
 export async function listTiltChecks(dutId: number): Promise<TiltCheck[]> {
-  return (await http.get<{ tiltChecks: TiltCheck[] }>(`/api/duts/${dutId}/tilt-checks`)).tiltChecks;
+  return (await callRoute('GET /api/duts/:id/tilt-checks', { id: dutId })).tiltChecks;
 }
 
 /** GET /api/captures/:id/baseline: the capture this one is compared with, or why there is none. */
 export function getCaptureBaseline(captureId: number): Promise<CaptureBaseline> {
-  return http.get<CaptureBaseline>(`/api/captures/${captureId}/baseline`);
+  return callRoute('GET /api/captures/:id/baseline', { id: captureId });
 }

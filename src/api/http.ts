@@ -2,7 +2,9 @@
  * The one door to the API: adds the session token, turns the server's error envelope
  * `{ error: { code, message, details? } }` into a typed ApiError, and reports a lost session
  * (401 after a token was sent) so the app can sign the user out and ask them to sign in again.
+ * `callRoute` calls a route by its contract key and types the answer by its response schema.
  */
+import type { RESPONSES, ResponseKey, ResponseOf } from '../../shared/protocol/responses';
 
 export interface ApiErrorDetail {
   path: string;
@@ -61,6 +63,8 @@ export interface RequestOptions {
   /** Let the caller handle a lost session itself (used by the session restore on start-up). */
   ignoreSessionLoss?: boolean;
   signal?: AbortSignal;
+  /** The content type of a binary body (a `Uint8Array` body is sent as it is, not as JSON). */
+  contentType?: string;
 }
 
 const GENERIC_MESSAGES: Record<number, string> = {
@@ -130,7 +134,11 @@ export async function request<T>(
 ): Promise<T> {
   const token = hooks.getToken();
   const headers: Record<string, string> = { Accept: 'application/json' };
-  if (body !== undefined) headers['Content-Type'] = 'application/json';
+  const bytes = body instanceof Uint8Array ? body : null;
+  if (body !== undefined)
+    headers['Content-Type'] = bytes
+      ? (options.contentType ?? 'application/octet-stream')
+      : 'application/json';
   if (token) headers.Authorization = `Bearer ${token}`;
 
   let response: Response;
@@ -138,7 +146,7 @@ export async function request<T>(
     response = await fetch(path, {
       method,
       headers,
-      body: body === undefined ? undefined : JSON.stringify(body),
+      body: body === undefined ? undefined : (bytes ?? JSON.stringify(body)),
       signal: options.signal,
     });
   } catch (cause) {
@@ -177,6 +185,71 @@ export async function request<T>(
     throw error;
   }
   return parsed as T;
+}
+
+type PathOf<K extends string> = K extends `${string} ${infer P}` ? P : never;
+type ParamNames<P extends string> = P extends `${string}:${infer Name}/${infer Rest}`
+  ? Name | ParamNames<Rest>
+  : P extends `${string}:${infer Name}`
+    ? Name
+    : never;
+/** The `:name` segments of route `K`'s path (`'GET /api/studies/:id'` → `{ id }`). */
+export type RouteParams<K extends string> = Record<ParamNames<PathOf<K>>, string | number>;
+/** The routes `callRoute` calls: every one that answers JSON or nothing (204), not a file or a CSV. */
+export type CallableRoute = {
+  [K in ResponseKey]: (typeof RESPONSES)[K] extends 'csv' | 'file' ? never : K;
+}[ResponseKey];
+/** What route `K` answers: its response schema's type, or nothing for a 204 route. */
+export type RouteAnswer<K extends ResponseKey> = (typeof RESPONSES)[K] extends 'no-content'
+  ? void
+  : ResponseOf<K>;
+
+/** A query string's values; undefined and null ones are left out. */
+export type QueryValues = Record<string, string | number | boolean | null | undefined>;
+
+/** `?a=1&b=x` from `values` (undefined and null left out), or '' when none is left. */
+export function queryString(values: QueryValues = {}): string {
+  const q = new URLSearchParams();
+  for (const [k, v] of Object.entries(values))
+    if (v !== undefined && v !== null) q.set(k, String(v));
+  const s = q.toString();
+  return s ? `?${s}` : '';
+}
+
+/** The path of route `key` (a line of ROUTES) with its `:name` segments filled in, plus `query`. */
+export function routePath<K extends string>(
+  key: K,
+  params: RouteParams<K>,
+  query?: QueryValues,
+): string {
+  const path = key
+    .slice(key.indexOf(' ') + 1)
+    .replace(/:([A-Za-z]+)/g, (_, name: string) =>
+      encodeURIComponent(String((params as Record<string, string | number>)[name])),
+    );
+  return path + queryString(query);
+}
+
+export interface RouteCall extends RequestOptions {
+  /** The JSON body (a POST without one sends `{}`). */
+  body?: unknown;
+  query?: QueryValues;
+}
+
+/**
+ * Calls route `key` of the contract (`'POST /api/studies/:id/submit'`, the same key as in ROUTES
+ * and RESPONSES) with its path parameters; the answer is typed by the route's response schema
+ * (`z.infer` of its line in shared/protocol/responses.ts; nothing for a 204), so no client type
+ * restates it.
+ */
+export function callRoute<K extends CallableRoute>(
+  key: K,
+  params: RouteParams<K>,
+  { body, query, ...options }: RouteCall = {},
+): Promise<RouteAnswer<K>> {
+  const method = key.slice(0, key.indexOf(' '));
+  const sent = body === undefined && method === 'POST' ? {} : body;
+  return request<RouteAnswer<K>>(method, routePath(key, params, query), sent, options);
 }
 
 export const http = {

@@ -7,7 +7,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
 import type { z } from 'zod';
 import { createTestApp, type TestApp } from '../helpers/app.js';
-import { RESPONSES, type JsonRouteKey } from '../../shared/protocol/responses.js';
+import { RESPONSES, type JsonRouteKey, type ResponseKey } from '../../shared/protocol/responses.js';
 
 let t: TestApp;
 const tokens: Record<string, string> = {};
@@ -35,7 +35,14 @@ async function call<K extends JsonRouteKey>(
   const method = key.split(' ')[0].toLowerCase() as 'get' | 'post' | 'patch' | 'put';
   let req = request(t.app)[method](path).set('authorization', `Bearer ${tokens[role]}`);
   if (body !== undefined) req = req.send(body as object);
-  const res = await req;
+  return check(key, await req);
+}
+
+/** Parses a success answer `res` with the schema of route `key`; fails with the first problem. */
+function check<K extends JsonRouteKey>(
+  key: K,
+  res: request.Response,
+): z.infer<(typeof RESPONSES)[K]> {
   expect(
     res.status,
     `${key} → ${res.status} ${JSON.stringify(res.body).slice(0, 300)}`,
@@ -48,6 +55,26 @@ async function call<K extends JsonRouteKey>(
   checked.add(key);
   return parsed.data as z.infer<(typeof RESPONSES)[K]>;
 }
+
+/** Calls a CSV route as `role`: a 200 with a CSV body, as its line in RESPONSES says. */
+async function callCsv(role: string, key: ResponseKey, path: string): Promise<string> {
+  expect(RESPONSES[key]).toBe('csv');
+  const res = await request(t.app).get(path).set('authorization', `Bearer ${tokens[role]}`);
+  expect(res.status, `${key} → ${res.status}`).toBe(200);
+  expect(res.headers['content-type']).toMatch(/^text\/csv/);
+  checked.add(key);
+  return res.text;
+}
+
+/** A 16 MHz crystal DUT with a ±5 ppm limit. */
+const crystal = (label: string) => ({
+  label,
+  kind: 'crystal',
+  nominal: 16_000_000,
+  unit: 'Hz',
+  limit: 5,
+  limitUnit: 'ppm',
+});
 
 const readings = (n: number, base: number) =>
   Array.from({ length: n }, (_, i) => ({
@@ -97,14 +124,7 @@ describe('the contract over a representative walk', () => {
       'engineer',
       'POST /api/studies/:id/duts',
       `/api/studies/${study.id}/duts`,
-      {
-        label: 'Q1 crystal',
-        kind: 'crystal',
-        nominal: 16_000_000,
-        unit: 'Hz',
-        limit: 5,
-        limitUnit: 'ppm',
-      },
+      crystal('Q1 crystal'),
     );
     await call('engineer', 'PATCH /api/duts/:id', `/api/duts/${dut.id}`, { serial: 'CW-0001' });
     await call('viewer', 'GET /api/studies/:id', `/api/studies/${study.id}`);
@@ -225,5 +245,234 @@ describe('the contract over a representative walk', () => {
 
     // The walk covers a fair share of the table.
     expect(checked.size).toBeGreaterThanOrEqual(35);
+  }, 180_000);
+});
+
+/** Yesterday or a year from now as YYYY-MM-DD (UTC), for calibration records. */
+const dayFromNow = (days: number) =>
+  new Date(Date.now() + days * 86_400_000).toISOString().slice(0, 10);
+
+/** Each call here is one the server used to answer outside `reply()`; every one is now typed and checked. */
+const ROUTED_THROUGH_REPLY: ResponseKey[] = [
+  'GET /api/instruments/:id/calibrations',
+  'POST /api/instruments/:id/calibrations',
+  'POST /api/instruments/:id/away',
+  'POST /api/instruments/:id/retire',
+  'POST /api/instruments/:id/reinstate',
+  'GET /api/references/:id/calibrations',
+  'POST /api/references/:id/calibrations',
+  'POST /api/references/:id/away',
+  'POST /api/references/:id/retire',
+  'POST /api/references/:id/reinstate',
+  'GET /api/duts/:id/tilt-checks',
+  'GET /api/captures/:id/baseline',
+  'POST /api/studies/:id/attachments',
+  'GET /api/studies/:id/attachments',
+  'POST /api/checkpoints/:id/attachments',
+  'GET /api/checkpoints/:id/attachments',
+  'POST /api/captures/:id/attachments',
+  'GET /api/captures/:id/attachments',
+  'PATCH /api/studies/:id',
+  'POST /api/studies/:id/checkpoints/order',
+  'PATCH /api/checkpoints/:id',
+  'GET /api/studies/:id/cells',
+  'PUT /api/studies/:id/cells',
+  'POST /api/captures/:id/exclude',
+  'POST /api/captures/:id/include',
+  'GET /api/captures/:id/analysis',
+  'GET /api/captures/:id/export.csv',
+  'GET /api/studies/:id/captures.csv',
+];
+
+describe('the contract of the equipment, attachment, editing and export routes', () => {
+  it('answers each of them in the shape shared/protocol names', async () => {
+    // Equipment: the calibration routes an instrument and a reference share.
+    const { instrument } = await call('admin', 'POST /api/instruments', '/api/instruments', {
+      name: 'Contract counter',
+      kind: 'counter',
+    });
+    const { reference } = await call('lead', 'POST /api/references', '/api/references', {
+      name: 'Contract OCXO',
+      nominalHz: 10_000_000,
+      fractionalOffset: 1e-9,
+      standardUncertainty: 1e-10,
+    });
+    const record = {
+      calibratedOn: dayFromNow(-1),
+      dueOn: dayFromNow(364),
+      certificate: 'DBX-C-0001',
+      issuedBy: 'Driftbench demo calibration lab',
+    };
+    for (const [role, base, extra] of [
+      ['admin', `/api/instruments/${instrument.id}`, {}],
+      [
+        'lead',
+        `/api/references/${reference.id}`,
+        { fractionalOffset: 2e-9, standardUncertainty: 1e-10 },
+      ],
+    ] as const) {
+      const subject = base.startsWith('/api/instruments') ? 'instruments' : 'references';
+      const recorded = await call(
+        role,
+        `POST /api/${subject}/:id/calibrations`,
+        `${base}/calibrations`,
+        {
+          ...record,
+          ...extra,
+        },
+      );
+      expect(recorded.calibration.certificate).toBe('DBX-C-0001');
+      const history = await call(
+        role,
+        `GET /api/${subject}/:id/calibrations`,
+        `${base}/calibrations`,
+      );
+      expect(history.calibrations).toHaveLength(1);
+      const away = await call(role, `POST /api/${subject}/:id/away`, `${base}/away`, {});
+      expect(Object.values(away)[0].calibration.state).toBe('away');
+      await call(role, `POST /api/${subject}/:id/reinstate`, `${base}/reinstate`, {});
+      const retired = await call(role, `POST /api/${subject}/:id/retire`, `${base}/retire`, {
+        reason: 'Contract walk',
+      });
+      expect(Object.values(retired)[0].retiredReason).toBe('Contract walk');
+      await call(role, `POST /api/${subject}/:id/reinstate`, `${base}/reinstate`, {});
+    }
+
+    // A study with two checkpoints, a crystal and one finished capture.
+    const study = await call('engineer', 'POST /api/studies', '/api/studies', {
+      title: 'Contract walk, part two',
+      allowSimulated: true,
+    });
+    const cps = [];
+    for (const [name, order] of [
+      ['As received', 0],
+      ['After shock', 1],
+    ] as const)
+      cps.push(
+        await call(
+          'engineer',
+          'POST /api/studies/:id/checkpoints',
+          `/api/studies/${study.id}/checkpoints`,
+          {
+            name,
+            order,
+          },
+        ),
+      );
+    const dut = await call(
+      'engineer',
+      'POST /api/studies/:id/duts',
+      `/api/studies/${study.id}/duts`,
+      crystal('Q2 crystal'),
+    );
+    const capture = await call('technician', 'POST /api/captures', '/api/captures', {
+      dutId: dut.id,
+      checkpointId: cps[0].id,
+      quantity: 'frequency',
+      unit: 'Hz',
+      gateTime: 1,
+      ambientC: 23,
+    });
+    await call(
+      'technician',
+      'POST /api/captures/:id/readings',
+      `/api/captures/${capture.id}/readings`,
+      {
+        readings: readings(100, 16_000_000.02),
+      },
+    );
+    await call(
+      'technician',
+      'POST /api/captures/:id/finish',
+      `/api/captures/${capture.id}/finish`,
+      {},
+    );
+
+    // The analysis route's pre-serialised text, the baseline, a crystal's (empty) tilt checks.
+    const analysis = await call(
+      'viewer',
+      'GET /api/captures/:id/analysis',
+      `/api/captures/${capture.id}/analysis?kind=oadev`,
+    );
+    expect(analysis.stats?.n).toBe(100);
+    await call('viewer', 'GET /api/captures/:id/baseline', `/api/captures/${capture.id}/baseline`);
+    const tilt = await call(
+      'viewer',
+      'GET /api/duts/:id/tilt-checks',
+      `/api/duts/${dut.id}/tilt-checks`,
+    );
+    expect(tilt.tiltChecks).toEqual([]);
+
+    // Attachments on each kind of owner, then the lists.
+    for (const [owner, id] of [
+      ['studies', study.id],
+      ['checkpoints', cps[0].id],
+      ['captures', capture.id],
+    ] as const) {
+      const uploaded = check(
+        `POST /api/${owner}/:id/attachments`,
+        await request(t.app)
+          .post(`/api/${owner}/${id}/attachments`)
+          .set('authorization', `Bearer ${tokens.technician}`)
+          .attach('file', Buffer.from('seq,value\n0,1\n'), {
+            filename: `${owner}.csv`,
+            contentType: 'text/csv',
+          }),
+      );
+      expect(uploaded.filename).toBe(`${owner}.csv`);
+      const list = await call(
+        'viewer',
+        `GET /api/${owner}/:id/attachments`,
+        `/api/${owner}/${id}/attachments`,
+      );
+      expect(list.attachments.map((a) => a.id)).toContain(uploaded.id);
+    }
+
+    // Editing with history: the study, the checkpoint order, a checkpoint, the cell, the evidence.
+    const edited = await call('engineer', 'PATCH /api/studies/:id', `/api/studies/${study.id}`, {
+      description: 'Two checkpoints, one crystal.',
+    });
+    expect(edited.description).toBe('Two checkpoints, one crystal.');
+    const order = await call(
+      'engineer',
+      'POST /api/studies/:id/checkpoints/order',
+      `/api/studies/${study.id}/checkpoints/order`,
+      { ids: [cps[1].id, cps[0].id] },
+    );
+    expect(order.checkpoints.map((c) => c.id)).toEqual([cps[1].id, cps[0].id]);
+    await call('engineer', 'PATCH /api/checkpoints/:id', `/api/checkpoints/${cps[1].id}`, {
+      name: 'After drop',
+    });
+    const cell = `dutId=${dut.id}&checkpointId=${cps[0].id}`;
+    const cells = await call(
+      'viewer',
+      'GET /api/studies/:id/cells',
+      `/api/studies/${study.id}/cells?${cell}`,
+    );
+    expect(cells.captures.map((c) => c.id)).toEqual([capture.id]);
+    await call('lead', 'PUT /api/studies/:id/cells', `/api/studies/${study.id}/cells`, {
+      dutId: dut.id,
+      checkpointId: cps[0].id,
+      captureId: capture.id,
+    });
+    await call('lead', 'POST /api/captures/:id/exclude', `/api/captures/${capture.id}/exclude`, {
+      reason: 'Contract walk: left out',
+    });
+    await call('lead', 'POST /api/captures/:id/include', `/api/captures/${capture.id}/include`, {});
+
+    // The CSV downloads.
+    const one = await callCsv(
+      'viewer',
+      'GET /api/captures/:id/export.csv',
+      `/api/captures/${capture.id}/export.csv`,
+    );
+    expect(one).toContain('# ');
+    await callCsv(
+      'viewer',
+      'GET /api/studies/:id/captures.csv',
+      `/api/studies/${study.id}/captures.csv`,
+    );
+
+    expect(ROUTED_THROUGH_REPLY.filter((key) => !checked.has(key))).toEqual([]);
   }, 180_000);
 });
