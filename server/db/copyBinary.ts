@@ -1,0 +1,53 @@
+/**
+ * Readings in PostgreSQL's binary COPY format, for `COPY readings (capture_id, seq, t, value,
+ * flags) FROM STDIN (FORMAT binary)`: no number is printed in Node or parsed by PostgreSQL, and
+ * every double arrives bit for bit (as with the binary array parameters of binaryArrays.ts).
+ *
+ * Layout (PostgreSQL's documentation of COPY, "Binary Format"): the 11-byte signature
+ * `PGCOPY\n\377\r\n\0`, an int32 flags field (0) and an int32 header-extension length (0); then
+ * per row an int16 field count and, per field, an int32 byte length and the value in its type's
+ * binary send form (big-endian); then the int16 trailer −1.
+ */
+const SIGNATURE = Buffer.from([0x50, 0x47, 0x43, 0x4f, 0x50, 0x59, 0x0a, 0xff, 0x0d, 0x0a, 0x00]);
+/** Bytes of one row: field count, then int4, int4, float8, float8, int2, each with its length. */
+const ROW_BYTES = 2 + (4 + 4) + (4 + 4) + (4 + 8) + (4 + 8) + (4 + 2);
+
+/** The COPY statement the rows of {@link readingsCopyBinary} are for. */
+export const READINGS_COPY_SQL =
+  'COPY readings (capture_id, seq, t, value, flags) FROM STDIN (FORMAT binary)';
+
+/**
+ * One capture's readings, column by column (equal lengths), as a binary COPY body. `seq` must be
+ * whole numbers in the int32 range and `flags` in the int16 range (the ingest checks both).
+ */
+export function readingsCopyBinary(
+  captureId: number,
+  seq: ArrayLike<number>,
+  t: ArrayLike<number>,
+  value: ArrayLike<number>,
+  flags: ArrayLike<number>,
+): Buffer {
+  const n = seq.length;
+  const buf = Buffer.allocUnsafe(SIGNATURE.length + 8 + n * ROW_BYTES + 2);
+  SIGNATURE.copy(buf, 0);
+  let o = SIGNATURE.length;
+  buf.writeInt32BE(0, o);
+  buf.writeInt32BE(0, o + 4);
+  o += 8;
+  for (let i = 0; i < n; i++) {
+    buf.writeInt16BE(5, o);
+    buf.writeInt32BE(4, o + 2);
+    buf.writeInt32BE(captureId, o + 6);
+    buf.writeInt32BE(4, o + 10);
+    buf.writeInt32BE(seq[i], o + 14);
+    buf.writeInt32BE(8, o + 18);
+    buf.writeDoubleBE(t[i], o + 22);
+    buf.writeInt32BE(8, o + 30);
+    buf.writeDoubleBE(value[i], o + 34);
+    buf.writeInt32BE(2, o + 42);
+    buf.writeInt16BE(flags[i], o + 46);
+    o += ROW_BYTES;
+  }
+  buf.writeInt16BE(-1, o);
+  return buf;
+}
