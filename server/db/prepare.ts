@@ -4,6 +4,7 @@ import { migrate } from '../migrations/index.js';
 import { initModels } from '../models/index.js';
 import { isEmpty, seedDemo } from './seed.js';
 import { retireDemoAccounts } from './demoAccounts.js';
+import { ensurePartitionsAhead } from '../services/partitions.js';
 
 /** Opens the database at `url`, applies pending migrations, binds the models and seeds the demo lab when asked and empty. */
 export async function prepareDatabase(
@@ -20,5 +21,7 @@ export async function prepareDatabase(
     opts.log?.info('demo lab seeded');
   }
   if (opts.retireDemo && !opts.demo) await retireDemoAccounts(opts.log);
+  // The readings partitions of the next capture's block and the one after (migration 20261202-0200).
+  await ensurePartitionsAhead(db.sequelize);
   return db;
 }

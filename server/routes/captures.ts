@@ -5,7 +5,7 @@ import { pipeline } from 'node:stream/promises';
 import { to as copyTo } from 'pg-copy-streams';
 import { parse } from '../middleware/validate.js';
 import { authorize, currentUser } from '../middleware/auth.js';
-import { reply } from '../middleware/responses.js';
+import { reply, replyText } from '../middleware/responses.js';
 import {
   CaptureCreate,
   CapturePatch,
@@ -27,6 +27,7 @@ import { finishCapture } from '../services/finish.js';
 import { abortCapture } from '../services/captureLifecycle.js';
 import { CaptureAbort, CaptureState, isRecording } from '../../shared/protocol/captureLifecycle.js';
 import { readSeries } from '../services/readings.js';
+import { assertReadingsOnline } from '../services/partitions.js';
 import { compareCaptures } from '../services/comparisons.js';
 import { conditionsBetween } from '../services/conditions.js';
 import type { LiveHub } from '../ws/live.js';
@@ -119,6 +120,8 @@ export function capturesRouter(
         finished: !isRecording(c.state),
         highestSeq: c.highestSeq,
       });
+      // Nothing where the capture has readings: its partition may have been archived (410).
+      if (out.readings.length === 0 && c.readingCount > 0) await assertReadingsOnline(pool, id);
       reply(res, 'GET /api/captures/:id/readings', {
         ...out,
         nextFrom: to < Math.min(q.to ?? c.highestSeq, c.highestSeq) ? to + 1 : null,
@@ -130,11 +133,13 @@ export function capturesRouter(
       finished: !isRecording(c.state),
       highestSeq: c.highestSeq,
     });
+    if (out.readings.length === 0 && c.readingCount > 0) await assertReadingsOnline(pool, id);
     reply(res, 'GET /api/captures/:id/readings', out);
   });
   r.get('/:id/readings.csv', authorize('read'), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
     const c = await requireCapture(id);
+    await assertReadingsOnline(pool, id);
     const client = await pool.connect();
     try {
       res.setHeader('content-type', 'text/csv; charset=utf-8');
@@ -157,17 +162,15 @@ export function capturesRouter(
     const { id } = parse(IdParam, req.params, 'id');
     const q = parse(AnalysisQuery, req.query, 'query');
     const c = await requireCapture(id);
+    await assertReadingsOnline(pool, id);
     // Computed in a worker thread (server/analysis/worker.ts: the same figures — summary,
     // stability on the series with the chosen drift removed), cached per reading count, with
     // concurrent requests for the same capture sharing one computation.
-    res
-      .type('application/json')
-      .send(
-        await analysis.analysis(
-          { captureId: id, ...q },
-          { readingCount: c.readingCount, state: c.state },
-        ),
-      );
+    const text = await analysis.analysis(
+      { captureId: id, ...q },
+      { readingCount: c.readingCount, state: c.state },
+    );
+    replyText(res, 'GET /api/captures/:id/analysis', text);
   });
   return r;
 }

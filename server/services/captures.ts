@@ -9,6 +9,7 @@ import { pageOf } from './paging.js';
 import { assertStudyWritable } from './studyLock.js';
 import { startOnFirstCapture } from './workflow.js';
 import { audit, changes } from './audit.js';
+import { ensureReadingsPartitions } from './partitions.js';
 import type { CaptureSummary as CaptureSummaryWire } from '../../shared/protocol/models.js';
 
 /** The capture as the API shows it. */
@@ -172,6 +173,8 @@ export async function createCapture(input: CaptureCreate, operator: AuthUser) {
     );
     return created;
   });
+  // Its readings' partition (normally made ahead) and the next block's, before any reading arrives.
+  await ensureReadingsPartitions(Capture.sequelize!, capture.id);
   return capturePublic(capture);
 }
 
