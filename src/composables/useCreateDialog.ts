@@ -46,8 +46,10 @@ export function useCreateDialog<D, R = unknown>(options: {
 
   function onEnter(event: KeyboardEvent): void {
     const target = event.target as HTMLElement | null;
-    // Enter in a select opens or picks an option, and in a textarea starts a new line; only plain inputs submit.
-    if (!target || target.tagName !== 'INPUT' || target.closest('.el-select')) return;
+    // Enter in a select opens or picks an option, in a date field takes the typed date, and in a
+    // textarea starts a new line; only plain inputs submit.
+    if (!target || target.tagName !== 'INPUT' || target.closest('.el-select, .el-date-editor'))
+      return;
     event.preventDefault();
     void submit();
   }
