@@ -4,7 +4,7 @@
  * what an earlier session left and says how each capture's backlog ended.
  */
 import { ApiError } from './http';
-import { postReadings, refusedReadingIndex } from './captures';
+import { isPermanentRefusal, postReadings, refusedReadingIndex } from './readings';
 import {
   MemoryPendingStore,
   ReadingUploader,
@@ -14,10 +14,7 @@ import {
 import { IndexedDbPendingStore } from './indexedDbStore';
 import { groupDigits } from '../utils/format';
 
-/** 400, 403, 404, 409: the server will never take these readings, so retrying is pointless. */
-export function isPermanentRefusal(err: unknown): boolean {
-  return err instanceof ApiError && [400, 403, 404, 409].includes(err.status);
-}
+export { isPermanentRefusal };
 
 /**
  * How a backlog left by an earlier session ended: all on the server, discarded because the
@@ -143,7 +140,7 @@ export async function resumeBacklog(
     let refusal: unknown = null;
     const u = new ReadingUploader(id, {
       store,
-      send: (cid, r, signal) => postReadings(cid, r, { signal }),
+      send: (cid, r, signal, encoding) => postReadings(cid, r, { signal, encoding }),
       refusedReading: refusedReadingIndex,
       isPermanent: (err) => {
         if (!isPermanentRefusal(err)) return false;

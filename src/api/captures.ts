@@ -3,7 +3,7 @@
  * readings in and out, finish, analysis, comparison and the CSV export.
  */
 import type { z } from 'zod';
-import { ApiError, http, toApiError, type RequestOptions } from './http';
+import { http, toApiError, type RequestOptions } from './http';
 import { allPages } from './paging';
 import type {
   AnalysisQuery as AnalysisQuerySchema,
@@ -113,33 +113,8 @@ export async function patchCapture(
   return http.patch<Capture>(`/api/captures/${id}`, patch, options);
 }
 
-/** How long one readings batch may wait for the server's answer before it counts as failed (ms). */
-export const READINGS_TIMEOUT_MS = 30_000;
-
-/**
- * Sends one batch (≤ 20 000 readings); the server ignores seqs it already holds. Without a
- * caller's signal it gives up after {@link READINGS_TIMEOUT_MS}, so a half-open connection
- * becomes a failure the uploader retries instead of a request that hangs forever.
- */
-export function postReadings(
-  id: number,
-  readings: ReadingIn[],
-  options: RequestOptions = {},
-): Promise<IngestResult> {
-  const signal = options.signal ?? AbortSignal.timeout(READINGS_TIMEOUT_MS);
-  return http.post<IngestResult>(
-    `/api/captures/${id}/readings`,
-    { readings },
-    { ...options, signal },
-  );
-}
-
-/** The index of the one bad reading a 400 refusal of a batch names (`details.index`), else null. */
-export function refusedReadingIndex(err: unknown): number | null {
-  if (!(err instanceof ApiError) || err.status !== 400) return null;
-  const index = err.context?.index;
-  return typeof index === 'number' && Number.isInteger(index) && index >= 0 ? index : null;
-}
+// Readings in (the uploader's one call) live in ./readings, which needs no DOM (Node tests use it).
+export { READINGS_TIMEOUT_MS, postReadings, refusedReadingIndex } from './readings';
 
 export async function finishCapture(id: number, options?: RequestOptions): Promise<Capture> {
   return http.post<Capture>(`/api/captures/${id}/finish`, {}, options);

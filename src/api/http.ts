@@ -134,7 +134,7 @@ export async function request<T>(
 ): Promise<T> {
   const token = hooks.getToken();
   const headers: Record<string, string> = { Accept: 'application/json' };
-  const bytes = body instanceof Uint8Array ? body : null;
+  const bytes = body instanceof Uint8Array ? (body as Uint8Array<ArrayBuffer>) : null;
   if (body !== undefined)
     headers['Content-Type'] = bytes
       ? (options.contentType ?? 'application/octet-stream')

@@ -45,9 +45,13 @@ export class IndexedDbPendingStore implements PendingStore {
     await done(tx);
   }
 
-  async take(captureId: number, limit: number) {
+  async take(captureId: number, limit: number, afterSeq?: number) {
     const tx = (await this.db).transaction(STORE, 'readonly');
-    const rows = (await req(tx.objectStore(STORE).getAll(range(captureId), limit))) as Row[];
+    const keys =
+      afterSeq === undefined
+        ? range(captureId)
+        : IDBKeyRange.bound([captureId, afterSeq], [captureId, Number.MAX_SAFE_INTEGER], true);
+    const rows = (await req(tx.objectStore(STORE).getAll(keys, limit))) as Row[];
     return rows.map(({ seq, t, value, flags }) => ({ seq, t, value, flags }));
   }
 

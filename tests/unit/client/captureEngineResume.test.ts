@@ -7,6 +7,7 @@ import type { LiveSeries } from '../../../src/composables/useLiveSeries';
 import type { Capture } from '../../../src/api/captures';
 import type { SerialLink } from '../../../src/links/SerialLink';
 import { linkPreset } from '../../../shared/protocol/linkProfile';
+import { decodeReadingsF64 } from '../../../shared/protocol/readingsBinary';
 
 // The capture engine continues a capture after a reload (issue 13): no new capture is opened,
 // seqs go on after the highest stored one and capture time after the last stored reading.
@@ -51,7 +52,10 @@ describe('resuming a capture in the engine', () => {
           headers: { 'Content-Type': 'application/json' },
         });
       if (url.endsWith('/readings')) {
-        const batch = JSON.parse(String(init?.body)).readings as Array<{ seq: number; t: number }>;
+        // The bench sends the compact binary body (issue 15).
+        const cols = decodeReadingsF64(init?.body as Uint8Array);
+        if (!('seq' in cols)) throw new Error(cols.reason);
+        const batch = cols.seq.map((seq, i) => ({ seq, t: cols.t[i] }));
         sent.push(...batch);
         return json({
           accepted: batch.length,

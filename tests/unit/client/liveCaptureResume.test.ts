@@ -3,6 +3,7 @@ import { afterEach, describe, expect, it, vi } from 'vitest';
 import { mount } from '@vue/test-utils';
 import { ApiError, configureHttp, http } from '../../../src/api/http';
 import { refusedReadingIndex } from '../../../src/api/captures';
+import { decodeReadingsF64, READINGS_F64_TYPE } from '../../../shared/protocol/readingsBinary';
 import { MemoryPendingStore, type UploaderState } from '../../../src/api/uploader';
 import {
   createLiveCapture,
@@ -75,10 +76,11 @@ describe('resuming readings left by an earlier session', () => {
     expect(outcome.kind).toBe('sent');
     expect(outcome.message).toContain('1 reading the server named as malformed was dropped');
     expect(up.refused).toBe(1);
-    const second = JSON.parse(String(fetchMock.mock.calls[1][1]?.body)) as {
-      readings: Array<{ seq: number }>;
-    };
-    expect(second.readings.map((r) => r.seq)).toEqual([0, 1, 3]);
+    // The backlog goes in the compact binary body (issue 15).
+    const init = fetchMock.mock.calls[1][1];
+    expect(new Headers(init?.headers).get('content-type')).toBe(READINGS_F64_TYPE);
+    const second = decodeReadingsF64(init?.body as Uint8Array);
+    expect('seq' in second && second.seq).toEqual([0, 1, 3]);
     expect(await store.count(5)).toBe(0);
   });
 
