@@ -390,6 +390,14 @@ export async function attachReadingBlock(pool: pg.Pool, block: number): Promise<
   }
 }
 
+/** True when the block holding `captureId`'s readings has been taken out. */
+export async function readingsArchived(pool: pg.Pool, captureId: number): Promise<boolean> {
+  const { rowCount } = await pool.query('SELECT 1 FROM reading_archives WHERE block = $1', [
+    blockOf(captureId),
+  ]);
+  return (rowCount ?? 0) > 0;
+}
+
 /** 410 `readings-archived` when the block holding `captureId`'s readings has been taken out. */
 export async function assertReadingsOnline(pool: pg.Pool, captureId: number): Promise<void> {
   const { rows } = await pool.query<{

@@ -2,6 +2,7 @@ import { createHash } from 'node:crypto';
 import type pg from 'pg';
 import { NotFoundError } from '../errors.js';
 import type { Series } from './readings.js';
+import { readingsArchived } from './partitions.js';
 
 /**
  * Sealed evidence. When a capture finishes, the SHA-256 of its raw readings in a canonical
@@ -41,9 +42,14 @@ export interface SealCheck {
   readings: number;
   /** The digest of the readings as stored now. */
   recomputed: string;
-  /** True when the stored digest matches the readings now; null when there is no seal yet. */
+  /**
+   * True when the stored digest matches the readings now; null when there is no seal yet, or when
+   * the readings are archived (their partition taken out) and cannot be read to check it.
+   */
   verified: boolean | null;
   sealedAt: Date | null;
+  /** True when the capture's readings block was archived (server/services/partitions.ts). */
+  archived?: boolean;
 }
 
 /**
@@ -63,6 +69,18 @@ export async function checkSeal(pool: pg.Pool, captureId: number): Promise<SealC
   );
   if (rows.length === 0) throw new NotFoundError('Capture');
   const now = await pool.query<{ n: number; h: string }>(SEAL_SQL, [captureId]);
+  // No rows may mean an archived block: then the seal cannot be checked, which is not a break.
+  if (now.rows[0].n === 0 && (await readingsArchived(pool, captureId))) {
+    return {
+      captureId,
+      sha256: rows[0].seal_sha256,
+      readings: 0,
+      recomputed: '',
+      verified: null,
+      sealedAt: rows[0].sealed_at,
+      archived: true,
+    };
+  }
   const recomputed = now.rows[0].h;
   const stored = rows[0].seal_sha256;
   return {

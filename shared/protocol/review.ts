@@ -117,6 +117,8 @@ export const SealAnswer = z.object({
   recomputed: z.string(),
   verified: z.boolean().nullable(),
   sealedAt: z.string().nullable(),
+  /** The readings' partition was archived: the seal cannot be checked until it is attached back. */
+  archived: z.boolean().optional(),
 });
 export type SealAnswer = z.infer<typeof SealAnswer>;
 

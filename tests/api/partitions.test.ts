@@ -423,6 +423,11 @@ describe('archiving a block of captures', () => {
       });
       expect(res.body.error.message).toMatch(/archived/);
     }
+    // Its seal cannot be checked while archived, which is not a broken seal.
+    const sealed = await request(t.app).get('/api/captures/5000/seal').set(viewer);
+    expect(sealed.status).toBe(200);
+    expect(sealed.body).toMatchObject({ verified: null, archived: true, readings: 0 });
+    expect(sealed.body.sha256).toMatch(/^[0-9a-f]{64}$/);
     // Captures of other blocks read as before.
     const other = await request(t.app).get('/api/captures/6100/readings').set(viewer);
     expect(other.status).toBe(200);
@@ -436,6 +441,9 @@ describe('archiving a block of captures', () => {
     const back = await request(t.app).get('/api/captures/5000/readings').set(viewer);
     expect(back.status).toBe(200);
     expect(back.body.readings).toHaveLength(10_000);
+    const resealed = await request(t.app).get('/api/captures/5000/seal').set(viewer);
+    expect(resealed.body).toMatchObject({ verified: true, readings: 10_000 });
+    expect(resealed.body.archived).toBeUndefined();
   });
 
   it.skipIf(!findPgDump())(
