@@ -108,6 +108,19 @@ export function boundsOf(
   return { min: node.minValue ?? null, max: node.maxValue ?? null };
 }
 
+/**
+ * A numeric input's `min` and `max` from a shared schema's field (`v-bind="inputBounds(…)"` on an
+ * `el-input-number`); a side the schema leaves open stays open.
+ */
+export function inputBounds(
+  schema: z.ZodType,
+  path: readonly string[],
+  variant?: string,
+): { min: number; max: number } {
+  const { min, max } = boundsOf(schema, path, variant);
+  return { min: min ?? -Infinity, max: max ?? Infinity };
+}
+
 /** The longest text a shared schema takes for one field (a textarea's `maxlength`), or undefined. */
 export function maxLengthOf(
   schema: z.ZodType,
