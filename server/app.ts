@@ -116,7 +116,7 @@ export function createApp(ctx: AppContext): Express {
   api.use('/references', referencesRouter());
   api.use('/duts', dutsRouter());
   api.use('/duts', tiltChecksRouter(ctx.db.pool));
-  api.use('/captures', captureBaselineRouter());
+  api.use('/captures', captureBaselineRouter(ctx.db.pool));
   // Editing with history (issue 13): edit, reorder, archive, delete; exclusions and cell choices.
   api.use('/studies', studyEditRouter());
   api.use('/checkpoints', checkpointsRouter());

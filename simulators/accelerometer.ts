@@ -71,6 +71,13 @@ export const ORIENTATIONS = {
   edge: { pitchDeg: 90, rollDeg: 0 }, // +1 g on X
   'edge-y': { pitchDeg: 0, rollDeg: 90 }, // +1 g on Y
   inverted: { pitchDeg: 0, rollDeg: 180 }, // −1 g on Z
+  // The six axis poses of a tilt check on any axis (the capture's recorded orientation names).
+  'x-up': { pitchDeg: 90, rollDeg: 0 }, // +1 g on X
+  'x-down': { pitchDeg: -90, rollDeg: 0 }, // −1 g on X
+  'y-up': { pitchDeg: 0, rollDeg: 90 }, // +1 g on Y
+  'y-down': { pitchDeg: 0, rollDeg: -90 }, // −1 g on Y
+  'z-up': { pitchDeg: 0, rollDeg: 0 }, // +1 g on Z
+  'z-down': { pitchDeg: 0, rollDeg: 180 }, // −1 g on Z
 } as const satisfies Record<string, Orientation>;
 export type OrientationName = keyof typeof ORIENTATIONS;
 

@@ -14,7 +14,7 @@ import {
   hzPerUnit,
   AnalysisError,
   accelerationBudget,
-  zOrientation,
+  axisOrientation,
   DEFAULT_ACCEL_LSB_MG,
   DEFAULT_ORIENTATION_ERROR_DEG,
   type DriftModel,
@@ -22,6 +22,7 @@ import {
   type StabilityKind,
   type Summary,
 } from '../../shared/analysis/index.js';
+import { spiAxisOf } from '../../shared/protocol/accelerometer.js';
 import type { Capture, Dut } from '../models/index.js';
 import { TUNING_FORK_DEFAULTS } from '../models/Dut.js';
 import { loadSeries, type Series } from './readings.js';
@@ -442,7 +443,9 @@ export function reduce(
   }
   if (c.quantity === 'acceleration' && c.unit === 'mg' && p.stats) {
     // An acceleration capture's own budget: the scatter, the sensor's LSB and the board's pose.
-    uncertainty = accelerationBudget(p.stats, zOrientation(c.orientation), {
+    // The pose is judged for the axis the capture read (its link profile's register; Z otherwise).
+    const axis = spiAxisOf(c.linkProfile) ?? 'z';
+    uncertainty = accelerationBudget(p.stats, axisOrientation(axis, c.orientation), {
       lsbMg: DEFAULT_ACCEL_LSB_MG,
       orientationErrorDeg: DEFAULT_ORIENTATION_ERROR_DEG,
     });

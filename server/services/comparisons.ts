@@ -11,6 +11,7 @@ import { conditionsBetween } from './conditions.js';
 import { loadComparisonInputs, type ComparisonInputs } from './comparisonInputs.js';
 import { baselineOfOrientation, needsSameOrientation, orientationWord } from './baseline.js';
 import { tiltCellsFor, tiltChecksOf } from './tiltChecks.js';
+import { judgeStability, stabilityLimitOf } from './stabilityLimits.js';
 import { summaryOf } from './summaries.js';
 import { chosenCells, representatives } from './cells.js';
 import {
@@ -399,6 +400,11 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
         sealBroken: c.sealBrokenAt != null,
         chosen: cellOf.get(`${dut.id}:${cp.id}`)?.chosen ?? false,
       };
+      // A crystal's stability limit: judged on this capture from the DUT's current limit (read
+      // time, so a changed limit never leaves a stale verdict), with the baseline's σy beside it.
+      const stab = stabilityLimitOf(dut)
+        ? { stability: await judgeStability(pool, c, dut, rowBase ?? null) }
+        : {};
       // Acceleration is compared only with a baseline of the same orientation (services/baseline.ts).
       const { base, problem: orientationProblem } = baselineOfOrientation(
         c,
@@ -418,7 +424,13 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
         } catch (err) {
           // One capture that cannot be compared (e.g. in another unit) must not hide the others.
           if (!(err instanceof AppError) && !(err instanceof AnalysisError)) throw err;
-          cells.push({ checkpointId: cp.id, capture, comparison: null, problem: err.message });
+          cells.push({
+            checkpointId: cp.id,
+            capture,
+            comparison: null,
+            problem: err.message,
+            ...stab,
+          });
           continue;
         }
         comparison = {
@@ -441,7 +453,7 @@ export async function studyMatrix(pool: pg.Pool, studyId: number) {
           conditions: await conditionsBetween(base, c, loaded),
         };
       }
-      cells.push({ checkpointId: cp.id, capture, comparison });
+      cells.push({ checkpointId: cp.id, capture, comparison, ...stab });
     }
     // An accelerometer's tilt checks: the DUT's result per checkpoint and its change per axis (other kinds' cells carry none).
     const tilt = await tiltCellsFor(

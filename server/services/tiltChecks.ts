@@ -6,6 +6,7 @@ import { assertStudyWritable } from './studyLock.js';
 import { summaryOf } from './summaries.js';
 import {
   AnalysisError,
+  axisOrientation,
   compareTiltChecks,
   DEFAULT_ACCEL_LSB_MG,
   DEFAULT_ORIENTATION_ERROR_DEG,
@@ -14,13 +15,21 @@ import {
   type QuantityLimit,
   type TiltCheckAxis,
 } from '../../shared/analysis/index.js';
-import type {
-  Axis,
-  MatrixTiltCell,
-  TiltChange,
-  TiltCheckCreate,
+import {
+  spiAxisOf,
+  type Axis,
+  type MatrixTiltCell,
+  type TiltChange,
+  type TiltCheckCreate,
 } from '../../shared/protocol/accelerometer.js';
 import type { StaticOrientation, TiltQuantityChange } from '../../shared/analysis/tiltCheck.js';
+
+/** A role's pose in words, for the refusal ("x-up (+1 g)"). */
+const POSE_WORDS: Record<StaticOrientation, (axis: Axis) => string> = {
+  flat: (a) => (a === 'z' ? 'flat' : `${a}-up (+1 g on ${a.toUpperCase()})`),
+  inverted: (a) => (a === 'z' ? 'inverted' : `${a}-down (−1 g on ${a.toUpperCase()})`),
+  'on-edge': (a) => (a === 'z' ? 'on-edge' : `a pose with ${a.toUpperCase()} level (0 g)`),
+};
 
 const ROLE: Record<'flatCaptureId' | 'invertedCaptureId' | 'onEdgeCaptureId', StaticOrientation> = {
   flatCaptureId: 'flat',
@@ -31,7 +40,9 @@ const ROLE: Record<'flatCaptureId' | 'invertedCaptureId' | 'onEdgeCaptureId', St
 /**
  * Records a guided tilt check as the DUT's result at a checkpoint: the captures must be this
  * accelerometer's finished acceleration captures (in mg) at that checkpoint, each in the
- * orientation of its role; the result is formed from their stored statistics (tiltCheckAxis) and
+ * orientation of its role for the check's axis (axisOrientation: `<axis>-up` +1 g, `<axis>-down`
+ * −1 g, another axis up or down level; Z also by its old names flat / on-edge / inverted) and, where
+ * its link profile names the register it polled, reading that axis; the result is formed from their stored statistics (tiltCheckAxis) and
  * stored with its budgets. Refused while the study is locked; audited.
  */
 export async function recordTiltCheck(
@@ -55,6 +66,7 @@ export async function recordTiltCheck(
       { path: 'checkpointId', message: "is not a checkpoint of this DUT's study" },
     ]);
   }
+  const axis: Axis = input.axis ?? 'z';
   const stats: Partial<Record<StaticOrientation, { n: number; mean: number; sd: number }>> = {};
   for (const field of ['flatCaptureId', 'invertedCaptureId', 'onEdgeCaptureId'] as const) {
     const id = input[field];
@@ -66,8 +78,13 @@ export async function recordTiltCheck(
     if (c.checkpointId !== input.checkpointId) throw fail('was taken at another checkpoint');
     if (c.quantity !== 'acceleration' || c.unit !== 'mg')
       throw fail('is not an acceleration capture in mg');
-    if (c.orientation !== ROLE[field])
-      throw fail(`was recorded ${c.orientation ?? 'without an orientation'}, not ${ROLE[field]}`);
+    if (axisOrientation(axis, c.orientation) !== ROLE[field])
+      throw fail(
+        `was recorded ${c.orientation ?? 'without an orientation'}, not ${POSE_WORDS[ROLE[field]](axis)}`,
+      );
+    const read = spiAxisOf(c.linkProfile);
+    if (read !== null && read !== axis)
+      throw fail(`read the ${read.toUpperCase()} axis, not ${axis.toUpperCase()}`);
     if (c.state !== 'finished') throw fail('is not finished');
     const s = await summaryOf(pool, c, dut);
     if (!s.stats || s.stats.n < 2) throw fail('has fewer than two usable readings');
@@ -96,7 +113,7 @@ export async function recordTiltCheck(
       {
         dutId,
         checkpointId: input.checkpointId,
-        axis: input.axis ?? 'z',
+        axis,
         flatCaptureId: input.flatCaptureId,
         invertedCaptureId: input.invertedCaptureId,
         onEdgeCaptureId: input.onEdgeCaptureId ?? null,

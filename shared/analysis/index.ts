@@ -29,3 +29,4 @@ export * from './coverage';
 export * from './correlatedUncertainty';
 export * from './planner';
 export * from './tiltCheck';
+export * from './stabilityAtTau';

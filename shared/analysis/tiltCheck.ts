@@ -380,26 +380,40 @@ export function compareTiltChecks(
   };
 }
 
+/** A sensing axis of a 3-axis accelerometer. */
+export type SensingAxis = 'x' | 'y' | 'z';
+
 /**
- * The static orientation of the Z axis for a capture's recorded orientation: flat (z-up) reads
- * +1 g, inverted (z-down) −1 g, any pose with another axis up leaves Z level (on edge); null when
- * not recorded or 'other'.
+ * The static orientation of one sensing axis for a capture's recorded orientation: `<axis>-up`
+ * reads +1 g (the check's "flat" pose), `<axis>-down` −1 g ("inverted"), a pose with another axis
+ * up or down leaves this axis level, 0 g ("on-edge"). The legacy names flat / inverted / on-edge
+ * describe the Z axis (z-up, z-down, another axis up): for Z they map as before; for X and Y,
+ * flat and inverted leave the axis level and on-edge (which axis was up is not recorded) gives
+ * null, as do a missing record and 'other' (the tilt geometry: common practice, no source).
  */
+export function axisOrientation(
+  axis: SensingAxis,
+  recorded: string | null | undefined,
+): StaticOrientation | null {
+  const legacy: Record<string, string> = { flat: 'z-up', inverted: 'z-down' };
+  const r = recorded ? (legacy[recorded] ?? recorded) : null;
+  if (r === 'on-edge') return axis === 'z' ? 'on-edge' : null;
+  const m = r ? /^([xyz])-(up|down)$/.exec(r) : null;
+  if (!m) return null;
+  if (m[1] !== axis) return 'on-edge';
+  return m[2] === 'up' ? 'flat' : 'inverted';
+}
+
+/** The orientation to record for a pose of the check on `axis` (the inverse of axisOrientation; Z keeps its legacy names). */
+export function recordedOrientation(axis: SensingAxis, pose: StaticOrientation): string {
+  if (axis === 'z') return pose;
+  if (pose === 'flat') return `${axis}-up`;
+  if (pose === 'inverted') return `${axis}-down`;
+  // Level: the board lies flat (Z up), so X and Y both read 0 g.
+  return 'z-up';
+}
+
+/** The Z axis's static orientation (axisOrientation for 'z'). */
 export function zOrientation(recorded: string | null | undefined): StaticOrientation | null {
-  switch (recorded) {
-    case 'flat':
-    case 'z-up':
-      return 'flat';
-    case 'inverted':
-    case 'z-down':
-      return 'inverted';
-    case 'on-edge':
-    case 'x-up':
-    case 'x-down':
-    case 'y-up':
-    case 'y-down':
-      return 'on-edge';
-    default:
-      return null;
-  }
+  return axisOrientation('z', recorded);
 }

@@ -150,3 +150,30 @@ export const CaptureBaseline = z.object({
   message: z.string().nullable(),
 });
 export type CaptureBaseline = z.infer<typeof CaptureBaseline>;
+
+/**
+ * The SPI bridge's poll line that stream-reads one axis of the DBX-3 accelerometer (register map
+ * in DEVELOPERS.md): command byte = register · 4 + read (2) + stream (1), then two clocking bytes
+ * for the big-endian word — X1 0x08 → 0x23, Y1 0x0A → 0x2B, Z1 0x0C → 0x33.
+ */
+export const SPI_AXIS_QUERY: Record<Axis, string> = {
+  x: '23 00 00',
+  y: '2B 00 00',
+  z: '33 00 00',
+};
+
+const AXIS_BY_REGISTER: Record<number, Axis> = { 0x08: 'x', 0x0a: 'y', 0x0c: 'z' };
+
+/**
+ * Which axis a hex-spi link profile reads (the register of its poll line's command byte), or null
+ * for any other profile (a counter, an imported capture, a register that is not an axis word).
+ */
+export function spiAxisOf(
+  profile: { parseRule?: string; queryCommand?: string } | null | undefined,
+): Axis | null {
+  if (!profile || profile.parseRule !== 'hex-spi' || !profile.queryCommand) return null;
+  const first = /^\s*([0-9a-fA-F]{2})/.exec(profile.queryCommand);
+  if (!first) return null;
+  const cmd = parseInt(first[1], 16);
+  return AXIS_BY_REGISTER[(cmd >> 2) & 0x3f] ?? null;
+}

@@ -7,6 +7,7 @@
  * Routes combine these in `responses.ts`; the client's `src/api/` takes its types from there.
  */
 import { MatrixTiltCell } from './accelerometer.js';
+import { StabilityJudgement } from './stabilityLimit.js';
 import { QuantityLimitView } from './dutQuantities.js';
 import { z } from 'zod';
 import { VERDICTS } from '../analysis/verdict.js';
@@ -113,18 +114,21 @@ export const TuningForkParameters = z.object({
   defaults: z.boolean(),
 });
 
-export const DutRecord = z.object({
+/** A DUT's limit as every answer carries it: symmetric ±limit (null when asymmetric or one-sided), or low/high. */
+export const DutLimit = z.object({
+  limit: z.number().nullable(),
+  limitLow: z.number().nullable(),
+  limitHigh: z.number().nullable(),
+  limitUnit: z.string(),
+});
+
+export const DutRecord = DutLimit.extend({
   id: Id,
   studyId: Id,
   label: z.string(),
   kind: z.string(),
   nominal: z.number(),
   unit: z.string(),
-  /** Symmetric ±limit, null when the limit is asymmetric or one-sided. */
-  limit: z.number().nullable(),
-  limitLow: z.number().nullable(),
-  limitHigh: z.number().nullable(),
-  limitUnit: z.string(),
   tuningFork: TuningForkParameters.optional(),
   position: z.string().nullable(),
   serial: z.string().nullable(),
@@ -366,7 +370,7 @@ const Named = z.object({ id: Id, name: z.string() });
 
 /** One capture with the names its page needs (study › checkpoint › DUT, operator, instrument, reference). */
 export const CaptureDetail = CaptureRecord.extend({
-  study: z.object({ id: Id, title: z.string(), status: StudyStatus }).nullable(),
+  study: StudyRecord.pick({ id: true, title: true, status: true }).nullable(),
   dut: DutRecord.nullable(),
   checkpoint: CheckpointRecord.nullable(),
   operator: Named.nullable(),
@@ -380,8 +384,8 @@ export type CaptureDetail = z.infer<typeof CaptureDetail>;
  * names a list shows, joined by the server so the browser never fetches them row by row.
  */
 export const CaptureListItem = CaptureRecord.extend({
-  study: z.object({ id: Id, title: z.string() }).nullable(),
-  dut: z.object({ id: Id, label: z.string() }).nullable(),
+  study: StudyRecord.pick({ id: true, title: true }).nullable(),
+  dut: DutRecord.pick({ id: true, label: true }).nullable(),
   checkpoint: Named.nullable(),
   operator: Named.nullable(),
 });
@@ -422,26 +426,29 @@ const ComparisonSide = z.object({
   ambientC: z.number().nullable(),
 });
 
-/** `GET /api/comparisons`: Δ = after − before with its own budget and the guard-banded verdict. */
-export const ComparisonWire = z.object({
+/**
+ * What a comparison and a matrix cell both show: Δ with its expanded uncertainty, the DUT's limit
+ * (also in the quantity's own unit), the guard-banded verdict and the conditions that differ.
+ */
+const ComparisonFigures = DutLimit.extend({
   delta: z.number(),
-  deltaPpm: z.number().optional(),
-  deltaPpb: z.number().optional(),
-  u: z.number(),
   expandedUncertainty: z.number(),
   k: z.number(),
   effectiveDof: z.number().nullable(),
   coverage: z.string(),
-  /** Symmetric ±limit, or null when the limit is asymmetric or one-sided. */
-  limit: z.number().nullable(),
-  limitLow: z.number().nullable(),
-  limitHigh: z.number().nullable(),
-  limitUnit: z.string(),
   limitInUnit: z.number().nullable(),
   limitLowInUnit: z.number().nullable(),
   limitHighInUnit: z.number().nullable(),
   verdict: Verdict,
   significant: z.boolean(),
+  conditions: z.array(ConditionMismatchWire),
+});
+
+/** `GET /api/comparisons`: Δ = after − before with its own budget and the guard-banded verdict. */
+export const ComparisonWire = ComparisonFigures.extend({
+  deltaPpm: z.number().optional(),
+  deltaPpb: z.number().optional(),
+  u: z.number(),
   referenceCorrelated: z.boolean(),
   budget: BudgetWire,
   notes: z.array(z.string()),
@@ -449,7 +456,6 @@ export const ComparisonWire = z.object({
   before: ComparisonSide,
   after: ComparisonSide,
   dut: DutRecord,
-  conditions: z.array(ConditionMismatchWire),
 });
 export type ComparisonWire = z.infer<typeof ComparisonWire>;
 
@@ -465,24 +471,10 @@ export const MatrixCellCapture = z.object({
   chosen: z.boolean().optional(),
 });
 
-export const MatrixCellComparison = z.object({
+/** A cell's comparison with the baseline capture `before` (no budget: the comparison route has it). */
+export const MatrixCellComparison = ComparisonFigures.extend({
   before: Id,
-  delta: z.number(),
   deltaPpm: z.number().nullable(),
-  expandedUncertainty: z.number(),
-  k: z.number(),
-  effectiveDof: z.number().nullable(),
-  coverage: z.string(),
-  limit: z.number().nullable(),
-  limitLow: z.number().nullable(),
-  limitHigh: z.number().nullable(),
-  limitUnit: z.string(),
-  limitInUnit: z.number().nullable(),
-  limitLowInUnit: z.number().nullable(),
-  limitHighInUnit: z.number().nullable(),
-  verdict: Verdict,
-  significant: z.boolean(),
-  conditions: z.array(ConditionMismatchWire),
 });
 
 export const MatrixCell = z.object({
@@ -493,6 +485,8 @@ export const MatrixCell = z.object({
   problem: z.string().optional(),
   /** An accelerometer's tilt-check result at this checkpoint and its change against the baseline's. */
   tiltCheck: MatrixTiltCell.nullable().optional(),
+  /** A crystal's stability limit judged on this cell's capture (σy at the limit's τ, 95 % interval). */
+  stability: StabilityJudgement.nullable().optional(),
 });
 
 export const StudyMatrix = z.object({

@@ -26,6 +26,7 @@ import {
   ReferenceCalibrated,
 } from './equipment.js';
 import { CaptureBaseline, TiltCheckList, TiltCheckResponse } from './accelerometer.js';
+import { CaptureStabilityLimit } from './stabilityLimit.js';
 import { LinkProfile } from './linkProfile.js';
 import {
   CaptureExclusionResult,
@@ -105,11 +106,12 @@ export const ReferenceResponse = z.object({ reference: ReferenceRecord });
 export const DutResponse = z.object({ dut: DutRecord });
 
 /** A capture recording now, with the names a list needs. */
-export const OnAirCapture = z.object({
-  id: Id,
-  dutId: Id,
-  checkpointId: Id,
-  startedAt: Timestamp,
+export const OnAirCapture = CaptureRecord.pick({
+  id: true,
+  dutId: true,
+  checkpointId: true,
+  startedAt: true,
+}).extend({
   readings: z.number().int(),
   dutLabel: z.string(),
   checkpointName: z.string(),
@@ -168,10 +170,8 @@ export type ReadingsPage = z.infer<typeof ReadingsPage>;
 
 export const OverlayCurve = z.object({
   captureId: Id,
-  dut: z
-    .object({ id: Id, label: z.string(), unit: z.string(), kind: z.string(), studyId: Id })
-    .nullable(),
-  checkpoint: z.object({ id: Id, name: z.string(), order: z.number().int() }).nullable(),
+  dut: DutRecord.pick({ id: true, label: true, unit: true, kind: true, studyId: true }).nullable(),
+  checkpoint: CheckpointRecord.pick({ id: true, name: true, order: true }).nullable(),
   readingCount: z.number().int(),
   startedAt: Timestamp,
   stability: StabilityWire,
@@ -208,22 +208,24 @@ export const ReceivedPage = z.object({
 });
 export const RetryResponse = z.object({ id: Id, status: MailStatus });
 
-export const ReportCapture = z.object({
-  id: Id,
-  dutId: Id,
-  checkpointId: Id,
-  startedAt: Timestamp,
-  endedAt: Timestamp.nullable(),
-  readingCount: z.number().int(),
-  gateTime: z.number(),
-  ambientC: z.number().nullable(),
-  orientation: z.string().nullable(),
+export const ReportCapture = CaptureRecord.pick({
+  id: true,
+  dutId: true,
+  checkpointId: true,
+  startedAt: true,
+  endedAt: true,
+  readingCount: true,
+  gateTime: true,
+  ambientC: true,
+  orientation: true,
+  instrumentId: true,
+  referenceId: true,
+  referenceOffset: true,
+  referenceUncertainty: true,
+  notes: true,
+}).extend({
+  /** The operator's name. */
   operator: z.string().nullable(),
-  instrumentId: Id.nullable(),
-  referenceId: Id.nullable(),
-  referenceOffset: z.number().nullable(),
-  referenceUncertainty: z.number().nullable(),
-  notes: z.string().nullable(),
   seal: z.object({
     sha256: z.string().nullable(),
     recomputed: z.string(),
@@ -351,6 +353,7 @@ export const RESPONSES = {
   'POST /api/duts/:id/tilt-checks': TiltCheckResponse,
   'GET /api/duts/:id/tilt-checks': TiltCheckList,
   'GET /api/captures/:id/baseline': CaptureBaseline,
+  'GET /api/captures/:id/stability-limit': CaptureStabilityLimit,
   'PATCH /api/studies/:id/settings': StudyRecord,
   'GET /api/dashboard': DashboardResponse,
   'GET /api/captures': CaptureList,

@@ -85,6 +85,7 @@ export const ROUTES = {
   'POST /api/duts/:id/tilt-checks': 'captures:run',
   'GET /api/duts/:id/tilt-checks': 'read',
   'GET /api/captures/:id/baseline': 'read',
+  'GET /api/captures/:id/stability-limit': 'read',
   'PATCH /api/studies/:id/settings': 'studies:plan',
   // Editing with history (issue 13): planners edit, reorder, archive and delete; a lead rules on evidence.
   'PATCH /api/studies/:id': 'studies:plan',

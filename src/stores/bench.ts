@@ -2,6 +2,7 @@ import { computed, ref, watch } from 'vue';
 import { defineStore } from 'pinia';
 import { G_N, wgs84Gravity } from '../../shared/analysis/gravity';
 import type { StaticOrientation } from '../../shared/analysis/tiltCheck';
+import { AXES, type Axis } from '../../shared/protocol/accelerometer';
 
 export const BENCH_KEY = 'driftbench.bench';
 
@@ -64,6 +65,7 @@ interface Stored {
   choices?: Partial<BenchChoices>;
   site?: Partial<LabSite>;
   accelSamples?: number;
+  tiltAxis?: Axis;
 }
 
 function readStored(): Stored {
@@ -81,6 +83,10 @@ export const useBenchStore = defineStore('bench', () => {
   const choices = ref<BenchChoices>({ ...DEFAULT_CHOICES, ...(stored.choices ?? {}) });
   const site = ref<LabSite>({ ...DEFAULT_SITE, ...(stored.site ?? {}) });
   const accelSamples = ref<number>(stored.accelSamples ?? 100);
+  /** The axis the guided tilt check reads (Z unless the operator chose another). */
+  const tiltAxis = ref<Axis>(
+    AXES.includes(stored.tiltAxis as Axis) ? (stored.tiltAxis as Axis) : 'z',
+  );
 
   /** Local gravity at the lab, m/s² (WGS84 normal gravity; g_n when the site is invalid). */
   const localGravity = computed(() => {
@@ -99,6 +105,7 @@ export const useBenchStore = defineStore('bench', () => {
           choices: choices.value,
           site: site.value,
           accelSamples: accelSamples.value,
+          tiltAxis: tiltAxis.value,
         } satisfies Stored),
       );
     } catch {
@@ -119,9 +126,10 @@ export const useBenchStore = defineStore('bench', () => {
     choices.value = { ...DEFAULT_CHOICES };
     site.value = { ...DEFAULT_SITE };
     accelSamples.value = 100;
+    tiltAxis.value = 'z';
   }
 
-  watch([choices, site, accelSamples], persist, { deep: true, flush: 'sync' });
+  watch([choices, site, accelSamples, tiltAxis], persist, { deep: true, flush: 'sync' });
 
-  return { choices, site, accelSamples, localGravity, remember, setSite, reset };
+  return { choices, site, accelSamples, tiltAxis, localGravity, remember, setSite, reset };
 });

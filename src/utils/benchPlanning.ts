@@ -9,6 +9,7 @@ import { CaptureCreate } from '../../shared/protocol/captures';
 import { linkPreset, type LinkPreset, type LinkProfile } from '../../shared/protocol/linkProfile';
 import { groupDigits } from './format';
 import type { StaticOrientation } from '../../shared/analysis/tiltCheck';
+import { SPI_AXIS_QUERY, spiAxisOf, type Axis } from '../../shared/protocol/accelerometer';
 import type { CaptureDutRef } from '../api/captures';
 import type { StudyDetail } from '../api/studies';
 
@@ -73,11 +74,19 @@ export interface ProfileChoice {
   checkpointIndex: number;
   acceleration: number;
   orientation?: StaticOrientation | null;
+  /** The accelerometer axis a tilt check reads (default: the profile's own, Z for the preset). */
+  axis?: Axis;
   /** Local gravity for the simulated accelerometer, m/s². */
   gravity?: number;
 }
 
 const SIM_ORIENTATION = { flat: 'flat', 'on-edge': 'edge', inverted: 'inverted' } as const;
+
+/** The simulator's pose for a tilt-check pose of `axis`: Z keeps its old names; X and Y lie level with the board flat. */
+export function simOrientation(axis: Axis, pose: StaticOrientation): string {
+  if (axis === 'z') return SIM_ORIENTATION[pose];
+  return pose === 'flat' ? `${axis}-up` : pose === 'inverted' ? `${axis}-down` : 'z-up';
+}
 
 /**
  * The link profile a capture runs with: the instrument's own profile or a preset; for the
@@ -93,6 +102,9 @@ export function buildProfile(c: ProfileChoice): LinkProfile {
         ? structuredClone(c.instrumentProfile)
         : linkPreset('spi-bridge');
     p.intervalMs = Math.max(1, Math.round(gateWallMs));
+    // The tilt check reads the axis it checks (the preset's poll line reads Z).
+    if (c.axis && (c.linkKind === 'simulator' || spiAxisOf(p) !== null))
+      p.queryCommand = SPI_AXIS_QUERY[c.axis];
     if (c.linkKind === 'simulator') {
       p.kind = 'simulator';
       const params: Record<string, string> = {
@@ -100,7 +112,7 @@ export function buildProfile(c: ProfileChoice): LinkProfile {
         checkpoint: String(Math.min(3, Math.max(0, c.checkpointIndex))),
         accel: String(factor),
       };
-      if (c.orientation) params.orientation = SIM_ORIENTATION[c.orientation];
+      if (c.orientation) params.orientation = simOrientation(c.axis ?? 'z', c.orientation);
       if (c.gravity && c.gravity >= 9.7 && c.gravity <= 9.9) params.gravity = c.gravity.toFixed(6);
       p.simulator = { path: '/sim/spi-bridge', params };
       p.name = 'Simulated SPI bridge';
