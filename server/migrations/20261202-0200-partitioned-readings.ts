@@ -12,9 +12,10 @@ import type { QueryInterface, Transaction } from 'sequelize';
  * lock, as a plain table attached afterwards: ATTACH PARTITION takes SHARE UPDATE EXCLUSIVE on the
  * parent, so ingest into the other partitions goes on (CREATE TABLE … PARTITION OF would take
  * ACCESS EXCLUSIVE). `reading_archives` records every block taken out (detached or dumped), so
- * the API can say a capture's readings are archived. The existing rows are moved; the tile
- * trigger is re-created on the partitioned parent (PostgreSQL allows statement triggers with
- * transition tables there; `new_rows` holds the rows of every partition the statement wrote).
+ * the API can say a capture's readings are archived. The existing rows are moved; the CHECK
+ * constraints and the triggers (tiles, seal tamper flag) are re-created on the partitioned parents
+ * (PostgreSQL allows statement triggers with transition tables there; `new_rows` holds the rows
+ * of every partition the statement wrote).
  */
 const BLOCK = 1000;
 /** One advisory lock key for making and taking out partitions ('DBRP'). */
@@ -40,22 +41,43 @@ const TILES_COLUMNS = `
   max_value double precision NOT NULL,
   PRIMARY KEY (capture_id, level, bucket)`;
 
-const TRIGGER = `
-  CREATE TRIGGER readings_merge_tiles AFTER INSERT ON readings
-  REFERENCING NEW TABLE AS new_rows FOR EACH STATEMENT EXECUTE FUNCTION driftbench_merge_tiles()`;
+type Query = (sql: string) => Promise<unknown>;
+
+/**
+ * The CHECK constraints and triggers of both tables as SQL that re-creates them on whatever table
+ * then bears the name (the reading-flags check of 20261202-0100, the seal-tamper triggers of
+ * 20261202-0021, the tile trigger of 20261202-0110, and any added later), read before the rename.
+ */
+async function extrasOf(q: Query): Promise<string[]> {
+  const [checks] = (await q(
+    `SELECT format('ALTER TABLE %s ADD CONSTRAINT %I %s', conrelid::regclass, conname, pg_get_constraintdef(oid)) AS sql
+     FROM pg_constraint WHERE conrelid IN ('readings'::regclass, 'reading_tiles'::regclass) AND contype = 'c'
+     ORDER BY conrelid, conname`,
+  )) as [Array<{ sql: string }>, unknown];
+  const [triggers] = (await q(
+    `SELECT pg_get_triggerdef(oid) AS sql FROM pg_trigger
+     WHERE tgrelid IN ('readings'::regclass, 'reading_tiles'::regclass) AND NOT tgisinternal
+     ORDER BY tgrelid, tgname`,
+  )) as [Array<{ sql: string }>, unknown];
+  return [...checks, ...triggers].map((r) => r.sql);
+}
 
 export async function up({ context: qi }: { context: QueryInterface }): Promise<void> {
   await qi.sequelize.transaction(async (transaction: Transaction) => {
     const q = (sql: string) => qi.sequelize.query(sql, { transaction });
     await q('LOCK TABLE captures IN SHARE ROW EXCLUSIVE MODE');
     await q('LOCK TABLE readings, reading_tiles IN ACCESS EXCLUSIVE MODE');
-    await q('DROP TRIGGER readings_merge_tiles ON readings');
+    const extras = await extrasOf(q);
+    const checks = extras.filter((e) => e.startsWith('ALTER TABLE'));
+    const triggers = extras.filter((e) => !e.startsWith('ALTER TABLE'));
     await q('ALTER TABLE readings RENAME TO readings_unpartitioned');
     await q('ALTER INDEX readings_pkey RENAME TO readings_unpartitioned_pkey');
     await q('ALTER TABLE reading_tiles RENAME TO reading_tiles_unpartitioned');
     await q('ALTER INDEX reading_tiles_pkey RENAME TO reading_tiles_unpartitioned_pkey');
     await q(`CREATE TABLE readings (${READINGS_COLUMNS}) PARTITION BY RANGE (capture_id)`);
     await q(`CREATE TABLE reading_tiles (${TILES_COLUMNS}) PARTITION BY RANGE (capture_id)`);
+    // CHECK constraints before any partition (a partition takes its parent's when it is made).
+    for (const sql of checks) await q(sql);
     await q(`
       CREATE TABLE reading_archives (
         block integer PRIMARY KEY,
@@ -91,12 +113,12 @@ export async function up({ context: qi }: { context: QueryInterface }): Promise<
           RAISE EXCEPTION 'readings block % (captures % to %) is archived; attach it back first', block, lo, hi - 1;
         END IF;
         IF to_regclass(r) IS NULL THEN
-          EXECUTE format('CREATE TABLE %I (LIKE readings INCLUDING DEFAULTS)', r);
+          EXECUTE format('CREATE TABLE %I (LIKE readings INCLUDING DEFAULTS INCLUDING CONSTRAINTS)', r);
           EXECUTE format('ALTER TABLE readings ATTACH PARTITION %I FOR VALUES FROM (%s) TO (%s)', r, lo, hi);
           made := true;
         END IF;
         IF to_regclass(t) IS NULL THEN
-          EXECUTE format('CREATE TABLE %I (LIKE reading_tiles INCLUDING DEFAULTS)', t);
+          EXECUTE format('CREATE TABLE %I (LIKE reading_tiles INCLUDING DEFAULTS INCLUDING CONSTRAINTS)', t);
           EXECUTE format('ALTER TABLE reading_tiles ATTACH PARTITION %I FOR VALUES FROM (%s) TO (%s)', t, lo, hi);
           made := true;
         END IF;
@@ -115,7 +137,8 @@ export async function up({ context: qi }: { context: QueryInterface }): Promise<
     await q(`INSERT INTO reading_tiles SELECT * FROM reading_tiles_unpartitioned`);
     await q('DROP TABLE readings_unpartitioned');
     await q('DROP TABLE reading_tiles_unpartitioned');
-    await q(TRIGGER);
+    // The triggers last, so moving the rows fired none of them (the tiles were copied as they were).
+    for (const sql of triggers) await q(sql);
   });
 }
 
@@ -141,13 +164,14 @@ export async function down({ context: qi }: { context: QueryInterface }): Promis
     )) as [Array<{ readings_table: string; tiles_table: string }>, unknown];
     await q('LOCK TABLE captures IN SHARE ROW EXCLUSIVE MODE');
     await q('LOCK TABLE readings, reading_tiles IN ACCESS EXCLUSIVE MODE');
-    await q('DROP TRIGGER readings_merge_tiles ON readings');
+    const extras = await extrasOf(q);
     await q('ALTER TABLE readings RENAME TO readings_partitioned');
     await q('ALTER INDEX readings_pkey RENAME TO readings_partitioned_pkey');
     await q('ALTER TABLE reading_tiles RENAME TO reading_tiles_partitioned');
     await q('ALTER INDEX reading_tiles_pkey RENAME TO reading_tiles_partitioned_pkey');
     await q(`CREATE TABLE readings (${READINGS_COLUMNS})`);
     await q(`CREATE TABLE reading_tiles (${TILES_COLUMNS})`);
+    for (const sql of extras.filter((e) => e.startsWith('ALTER TABLE'))) await q(sql);
     const sources = [
       ['readings_partitioned', 'reading_tiles_partitioned'],
       ...archived.map((a) => [a.readings_table, a.tiles_table]),
@@ -164,6 +188,6 @@ export async function down({ context: qi }: { context: QueryInterface }): Promis
     await q('DROP TABLE reading_archives');
     await q('DROP FUNCTION driftbench_ensure_readings_partition(integer)');
     await q('DROP FUNCTION driftbench_readings_block_size()');
-    await q(TRIGGER);
+    for (const sql of extras.filter((e) => !e.startsWith('ALTER TABLE'))) await q(sql);
   });
 }

@@ -123,7 +123,7 @@ describe('the partitioned schema', () => {
       { table: 'reading_tiles', strategy: 'r', key: 'RANGE (capture_id)', has_default: false },
       { table: 'readings', strategy: 'r', key: 'RANGE (capture_id)', has_default: false },
     ]);
-    // The keys, the cascade from captures and the tile trigger stay on the parent.
+    // The keys, the cascade from captures, the checks and the triggers are the parent's.
     const cons = await sql<{ table: string; def: string }>(
       `SELECT conrelid::regclass::text AS table, pg_get_constraintdef(oid) AS def FROM pg_constraint
        WHERE conrelid IN ('readings'::regclass, 'reading_tiles'::regclass) ORDER BY 1, 2`,
@@ -134,16 +134,23 @@ describe('the partitioned schema', () => {
         def: 'FOREIGN KEY (capture_id) REFERENCES captures(id) ON DELETE CASCADE',
       },
       { table: 'reading_tiles', def: 'PRIMARY KEY (capture_id, level, bucket)' },
+      // The reading-flags check of migration 0100 (CHECK sorts first).
       {
         table: 'readings',
-        def: 'FOREIGN KEY (capture_id) REFERENCES captures(id) ON DELETE CASCADE',
+        def: expect.stringMatching(/^CHECK \(\(\(flags >= 0\) AND \(flags <= \d+\)\)\)$/),
       },
+      // (The readings' foreign key gave way to a trigger on captures in migration 0230.)
       { table: 'readings', def: 'PRIMARY KEY (capture_id, seq)' },
     ]);
     const triggers = await sql<{ tgname: string }>(
       `SELECT tgname FROM pg_trigger WHERE tgrelid = 'readings'::regclass AND NOT tgisinternal`,
     );
-    expect(triggers.map((r) => r.tgname)).toEqual(['readings_merge_tiles']);
+    // The tile trigger (0110) and the seal-tamper triggers (0021) moved to the partitioned parent.
+    expect(triggers.map((r) => r.tgname).sort()).toEqual([
+      'readings_merge_tiles',
+      'readings_sealed_delete',
+      'readings_sealed_update',
+    ]);
     // The demo lab's readings are in block 0, its partition, bounded 0 … 999.
     const bound = await sql<{ b: string }>(
       `SELECT pg_get_expr(relpartbound, oid) AS b FROM pg_class WHERE relname = 'readings_p000000'`,
@@ -243,6 +250,19 @@ describe('the partitioned schema', () => {
         `SELECT to_regclass('readings_p000040')::text AS r, to_regclass('reading_tiles_p000040')::text AS t`,
       ),
     ).toEqual([{ r: 'readings_p000040', t: 'reading_tiles_p000040' }]);
+  });
+
+  it('deletes a capture’s readings and tiles with the capture, in whichever partition they are', async () => {
+    const id = await newCapture();
+    await send(id, batch(0, 100));
+    await sql('DELETE FROM captures WHERE id = $1', [id]);
+    expect(
+      await sql(
+        `SELECT (SELECT count(*)::int FROM readings WHERE capture_id = $1) AS r,
+                (SELECT count(*)::int FROM reading_tiles WHERE capture_id = $1) AS t`,
+        [id],
+      ),
+    ).toEqual([{ r: 0, t: 0 }]);
   });
 
   it('refuses a reading whose capture block has no partition instead of parking it anywhere', async () => {
