@@ -129,3 +129,115 @@ export type ThermalCyclingExposure = z.infer<typeof ThermalCyclingExposure>;
 export type ConformalCoatExposure = z.infer<typeof ConformalCoatExposure>;
 export type VibrationExposure = z.infer<typeof VibrationExposure>;
 export type OtherExposure = z.infer<typeof OtherExposure>;
+
+/**
+ * How a form asks for one figure of an exposure: its label and unit, what is typed (a decimal, a
+ * whole number, words, or one of a few choices) and an example for the empty field (blank: the
+ * schema's range). A figure with `unitKey` is typed with a unit chosen beside it; `shock` words a
+ * vibration figure for a shock instead.
+ */
+export type ExposureFieldSpec = {
+  key: string;
+  label: string;
+  unit?: string;
+  input: 'decimal' | 'whole' | 'text' | 'choice';
+  example?: string;
+  /** For `choice`: the values and their words. */
+  choices?: Readonly<Record<string, string>>;
+  /** A companion field holding the unit, and the units offered. */
+  unitKey?: string;
+  units?: readonly string[];
+  unitDefault?: string;
+  /** Takes the whole row of the form. */
+  wide?: boolean;
+  shock?: { label: string; example: string };
+};
+
+/** Each process kind's figures in the order a form asks for them (the schemas above check them). */
+export const EXPOSURE_FIELDS: Readonly<Record<ProcessKind, readonly ExposureFieldSpec[]>> = {
+  wash: [
+    {
+      key: 'bathKHz',
+      label: 'Bath frequency',
+      unit: 'kHz',
+      input: 'decimal',
+      example: '40 (blank for a spray wash)',
+    },
+    { key: 'temperatureC', label: 'Temperature', unit: '°C', input: 'decimal', example: '45' },
+    { key: 'minutesPerSide', label: 'Minutes per side', input: 'decimal', example: '3' },
+    { key: 'cumulativeMinutes', label: 'Cumulative minutes', input: 'decimal', example: '6' },
+    {
+      key: 'solvent',
+      label: 'Solvent',
+      input: 'text',
+      example: 'Aqueous detergent, 5 %',
+      wide: true,
+    },
+  ],
+  reflow: [
+    { key: 'peakC', label: 'Peak temperature', unit: '°C', input: 'decimal' },
+    {
+      key: 'secondsAboveLiquidus',
+      label: 'Time above liquidus',
+      unit: 's',
+      input: 'decimal',
+      example: '60 (optional)',
+    },
+    { key: 'passes', label: 'Passes', input: 'whole', example: '1' },
+  ],
+  bake: [
+    { key: 'temperatureC', label: 'Temperature', unit: '°C', input: 'decimal', example: '125' },
+    { key: 'hours', label: 'Hours', input: 'decimal', example: '24' },
+  ],
+  'thermal-cycling': [
+    { key: 'lowC', label: 'Low', unit: '°C', input: 'decimal', example: '-40' },
+    { key: 'highC', label: 'High', unit: '°C', input: 'decimal', example: '85' },
+    {
+      key: 'dwellMinutes',
+      label: 'Dwell at each end',
+      unit: 'min',
+      input: 'decimal',
+      example: '15',
+    },
+    { key: 'cycles', label: 'Cycles', input: 'whole', example: '100' },
+  ],
+  'conformal-coat': [
+    { key: 'material', label: 'Material', input: 'text', example: 'Acrylic coating' },
+    { key: 'cure', label: 'Cure', input: 'text', example: '24 h at room temperature' },
+  ],
+  vibration: [
+    {
+      key: 'mode',
+      label: 'Vibration or shock',
+      input: 'choice',
+      choices: { vibration: 'Vibration', shock: 'Shock' },
+      wide: true,
+    },
+    {
+      key: 'levelG',
+      label: 'Level (g rms)',
+      input: 'decimal',
+      example: '7.7',
+      shock: { label: 'Peak level (g)', example: '1500' },
+    },
+    {
+      key: 'duration',
+      label: 'Duration',
+      input: 'decimal',
+      example: '60',
+      unitKey: 'durationUnit',
+      units: DURATION_UNITS,
+      unitDefault: 'min',
+      shock: { label: 'Pulse duration', example: '0.5' },
+    },
+  ],
+  other: [
+    {
+      key: 'description',
+      label: 'What the parts went through',
+      input: 'text',
+      example: 'Stored 30 days in a dry cabinet',
+      wide: true,
+    },
+  ],
+};
