@@ -16,6 +16,7 @@ import * as m0140 from './20261202-0140-process-kinds-and-editing.js';
 import * as m0150 from './20261202-0150-capture-abort-stall.js';
 import * as m0151 from './20261202-0151-capture-state-constraint-name.js';
 import * as m0200 from './20261202-0200-partitioned-readings.js';
+import * as m0230 from './20261202-0230-tiles-by-ingest.js';
 
 type Step = {
   up(p: { context: QueryInterface }): Promise<void>;
@@ -40,6 +41,7 @@ const MIGRATIONS: Array<[string, Step]> = [
   ['20261202-0150-capture-abort-stall', m0150],
   ['20261202-0151-capture-state-constraint-name', m0151],
   ['20261202-0200-partitioned-readings', m0200],
+  ['20261202-0230-tiles-by-ingest', m0230],
 ];
 
 /** Builds the migrator for a Sequelize connection (state kept in the `sequelize_meta` table). */

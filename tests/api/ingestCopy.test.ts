@@ -222,6 +222,32 @@ describe('the COPY path of POST /api/captures/:id/readings', () => {
     expect(await capture(id)).toEqual({ reading_count: 0, highest_seq: -1 });
   });
 
+  it('refuses readings of a capture that does not exist, as the foreign key did', async () => {
+    // Migration 20261202-0230 checks the key once per statement instead of once per row. A
+    // capture made and deleted: its id lies in a block whose partition exists.
+    const gone = await newCapture();
+    await t.db.pool.query('DELETE FROM captures WHERE id = $1', [gone]);
+    await expect(
+      t.db.pool.query(
+        'INSERT INTO readings (capture_id, seq, t, value) SELECT $1, g, g, 1 FROM generate_series(0, 9) g',
+        [gone],
+      ),
+    ).rejects.toMatchObject({ code: '23503' });
+    const none = await t.db.pool.query('SELECT 1 FROM readings WHERE capture_id = $1', [gone]);
+    expect(none.rowCount).toBe(0);
+  });
+
+  it('deletes a capture’s readings with the capture, as ON DELETE CASCADE did', async () => {
+    const id = await newCapture();
+    const keep = await newCapture();
+    await postBinary(id, batch(0, 2000));
+    await postBinary(keep, batch(0, 500));
+    await t.db.pool.query('DELETE FROM captures WHERE id = $1', [id]);
+    expect(await stored(id)).toHaveLength(0);
+    expect(await tiles(id)).toHaveLength(0);
+    expect(await stored(keep)).toHaveLength(500);
+  });
+
   it('answers 404 for a missing capture and 403 for another operator’s', async () => {
     expect((await postBinary(999_999, batch(0, 300))).status).toBe(404);
     const id = await newCapture();
