@@ -1,5 +1,4 @@
 import { Router } from 'express';
-import { z } from 'zod';
 import type pg from 'pg';
 import { pipeline } from 'node:stream/promises';
 import { to as copyTo } from 'pg-copy-streams';
@@ -11,6 +10,7 @@ import {
   CapturePatch,
   ReadingsQuery,
   AnalysisQuery,
+  CaptureListFilter,
   ComparisonQuery,
 } from '../../shared/protocol/captures.js';
 import { IdParam } from '../../shared/protocol/api.js';
@@ -25,7 +25,7 @@ import {
 import { ingestReadings } from '../services/ingest.js';
 import { finishCapture } from '../services/finish.js';
 import { abortCapture } from '../services/captureLifecycle.js';
-import { CaptureAbort, CaptureState, isRecording } from '../../shared/protocol/captureLifecycle.js';
+import { CaptureAbort, isRecording } from '../../shared/protocol/captureLifecycle.js';
 import { readSeries } from '../services/readings.js';
 import { assertReadingsOnline } from '../services/partitions.js';
 import { compareCaptures } from '../services/comparisons.js';
@@ -36,14 +36,7 @@ import type { AnalysisPool } from '../analysis/pool.js';
 /** Most raw readings one `GET …/readings` answers without maxPoints (about 4 MB of JSON). */
 export const MAX_RAW_READINGS = 100_000;
 
-const ListQuery = z
-  .object({
-    studyId: z.coerce.number().int().positive().optional(),
-    dutId: z.coerce.number().int().positive().optional(),
-    checkpointId: z.coerce.number().int().positive().optional(),
-    state: CaptureState.optional(),
-  })
-  .extend(pageQuery(LIST_LIMITS.captures.max).shape);
+const ListQuery = CaptureListFilter.extend(pageQuery(LIST_LIMITS.captures.max).shape);
 
 /** `replica`: a read replica for raw pages of captures that no longer record (replay, export pages). */
 export function capturesRouter(

@@ -3,6 +3,7 @@ import { STABILITY_KINDS, type StabilityKind } from '../analysis/taus.js';
 import { DRIFT_CHOICES } from './uncertainty.js';
 import { Text } from './text.js';
 import { LinkProfile } from './linkProfile.js';
+import { CaptureState } from './captureLifecycle.js';
 
 export const QUANTITIES = ['frequency', 'acceleration', 'voltage', 'counts'] as const;
 export const Quantity = z.enum(QUANTITIES);
@@ -92,6 +93,15 @@ export interface IngestResult {
   duplicates: number;
   highestSeq: number;
 }
+
+/** `?studyId&dutId&checkpointId&state` of GET /api/captures (each optional; paging adds limit and cursor). */
+export const CaptureListFilter = z.object({
+  studyId: z.coerce.number().int().positive().optional(),
+  dutId: z.coerce.number().int().positive().optional(),
+  checkpointId: z.coerce.number().int().positive().optional(),
+  state: CaptureState.optional(),
+});
+export type CaptureListFilter = z.infer<typeof CaptureListFilter>;
 
 export const ReadingsQuery = z.object({
   from: z.coerce.number().int().min(0).optional(),

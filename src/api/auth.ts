@@ -1,4 +1,4 @@
-import { http } from './http';
+import { callRoute } from './http';
 
 import type { Role } from '../../shared/protocol/roles';
 import type { SessionUser } from '../../shared/protocol/models';
@@ -12,20 +12,21 @@ export type { SessionUser };
 export type LoginAnswer = LoginResponse;
 
 export function login(email: string, password: string): Promise<LoginAnswer> {
-  return http.post<LoginAnswer>('/api/auth/login', { email, password });
+  return callRoute('POST /api/auth/login', {}, { body: { email, password } });
 }
 
 /** The signed-in user; the session store handles a 401 here itself. */
 export function fetchMe(): Promise<MeResponse> {
-  return http.get<MeResponse>('/api/auth/me', { ignoreSessionLoss: true });
+  return callRoute('GET /api/auth/me', {}, { ignoreSessionLoss: true });
 }
 
 /** Changes the signed-in user's password; answers a fresh token (older ones stop working). */
 export function changePassword(currentPassword: string, newPassword: string): Promise<LoginAnswer> {
-  return http.post<LoginAnswer>('/api/auth/password', { currentPassword, newPassword });
+  const body = { currentPassword, newPassword };
+  return callRoute('POST /api/auth/password', {}, { body });
 }
 
 /** Ends the session on the server: every token of this account stops working. */
 export function logout(): Promise<void> {
-  return http.post<void>('/api/auth/logout', {}, { ignoreSessionLoss: true });
+  return callRoute('POST /api/auth/logout', {}, { ignoreSessionLoss: true });
 }

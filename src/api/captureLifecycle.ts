@@ -2,7 +2,7 @@
  * A capture's life from its page (issue 13): finish or abort an open or stalled capture.
  * The request body is the shared schema (shared/protocol/captureLifecycle.ts).
  */
-import { http, type RequestOptions } from './http';
+import { callRoute, type RequestOptions } from './http';
 import { finishCapture, type Capture } from './captures';
 import type { CaptureAbort } from '../../shared/protocol/captureLifecycle';
 
@@ -20,5 +20,5 @@ export function abortCapture(
   body: CaptureAbort,
   options?: RequestOptions,
 ): Promise<Capture> {
-  return http.post<Capture>(`/api/captures/${id}/abort`, body, options);
+  return callRoute('POST /api/captures/:id/abort', { id }, { ...options, body });
 }

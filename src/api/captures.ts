@@ -3,11 +3,12 @@
  * readings in and out, finish, analysis, comparison and the CSV export.
  */
 import type { z } from 'zod';
-import { http, toApiError, type RequestOptions } from './http';
+import { callRoute, queryString, toApiError, type RequestOptions } from './http';
 import { allPages } from './paging';
 import type {
   AnalysisQuery as AnalysisQuerySchema,
   CaptureCreate,
+  CaptureListFilter,
   CapturePatch,
   ReadingIn,
   ReadingsQuery as ReadingsQuerySchema,
@@ -57,33 +58,19 @@ export type CaptureDutRef = DutRecord;
 export type Comparison = ComparisonWire;
 export type ReadingOut = ReadingWire;
 
-export interface CaptureListQuery {
-  studyId?: number;
-  dutId?: number;
-  checkpointId?: number;
-  state?: CaptureState;
-  /** How many captures to fetch at most (newest first), over as many pages as that takes. */
-  limit?: number;
-}
+/** The list's filter, and how many captures to fetch at most (newest first) over as many pages as that takes. */
+export type CaptureListQuery = CaptureListFilter & { limit?: number };
 
 /** `?from&to&maxPoints` of GET /api/captures/:id/readings (first and last seq inclusive). */
 export type ReadingsQuery = Partial<z.output<typeof ReadingsQuerySchema>>;
 /** `?kind&taus&confidence&drift` of GET /api/captures/:id/analysis. */
 export type AnalysisQuery = Partial<z.output<typeof AnalysisQuerySchema>>;
 
-function query(params: object): string {
-  const q = new URLSearchParams();
-  for (const [k, v] of Object.entries(params))
-    if (v !== undefined && v !== null) q.set(k, String(v));
-  const s = q.toString();
-  return s ? `?${s}` : '';
-}
-
 export async function createCapture(
   body: CaptureCreate,
   options?: RequestOptions,
 ): Promise<Capture> {
-  return http.post<Capture>('/api/captures', body, options);
+  return callRoute('POST /api/captures', {}, { ...options, body });
 }
 
 /** Captures with the names a list shows (study, DUT, checkpoint, operator), joined by the server. */
@@ -93,7 +80,7 @@ export async function listCaptures(
 ): Promise<CaptureListItem[]> {
   const { limit, ...rest } = filter;
   return allPages<CaptureListItem>(
-    `/api/captures${query(rest)}`,
+    `/api/captures${queryString(rest)}`,
     'captures',
     limit ?? 2000,
     200,
@@ -102,7 +89,7 @@ export async function listCaptures(
 }
 
 export async function getCapture(id: number, options?: RequestOptions): Promise<CaptureDetail> {
-  return http.get<CaptureDetail>(`/api/captures/${id}`, options);
+  return callRoute('GET /api/captures/:id', { id }, options);
 }
 
 export async function patchCapture(
@@ -110,14 +97,14 @@ export async function patchCapture(
   patch: CapturePatch,
   options?: RequestOptions,
 ): Promise<Capture> {
-  return http.patch<Capture>(`/api/captures/${id}`, patch, options);
+  return callRoute('PATCH /api/captures/:id', { id }, { ...options, body: patch });
 }
 
 // Readings in (the uploader's one call) live in ./readings, which needs no DOM (Node tests use it).
 export { READINGS_TIMEOUT_MS, postReadings, refusedReadingIndex } from './readings';
 
 export async function finishCapture(id: number, options?: RequestOptions): Promise<Capture> {
-  return http.post<Capture>(`/api/captures/${id}/finish`, {}, options);
+  return callRoute('POST /api/captures/:id/finish', { id }, options);
 }
 
 export function getReadings(
@@ -125,7 +112,7 @@ export function getReadings(
   q: ReadingsQuery = {},
   options?: RequestOptions,
 ): Promise<ReadingsPage> {
-  return http.get<ReadingsPage>(`/api/captures/${id}/readings${query(q)}`, options);
+  return callRoute('GET /api/captures/:id/readings', { id }, { ...options, query: q });
 }
 
 export function getAnalysis(
@@ -133,7 +120,7 @@ export function getAnalysis(
   q: AnalysisQuery = {},
   options?: RequestOptions,
 ): Promise<CaptureAnalysis> {
-  return http.get<CaptureAnalysis>(`/api/captures/${id}/analysis${query(q)}`, options);
+  return callRoute('GET /api/captures/:id/analysis', { id }, { ...options, query: q });
 }
 
 export function getComparison(
@@ -141,7 +128,7 @@ export function getComparison(
   after: number,
   options?: RequestOptions,
 ): Promise<Comparison> {
-  return http.get<Comparison>(`/api/comparisons${query({ before, after })}`, options);
+  return callRoute('GET /api/comparisons', {}, { ...options, query: { before, after } });
 }
 
 /**

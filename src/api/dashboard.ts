@@ -1,5 +1,5 @@
 /** The dashboard and the health line; the shapes are the contract's (shared/protocol/responses.ts). */
-import { http } from './http';
+import { callRoute } from './http';
 import type { z } from 'zod';
 import type { CalibrationState } from '../../shared/protocol/equipment';
 import type {
@@ -18,9 +18,9 @@ export type CalibrationItem = Dashboard['calibration'][number];
 export type Health = z.infer<typeof HealthResponse>;
 
 export function fetchDashboard(): Promise<Dashboard> {
-  return http.get<Dashboard>('/api/dashboard');
+  return callRoute('GET /api/dashboard', {});
 }
 
 export function fetchHealth(): Promise<Health> {
-  return http.get<Health>('/api/health');
+  return callRoute('GET /api/health', {});
 }

@@ -3,11 +3,9 @@
  * endpoint has one function: reading, registering and editing an instrument live in
  * `equipment.ts`, the list in `lab.ts`; they are re-exported here under the link pages' names.
  */
-import { request } from './http';
+import { callRoute } from './http';
 import type { LinkProfile } from '../../shared/protocol/linkProfile';
 import type { InstrumentOut } from '../../shared/protocol/equipment';
-import type { LinkProfileResponse } from '../../shared/protocol/responses';
-import type { z } from 'zod';
 
 /** One instrument with its link profile, as GET /api/instruments(/:id) answers it. */
 export type InstrumentDetail = InstrumentOut;
@@ -21,14 +19,10 @@ export {
 export { listInstruments as listInstrumentsWithProfiles } from './lab';
 
 export async function saveLinkProfile(id: number, profile: LinkProfile): Promise<LinkProfile> {
-  const answer = await request<z.infer<typeof LinkProfileResponse>>(
-    'PUT',
-    `/api/instruments/${id}/link-profile`,
-    profile,
-  );
-  return answer.linkProfile;
+  return (await callRoute('PUT /api/instruments/:id/link-profile', { id }, { body: profile }))
+    .linkProfile;
 }
 
 export async function clearLinkProfile(id: number): Promise<void> {
-  await request<void>('DELETE', `/api/instruments/${id}/link-profile`);
+  await callRoute('DELETE /api/instruments/:id/link-profile', { id });
 }

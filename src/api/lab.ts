@@ -1,4 +1,4 @@
-import { http } from './http';
+import { callRoute } from './http';
 import { allPages } from './paging';
 import {
   COUNTER_TYPES,
@@ -57,12 +57,12 @@ export type Reference = ReferenceOut;
 
 /** POST /api/references (admin, lead; audited). */
 export async function createReference(body: ReferenceCreate): Promise<Reference> {
-  return (await http.post<{ reference: Reference }>('/api/references', body)).reference;
+  return (await callRoute('POST /api/references', {}, { body })).reference;
 }
 
 /** PATCH /api/references/:id (admin, lead; audited). */
 export async function updateReference(id: number, patch: ReferencePatch): Promise<Reference> {
-  return (await http.patch<{ reference: Reference }>(`/api/references/${id}`, patch)).reference;
+  return (await callRoute('PATCH /api/references/:id', { id }, { body: patch })).reference;
 }
 
 export async function listInstruments(): Promise<Instrument[]> {

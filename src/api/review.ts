@@ -2,16 +2,14 @@
  * Review, sign-off and the record: the workflow calls, the review history, audit trails, seals,
  * attachments (with upload progress), the outbox and the report.
  */
-import { ApiError, http, toApiError } from './http';
+import { ApiError, callRoute, toApiError } from './http';
 import type { StudyDetail } from '../../shared/protocol/models';
 import type {
   AuditPage,
   ReportCapture,
-  RetryResponse,
   ReviewsResponse,
   StudyReport,
 } from '../../shared/protocol/responses';
-import type { z } from 'zod';
 import type {
   AttachmentInfo,
   AttachmentOwner,
@@ -41,25 +39,29 @@ export type { AuditPage, ReportCapture, StudyReport };
 
 export type ReviewStep = 'submit' | 'approve' | 'return' | 'reopen';
 
-export const startStudy = (id: number) => http.post<StudyState>(`/api/studies/${id}/start`);
-export const submitStudy = (id: number, note?: string) =>
-  http.post<StudyState>(`/api/studies/${id}/submit`, note ? { note } : {});
-export const approveStudy = (id: number, password: string, note?: string) =>
-  http.post<StudyState>(`/api/studies/${id}/approve`, note ? { password, note } : { password });
-export const returnStudy = (id: number, comment: string) =>
-  http.post<StudyState>(`/api/studies/${id}/return`, { comment });
-export const reopenStudy = (id: number, reason: string) =>
-  http.post<StudyState>(`/api/studies/${id}/reopen`, { reason });
-
-export const getReviews = (id: number) => http.get<ReviewsResponse>(`/api/studies/${id}/reviews`);
-
-export const getStudyAudit = (id: number, cursor?: string | null, limit = 25) =>
-  http.get<AuditPage>(
-    `/api/studies/${id}/audit?limit=${limit}${cursor ? `&cursor=${encodeURIComponent(cursor)}` : ''}`,
+export const startStudy = (id: number): Promise<StudyState> =>
+  callRoute('POST /api/studies/:id/start', { id });
+export const submitStudy = (id: number, note?: string): Promise<StudyState> =>
+  callRoute('POST /api/studies/:id/submit', { id }, { body: note ? { note } : {} });
+export const approveStudy = (id: number, password: string, note?: string): Promise<StudyState> =>
+  callRoute(
+    'POST /api/studies/:id/approve',
+    { id },
+    { body: note ? { password, note } : { password } },
   );
+export const returnStudy = (id: number, comment: string): Promise<StudyState> =>
+  callRoute('POST /api/studies/:id/return', { id }, { body: { comment } });
+export const reopenStudy = (id: number, reason: string): Promise<StudyState> =>
+  callRoute('POST /api/studies/:id/reopen', { id }, { body: { reason } });
 
-export const getSeal = (captureId: number) =>
-  http.get<SealAnswer>(`/api/captures/${captureId}/seal`);
+export const getReviews = (id: number): Promise<ReviewsResponse> =>
+  callRoute('GET /api/studies/:id/reviews', { id });
+
+export const getStudyAudit = (id: number, cursor?: string | null, limit = 25): Promise<AuditPage> =>
+  callRoute('GET /api/studies/:id/audit', { id }, { query: { limit, cursor } });
+
+export const getSeal = (captureId: number): Promise<SealAnswer> =>
+  callRoute('GET /api/captures/:id/seal', { id: captureId });
 
 // ---- attachments ----------------------------------------------------------------------------
 
@@ -69,12 +71,19 @@ const OWNER_PATH: Record<AttachmentOwner, string> = {
   capture: 'captures',
 };
 
-export const listAttachments = (owner: AttachmentOwner, id: number) =>
-  http
-    .get<{ attachments: AttachmentInfo[] }>(`/api/${OWNER_PATH[owner]}/${id}/attachments`)
-    .then((r) => r.attachments);
+const LIST_ROUTE = {
+  study: 'GET /api/studies/:id/attachments',
+  checkpoint: 'GET /api/checkpoints/:id/attachments',
+  capture: 'GET /api/captures/:id/attachments',
+} as const;
 
-export const deleteAttachment = (id: number) => http.delete<void>(`/api/attachments/${id}`);
+export const listAttachments = async (
+  owner: AttachmentOwner,
+  id: number,
+): Promise<AttachmentInfo[]> => (await callRoute(LIST_ROUTE[owner], { id })).attachments;
+
+export const deleteAttachment = (id: number): Promise<void> =>
+  callRoute('DELETE /api/attachments/:id', { id });
 
 /**
  * Uploads one file as multipart (field `file`) with progress (XMLHttpRequest: fetch has no upload
@@ -146,18 +155,13 @@ export async function fetchAttachment(
 // ---- outbox and the lab-wide audit -----------------------------------------------------------
 
 export const getOutbox = (status?: string) =>
-  http.get<{ messages: OutboxMessage[]; nextCursor: string | null }>(
-    `/api/outbox?limit=200${status ? `&status=${status}` : ''}`,
-  );
+  callRoute('GET /api/outbox', {}, { query: { limit: 200, status: status || undefined } });
 export const getReceived = () =>
-  http.get<{ messages: ReceivedMessage[]; nextCursor: string | null }>(
-    '/api/outbox/received?limit=200',
-  );
-export const retryMail = (id: number) =>
-  http.post<z.infer<typeof RetryResponse>>(`/api/outbox/${id}/retry`);
-export const verifyAudit = () => http.get<AuditVerification>('/api/audit/verify');
+  callRoute('GET /api/outbox/received', {}, { query: { limit: 200 } });
+export const retryMail = (id: number) => callRoute('POST /api/outbox/:id/retry', { id });
+export const verifyAudit = (): Promise<AuditVerification> => callRoute('GET /api/audit/verify', {});
 
 // ---- the report ------------------------------------------------------------------------------
 
-export const getReport = (id: number, revision?: number) =>
-  http.get<StudyReport>(`/api/studies/${id}/report${revision ? `?revision=${revision}` : ''}`);
+export const getReport = (id: number, revision?: number): Promise<StudyReport> =>
+  callRoute('GET /api/studies/:id/report', { id }, { query: { revision: revision || undefined } });

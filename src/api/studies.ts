@@ -1,5 +1,5 @@
 /** Typed calls for the study routes; every shape is the contract's (shared/protocol). */
-import { http } from './http';
+import { callRoute } from './http';
 import { allPages } from './paging';
 import type { StudyCreate, StudySettings, StudyStatus } from '../../shared/protocol/api';
 import type { StudyDetail, StudyRecord, StudySummary } from '../../shared/protocol/models';
@@ -12,14 +12,14 @@ export async function listStudies(): Promise<StudySummary[]> {
 
 /** GET /api/studies/:id: the study with its checkpoints and DUTs — the one call for it. */
 export function getStudy(id: number): Promise<StudyDetail> {
-  return http.get<StudyDetail>(`/api/studies/${id}`);
+  return callRoute('GET /api/studies/:id', { id });
 }
 
 export function createStudy(body: StudyCreate): Promise<StudyDetail> {
-  return http.post<StudyDetail>('/api/studies', body);
+  return callRoute('POST /api/studies', {}, { body });
 }
 
 /** Changes a study's planner settings (PATCH /api/studies/:id/settings). */
 export function updateStudySettings(studyId: number, body: StudySettings): Promise<StudyRecord> {
-  return http.patch<StudyRecord>(`/api/studies/${studyId}/settings`, body);
+  return callRoute('PATCH /api/studies/:id/settings', { id: studyId }, { body });
 }

@@ -4,7 +4,7 @@
  * its tests share (exposure summaries, cell figures, counts, form messages).
  */
 import type { z } from 'zod';
-import { http } from './http';
+import { callRoute } from './http';
 import { getStudy, updateStudySettings } from './studies';
 import type {
   CheckpointRecord,
@@ -34,20 +34,20 @@ export const getStudyPlan = getStudy;
 export { updateStudySettings };
 
 export function getStudyMatrix(id: number): Promise<StudyMatrix> {
-  return http.get<StudyMatrix>(`/api/studies/${id}/matrix`);
+  return callRoute('GET /api/studies/:id/matrix', { id });
 }
 
 export function addCheckpoint(studyId: number, body: CheckpointCreate): Promise<PlanCheckpoint> {
-  return http.post<PlanCheckpoint>(`/api/studies/${studyId}/checkpoints`, body);
+  return callRoute('POST /api/studies/:id/checkpoints', { id: studyId }, { body });
 }
 
 export function addDut(studyId: number, body: DutCreate): Promise<PlanDut> {
-  return http.post<PlanDut>(`/api/studies/${studyId}/duts`, body);
+  return callRoute('POST /api/studies/:id/duts', { id: studyId }, { body });
 }
 
 /** PATCH /api/duts/:id: the limit (±, asymmetric or one-sided), tuning-fork parameters, label, position, serial. */
 export async function updateDut(id: number, patch: DutPatch): Promise<PlanDut> {
-  return (await http.patch<{ dut: PlanDut }>(`/api/duts/${id}`, patch)).dut;
+  return (await callRoute('PATCH /api/duts/:id', { id }, { body: patch })).dut;
 }
 
 /** Checkpoints in their planned order (ties by id, as the server orders them). */

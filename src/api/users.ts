@@ -1,12 +1,9 @@
-import { http } from './http';
+import { callRoute } from './http';
 import { allPages } from './paging';
-import type { z } from 'zod';
 import type { UserCreate, UserPatch } from '../../shared/protocol/api';
 import type { UserRecord } from '../../shared/protocol/models';
-import type { UserResponse } from '../../shared/protocol/responses';
 
 export type { UserCreate, UserPatch, UserRecord };
-type UserAnswer = z.infer<typeof UserResponse>;
 
 export async function listUsers(): Promise<UserRecord[]> {
   return allPages<UserRecord>('/api/users', 'users');
@@ -17,14 +14,14 @@ export async function resetPassword(
   id: UserRecord['id'],
   temporaryPassword: string,
 ): Promise<UserRecord> {
-  return (await http.post<UserAnswer>(`/api/users/${id}/password-reset`, { temporaryPassword }))
-    .user;
+  const body = { temporaryPassword };
+  return (await callRoute('POST /api/users/:id/password-reset', { id }, { body })).user;
 }
 
 export async function createUser(body: UserCreate): Promise<UserRecord> {
-  return (await http.post<UserAnswer>('/api/users', body)).user;
+  return (await callRoute('POST /api/users', {}, { body })).user;
 }
 
 export async function updateUser(id: UserRecord['id'], patch: UserPatch): Promise<UserRecord> {
-  return (await http.patch<UserAnswer>(`/api/users/${id}`, patch)).user;
+  return (await callRoute('PATCH /api/users/:id', { id }, { body: patch })).user;
 }

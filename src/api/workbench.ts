@@ -2,7 +2,7 @@
  * Typed calls for the comparison workbench and the CSV import (issue 12): several captures'
  * stability curves in one request, the exports, and the import with upload and server progress.
  */
-import { ApiError, http, toApiError, type RequestOptions } from './http';
+import { ApiError, callRoute, toApiError, type RequestOptions } from './http';
 import type { StabilityKind } from './captures';
 import type { OverlayResponse } from '../../shared/protocol/responses';
 import type { CaptureImportResult, ImportProgress } from '../../shared/protocol/importCsv';
@@ -18,7 +18,8 @@ export function getOverlay(
   kind: StabilityKind,
   options?: RequestOptions,
 ): Promise<Overlay> {
-  return http.get<Overlay>(`/api/captures/stability?ids=${ids.join(',')}&kind=${kind}`, options);
+  const query = { ids: ids.join(','), kind };
+  return callRoute('GET /api/captures/stability', {}, { ...options, query });
 }
 
 export const captureCsvPath = (id: number) => `/api/captures/${id}/export.csv`;
@@ -58,7 +59,7 @@ export async function downloadFile(
 }
 
 export function getImportProgress(key: string): Promise<ImportProgress> {
-  return http.get<ImportProgress>(`/api/captures/import/progress/${key}`);
+  return callRoute('GET /api/captures/import/progress/:key', { key });
 }
 
 /**

@@ -7,7 +7,10 @@ import request from 'supertest';
 import { ROUTES } from '../../shared/protocol/roles.js';
 import { RESPONSES } from '../../shared/protocol/responses.js';
 import { ClientMessage, ServerMessage } from '../../shared/protocol/live.js';
-import { validateResponses } from '../../server/middleware/responses.js';
+import { readdirSync, readFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { replyCsv, replyText, validateResponses } from '../../server/middleware/responses.js';
 import { LiveSocket } from '../../src/api/socket.js';
 
 describe('the response table', () => {
@@ -124,6 +127,67 @@ describe('the response check (tests only)', () => {
     app.use('/api', api);
     const res = await request(app).get('/api/dashboard');
     expect(res.status).toBe(200);
+  });
+});
+
+describe('pre-serialised and CSV answers', () => {
+  /** Routes answering pre-serialised text through replyText, and a CSV route through replyCsv. */
+  function appSending(text: string) {
+    const app = express();
+    const api = express.Router();
+    api.use(validateResponses(true));
+    api.get('/captures/:id/analysis', (_req, res) => {
+      replyText(res, 'GET /api/captures/:id/analysis', text);
+    });
+    api.get('/dashboard', (_req, res) => {
+      replyText(res, 'GET /api/dashboard', text);
+    });
+    api.get('/studies/:id/captures.csv', (_req, res) => {
+      replyCsv(res, 'GET /api/studies/:id/captures.csv', 'study-1.csv', 'id,state\n7,finished\n');
+    });
+    app.use('/api', api);
+    return app;
+  }
+
+  it('checks worker text like any JSON answer: a drift becomes a 500 naming the field', async () => {
+    const res = await request(appSending(JSON.stringify({ stats: 'none' }))).get(
+      '/api/captures/3/analysis',
+    );
+    expect(res.status).toBe(500);
+    expect(res.body.error.code).toBe('response-drift');
+    expect(res.body.error.message).toContain('GET /api/captures/:id/analysis');
+  });
+
+  it('sends text that fits its schema as it is, typed JSON', async () => {
+    const text = JSON.stringify(dashboard);
+    const res = await request(appSending(text)).get('/api/dashboard');
+    expect(res.status).toBe(200);
+    expect(res.headers['content-type']).toMatch(/^application\/json/);
+    expect(res.text).toBe(text);
+  });
+
+  it('sends a CSV with its type and the file name to save it under', async () => {
+    const res = await request(appSending('{}')).get('/api/studies/1/captures.csv');
+    expect(res.status).toBe(200);
+    expect(res.headers['content-type']).toMatch(/^text\/csv/);
+    expect(res.headers['content-disposition']).toBe('attachment; filename="study-1.csv"');
+    expect(res.text).toBe('id,state\n7,finished\n');
+  });
+});
+
+describe('the route handlers', () => {
+  it('answer JSON only through reply() or replyText(), never res.json / res.send', () => {
+    const dir = fileURLToPath(new URL('../../server/routes/', import.meta.url));
+    const bare = readdirSync(dir)
+      .filter((f) => f.endsWith('.ts'))
+      .flatMap((f) =>
+        readFileSync(join(dir, f), 'utf8')
+          .split('\n')
+          .map((line, i) => ({ at: `${f}:${i + 1}`, line }))
+          .filter(({ line }) => /\.(json|send|jsonp)\(/.test(line)),
+      )
+      .map(({ at, line }) => `${at} ${line.trim()}`);
+    expect(bare).toEqual([]);
   });
 });
 

@@ -1,6 +1,13 @@
 // @vitest-environment happy-dom
 import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
-import { ApiError, configureHttp, http } from '../../../src/api/http';
+import {
+  ApiError,
+  callRoute,
+  configureHttp,
+  http,
+  queryString,
+  routePath,
+} from '../../../src/api/http';
 import { queueFetch } from './helpers';
 
 describe('http wrapper', () => {
@@ -89,5 +96,50 @@ describe('http wrapper', () => {
     const error = await http.get('/api/dashboard').catch((e: unknown) => e);
     expect(error).toMatchObject({ status: 502, code: 'server' });
     expect((error as ApiError).message).not.toMatch(/html/i);
+  });
+});
+
+describe('calling a route by its contract key', () => {
+  beforeEach(() => configureHttp({ getToken: () => 'jwt', onSessionLost: () => {} }));
+  afterEach(() => vi.unstubAllGlobals());
+
+  it('fills the path parameters and leaves empty query values out', () => {
+    expect(routePath('GET /api/studies/:id/cells', { id: 4 }, { dutId: 7, checkpointId: 9 })).toBe(
+      '/api/studies/4/cells?dutId=7&checkpointId=9',
+    );
+    expect(routePath('GET /api/studies/:id/audit', { id: 2 }, { limit: 25, cursor: null })).toBe(
+      '/api/studies/2/audit?limit=25',
+    );
+    expect(routePath('GET /api/captures/import/progress/:key', { key: 'a b/c' })).toBe(
+      '/api/captures/import/progress/a%20b%2Fc',
+    );
+    expect(queryString({})).toBe('');
+  });
+
+  it('uses the route’s method, sends {} for a POST without a body and returns the parsed answer', async () => {
+    const fetchMock = queueFetch({ body: { id: 3, status: 'in-progress' } });
+    await expect(callRoute('POST /api/studies/:id/start', { id: 3 })).resolves.toEqual({
+      id: 3,
+      status: 'in-progress',
+    });
+    const [url, init] = fetchMock.mock.calls[0];
+    expect(url).toBe('/api/studies/3/start');
+    expect(init?.method).toBe('POST');
+    expect(init?.body).toBe('{}');
+  });
+
+  it('sends a GET without a body and a PATCH with its JSON body', async () => {
+    const fetchMock = queueFetch({ body: { captures: [] } }, { body: { user: { id: 5 } } });
+    await callRoute(
+      'GET /api/studies/:id/cells',
+      { id: 1 },
+      { query: { dutId: 2, checkpointId: 3 } },
+    );
+    await callRoute('PATCH /api/users/:id', { id: 5 }, { body: { name: 'Bea Bench' } });
+    expect(fetchMock.mock.calls[0][1]?.method).toBe('GET');
+    expect(fetchMock.mock.calls[0][1]?.body).toBeUndefined();
+    expect(fetchMock.mock.calls[1][0]).toBe('/api/users/5');
+    expect(fetchMock.mock.calls[1][1]?.method).toBe('PATCH');
+    expect(fetchMock.mock.calls[1][1]?.body).toBe('{"name":"Bea Bench"}');
   });
 });
