@@ -417,7 +417,7 @@ export async function assertReadingsOnline(pool: pg.Pool, captureId: number): Pr
     'readings-archived',
     `The readings of capture ${captureId} were archived on ${a.archived_at.toISOString().slice(0, 10)} ` +
       `with captures ${a.first_capture_id}–${a.last_capture_id} (${a.how === 'dumped' ? 'dumped to a file' : 'kept outside the app'}). ` +
-      'Its record, summary and seal remain; an administrator can attach the block back to show them.',
+      'Its record and seal stay; an administrator can attach the block back to show its readings and their analysis.',
     { block: a.block, how: a.how, archivedAt: a.archived_at.toISOString() },
   );
 }
