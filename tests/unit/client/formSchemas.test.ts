@@ -20,6 +20,7 @@ import { EXPOSURE_FIELDS, Exposure, PROCESS_KINDS } from '../../../shared/protoc
 import { ReturnBody } from '../../../shared/protocol/review';
 import { CaptureImportFields } from '../../../shared/protocol/importCsv';
 import { CapturePatch } from '../../../shared/protocol/captures';
+import { LinkProfile } from '../../../shared/protocol/linkProfile';
 import { ReferenceCreate } from '../../../shared/protocol/uncertainty';
 
 /** The fields the API names in its 400 for `body` (the server's own parse), with their messages. */
@@ -213,6 +214,9 @@ describe('forms check what the API checks (useZodForm over the shared request sc
     expect(inputBounds(CaptureImportFields, ['skipLines'])).toEqual({ min: 0, max: 10_000 });
     // CapturePatch (shared/protocol/captures.ts): ambient −60 to 150 °C.
     expect(inputBounds(CapturePatch, ['ambientC'])).toEqual({ min: -60, max: 150 });
+    // LinkProfile (shared/protocol/linkProfile.ts): 0–10 retries; a hex-spi value at byte 0–63.
+    expect(inputBounds(LinkProfile, ['retries'])).toEqual({ min: 0, max: 10 });
+    expect(inputBounds(LinkProfile, ['hexSpi', 'offset'])).toEqual({ min: 0, max: 63 });
     // No bound stated: the input stays open.
     expect(inputBounds(DutCreate, ['limitLow'])).toEqual({ min: -Infinity, max: Infinity });
   });
