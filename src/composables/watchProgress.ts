@@ -4,7 +4,10 @@
  * longer than the pace predicts). Pure: the caller records arrivals and passes the clock.
  */
 
-export type WatchTarget = { kind: 'duration'; seconds: number } | { kind: 'count'; n: number };
+import type { CaptureRecord } from '../../shared/protocol/models';
+
+/** What the bench planned for a capture: a duration in capture seconds or a reading count (the contract's). */
+export type WatchTarget = NonNullable<CaptureRecord['target']>;
 
 /** One arrival: wall time (ms), capture time of the newest reading (s), readings so far. */
 export interface Arrival {

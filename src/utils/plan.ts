@@ -3,15 +3,11 @@
  * stability curves), the DUT's own unit otherwise. Pure, tested in Node.
  */
 import { unitFactor } from '../../shared/protocol/parse';
+import type { DutRecord } from '../../shared/protocol/models';
 
-export interface LimitDut {
-  nominal: number;
-  unit: string;
-  limit: number | null;
-  limitLow?: number | null;
-  limitHigh?: number | null;
-  limitUnit: string;
-}
+/** The DUT fields the planner reads (the contract's DUT; an asymmetric limit's low/high may be left out). */
+export type LimitDut = Pick<DutRecord, 'nominal' | 'unit' | 'limit' | 'limitUnit'> &
+  Partial<Pick<DutRecord, 'limitLow' | 'limitHigh'>>;
 
 export const isFrequencyUnit = (unit: string) => /hz$/i.test(unit);
 

@@ -3,6 +3,7 @@
  * τ, the plot as SVG and the tables as CSV. Tested in Node (tests/unit/client/workbench.test.ts).
  */
 import { STABILITY_KINDS, type StabilityKind } from '../../shared/protocol/captures';
+import type { StabilityPointWire } from '../../shared/protocol/models';
 
 export interface Selection {
   ids: number[];
@@ -62,12 +63,9 @@ export function selectionQuery(s: Selection): Record<string, string> {
   return q;
 }
 
-export interface CurvePointLike {
-  tau: number;
-  dev: number;
-  lo?: number;
-  hi?: number;
-}
+/** A stability point as the contract carries it, or one the page made (the interval may be absent). */
+export type CurvePointLike = Pick<StabilityPointWire, 'tau' | 'dev'> &
+  Partial<Pick<StabilityPointWire, 'lo' | 'hi'>>;
 
 /**
  * The deviation at τ: the point itself when the curve has it, otherwise a straight line between
