@@ -1,47 +1,17 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds, seeded } from '../helpers/demo.js';
+import { seeded } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
-
-async function newCapture(role = 'technician', extra: Record<string, unknown> = {}) {
-  const res = await request(t.app)
-    .post('/api/captures')
-    .set(await auth(role))
-    .send({
-      dutId: ids.crystal.id,
-      checkpointId: ids.checkpoints[0],
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-      ambientC: 23.1,
-      ...extra,
-    });
-  expect(res.status).toBe(201);
-  return res.body.id as number;
-}
+const demo = useDemoApp({ ambientC: 23.1 });
+const { auth, newCapture } = demo;
 
 const reading = (seq: number, value = 16e6 + seq * 1e-3) => ({ seq, t: seq, value });
 
 describe('ingest', () => {
   it('stores exactly the unique readings from batches with duplicates, reordering and gaps', async () => {
     const id = await newCapture();
-    const post = async (readings: unknown[]) =>
-      request(t.app)
-        .post(`/api/captures/${id}/readings`)
-        .set(await auth('technician'))
-        .send({ readings });
+    const post = async (readings: unknown[]) => demo.postReadings(id, readings);
     const a = await post([reading(0), reading(1), reading(2), reading(3)]);
     expect(a.body).toEqual({ accepted: 4, duplicates: 0, highestSeq: 3 });
     // Resent batch plus new readings, out of order, with seq 6 missing.
@@ -49,7 +19,7 @@ describe('ingest', () => {
     expect(b.body).toEqual({ accepted: 3, duplicates: 3, highestSeq: 7 });
     const c = await post([reading(1)]);
     expect(c.body).toEqual({ accepted: 0, duplicates: 1, highestSeq: 7 });
-    const all = await request(t.app)
+    const all = await request(demo.t.app)
       .get(`/api/captures/${id}/readings`)
       .set(await auth('viewer'));
     expect(all.body.readings.map((r: { seq: number }) => r.seq)).toEqual([0, 1, 2, 3, 4, 5, 7]);
@@ -58,29 +28,20 @@ describe('ingest', () => {
 
   it('refuses readings from a viewer with 403', async () => {
     const id = await newCapture();
-    const res = await request(t.app)
-      .post(`/api/captures/${id}/readings`)
-      .set(await auth('viewer'))
-      .send({ readings: [reading(0)] });
+    const res = await demo.postReadings(id, [reading(0)], 'viewer');
     expect(res.status).toBe(403);
   });
 
   it("refuses readings for someone else's capture unless the writer is a lead or admin", async () => {
     const id = await newCapture('engineer');
-    const tech = await request(t.app)
-      .post(`/api/captures/${id}/readings`)
-      .set(await auth('technician'))
-      .send({ readings: [reading(0)] });
+    const tech = await demo.postReadings(id, [reading(0)]);
     expect(tech.status).toBe(403);
-    const lead = await request(t.app)
-      .post(`/api/captures/${id}/readings`)
-      .set(await auth('lead'))
-      .send({ readings: [reading(0)] });
+    const lead = await demo.postReadings(id, [reading(0)], 'lead');
     expect(lead.status).toBe(200);
   });
 
   it('answers 404 for readings of a missing capture', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/captures/999999/readings')
       .set(await auth('technician'))
       .send({ readings: [reading(0)] });
@@ -97,14 +58,11 @@ describe('ingest', () => {
     'refuses a whole batch with a malformed reading and names its index (%#)',
     async (readings, index, field) => {
       const id = await newCapture();
-      const res = await request(t.app)
-        .post(`/api/captures/${id}/readings`)
-        .set(await auth('technician'))
-        .send({ readings });
+      const res = await demo.postReadings(id, readings);
       expect(res.status).toBe(400);
       expect(res.body.error.details.index).toBe(index);
       expect(res.body.error.message).toContain(field);
-      const stored = await request(t.app)
+      const stored = await request(demo.t.app)
         .get(`/api/captures/${id}/readings`)
         .set(await auth('viewer'));
       expect(stored.body.readings).toEqual([]);
@@ -114,35 +72,26 @@ describe('ingest', () => {
   it('refuses a batch over the limit', async () => {
     const id = await newCapture();
     const readings = Array.from({ length: 20_001 }, (_, i) => reading(i));
-    const res = await request(t.app)
-      .post(`/api/captures/${id}/readings`)
-      .set(await auth('technician'))
-      .send({ readings });
+    const res = await demo.postReadings(id, readings);
     expect(res.status).toBe(400);
   });
 
   it('refuses readings after finish, and the readings stay as they were', async () => {
     const id = await newCapture();
-    await request(t.app)
-      .post(`/api/captures/${id}/readings`)
-      .set(await auth('technician'))
-      .send({ readings: [reading(0), reading(1), reading(2)] });
-    const fin = await request(t.app)
+    await demo.postReadings(id, [reading(0), reading(1), reading(2)]);
+    const fin = await request(demo.t.app)
       .post(`/api/captures/${id}/finish`)
       .set(await auth('technician'));
     expect(fin.status).toBe(200);
     expect(fin.body.state).toBe('finished');
-    const late = await request(t.app)
-      .post(`/api/captures/${id}/readings`)
-      .set(await auth('technician'))
-      .send({ readings: [reading(3)] });
+    const late = await demo.postReadings(id, [reading(3)]);
     expect(late.status).toBe(409);
     expect(late.body.error.code).toBe('capture-finished');
-    const again = await request(t.app)
+    const again = await request(demo.t.app)
       .post(`/api/captures/${id}/finish`)
       .set(await auth('technician'));
     expect(again.status).toBe(200);
-    const stored = await request(t.app)
+    const stored = await request(demo.t.app)
       .get(`/api/captures/${id}/readings`)
       .set(await auth('viewer'));
     expect(stored.body.readings).toHaveLength(3);
@@ -151,26 +100,20 @@ describe('ingest', () => {
 
 describe('capture creation', () => {
   it('refuses a capture from a viewer', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/captures')
       .set(await auth('viewer'))
-      .send({
-        dutId: ids.crystal.id,
-        checkpointId: ids.checkpoints[0],
-        quantity: 'frequency',
-        unit: 'Hz',
-        gateTime: 1,
-      });
+      .send(demo.captureBody());
     expect(res.status).toBe(403);
   });
 
   it('names the bad field of a capture', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/captures')
       .set(await auth('technician'))
       .send({
-        dutId: ids.crystal.id,
-        checkpointId: ids.checkpoints[0],
+        dutId: demo.ids.crystal.id,
+        checkpointId: demo.ids.checkpoints[0],
         quantity: 'smell',
         unit: 'Hz',
         gateTime: 0,
@@ -181,12 +124,12 @@ describe('capture creation', () => {
   });
 
   it('copies the reference offset at capture time', async () => {
-    const refs = await request(t.app)
+    const refs = await request(demo.t.app)
       .get('/api/references')
       .set(await auth('viewer'));
     const ref = refs.body.references[0];
     const id = await newCapture('technician', { referenceId: ref.id });
-    const c = await request(t.app)
+    const c = await request(demo.t.app)
       .get(`/api/captures/${id}`)
       .set(await auth('viewer'));
     expect(c.body.referenceOffset).toBe(ref.fractionalOffset);
@@ -203,19 +146,16 @@ describe('analysis and comparison', () => {
       t: i,
       value: 16e6 + offsetHz + 0.002 * rnd.gauss(),
     }));
-    await request(t.app)
-      .post(`/api/captures/${id}/readings`)
-      .set(await auth('technician'))
-      .send({ readings });
-    await request(t.app)
+    await demo.postReadings(id, readings);
+    await request(demo.t.app)
       .post(`/api/captures/${id}/finish`)
       .set(await auth('technician'));
     return id;
   }
 
   it('answers the analysis of a stored capture per the contract', async () => {
-    const id = await filledCapture(ids.checkpoints[0], 4);
-    const res = await request(t.app)
+    const id = await filledCapture(demo.ids.checkpoints[0], 4);
+    const res = await request(demo.t.app)
       .get(`/api/captures/${id}/analysis?kind=adev&taus=decade`)
       .set(await auth('viewer'));
     expect(res.status).toBe(200);
@@ -239,17 +179,17 @@ describe('analysis and comparison', () => {
   });
 
   it('gives a "within" verdict for a part that did not move and "exceeds" for one that moved 3 ppm', async () => {
-    const before = await filledCapture(ids.checkpoints[0], 4, 600, 2);
-    const same = await filledCapture(ids.checkpoints[1], 4.001, 600, 3);
-    const moved = await filledCapture(ids.checkpoints[2], 4 + 48, 600, 4); // 48 Hz at 16 MHz = 3 ppm
-    const ok = await request(t.app)
+    const before = await filledCapture(demo.ids.checkpoints[0], 4, 600, 2);
+    const same = await filledCapture(demo.ids.checkpoints[1], 4.001, 600, 3);
+    const moved = await filledCapture(demo.ids.checkpoints[2], 4 + 48, 600, 4); // 48 Hz at 16 MHz = 3 ppm
+    const ok = await request(demo.t.app)
       .get(`/api/comparisons?before=${before}&after=${same}`)
       .set(await auth('viewer'));
     expect(ok.status).toBe(200);
     expect(ok.body.verdict).toBe('within');
     expect(ok.body.k).toBe(2);
     expect(ok.body.referenceCorrelated).toBe(true);
-    const bad = await request(t.app)
+    const bad = await request(demo.t.app)
       .get(`/api/comparisons?before=${before}&after=${moved}`)
       .set(await auth('viewer'));
     expect(bad.body.verdict).toBe('exceeds');
@@ -258,18 +198,18 @@ describe('analysis and comparison', () => {
   });
 
   it('refuses to compare captures of different DUTs', async () => {
-    const a = await filledCapture(ids.checkpoints[0], 1, 50, 5);
-    const other = await request(t.app)
+    const a = await filledCapture(demo.ids.checkpoints[0], 1, 50, 5);
+    const other = await request(demo.t.app)
       .post('/api/captures')
       .set(await auth('technician'))
       .send({
-        dutId: ids.tuningFork.id,
-        checkpointId: ids.checkpoints[1],
+        dutId: demo.ids.tuningFork.id,
+        checkpointId: demo.ids.checkpoints[1],
         quantity: 'frequency',
         unit: 'Hz',
         gateTime: 1,
       });
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/comparisons?before=${a}&after=${other.body.id}`)
       .set(await auth('viewer'));
     expect(res.status).toBe(400);
@@ -285,16 +225,13 @@ describe('decimated reads', () => {
       t: i * 0.01,
       value: i === 12_345 ? 99 : i === 777 ? -99 : Math.sin(i / 500),
     }));
-    await request(t.app)
-      .post(`/api/captures/${id}/readings`)
-      .set(await auth('technician'))
-      .send({ readings });
+    await demo.postReadings(id, readings);
     for (const phase of ['open', 'finished']) {
       if (phase === 'finished')
-        await request(t.app)
+        await request(demo.t.app)
           .post(`/api/captures/${id}/finish`)
           .set(await auth('technician'));
-      const res = await request(t.app)
+      const res = await request(demo.t.app)
         .get(`/api/captures/${id}/readings?maxPoints=200`)
         .set(await auth('viewer'));
       expect(res.status).toBe(200);
@@ -305,7 +242,7 @@ describe('decimated reads', () => {
       const seqs = res.body.readings.map((r: { seq: number }) => r.seq);
       expect(seqs).toEqual([...seqs].sort((a, b) => a - b));
     }
-    const range = await request(t.app)
+    const range = await request(demo.t.app)
       .get(`/api/captures/${id}/readings?from=100&to=199`)
       .set(await auth('viewer'));
     expect(range.body.readings.map((r: { seq: number }) => r.seq)).toEqual(
@@ -317,11 +254,11 @@ describe('decimated reads', () => {
 describe('CSV export', () => {
   it('exports every reading of a capture as CSV with a header', async () => {
     const id = await newCapture();
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/captures/${id}/readings`)
       .set(await auth('technician'))
       .send({ readings: [reading(0), reading(1), { seq: 2, t: 2, value: 16e6, flags: 1 }] });
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/captures/${id}/readings.csv`)
       .set(await auth('viewer'));
     expect(res.status).toBe(200);
@@ -341,20 +278,20 @@ describe('analysis of tiny captures', () => {
     async (n) => {
       const id = await newCapture('technician', { referenceId: 1 });
       if (n)
-        await request(t.app)
+        await request(demo.t.app)
           .post(`/api/captures/${id}/readings`)
           .set(await auth('technician'))
           .send({ readings: Array.from({ length: n }, (_, i) => reading(i)) });
-      const open = await request(t.app)
+      const open = await request(demo.t.app)
         .get(`/api/captures/${id}/analysis`)
         .set(await auth('viewer'));
       expect(open.status).toBe(200);
       expect(open.body.counts.total).toBe(n);
-      const fin = await request(t.app)
+      const fin = await request(demo.t.app)
         .post(`/api/captures/${id}/finish`)
         .set(await auth('technician'));
       expect(fin.status).toBe(200);
-      const done = await request(t.app)
+      const done = await request(demo.t.app)
         .get(`/api/captures/${id}/analysis?kind=mdev`)
         .set(await auth('viewer'));
       expect(done.status).toBe(200);

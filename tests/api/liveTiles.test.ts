@@ -1,36 +1,12 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds, seeded } from '../helpers/demo.js';
+import { seeded } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 
 // Issue 15: min/max tiles are kept up to date while a capture records (a trigger on readings,
 // migration 20261202-0110), so a decimated read of an open capture reads tiles as a finished one does.
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
-
-async function newCapture() {
-  const res = await request(t.app)
-    .post('/api/captures')
-    .set(await auth('technician'))
-    .send({
-      dutId: ids.crystal.id,
-      checkpointId: ids.checkpoints[0],
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-    });
-  expect(res.status).toBe(201);
-  return res.body.id as number;
-}
+const demo = useDemoApp();
+const { auth, newCapture, postReadings } = demo;
 
 type R = { seq: number; t: number; value: number };
 interface Tile {
@@ -79,7 +55,7 @@ function expectedTiles(readings: R[], levels: number[]): Tile[] {
 }
 
 async function storedTiles(id: number, levels: number[]): Promise<Tile[]> {
-  const res = await t.db.pool.query<Tile>(
+  const res = await demo.t.db.pool.query<Tile>(
     `SELECT level, bucket, min_seq, min_value, max_seq, max_value FROM reading_tiles
      WHERE capture_id = $1 AND level = ANY($2) ORDER BY level, bucket`,
     [id, levels],
@@ -93,10 +69,7 @@ describe('tiles of an open capture', () => {
     const rand = seeded(15);
     const kept = new Map<number, R>();
     const post = async (readings: R[]) => {
-      const res = await request(t.app)
-        .post(`/api/captures/${id}/readings`)
-        .set(await auth('technician'))
-        .send({ readings });
+      const res = await postReadings(id, readings);
       expect(res.status).toBe(200);
       // What the database keeps: the first value sent for each seq.
       for (const r of readings) if (!kept.has(r.seq)) kept.set(r.seq, r);
@@ -142,15 +115,12 @@ describe('tiles of an open capture', () => {
       value: i === 12_345 ? 99 : i === 777 ? -99 : Math.sin(i / 500),
     }));
     for (let b = 0; b < n; b += 5000) {
-      const res = await request(t.app)
-        .post(`/api/captures/${id}/readings`)
-        .set(await auth('technician'))
-        .send({ readings: readings.slice(b, b + 5000) });
+      const res = await postReadings(id, readings.slice(b, b + 5000));
       expect(res.status).toBe(200);
     }
     const read = async (q: string) =>
       (
-        await request(t.app)
+        await request(demo.t.app)
           .get(`/api/captures/${id}/readings?${q}`)
           .set(await auth('viewer'))
       ).body;
@@ -166,18 +136,18 @@ describe('tiles of an open capture', () => {
     // 200 points = 100 pairs; the finest level whose tiles over 20,000 seqs leave room for two edges:
     // ⌈20000/128⌉ + 2 = 159 > 100, ⌈20000/256⌉ + 2 = 81 ≤ 100 → level 2 (256 seqs a tile).
     const level = 2;
-    const probe = await t.db.pool.query(
+    const probe = await demo.t.db.pool.query(
       'UPDATE reading_tiles SET max_value = 12345 WHERE capture_id = $1 AND level = $2 AND bucket = 1 RETURNING max_seq',
       [id, level],
     );
     expect(probe.rowCount).toBe(1);
     expect((await read('maxPoints=200')).readings.map((r: R) => r.value)).toContain(12345);
-    await t.db.pool.query(
+    await demo.t.db.pool.query(
       'UPDATE reading_tiles SET max_value = (SELECT value FROM readings WHERE capture_id = $1 AND seq = $3) WHERE capture_id = $1 AND level = $2 AND bucket = 1',
       [id, level, probe.rows[0].max_seq],
     );
 
-    const fin = await request(t.app)
+    const fin = await request(demo.t.app)
       .post(`/api/captures/${id}/finish`)
       .set(await auth('technician'));
     expect(fin.status).toBe(200);
