@@ -21,7 +21,7 @@ export interface StabilityView {
   value: string | null;
   /** "95 % interval 0.29 … 0.35 ppb". */
   interval: string | null;
-  /** "limit ≤ 0.5 ppb at τ = 10 s". */
+  /** "≤ 0.5 ppb at τ = 10 s". */
   limit: string;
   verdict: StabilityJudgement['verdict'];
   /** Why there is no figure ("inconclusive: capture too short …"), or a τ note. */
@@ -46,7 +46,7 @@ export function stabilityView(s: StabilityJudgement): StabilityView {
     title: `σy(${seconds(f?.tau ?? s.tauS)})`,
     value: f ? ppb(f.dev) : null,
     interval: f ? `${pct} % interval ${Number((f.lo * 1e9).toPrecision(3))} … ${ppb(f.hi)}` : null,
-    limit: `limit ≤ ${Number(s.limitPpb.toPrecision(4))} ppb at τ = ${seconds(s.tauS)}`,
+    limit: `≤ ${Number(s.limitPpb.toPrecision(4))} ppb at τ = ${seconds(s.tauS)}`,
     verdict: s.verdict,
     note: s.reason ?? tauNote,
     change:
