@@ -7,7 +7,7 @@
 import { z } from 'zod';
 import { CaptureCreate, CaptureTarget } from '../../shared/protocol/captures';
 import type { LinkPreset, LinkProfile } from '../../shared/protocol/linkProfile';
-import { boundsOf } from '../composables/useZodForm';
+import { boundsOf, inputBounds } from '../composables/useZodForm';
 import type { BenchChoices } from '../stores/bench';
 import {
   buildProfile,
@@ -32,11 +32,12 @@ const [durationTarget, countTarget] = CaptureTarget.options;
 export const BENCH_TARGET_SECONDS = durationTarget.shape.seconds.min(1).max(604_800);
 export const BENCH_TARGET_COUNT = countTarget.shape.n.min(2).max(10_000_000);
 
-/** Input limits of the form's numeric fields, read from the schemas that check them. */
+/** Input limits of the form's numeric fields (`v-bind` on the input), read from the schemas that check them. */
 export const BENCH_BOUNDS = {
-  ambientC: boundsOf(CaptureCreate, ['ambientC']),
-  targetSeconds: boundsOf(BENCH_TARGET_SECONDS, []),
-  targetCount: boundsOf(BENCH_TARGET_COUNT, []),
+  gateTime: inputBounds(CaptureCreate, ['gateTime']),
+  ambientC: inputBounds(CaptureCreate, ['ambientC']),
+  targetSeconds: inputBounds(BENCH_TARGET_SECONDS, []),
+  targetCount: inputBounds(BENCH_TARGET_COUNT, []),
 } as const;
 
 /** How a number fails its schema: empty, below its minimum, above its maximum, or otherwise (e.g. not whole). */
@@ -51,7 +52,7 @@ export function numberProblem(field: z.ZodType, v: unknown): NumberProblem | nul
   return 'other';
 }
 
-const minus = (v: number | null) => String(v).replace('-', '−');
+const minus = (v: number) => String(v).replace('-', '−');
 
 /** Why an ambient is refused, in the form's words (it is required at the bench), or null. */
 export function ambientProblem(v: number | null | undefined): string | null {
@@ -64,8 +65,7 @@ export function ambientProblem(v: number | null | undefined): string | null {
 /** Why a planned capture time (seconds) is refused, or null. */
 export function targetSecondsProblem(v: number | null | undefined): string | null {
   const problem = numberProblem(BENCH_TARGET_SECONDS, v);
-  if (problem === 'high')
-    return `Run for at most ${groupDigits(BENCH_BOUNDS.targetSeconds.max ?? 0)} s`;
+  if (problem === 'high') return `Run for at most ${groupDigits(BENCH_BOUNDS.targetSeconds.max)} s`;
   return problem ? `Run for at least ${BENCH_BOUNDS.targetSeconds.min} s` : null;
 }
 
@@ -73,7 +73,7 @@ export function targetSecondsProblem(v: number | null | undefined): string | nul
 export function targetCountProblem(v: number | null | undefined): string | null {
   const problem = numberProblem(BENCH_TARGET_COUNT, v);
   if (problem === 'high')
-    return `Take at most ${groupDigits(BENCH_BOUNDS.targetCount.max ?? 0)} readings`;
+    return `Take at most ${groupDigits(BENCH_BOUNDS.targetCount.max)} readings`;
   if (problem === 'other') return 'Take a whole number of readings';
   return problem ? `Take at least ${BENCH_BOUNDS.targetCount.min} readings` : null;
 }
@@ -141,7 +141,7 @@ export function benchSetupBody(c: BenchChoices, guided: boolean) {
 /** The planner's "use this length": seconds kept inside what the bench plans. */
 export function plannedLength(seconds: number): number {
   const { min, max } = BENCH_BOUNDS.targetSeconds;
-  return Math.min(max ?? seconds, Math.max(min ?? seconds, seconds));
+  return Math.min(max, Math.max(min, seconds));
 }
 
 /** What the start needs besides the remembered choices. */

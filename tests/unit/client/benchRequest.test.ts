@@ -21,10 +21,11 @@ import type { BenchStudy } from '../../../src/utils/benchPlanning';
 // form validates through the shared schema; its request is built by a plain function).
 
 describe('the form’s limits come from the schemas', () => {
-  it('ambient from CaptureCreate, the target from the bench’s narrowing of CaptureTarget', () => {
-    // shared/protocol/captures.ts CaptureCreate.ambientC (−60…150 °C); the bench plans 1 s to a
+  it('gate and ambient from CaptureCreate, the target from the bench’s narrowing of CaptureTarget', () => {
+    // shared/protocol/captures.ts CaptureCreate.gateTime (0.001…1000 s) and .ambientC (−60…150 °C); the bench plans 1 s to a
     // week (604 800 s = 7 × 86 400 s) or 2 to ten million readings (common practice, no source)
     expect(BENCH_BOUNDS).toEqual({
+      gateTime: { min: 0.001, max: 1000 },
       ambientC: { min: -60, max: 150 },
       targetSeconds: { min: 1, max: 604_800 },
       targetCount: { min: 2, max: 10_000_000 },
