@@ -1,37 +1,24 @@
 // Issue 8 through the API: references with a calibration record, counters with a type and
 // resolution, DUT limits (asymmetric, one-sided) and tuning-fork parameters, drift removal on the
 // analysis route, and Δ's budget with k from ν_eff, on a real PostgreSQL.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds, seeded } from '../helpers/demo.js';
+import { describe, expect, it } from 'vitest';
+import { seeded } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
+const { call } = demo;
 
 async function capture(body: Record<string, unknown>, values: (i: number) => number, n = 300) {
-  const c = await request(t.app)
-    .post('/api/captures')
-    .set(await auth('technician'))
-    .send({ quantity: 'frequency', unit: 'Hz', gateTime: 1, ...body });
+  const c = await call('technician', 'post', '/api/captures', {
+    quantity: 'frequency',
+    unit: 'Hz',
+    gateTime: 1,
+    ...body,
+  });
   expect(c.status).toBe(201);
   const readings = Array.from({ length: n }, (_, i) => ({ seq: i, t: i, value: values(i) }));
-  await request(t.app)
-    .post(`/api/captures/${c.body.id}/readings`)
-    .set(await auth('technician'))
-    .send({ readings });
-  const fin = await request(t.app)
-    .post(`/api/captures/${c.body.id}/finish`)
-    .set(await auth('technician'));
+  await call('technician', 'post', `/api/captures/${c.body.id}/readings`, { readings });
+  const fin = await call('technician', 'post', `/api/captures/${c.body.id}/finish`);
   expect(fin.status).toBe(200);
   return fin.body as {
     id: number;
@@ -40,6 +27,30 @@ async function capture(body: Record<string, unknown>, values: (i: number) => num
     referenceAgeingPerDay: number | null;
   };
 }
+
+/** A capture of the demo crystal at checkpoint `cp` (0 or 1), at 23 °C, reading exactly its nominal. */
+const crystalAt = (cp: number, extra: Record<string, unknown> = {}) =>
+  capture(
+    {
+      dutId: demo.ids.crystal.id,
+      checkpointId: demo.ids.checkpoints[cp],
+      ambientC: 23,
+      ...extra,
+    },
+    () => demo.ids.crystal.nominal,
+  );
+
+/** The budget line named `name`. */
+const line = (components: { name: string }[], name: string) =>
+  components.find((c) => c.name === name) as { name: string; contribution: number; value: number };
+
+/** Moves a capture `days` back in time; its stored summary is marked old, so it is recomputed. */
+const backdate = (id: number, days: number) =>
+  demo.t.db.pool.query(
+    `UPDATE captures SET started_at = started_at - make_interval(days => $2),
+       summary = jsonb_set(summary, '{version}', '1') WHERE id = $1`,
+    [id, days],
+  );
 
 describe('frequency references', () => {
   it('lets a lead register a reference with its ageing, audited, and refuses an engineer', async () => {
@@ -54,15 +65,9 @@ describe('frequency references', () => {
       ageingPerDay: 5e-11,
       ageingUPerDay: 2e-11,
     };
-    const refused = await request(t.app)
-      .post('/api/references')
-      .set(await auth('engineer'))
-      .send(body);
+    const refused = await call('engineer', 'post', '/api/references', body);
     expect(refused.status).toBe(403);
-    const res = await request(t.app)
-      .post('/api/references')
-      .set(await auth('lead'))
-      .send(body);
+    const res = await call('lead', 'post', '/api/references', body);
     expect(res.status).toBe(201);
     expect(res.body.reference).toMatchObject({
       kind: 'ocxo',
@@ -70,13 +75,12 @@ describe('frequency references', () => {
       ageingUPerDay: 2e-11,
       verifiedAt: '2026-11-02',
     });
-    const patched = await request(t.app)
-      .patch(`/api/references/${res.body.reference.id}`)
-      .set(await auth('admin'))
-      .send({ ageingPerDay: 4e-11 });
+    const patched = await call('admin', 'patch', `/api/references/${res.body.reference.id}`, {
+      ageingPerDay: 4e-11,
+    });
     expect(patched.status).toBe(200);
     expect(patched.body.reference.ageingPerDay).toBe(4e-11);
-    const { rows } = await t.db.pool.query(
+    const { rows } = await demo.t.db.pool.query(
       "SELECT action, details FROM audit_events WHERE subject_type = 'reference' ORDER BY id",
     );
     expect(rows.map((r: { action: string }) => r.action)).toEqual([
@@ -88,15 +92,12 @@ describe('frequency references', () => {
 
   it('refuses a kind outside the list and a negative ageing uncertainty with 400', async () => {
     const base = { name: 'X', nominalHz: 10e6, fractionalOffset: 0, standardUncertainty: 1e-11 };
-    const a = await request(t.app)
-      .post('/api/references')
-      .set(await auth('lead'))
-      .send({ ...base, kind: 'sundial' });
+    const a = await call('lead', 'post', '/api/references', { ...base, kind: 'sundial' });
     expect(a.status).toBe(400);
-    const b = await request(t.app)
-      .post('/api/references')
-      .set(await auth('lead'))
-      .send({ ...base, ageingUPerDay: -1e-12 });
+    const b = await call('lead', 'post', '/api/references', {
+      ...base,
+      ageingUPerDay: -1e-12,
+    });
     expect(b.status).toBe(400);
     expect(b.body.error.details[0].path).toBe('ageingUPerDay');
   });
@@ -104,21 +105,18 @@ describe('frequency references', () => {
 
 describe('counter type and resolution', () => {
   it('copies the counter type at start and books ±1 count for a gated counter even when every reading is identical', async () => {
-    const inst = await request(t.app)
-      .post('/api/instruments')
-      .set(await auth('admin'))
-      .send({
-        name: 'Gated counter G-1',
-        kind: 'counter',
-        counterType: 'gated',
-        counterResolution: 1,
-      });
+    const inst = await call('admin', 'post', '/api/instruments', {
+      name: 'Gated counter G-1',
+      kind: 'counter',
+      counterType: 'gated',
+      counterResolution: 1,
+    });
     expect(inst.status).toBe(201);
     expect(inst.body.instrument).toMatchObject({ counterType: 'gated', counterResolution: 1 });
     const c = await capture(
       {
-        dutId: ids.tuningFork.id,
-        checkpointId: ids.checkpoints[0],
+        dutId: demo.ids.tuningFork.id,
+        checkpointId: demo.ids.checkpoints[0],
         instrumentId: inst.body.instrument.id,
         ambientC: 23,
       },
@@ -126,16 +124,12 @@ describe('counter type and resolution', () => {
     );
     expect(c.counterType).toBe('gated');
     // Later changes to the instrument do not rewrite the evidence.
-    await request(t.app)
-      .patch(`/api/instruments/${inst.body.instrument.id}`)
-      .set(await auth('admin'))
-      .send({ counterType: 'reciprocal', counterResolution: 1e-10 });
-    const a = await request(t.app)
-      .get(`/api/captures/${c.id}/analysis`)
-      .set(await auth('viewer'));
-    const res = a.body.uncertainty.components.find(
-      (x: { name: string }) => x.name === 'Counter resolution',
-    );
+    await call('admin', 'patch', `/api/instruments/${inst.body.instrument.id}`, {
+      counterType: 'reciprocal',
+      counterResolution: 1e-10,
+    });
+    const a = await call('viewer', 'get', `/api/captures/${c.id}/analysis`);
+    const res = line(a.body.uncertainty.components, 'Counter resolution');
     expect(res.value).toBeCloseTo(1 / Math.sqrt(3), 12); // ±1/t_gate Hz, a/√3 (counter theory; JCGM 100 §4.3.7)
     expect(a.body.uncertainty.combined).toBeGreaterThan(0.5); // identical readings: no collapse
     expect(a.body.uncertainty.k).toBe(2); // ν_eff = ∞: Driftbench's floor
@@ -143,27 +137,31 @@ describe('counter type and resolution', () => {
   });
 
   it('refuses an unknown counter type with 400', async () => {
-    const res = await request(t.app)
-      .post('/api/instruments')
-      .set(await auth('admin'))
-      .send({ name: 'C', kind: 'counter', counterType: 'magic' });
+    const res = await call('admin', 'post', '/api/instruments', {
+      name: 'C',
+      kind: 'counter',
+      counterType: 'magic',
+    });
     expect(res.status).toBe(400);
   });
 });
 
 describe('drift on the analysis route', () => {
   it('removes a linear drift by default, reports it in ppb/day, and keeps it when asked for none', async () => {
-    const f0 = ids.crystal.nominal;
+    const f0 = demo.ids.crystal.nominal;
     const rnd = seeded(4);
     // 1e-11 per second of drift (0.864 ppm/day = 864 ppb/day) on white noise of 1e-11.
     const c = await capture(
-      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId: 1, ambientC: 23 },
+      {
+        dutId: demo.ids.crystal.id,
+        checkpointId: demo.ids.checkpoints[0],
+        referenceId: 1,
+        ambientC: 23,
+      },
       (i) => f0 * (1 + 1e-11 * rnd.gauss() + 1e-11 * i),
       1024,
     );
-    const lin = await request(t.app)
-      .get(`/api/captures/${c.id}/analysis`)
-      .set(await auth('viewer'));
+    const lin = await call('viewer', 'get', `/api/captures/${c.id}/analysis`);
     expect(lin.body.driftModel).toBe('linear');
     expect(lin.body.drift.rateUnit).toBe('ppb/day');
     expect(lin.body.drift.rateInUnit).toBeCloseTo(864, 0); // 1e-11/s × 86 400 s × 1e9 (by hand)
@@ -173,9 +171,7 @@ describe('drift on the analysis route', () => {
     );
     // |D|·T/√12 × f0 with T = 1024 s (by hand): 1e-11 × 1024 / 3.4641 × 16e6 = 0.0473 Hz
     expect(driftLine.value).toBeCloseTo((1e-11 * Math.sqrt(1024 ** 2 - 1) * f0) / Math.sqrt(12), 3);
-    const none = await request(t.app)
-      .get(`/api/captures/${c.id}/analysis?drift=none`)
-      .set(await auth('viewer'));
+    const none = await call('viewer', 'get', `/api/captures/${c.id}/analysis?drift=none`);
     expect(none.body.driftModel).toBe('none');
     const last = (b: { stability: { points: { dev: number }[] } }) =>
       b.stability.points[b.stability.points.length - 1].dev;
@@ -184,97 +180,76 @@ describe('drift on the analysis route', () => {
     expect(none.body.uncertainty.components.some((x: { key?: string }) => x.key === 'drift')).toBe(
       false,
     );
-    const quad = await request(t.app)
-      .get(`/api/captures/${c.id}/analysis?drift=quadratic&kind=mdev`)
-      .set(await auth('viewer'));
+    const quad = await call(
+      'viewer',
+      'get',
+      `/api/captures/${c.id}/analysis?drift=quadratic&kind=mdev`,
+    );
     expect(quad.body.driftModel).toBe('quadratic');
     expect(quad.status).toBe(200);
-    const bad = await request(t.app)
-      .get(`/api/captures/${c.id}/analysis?drift=cubic`)
-      .set(await auth('viewer'));
+    const bad = await call('viewer', 'get', `/api/captures/${c.id}/analysis?drift=cubic`);
     expect(bad.status).toBe(400);
   });
 });
 
 describe('DUT limits and the comparison budget', () => {
   it('accepts an asymmetric limit, edits it to one-sided, audits it, and decides each side with the guard band', async () => {
-    const created = await request(t.app)
-      .post(`/api/studies/${ids.studyId}/duts`)
-      .set(await auth('engineer'))
-      .send({
-        label: 'Y9 10 MHz crystal',
-        kind: 'crystal',
-        nominal: 10e6,
-        unit: 'Hz',
-        limitLow: -1,
-        limitHigh: 2,
-        limitUnit: 'ppm',
-      });
+    const created = await call('engineer', 'post', `/api/studies/${demo.ids.studyId}/duts`, {
+      label: 'Y9 10 MHz crystal',
+      kind: 'crystal',
+      nominal: 10e6,
+      unit: 'Hz',
+      limitLow: -1,
+      limitHigh: 2,
+      limitUnit: 'ppm',
+    });
     expect(created.status).toBe(201);
     expect(created.body).toMatchObject({ limit: null, limitLow: -1, limitHigh: 2 });
-    const both = await request(t.app)
-      .post(`/api/studies/${ids.studyId}/duts`)
-      .set(await auth('engineer'))
-      .send({
-        label: 'bad',
-        kind: 'crystal',
-        nominal: 10e6,
-        unit: 'Hz',
-        limit: 1,
-        limitHigh: 2,
-        limitUnit: 'ppm',
-      });
+    const both = await call('engineer', 'post', `/api/studies/${demo.ids.studyId}/duts`, {
+      label: 'bad',
+      kind: 'crystal',
+      nominal: 10e6,
+      unit: 'Hz',
+      limit: 1,
+      limitHigh: 2,
+      limitUnit: 'ppm',
+    });
     expect(both.status).toBe(400);
     const dutId = created.body.id;
     const f0 = 10e6;
     const rnd = seeded(9);
     const base = await capture(
-      { dutId, checkpointId: ids.checkpoints[0], referenceId: 1, ambientC: 23 },
+      { dutId, checkpointId: demo.ids.checkpoints[0], referenceId: 1, ambientC: 23 },
       () => f0 * (1 + 1e-10 * rnd.gauss()),
     );
     const up = await capture(
-      { dutId, checkpointId: ids.checkpoints[1], referenceId: 1, ambientC: 23 },
+      { dutId, checkpointId: demo.ids.checkpoints[1], referenceId: 1, ambientC: 23 },
       () => f0 * (1 + 1.5e-6 + 1e-10 * rnd.gauss()),
     );
-    const r = await request(t.app)
-      .get(`/api/comparisons?before=${base.id}&after=${up.id}`)
-      .set(await auth('viewer'));
+    const r = await call('viewer', 'get', `/api/comparisons?before=${base.id}&after=${up.id}`);
     expect(r.body.deltaPpm).toBeCloseTo(1.5, 3);
     expect(r.body.verdict).toBe('within'); // 1.5 + U ≤ 2 and 1.5 − U ≥ −1 (ILAC-G8 w = U)
     expect(r.body.limitLowInUnit).toBeCloseTo(-10, 9);
     expect(r.body.limitHighInUnit).toBeCloseTo(20, 9);
     // Against a symmetric ±1 ppm the same change exceeds.
-    const sym = await request(t.app)
-      .patch(`/api/duts/${dutId}`)
-      .set(await auth('engineer'))
-      .send({ limit: 1 });
+    const sym = await call('engineer', 'patch', `/api/duts/${dutId}`, { limit: 1 });
     expect(sym.status).toBe(200);
     expect(sym.body.dut).toMatchObject({ limit: 1, limitLow: -1, limitHigh: 1 });
-    const r2 = await request(t.app)
-      .get(`/api/comparisons?before=${base.id}&after=${up.id}`)
-      .set(await auth('viewer'));
+    const r2 = await call('viewer', 'get', `/api/comparisons?before=${base.id}&after=${up.id}`);
     expect(r2.body.verdict).toBe('exceeds');
     // One-sided "≤ 1.2 ppm": only the upper bound binds.
-    const one = await request(t.app)
-      .patch(`/api/duts/${dutId}`)
-      .set(await auth('engineer'))
-      .send({ limit: null, limitHigh: 1.2 });
+    const one = await call('engineer', 'patch', `/api/duts/${dutId}`, {
+      limit: null,
+      limitHigh: 1.2,
+    });
     expect(one.body.dut).toMatchObject({ limit: null, limitLow: null, limitHigh: 1.2 });
-    const r3 = await request(t.app)
-      .get(`/api/comparisons?before=${base.id}&after=${up.id}`)
-      .set(await auth('viewer'));
+    const r3 = await call('viewer', 'get', `/api/comparisons?before=${base.id}&after=${up.id}`);
     expect(r3.body.verdict).toBe('exceeds');
-    const crossed = await request(t.app)
-      .patch(`/api/duts/${dutId}`)
-      .set(await auth('engineer'))
-      .send({ limitLow: 2 });
+    const crossed = await call('engineer', 'patch', `/api/duts/${dutId}`, { limitLow: 2 });
     expect(crossed.status).toBe(400);
-    const viewer = await request(t.app)
-      .patch(`/api/duts/${dutId}`)
-      .set(await auth('viewer'))
-      .send({ limit: 1 });
+    const viewer = await call('viewer', 'patch', `/api/duts/${dutId}`, { limit: 1 });
     expect(viewer.status).toBe(403);
-    const { rows } = await t.db.pool.query(
+    const { rows } = await demo.t.db.pool.query(
       "SELECT count(*)::int AS n FROM audit_events WHERE action = 'dut.update' AND subject_id = $1",
       [dutId],
     );
@@ -282,17 +257,14 @@ describe('DUT limits and the comparison budget', () => {
   });
 
   it('books T0 and B of a tuning fork as shared inputs: 20 → 30 °C is not "within" ±2 ppm any more', async () => {
-    const created = await request(t.app)
-      .post(`/api/studies/${ids.studyId}/duts`)
-      .set(await auth('engineer'))
-      .send({
-        label: 'Y8 tuning fork',
-        kind: 'tuning-fork',
-        nominal: 32768,
-        unit: 'Hz',
-        limit: 2,
-        limitUnit: 'ppm',
-      });
+    const created = await call('engineer', 'post', `/api/studies/${demo.ids.studyId}/duts`, {
+      label: 'Y8 tuning fork',
+      kind: 'tuning-fork',
+      nominal: 32768,
+      unit: 'Hz',
+      limit: 2,
+      limitUnit: 'ppm',
+    });
     expect(created.body.tuningFork).toMatchObject({ T0: 25, B: -0.034, defaults: true });
     const dutId = created.body.id;
     const f0 = 32768;
@@ -300,88 +272,61 @@ describe('DUT limits and the comparison budget', () => {
     const at = (T: number, ppm: number) => () =>
       f0 * (1 + (ppm - 0.034 * (T - 25) ** 2) * 1e-6 + 1e-9 * rnd.gauss());
     const cold = await capture(
-      { dutId, checkpointId: ids.checkpoints[0], referenceId: 1, ambientC: 20 },
+      { dutId, checkpointId: demo.ids.checkpoints[0], referenceId: 1, ambientC: 20 },
       at(20, 0),
     );
     const warm = await capture(
-      { dutId, checkpointId: ids.checkpoints[1], referenceId: 1, ambientC: 30 },
+      { dutId, checkpointId: demo.ids.checkpoints[1], referenceId: 1, ambientC: 30 },
       at(30, 0.1),
     );
-    const r = await request(t.app)
-      .get(`/api/comparisons?before=${cold.id}&after=${warm.id}`)
-      .set(await auth('viewer'));
+    const r = await call('viewer', 'get', `/api/comparisons?before=${cold.id}&after=${warm.id}`);
     expect(r.status).toBe(200);
     expect(r.body.deltaPpm).toBeCloseTo(0.1, 2);
-    const t0 = r.body.budget.components.find(
-      (c: { name: string }) => c.name === 'Turnover temperature T0 (shared)',
-    );
+    const t0 = line(r.body.budget.components, 'Turnover temperature T0 (shared)');
     // 0.68 ppm/°C × 5/√3 °C = 1.963 ppm (issue 8, by hand), × 32 768 Hz × 1e-6
     expect(t0.contribution / f0 / 1e-6).toBeCloseTo(1.963, 2);
     expect(r.body.verdict).toBe('inconclusive');
     expect(r.body.k).toBeGreaterThanOrEqual(2);
     expect(r.body.coverage).toMatch(/^k = \d\.\d\d (from|with) ν_eff (=|>) /);
     // A DUT's own, tighter T0 shrinks the line: u(T0) = 0.5 °C gives 0.34 ppm (by hand).
-    await request(t.app)
-      .patch(`/api/duts/${dutId}`)
-      .set(await auth('engineer'))
-      .send({ turnoverC: 25, turnoverU: 0.5 });
-    const tight = await request(t.app)
-      .get(`/api/comparisons?before=${cold.id}&after=${warm.id}`)
-      .set(await auth('viewer'));
-    const t0b = tight.body.budget.components.find(
-      (c: { name: string }) => c.name === 'Turnover temperature T0 (shared)',
+    await call('engineer', 'patch', `/api/duts/${dutId}`, { turnoverC: 25, turnoverU: 0.5 });
+    const tight = await call(
+      'viewer',
+      'get',
+      `/api/comparisons?before=${cold.id}&after=${warm.id}`,
     );
+    const t0b = line(tight.body.budget.components, 'Turnover temperature T0 (shared)');
     expect(t0b.contribution / f0 / 1e-6).toBeCloseTo(0.34, 2);
   });
 
   it('adds the shared reference ageing between captures to Δ and cancels its offset', async () => {
-    const ref = await request(t.app)
-      .post('/api/references')
-      .set(await auth('lead'))
-      .send({
-        name: 'Counter timebase',
-        kind: 'internal-timebase',
-        nominalHz: 10e6,
-        fractionalOffset: 0,
-        standardUncertainty: 1e-8,
-        verifiedAt: '2026-11-01',
-        ageingPerDay: 1e-9,
-        ageingUPerDay: 0,
-      });
+    const ref = await call('lead', 'post', '/api/references', {
+      name: 'Counter timebase',
+      kind: 'internal-timebase',
+      nominalHz: 10e6,
+      fractionalOffset: 0,
+      standardUncertainty: 1e-8,
+      verifiedAt: '2026-11-01',
+      ageingPerDay: 1e-9,
+      ageingUPerDay: 0,
+    });
     const referenceId = ref.body.reference.id;
-    const f0 = ids.crystal.nominal;
-    const a = await capture(
-      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId, ambientC: 23 },
-      () => f0,
-    );
+    const f0 = demo.ids.crystal.nominal;
+    const a = await crystalAt(0, { referenceId });
     expect(a.referenceAgeingPerDay).toBe(1e-9);
-    const b = await capture(
-      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], referenceId, ambientC: 23 },
-      () => f0,
-    );
+    const b = await crystalAt(1, { referenceId });
     // Move the first capture 10 days back in time: the reference aged 1e-8 in between.
-    await t.db.pool.query(
-      "UPDATE captures SET started_at = started_at - interval '10 days', summary = jsonb_set(summary, '{version}', '1') WHERE id = $1",
-      [a.id],
-    );
-    const r = await request(t.app)
-      .get(`/api/comparisons?before=${a.id}&after=${b.id}`)
-      .set(await auth('viewer'));
+    await backdate(a.id, 10);
+    const r = await call('viewer', 'get', `/api/comparisons?before=${a.id}&after=${b.id}`);
     const names = r.body.budget.components.map((c: { name: string }) => c.name);
     expect(names).toContain('Reference offset (shared, r = 1)');
     expect(names).toContain('Reference ageing between captures');
-    const ageing = r.body.budget.components.find(
-      (c: { name: string }) => c.name === 'Reference ageing between captures',
-    );
+    const ageing = line(r.body.budget.components, 'Reference ageing between captures');
     expect(ageing.contribution).toBeCloseTo(1e-9 * 10 * f0, 4); // 1e-9/day × 10 days × 16 MHz = 0.16 Hz (by hand)
-    const offset = r.body.budget.components.find(
-      (c: { name: string }) => c.name === 'Reference offset (shared, r = 1)',
-    );
+    const offset = line(r.body.budget.components, 'Reference offset (shared, r = 1)');
     expect(offset.contribution).toBeLessThan(1e-12); // 1e-8 × f0 on both sides cancels (eq. 16)
     // Each capture's own budget books the ageing since verification (about a month at 1e-9/day).
-    const own = await request(t.app)
-      .get(`/api/captures/${b.id}/analysis`)
-      .set(await auth('viewer'));
+    const own = await call('viewer', 'get', `/api/captures/${b.id}/analysis`);
     const since = own.body.uncertainty.components.find(
       (c: { key?: string }) => c.key === 'reference-ageing',
     );
@@ -391,36 +336,25 @@ describe('DUT limits and the comparison budget', () => {
 
 describe('review8 findings in the comparison', () => {
   it('F5: a reference re-verified between the captures is not cancelled (r = 0), with a note', async () => {
-    const ref = await request(t.app)
-      .post('/api/references')
-      .set(await auth('lead'))
-      .send({
-        name: 'Re-verified OCXO',
-        kind: 'ocxo',
-        nominalHz: 10e6,
-        fractionalOffset: 0,
-        standardUncertainty: 1e-7,
-        verifiedAt: '2026-11-01',
-        ageingPerDay: 0,
-        ageingUPerDay: 0,
-      });
+    const ref = await call('lead', 'post', '/api/references', {
+      name: 'Re-verified OCXO',
+      kind: 'ocxo',
+      nominalHz: 10e6,
+      fractionalOffset: 0,
+      standardUncertainty: 1e-7,
+      verifiedAt: '2026-11-01',
+      ageingPerDay: 0,
+      ageingUPerDay: 0,
+    });
     const referenceId = ref.body.reference.id;
-    const f0 = ids.crystal.nominal;
-    const a = await capture(
-      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId, ambientC: 23 },
-      () => f0,
-    );
-    await request(t.app)
-      .patch(`/api/references/${referenceId}`)
-      .set(await auth('lead'))
-      .send({ fractionalOffset: 2e-8, verifiedAt: '2026-11-20' });
-    const b = await capture(
-      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], referenceId, ambientC: 23 },
-      () => f0,
-    );
-    const r = await request(t.app)
-      .get(`/api/comparisons?before=${a.id}&after=${b.id}`)
-      .set(await auth('viewer'));
+    const f0 = demo.ids.crystal.nominal;
+    const a = await crystalAt(0, { referenceId });
+    await call('lead', 'patch', `/api/references/${referenceId}`, {
+      fractionalOffset: 2e-8,
+      verifiedAt: '2026-11-20',
+    });
+    const b = await crystalAt(1, { referenceId });
+    const r = await call('viewer', 'get', `/api/comparisons?before=${a.id}&after=${b.id}`);
     expect(r.status).toBe(200);
     const names = r.body.budget.components.map((c: { name: string }) => c.name);
     expect(names).not.toContain('Reference offset (shared, r = 1)');
@@ -431,22 +365,12 @@ describe('review8 findings in the comparison', () => {
   });
 
   it('F4: with no reference, a default ±1 ppm timebase term enters Δ, with a note', async () => {
-    const f0 = ids.crystal.nominal;
-    const a = await capture(
-      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], ambientC: 23 },
-      () => f0,
-    );
-    const b = await capture(
-      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], ambientC: 23 },
-      () => f0,
-    );
-    const r = await request(t.app)
-      .get(`/api/comparisons?before=${a.id}&after=${b.id}`)
-      .set(await auth('viewer'));
+    const f0 = demo.ids.crystal.nominal;
+    const a = await crystalAt(0);
+    const b = await crystalAt(1);
+    const r = await call('viewer', 'get', `/api/comparisons?before=${a.id}&after=${b.id}`);
     expect(r.status).toBe(200);
-    const tb = r.body.budget.components.find(
-      (c: { name: string }) => c.name === 'Counter timebase between captures (no reference)',
-    );
+    const tb = line(r.body.budget.components, 'Counter timebase between captures (no reference)');
     expect(tb).toBeDefined();
     // ±1 ppm rectangular: 1e-6/√3 × f0 (common practice, no source; JCGM 100 §4.3.7 a/√3)
     expect(tb.contribution).toBeCloseTo((1e-6 / Math.sqrt(3)) * f0, 6);
@@ -454,62 +378,49 @@ describe('review8 findings in the comparison', () => {
   });
 
   it("F4: a shared reference without an ageing rate gets its kind's default rate between captures", async () => {
-    const ref = await request(t.app)
-      .post('/api/references')
-      .set(await auth('lead'))
-      .send({
-        name: 'OCXO without a rate',
-        kind: 'ocxo',
-        nominalHz: 10e6,
-        fractionalOffset: 0,
-        standardUncertainty: 1e-10,
-        verifiedAt: '2026-11-01',
-      });
+    const ref = await call('lead', 'post', '/api/references', {
+      name: 'OCXO without a rate',
+      kind: 'ocxo',
+      nominalHz: 10e6,
+      fractionalOffset: 0,
+      standardUncertainty: 1e-10,
+      verifiedAt: '2026-11-01',
+    });
     const referenceId = ref.body.reference.id;
-    const f0 = ids.crystal.nominal;
-    const a = await capture(
-      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[0], referenceId, ambientC: 23 },
-      () => f0,
-    );
-    const b = await capture(
-      { dutId: ids.crystal.id, checkpointId: ids.checkpoints[1], referenceId, ambientC: 23 },
-      () => f0,
-    );
-    await t.db.pool.query(
-      "UPDATE captures SET started_at = started_at - interval '10 days', summary = jsonb_set(summary, '{version}', '1') WHERE id = $1",
-      [a.id],
-    );
-    const r = await request(t.app)
-      .get(`/api/comparisons?before=${a.id}&after=${b.id}`)
-      .set(await auth('viewer'));
-    const ageing = r.body.budget.components.find(
-      (c: { name: string }) => c.name === 'Reference ageing between captures',
-    );
+    const f0 = demo.ids.crystal.nominal;
+    const a = await crystalAt(0, { referenceId });
+    const b = await crystalAt(1, { referenceId });
+    await backdate(a.id, 10);
+    const r = await call('viewer', 'get', `/api/comparisons?before=${a.id}&after=${b.id}`);
+    const ageing = line(r.body.budget.components, 'Reference ageing between captures');
     // OCXO default 1e-9/day (common practice, no source) × 10 days × f0 (by hand)
     expect(ageing.contribution).toBeCloseTo(1e-9 * 10 * f0, 3);
     expect(r.body.notes.join(' ')).toMatch(/no ageing rate recorded/);
   });
 
   it('F7: a capture in mg gets k = t(ν) with ν = n − 1 and a resolution line, so identical readings do not give U = 0', async () => {
-    const created = await request(t.app)
-      .post(`/api/studies/${ids.studyId}/duts`)
-      .set(await auth('engineer'))
-      .send({
-        label: 'A7 accelerometer',
-        kind: 'accelerometer',
-        nominal: 1000,
-        unit: 'mg',
-        limit: 5,
-        limitUnit: 'mg',
-      });
+    const created = await call('engineer', 'post', `/api/studies/${demo.ids.studyId}/duts`, {
+      label: 'A7 accelerometer',
+      kind: 'accelerometer',
+      nominal: 1000,
+      unit: 'mg',
+      limit: 5,
+      limitUnit: 'mg',
+    });
     expect(created.status).toBe(201);
     const dutId = created.body.id;
     const base = { quantity: 'acceleration', unit: 'mg', gateTime: 1 };
-    const flat = await capture({ ...base, dutId, checkpointId: ids.checkpoints[0] }, () => 1.0, 5);
-    const same = await capture({ ...base, dutId, checkpointId: ids.checkpoints[1] }, () => 1.0, 5);
-    const r = await request(t.app)
-      .get(`/api/comparisons?before=${flat.id}&after=${same.id}`)
-      .set(await auth('viewer'));
+    const flat = await capture(
+      { ...base, dutId, checkpointId: demo.ids.checkpoints[0] },
+      () => 1.0,
+      5,
+    );
+    const same = await capture(
+      { ...base, dutId, checkpointId: demo.ids.checkpoints[1] },
+      () => 1.0,
+      5,
+    );
+    const r = await call('viewer', 'get', `/api/comparisons?before=${flat.id}&after=${same.id}`);
     expect(r.status).toBe(200);
     // Resolution only: a = 0.0625/2 mg per side, u = a/√3 = 0.018042 mg; u(Δ) = √2 × that = 0.025516 mg
     // (JCGM 100 §4.3.7, by hand; LSB 0.0625 mg common practice, no source)
@@ -517,18 +428,16 @@ describe('review8 findings in the comparison', () => {
     expect(r.body.expandedUncertainty).toBeGreaterThan(0);
     const g = seeded(77);
     const b2 = await capture(
-      { ...base, dutId, checkpointId: ids.checkpoints[0] },
+      { ...base, dutId, checkpointId: demo.ids.checkpoints[0] },
       () => 1 + 0.5 * g.gauss(),
       5,
     );
     const a2 = await capture(
-      { ...base, dutId, checkpointId: ids.checkpoints[1] },
+      { ...base, dutId, checkpointId: demo.ids.checkpoints[1] },
       () => 1 + 0.5 * g.gauss(),
       5,
     );
-    const r2 = await request(t.app)
-      .get(`/api/comparisons?before=${b2.id}&after=${a2.id}`)
-      .set(await auth('viewer'));
+    const r2 = await call('viewer', 'get', `/api/comparisons?before=${b2.id}&after=${a2.id}`);
     // Type A lines dominate: ν_eff near 8 (n = 5 per side) gives k ≈ t_0.975(ν_eff) > 2.3 — t_0.975(8) = 2.306, Student t table (from memory)
     expect(r2.body.effectiveDof).toBeLessThan(9);
     expect(r2.body.k).toBeGreaterThan(2.3);

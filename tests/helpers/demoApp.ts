@@ -5,6 +5,8 @@ import { demoIds } from './demo.js';
 
 export type DemoIds = Awaited<ReturnType<typeof demoIds>>;
 
+export type Method = 'get' | 'post' | 'patch' | 'put' | 'delete';
+
 /** The test app of one test file, the demo study's ids, and the requests capture tests repeat. */
 export interface DemoApp {
   /** The app (set in beforeAll). */
@@ -13,6 +15,8 @@ export interface DemoApp {
   ids: DemoIds;
   /** The bearer header of the demo user of `role`. */
   auth(role: string): Promise<{ authorization: string }>;
+  /** One request as `role` (`call('viewer', 'get', '/api/…')`), with `body` as JSON when given. */
+  call(role: string, method: Method, path: string, body?: object): Promise<request.Response>;
   /** The body `newCapture` sends, with `extra` joined. */
   captureBody(extra?: Record<string, unknown>): Record<string, unknown>;
   /** Opens a 1 s-gate frequency capture of the demo crystal at the first checkpoint; its id. */
@@ -36,6 +40,12 @@ export function useDemoApp(captureDefaults: Record<string, unknown> = {}): DemoA
     await demo.t.close();
   });
   demo.auth = async (role) => ({ authorization: `Bearer ${await demo.t.tokenFor(role)}` });
+  demo.call = async (role, method, path, body) => {
+    const req = request(demo.t.app)
+      [method](path)
+      .set(await demo.auth(role));
+    return body === undefined ? req : req.send(body);
+  };
   demo.captureBody = (extra = {}) => ({
     dutId: demo.ids.crystal.id,
     checkpointId: demo.ids.checkpoints[0],
