@@ -1,10 +1,13 @@
 import os from 'node:os';
 import { benchAnalysis } from './analysis.js';
 import { benchIngest } from './ingest.js';
+import { benchIngestProfile } from './ingestProfile.js';
+import { benchLive } from './live.js';
 import { benchImport } from './import.js';
 import { benchAnalysisLoad } from './analysisLoad.js';
 import { benchRecord } from './record.js';
 import { benchScale } from './scale.js';
+import { benchChart } from './chart.js';
 
 // `npm run bench`: every performance figure of the performance targets in README and DEVELOPERS.md, printed, never asserted.
 // Run on an otherwise idle machine: the figures are wall-clock times.
@@ -19,6 +22,10 @@ const BENCHES: Record<string, () => Promise<unknown>> = {
   analysisLoad: benchAnalysisLoad,
   record: benchRecord,
   scale: benchScale,
+  chart: benchChart,
+  // Run only when named: the live path alone, and where one stream's ingest time goes.
+  live: benchLive,
+  ingestProfile: benchIngestProfile,
 };
 const chosen = process.argv.slice(2);
 const unknown = chosen.filter((name) => !(name in BENCHES));
@@ -29,5 +36,6 @@ if (unknown.length) {
   process.exit(2);
 }
 for (const [name, run] of Object.entries(BENCHES)) {
-  if (chosen.length === 0 || chosen.includes(name)) await run();
+  const byName = name === 'live' || name === 'ingestProfile';
+  if ((chosen.length === 0 && !byName) || chosen.includes(name)) await run();
 }
