@@ -137,12 +137,13 @@ const MERGE_TILES_AND_COUNT = `WITH tiles AS (
  * Locks the capture row and says whether a COPY may go ahead: the study, the state, who may write,
  * and whether every seq of the batch lies above the highest stored one. It also names the table
  * that holds the capture's readings (its partition, once readings are partitioned and the capture
- * has rows: a COPY into the partition skips the parent's tile trigger and inserts in bulk) and
+ * has rows: a COPY into the partition skips the parent's tile trigger and inserts in bulk; found
+ * by a primary-key look-up of the highest stored reading, never a scan) and
  * sets `driftbench.tiles` so the trigger steps aside for this transaction (migration 0230).
  */
 const LOCK_FOR_COPY = `SELECT c.state, ($2::boolean OR c.operator_id = $3) AS may_write, c.highest_seq < $4 AS fits,
      s.id AS study_id, s.title, s.status, s.revision,
-     (SELECT r.tableoid::regclass::text FROM readings r WHERE r.capture_id = c.id LIMIT 1) AS rel,
+     (SELECT r.tableoid::regclass::text FROM readings r WHERE r.capture_id = c.id AND r.seq = c.highest_seq) AS rel,
      set_config('driftbench.tiles', 'caller', true) AS tiles
    FROM captures c JOIN duts d ON d.id = c.dut_id JOIN studies s ON s.id = d.study_id
    WHERE c.id = $1 FOR NO KEY UPDATE OF c`;
