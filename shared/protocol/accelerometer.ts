@@ -1,4 +1,5 @@
 import { z } from 'zod';
+import { BudgetLine, BudgetWire } from './budget.js';
 
 export const AXES = ['x', 'y', 'z'] as const;
 export type Axis = (typeof AXES)[number];
@@ -31,32 +32,15 @@ export type TiltCheckCreate = z.infer<typeof TiltCheckCreate>;
 /** The body as a client sends it (axis may be left to its default). */
 export type TiltCheckBody = z.input<typeof TiltCheckCreate>;
 
-/** One budget line as stored with a tilt check (the BudgetTable shape; ν = ∞ travels as null). */
-export const TiltBudgetLine = z.object({
-  name: z.string(),
-  value: z.number(),
-  unit: z.string(),
-  distribution: z.string(),
-  sensitivity: z.number(),
-  contribution: z.number(),
-  dof: z.number().nullable(),
-  type: z.enum(['A', 'B']),
-  note: z.string(),
-  source: z.string().optional(),
-  key: z.string().optional(),
-});
+/** One budget line as stored with a tilt check (a budget line that always carries its note). */
+export const TiltBudgetLine = BudgetLine.omit({ symbol: true }).extend({ note: z.string() });
 export type TiltBudgetLine = z.infer<typeof TiltBudgetLine>;
 
-export const TiltBudget = z.object({
-  mean: z.number(),
+/** A tilt check's budget: always worded with its coverage, never relative. */
+export const TiltBudget = BudgetWire.extend({
   components: z.array(TiltBudgetLine),
-  combined: z.number(),
-  effectiveDof: z.number().nullable(),
-  k: z.number(),
   coverage: z.string(),
-  expanded: z.number(),
   relativeExpanded: z.null(),
-  notes: z.array(z.string()),
 });
 export type TiltBudget = z.infer<typeof TiltBudget>;
 

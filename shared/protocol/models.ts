@@ -17,6 +17,7 @@ import { COUNTER_TYPES, REFERENCE_KINDS, DRIFT_CHOICES } from './uncertainty.js'
 import { StudyStatus } from './api.js';
 import { Exposure } from './process.js';
 import { LinkProfile } from './linkProfile.js';
+import { BudgetLine, BudgetWire } from './budget.js';
 import { Quantity, STABILITY_KINDS } from './captures.js';
 import { CaptureState } from './captureLifecycle.js';
 import { CALIBRATION_STATES, CalibrationState, InstrumentOut, ReferenceOut } from './equipment.js';
@@ -200,36 +201,7 @@ export const StabilityWire = z.object({
 });
 export type StabilityWire = z.infer<typeof StabilityWire>;
 
-export const BudgetLine = z.object({
-  name: z.string(),
-  symbol: z.string().optional(),
-  value: z.number(),
-  unit: z.string(),
-  distribution: z.string(),
-  sensitivity: z.number(),
-  contribution: z.number(),
-  /** Infinity (type B without a stated ν) serialises as null. */
-  dof: z.number().nullable(),
-  type: z.enum(['A', 'B']),
-  note: z.string().optional(),
-  source: z.string().optional(),
-  key: z.string().optional(),
-});
-export type BudgetLine = z.infer<typeof BudgetLine>;
-
-export const BudgetWire = z.object({
-  mean: z.number(),
-  components: z.array(BudgetLine),
-  combined: z.number(),
-  effectiveDof: z.number().nullable(),
-  k: z.number(),
-  /** "k = 2.31 from ν_eff = 8, about 95 % coverage" (absent in summaries stored before issue 8). */
-  coverage: z.string().optional(),
-  expanded: z.number(),
-  relativeExpanded: z.number().nullable(),
-  notes: z.array(z.string()),
-});
-export type BudgetWire = z.infer<typeof BudgetWire>;
+export { BudgetLine, BudgetWire };
 
 export const CaptureCounts = z.object({
   total: z.number(),
