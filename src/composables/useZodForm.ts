@@ -25,6 +25,7 @@ export function useZodForm<T>(options: {
 }): {
   formRef: Ref<FormInstance | undefined>;
   rules: ComputedRef<FormRules>;
+  errorOf: (prop: string) => string;
   check: () => { data: T | null; errors: Record<string, string> };
   validate: () => Promise<boolean>;
   clear: () => void;
@@ -71,17 +72,29 @@ export function useZodForm<T>(options: {
     return out;
   });
 
+  // A form may instead show each field's message through `:error="errorOf(prop)"`: nothing until
+  // the first submit, then kept up to date as the fields change (no asynchronous validation).
+  const tried = ref(false);
+  function errorOf(prop: string): string {
+    if (!tried.value) return '';
+    const { errors } = check();
+    const list = paths.value[prop] ?? [prop];
+    return list.map((path) => errors[path]).find(Boolean) ?? '';
+  }
+
   async function validate(): Promise<boolean> {
+    tried.value = true;
     if (!formRef.value) return check().data !== null;
     const ok = await formRef.value.validate().catch(() => false);
     return ok !== false && check().data !== null;
   }
 
   function clear(): void {
+    tried.value = false;
     formRef.value?.clearValidate();
   }
 
-  return { formRef, rules, check, validate, clear };
+  return { formRef, rules, errorOf, check, validate, clear };
 }
 
 type Walkable = z.ZodType & {

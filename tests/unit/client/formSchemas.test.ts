@@ -208,6 +208,26 @@ describe('forms check what the API checks (useZodForm over the shared request sc
     expect(message).toBe('Give the limit (or a lower and/or upper bound)');
   });
 
+  it('shows a field’s message only after the first submit, and follows the fields from then on', async () => {
+    const body = { name: '', kind: 'counter' };
+    const form = useZodForm({
+      schema: InstrumentCreate,
+      body: () => body,
+      fields: ['name', 'kind'],
+      wording: { name: 'Name the instrument' },
+    });
+    expect(form.errorOf('name')).toBe('');
+    expect(await form.validate()).toBe(false);
+    expect(form.errorOf('name')).toBe('Name the instrument');
+    expect(form.errorOf('kind')).toBe('');
+    body.name = 'Counter C-2';
+    expect(form.errorOf('name')).toBe('');
+    expect(await form.validate()).toBe(true);
+    body.name = '';
+    form.clear();
+    expect(form.errorOf('name')).toBe('');
+  });
+
   it('gives numeric inputs the schema’s limits, through coercion, defaults and optional', () => {
     // CaptureImportFields (shared/protocol/importCsv.ts): gate 0.001–1000 s, skip 0–10,000 lines.
     expect(inputBounds(CaptureImportFields, ['gateTime'])).toEqual({ min: 0.001, max: 1000 });
