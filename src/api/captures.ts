@@ -3,7 +3,7 @@
  * readings in and out, finish, analysis, comparison and the CSV export.
  */
 import type { z } from 'zod';
-import { callRoute, queryString, toApiError, type RequestOptions } from './http';
+import { callRoute, fetchBlob, queryString, type RequestOptions } from './http';
 import { allPages } from './paging';
 import type {
   AnalysisQuery as AnalysisQuerySchema,
@@ -132,7 +132,7 @@ export function getComparison(
 }
 
 /**
- * The capture's own CSV (needs the Bearer token: use {@link downloadReadingsCsv} from a page): its
+ * The capture's own CSV (needs the Bearer token: `downloadReadingsCsv` in ./workbench saves it): its
  * metadata as `# key: value` lines, then raw and reference-corrected readings (issue 12).
  * `/api/captures/:id/readings.csv` stays as the bare machine-readable table.
  */
@@ -146,31 +146,5 @@ export async function fetchReadingsCsv(
   token: string | null,
   signal?: AbortSignal,
 ): Promise<Blob> {
-  const response = await fetch(readingsCsvPath(id), {
-    headers: token ? { Authorization: `Bearer ${token}` } : {},
-    signal,
-  });
-  if (!response.ok) {
-    let body: unknown;
-    try {
-      body = await response.json();
-    } catch {
-      body = undefined;
-    }
-    throw toApiError(response.status, body);
-  }
-  return response.blob();
-}
-
-/** Downloads the CSV export as `driftbench-capture-<id>.csv` (browser only). */
-export async function downloadReadingsCsv(id: number, token: string | null): Promise<void> {
-  const blob = await fetchReadingsCsv(id, token);
-  const url = URL.createObjectURL(blob);
-  const a = document.createElement('a');
-  a.href = url;
-  a.download = `driftbench-capture-${id}.csv`;
-  document.body.appendChild(a);
-  a.click();
-  a.remove();
-  setTimeout(() => URL.revokeObjectURL(url), 1000);
+  return fetchBlob(readingsCsvPath(id), token, signal);
 }

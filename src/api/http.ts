@@ -252,6 +252,31 @@ export function callRoute<K extends CallableRoute>(
   return request<RouteAnswer<K>>(method, routePath(key, params, query), sent, options);
 }
 
+/**
+ * Fetches a file the API serves (a CSV, an attachment's bytes) with `token`; a refusal becomes
+ * the same ApiError as any other call's.
+ */
+export async function fetchBlob(
+  path: string,
+  token: string | null,
+  signal?: AbortSignal,
+): Promise<Blob> {
+  const response = await fetch(path, {
+    headers: token ? { Authorization: `Bearer ${token}` } : {},
+    signal,
+  });
+  if (!response.ok) {
+    let body: unknown;
+    try {
+      body = await response.json();
+    } catch {
+      body = undefined;
+    }
+    throw toApiError(response.status, body);
+  }
+  return response.blob();
+}
+
 export const http = {
   get: <T>(path: string, options?: RequestOptions) => request<T>('GET', path, undefined, options),
   post: <T>(path: string, body?: unknown, options?: RequestOptions) =>

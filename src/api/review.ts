@@ -2,7 +2,7 @@
  * Review, sign-off and the record: the workflow calls, the review history, audit trails, seals,
  * attachments (with upload progress), the outbox and the report.
  */
-import { ApiError, callRoute, toApiError } from './http';
+import { ApiError, callRoute, fetchBlob, toApiError } from './http';
 import type { StudyDetail } from '../../shared/protocol/models';
 import type {
   AuditPage,
@@ -137,19 +137,7 @@ export async function fetchAttachment(
   token: string | null,
   inline = false,
 ): Promise<Blob> {
-  const res = await fetch(`/api/attachments/${id}${inline ? '?inline=1' : ''}`, {
-    headers: token ? { Authorization: `Bearer ${token}` } : {},
-  });
-  if (!res.ok) {
-    let body: unknown;
-    try {
-      body = await res.json();
-    } catch {
-      body = undefined;
-    }
-    throw toApiError(res.status, body);
-  }
-  return res.blob();
+  return fetchBlob(`/api/attachments/${id}${inline ? '?inline=1' : ''}`, token);
 }
 
 // ---- outbox and the lab-wide audit -----------------------------------------------------------

@@ -2,8 +2,8 @@
  * Typed calls for the comparison workbench and the CSV import (issue 12): several captures'
  * stability curves in one request, the exports, and the import with upload and server progress.
  */
-import { ApiError, callRoute, toApiError, type RequestOptions } from './http';
-import type { StabilityKind } from './captures';
+import { ApiError, callRoute, fetchBlob, toApiError, type RequestOptions } from './http';
+import { fetchReadingsCsv, type StabilityKind } from './captures';
 import type { OverlayResponse } from '../../shared/protocol/responses';
 import type { CaptureImportResult, ImportProgress } from '../../shared/protocol/importCsv';
 
@@ -37,25 +37,18 @@ export function saveBlob(blob: Blob, filename: string): void {
   setTimeout(() => URL.revokeObjectURL(url), 1000);
 }
 
+/** Downloads a capture's CSV export as `driftbench-capture-<id>.csv` (browser only). */
+export async function downloadReadingsCsv(id: number, token: string | null): Promise<void> {
+  saveBlob(await fetchReadingsCsv(id, token), `driftbench-capture-${id}.csv`);
+}
+
 /** Fetches a file the API serves (with the session token) and saves it. */
 export async function downloadFile(
   path: string,
   filename: string,
   token: string | null,
 ): Promise<void> {
-  const response = await fetch(path, {
-    headers: token ? { Authorization: `Bearer ${token}` } : {},
-  });
-  if (!response.ok) {
-    let body: unknown;
-    try {
-      body = await response.json();
-    } catch {
-      body = undefined;
-    }
-    throw toApiError(response.status, body);
-  }
-  saveBlob(await response.blob(), filename);
+  saveBlob(await fetchBlob(path, token), filename);
 }
 
 export function getImportProgress(key: string): Promise<ImportProgress> {
