@@ -171,6 +171,8 @@ export class ReadingUploader {
   private readonly held = new Map<number, ReadingIn>();
   /** The store's pending count at its last successful count (or write). */
   private stored = 0;
+  /** Readings handed to `add` whose store write has not finished (counted as pending). */
+  private incoming = 0;
   /** Set when `add` kept readings since the last batch was taken (the dispatcher looks again). */
   private added = false;
   /** Batches awaiting an answer. */
@@ -207,6 +209,10 @@ export class ReadingUploader {
    */
   async add(readings: ReadingIn[]): Promise<void> {
     if (readings.length === 0) return;
+    // Pending from the moment they are handed over, not only once the store has them.
+    this.incoming += readings.length;
+    this.updatePending();
+    this.emit();
     const kept = this.keep(readings);
     this.storing.add(kept);
     try {
@@ -235,6 +241,7 @@ export class ReadingUploader {
     }
     // Kept below a batch already taken (stores finishing out of order): the dispatcher would
     // only look above it, so it must start again from the lowest pending reading.
+    this.incoming -= readings.length;
     let low = Infinity;
     for (const r of readings) if (r.seq < low) low = r.seq;
     if (low <= this.cursor) this.rewind = true;
@@ -296,7 +303,7 @@ export class ReadingUploader {
 
   private updatePending() {
     this.state.held = this.held.size;
-    this.state.pending = this.stored + this.held.size;
+    this.state.pending = this.stored + this.held.size + this.incoming;
   }
 
   /** Asks the store how many readings it holds; keeps the last estimate if it cannot say. */

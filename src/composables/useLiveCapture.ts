@@ -17,6 +17,7 @@ import {
   type Capture,
 } from '../api/captures';
 import { ReadingUploader, type PendingStore, type UploaderState } from '../api/uploader';
+import { LIVE_HANDOVER_MS } from '../api/liveTiming';
 import {
   defaultPendingStore,
   isPermanentRefusal,
@@ -141,37 +142,69 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
   let unkept = 0;
   let unkeptReason = '';
 
+  /** Readings flushed to the uploader's chain but not yet handed to it. */
+  let queued = 0;
+  function showUpload(s: UploaderState) {
+    state.upload = queued ? { ...s, pending: s.pending + queued } : s;
+  }
+
   function flush() {
     if (!uploader || buffer.length === 0) return;
     const batch = buffer;
     const u = uploader;
     buffer = [];
+    // Readings waiting in this chain count as waiting in the footer too (the store may lag at
+    // 1,000 readings/s): `queued` until handed to the uploader, its own `pending` after.
+    queued += batch.length;
+    showUpload(u.snapshot());
     // Chained, so stop() can wait until every batch is in the store before waiting for the drain.
     adding = adding
-      .then(() => u.add(batch))
+      .then(() => {
+        queued -= batch.length;
+        return u.add(batch);
+      })
       .catch((err) => {
         unkept += batch.length;
         unkeptReason = errorText(err);
         state.error = `Readings could not be kept for sending: ${unkeptReason}`;
       });
     const now = performance.now();
+    publishNow();
     rateMarks.push([now, state.taken]);
     while (rateMarks.length > 2 && now - rateMarks[0][0] > 3000) rateMarks.shift();
     const [t0, n0] = rateMarks[0];
     state.rate = now > t0 ? ((state.taken - n0) * 1000) / (now - t0) : 0;
   }
 
-  function reached(plan: CapturePlan): boolean {
+  function reached(plan: CapturePlan, at: { taken: number; elapsed: number } = state): boolean {
     const t = plan.target;
-    if (t.kind === 'duration') return state.elapsed >= t.seconds;
-    if (t.kind === 'count') return state.taken >= t.n;
+    if (t.kind === 'duration') return at.elapsed >= t.seconds;
+    if (t.kind === 'count') return at.taken >= t.n;
     return false;
+  }
+
+  /** The newest reading's counts, ahead of `state` by at most one animation frame. */
+  const live = { taken: 0, elapsed: 0 };
+  let publishing: number | null = null;
+  const nextFrame =
+    typeof requestAnimationFrame === 'function'
+      ? (cb: () => void) => requestAnimationFrame(cb)
+      : (cb: () => void) => setTimeout(cb, 16) as unknown as number;
+  function publishNow() {
+    publishing = null;
+    if (state.taken !== live.taken) state.taken = live.taken;
+    if (state.elapsed !== live.elapsed) state.elapsed = live.elapsed;
+  }
+  function publishSoon() {
+    if (publishing === null) publishing = nextFrame(publishNow);
   }
 
   async function readLoop(plan: CapturePlan, l: SerialLink, signal: AbortSignal) {
     const factor = plan.timeFactor > 0 ? plan.timeFactor : 1;
     const seqBase = plan.resume?.seqBase ?? 0;
     const tBase = plan.resume?.tBase ?? 0;
+    live.taken = state.taken;
+    live.elapsed = state.elapsed;
     try {
       for await (const r of readLink(l, {
         profile: plan.profile,
@@ -192,15 +225,21 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
         buffer.push(
           r.flags ? { seq, t, value: r.value, flags: r.flags } : { seq, t, value: r.value },
         );
-        state.taken = seq + 1;
-        state.elapsed = t;
-        if (reached(plan)) {
+        // The counts go to the reactive state once per animation frame, not per reading: at
+        // 1,000 readings/s a write per reading re-rendered the bench's footer a thousand times
+        // a second (issue 15, the chart's frame times).
+        live.taken = seq + 1;
+        live.elapsed = t;
+        publishSoon();
+        if (reached(plan, live)) {
           void stop();
           break;
         }
       }
     } catch (err) {
       if (!signal.aborted) state.linkLost = errorText(err);
+    } finally {
+      publishNow();
     }
   }
 
@@ -238,16 +277,14 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
     };
     uploader = new ReadingUploader(capture.id, {
       store,
-      send: (id, readings, signal) => postReadings(id, readings, { signal }),
+      send: (id, readings, signal, encoding) => postReadings(id, readings, { signal, encoding }),
       isPermanent: isPermanentRefusal,
       refusedReading: refusedReadingIndex,
-      onState: (s) => {
-        state.upload = s;
-      },
+      onState: showUpload,
     });
     abort = new AbortController();
     state.phase = 'capturing';
-    flushTimer = setInterval(flush, opts.flushMs ?? 200);
+    flushTimer = setInterval(flush, opts.flushMs ?? LIVE_HANDOVER_MS);
     reading = readLoop(plan, link, abort.signal);
   }
 

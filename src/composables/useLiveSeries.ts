@@ -6,7 +6,9 @@
 import { onBeforeUnmount, shallowRef, type ShallowRef } from 'vue';
 import { decimateMinMax } from '../../shared/analysis/decimate';
 import { summarize } from '../../shared/analysis/summarize';
-import { stability } from '../../shared/analysis/stability';
+import { normalizedPhase } from '../../shared/analysis/phase';
+import { secondDifferenceSum } from '../../shared/analysis/estimators';
+import { maxM } from '../../shared/analysis/taus';
 
 /** A fixed-capacity ring of (t, value) pairs; the oldest pair is dropped when full. */
 export class RingSeries {
@@ -189,11 +191,16 @@ export function computeLiveStats(
     if (v.length >= 3 && opts.tau0 > 0) {
       const y = new Float64Array(v.length);
       for (let i = 0; i < v.length; i++) y[i] = (v[i] - nominal) / nominal;
-      const r = stability('oadev', y, opts.tau0, [1, 10, 100]);
-      for (const p of r.points) {
-        const slot = taus.find((x) => Math.abs(x.tau - p.tau) < 1e-9 * Math.max(1, p.tau));
-        if (slot) slot.dev = p.dev;
-      }
+      // The bare estimator (NIST SP 1065 eq 11, the sum `stability` uses): the live panel
+      // shows the deviations only, and the full analysis (noise identification, EDF and
+      // intervals) cost a long task every second at 1,000 readings/s (issue 15).
+      const u = normalizedPhase(y, opts.tau0, 'frequency');
+      const top = maxM('oadev', u.length);
+      [1, 10, 100].forEach((m, k) => {
+        if (m > top) return;
+        const terms = u.length - 2 * m;
+        taus[k].dev = Math.sqrt(secondDifferenceSum(u, m, 1) / (2 * terms * m * m));
+      });
     }
   }
   return base;

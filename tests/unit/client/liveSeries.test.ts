@@ -59,6 +59,18 @@ describe('the chart window', () => {
 });
 
 describe('live statistics', () => {
+  it('gives the overlapping Allan deviation of an alternating frequency', () => {
+    const nominal = 16e6;
+    // y alternates 3.2e-6 ± 1e-9. By NIST SP 1065 eq 11, at m = 1 every first difference of y is
+    // ±2e-9, so σ² = ½·(2e-9)² and σ = √2·1e-9; at even m each m-average is 3.2e-6 exactly
+    // and σ = 0 (worked by hand from the definition).
+    const r = filled(1024, 1000, 1, (i) => nominal * (1 + 3.2e-6 + (i % 2 ? 1e-9 : -1e-9)));
+    const s = computeLiveStats(r, { nominal, tau0: 1, frequency: true });
+    expect(s.oadev[0].dev! / 1e-9).toBeCloseTo(Math.SQRT2, 4);
+    expect(s.oadev[1].dev!).toBeLessThan(1e-14);
+    expect(s.oadev[2].dev!).toBeLessThan(1e-14);
+  });
+
   it('gives n, mean, sd and the offset in ppm against the nominal', () => {
     const nominal = 16e6;
     // alternating ±0.016 Hz around 16 MHz + 51.2 Hz (+3.2 ppm)
