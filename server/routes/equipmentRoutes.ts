@@ -14,7 +14,7 @@ import { IdParam } from '../../shared/protocol/api.js';
 import type { Permission } from '../../shared/protocol/roles.js';
 import type { JsonRouteKey } from '../../shared/protocol/responses.js';
 import {
-  CalibrationRecordCreate,
+  calibrationRecordSchema,
   EquipmentAway,
   EquipmentRetire,
 } from '../../shared/protocol/equipment.js';
@@ -51,7 +51,7 @@ export function calibrationRoutes(r: Router, subject: Subject, permission: Permi
   });
   r.post('/:id/calibrations', authorize(permission), async (req, res) => {
     const { id } = parse(IdParam, req.params, 'id');
-    const input = parse(CalibrationRecordCreate, req.body);
+    const input = parse(calibrationRecordSchema(subject), req.body);
     reply(res, keys.record, await recordCalibration(subject, id, input, currentUser(req).id), 201);
   });
   r.post('/:id/away', authorize(permission), async (req, res) => {
