@@ -128,7 +128,8 @@ interface InFlight {
  * ingest is idempotent by (capture, seq), so resending is always safe. When the store cannot
  * take a write (a quota error, say), the readings are held in memory and sent the same way.
  *
- * Up to `maxInFlight` batches travel at once (pipelining): each new batch takes the pending
+ * Up to `maxInFlight` full batches travel at once (pipelining; a part batch waits for the one in
+ * flight, so live readings gather instead of multiplying requests): each new batch takes the pending
  * readings above the highest seq already in flight, so batches are contiguous, ascending and
  * disjoint. A batch's answer acknowledges that batch's readings only — a later batch's success
  * never clears an earlier one that failed. After a failure (or a refusal that drops one reading,
@@ -421,6 +422,10 @@ export class ReadingUploader {
           tookNothing = true;
           break;
         }
+        // A part batch waits for the batch in flight: while live, readings gather into the next
+        // batch instead of requests multiplying, so under load batches grow and each bench keeps
+        // one request in the server's queue. Only full batches (a backlog) travel side by side.
+        if (this.inflight.size > 0 && batch.length < this.opts.batchSize) break;
         this.cursor = Math.max(this.cursor, batch[batch.length - 1].seq);
         // Readings kept while the store was read may lie below the batch without being in it.
         if (this.lowKept <= this.cursor) this.rewind = true;
