@@ -19,7 +19,7 @@ import {
   SUMMARY_VERSION,
   type CaptureSummary,
 } from '../services/captureAnalysis.js';
-import type { Series } from '../services/readings.js';
+import { loadSeries, type Series } from '../services/readings.js';
 import { implausibleNote } from '../../shared/protocol/plausibility.js';
 import type { AnalysisJob, JobError, WorkerReply, WorkerRequest } from './protocol.js';
 
@@ -51,24 +51,6 @@ function concat<T extends Int32Array | Float64Array | Int16Array>(a: T, b: T): T
   return out;
 }
 
-function toSeries(rows: Array<[number, number, number, number]>): Series {
-  const n = rows.length;
-  const s: Series = {
-    seq: new Int32Array(n),
-    t: new Float64Array(n),
-    value: new Float64Array(n),
-    flags: new Int16Array(n),
-  };
-  for (let i = 0; i < n; i++) {
-    const r = rows[i];
-    s.seq[i] = r[0];
-    s.t[i] = r[1];
-    s.value[i] = r[2];
-    s.flags[i] = r[3];
-  }
-  return s;
-}
-
 /**
  * The capture's readings in seq order. In one snapshot, reads the capture's count and the readings
  * above the highest one held; when the two do not add up (a resend filled an earlier gap), reloads
@@ -84,16 +66,9 @@ async function seriesOf(captureId: number): Promise<Held> {
     );
     const count = countRes.rows[0]?.reading_count ?? 0;
     const prev = held.get(captureId);
-    const read = async (after: number) =>
-      toSeries(
-        (
-          await client.query<[number, number, number, number]>({
-            text: 'SELECT seq, t, value, flags FROM readings WHERE capture_id = $1 AND seq > $2 ORDER BY seq',
-            values: [captureId, after],
-            rowMode: 'array',
-          })
-        ).rows,
-      );
+    // In pages, in this transaction's snapshot (loadSeries): a 10 M-reading capture never sits
+    // in memory as ten million row arrays.
+    const read = (after: number) => loadSeries(client, captureId, after + 1);
     let next: Held;
     if (prev && prev.count === count) next = prev;
     else {

@@ -18,33 +18,87 @@ export interface SeriesPoint {
 export const TILE_BASE = 64;
 const MAX_LEVEL = 20;
 
-/** Loads every reading of a capture (or a seq range) into typed arrays. */
+/** Rows per query of {@link loadSeries}: a page of rows as JS arrays is ~20 MB, not the whole capture. */
+export const SERIES_PAGE = 200_000;
+
+function grow<T extends Int32Array | Float64Array | Int16Array>(a: T, n: number): T {
+  const out = new (a.constructor as new (n: number) => T)(n);
+  out.set(a);
+  return out;
+}
+
+/**
+ * Loads every reading of a capture (or a seq range) into typed arrays. Reads in pages of
+ * {@link SERIES_PAGE} rows by seq (the primary key's order), so a 10,000,000-reading capture
+ * costs its typed arrays (22 bytes a reading) and one page of rows, not ten million row arrays at
+ * once. Given a pool, the pages are read in one REPEATABLE READ snapshot on one connection; given
+ * a client, in whatever transaction the caller holds.
+ */
 export async function loadSeries(
   pool: pg.Pool | pg.PoolClient,
   captureId: number,
   from = 0,
   to = 2_147_483_647,
+  /** Rows per query (tests use small pages to cross page boundaries). */
+  pageSize = SERIES_PAGE,
 ): Promise<Series> {
-  const res = await pool.query<[number, number, number, number]>({
-    text: 'SELECT seq, t, value, flags FROM readings WHERE capture_id = $1 AND seq BETWEEN $2 AND $3 ORDER BY seq',
-    values: [captureId, from, to],
-    rowMode: 'array',
-  });
-  const n = res.rows.length;
-  const s: Series = {
-    seq: new Int32Array(n),
-    t: new Float64Array(n),
-    value: new Float64Array(n),
-    flags: new Int16Array(n),
-  };
-  for (let i = 0; i < n; i++) {
-    const r = res.rows[i];
-    s.seq[i] = r[0];
-    s.t[i] = r[1];
-    s.value[i] = r[2];
-    s.flags[i] = r[3];
+  if (!('release' in pool)) {
+    const client = await pool.connect();
+    try {
+      await client.query('BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY');
+      const s = await loadSeries(client, captureId, from, to, pageSize);
+      await client.query('COMMIT');
+      return s;
+    } catch (err) {
+      await client.query('ROLLBACK').catch(() => {});
+      throw err;
+    } finally {
+      client.release();
+    }
   }
-  return s;
+  let s: Series = {
+    seq: new Int32Array(0),
+    t: new Float64Array(0),
+    value: new Float64Array(0),
+    flags: new Int16Array(0),
+  };
+  let n = 0;
+  let after = from - 1;
+  for (;;) {
+    const res = await pool.query<[number, number, number, number]>({
+      text: 'SELECT seq, t, value, flags FROM readings WHERE capture_id = $1 AND seq > $2 AND seq <= $3 ORDER BY seq LIMIT $4',
+      values: [captureId, after, to, pageSize],
+      rowMode: 'array',
+    });
+    const rows = res.rows;
+    if (n + rows.length > s.seq.length) {
+      // Grow by doubling (at least one page), so ten million readings cost a few copies, not fifty.
+      const size = Math.max(n + rows.length, s.seq.length * 2, rows.length);
+      s = {
+        seq: grow(s.seq, size),
+        t: grow(s.t, size),
+        value: grow(s.value, size),
+        flags: grow(s.flags, size),
+      };
+    }
+    for (let i = 0; i < rows.length; i++) {
+      const r = rows[i];
+      s.seq[n] = r[0];
+      s.t[n] = r[1];
+      s.value[n] = r[2];
+      s.flags[n] = r[3];
+      n++;
+    }
+    if (rows.length < pageSize) break;
+    after = rows[rows.length - 1][0];
+  }
+  if (n === s.seq.length) return s;
+  return {
+    seq: s.seq.slice(0, n),
+    t: s.t.slice(0, n),
+    value: s.value.slice(0, n),
+    flags: s.flags.slice(0, n),
+  };
 }
 
 function toPoints(s: Series): SeriesPoint[] {
