@@ -15,24 +15,8 @@ import { float8Array, int2Array, int4Array } from '../db/binaryArrays.js';
 import { decodeReadingsF64 } from '../../shared/protocol/readingsBinary.js';
 import { audit } from './audit.js';
 import { isRecording } from '../../shared/protocol/captureLifecycle.js';
-import { pipeline } from 'node:stream/promises';
-import { Readable } from 'node:stream';
-import { from as copyFrom } from 'pg-copy-streams';
-import { readingsCopyBinary } from '../db/copyBinary.js';
-import { tilesOfBatch } from './liveTiles.js';
-
-interface IngestRow {
-  state: string;
-  may_write: boolean;
-  study_id: number;
-  title: string;
-  status: string;
-  revision: number;
-  fits: boolean;
-  highest_seq: number;
-  accepted: number;
-  seqs: number[] | null;
-}
+import { ingestSmallBatch, type IngestRow, type SmallBatch } from './ingestGroup.js';
+import { ingestByCopy } from './ingestCopy.js';
 
 /**
  * The ingest statement. `conflictSafe` inserts with ON CONFLICT DO NOTHING; otherwise the insert
@@ -114,134 +98,43 @@ async function resumed(hub: LiveHub, userId: number, captureId: number, readings
   hub.publishState(captureId, 'open');
 }
 
-/** Batches of at least this many readings go by COPY when they can (see {@link ingestByCopy}). */
+/**
+ * Batches of at least this many readings go by COPY when they can (see {@link ingestByCopy},
+ * server/services/ingestCopy.ts: batches of one capture that queue together share one transaction).
+ */
 export const COPY_MIN_BATCH = 256;
 
-/** The tile merge of a batch computed in Node: the trigger's ON CONFLICT rule (migration 0110). */
-const MERGE_TILES_AND_COUNT = `WITH tiles AS (
-     INSERT INTO reading_tiles AS rt (capture_id, level, bucket, min_seq, min_t, min_value, max_seq, max_t, max_value)
-     SELECT $1, u.* FROM unnest($2::int2[], $3::int[], $4::int[], $5::float8[], $6::float8[], $7::int[], $8::float8[], $9::float8[])
-       AS u(level, bucket, min_seq, min_t, min_value, max_seq, max_t, max_value)
-     ON CONFLICT (capture_id, level, bucket) DO UPDATE SET
-       min_seq = CASE WHEN (EXCLUDED.min_value, EXCLUDED.min_seq) < (rt.min_value, rt.min_seq) THEN EXCLUDED.min_seq ELSE rt.min_seq END,
-       min_t = CASE WHEN (EXCLUDED.min_value, EXCLUDED.min_seq) < (rt.min_value, rt.min_seq) THEN EXCLUDED.min_t ELSE rt.min_t END,
-       min_value = LEAST(EXCLUDED.min_value, rt.min_value),
-       max_seq = CASE WHEN EXCLUDED.max_value > rt.max_value OR (EXCLUDED.max_value = rt.max_value AND EXCLUDED.max_seq < rt.max_seq) THEN EXCLUDED.max_seq ELSE rt.max_seq END,
-       max_t = CASE WHEN EXCLUDED.max_value > rt.max_value OR (EXCLUDED.max_value = rt.max_value AND EXCLUDED.max_seq < rt.max_seq) THEN EXCLUDED.max_t ELSE rt.max_t END,
-       max_value = GREATEST(EXCLUDED.max_value, rt.max_value))
-   UPDATE captures SET reading_count = reading_count + $10, highest_seq = GREATEST(highest_seq, $11),
-     updated_at = now(), last_reading_at = now(), state = 'open'
-   WHERE id = $1 RETURNING highest_seq`;
-
 /**
- * Locks the capture row and says whether a COPY may go ahead: the study, the state, who may write,
- * and whether every seq of the batch lies above the highest stored one. It also names the table
- * that holds the capture's readings (its partition, once readings are partitioned and the capture
- * has rows: a COPY into the partition skips the parent's tile trigger and inserts in bulk; found
- * by a primary-key look-up of the highest stored reading, never a scan) and
- * sets `driftbench.tiles` so the trigger steps aside for this transaction (migration 0230).
+ * One small batch alone, as one statement: lock the capture row, insert only if it is open and
+ * the user may write it, count what was new, and move the capture's counters — one round trip
+ * and one commit. Numbers go as binary arrays (server/db/binaryArrays.ts): none is printed here
+ * or parsed by PostgreSQL, and every double arrives bit for bit. Null: the capture has no row.
  */
-const LOCK_FOR_COPY = `SELECT c.state, ($2::boolean OR c.operator_id = $3) AS may_write, c.highest_seq < $4 AS fits,
-     s.id AS study_id, s.title, s.status, s.revision,
-     (SELECT r.tableoid::regclass::text FROM readings r WHERE r.capture_id = c.id AND r.seq = c.highest_seq) AS rel,
-     set_config('driftbench.tiles', 'caller', true) AS tiles
-   FROM captures c JOIN duts d ON d.id = c.dut_id JOIN studies s ON s.id = d.study_id
-   WHERE c.id = $1 FOR NO KEY UPDATE OF c`;
-
-interface CopyLockRow {
-  state: string;
-  may_write: boolean;
-  fits: boolean;
-  study_id: number;
-  title: string;
-  status: string;
-  revision: number;
-  rel: string | null;
-}
-
-/**
- * The bulk path for a batch in strictly increasing seq order: in one transaction, lock the
- * capture row, COPY the rows in PostgreSQL's binary format, merge the batch's tiles (computed
- * here) and move the capture's counters. Answers null — having changed nothing — when the batch
- * must take the one-statement path instead: the capture is missing, not recording, not the user's
- * to write, or already holds a seq at or above the batch's lowest (a resend, an overlap).
- *
- * No duplicate can slip in: every writer of a capture's readings holds this row lock while it
- * inserts and moves `highest_seq` in the same transaction, so under the lock no stored seq of the
- * capture exceeds `highest_seq`, and every seq of the batch is above it and distinct. Should that
- * ever not hold, the primary key (capture_id, seq) refuses the COPY as a whole, the transaction
- * rolls back, and the batch goes the ON CONFLICT DO NOTHING way (also null).
- */
-async function ingestByCopy(
-  pool: pg.Pool,
-  captureId: number,
-  mayWriteAny: boolean,
-  userId: number,
-  cols: { seqs: number[]; ts: number[]; values: number[]; flags: number[] },
-  minSeq: number,
-  maxSeq: number,
-): Promise<{ state: string; highestSeq: number } | null> {
-  const client = await pool.connect();
-  let broken: Error | undefined;
-  try {
-    await client.query('BEGIN');
-    const lock = await client.query<CopyLockRow>(LOCK_FOR_COPY, [
-      captureId,
-      mayWriteAny,
-      userId,
-      minSeq,
-    ]);
-    const row = lock.rows[0];
-    if (!row || !isRecording(row.state) || !row.may_write || !row.fits) {
-      await client.query('ROLLBACK');
-      return null;
-    }
-    if ((LOCKED_STATUSES as readonly string[]).includes(row.status)) {
-      throw studyLockedError(
-        { id: row.study_id, title: row.title, status: row.status, revision: row.revision },
-        'adding readings',
-      );
-    }
-    const { seqs, ts, values, flags } = cols;
-    const body = readingsCopyBinary(captureId, seqs, ts, values, flags);
-    try {
-      await pipeline(
-        Readable.from([body]),
-        client.query(
-          copyFrom(
-            `COPY ${row.rel ?? 'readings'} (capture_id, seq, t, value, flags) FROM STDIN (FORMAT binary)`,
-          ),
-        ),
-      );
-    } catch (err) {
-      // A seq already stored (the invariant above broken): the conflict-safe path sorts it out.
-      if ((err as { code?: string }).code !== '23505') throw err;
-      await client.query('ROLLBACK');
-      return null;
-    }
-    const tiles = tilesOfBatch(seqs, ts, values);
-    const upd = await client.query<{ highest_seq: number }>(MERGE_TILES_AND_COUNT, [
-      captureId,
-      int2Array(tiles.level),
-      int4Array(tiles.bucket),
-      int4Array(tiles.minSeq),
-      float8Array(tiles.minT),
-      float8Array(tiles.minValue),
-      int4Array(tiles.maxSeq),
-      float8Array(tiles.maxT),
-      float8Array(tiles.maxValue),
-      seqs.length,
-      maxSeq,
-    ]);
-    await client.query('COMMIT');
-    return { state: row.state, highestSeq: upd.rows[0].highest_seq };
-  } catch (err) {
-    // A connection that cannot even roll back is not given back to the pool.
-    await client.query('ROLLBACK').catch((e: Error) => (broken = e));
-    throw err;
-  } finally {
-    client.release(broken);
+async function ingestAlone(pool: pg.Pool, b: SmallBatch): Promise<IngestRow | null> {
+  const params = [
+    b.captureId,
+    int4Array(b.seqs),
+    float8Array(b.ts),
+    float8Array(b.values),
+    int2Array(b.flags),
+    b.mayWriteAny,
+    b.userId,
+    b.maxSeq,
+    b.minSeq,
+  ];
+  // Fast path: a batch in strictly increasing order lying wholly above the highest stored seq
+  // cannot conflict, so it skips the per-row conflict check (about 1.5× faster in PostgreSQL).
+  // When the capture already holds higher readings, the statement inserts nothing and says so,
+  // and the batch goes again through the conflict-safe path.
+  let res =
+    b.increasing && b.seqs.length > 0
+      ? await pool.query<IngestRow>(ingestSql(false, b.watched), params)
+      : null;
+  const first = res?.rows[0];
+  if (!res || (first && isRecording(first.state) && first.may_write && !first.fits)) {
+    res = await pool.query<IngestRow>(ingestSql(true, b.watched), params);
   }
+  return res.rows[0] ?? null;
 }
 
 /**
@@ -336,37 +229,31 @@ export async function ingestReadings(
     }
   }
 
-  // One statement, so one round trip and one commit: lock the capture row, insert only if it is
-  // open and the user may write it, count what was new, and move the capture's counters.
-  // Numbers go as binary arrays (server/db/binaryArrays.ts): none is printed here or parsed by
-  // PostgreSQL, and every double arrives bit for bit.
-  const params = [
-    captureId,
-    int4Array(seqs),
-    float8Array(ts),
-    float8Array(values),
-    int2Array(flags),
-    mayWriteAny,
-    user.id,
-    maxSeq,
-    minSeq,
-  ];
-  // Fast path: a batch in strictly increasing order lying wholly above the highest stored seq
-  // cannot conflict, so it skips the per-row conflict check (about 1.5× faster in PostgreSQL).
-  // When the capture already holds higher readings, the statement inserts nothing and says so,
-  // and the batch goes again through the conflict-safe path.
-  let res =
-    increasing && n > 0 ? await pool.query<IngestRow>(ingestSql(false, watched), params) : null;
-  const first = res?.rows[0];
-  if (!res || (first && isRecording(first.state) && first.may_write && !first.fits)) {
-    res = await pool.query<IngestRow>(ingestSql(true, watched), params);
-  }
+  // Every other batch shares a statement with the small batches of other captures waiting at
+  // the same moment (server/services/ingestGroup.ts): one round trip and one commit for all of
+  // them, each answered as if alone. A batch that finds nothing in flight goes alone at once.
+  const row = await ingestSmallBatch(
+    pool,
+    {
+      captureId,
+      userId: user.id,
+      mayWriteAny,
+      seqs,
+      ts,
+      values,
+      flags,
+      minSeq,
+      maxSeq,
+      increasing,
+      watched,
+    },
+    ingestAlone,
+  );
   // No row: the capture is missing, or has no DUT or study — assertCaptureWritable says which.
-  if (res.rowCount === 0) {
+  if (!row) {
     await assertCaptureWritable(pool, captureId, 'adding readings');
     throw new NotFoundError('Capture');
   }
-  const row = res.rows[0];
   if ((LOCKED_STATUSES as readonly string[]).includes(row.status))
     throw studyLockedError(
       { id: row.study_id, title: row.title, status: row.status, revision: row.revision },
