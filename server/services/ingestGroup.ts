@@ -61,8 +61,20 @@ export const GROUP_MAX_READINGS = 20_000;
 /**
  * Groups in flight at once. Two let one group be parsed and planned while the other commits
  * (its WAL flush); more only make groups smaller and compete for the same two cores.
+ * `DRIFTBENCH_INGEST_GROUPS` overrides it (read when a pool's queue is made); `off` writes every
+ * small batch alone, as before group commit — for comparing the two in `npm run bench -- live`.
  */
 export const GROUPS_IN_FLIGHT = 2;
+
+function groupsSetting(): number | 'off' {
+  const raw = process.env.DRIFTBENCH_INGEST_GROUPS?.trim();
+  if (!raw) return GROUPS_IN_FLIGHT;
+  if (raw === 'off') return 'off';
+  const n = Number(raw);
+  if (!Number.isInteger(n) || n < 1 || n > 16)
+    throw new Error(`DRIFTBENCH_INGEST_GROUPS must be off or 1–16, not "${raw}"`);
+  return n;
+}
 
 /** How the queue has been used since the process started (for benches and tests). */
 export interface GroupStats {
@@ -238,12 +250,23 @@ class GroupQueue {
     return this.waiting.length;
   }
 
+  private readonly slots: number;
+  private readonly grouping: boolean;
+
   constructor(
     private readonly pool: pg.Pool,
     private readonly solo: SoloIngest,
-  ) {}
+  ) {
+    const setting = groupsSetting();
+    this.grouping = setting !== 'off';
+    this.slots = setting === 'off' ? 0 : setting;
+  }
 
   submit(batch: SmallBatch): Promise<IngestRow | null> {
+    if (!this.grouping) {
+      this.stats.soloRequests++;
+      return this.solo(this.pool, batch);
+    }
     return new Promise((resolve, reject) => {
       this.waiting.push({ batch, resolve, reject });
       this.pump();
@@ -251,7 +274,7 @@ class GroupQueue {
   }
 
   private pump(): void {
-    while (this.inFlight < GROUPS_IN_FLIGHT && this.waiting.length > 0) {
+    while (this.inFlight < this.slots && this.waiting.length > 0) {
       const group = this.take();
       if (group.length === 0) return;
       this.inFlight++;
