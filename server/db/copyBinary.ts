@@ -16,6 +16,11 @@ const ROW_BYTES = 2 + (4 + 4) + (4 + 4) + (4 + 8) + (4 + 8) + (4 + 2);
 export const READINGS_COPY_SQL =
   'COPY readings (capture_id, seq, t, value, flags) FROM STDIN (FORMAT binary)';
 
+/** The binary COPY header: signature, flags (0), header-extension length (0). */
+export const COPY_BINARY_HEADER = Buffer.concat([SIGNATURE, Buffer.alloc(8)]);
+/** The binary COPY trailer: a field count of −1. */
+export const COPY_BINARY_TRAILER = Buffer.from([0xff, 0xff]);
+
 /**
  * One capture's readings, column by column (equal lengths), as a binary COPY body. `seq` must be
  * whole numbers in the int32 range and `flags` in the int16 range (the ingest checks both).
@@ -27,13 +32,27 @@ export function readingsCopyBinary(
   value: ArrayLike<number>,
   flags: ArrayLike<number>,
 ): Buffer {
+  return Buffer.concat([
+    COPY_BINARY_HEADER,
+    readingsCopyRows(captureId, seq, t, value, flags),
+    COPY_BINARY_TRAILER,
+  ]);
+}
+
+/**
+ * The rows alone of a binary COPY body (no header, no trailer): bodies of several batches of one
+ * capture are sent as header, each batch's rows in seq order, trailer — one COPY for all of them.
+ */
+export function readingsCopyRows(
+  captureId: number,
+  seq: ArrayLike<number>,
+  t: ArrayLike<number>,
+  value: ArrayLike<number>,
+  flags: ArrayLike<number>,
+): Buffer {
   const n = seq.length;
-  const buf = Buffer.allocUnsafe(SIGNATURE.length + 8 + n * ROW_BYTES + 2);
-  SIGNATURE.copy(buf, 0);
-  let o = SIGNATURE.length;
-  buf.writeInt32BE(0, o);
-  buf.writeInt32BE(0, o + 4);
-  o += 8;
+  const buf = Buffer.allocUnsafe(n * ROW_BYTES);
+  let o = 0;
   for (let i = 0; i < n; i++) {
     buf.writeInt16BE(5, o);
     buf.writeInt32BE(4, o + 2);
@@ -48,6 +67,5 @@ export function readingsCopyBinary(
     buf.writeInt16BE(flags[i], o + 46);
     o += ROW_BYTES;
   }
-  buf.writeInt16BE(-1, o);
   return buf;
 }

@@ -128,3 +128,65 @@ export function tilesOfBatch(
     cur = up;
   }
 }
+
+/**
+ * The tiles of several batches taken together, from the tiles of each (as {@link tilesOfBatch}
+ * made them). `parts` must be in seq order, every seq of a part above every seq of the parts
+ * before it: then at each level a part's buckets start at or after the previous part's last one,
+ * and only that one bucket can be shared. A shared bucket keeps the lower minimum and the higher
+ * maximum, ties going to the smaller seq (the rule of buildTiles and of the trigger), so the result
+ * equals tilesOfBatch of the batches joined — with each bucket once, as one INSERT … ON CONFLICT
+ * DO UPDATE requires.
+ */
+export function mergeBatchTiles(parts: readonly BatchTiles[]): BatchTiles {
+  if (parts.length === 1) return parts[0];
+  const out: BatchTiles = {
+    level: [],
+    bucket: [],
+    minSeq: [],
+    minT: [],
+    minValue: [],
+    maxSeq: [],
+    maxT: [],
+    maxValue: [],
+  };
+  const at = parts.map(() => 0);
+  for (let level = 0; level <= TILE_TOP_LEVEL; level++) {
+    for (let p = 0; p < parts.length; p++) {
+      const t = parts[p];
+      let i = at[p];
+      for (; i < t.level.length && t.level[i] === level; i++) {
+        const k = out.level.length - 1;
+        if (k >= 0 && out.level[k] === level && out.bucket[k] === t.bucket[i]) {
+          if (
+            t.minValue[i] < out.minValue[k] ||
+            (t.minValue[i] === out.minValue[k] && t.minSeq[i] < out.minSeq[k])
+          ) {
+            out.minSeq[k] = t.minSeq[i];
+            out.minT[k] = t.minT[i];
+            out.minValue[k] = t.minValue[i];
+          }
+          if (
+            t.maxValue[i] > out.maxValue[k] ||
+            (t.maxValue[i] === out.maxValue[k] && t.maxSeq[i] < out.maxSeq[k])
+          ) {
+            out.maxSeq[k] = t.maxSeq[i];
+            out.maxT[k] = t.maxT[i];
+            out.maxValue[k] = t.maxValue[i];
+          }
+          continue;
+        }
+        out.level.push(level);
+        out.bucket.push(t.bucket[i]);
+        out.minSeq.push(t.minSeq[i]);
+        out.minT.push(t.minT[i]);
+        out.minValue.push(t.minValue[i]);
+        out.maxSeq.push(t.maxSeq[i]);
+        out.maxT.push(t.maxT[i]);
+        out.maxValue.push(t.maxValue[i]);
+      }
+      at[p] = i;
+    }
+  }
+  return out;
+}
