@@ -546,15 +546,36 @@ export class ReadingUploader {
 /** A PendingStore in memory (tests, and browsers without IndexedDB). */
 export class MemoryPendingStore implements PendingStore {
   private readonly byCapture = new Map<number, Map<number, ReadingIn>>();
+  /**
+   * Captures whose map holds its readings in increasing seq order (every new seq was above the
+   * last): `take` then reads the first ones instead of sorting all of them (a backlog of 200,000
+   * readings would otherwise be sorted once a batch).
+   */
+  private readonly ordered = new Map<number, number>();
 
   async put(captureId: number, readings: ReadingIn[]) {
     let m = this.byCapture.get(captureId);
     if (!m) this.byCapture.set(captureId, (m = new Map()));
-    for (const r of readings) m.set(r.seq, r);
+    let last = m.size === 0 ? -Infinity : (this.ordered.get(captureId) ?? NaN);
+    for (const r of readings) {
+      if (!(r.seq > last) && !m.has(r.seq)) last = NaN;
+      else if (r.seq > last) last = r.seq;
+      m.set(r.seq, r);
+    }
+    this.ordered.set(captureId, last);
   }
   async take(captureId: number, limit: number, afterSeq = -1) {
     const m = this.byCapture.get(captureId);
     if (!m) return [];
+    if (!Number.isNaN(this.ordered.get(captureId) ?? NaN)) {
+      const out: ReadingIn[] = [];
+      for (const r of m.values()) {
+        if (r.seq <= afterSeq) continue;
+        out.push(r);
+        if (out.length >= limit) break;
+      }
+      return out;
+    }
     return [...m.values()]
       .filter((r) => r.seq > afterSeq)
       .sort((a, b) => a.seq - b.seq)

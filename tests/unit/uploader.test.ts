@@ -636,3 +636,23 @@ describe('the bench uploader, pipelined and binary', () => {
     },
   );
 });
+
+describe('MemoryPendingStore', () => {
+  it('takes the lowest pending readings above a seq, whatever order they were put in', async () => {
+    // Common practice, no source: take answers in seq order, ascending puts or not.
+    const r = (seq: number) => ({ seq, t: seq, value: seq });
+    const store = new MemoryPendingStore();
+    await store.put(1, [0, 1, 2, 3, 4, 5].map(r)); // ascending: read in insertion order
+    expect((await store.take(1, 3, 1)).map((x) => x.seq)).toEqual([2, 3, 4]);
+    await store.remove(1, [2]);
+    await store.put(1, [2].map(r)); // put again below the highest: order must be restored
+    await store.put(1, [9, 7].map(r));
+    expect((await store.take(1, 4, 1)).map((x) => x.seq)).toEqual([2, 3, 4, 5]);
+    expect((await store.take(1, 10)).map((x) => x.seq)).toEqual([0, 1, 2, 3, 4, 5, 7, 9]);
+    await store.remove(1, [0, 1, 2, 3, 4, 5, 7, 9]);
+    await store.put(1, [20, 21].map(r)); // empty again: ascending once more
+    await store.put(1, [21, 22].map(r)); // a reading put twice keeps its place
+    expect((await store.take(1, 10, 20)).map((x) => x.seq)).toEqual([21, 22]);
+    expect(await store.count(1)).toBe(3);
+  });
+});
