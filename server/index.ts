@@ -69,7 +69,7 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
     log,
     retireDemo: opts.retireDemo,
   });
-  const hub = createLiveHub(opts.jwtSecret, db.pool);
+  const hub = createLiveHub(opts.jwtSecret, db.pool, { log });
   let stopFeeder: (() => void) | undefined;
   if (opts.demo && opts.demoStory) {
     const onAir = (await seedDemoStory(db.pool, hub, log)) ?? (await findOnAir());

@@ -3,6 +3,7 @@ import type { Duplex } from 'node:stream';
 import { WebSocketServer, type WebSocket } from 'ws';
 import type pg from 'pg';
 import jwt from 'jsonwebtoken';
+import type { Logger } from 'pino';
 import { userFromToken } from '../services/auth.js';
 import { tokenFromProtocolHeader, WS_PROTOCOL } from '../../shared/protocol/socketAuth.js';
 import type { UpgradeHandler } from './upgrade.js';
@@ -12,12 +13,14 @@ import {
   messageProblem,
   type ServerMessage,
 } from '../../shared/protocol/live.js';
+import { UPLOAD_MAX_FRAME, UPLOAD_MAX_READINGS } from '../../shared/protocol/liveUpload.js';
+import { createUploadHandler, type UploadPeer } from './uploads.js';
 
 // The hub's interface lives beside the services that publish to it, so they never import this file.
 import type { LiveHub } from '../services/liveHub.js';
 export { silentHub, type LiveHub } from '../services/liveHub.js';
 
-interface Peer {
+interface Peer extends UploadPeer {
   ws: WebSocket;
   watching: Set<number>;
   alive: boolean;
@@ -28,6 +31,13 @@ interface Peer {
   tokenVersion: number;
 }
 
+/** Largest JSON (text) message; binary readings frames may be up to UPLOAD_MAX_FRAME. */
+const MAX_TEXT_MESSAGE = 64 * 1024;
+/**
+ * Largest frame read at all: above UPLOAD_MAX_FRAME, so a frame of a few readings too many is
+ * answered with a 413 that names the limit; a larger one ends the socket (1009, message too big).
+ */
+export const MAX_FRAME = Math.max(1024 * 1024, UPLOAD_MAX_FRAME);
 /** Most captures one socket may watch at once. */
 const MAX_WATCHED = 100;
 /** Close code for a session that ended (deactivated account or expired token). */
@@ -37,15 +47,19 @@ export const SESSION_ENDED = 4401;
  * The authenticated WebSocket endpoint `/ws`: the token comes in the `Sec-WebSocket-Protocol`
  * header (`driftbench.token.<jwt>`, see shared/protocol/socketAuth.ts), never in the URL. Watchers
  * subscribe to captures and receive every accepted reading as soon as its batch is committed.
+ * A bench uploads its readings on the same socket: each batch is a binary frame
+ * (shared/protocol/liveUpload.ts) answered by `readings-ack` or `readings-refused` (./uploads.ts).
  */
 export function createLiveHub(
   jwtSecret: string,
   pool: pg.Pool,
+  opts: { log?: Logger } = {},
 ): LiveHub & UpgradeHandler & { recheckSessions(): Promise<void> } {
-  // The server answers with the plain protocol name, never echoing the token.
+  // The server answers with the plain protocol name, never echoing the token. Frames up to one
+  // readings batch of the HTTP route's largest size are read; text messages are held to 64 KiB.
   const wss = new WebSocketServer({
     noServer: true,
-    maxPayload: 64 * 1024,
+    maxPayload: MAX_FRAME,
     handleProtocols: () => WS_PROTOCOL,
   });
   const peers = new Set<Peer>();
@@ -120,13 +134,42 @@ export function createLiveHub(
   }, 30_000);
   heartbeat.unref();
 
-  function accept(ws: WebSocket, userId: number, expiresAt: number, tokenVersion: number) {
-    const peer: Peer = { ws, watching: new Set(), alive: true, userId, expiresAt, tokenVersion };
+  function accept(
+    ws: WebSocket,
+    token: string,
+    userId: number,
+    expiresAt: number,
+    tokenVersion: number,
+  ) {
+    const peer: Peer = {
+      ws,
+      watching: new Set(),
+      alive: true,
+      userId,
+      expiresAt,
+      tokenVersion,
+      token,
+      uploadsInFlight: 0,
+    };
     peers.add(peer);
     // A protocol error (e.g. a frame over maxPayload) must end this socket, not the server.
     ws.on('error', () => ws.terminate());
     ws.on('pong', () => (peer.alive = true));
-    ws.on('message', (data) => {
+    ws.on('message', (data, isBinary) => {
+      if (isBinary) {
+        // A readings batch: answered on its own when stored or refused (./uploads.ts).
+        void upload(
+          peer,
+          toBuffer(data),
+          (msg) => send(peer, msg),
+          () => peer.ws.close(SESSION_ENDED, 'session ended'),
+        );
+        return;
+      }
+      if (byteLength(data) > MAX_TEXT_MESSAGE) {
+        ws.close(1009, 'message too big');
+        return;
+      }
       let raw: unknown;
       try {
         raw = JSON.parse(String(data));
@@ -169,10 +212,10 @@ export function createLiveHub(
       for (const id of [...peer.watching]) unwatch(peer, id);
       peers.delete(peer);
     });
-    send(peer, { type: 'hello', userId });
+    send(peer, { type: 'hello', userId, uploads: { maxReadings: UPLOAD_MAX_READINGS } });
   }
 
-  return {
+  const hub: LiveHub & UpgradeHandler & { recheckSessions(): Promise<void> } = {
     handleUpgrade(req: IncomingMessage, socket: Duplex, head: Buffer): boolean {
       const url = new URL(req.url ?? '/', 'http://localhost');
       if (url.pathname !== '/ws') return false;
@@ -183,7 +226,7 @@ export function createLiveHub(
           const claims = jwt.decode(token) as jwt.JwtPayload | null;
           const exp = claims?.exp;
           wss.handleUpgrade(req, socket, head, (ws) =>
-            accept(ws, user.id, exp ? exp * 1000 : Infinity, Number(claims?.tv ?? 0)),
+            accept(ws, token, user.id, exp ? exp * 1000 : Infinity, Number(claims?.tv ?? 0)),
           );
         })
         .catch(() => {
@@ -216,4 +259,19 @@ export function createLiveHub(
       await new Promise<void>((resolve) => wss.close(() => resolve()));
     },
   };
+  // Uploaded batches publish to this hub's watchers, as the HTTP route's do.
+  const upload = createUploadHandler({ jwtSecret, pool, hub, log: opts.log });
+  return hub;
+}
+
+/** A message's bytes as one Buffer (ws hands over a Buffer, an ArrayBuffer or fragments). */
+function toBuffer(data: Buffer | ArrayBuffer | Buffer[]): Buffer {
+  if (Buffer.isBuffer(data)) return data;
+  if (Array.isArray(data)) return Buffer.concat(data);
+  return Buffer.from(data);
+}
+
+function byteLength(data: Buffer | ArrayBuffer | Buffer[]): number {
+  if (Array.isArray(data)) return data.reduce((n, b) => n + b.length, 0);
+  return data.byteLength;
 }

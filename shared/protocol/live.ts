@@ -29,9 +29,50 @@ export const CLIENT_MESSAGE_TYPES = [
   'ping',
 ] as const satisfies readonly ClientMessage['type'][];
 
+/** Request ids of uploaded frames are u32 (shared/protocol/liveUpload.ts). */
+const UploadId = z.number().int().min(0).max(0xffff_ffff);
+
+/**
+ * A readings frame was stored: what `POST /api/captures/:id/readings` would answer (IngestResult),
+ * with the frame's request id.
+ */
+export const ReadingsAck = z.object({
+  type: z.literal('readings-ack'),
+  id: UploadId,
+  captureId: z.number().int().min(0),
+  accepted: z.number().int().min(0),
+  duplicates: z.number().int().min(0),
+  highestSeq: z.number().int(),
+});
+export type ReadingsAck = z.infer<typeof ReadingsAck>;
+
+/**
+ * A readings frame was refused, with the status, code and message the HTTP route gives for the
+ * same batch (403 role or operator, 404, 409 finished or study locked, 400 with `details.index`
+ * for a bad reading, 401 when the session ended, 415/413 for a frame this server cannot read).
+ */
+export const ReadingsRefused = z.object({
+  type: z.literal('readings-refused'),
+  id: UploadId,
+  captureId: z.number().int().min(0),
+  status: z.number().int().min(400).max(599),
+  code: z.string(),
+  message: z.string(),
+  details: z.unknown().optional(),
+});
+export type ReadingsRefused = z.infer<typeof ReadingsRefused>;
+
 /** What the server sends. */
 export const ServerMessage = z.discriminatedUnion('type', [
-  z.object({ type: z.literal('hello'), userId: z.number().int() }),
+  z.object({
+    type: z.literal('hello'),
+    userId: z.number().int(),
+    /**
+     * Present when the server takes readings batches as binary frames on this socket
+     * (shared/protocol/liveUpload.ts): the most readings one frame may carry.
+     */
+    uploads: z.object({ maxReadings: z.number().int().positive() }).optional(),
+  }),
   z.object({
     type: z.literal('readings-batch'),
     captureId: CaptureId,
@@ -42,6 +83,9 @@ export const ServerMessage = z.discriminatedUnion('type', [
   z.object({ type: z.literal('on-air-changed') }),
   z.object({ type: z.literal('pong'), id: z.number().int().optional() }),
   z.object({ type: z.literal('error'), code: z.string(), message: z.string() }),
+  // The answer to an uploaded readings frame: the route's IngestResult, or its refusal.
+  ReadingsAck,
+  ReadingsRefused,
 ]);
 export type ServerMessage = z.infer<typeof ServerMessage>;
 

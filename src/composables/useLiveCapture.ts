@@ -18,6 +18,8 @@ import {
 } from '../api/captures';
 import { ReadingUploader, type PendingStore, type UploaderState } from '../api/uploader';
 import { LIVE_HANDOVER_MS } from '../api/liveTiming';
+import type { LiveSocket } from '../api/socket';
+import { readingsTransport } from '../api/readingsTransport';
 import {
   defaultPendingStore,
   isPermanentRefusal,
@@ -123,6 +125,11 @@ export interface LiveCaptureOptions {
   store?: PendingStore;
   /** How often buffered readings are handed to the uploader (ms). */
   flushMs?: number;
+  /**
+   * Opens the live socket a capture uploads on (src/api/readingsTransport.ts: batches go as frames
+   * on it while it is open, by HTTP otherwise). Without it every batch goes by HTTP.
+   */
+  openSocket?: () => LiveSocket;
 }
 
 export function createLiveCapture(opts: LiveCaptureOptions) {
@@ -132,6 +139,12 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
   let link: SerialLink | null = null;
   let abort: AbortController | null = null;
   let uploader: ReadingUploader | null = null;
+  /** The socket this capture's readings travel on while it is open (closed once drained). */
+  let socket: LiveSocket | null = null;
+  function closeSocket() {
+    socket?.close();
+    socket = null;
+  }
   let reading: Promise<void> | null = null;
   let buffer: ReadingIn[] = [];
   let flushTimer: ReturnType<typeof setInterval> | null = null;
@@ -275,9 +288,14 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
     link.ondisconnect = (reason) => {
       state.linkLost = reason;
     };
+    closeSocket();
+    socket = opts.openSocket?.() ?? null;
     uploader = new ReadingUploader(capture.id, {
       store,
-      send: (id, readings, signal, encoding) => postReadings(id, readings, { signal, encoding }),
+      send: readingsTransport({
+        socket: () => socket,
+        http: (id, readings, signal, encoding) => postReadings(id, readings, { signal, encoding }),
+      }),
       isPermanent: isPermanentRefusal,
       refusedReading: refusedReadingIndex,
       onState: showUpload,
@@ -313,6 +331,7 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
     state.upload = up;
     uploader.close();
     uploader = null;
+    closeSocket();
     opts.series.refreshStats();
     const lost = up.lost + unkept;
     if (lost > 0) {
@@ -373,6 +392,8 @@ export function createLiveCapture(opts: LiveCaptureOptions) {
     abort?.abort();
     if (flushTimer) clearInterval(flushTimer);
     flush();
+    // Batches awaiting an answer on the socket are rejected; the uploader resends them by HTTP.
+    closeSocket();
     void link?.close().catch(() => {});
   }
 

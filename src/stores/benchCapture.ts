@@ -3,6 +3,7 @@ import { defineStore } from 'pinia';
 import { getCapture, getReadings } from '../api/captures';
 import { defaultPendingStore, resumeBacklog, type ResumeOutcome } from '../api/backlog';
 import { createLiveCapture } from '../composables/useLiveCapture';
+import { openLiveSocket } from '../api/socket';
 import { createLiveSeries } from '../composables/useLiveSeries';
 import { createSimulatorLink } from '../links/simulatorLink';
 import { requestSerialLink } from '../links/webSerialLink';
@@ -12,6 +13,7 @@ import { groupDigits } from '../utils/format';
 import { isRecording } from '../../shared/protocol/captureLifecycle';
 
 import { ACTIVE_CAPTURE_KEY, useBenchStatusStore } from './benchStatus';
+import { useSessionStore } from './session';
 
 export { ACTIVE_CAPTURE_KEY };
 
@@ -80,7 +82,13 @@ export const useBenchCaptureStore = defineStore('benchCapture', () => {
       frequency: () => request.value?.create.quantity === 'frequency',
     }),
   );
-  const engine = createLiveCapture({ series, store: pending });
+  const session = useSessionStore();
+  // Readings travel as frames on a live socket of the capture's own while it is open (issue 15).
+  const engine = createLiveCapture({
+    series,
+    store: pending,
+    openSocket: () => openLiveSocket({ getToken: () => session.token }),
+  });
   const state = engine.state;
 
   const running = computed(

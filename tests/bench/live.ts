@@ -9,6 +9,9 @@ import { LIVE_HANDOVER_MS, UPLOADER_FLUSH_MS } from '../../src/api/liveTiming.js
 import type { IngestResult, ReadingIn } from '../../shared/protocol/captures.js';
 import { encodeReadingsF64, READINGS_F64_TYPE } from '../../shared/protocol/readingsBinary.js';
 import { benchFetch, startBenchServer, type BenchServer } from './server.js';
+import { LiveSocket } from '../../src/api/socket.js';
+import { readingsTransport } from '../../src/api/readingsTransport.js';
+import type { SendBatch } from '../../src/api/uploader.js';
 
 // Issue 15's live path: benches recording at 100 readings/s each, every reading handed to the
 // uploader as the bench's capture engine does (every LIVE_HANDOVER_MS) and sent by the uploader
@@ -16,6 +19,9 @@ import { benchFetch, startBenchServer, type BenchServer } from './server.js';
 // Latency runs from the moment a reading is made to its arrival at the watcher, so both waits on
 // the bench, the request, the ingest, the commit and the fan-out are inside it. Captures are not
 // in step (a lab's benches are not): each makes its readings and hands them over at its own phase.
+// Transport `socket` (the product's default): each bench opens its own live socket, as a browser
+// does, and the product's transport (src/api/readingsTransport.ts) sends every batch as a frame on
+// it; `http` sends each batch as a POST, as the bench did before uploads moved onto the socket.
 const pct = (xs: number[], p: number) =>
   xs.length
     ? [...xs].sort((a, b) => a - b)[Math.min(xs.length - 1, Math.floor(xs.length * p))]
@@ -33,12 +39,18 @@ export interface LivePathFigures {
   failures: number;
   drainedAfter: number;
   requests: number;
+  transport: LiveTransport;
+  /** Batches that went by HTTP while the transport was `socket` (socket not open yet, or lost). */
+  httpFallbacks: number;
 }
+
+export type LiveTransport = 'socket' | 'http';
 
 export async function livePath(
   bench: BenchServer,
-  opts: { benches?: number; seconds?: number; watched?: number } = {},
+  opts: { benches?: number; seconds?: number; watched?: number; transport?: LiveTransport } = {},
 ): Promise<LivePathFigures> {
+  const transport = opts.transport ?? 'socket';
   const benches = opts.benches ?? 50;
   const seconds = opts.seconds ?? 60;
   const watchedCount = Math.min(opts.watched ?? 10, benches);
@@ -48,13 +60,13 @@ export async function livePath(
   const pool = new pg.Pool({ connectionString: url, max: 2 });
   const ids = await Promise.all(Array.from({ length: benches }, () => bench.newCapture()));
   let requests = 0;
-  const send = async (
+  let httpFallbacks = 0;
+  const postBatch: SendBatch = async (
     id: number,
     readings: ReadingIn[],
     signal?: AbortSignal,
     encoding?: 'f64' | 'json',
   ): Promise<IngestResult> => {
-    requests++;
     const binary = encoding === 'f64';
     const res = await benchFetch(`${base}/api/captures/${id}/readings`, {
       method: 'POST',
@@ -65,9 +77,38 @@ export async function livePath(
     if (!res.ok) throw Object.assign(new Error(`HTTP ${res.status}`), { status: res.status });
     return (await res.json()) as IngestResult;
   };
+  // One live socket per bench (the `ws` package's WebSocket: Node 20 has none of its own).
+  const sockets =
+    transport === 'socket'
+      ? ids.map(
+          () =>
+            new LiveSocket({
+              getToken: () => token,
+              url: `${base.replace('http', 'ws')}/ws`,
+              WebSocket: WebSocket as unknown as typeof globalThis.WebSocket,
+            }),
+        )
+      : [];
+  const until = performance.now() + 10_000;
+  while (sockets.some((s) => !s.canUpload(1)) && performance.now() < until)
+    await new Promise((r) => setTimeout(r, 20));
+  const sendFor = (k: number): SendBatch =>
+    transport === 'socket'
+      ? readingsTransport({
+          socket: sockets[k],
+          http: postBatch,
+          onSend: (via) => {
+            requests++;
+            if (via === 'http') httpFallbacks++;
+          },
+        })
+      : (...args) => {
+          requests++;
+          return postBatch(...args);
+        };
   // The product's settings: no flushMs given, so the uploader's own default applies.
   const uploaders = ids.map(
-    (id) => new ReadingUploader(id, { store: new MemoryPendingStore(), send }),
+    (id, k) => new ReadingUploader(id, { store: new MemoryPendingStore(), send: sendFor(k) }),
   );
   const perBench = seconds * 100;
   const watchedIds = ids.slice(0, watchedCount);
@@ -144,6 +185,7 @@ export async function livePath(
   const complete = counts.rows.filter((r) => r.n === perBench && r.d === perBench).length;
   const failures = uploaders.reduce((a, u) => a + u.snapshot().failures, 0);
   for (const u of uploaders) u.close();
+  for (const s of sockets) s.close();
   await pool.end();
   return {
     benches,
@@ -157,6 +199,8 @@ export async function livePath(
     failures,
     drainedAfter,
     requests,
+    transport,
+    httpFallbacks,
   };
 }
 
@@ -167,12 +211,16 @@ export function livePathLine(f: LivePathFigures): string {
     `  live path, ${f.benches} benches p50 ${f.p50.toFixed(1)} ms, p95 ${f.p95.toFixed(1)} ms over ${f.samples.toLocaleString('en-US')} readings of the watched captures ` +
     `(made → watcher; hand-over every ${LIVE_HANDOVER_MS} ms and uploader flush ${UPLOADER_FLUSH_MS} ms included); ` +
     `${f.missing} not delivered, ${f.duplicates} delivered twice, ${f.complete}/${f.benches} captures complete, ` +
-    `${f.failures} failed requests, ${Math.round(f.requests / f.seconds)} requests/s — ` +
+    `${f.failures} failed batches, ${Math.round(f.requests / f.seconds)} batches/s ` +
+    `over ${f.transport === 'socket' ? `the live socket (${f.httpFallbacks} by HTTP)` : 'HTTP'} — ` +
     `target p95 ≤ 100 ms, 0 lost, 0 duplicated: ${met ? 'met' : 'NOT met'}`
   );
 }
 
-/** `npm run bench -- live` (BENCH_LIVE_SECONDS, default 60; BENCH_LIVE_BENCHES, default 50). */
+/**
+ * `npm run bench -- live` (BENCH_LIVE_SECONDS, default 60; BENCH_LIVE_BENCHES, default 50;
+ * BENCH_LIVE_TRANSPORT `socket`, the default, or `http`).
+ */
 export async function benchLive(): Promise<void> {
   const bench = await startBenchServer();
   try {
@@ -180,8 +228,11 @@ export async function benchLive(): Promise<void> {
     const figures = await livePath(bench, {
       seconds: Number(process.env.BENCH_LIVE_SECONDS ?? 60),
       benches: Number(process.env.BENCH_LIVE_BENCHES ?? 50),
+      transport: process.env.BENCH_LIVE_TRANSPORT === 'http' ? 'http' : 'socket',
     });
-    console.log(`\nIssue 15 — live path (load ${load.toFixed(2)} at the start)`);
+    console.log(
+      `\nIssue 15 — live path over ${figures.transport === 'socket' ? 'the live socket' : 'HTTP'} (load ${load.toFixed(2)} at the start)`,
+    );
     console.log(livePathLine(figures));
   } finally {
     await bench.stop();
