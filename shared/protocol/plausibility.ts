@@ -35,9 +35,17 @@ function median(sorted: Float64Array): number {
 /**
  * A running judge of plausibility for one capture. `seed` is the capture's latest accepted values
  * (oldest first); `check` judges one value and, when plausible, adds it to the window.
+ *
+ * The window is a ring of the last 32 accepted values, and a refresh sorts copies in two buffers
+ * made once: the ingest judges every reading of a batch, so nothing is allocated per reading.
  */
 export class PlausibilityWindow {
-  private readonly values: number[] = [];
+  private readonly ring = new Float64Array(PLAUSIBILITY.window);
+  /** Values in the ring (up to its length) and where the next one goes. */
+  private count = 0;
+  private next = 0;
+  private readonly sorted = new Float64Array(PLAUSIBILITY.window);
+  private readonly dev = new Float64Array(PLAUSIBILITY.window);
   private since = Infinity;
   private m = 0;
   private s = 0;
@@ -50,15 +58,22 @@ export class PlausibilityWindow {
   }
 
   private push(v: number) {
-    this.values.push(v);
-    if (this.values.length > PLAUSIBILITY.window) this.values.shift();
+    this.ring[this.next] = v;
+    this.next = (this.next + 1) % this.ring.length;
+    if (this.count < this.ring.length) this.count++;
     this.since++;
   }
 
   private refresh() {
-    const sorted = Float64Array.from(this.values).sort();
+    const k = this.count;
+    // The window's order does not matter to a median: the ring is copied as it lies.
+    const sorted = k === this.sorted.length ? this.sorted : this.sorted.subarray(0, k);
+    sorted.set(k === this.ring.length ? this.ring : this.ring.subarray(0, k));
+    sorted.sort();
     this.m = median(sorted);
-    const dev = Float64Array.from(this.values, (v) => Math.abs(v - this.m)).sort();
+    const dev = k === this.dev.length ? this.dev : this.dev.subarray(0, k);
+    for (let i = 0; i < k; i++) dev[i] = Math.abs(sorted[i] - this.m);
+    dev.sort();
     this.s = median(dev);
     this.since = 0;
   }
@@ -68,7 +83,7 @@ export class PlausibilityWindow {
     if (!Number.isFinite(v) || Math.abs(v) > PLAUSIBILITY.maxMagnitude) return false;
     const n = this.nominal;
     if (n !== null && n > 0 && Math.abs(v - n) > PLAUSIBILITY.nominalFactor * n) return false;
-    if (this.values.length >= PLAUSIBILITY.minWindow) {
+    if (this.count >= PLAUSIBILITY.minWindow) {
       if (this.since >= PLAUSIBILITY.refreshEvery) this.refresh();
       const d = Math.abs(v - this.m);
       if (d > PLAUSIBILITY.madFactor * this.s && d > PLAUSIBILITY.relativeFloor * Math.abs(this.m))
