@@ -18,6 +18,7 @@ import { readingsTransport } from '../../src/api/readingsTransport.js';
 import { MemoryPendingStore, ReadingUploader, type SendBatch } from '../../src/api/uploader.js';
 import { ApiError } from '../../src/api/http.js';
 import { MAX_FRAME } from '../../server/ws/live.js';
+import { MAX_UPLOADS_IN_FLIGHT } from '../../server/ws/uploads.js';
 
 // Readings uploaded as binary frames on the live socket (issue 15, shared/protocol/liveUpload.ts):
 // a real server, real PostgreSQL, real `ws` sockets. Every refusal is compared with what the HTTP
@@ -315,6 +316,33 @@ describe('readings uploaded on the live socket', () => {
     peer.ws.send(Buffer.alloc(MAX_FRAME + 1));
     expect(await closed).toBe(1009);
     expect(await stored(id)).toMatchObject({ n: 2 });
+  });
+
+  it('holds a socket to eight frames awaiting their answer and refuses a ninth with 429 until one is answered', async () => {
+    const id = await newCapture();
+    const peer = await rawSocket('technician');
+    // Hold the capture's row so the eight ingests wait inside PostgreSQL.
+    const holder = await server.db.pool.connect();
+    try {
+      await holder.query('BEGIN');
+      await holder.query('SELECT 1 FROM captures WHERE id = $1 FOR UPDATE', [id]);
+      for (let k = 0; k < MAX_UPLOADS_IN_FLIGHT; k++)
+        peer.ws.send(encodeUploadFrame(100 + k, id, readings(k * 10, 10)));
+      peer.ws.send(encodeUploadFrame(200, id, readings(80, 10)));
+      expect(refusalOf(await peer.answer(200))).toMatchObject({
+        status: 429,
+        code: 'too-many-in-flight',
+      });
+    } finally {
+      await holder.query('ROLLBACK');
+      holder.release();
+    }
+    for (let k = 0; k < MAX_UPLOADS_IN_FLIGHT; k++)
+      expect(await peer.answer(100 + k)).toMatchObject({ type: 'readings-ack', accepted: 10 });
+    peer.ws.send(encodeUploadFrame(201, id, readings(80, 10)));
+    expect(await peer.answer(201)).toMatchObject({ type: 'readings-ack', accepted: 10 });
+    expect(await stored(id)).toEqual({ n: 90, d: 90, lo: 0, hi: 89 });
+    peer.ws.close();
   });
 
   it('delivers uploaded readings to watchers once each', async () => {
