@@ -15,7 +15,12 @@ export const DECISION_RULE =
   'uncertainty U of Δ (coverage about 95 %), the guarded-acceptance rule of ILAC-G8: the change is "within" ' +
   'when the whole interval Δ ± U lies inside the limit, "exceeds" when the whole interval lies outside it, ' +
   'and "inconclusive" otherwise. A reference shared by both captures is treated as fully correlated and ' +
-  "cancels in Δ. The baseline of each DUT is its latest finished capture at the study's first checkpoint.";
+  "cancels in Δ. The baseline of each DUT is its latest finished capture at the study's first checkpoint. " +
+  "A tilt check compares the change of each axis's offset and sensitivity error with the DUT's limits by the " +
+  "same rule. A crystal's stability limit is judged on each capture rather than as a change: σy at the " +
+  'limit\'s τ with its 95 % interval is "within" when the upper end of the interval is at or below the limit, ' +
+  '"exceeds" when its lower end is above the limit, and "inconclusive" otherwise (also when the capture is ' +
+  'too short for τ).';
 
 /**
  * Everything the printable report shows, read from the same services the study and capture pages

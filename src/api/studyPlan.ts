@@ -17,6 +17,7 @@ import type { CheckpointCreate, DutCreate, Exposure } from '../../shared/protoco
 import type { DutPatch } from '../../shared/protocol/uncertainty';
 import { groupDigits } from '../utils/format';
 import { formatSigned } from '../utils/si';
+import { tiltCellView } from '../utils/tiltCell';
 
 export type { CheckpointCreate, DutCreate, Exposure };
 // The shapes are the contract's (shared/protocol/models.ts); these names are what the study page imports.
@@ -165,22 +166,58 @@ export function cellFigures(dut: PlanDut, c: CellComparison): CellFigures {
   };
 }
 
-export interface MatrixCounts {
+export interface VerdictTally {
   within: number;
   exceeds: number;
   inconclusive: number;
-  notCaptured: number;
 }
 
+/** The kinds of verdict a matrix cell can show, in the order the tally names them. */
+export const TALLY_KINDS = ['change', 'stability', 'tilt'] as const;
+export type TallyKind = (typeof TALLY_KINDS)[number];
+export const TALLY_KIND_LABELS: Record<TallyKind, string> = {
+  change: 'Δ from baseline',
+  stability: 'stability limit',
+  tilt: 'tilt check',
+};
+
+const VERDICT_WORDS = ['within', 'exceeds', 'inconclusive'] as const;
+
+/** Every verdict the matrix shows (all kinds together), the same per kind, and the empty cells. */
+export interface MatrixCounts extends VerdictTally {
+  notCaptured: number;
+  byKind: Record<TallyKind, VerdictTally>;
+}
+
+/**
+ * Counts each verdict the matrix draws once: a cell's change from the baseline, its crystal's
+ * stability limit, and each axis quantity (offset, sensitivity) of its tilt check that has a limit.
+ */
 export function matrixCounts(matrix: StudyMatrix): MatrixCounts {
-  const counts: MatrixCounts = { within: 0, exceeds: 0, inconclusive: 0, notCaptured: 0 };
+  const tally = (): VerdictTally => ({ within: 0, exceeds: 0, inconclusive: 0 });
+  const byKind: Record<TallyKind, VerdictTally> = {
+    change: tally(),
+    stability: tally(),
+    tilt: tally(),
+  };
+  let notCaptured = 0;
   for (const row of matrix.rows) {
     for (const cell of row.cells) {
-      if (!cell.capture) counts.notCaptured++;
-      else if (cell.comparison) counts[cell.comparison.verdict]++;
+      if (!cell.capture) notCaptured++;
+      else if (cell.comparison) byKind.change[cell.comparison.verdict]++;
+      if (cell.stability) byKind.stability[cell.stability.verdict]++;
+      if (cell.tiltCheck) {
+        for (const axis of tiltCellView(cell.tiltCheck)) {
+          for (const q of [axis.offset, axis.sensitivity]) if (q.verdict) byKind.tilt[q.verdict]++;
+        }
+      }
     }
   }
-  return counts;
+  const total = tally();
+  for (const kind of TALLY_KINDS) {
+    for (const v of VERDICT_WORDS) total[v] += byKind[kind][v];
+  }
+  return { ...total, notCaptured, byKind };
 }
 
 /** A zod issue as a short sentence for a form field. */

@@ -181,12 +181,14 @@ describe('the study matrix', () => {
       count('inconclusive'),
       count('not-captured'),
     ]).toEqual(['1', '1', '1', '4']);
-    expect(matrixCounts(matrix)).toEqual({
+    expect(matrixCounts(matrix)).toMatchObject({
       within: 1,
       exceeds: 1,
       inconclusive: 1,
       notCaptured: 4,
     });
+    // Only changes from the baseline: no line by kind.
+    expect(wrapper.find('.matrix__kinds').exists()).toBe(false);
   });
 
   it('heads each column with the checkpoint and a one-line exposure summary', () => {
@@ -222,5 +224,158 @@ describe('the study matrix', () => {
     expect(f.expanded).toBeCloseTo(expected.expanded, 9);
     expect(f.limit).toBe(expected.limit);
     expect(f.unit).toBe(expected.unit);
+  });
+});
+
+describe("the matrix tally with a crystal's stability limit and tilt checks", () => {
+  const tiltChange = (delta: number, unit: 'mg' | '%', verdict: 'within' | 'exceeds' | null) => ({
+    delta,
+    expandedUncertainty: unit === 'mg' ? 0.2 : 0.02,
+    k: 2,
+    coverage: 'k = 2.00',
+    unit,
+    limitLow: verdict ? (unit === 'mg' ? -20 : -1) : null,
+    limitHigh: verdict ? (unit === 'mg' ? 20 : 1) : null,
+    verdict,
+    significant: verdict === 'exceeds',
+  });
+  const axisFigures = {
+    offsetMg: 4.2,
+    uOffsetMg: 0.1,
+    offsetExpanded: 0.2,
+    sensitivityErrorPct: 0.3,
+    uSensitivityPct: 0.01,
+    sensitivityExpanded: 0.02,
+  };
+  // σy(10 s) = 3 ppb with its interval 2.5 … 3.6 ppb wholly above a 1 ppb limit: exceeds.
+  const stability = (verdict: 'within' | 'exceeds', dev: number) => ({
+    limitPpb: 1,
+    tauS: 10,
+    confidence: 0.95,
+    after: {
+      captureId: 30,
+      figure: {
+        tauRequested: 10,
+        m: 10,
+        tau: 10,
+        dev,
+        lo: dev * 0.8,
+        hi: dev * 1.2,
+        edf: 50,
+        noise: 'WFM',
+        noiseSupported: true,
+      },
+      reason: null,
+    },
+    verdict,
+    reason: null,
+    before: null,
+  });
+  const accelerometer = {
+    ...fork,
+    id: 5,
+    label: 'U5 3-axis accelerometer',
+    kind: 'accelerometer',
+    nominal: 1000,
+    unit: 'mg',
+    limit: 20,
+    limitLow: -20,
+    limitHigh: 20,
+    limitUnit: 'mg',
+  };
+  const withMore: Matrix = {
+    ...matrix,
+    rows: [
+      {
+        dut: crystal,
+        cells: [
+          {
+            checkpointId: 11,
+            capture: capture(50, 0.01),
+            comparison: null,
+            stability: stability('within', 0.3e-9),
+          },
+          {
+            checkpointId: 12,
+            capture: capture(60, 0.02),
+            comparison: comparison(0.01, 0.05, 'within'),
+            stability: stability('exceeds', 3e-9),
+          },
+          { checkpointId: 13, capture: null, comparison: null },
+          { checkpointId: 14, capture: null, comparison: null },
+        ],
+      },
+      {
+        dut: accelerometer,
+        cells: [
+          {
+            checkpointId: 11,
+            capture: capture(70, 0),
+            comparison: null,
+            tiltCheck: { check: { id: 1, axes: { x: axisFigures, z: axisFigures } }, change: null },
+          },
+          {
+            checkpointId: 12,
+            capture: capture(80, 0),
+            comparison: null,
+            tiltCheck: {
+              check: { id: 2, axes: { x: axisFigures, z: axisFigures } },
+              change: {
+                before: 1,
+                axes: {
+                  // X offset moved 30 mg against ±20 mg: exceeds; its sensitivity has no limit.
+                  x: {
+                    offset: tiltChange(30, 'mg', 'exceeds'),
+                    sensitivity: tiltChange(0.01, '%', null),
+                  },
+                  z: {
+                    offset: tiltChange(0.1, 'mg', 'within'),
+                    sensitivity: tiltChange(0.01, '%', 'within'),
+                  },
+                },
+              },
+            },
+          },
+          { checkpointId: 13, capture: null, comparison: null },
+          { checkpointId: 14, capture: null, comparison: null },
+        ],
+      },
+    ],
+  };
+
+  it('counts each shown verdict once: changes, stability limits and each tilt axis quantity', () => {
+    // Counted by hand from the cells above (common practice, no source): one change within; stability
+    // within at the baseline and exceeds later; tilt X offset exceeds, Z offset and sensitivity within,
+    // X sensitivity without a limit not counted; the baseline tilt check carries no verdict.
+    expect(matrixCounts(withMore)).toEqual({
+      within: 4,
+      exceeds: 2,
+      inconclusive: 0,
+      notCaptured: 4,
+      byKind: {
+        change: { within: 1, exceeds: 0, inconclusive: 0 },
+        stability: { within: 1, exceeds: 1, inconclusive: 0 },
+        tilt: { within: 2, exceeds: 1, inconclusive: 0 },
+      },
+    });
+  });
+
+  it('shows the stability and tilt "exceeds" in the tally, named by kind', () => {
+    const wrapper = mount(StudyMatrix, {
+      props: { matrix: withMore },
+      global: { stubs: { RouterLink: RouterLinkStub } },
+    });
+    const count = (name: string) => wrapper.find(`[data-count="${name}"]`).text();
+    expect(count('exceeds')).toBe('2');
+    expect(count('within')).toBe('4');
+    expect(count('stability-exceeds')).toBe('1');
+    expect(count('tilt-exceeds')).toBe('1');
+    expect(wrapper.find('[data-count="change-exceeds"]').exists()).toBe(false);
+    const kinds = wrapper.findAll('.matrix__kind').map((k) => k.text().replace(/\s+/g, ' '));
+    expect(kinds).toEqual([
+      'Δ from baseline: 1 within',
+      'stability limit: 1 exceeds · 1 within',
+      'tilt check: 1 exceeds · 2 within',
+    ]);
   });
 });

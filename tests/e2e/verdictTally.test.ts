@@ -1,0 +1,203 @@
+import { execFileSync } from 'node:child_process';
+import { writeFileSync } from 'node:fs';
+import path from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { Browser } from 'playwright-core';
+import { startTestServer } from '../helpers/appServer.js';
+import { RESULTS, apiAs, launchChromium, openPage, signIn } from '../helpers/browser.js';
+import { gaussian } from '../helpers/random.js';
+import { linkPreset } from '../../shared/protocol/linkProfile.js';
+import { SPI_AXIS_QUERY } from '../../shared/protocol/accelerometer.js';
+
+// A crystal whose stability exceeds its limit and an accelerometer whose X offset moved past its
+// limit, in a real Chromium: the study matrix's tally counts both "exceeds" and says of which kind;
+// the printed report prints σy(τ) with its interval, the limit and the verdict, and each axis of
+// the tilt checks; the bench and live-view breadcrumbs keep a space before the DUT.
+
+let server: Awaited<ReturnType<typeof startTestServer>>;
+let browser: Browser;
+let checkpoints: number[];
+let crystalId: number;
+let crystalCaptureId: number;
+
+type Api = Awaited<ReturnType<typeof apiAs>>;
+
+/** One finished capture of `readings` values at 1 s (frequency) or 0.1 s (acceleration) apart. */
+async function finished(api: Api, body: Record<string, unknown>, values: number[]) {
+  const c = await api.call<{ id: number }>('POST', '/api/captures', { ambientC: 23, ...body });
+  const step = body.quantity === 'frequency' ? 1 : 0.1;
+  const readings = values.map((value, seq) => ({ seq, t: seq * step, value }));
+  await api.call('POST', `/api/captures/${c.id}/readings`, { readings });
+  await api.call('POST', `/api/captures/${c.id}/finish`);
+  return c.id;
+}
+
+describe('verdicts of every kind in the tally and the printed report', () => {
+  beforeAll(async () => {
+    server = await startTestServer();
+    browser = await launchChromium();
+    const technician = await apiAs(server.url, 'technician');
+    const engineer = await apiAs(server.url, 'engineer');
+    const study = await technician.call<{
+      checkpoints: Array<{ id: number; order: number }>;
+      duts: Array<{ id: number; label: string; nominal: number }>;
+    }>('GET', '/api/studies/1');
+    checkpoints = [...study.checkpoints].sort((a, b) => a.order - b.order).map((c) => c.id);
+    const crystal = study.duts.find((d) => d.label.startsWith('Y1'))!;
+    const accel = study.duts.find((d) => d.label.startsWith('U5'))!;
+    crystalId = crystal.id;
+
+    // White FM of 1 ppb at 1 s: σy(10 s) ≈ 0.32 ppb (NIST SP 1065 Table 3: σy(τ) = σ/√τ), whose
+    // 95 % interval lies wholly above a 0.1 ppb limit: exceeds.
+    await engineer.call('PATCH', `/api/duts/${crystal.id}`, {
+      limits: { stability: { limit: 0.1, tauS: 10 } },
+    });
+    const g = gaussian(11);
+    crystalCaptureId = await finished(
+      technician,
+      {
+        dutId: crystal.id,
+        checkpointId: checkpoints[0],
+        quantity: 'frequency',
+        unit: 'Hz',
+        gateTime: 1,
+        referenceId: 1,
+      },
+      Array.from({ length: 600 }, () => crystal.nominal * (1 + 1e-9 * g())),
+    );
+
+    // The accelerometer's X axis: up reads 1000·(1 + s) + offset mg, down −1000·(1 + s) + offset
+    // (the flip-pair model: common practice, no source). Its offset moves from +4 to +44 mg after
+    // the wash, 40 mg against the seed's ±20 mg: exceeds; the sensitivity (+0.3 %) stays.
+    const noise = gaussian(12);
+    const linkProfile = { ...linkPreset('spi-bridge'), queryCommand: SPI_AXIS_QUERY.x };
+    for (const [cp, offset] of [
+      [checkpoints[0], 4],
+      [checkpoints[1], 44],
+    ] as const) {
+      const pose = async (orientation: string, g: number) =>
+        finished(
+          technician,
+          {
+            dutId: accel.id,
+            checkpointId: cp,
+            quantity: 'acceleration',
+            unit: 'mg',
+            gateTime: 0.1,
+            orientation,
+            linkProfile,
+          },
+          Array.from({ length: 200 }, () => 1000 * g * 1.003 + offset + 1.2 * noise()),
+        );
+      const up = await pose('x-up', 1);
+      const down = await pose('x-down', -1);
+      await technician.call('POST', `/api/duts/${accel.id}/tilt-checks`, {
+        checkpointId: cp,
+        axis: 'x',
+        flatCaptureId: up,
+        invertedCaptureId: down,
+      });
+    }
+  });
+
+  afterAll(async () => {
+    await browser?.close();
+    await server?.stop();
+  });
+
+  it('counts the stability and the tilt-check "exceeds" in the matrix tally, by kind', async () => {
+    const { page, errors } = await openPage(browser, { viewport: { width: 1440, height: 1000 } });
+    await signIn(page, server.url, 'lead', '/studies/1');
+    await page.locator('[data-testid="cell-stability"]').waitFor();
+    const count = async (name: string) =>
+      Number(await page.locator(`[data-count="${name}"]`).innerText());
+    expect(await count('stability-exceeds')).toBe(1);
+    expect(await count('tilt-exceeds')).toBe(1);
+    // The X sensitivity did not move (+0.3 % both times) against ±1 %: within.
+    expect(await count('tilt-within')).toBe(1);
+    const changeExceeds = await page.locator('[data-count="change-exceeds"]').count();
+    // The total is every kind's together, so the lead reads it first.
+    expect(await count('exceeds')).toBe(2 + (changeExceeds ? await count('change-exceeds') : 0));
+    expect(await page.locator('.matrix__kinds').innerText()).toMatch(
+      /stability limit: 1 exceeds[\s\S]*tilt check: 1 exceeds · 1 within/,
+    );
+    await page
+      .locator('[data-section="matrix"]')
+      .screenshot({ path: path.join(RESULTS, 'matrix-tally-by-kind.png') });
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+
+  it("prints the crystal's stability verdict and each tilt-check axis in the report", async () => {
+    const { page, errors } = await openPage(browser, { viewport: { width: 1200, height: 1000 } });
+    await signIn(page, server.url, 'lead', '/studies/1');
+    await page.goto(`${server.url}/studies/1/report`);
+    const stab = page.locator('[data-testid="report-stability-limits"]');
+    await stab.waitFor();
+    const row = stab.locator(`tr[data-capture="${crystalCaptureId}"]`);
+    const text = (await row.innerText()).replace(/\s+/g, ' ');
+    expect(text).toMatch(/σy\(10 s\) = 0\.[234]\d* ppb/);
+    expect(text).toMatch(/0\.\d+ … 0\.\d+ ppb/);
+    expect(text).toContain('≤ 0.1 ppb at τ = 10 s');
+    expect(await row.locator('td[data-verdict]').innerText()).toBe('exceeds');
+
+    const tilt = page.locator('[data-testid="report-tilt-checks"]');
+    const x = tilt.locator('tr[data-axis="X"]');
+    expect(await x.count()).toBe(2);
+    expect(await x.nth(0).locator('[data-quantity="offset"]').innerText()).toMatch(
+      /^\+4\.\d+ ± 0\.\d+ mg$/,
+    );
+    expect(await x.nth(1).locator('[data-quantity="offset"]').innerText()).toMatch(
+      /^Δ \+(39|40|41)\.\d+ ± 0\.\d+ mg — exceeds$/,
+    );
+    expect(await x.nth(1).locator('[data-quantity="sensitivity"]').innerText()).toMatch(
+      /— within$/,
+    );
+
+    // What the paper carries: the PDF's own text.
+    const file = path.join(RESULTS, 'report-verdict-kinds.pdf');
+    writeFileSync(file, await page.pdf({ format: 'A4', preferCSSPageSize: true }));
+    const printed = execFileSync('pdftotext', ['-raw', file, '-']).toString('utf8');
+    expect(printed).toContain("Stability limit (σy at the limit's τ, 95 % interval)");
+    expect(printed).toMatch(/σy\(10 s\) = 0\.[234]\d* ppb/);
+    expect(printed).toMatch(/≤ 0\.1 ppb at τ = 10 s\s+exceeds/);
+    expect(printed).toContain('Tilt checks per axis');
+    expect(printed).toMatch(/Δ \+(39|40|41)\.\d+ ± 0\.\d+ mg — exceeds/);
+    expect(printed).toContain("A crystal's stability limit is judged on each capture");
+    expect(printed).toMatch(/stability limit: 1 exceeds/);
+    for (const part of [stab, tilt]) {
+      await part.scrollIntoViewIfNeeded();
+    }
+    await stab
+      .locator('xpath=..')
+      .screenshot({ path: path.join(RESULTS, 'report-stability-limit.png') });
+    await tilt
+      .locator('xpath=..')
+      .screenshot({ path: path.join(RESULTS, 'report-tilt-checks.png') });
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+
+  it('keeps a space before the DUT in the bench and live-view breadcrumbs', async () => {
+    const { page, errors } = await openPage(browser, { viewport: { width: 1280, height: 900 } });
+    await signIn(page, server.url, 'technician', `/captures/${crystalCaptureId}/live`);
+    const live = page.locator('.capture-live__crumbs');
+    await live.waitFor();
+    expect(await live.innerText()).toMatch(/Baseline › Y1 16 MHz crystal · capture/);
+
+    await page.goto(`${server.url}/bench?study=1&checkpoint=${checkpoints[0]}&dut=${crystalId}`);
+    await page.waitForSelector('[data-testid="start-capture"]');
+    await page
+      .locator('[data-field="link-kind"] .el-radio-button', { hasText: 'Simulator' })
+      .click();
+    await page.fill('[data-field="ambient"] input', '23.2');
+    await page.press('[data-field="ambient"] input', 'Tab');
+    await page.click('[data-testid="start-capture"]');
+    const crumbs = page.locator('.bench__crumbs');
+    await crumbs.waitFor();
+    expect(await crumbs.innerText()).toMatch(/ › Baseline › Y1 16 MHz crystal/);
+    await page.locator('.bench').screenshot({ path: path.join(RESULTS, 'bench-breadcrumb.png') });
+    expect(errors).toEqual([]);
+    await page.context().close();
+  });
+});
