@@ -1,47 +1,13 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds, seeded } from '../helpers/demo.js';
+import { seeded } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 
 // Awkward but legal input on the data path: each case once answered 500 or a wrong figure.
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
-
-async function capture(extra: Record<string, unknown> = {}) {
-  const res = await request(t.app)
-    .post('/api/captures')
-    .set(await auth('technician'))
-    .send({
-      dutId: ids.crystal.id,
-      checkpointId: ids.checkpoints[0],
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-      ...extra,
-    });
-  expect(res.status).toBe(201);
-  return res.body.id as number;
-}
-async function send(id: number, readings: unknown[]) {
-  return request(t.app)
-    .post(`/api/captures/${id}/readings`)
-    .set(await auth('technician'))
-    .send({ readings });
-}
-async function finish(id: number) {
-  return request(t.app)
-    .post(`/api/captures/${id}/finish`)
-    .set(await auth('technician'));
-}
+const demo = useDemoApp();
+const capture = (extra: Record<string, unknown> = {}) => demo.newCapture('technician', extra);
+const send = (id: number, readings: unknown[]) => demo.postReadings(id, readings);
+const finish = (id: number) => demo.call('technician', 'post', `/api/captures/${id}/finish`);
 
 describe('the data path on awkward input', () => {
   it('answers an empty batch with nothing accepted', async () => {
@@ -69,9 +35,9 @@ describe('the data path on awkward input', () => {
       const fin = await finish(id);
       expect(fin.status).toBe(200);
       expect(fin.body.state).toBe('finished');
-      const analysis = await request(t.app)
+      const analysis = await request(demo.t.app)
         .get(`/api/captures/${id}/analysis`)
-        .set(await auth('viewer'));
+        .set(await demo.auth('viewer'));
       expect(analysis.status).toBe(200);
       expect(analysis.body.notes.join(' ')).toMatch(/not computed/);
     },
@@ -79,9 +45,9 @@ describe('the data path on awkward input', () => {
 
   it('reports the reference-corrected mean once in the budget', async () => {
     // f_true = f_displayed·(1 + y_ref) is applied once, before the statistics.
-    const refs = await request(t.app)
+    const refs = await request(demo.t.app)
       .get('/api/references')
-      .set(await auth('viewer'));
+      .set(await demo.auth('viewer'));
     const id = await capture({ referenceId: refs.body.references[0].id });
     const rnd = seeded(7);
     await send(
@@ -89,9 +55,9 @@ describe('the data path on awkward input', () => {
       Array.from({ length: 200 }, (_, i) => ({ seq: i, t: i, value: 16e6 + 1e-3 * rnd.gauss() })),
     );
     await finish(id);
-    const analysis = await request(t.app)
+    const analysis = await request(demo.t.app)
       .get(`/api/captures/${id}/analysis`)
-      .set(await auth('viewer'));
+      .set(await demo.auth('viewer'));
     expect(analysis.body.uncertainty.mean).toBe(analysis.body.stats.mean);
   });
 
@@ -117,9 +83,9 @@ describe('the data path on awkward input', () => {
       );
     }
     await finish(id);
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/captures/${id}/readings?from=100&to=50099&maxPoints=200`)
-      .set(await auth('viewer'));
+      .set(await demo.auth('viewer'));
     expect(res.status).toBe(200);
     expect(res.body.decimated).toBe(true);
     expect(res.body.readings.length).toBeLessThanOrEqual(200);
@@ -128,19 +94,19 @@ describe('the data path on awkward input', () => {
     expect(Math.min(...seqs)).toBeGreaterThanOrEqual(100);
     expect(Math.max(...seqs)).toBeLessThanOrEqual(50_099);
     expect(seqs).toEqual([...seqs].sort((a, b) => a - b));
-    const tail = await request(t.app)
+    const tail = await request(demo.t.app)
       .get(`/api/captures/${id}/readings?from=30001&to=59999&maxPoints=100`)
-      .set(await auth('viewer'));
+      .set(await demo.auth('viewer'));
     expect(tail.body.readings.map((r: { seq: number }) => r.seq)).toContain(59_990);
   });
 
   it("refuses a capture in a unit other than the DUT's", async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/captures')
-      .set(await auth('technician'))
+      .set(await demo.auth('technician'))
       .send({
-        dutId: ids.crystal.id,
-        checkpointId: ids.checkpoints[0],
+        dutId: demo.ids.crystal.id,
+        checkpointId: demo.ids.checkpoints[0],
         quantity: 'frequency',
         unit: 'MHz',
         gateTime: 1,
@@ -156,14 +122,14 @@ describe('the data path on awkward input', () => {
       { seq: 1, t: 1, value: 16e6 },
     ]);
     await finish(id);
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .patch(`/api/captures/${id}`)
-      .set(await auth('engineer'))
+      .set(await demo.auth('engineer'))
       .send({ ambientC: 30 });
     expect(res.status).toBe(409);
-    const notes = await request(t.app)
+    const notes = await request(demo.t.app)
       .patch(`/api/captures/${id}`)
-      .set(await auth('engineer'))
+      .set(await demo.auth('engineer'))
       .send({ notes: 'lid closed', ambientC: 23 });
     expect(notes.status).toBe(200);
   });
@@ -171,10 +137,10 @@ describe('the data path on awkward input', () => {
   it('normalises a tuning fork to 25 °C before comparing captures taken at different temperatures', async () => {
     // B = −0.034 ppm/°C² (REFERENCES: makers' datasheets): at 20 °C the fork runs −0.85 ppm, at
     // 28 °C −0.306 ppm (computed). A part that did not change reads +0.544 ppm apart raw.
-    const f0 = ids.tuningFork.nominal;
+    const f0 = demo.ids.tuningFork.nominal;
     const at = async (checkpoint: number, T: number, seed: number) => {
       const id = await capture({
-        dutId: ids.tuningFork.id,
+        dutId: demo.ids.tuningFork.id,
         checkpointId: checkpoint,
         ambientC: T,
         referenceId: 1,
@@ -192,11 +158,11 @@ describe('the data path on awkward input', () => {
       await finish(id);
       return id;
     };
-    const before = await at(ids.checkpoints[0], 20, 11);
-    const after = await at(ids.checkpoints[1], 28, 12);
-    const res = await request(t.app)
+    const before = await at(demo.ids.checkpoints[0], 20, 11);
+    const after = await at(demo.ids.checkpoints[1], 28, 12);
+    const res = await request(demo.t.app)
       .get(`/api/comparisons?before=${before}&after=${after}`)
-      .set(await auth('viewer'));
+      .set(await demo.auth('viewer'));
     expect(res.status).toBe(200);
     expect(res.body.temperatureNormalised).toBe(true);
     expect(Math.abs(res.body.deltaPpm)).toBeLessThan(0.01);
@@ -205,14 +171,14 @@ describe('the data path on awkward input', () => {
     expect(res.body.verdict).toBe('inconclusive');
     // With this part's own turnover known to ±0.5 °C (standard uncertainty) the line is 0.27 ppm
     // and the unchanged part reads within again.
-    const known = await request(t.app)
-      .patch(`/api/duts/${ids.tuningFork.id}`)
-      .set(await auth('engineer'))
+    const known = await request(demo.t.app)
+      .patch(`/api/duts/${demo.ids.tuningFork.id}`)
+      .set(await demo.auth('engineer'))
       .send({ turnoverC: 25, turnoverU: 0.5 });
     expect(known.status).toBe(200);
-    const again = await request(t.app)
+    const again = await request(demo.t.app)
       .get(`/api/comparisons?before=${before}&after=${after}`)
-      .set(await auth('viewer'));
+      .set(await demo.auth('viewer'));
     expect(again.body.verdict).toBe('within');
   });
 });

@@ -1,44 +1,17 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { encodeReadingsF64, READINGS_F64_TYPE } from '../../shared/protocol/readingsBinary.js';
 import { float8Array, int2Array, int4Array } from '../../server/db/binaryArrays.js';
 import { ReadingFlag } from '../../shared/protocol/reading.js';
 
 // Issue 15, one stream: the compact binary readings body beside JSON, and the binary array
 // parameters the ingest statement now sends to PostgreSQL.
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
-
-async function newCapture() {
-  const res = await request(t.app)
-    .post('/api/captures')
-    .set(await auth('technician'))
-    .send({
-      dutId: ids.crystal.id,
-      checkpointId: ids.checkpoints[0],
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-    });
-  expect(res.status).toBe(201);
-  return res.body.id as number;
-}
-
+const demo = useDemoApp();
 const postBinary = async (id: number, bytes: Uint8Array, role = 'technician') =>
-  request(t.app)
+  request(demo.t.app)
     .post(`/api/captures/${id}/readings`)
-    .set(await auth(role))
+    .set(await demo.auth(role))
     .set('content-type', READINGS_F64_TYPE)
     .send(Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
 
@@ -54,7 +27,7 @@ describe('binary array parameters', () => {
       -123.456,
       2 ** 53 + 2,
     ];
-    const res = await t.db.pool.query(
+    const res = await demo.t.db.pool.query(
       'SELECT $1::float8[] AS d, $2::int[] AS i, $3::int2[] AS s, $4::float8[] AS e',
       [
         float8Array(doubles),
@@ -74,7 +47,7 @@ describe('binary array parameters', () => {
 
 describe('POST /api/captures/:id/readings with a binary body', () => {
   it('stores the same readings as JSON would, bit for bit, and a resend never duplicates', async () => {
-    const id = await newCapture();
+    const id = await demo.newCapture();
     const readings = Array.from({ length: 3000 }, (_, i) => ({
       seq: i,
       t: i * 0.1 + 1e-7,
@@ -85,14 +58,14 @@ describe('POST /api/captures/:id/readings with a binary body', () => {
     expect(first.status).toBe(200);
     expect(first.body).toEqual({ accepted: 2000, duplicates: 0, highestSeq: 1999 });
     // The rest as JSON, overlapping the binary batch: the overlap counts as duplicates.
-    const second = await request(t.app)
+    const second = await request(demo.t.app)
       .post(`/api/captures/${id}/readings`)
-      .set(await auth('technician'))
+      .set(await demo.auth('technician'))
       .send({ readings: readings.slice(1500) });
     expect(second.body).toEqual({ accepted: 1000, duplicates: 500, highestSeq: 2999 });
     const again = await postBinary(id, encodeReadingsF64(readings.slice(0, 10)));
     expect(again.body).toEqual({ accepted: 0, duplicates: 10, highestSeq: 2999 });
-    const stored = await t.db.pool.query(
+    const stored = await demo.t.db.pool.query(
       'SELECT seq, t, value, flags FROM readings WHERE capture_id = $1 ORDER BY seq',
       [id],
     );
@@ -103,21 +76,21 @@ describe('POST /api/captures/:id/readings with a binary body', () => {
       expect(Object.is(r.value, readings[i].value)).toBe(true);
       expect(r.flags).toBe(readings[i].flags);
     }
-    const capture = await request(t.app)
+    const capture = await request(demo.t.app)
       .get(`/api/captures/${id}`)
-      .set(await auth('viewer'));
+      .set(await demo.auth('viewer'));
     expect(capture.body.readingCount).toBe(3000);
   });
 
   it('flags an implausible value sent in binary as it does in JSON', async () => {
-    const id = await newCapture();
+    const id = await demo.newCapture();
     const readings = Array.from({ length: 50 }, (_, i) => ({
       seq: i,
       t: i,
       value: i === 40 ? 1e300 : 16e6 + (i % 3) * 1e-3,
     }));
     expect((await postBinary(id, encodeReadingsF64(readings))).status).toBe(200);
-    const row = await t.db.pool.query(
+    const row = await demo.t.db.pool.query(
       'SELECT value, flags FROM readings WHERE capture_id = $1 AND seq = 40',
       [id],
     );
@@ -126,7 +99,7 @@ describe('POST /api/captures/:id/readings with a binary body', () => {
   });
 
   it('refuses a malformed binary body with 400 naming the reading, and keeps nothing of it', async () => {
-    const id = await newCapture();
+    const id = await demo.newCapture();
     const good = Array.from({ length: 10 }, (_, i) => ({ seq: i, t: i, value: 16e6 }));
     const cases: Array<[string, Uint8Array, number]> = [
       ['not a whole number of readings', encodeReadingsF64(good).subarray(0, 33), -1],
@@ -153,7 +126,7 @@ describe('POST /api/captures/:id/readings with a binary body', () => {
       expect(res.status).toBe(400);
       expect(res.body.error.details.index).toBe(index);
     }
-    const count = await t.db.pool.query(
+    const count = await demo.t.db.pool.query(
       'SELECT count(*)::int AS n FROM readings WHERE capture_id = $1',
       [id],
     );
@@ -161,10 +134,10 @@ describe('POST /api/captures/:id/readings with a binary body', () => {
   });
 
   it('keeps the rules of the JSON route: a viewer gets 403, an anonymous client 401 before its body is read', async () => {
-    const id = await newCapture();
+    const id = await demo.newCapture();
     const bytes = encodeReadingsF64([{ seq: 0, t: 0, value: 16e6 }]);
     expect((await postBinary(id, bytes, 'viewer')).status).toBe(403);
-    const anonymous = await request(t.app)
+    const anonymous = await request(demo.t.app)
       .post(`/api/captures/${id}/readings`)
       .set('content-type', READINGS_F64_TYPE)
       .send(Buffer.from(bytes));

@@ -2,11 +2,10 @@ import { spawnSync } from 'node:child_process';
 import { mkdtempSync, rmSync, statSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
 import type pg from 'pg';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import {
   archiveReadingBlock,
   attachReadingBlock,
@@ -18,42 +17,18 @@ import { migrator } from '../../server/migrations/index.js';
 // Issue 15, "Scale past one machine": readings and their tiles are partitioned by range of
 // capture id in blocks of 1,000 captures (migration 20261202-0200); a block's partitions are made
 // ahead; every query of one capture reads one partition; a finished block can be archived.
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
+const demo = useDemoApp();
 const sql = async <R extends pg.QueryResultRow>(text: string, values: unknown[] = []) =>
-  (await t.db.pool.query<R>(text, values)).rows;
+  (await demo.t.db.pool.query<R>(text, values)).rows;
 const DAY = 86_400_000;
-
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
-
-async function newCapture(): Promise<number> {
-  const res = await request(t.app)
-    .post('/api/captures')
-    .set(await auth('technician'))
-    .send({
-      dutId: ids.crystal.id,
-      checkpointId: ids.checkpoints[0],
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-    });
-  expect(res.status).toBe(201);
-  return res.body.id as number;
-}
+const newCapture = () => demo.newCapture();
 
 /** The next capture gets id `next` (the sequence hands out next − 1 + 1). */
 const nextCaptureId = (next: number) =>
   sql(`SELECT setval('captures_id_seq', $1::bigint, false)`, [next]);
 
 type R = { seq: number; t: number; value: number };
-const batch = (from: number, n: number, base = ids.crystal.nominal): R[] =>
+const batch = (from: number, n: number, base = demo.ids.crystal.nominal): R[] =>
   Array.from({ length: n }, (_, i) => ({
     seq: from + i,
     t: (from + i) * 1.0,
@@ -61,18 +36,18 @@ const batch = (from: number, n: number, base = ids.crystal.nominal): R[] =>
   }));
 
 async function send(id: number, readings: R[]) {
-  const res = await request(t.app)
+  const res = await request(demo.t.app)
     .post(`/api/captures/${id}/readings`)
-    .set(await auth('technician'))
+    .set(await demo.auth('technician'))
     .send({ readings });
   expect(res.status).toBe(200);
   return res.body as { accepted: number; duplicates: number; highestSeq: number };
 }
 
 async function finish(id: number) {
-  const res = await request(t.app)
+  const res = await request(demo.t.app)
     .post(`/api/captures/${id}/finish`)
-    .set(await auth('technician'));
+    .set(await demo.auth('technician'));
   expect(res.status).toBe(200);
 }
 
@@ -90,7 +65,7 @@ function relationsOf(plan: unknown, out = new Set<string>()): Set<string> {
 
 /** Runs `fn` while recording every statement the app sends through its raw pool. */
 async function recordQueries(fn: () => Promise<unknown>) {
-  const pool = t.db.pool as unknown as { query: (...a: unknown[]) => unknown };
+  const pool = demo.t.db.pool as unknown as { query: (...a: unknown[]) => unknown };
   const original = pool.query;
   const seen: Array<{ text: string; values: unknown[] }> = [];
   pool.query = function (this: unknown, ...args: unknown[]) {
@@ -267,7 +242,9 @@ describe('the partitioned schema', () => {
 
   it('refuses a reading whose capture block has no partition instead of parking it anywhere', async () => {
     await expect(
-      t.db.pool.query('INSERT INTO readings (capture_id, seq, t, value) VALUES (123456, 0, 0, 1)'),
+      demo.t.db.pool.query(
+        'INSERT INTO readings (capture_id, seq, t, value) VALUES (123456, 0, 0, 1)',
+      ),
     ).rejects.toThrow(/no partition of relation "readings" found for row/);
   });
 
@@ -308,9 +285,9 @@ describe('every query of one capture reads one partition', () => {
     const id = 5000;
     await send(id, batch(300, 9700)); // 10,000 readings: tiles of several levels
     const reads = await recordQueries(async () => {
-      const res = await request(t.app)
+      const res = await request(demo.t.app)
         .get(`/api/captures/${id}/readings?maxPoints=200`)
-        .set(await auth('viewer'));
+        .set(await demo.auth('viewer'));
       expect(res.status).toBe(200);
       expect(res.body.decimated).toBe(true);
     });
@@ -341,7 +318,7 @@ describe('every query of one capture reads one partition', () => {
     // A connection of its own: a pooled one may still hold statistics of its earlier
     // transactions (PostgreSQL flushes them at most once a second), which would name other blocks.
     const { default: pgLib } = await import('pg');
-    const client = new pgLib.Client(t.db.pool.options);
+    const client = new pgLib.Client(demo.t.db.pool.options);
     await client.connect();
     try {
       await client.query('BEGIN');
@@ -387,7 +364,12 @@ describe('archiving a block of captures', () => {
   it('refuses a block with a recording capture, detaches a finished one, and its captures say their readings are archived', async () => {
     await nextCaptureId(9000); // blocks 5 … 8 are complete: no new capture is numbered in them
     const detach = (now?: Date) =>
-      archiveReadingBlock(t.db.pool, 5, { mode: 'detach', olderThanDays: 30, actor: 'test', now });
+      archiveReadingBlock(demo.t.db.pool, 5, {
+        mode: 'detach',
+        olderThanDays: 30,
+        actor: 'test',
+        now,
+      });
     await expect(detach(later())).rejects.toMatchObject({
       status: 409,
       code: 'capture-recording',
@@ -397,7 +379,7 @@ describe('archiving a block of captures', () => {
     // Finished just now: not older than 30 days.
     await expect(detach()).rejects.toMatchObject({ status: 409, code: 'not-archivable' });
 
-    const listed = await listReadingBlocks(t.db.pool, { olderThanDays: 30, now: later() });
+    const listed = await listReadingBlocks(demo.t.db.pool, { olderThanDays: 30, now: later() });
     const byBlock = new Map(listed.map((b) => [b.block, b]));
     expect(byBlock.get(5)).toMatchObject({
       firstCaptureId: 5000,
@@ -428,8 +410,8 @@ describe('archiving a block of captures', () => {
     ).toEqual([{ n: 10_000, attached: 0 }]);
 
     // The capture keeps its record; reads of its readings answer 410 with the reason.
-    const viewer = await auth('viewer');
-    const capture = await request(t.app).get('/api/captures/5000').set(viewer);
+    const viewer = await demo.auth('viewer');
+    const capture = await request(demo.t.app).get('/api/captures/5000').set(viewer);
     expect(capture.status).toBe(200);
     expect(capture.body).toMatchObject({ state: 'finished', readingCount: 10_000 });
     for (const url of [
@@ -438,7 +420,7 @@ describe('archiving a block of captures', () => {
       '/api/captures/5000/readings.csv',
       '/api/captures/5000/analysis',
     ]) {
-      const res = await request(t.app).get(url).set(viewer);
+      const res = await request(demo.t.app).get(url).set(viewer);
       expect(res.status, url).toBe(410);
       expect(res.body.error).toMatchObject({
         code: 'readings-archived',
@@ -447,24 +429,24 @@ describe('archiving a block of captures', () => {
       expect(res.body.error.message).toMatch(/archived/);
     }
     // Its seal cannot be checked while archived, which is not a broken seal.
-    const sealed = await request(t.app).get('/api/captures/5000/seal').set(viewer);
+    const sealed = await request(demo.t.app).get('/api/captures/5000/seal').set(viewer);
     expect(sealed.status).toBe(200);
     expect(sealed.body).toMatchObject({ verified: null, archived: true, readings: 0 });
     expect(sealed.body.sha256).toMatch(/^[0-9a-f]{64}$/);
     // Captures of other blocks read as before.
-    const other = await request(t.app).get('/api/captures/6100/readings').set(viewer);
+    const other = await request(demo.t.app).get('/api/captures/6100/readings').set(viewer);
     expect(other.status).toBe(200);
     expect(other.body.readings).toHaveLength(250);
     expect(
-      (await listReadingBlocks(t.db.pool, { olderThanDays: 30 })).find((b) => b.block === 5),
+      (await listReadingBlocks(demo.t.db.pool, { olderThanDays: 30 })).find((b) => b.block === 5),
     ).toMatchObject({ status: 'detached', archivable: false, reason: 'already detached' });
 
     // Attached back, the block reads again.
-    await attachReadingBlock(t.db.pool, 5);
-    const back = await request(t.app).get('/api/captures/5000/readings').set(viewer);
+    await attachReadingBlock(demo.t.db.pool, 5);
+    const back = await request(demo.t.app).get('/api/captures/5000/readings').set(viewer);
     expect(back.status).toBe(200);
     expect(back.body.readings).toHaveLength(10_000);
-    const resealed = await request(t.app).get('/api/captures/5000/seal').set(viewer);
+    const resealed = await request(demo.t.app).get('/api/captures/5000/seal').set(viewer);
     expect(resealed.body).toMatchObject({ verified: true, readings: 10_000 });
     expect(resealed.body.archived).toBeUndefined();
   });
@@ -474,39 +456,39 @@ describe('archiving a block of captures', () => {
     async () => {
       const dir = mkdtempSync(path.join(os.tmpdir(), 'driftbench-archive-'));
       try {
-        const done = await archiveReadingBlock(t.db.pool, 5, {
+        const done = await archiveReadingBlock(demo.t.db.pool, 5, {
           mode: 'dump',
           olderThanDays: 30,
           actor: 'test',
           now: later(),
           dumpDir: dir,
-          databaseUrl: t.db.url,
+          databaseUrl: demo.t.db.url,
         });
         expect(done).toMatchObject({ block: 5, how: 'dumped', readings: 10_000 });
         expect(statSync(done.dumpFile!).size).toBeGreaterThan(0);
         expect(await sql(`SELECT to_regclass('readings_p000005') AS r`)).toEqual([{ r: null }]);
-        const res = await request(t.app)
+        const res = await request(demo.t.app)
           .get('/api/captures/5000/readings?maxPoints=500')
-          .set(await auth('viewer'));
+          .set(await demo.auth('viewer'));
         expect(res.status).toBe(410);
         expect(res.body.error.details).toMatchObject({ block: 5, how: 'dumped' });
-        await expect(attachReadingBlock(t.db.pool, 5)).rejects.toMatchObject({
+        await expect(attachReadingBlock(demo.t.db.pool, 5)).rejects.toMatchObject({
           status: 409,
           code: 'not-restored',
         });
 
         const restore = spawnSync(
           'pg_restore',
-          [`--dbname=${t.db.url}`, '--no-owner', done.dumpFile!],
+          [`--dbname=${demo.t.db.url}`, '--no-owner', done.dumpFile!],
           {
             encoding: 'utf8',
           },
         );
         expect(restore.status, restore.stderr).toBe(0);
-        await attachReadingBlock(t.db.pool, 5);
-        const back = await request(t.app)
+        await attachReadingBlock(demo.t.db.pool, 5);
+        const back = await request(demo.t.app)
           .get('/api/captures/5000/readings')
-          .set(await auth('viewer'));
+          .set(await demo.auth('viewer'));
         expect(back.status).toBe(200);
         expect(back.body.readings).toHaveLength(10_000);
         expect(back.body.readings[9_999]).toMatchObject(batch(9_900, 100)[99]);
@@ -518,14 +500,14 @@ describe('archiving a block of captures', () => {
 
   it('the migration goes down to one plain table and up again, a detached block included', async () => {
     await finish(6100);
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/captures/${6101}/finish`)
-      .set(await auth('technician'));
+      .set(await demo.auth('technician'));
     // Through the command line this time (npm run readings:archive), on the test's database.
     const cli = (...args: string[]) =>
       spawnSync(process.execPath, ['--import', 'tsx', 'scripts/readings-archive.ts', ...args], {
         encoding: 'utf8',
-        env: { ...process.env, DATABASE_URL: t.db.url },
+        env: { ...process.env, DATABASE_URL: demo.t.db.url },
       });
     const listed = cli('list', '--older-than', '0');
     expect(listed.status, listed.stderr).toBe(0);
@@ -553,7 +535,7 @@ describe('archiving a block of captures', () => {
     );
     expect(r6).toBeGreaterThan(0);
 
-    await migrator(t.db.sequelize).down({ to: '20261202-0200-partitioned-readings' });
+    await migrator(demo.t.db.sequelize).down({ to: '20261202-0200-partitioned-readings' });
     expect(
       await sql(
         `SELECT relkind::text AS k FROM pg_class WHERE relname IN ('readings', 'reading_tiles') ORDER BY relname`,
@@ -561,16 +543,16 @@ describe('archiving a block of captures', () => {
     ).toEqual([{ k: 'r' }, { k: 'r' }]);
     expect(await count()).toEqual({ r: online.r + r6, t: online.t + t6 });
 
-    await migrator(t.db.sequelize).up();
+    await migrator(demo.t.db.sequelize).up();
     expect(
       await sql(
         `SELECT relkind::text AS k FROM pg_class WHERE relname IN ('readings', 'reading_tiles') ORDER BY relname`,
       ),
     ).toEqual([{ k: 'p' }, { k: 'p' }]);
     expect(await count()).toEqual({ r: online.r + r6, t: online.t + t6 });
-    const back = await request(t.app)
+    const back = await request(demo.t.app)
       .get('/api/captures/6100/readings')
-      .set(await auth('viewer'));
+      .set(await demo.auth('viewer'));
     expect(back.status).toBe(200);
     expect(back.body.readings).toHaveLength(250);
     // And the tile trigger works on the re-made parent.
