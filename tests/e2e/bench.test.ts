@@ -43,7 +43,11 @@ describe('the bench', () => {
   });
 
   it('captures the Y1 crystal live and stores exactly the readings the bench showed', async () => {
-    const { page, errors } = await openPage(browser, { viewport: VIEWPORT });
+    // The HTTP readings route is blocked for this page (an aborted request logs ERR_FAILED).
+    const { page, errors } = await openPage(browser, {
+      viewport: VIEWPORT,
+      ignoreErrors: [/net::ERR_FAILED/],
+    });
     await signIn(page, server.url, 'technician', '/bench');
     await page.waitForURL(/\/bench/);
     await page.waitForSelector('[data-testid="start-capture"]');
@@ -62,6 +66,21 @@ describe('the bench', () => {
     await page.fill('[data-field="ambient"] input', '23.4');
     await page.press('[data-field="ambient"] input', 'Tab');
     await page.screenshot({ path: path.join(RESULTS, 'bench-setup.png'), fullPage: true });
+    // Readings travel as binary frames on the live socket (issue 15): block the HTTP readings
+    // route, count the frames the page sends on /ws, and the capture must still fill completely.
+    let httpBatches = 0;
+    await page.route(/\/api\/captures\/\d+\/readings$/, (route) => {
+      if (route.request().method() !== 'POST') return route.continue();
+      httpBatches++;
+      return route.abort('failed');
+    });
+    let frames = 0;
+    page.on('websocket', (ws) => {
+      if (new URL(ws.url()).pathname === '/ws')
+        ws.on('framesent', (f) => {
+          if (typeof f.payload !== 'string') frames++;
+        });
+    });
     await page.click('[data-testid="start-capture"]');
 
     await page.waitForSelector('.live-chart canvas');
@@ -105,6 +124,10 @@ describe('the bench', () => {
     expect(
       Number((await page.locator('[data-testid="acknowledged"]').innerText()).replace(/\D/g, '')),
     ).toBe(benchN);
+    // Every reading was acknowledged although HTTP batches were refused: they went on the socket
+    // (at most the first batch or two, sent before the socket's hello, tried HTTP and were resent).
+    expect(frames).toBeGreaterThan(0);
+    expect(httpBatches).toBeLessThan(frames);
     await page.screenshot({ path: path.join(RESULTS, 'bench-finished.png') });
 
     await expect
