@@ -17,6 +17,7 @@ import * as m0150 from './20261202-0150-capture-abort-stall.js';
 import * as m0151 from './20261202-0151-capture-state-constraint-name.js';
 import * as m0200 from './20261202-0200-partitioned-readings.js';
 import * as m0230 from './20261202-0230-tiles-by-ingest.js';
+import * as m0300 from './20261202-0300-tiles-skip-unchanged.js';
 
 type Step = {
   up(p: { context: QueryInterface }): Promise<void>;
@@ -42,6 +43,7 @@ const MIGRATIONS: Array<[string, Step]> = [
   ['20261202-0151-capture-state-constraint-name', m0151],
   ['20261202-0200-partitioned-readings', m0200],
   ['20261202-0230-tiles-by-ingest', m0230],
+  ['20261202-0300-tiles-skip-unchanged', m0300],
 ];
 
 /** Builds the migrator for a Sequelize connection (state kept in the `sequelize_meta` table). */

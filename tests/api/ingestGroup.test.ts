@@ -433,4 +433,31 @@ describe('group commit of small readings batches', () => {
       await pool().query('DROP FUNCTION test_refuse_666()');
     }
   });
+  it('rewrites only the tiles a batch changes (migration 20261202-0300), and they stay exact', async () => {
+    const id = await newCapture();
+    // Values 16e6 + 0…10 mHz; a later batch within that range changes no upper-level tile.
+    expect((await post('technician', id, batch(0, 100))).status).toBe(200);
+    const version = async () =>
+      (
+        await pool().query<{ level: number; v: string }>(
+          'SELECT level, xmin::text AS v FROM reading_tiles WHERE capture_id = $1 AND level >= 1 ORDER BY level',
+          [id],
+        )
+      ).rows;
+    const before = await version();
+    expect(before).toHaveLength(20);
+    const inside = batch(100, 110).map((r) => ({ ...r, value: 16e6 + 5e-3 }));
+    expect((await post('technician', id, inside)).status).toBe(200);
+    expect(await version()).toEqual(before);
+    // A new highest value rewrites every level (each level's one tile holds it now).
+    const high = batch(110, 111).map((r) => ({ ...r, value: 16e6 + 1 }));
+    expect((await post('technician', id, high)).status).toBe(200);
+    const after = await version();
+    after.forEach((row, i) => expect(row.v).not.toBe(before[i].v));
+    const open = await tiles(id);
+    expect((await api('technician', 'POST', `/api/captures/${id}/finish`)).status).toBe(200);
+    const finished = await tiles(id);
+    const top = Math.max(...finished.map((r) => r.level as number));
+    expect(open.filter((r) => r.level <= top)).toEqual(finished);
+  });
 });
