@@ -154,6 +154,16 @@ describe('verdicts of every kind in the tally and the printed report', () => {
       /— within$/,
     );
 
+    // The DUT table names every limit the verdicts are judged against.
+    const y1 = page.locator('tr', { has: page.locator('td >> text=Y1 16 MHz crystal') });
+    expect(await y1.locator('[data-figure="limits"]').innerText()).toBe(
+      'frequency offset ±1 ppm · stability σy(τ) at τ = 10 s ≤ 0.1 ppb',
+    );
+    const u5 = page.locator('tr', { has: page.locator('td >> text=U5 3-axis accelerometer') });
+    expect(await u5.locator('[data-figure="limits"]').innerText()).toBe(
+      'offset ±20 mg · sensitivity ±1 %',
+    );
+
     // What the paper carries: the PDF's own text.
     const file = path.join(RESULTS, 'report-verdict-kinds.pdf');
     writeFileSync(file, await page.pdf({ format: 'A4', preferCSSPageSize: true }));
