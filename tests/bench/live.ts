@@ -40,6 +40,8 @@ export interface LivePathFigures {
   drainedAfter: number;
   requests: number;
   transport: LiveTransport;
+  /** The uploader's flush wait the figure was measured with. */
+  flushMs: number;
   /** Batches that went by HTTP while the transport was `socket` (socket not open yet, or lost). */
   httpFallbacks: number;
 }
@@ -106,9 +108,18 @@ export async function livePath(
           requests++;
           return postBatch(...args);
         };
-  // The product's settings: no flushMs given, so the uploader's own default applies.
+  // The product's settings: no flushMs given, so the uploader's own default applies (a trial
+  // value may be given with BENCH_LIVE_FLUSH_MS, to see whether another setting would pay).
+  const trialFlush = process.env.BENCH_LIVE_FLUSH_MS
+    ? Number(process.env.BENCH_LIVE_FLUSH_MS)
+    : null;
   const uploaders = ids.map(
-    (id, k) => new ReadingUploader(id, { store: new MemoryPendingStore(), send: sendFor(k) }),
+    (id, k) =>
+      new ReadingUploader(id, {
+        store: new MemoryPendingStore(),
+        send: sendFor(k),
+        ...(trialFlush === null ? {} : { flushMs: trialFlush }),
+      }),
   );
   const perBench = seconds * 100;
   const watchedIds = ids.slice(0, watchedCount);
@@ -201,6 +212,7 @@ export async function livePath(
     requests,
     transport,
     httpFallbacks,
+    flushMs: trialFlush ?? UPLOADER_FLUSH_MS,
   };
 }
 
@@ -209,7 +221,7 @@ export function livePathLine(f: LivePathFigures): string {
   const met = f.p95 <= 100 && f.missing === 0 && f.duplicates === 0 && f.complete === f.benches;
   return (
     `  live path, ${f.benches} benches p50 ${f.p50.toFixed(1)} ms, p95 ${f.p95.toFixed(1)} ms over ${f.samples.toLocaleString('en-US')} readings of the watched captures ` +
-    `(made → watcher; hand-over every ${LIVE_HANDOVER_MS} ms and uploader flush ${UPLOADER_FLUSH_MS} ms included); ` +
+    `(made → watcher; hand-over every ${LIVE_HANDOVER_MS} ms and uploader flush ${f.flushMs} ms${f.flushMs === UPLOADER_FLUSH_MS ? '' : ' (trial, not the product setting)'} included); ` +
     `${f.missing} not delivered, ${f.duplicates} delivered twice, ${f.complete}/${f.benches} captures complete, ` +
     `${f.failures} failed batches, ${Math.round(f.requests / f.seconds)} batches/s ` +
     `over ${f.transport === 'socket' ? `the live socket (${f.httpFallbacks} by HTTP)` : 'HTTP'} — ` +
