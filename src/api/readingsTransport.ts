@@ -12,7 +12,8 @@ import type { BatchEncoding, SendBatch } from './uploader';
 import type { LiveSocket } from './socket';
 
 /** The part of {@link LiveSocket} the transport uses (tests may pass their own). */
-export type UploadSocket = Pick<LiveSocket, 'canUpload' | 'uploadReadings'>;
+export type UploadSocket = Pick<LiveSocket, 'canUpload' | 'uploadReadings'> &
+  Partial<Pick<LiveSocket, 'reconnect'>>;
 
 export interface ReadingsTransportOptions {
   /** The socket to try first, or a getter (it may be opened and closed over a capture's life). */
@@ -37,7 +38,12 @@ export function readingsTransport(opts: ReadingsTransportOptions): SendBatch {
     // Frames carry the binary body; after a 415 the uploader asks for JSON, which only HTTP takes.
     if (socket && encoding !== 'json' && socket.canUpload(readings.length)) {
       opts.onSend?.('socket', captureId, readings.length);
-      return socket.uploadReadings(captureId, readings, signal);
+      return socket.uploadReadings(captureId, readings, signal).catch((err: unknown) => {
+        // The uploader aborts a send only when no answer came in time: a socket that looks open
+        // but answers nothing is given up, so the resend goes by HTTP or on a fresh connection.
+        if (signal?.aborted) socket.reconnect?.();
+        throw err;
+      });
     }
     opts.onSend?.('http', captureId, readings.length);
     return opts.http(captureId, readings, signal, encoding);

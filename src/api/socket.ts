@@ -164,6 +164,26 @@ export class LiveSocket {
     for (const u of pending) u.reject(new SocketClosedError());
   }
 
+  /**
+   * Gives up the current connection and connects again (with the usual backoff): for a socket that
+   * looks open but answers nothing (a half-open connection after a network change). Frames awaiting
+   * their answer are rejected, so the uploader resends them.
+   */
+  reconnect(): void {
+    const ws = this.ws;
+    if (this.closed || !ws) return;
+    this.ws = null;
+    ws.onclose = null;
+    try {
+      ws.close(4000, 'no answer');
+    } catch {
+      // already closing
+    }
+    this.maxUploadReadings = 0;
+    this.dropUploads();
+    this.retry();
+  }
+
   close(): void {
     this.closed = true;
     if (this.timer) clearTimeout(this.timer);

@@ -232,6 +232,26 @@ describe('the client socket as an upload channel', () => {
   });
 });
 
+describe('a socket that answers nothing', () => {
+  it('is given up when the uploader times a send out: pending frames reject and it connects again', async () => {
+    const { socket, ws } = fakeLiveSocket();
+    ws.open();
+    const send = readingsTransport({
+      socket,
+      http: () => Promise.reject(new Error('not expected')),
+    });
+    const ctrl = new AbortController();
+    const timedOut = send(5, three, ctrl.signal, 'f64');
+    const other = socket.uploadReadings(6, three);
+    ctrl.abort(new Error('no answer in time'));
+    await expect(timedOut).rejects.toThrow('no answer in time');
+    await expect(other).rejects.toBeInstanceOf(SocketClosedError);
+    expect(socket.canUpload(1)).toBe(false);
+    expect(socket.state).toBe('reconnecting');
+    socket.close();
+  });
+});
+
 describe('the readings transport', () => {
   const ok: IngestResult = { accepted: 3, duplicates: 0, highestSeq: 2 };
 
