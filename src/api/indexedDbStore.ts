@@ -51,9 +51,9 @@ function done(tx: IDBTransaction): Promise<void> {
  * Walks a cursor to its end or until `visit` returns false; resolves when it stopped.
  * Writes made in `visit` or after it belong to the same transaction.
  */
-function walk(
-  r: IDBRequest<IDBCursorWithValue | null>,
-  visit: (c: IDBCursorWithValue) => boolean,
+function walk<C extends IDBCursor>(
+  r: IDBRequest<C | null>,
+  visit: (c: C) => boolean,
 ): Promise<void> {
   return new Promise((resolve, reject) => {
     r.onerror = () => reject(r.error);
@@ -223,20 +223,37 @@ export class IndexedDbPendingStore implements PendingStore {
     const gone = new Set(seqs);
     let lo = Infinity;
     let hi = -Infinity;
-    for (const s of seqs) {
+    for (const s of gone) {
       if (s < lo) lo = s;
       if (s > hi) hi = s;
     }
     const tx = (await this.db).transaction(CHUNKS, 'readwrite');
     const store = tx.objectStore(CHUNKS);
-    const touched: Chunk[] = [];
-    await walk(store.index(BY_LAST).openCursor(lastFrom(captureId, lo)), (c) => {
-      const chunk = c.value as Chunk;
-      if (chunk.first > hi) return false;
-      touched.push(chunk);
-      return true;
-    });
-    for (const chunk of touched) {
+    const partial = new Map<number, Chunk>();
+    if (hi - lo + 1 === gone.size) {
+      // A run of seqs (an acknowledged batch, as a rule): the chunks inside it are deleted as one
+      // key range; only the (at most two) chunks reaching past its ends are read and rewritten.
+      const low = (await req(store.index(BY_LAST).get(lastFrom(captureId, lo)))) as
+        Chunk | undefined;
+      const below = await req(
+        store.openCursor(IDBKeyRange.bound([captureId, -Infinity], [captureId, hi]), 'prev'),
+      );
+      const high = below?.value as Chunk | undefined;
+      if (low && low.first < lo && low.first <= hi) partial.set(low.first, low);
+      const highPast = !!high && high.last > hi && high.last >= lo;
+      if (high && highPast) partial.set(high.first, high);
+      if (!highPast) store.delete(IDBKeyRange.bound([captureId, lo], [captureId, hi]));
+      else if (high!.first > lo)
+        store.delete(IDBKeyRange.bound([captureId, lo], [captureId, high!.first], false, true));
+    } else {
+      await walk(store.index(BY_LAST).openCursor(lastFrom(captureId, lo)), (c) => {
+        const chunk = c.value as Chunk;
+        if (chunk.first > hi) return false;
+        partial.set(chunk.first, chunk);
+        return true;
+      });
+    }
+    for (const chunk of partial.values()) {
       const kept = readingsOf(chunk).filter((r) => !gone.has(r.seq));
       if (kept.length === chunk.seq.length) continue;
       store.delete([captureId, chunk.first]);

@@ -96,6 +96,7 @@ describe('pending readings in IndexedDB, one record per chunk', () => {
       afterClear: number;
       afterSecondClear: number;
       resent: Reading[];
+      gapped: Reading[];
       count: number;
       captures: number[];
     }>(
@@ -118,9 +119,13 @@ describe('pending readings in IndexedDB, one record per chunk', () => {
       // A resend of 495–504 with new values (two chunks reached into): merged, nothing doubled.
       await s.put(cid, Array.from({ length: 10 }, (_, i) => ({ ...reading(495 + i), value: 1, flags: 2 })));
       const resent = await s.take(cid, 12, 492);
+      // Acknowledged out of a run (990 and 992 only): read, rewritten, then stored again.
+      await s.remove(cid, [992, 990]);
+      const gapped = await s.take(cid, 5, 988);
+      await s.put(cid, [reading(990), reading(992)]);
       const count = await s.count(cid);
       const captures = await s.captures();
-      return { lowest, after850, across, afterClear, afterSecondClear, resent, count, captures };
+      return { lowest, after850, across, afterClear, afterSecondClear, resent, gapped, count, captures };
       `,
     );
     // Expected values: what this test put (seq·0.5 s, 16 MHz + seq mHz, flags 0 unless set).
@@ -136,6 +141,7 @@ describe('pending readings in IndexedDB, one record per chunk', () => {
     expect(first.resent.map((r) => r.seq)).toEqual(Array.from({ length: 12 }, (_, i) => 493 + i));
     expect(first.resent[1]).toEqual({ seq: 494, t: 247, value: 16e6 + 494 * 1e-3, flags: 0 });
     expect(first.resent[2]).toEqual({ seq: 495, t: 247.5, value: 1, flags: 2 });
+    expect(first.gapped.map((r) => r.seq)).toEqual([989, 991, 993, 994, 995]);
     expect(first.count).toBe(850);
     expect(first.captures).toEqual([id]);
     // One record per chunk: 150–199 rewritten, 400–599 merged by the resend, the rest whole.
