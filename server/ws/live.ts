@@ -158,12 +158,17 @@ export function createLiveHub(
     ws.on('message', (data, isBinary) => {
       if (isBinary) {
         // A readings batch: answered on its own when stored or refused (./uploads.ts).
-        void upload(
+        // The handler answers every failure itself; anything that still escapes ends this socket
+        // (the uploader resends), never the server.
+        upload(
           peer,
           toBuffer(data),
           (msg) => send(peer, msg),
           () => peer.ws.close(SESSION_ENDED, 'session ended'),
-        );
+        ).catch((err: unknown) => {
+          opts.log?.error({ err }, 'readings frame handler failed');
+          ws.terminate();
+        });
         return;
       }
       if (byteLength(data) > MAX_TEXT_MESSAGE) {
