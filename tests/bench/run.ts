@@ -6,8 +6,10 @@ import { benchLive } from './live.js';
 import { benchImport } from './import.js';
 import { benchAnalysisLoad } from './analysisLoad.js';
 import { benchRecord } from './record.js';
-import { benchScale } from './scale.js';
+import { benchOneStream, benchScale } from './scale.js';
 import { benchChart } from './chart.js';
+import { benchPendingStore } from './pendingStore.js';
+import { benchStarted, printSummary } from './summary.js';
 
 // `npm run bench`: every performance figure of the performance targets in README and DEVELOPERS.md, printed, never asserted.
 // Run on an otherwise idle machine: the figures are wall-clock times.
@@ -23,9 +25,12 @@ const BENCHES: Record<string, () => Promise<unknown>> = {
   record: benchRecord,
   scale: benchScale,
   chart: benchChart,
+  pendingStore: benchPendingStore,
   // Run only when named: the live path alone, and where one stream's ingest time goes.
   live: benchLive,
   ingestProfile: benchIngestProfile,
+  // The one-stream figures of `scale` alone (issue 15), for quick before/after runs.
+  oneStream: benchOneStream,
 };
 const chosen = process.argv.slice(2);
 const unknown = chosen.filter((name) => !(name in BENCHES));
@@ -36,6 +41,11 @@ if (unknown.length) {
   process.exit(2);
 }
 for (const [name, run] of Object.entries(BENCHES)) {
-  const byName = name === 'live' || name === 'ingestProfile';
-  if ((chosen.length === 0 && !byName) || chosen.includes(name)) await run();
+  const byName = name === 'live' || name === 'ingestProfile' || name === 'oneStream';
+  if ((chosen.length === 0 && !byName) || chosen.includes(name)) {
+    benchStarted(name);
+    await run();
+  }
 }
+// The closing table: every figure with a target that the benches above recorded (summary.ts).
+printSummary();
