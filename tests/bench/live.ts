@@ -9,6 +9,7 @@ import { LIVE_HANDOVER_MS, UPLOADER_FLUSH_MS } from '../../src/api/liveTiming.js
 import type { IngestResult, ReadingIn } from '../../shared/protocol/captures.js';
 import { encodeReadingsF64, READINGS_F64_TYPE } from '../../shared/protocol/readingsBinary.js';
 import { benchFetch, startBenchServer, type BenchServer } from './server.js';
+import { recordFigure } from './summary.js';
 import { LiveSocket } from '../../src/api/socket.js';
 import { readingsTransport } from '../../src/api/readingsTransport.js';
 import type { SendBatch } from '../../src/api/uploader.js';
@@ -246,6 +247,16 @@ export async function benchLive(): Promise<void> {
       `\nIssue 15 — live path over ${figures.transport === 'socket' ? 'the live socket' : 'HTTP'} (load ${load.toFixed(2)} at the start)`,
     );
     console.log(livePathLine(figures));
+    recordFigure({
+      figure: `live path, ${figures.benches} benches at 100 readings/s: p95 (${figures.seconds} s)`,
+      measured: `${figures.p95.toFixed(1)} ms, ${figures.missing} lost, ${figures.duplicates} twice (${figures.transport})`,
+      target: '≤ 100 ms, 0 lost, 0 twice',
+      met:
+        figures.p95 <= 100 &&
+        figures.missing === 0 &&
+        figures.duplicates === 0 &&
+        figures.complete === figures.benches,
+    });
   } finally {
     await bench.stop();
   }
