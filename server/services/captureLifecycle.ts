@@ -6,7 +6,7 @@ import { AppError, ForbiddenError, NotFoundError } from '../errors.js';
 import type { LiveHub } from './liveHub.js';
 import type { AuthUser } from './auth.js';
 import { canWriteCapture } from './ingest.js';
-import { buildTiles, loadSeries } from './readings.js';
+import { loadSeries } from './readings.js';
 import { sealOf } from './seal.js';
 import { audit, auditWithClient } from './audit.js';
 import { enqueueMail } from './mail.js';
@@ -54,7 +54,7 @@ export async function abortCapture(
       );
     }
     const series = await loadSeries(client, id);
-    await buildTiles(client, id, series);
+    // The tiles are kept by ingest as the readings go in (see finish.ts): nothing to rebuild.
     const n = series.seq.length;
     await client.query(
       `UPDATE captures SET state = 'aborted', ended_at = now(), updated_at = now(), abort_reason = $2, aborted_by = $3,

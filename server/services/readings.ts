@@ -144,8 +144,10 @@ function toPoints(s: Series): SeriesPoint[] {
 }
 
 /**
- * Builds the min/max tiles of a finished capture: level L groups 64·2^L consecutive sequence
- * numbers and keeps the lowest and the highest reading of each group.
+ * Builds the min/max tiles of a capture from all its readings: level L groups 64·2^L consecutive
+ * sequence numbers and keeps the lowest and the highest reading of each group. Finish no longer
+ * calls it (ingest keeps the tiles as readings go in); it stays as the reference rebuild the
+ * tests compare the kept tiles with (tests/helpers/tiles.ts), and for repairs.
  */
 export async function buildTiles(
   client: pg.PoolClient | pg.Pool,
