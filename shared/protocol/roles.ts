@@ -1,39 +1,10 @@
 import { z } from 'zod';
+import { ROLES, type Permission } from './permissions.js';
 
-/** The five roles of Driftbench, from most to least privileged in the lab's hierarchy. */
-export const ROLES = ['admin', 'lead', 'engineer', 'technician', 'viewer'] as const;
+export { ROLES, PERMISSIONS, roleCan, type Permission } from './permissions.js';
+
 export const Role = z.enum(ROLES);
 export type Role = z.infer<typeof Role>;
-
-/**
- * What each role may do. The server enforces these on every route; the client uses the same
- * table only to hide what a role cannot do.
- */
-export const PERMISSIONS = {
-  'users:manage': ['admin'],
-  'lab:manage': ['admin', 'lead'],
-  /** Instruments: register, edit, calibrations, away, retire (admins; references stay lab:manage). */
-  'instruments:manage': ['admin'],
-  'studies:plan': ['admin', 'lead', 'engineer'],
-  'studies:submit': ['lead', 'engineer'],
-  'studies:review': ['lead'],
-  'audit:read': ['admin'],
-  'outbox:read': ['admin'],
-  'attachments:upload': ['admin', 'lead', 'engineer', 'technician'],
-  'captures:run': ['admin', 'lead', 'engineer', 'technician'],
-  'captures:tag': ['admin', 'lead', 'engineer'],
-  /** Add readings to and finish captures someone else started (the operator may always). */
-  'captures:write-any': ['admin', 'lead'],
-  /** Delete any attachment (the uploader may always delete their own). */
-  'attachments:delete-any': ['lead'],
-  read: ['admin', 'lead', 'engineer', 'technician', 'viewer'],
-} as const satisfies Record<string, readonly Role[]>;
-export type Permission = keyof typeof PERMISSIONS;
-
-/** True when `role` holds `permission`. */
-export function roleCan(role: Role, permission: Permission): boolean {
-  return (PERMISSIONS[permission] as readonly Role[]).includes(role);
-}
 
 /** Who may call a route: a permission, any signed-in user, or anyone (sign-in, health). */
 export type RouteAccess = Permission | 'signed-in' | 'public';

@@ -5,7 +5,7 @@ import type { SessionUser } from '../../shared/protocol/models';
 import type { LoginResponse, MeResponse } from '../../shared/protocol/responses';
 
 export type { Role };
-export { ROLES } from '../../shared/protocol/roles';
+export { ROLES } from '../../shared/protocol/permissions';
 
 export type { SessionUser };
 /** The answer of signing in and of changing the password: a token and who it belongs to. */

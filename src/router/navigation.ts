@@ -13,7 +13,7 @@ import {
   VideoPlay,
 } from '@element-plus/icons-vue';
 import type { Role } from '../api/auth';
-import { roleCan } from '../../shared/protocol/roles';
+import { roleCan } from '../../shared/protocol/permissions';
 
 export interface NavItem {
   label: string;

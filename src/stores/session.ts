@@ -10,7 +10,7 @@ import {
 } from '../api/auth';
 import { ApiError, configureHttp } from '../api/http';
 import { configureSimulatorToken } from '../links/simulatorLink';
-import { roleCan, type Permission } from '../../shared/protocol/roles';
+import { roleCan, type Permission } from '../../shared/protocol/permissions';
 
 export const SESSION_KEY = 'driftbench.session';
 
