@@ -7,7 +7,7 @@ import type { LiveHub } from './liveHub.js';
 import type { AuthUser } from './auth.js';
 import { canWriteCapture } from './ingest.js';
 import { loadSeries } from './readings.js';
-import { sealOf } from './seal.js';
+import { sealOfSliced } from './seal.js';
 import { audit, auditWithClient } from './audit.js';
 import { enqueueMail } from './mail.js';
 import { capturePublic } from './captures.js';
@@ -59,7 +59,7 @@ export async function abortCapture(
     await client.query(
       `UPDATE captures SET state = 'aborted', ended_at = now(), updated_at = now(), abort_reason = $2, aborted_by = $3,
          reading_count = $4, highest_seq = $5, seal_sha256 = $6, sealed_at = now() WHERE id = $1`,
-      [id, reason, user.id, n, n ? series.seq[n - 1] : -1, sealOf(series)],
+      [id, reason, user.id, n, n ? series.seq[n - 1] : -1, await sealOfSliced(series)],
     );
     await auditWithClient(client, user.id, 'capture.abort', 'capture', id, {
       state: { from: state, to: 'aborted' },

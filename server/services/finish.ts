@@ -12,17 +12,24 @@ import { assertStudyWritable } from './studyLock.js';
 import { AnalysisError } from '../../shared/analysis/index.js';
 import { implausibleNote } from '../../shared/protocol/plausibility.js';
 import type { Series } from './readings.js';
-import { sealOf } from './seal.js';
+import { sealOfSliced } from './seal.js';
 import { auditWithClient } from './audit.js';
+
+/** Lets the event loop serve what waits before the next heavy synchronous step. */
+const turn = () => new Promise<void>((resolve) => setImmediate(resolve));
 
 /**
  * The capture's reduction; when the analysis refuses the readings (AnalysisError), the reduction of
  * no readings with the counts and the reason as a note, so finishing always succeeds and the
  * readings stay for a later look.
  */
-function reduceOrExplain(capture: Capture, dut: Dut | null, series: Series) {
+async function reduceOrExplain(capture: Capture, dut: Dut | null, series: Series) {
   try {
-    return reduce(capture, dut, prepare(capture, series));
+    const prepared = prepare(capture, series);
+    // A turn of the event loop between the two heavy steps (about 1 s each at 10^6 readings), so
+    // other requests are served between them.
+    await turn();
+    return reduce(capture, dut, prepared);
   } catch (err) {
     if (!(err instanceof AnalysisError)) throw err;
     const empty: Series = {
@@ -68,7 +75,8 @@ export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser,
       const dut = await Dut.findByPk(capture.dutId);
       const series = await loadSeries(client, id);
       capture.state = 'finished';
-      const summary = reduceOrExplain(capture, dut, series);
+      await turn();
+      const summary = await reduceOrExplain(capture, dut, series);
       const implausible = implausibleNote(series.flags);
       if (implausible) summary.notes.push(implausible);
       // No tile rebuild: every statement that adds readings has already merged them into the
@@ -87,7 +95,7 @@ export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser,
         ],
       );
       // The seal: SHA-256 of the raw readings in the canonical serialisation (seal.ts).
-      const seal = sealOf(series);
+      const seal = await sealOfSliced(series);
       await client.query('UPDATE captures SET seal_sha256 = $2, sealed_at = now() WHERE id = $1', [
         id,
         seal,
