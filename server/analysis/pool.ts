@@ -8,12 +8,12 @@ import { Worker } from 'node:worker_threads';
 import os from 'node:os';
 import { AppError } from '../errors.js';
 import { AnalysisError } from '../../shared/analysis/index.js';
-import type { AnalysisJob, JobError, WorkerReply } from './protocol.js';
+import type { AnalysisJob, FinishJob, JobError, SeriesArrays, WorkerReply } from './protocol.js';
 
 const ENTRY = new URL('./worker-entry.mjs', import.meta.url);
 
 interface Pending {
-  resolve(v: { json: string; readingCount: number }): void;
+  resolve(v: { json: string; readingCount: number; series?: SeriesArrays }): void;
   reject(err: unknown): void;
 }
 
@@ -39,6 +39,9 @@ function toError(e: JobError): Error {
 
 export interface AnalysisPoolStats {
   computed: number;
+  /** Finish summaries handed to a worker (issue 15), and of those the ones it answered. */
+  finishesStarted: number;
+  finishes: number;
   cacheHits: number;
   coalesced: number;
 }
@@ -59,7 +62,11 @@ function withCoverage(json: string, readings: number, captureReadings: number, a
 
 export class AnalysisPool {
   private readonly slots: Slot[] = [];
-  private readonly queue: Array<{ job: AnalysisJob; pending: Pending }> = [];
+  private readonly queue: Array<{
+    body: { job: AnalysisJob } | { finish: FinishJob };
+    transfer: ArrayBuffer[];
+    pending: Pending;
+  }> = [];
   private readonly inFlight = new Map<
     string,
     Promise<{ json: string; readingCount: number; at: number }>
@@ -70,7 +77,13 @@ export class AnalysisPool {
   >();
   private nextId = 1;
   private closed = false;
-  readonly stats: AnalysisPoolStats = { computed: 0, cacheHits: 0, coalesced: 0 };
+  readonly stats: AnalysisPoolStats = {
+    computed: 0,
+    finishesStarted: 0,
+    finishes: 0,
+    cacheHits: 0,
+    coalesced: 0,
+  };
 
   /**
    * `openFreshMs`: an open capture's answer is served for this long (or twice the time it took,
@@ -92,7 +105,8 @@ export class AnalysisPool {
       slot.pending.delete(msg.id);
       slot.busy = false;
       if (p) {
-        if (msg.ok) p.resolve({ json: msg.json, readingCount: msg.readingCount });
+        if (msg.ok)
+          p.resolve({ json: msg.json, readingCount: msg.readingCount, series: msg.series });
         else p.reject(toError(msg.error));
       }
       this.pump();
@@ -118,20 +132,52 @@ export class AnalysisPool {
       let slot = this.slots.find((s) => !s.busy);
       if (!slot && this.slots.length < this.size) slot = this.spawn();
       if (!slot) return;
-      const { job, pending } = this.queue.shift()!;
+      const { body, transfer, pending } = this.queue.shift()!;
       const id = this.nextId++;
       slot.busy = true;
       slot.pending.set(id, pending);
-      slot.worker.postMessage({ id, job });
+      slot.worker.postMessage({ id, ...body }, transfer);
     }
   }
 
-  private run(job: AnalysisJob): Promise<{ json: string; readingCount: number }> {
+  private run(
+    body: { job: AnalysisJob } | { finish: FinishJob },
+    transfer: ArrayBuffer[] = [],
+  ): Promise<{ json: string; readingCount: number; series?: SeriesArrays }> {
     if (this.closed) return Promise.reject(new Error('analysis pool closed'));
     return new Promise((resolve, reject) => {
-      this.queue.push({ job, pending: { resolve, reject } });
+      this.queue.push({ body, transfer, pending: { resolve, reject } });
       this.pump();
     });
+  }
+
+  /** False once closed: a finish then computes its summary on its own thread. */
+  get available(): boolean {
+    return !this.closed;
+  }
+
+  /**
+   * A finish's summary (finishSummary in captureAnalysis.ts) computed in a worker: the readings
+   * are moved to the worker, not copied, and come back with the summary's JSON text. Not cached
+   * and not coalesced: each finish computes once, inside its own transaction.
+   * Throws (never an AnalysisError: the worker turns that into the explained empty summary) when
+   * the worker fails; the readings passed in are then gone and must be loaded again.
+   */
+  async finishSummary(job: FinishJob): Promise<{ json: string; series: SeriesArrays }> {
+    const s = job.series;
+    const views = [s.seq, s.t, s.value, s.flags];
+    const buffers = views.map((v) => v.buffer as ArrayBuffer);
+    // Moved only when each array owns its whole buffer (loadSeries's do): moving a view of a
+    // shared or pooled buffer would take the rest of it away too. Otherwise they are copied.
+    const owned =
+      new Set(buffers).size === 4 &&
+      views.every((v) => v.byteOffset === 0 && v.byteLength === v.buffer.byteLength);
+    const transfer = owned ? buffers : [];
+    const running = this.run({ finish: job }, transfer);
+    this.stats.finishesStarted++;
+    const done = await running;
+    this.stats.finishes++;
+    return { json: done.json, series: done.series! };
   }
 
   /**
@@ -169,7 +215,7 @@ export class AnalysisPool {
       return withCoverage(done.json, done.readingCount, current.readingCount, done.at);
     }
     const startedAt = Date.now();
-    const started = this.run(job).then((r) => ({
+    const started = this.run({ job }).then((r) => ({
       json: r.json,
       readingCount: r.readingCount,
       at: Date.now(),

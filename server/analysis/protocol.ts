@@ -20,8 +20,30 @@ export interface JobError {
   details?: unknown;
 }
 
-export type WorkerRequest = { id: number; job: AnalysisJob };
-/** `json`: the answer already serialised in the worker, so the event loop never stringifies it. */
+/** The readings of a capture as finish loaded them, moved (not copied) between threads. */
+export interface SeriesArrays {
+  seq: Int32Array;
+  t: Float64Array;
+  value: Float64Array;
+  flags: Int16Array;
+}
+
+/**
+ * A finish's summary (issue 15): the capture's and its DUT's attributes as plain data (rebuilt
+ * as model instances in the worker, so prepare/reduce see what finish saw) and the readings
+ * finish loaded in its transaction. The worker moves the readings back with its answer.
+ */
+export interface FinishJob {
+  capture: Record<string, unknown>;
+  dut: Record<string, unknown> | null;
+  series: SeriesArrays;
+}
+
+export type WorkerRequest = { id: number; job: AnalysisJob } | { id: number; finish: FinishJob };
+/**
+ * `json`: the answer already serialised in the worker, so the event loop never stringifies it.
+ * `series`: a finish's readings, handed back.
+ */
 export type WorkerReply =
-  | { id: number; ok: true; json: string; readingCount: number }
+  | { id: number; ok: true; json: string; readingCount: number; series?: SeriesArrays }
   | { id: number; ok: false; error: JobError };

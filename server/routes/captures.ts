@@ -83,7 +83,7 @@ export function capturesRouter(
     reply(
       res,
       'POST /api/captures/:id/finish',
-      await finishCapture(pool, hub, currentUser(req), id),
+      await finishCapture(pool, hub, currentUser(req), id, analysis),
     );
   });
   r.post('/:id/abort', authorize('captures:run'), async (req, res) => {

@@ -23,6 +23,7 @@ import {
   type Summary,
 } from '../../shared/analysis/index.js';
 import { spiAxisOf } from '../../shared/protocol/accelerometer.js';
+import { implausibleNote } from '../../shared/protocol/plausibility.js';
 import type { Capture, Dut } from '../models/index.js';
 import { TUNING_FORK_DEFAULTS } from '../models/Dut.js';
 import { loadSeries, type Series } from './readings.js';
@@ -499,6 +500,41 @@ export function reduce(
 }
 
 export type CaptureSummary = ReturnType<typeof reduce>;
+
+/**
+ * The summary a finish stores: prepare + reduce over all the capture's readings, and the note on
+ * implausible readings. When the analysis refuses the readings (AnalysisError), the reduction of
+ * no readings with the counts and the reason as a note, so finishing always succeeds and the
+ * readings stay for a later look. `between` runs between the two heavy steps (finish's in-thread
+ * path gives the event loop a turn there; an analysis worker needs none).
+ */
+export async function finishSummary(
+  c: Capture,
+  dut: Dut | null,
+  s: Series,
+  between: () => Promise<void> = async () => {},
+): Promise<CaptureSummary> {
+  let summary: CaptureSummary;
+  try {
+    const prepared = prepare(c, s);
+    await between();
+    summary = reduce(c, dut, prepared);
+  } catch (err) {
+    if (!(err instanceof AnalysisError)) throw err;
+    const empty: Series = {
+      seq: new Int32Array(0),
+      t: new Float64Array(0),
+      value: new Float64Array(0),
+      flags: new Int16Array(0),
+    };
+    summary = reduce(c, dut, prepare(c, empty));
+    summary.counts = { ...summary.counts, total: s.seq.length };
+    summary.notes.push(`Analysis not computed: ${err.message} The readings are kept.`);
+  }
+  const implausible = implausibleNote(s.flags);
+  if (implausible) summary.notes.push(implausible);
+  return summary;
+}
 
 /** Finished captures never change, so their prepared readings can be kept for repeated analyses. */
 const cache = new Map<number, Prepared>();

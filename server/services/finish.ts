@@ -6,11 +6,10 @@ import { isRecording } from '../../shared/protocol/captureLifecycle.js';
 import type { LiveHub } from './liveHub.js';
 import { canWriteCapture } from './ingest.js';
 import { loadSeries } from './readings.js';
-import { prepare, reduce } from './captureAnalysis.js';
+import { finishSummary } from './captureAnalysis.js';
+import type { AnalysisPool } from '../analysis/pool.js';
 import { capturePublic } from './captures.js';
 import { assertStudyWritable } from './studyLock.js';
-import { AnalysisError } from '../../shared/analysis/index.js';
-import { implausibleNote } from '../../shared/protocol/plausibility.js';
 import type { Series } from './readings.js';
 import { sealOfSliced } from './seal.js';
 import { auditWithClient } from './audit.js';
@@ -19,38 +18,57 @@ import { auditWithClient } from './audit.js';
 const turn = () => new Promise<void>((resolve) => setImmediate(resolve));
 
 /**
- * The capture's reduction; when the analysis refuses the readings (AnalysisError), the reduction of
- * no readings with the counts and the reason as a note, so finishing always succeeds and the
- * readings stay for a later look.
+ * Below this many readings a finish computes its summary on the event loop: about 20 ms at most
+ * (1 s per 10^6 readings measured), less than handing the readings to a worker that may first
+ * have to start.
  */
-async function reduceOrExplain(capture: Capture, dut: Dut | null, series: Series) {
-  try {
-    const prepared = prepare(capture, series);
-    // A turn of the event loop between the two heavy steps (about 1 s each at 10^6 readings), so
-    // other requests are served between them.
-    await turn();
-    return reduce(capture, dut, prepared);
-  } catch (err) {
-    if (!(err instanceof AnalysisError)) throw err;
-    const empty: Series = {
-      seq: new Int32Array(0),
-      t: new Float64Array(0),
-      value: new Float64Array(0),
-      flags: new Int16Array(0),
-    };
-    const summary = reduce(capture, dut, prepare(capture, empty));
-    summary.counts = { ...summary.counts, total: series.seq.length };
-    summary.notes.push(`Analysis not computed: ${err.message} The readings are kept.`);
-    return summary;
+export const FINISH_IN_WORKER_MIN = 20_000;
+
+/**
+ * The summary finish stores (finishSummary: prepare + reduce, AnalysisError explained). In an
+ * analysis worker when the app has a pool, so the event loop keeps serving the lab during the
+ * seconds a 10^7-reading capture takes; the readings move to the worker and back. On this
+ * thread for a small capture (FINISH_IN_WORKER_MIN), when there is no pool (the import and the
+ * demo story call finish without one) or it is closed, with a turn of the event loop between
+ * the two heavy steps; and if the worker fails, the readings it took are loaded again (the
+ * capture is still locked) and computed here.
+ */
+async function summaryOf(
+  client: pg.PoolClient,
+  capture: Capture,
+  dut: Dut | null,
+  series: Series,
+  analysis: AnalysisPool | undefined,
+): Promise<{ json: string; series: Series }> {
+  if (analysis?.available && series.seq.length >= FINISH_IN_WORKER_MIN) {
+    try {
+      return await analysis.finishSummary({
+        capture: capture.get({ plain: true }),
+        dut: dut ? dut.get({ plain: true }) : null,
+        series,
+      });
+    } catch (err) {
+      if (err instanceof AppError) throw err;
+      series = await loadSeries(client, capture.id);
+    }
   }
+  await turn();
+  const summary = await finishSummary(capture, dut, series, turn);
+  return { json: JSON.stringify(summary), series };
 }
 
 /**
  * Closes a capture: from then on it takes no readings. Computes and caches its summary
  * (statistics, correction, stability, uncertainty budget) once; the chart tiles are kept by ingest. Finishing a
- * finished capture returns it unchanged.
+ * finished capture returns it unchanged. `analysis`: the pool whose worker computes the summary.
  */
-export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser, id: number) {
+export async function finishCapture(
+  pool: pg.Pool,
+  hub: LiveHub,
+  user: AuthUser,
+  id: number,
+  analysis?: AnalysisPool,
+) {
   await assertStudyWritable('capture', id, 'finishing a capture');
   const client = await pool.connect();
   let changed = false;
@@ -73,12 +91,14 @@ export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser,
     if (isRecording(from)) {
       const capture = (await Capture.findByPk(id))!;
       const dut = await Dut.findByPk(capture.dutId);
-      const series = await loadSeries(client, id);
       capture.state = 'finished';
-      await turn();
-      const summary = await reduceOrExplain(capture, dut, series);
-      const implausible = implausibleNote(series.flags);
-      if (implausible) summary.notes.push(implausible);
+      const { json, series } = await summaryOf(
+        client,
+        capture,
+        dut,
+        await loadSeries(client, id),
+        analysis,
+      );
       // No tile rebuild: every statement that adds readings has already merged them into the
       // capture's tiles (the trigger of migrations 0110/0230/0300, or the ingest's own merge of a
       // COPY), and readings are never changed or deleted while the capture lives, so the tiles
@@ -87,12 +107,7 @@ export async function finishCapture(pool: pg.Pool, hub: LiveHub, user: AuthUser,
       await client.query(
         `UPDATE captures SET state = 'finished', ended_at = now(), updated_at = now(), summary = $2::jsonb,
            reading_count = $3, highest_seq = $4 WHERE id = $1`,
-        [
-          id,
-          JSON.stringify(summary),
-          series.seq.length,
-          series.seq.length ? series.seq[series.seq.length - 1] : -1,
-        ],
+        [id, json, series.seq.length, series.seq.length ? series.seq[series.seq.length - 1] : -1],
       );
       // The seal: SHA-256 of the raw readings in the canonical serialisation (seal.ts).
       const seal = await sealOfSliced(series);
