@@ -123,19 +123,13 @@ export function createApp(ctx: AppContext): Express {
   api.use('/duts', dutDeleteRouter());
   api.use('/captures', captureEvidenceRouter());
   // Readings logged elsewhere (issue 12): multipart, parsed as it streams; before `/:id`.
-  api.use('/captures', captureImportRouter(ctx.db.pool, ctx.hub ?? silentHub));
+  // One analysis pool for the capture routes and the import's finish (its workers start on use).
+  const analysis = ctx.analysis ?? new AnalysisPool(ctx.db.url);
+  api.use('/captures', captureImportRouter(ctx.db.pool, ctx.hub ?? silentHub, analysis));
   // The comparison workbench's overlay and exports (issue 12); `/stability` before `/:id`.
   api.use('/captures', workbenchCapturesRouter(ctx.db.pool));
   api.use('/studies', workbenchStudiesRouter());
-  api.use(
-    '/captures',
-    capturesRouter(
-      ctx.db.pool,
-      ctx.hub ?? silentHub,
-      ctx.analysis ?? new AnalysisPool(ctx.db.url),
-      ctx.replica,
-    ),
-  );
+  api.use('/captures', capturesRouter(ctx.db.pool, ctx.hub ?? silentHub, analysis, ctx.replica));
   api.use('/comparisons', comparisonsRouter(ctx.db.pool));
   // Review and the record (issue 11): workflow, audit, seals, attachments, outbox.
   const store =

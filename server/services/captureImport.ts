@@ -22,6 +22,7 @@ import type { AuthUser } from './auth.js';
 import { createCapture } from './captures.js';
 import { ingestReadings } from './ingest.js';
 import { finishCapture } from './finish.js';
+import type { AnalysisPool } from '../analysis/pool.js';
 import { assertStudyWritable } from './studyLock.js';
 
 /** Progress of running imports by the client's key; kept a few minutes after the end. */
@@ -216,6 +217,7 @@ export async function importCapture(
   user: AuthUser,
   req: Request,
   res: Response,
+  analysis?: AnalysisPool,
 ): Promise<CaptureImportResult> {
   if (!req.is('multipart/form-data')) {
     throw new ValidationError(
@@ -286,7 +288,7 @@ export async function importCapture(
       track(key, user.id, { stored: to });
     }
     track(key, user.id, { phase: 'finishing' });
-    await finishCapture(pool, hub, user, id);
+    await finishCapture(pool, hub, user, id, analysis);
   } catch (err) {
     track(key, user.id, { phase: 'failed' });
     await pool.query('DELETE FROM captures WHERE id = $1', [id]).catch(() => {});
