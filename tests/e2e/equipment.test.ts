@@ -37,10 +37,19 @@ async function pickDate(
   value: string,
 ): Promise<void> {
   const input = scope.locator(`input[aria-label="${label}"]`);
-  await input.fill(value);
-  await input.press('Enter');
-  // Close the picker's panel without Escape (which would close the dialog too).
-  await scope.locator('.el-dialog__title').click();
+  // On a loaded machine the picker can still be opening when the date is typed and then drop it;
+  // type it again until the field holds it.
+  await expect
+    .poll(async () => {
+      if ((await input.inputValue()) !== value) {
+        await input.fill(value);
+        await input.press('Enter');
+        // Close the picker's panel without Escape (which would close the dialog too).
+        await scope.locator('.el-dialog__title').click();
+      }
+      return input.inputValue();
+    })
+    .toBe(value);
   void page;
 }
 
