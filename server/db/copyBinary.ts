@@ -52,19 +52,22 @@ export function readingsCopyRows(
 ): Buffer {
   const n = seq.length;
   const buf = Buffer.allocUnsafe(n * ROW_BYTES);
+  // DataView's setters (big-endian by default) are inlined by V8; Buffer's write*BE methods check
+  // their arguments on every call and cost about twice as much per row here.
+  const dv = new DataView(buf.buffer, buf.byteOffset, buf.byteLength);
   let o = 0;
   for (let i = 0; i < n; i++) {
-    buf.writeInt16BE(5, o);
-    buf.writeInt32BE(4, o + 2);
-    buf.writeInt32BE(captureId, o + 6);
-    buf.writeInt32BE(4, o + 10);
-    buf.writeInt32BE(seq[i], o + 14);
-    buf.writeInt32BE(8, o + 18);
-    buf.writeDoubleBE(t[i], o + 22);
-    buf.writeInt32BE(8, o + 30);
-    buf.writeDoubleBE(value[i], o + 34);
-    buf.writeInt32BE(2, o + 42);
-    buf.writeInt16BE(flags[i], o + 46);
+    dv.setInt16(o, 5);
+    dv.setInt32(o + 2, 4);
+    dv.setInt32(o + 6, captureId);
+    dv.setInt32(o + 10, 4);
+    dv.setInt32(o + 14, seq[i]);
+    dv.setInt32(o + 18, 8);
+    dv.setFloat64(o + 22, t[i]);
+    dv.setInt32(o + 30, 8);
+    dv.setFloat64(o + 34, value[i]);
+    dv.setInt32(o + 42, 2);
+    dv.setInt16(o + 46, flags[i]);
     o += ROW_BYTES;
   }
   return buf;
