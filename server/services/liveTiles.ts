@@ -15,6 +15,20 @@ export interface BatchTiles {
   maxValue: number[];
 }
 
+/** A tile set holding no tile: where every set built here starts. */
+export function emptyTiles(): BatchTiles {
+  return {
+    level: [],
+    bucket: [],
+    minSeq: [],
+    minT: [],
+    minValue: [],
+    maxSeq: [],
+    maxT: [],
+    maxValue: [],
+  };
+}
+
 /**
  * The min/max tiles of one batch of readings in strictly increasing seq order, at levels 0…20:
  * per bucket the lowest reading and the highest reading, ties going to the smallest seq — the
@@ -29,28 +43,12 @@ export function tilesOfBatch(
   t: ArrayLike<number>,
   value: ArrayLike<number>,
 ): BatchTiles {
-  const out: BatchTiles = {
-    level: [],
-    bucket: [],
-    minSeq: [],
-    minT: [],
-    minValue: [],
-    maxSeq: [],
-    maxT: [],
-    maxValue: [],
-  };
+  const out = emptyTiles();
   const n = seq.length;
   if (n === 0) return out;
   // Level 0, from the readings (seq order: a strict comparison keeps the smallest seq on ties).
-  let cur = {
-    bucket: [] as number[],
-    minSeq: [] as number[],
-    minT: [] as number[],
-    minValue: [] as number[],
-    maxSeq: [] as number[],
-    maxT: [] as number[],
-    maxValue: [] as number[],
-  };
+  // One level's buckets, lowest first (`level` stays empty: they all share the level).
+  let cur = emptyTiles();
   let last = -1;
   for (let i = 0; i < n; i++) {
     const b = Math.floor(seq[i] / TILE_BASE);
@@ -92,15 +90,7 @@ export function tilesOfBatch(
     if (level === TILE_TOP_LEVEL) return out;
     // The next level up: buckets in increasing order, so the earlier tile holds the smaller seqs
     // and a strict comparison again keeps the smallest seq on ties.
-    const up: typeof cur = {
-      bucket: [],
-      minSeq: [],
-      minT: [],
-      minValue: [],
-      maxSeq: [],
-      maxT: [],
-      maxValue: [],
-    };
+    const up = emptyTiles();
     for (let k = 0; k < cur.bucket.length; k++) {
       const b = Math.floor(cur.bucket[k] / 2);
       const j = up.bucket.length - 1;
@@ -140,16 +130,7 @@ export function tilesOfBatch(
  */
 export function mergeBatchTiles(parts: readonly BatchTiles[]): BatchTiles {
   if (parts.length === 1) return parts[0];
-  const out: BatchTiles = {
-    level: [],
-    bucket: [],
-    minSeq: [],
-    minT: [],
-    minValue: [],
-    maxSeq: [],
-    maxT: [],
-    maxValue: [],
-  };
+  const out = emptyTiles();
   const at = parts.map(() => 0);
   for (let level = 0; level <= TILE_TOP_LEVEL; level++) {
     for (let p = 0; p < parts.length; p++) {
