@@ -4,6 +4,7 @@ import { Readable } from 'node:stream';
 import { from as copyFrom } from 'pg-copy-streams';
 import { COPY_BINARY_HEADER, COPY_BINARY_TRAILER, readingsCopyRows } from '../db/copyBinary.js';
 import { mergeBatchTiles, tilesOfBatch, type BatchTiles } from './liveTiles.js';
+import { TILE_MERGE_ON_CONFLICT } from '../db/tileMerge.js';
 import { isRecording } from '../../shared/protocol/captureLifecycle.js';
 import { LOCKED_STATUSES, studyLockedError } from './studyLock.js';
 
@@ -107,8 +108,8 @@ const num = (x: number): string => (Object.is(x, -0) ? '-0' : String(x));
 const arr = (xs: number[], type: string): string => `'{${xs.map(num).join(',')}}'::${type}[]`;
 
 /**
- * The tile merge of the batches (computed in Node: the trigger's ON CONFLICT rule, migration
- * 0110), the capture's counters, and COMMIT — one simple-protocol query. Every number is finite
+ * The tile merge of the batches (computed in Node, merged by the trigger's rule: an unchanged
+ * tile is not rewritten — server/db/tileMerge.ts), the capture's counters, and COMMIT — one simple-protocol query. Every number is finite
  * (the ingest refuses others) and printed in its shortest round-trip form, which PostgreSQL's
  * float8 input reads back to the same double.
  */
@@ -124,13 +125,7 @@ function mergeAndCommitSql(
      SELECT ${id}, u.* FROM unnest(${arr(t.level, 'int2')}, ${arr(t.bucket, 'int')}, ${arr(t.minSeq, 'int')}, ${arr(t.minT, 'float8')},
        ${arr(t.minValue, 'float8')}, ${arr(t.maxSeq, 'int')}, ${arr(t.maxT, 'float8')}, ${arr(t.maxValue, 'float8')})
        AS u(level, bucket, min_seq, min_t, min_value, max_seq, max_t, max_value)
-     ON CONFLICT (capture_id, level, bucket) DO UPDATE SET
-       min_seq = CASE WHEN (EXCLUDED.min_value, EXCLUDED.min_seq) < (rt.min_value, rt.min_seq) THEN EXCLUDED.min_seq ELSE rt.min_seq END,
-       min_t = CASE WHEN (EXCLUDED.min_value, EXCLUDED.min_seq) < (rt.min_value, rt.min_seq) THEN EXCLUDED.min_t ELSE rt.min_t END,
-       min_value = LEAST(EXCLUDED.min_value, rt.min_value),
-       max_seq = CASE WHEN EXCLUDED.max_value > rt.max_value OR (EXCLUDED.max_value = rt.max_value AND EXCLUDED.max_seq < rt.max_seq) THEN EXCLUDED.max_seq ELSE rt.max_seq END,
-       max_t = CASE WHEN EXCLUDED.max_value > rt.max_value OR (EXCLUDED.max_value = rt.max_value AND EXCLUDED.max_seq < rt.max_seq) THEN EXCLUDED.max_t ELSE rt.max_t END,
-       max_value = GREATEST(EXCLUDED.max_value, rt.max_value))
+     ${TILE_MERGE_ON_CONFLICT})
    UPDATE captures SET reading_count = reading_count + ${idLiteral(count)}, highest_seq = GREATEST(highest_seq, ${idLiteral(maxSeq)}),
      updated_at = now(), last_reading_at = now(), state = 'open'
    WHERE id = ${id} RETURNING highest_seq; COMMIT`;
