@@ -148,25 +148,11 @@ export function verifyToken(token: string, secret: string): jwt.JwtPayload {
   }
 }
 
-/**
- * Verifies a bearer token and loads its user (one indexed query, on every request), so a
- * deactivated user's token stops working at once, and so does a token issued before the user's
- * token version moved on (sign-out, password or role change, deactivation).
- */
-export async function userFromToken(
-  token: string,
-  secret: string,
-  pool: pg.Pool,
-): Promise<AuthUser> {
-  const claims = verifyToken(token, secret);
-  const id = Number(claims.sub);
-  const found = Number.isInteger(id)
-    ? await pool.query<UserRow>(
-        'SELECT id, email, name, role, active, token_version, must_change_password FROM users WHERE id = $1',
-        [id],
-      )
-    : null;
-  const user = found?.rows[0];
+const USER_ROW_SQL =
+  'SELECT id, email, name, role, active, token_version, must_change_password FROM users WHERE id = $1';
+
+/** The session checks on a user row read for `claims`: the user, or the 401 that ends it. */
+function sessionOf(claims: jwt.JwtPayload, user: UserRow | undefined): AuthUser {
   if (!user) throw new UnauthorizedError('unauthorized', 'The sign-in token is not valid.');
   if (!user.active)
     throw new UnauthorizedError('account-disabled', 'This account has been deactivated.');
@@ -183,6 +169,107 @@ export async function userFromToken(
     role: user.role,
     mustChangePassword: user.must_change_password,
   };
+}
+
+/**
+ * Verifies a bearer token and loads its user (one indexed query, on every request), so a
+ * deactivated user's token stops working at once, and so does a token issued before the user's
+ * token version moved on (sign-out, password or role change, deactivation).
+ */
+export async function userFromToken(
+  token: string,
+  secret: string,
+  pool: pg.Pool,
+): Promise<AuthUser> {
+  const claims = verifyToken(token, secret);
+  const id = Number(claims.sub);
+  const found = Number.isInteger(id) ? await pool.query<UserRow>(USER_ROW_SQL, [id]) : null;
+  return sessionOf(claims, found?.rows[0]);
+}
+
+/** A look-up of one user row not sent yet, and everyone waiting for it. */
+interface Waiting {
+  promise: Promise<UserRow | undefined>;
+  resolve(row: UserRow | undefined): void;
+  reject(err: unknown): void;
+}
+/** Per (user id, token version): whether a look-up is in flight, and the one gathering callers. */
+interface Flight {
+  running: boolean;
+  next: Waiting | null;
+}
+const flights = new WeakMap<pg.Pool, Map<string, Flight>>();
+
+/** Users-row queries sent by userFromTokenShared (tests count them against the checks asked). */
+export const sharedSessionStats = { checks: 0, queries: 0 };
+
+function startLookup(
+  pool: pg.Pool,
+  byKey: Map<string, Flight>,
+  key: string,
+  flight: Flight,
+  id: number,
+): void {
+  const batch = flight.next!;
+  flight.next = null;
+  flight.running = true;
+  sharedSessionStats.queries++;
+  pool.query<UserRow>(USER_ROW_SQL, [id]).then(
+    (res) => batch.resolve(res.rows[0]),
+    (err) => batch.reject(err),
+  );
+  batch.promise
+    .catch(() => {})
+    .finally(() => {
+      flight.running = false;
+      // Callers that arrived while this look-up was in flight share the next one, sent now.
+      if (flight.next) startLookup(pool, byKey, key, flight, id);
+      else byKey.delete(key);
+    });
+}
+
+/**
+ * userFromToken for a stream of checks of one session, as the readings frames of a socket are
+ * (server/ws/uploads.ts): the same checks and errors, but the checks of one user and token
+ * version that arrive in the same event-loop turn share ONE users query, sent once the turn's
+ * I/O has been read (setImmediate); checks arriving while that query is in flight wait for and
+ * share the next one, sent when it returns. A query is never sent before a check that uses it
+ * arrived, so every check sees the row as committed after it arrived: a role change, a
+ * deactivation or a sign-out takes effect for the first check that arrives after it, never a
+ * row remembered from an earlier turn. HTTP requests keep userFromToken (one query each).
+ */
+export async function userFromTokenShared(
+  token: string,
+  secret: string,
+  pool: pg.Pool,
+): Promise<AuthUser> {
+  const claims = verifyToken(token, secret);
+  const id = Number(claims.sub);
+  if (!Number.isInteger(id)) return sessionOf(claims, undefined);
+  sharedSessionStats.checks++;
+  let byKey = flights.get(pool);
+  if (!byKey) flights.set(pool, (byKey = new Map()));
+  const key = `${id}:${claims.tv ?? 0}`;
+  let flight = byKey.get(key);
+  if (!flight) byKey.set(key, (flight = { running: false, next: null }));
+  if (!flight.next) {
+    let resolve!: Waiting['resolve'];
+    let reject!: Waiting['reject'];
+    const promise = new Promise<UserRow | undefined>((res, rej) => {
+      resolve = res;
+      reject = rej;
+    });
+    flight.next = { promise, resolve, reject };
+    // Not in flight: send it after this turn's other checks joined. In flight: startLookup
+    // sends it when the running one returns.
+    if (!flight.running) {
+      const started = flight;
+      setImmediate(() => {
+        if (!started.running && started.next) startLookup(pool, byKey, key, started, id);
+      });
+    }
+  }
+  return sessionOf(claims, await flight.next!.promise);
 }
 
 /** Signs out: every token of the user stops working (the token version moves on). */

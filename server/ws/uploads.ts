@@ -1,7 +1,7 @@
 import type pg from 'pg';
 import type { Logger } from 'pino';
 import { AppError, ForbiddenError } from '../errors.js';
-import { userFromToken } from '../services/auth.js';
+import { userFromTokenShared } from '../services/auth.js';
 import { ingestReadings } from '../services/ingest.js';
 import type { LiveHub } from '../services/liveHub.js';
 import { parse } from '../middleware/validate.js';
@@ -52,8 +52,10 @@ function refusalOf(err: unknown, log?: Logger): Refusal {
 /**
  * Readings batches sent as binary frames on `/ws` (shared/protocol/liveUpload.ts). Each frame goes
  * through the checks of `POST /api/captures/:id/readings` in the same order — the session (token
- * signature, expiry, account active, token version, forced password change, re-read from the
- * database for every frame, never a role remembered from the upgrade), the role, the capture id —
+ * signature, expiry, account active, token version, forced password change, read from the
+ * database after the frame arrived, never a role remembered from the upgrade or an earlier turn;
+ * the frames of one session arriving together share one users query: userFromTokenShared), the
+ * role, the capture id —
  * and then into the same `ingestReadings`, so every rule of the ingest stays in one place. The
  * answer is a `readings-ack` with the IngestResult or a `readings-refused` carrying the HTTP
  * route's status, code and message. A socket whose session ended is told so and then closed.
@@ -99,7 +101,7 @@ export function createUploadHandler(deps: {
     }
     peer.uploadsInFlight++;
     try {
-      const user = await userFromToken(peer.token, jwtSecret, pool);
+      const user = await userFromTokenShared(peer.token, jwtSecret, pool);
       if (user.mustChangePassword)
         throw new AppError(
           403,

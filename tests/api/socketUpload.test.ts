@@ -446,3 +446,138 @@ describe('readings uploaded on the live socket', () => {
     tokens.engineer = await login('engineer');
   });
 });
+
+// The session check of socket frames (server/services/auth.ts userFromTokenShared): the frames of
+// one session that arrive together share one users query, and every frame is still checked
+// against the row as it is after the frame arrived.
+describe('session checks of readings frames', () => {
+  /** Counts the users-row queries the server's pool sends while `run` runs. */
+  async function usersQueries<T>(run: () => Promise<T>): Promise<{ result: T; queries: number }> {
+    const pool = server.db.pool;
+    const original = pool.query;
+    let queries = 0;
+    pool.query = function (this: typeof pool, ...args: unknown[]) {
+      const text = typeof args[0] === 'string' ? args[0] : (args[0] as { text?: string })?.text;
+      if (typeof text === 'string' && /FROM users WHERE id = \$1/.test(text)) queries++;
+      return (original as (...a: unknown[]) => unknown).apply(this, args);
+    } as typeof pool.query;
+    try {
+      return { result: await run(), queries };
+    } finally {
+      pool.query = original;
+    }
+  }
+
+  it('checks a burst of frames from two sockets of one session with one or two users queries, not one per frame', async () => {
+    const id = await newCapture();
+    const a = await rawSocket('technician');
+    const b = await rawSocket('technician');
+    const frames = MAX_UPLOADS_IN_FLIGHT;
+    // Sent together: the server reads them in the same turn or while the first look-up runs.
+    const burst = await usersQueries(async () => {
+      for (let k = 0; k < frames; k++) {
+        a.ws.send(encodeUploadFrame(300 + k, id, readings(k * 10, 10)));
+        b.ws.send(encodeUploadFrame(400 + k, id, readings(1000 + k * 10, 10)));
+      }
+      return Promise.all([
+        ...Array.from({ length: frames }, (_, k) => a.answer(300 + k)),
+        ...Array.from({ length: frames }, (_, k) => b.answer(400 + k)),
+      ]);
+    });
+    for (const m of burst.result) expect(m).toMatchObject({ type: 'readings-ack', accepted: 10 });
+    // One per frame (16) before frames shared their look-up.
+    expect(burst.queries).toBeGreaterThanOrEqual(1);
+    expect(burst.queries).toBeLessThanOrEqual(2);
+
+    // While a look-up is held up inside PostgreSQL, every frame arriving meanwhile waits for and
+    // shares the next one: exactly two queries for the whole burst.
+    const holder = await server.db.pool.connect();
+    try {
+      const held = await usersQueries(async () => {
+        await holder.query('BEGIN');
+        await holder.query('LOCK TABLE users IN ACCESS EXCLUSIVE MODE');
+        a.ws.send(encodeUploadFrame(500, id, readings(2000, 10)));
+        // The first look-up is now sent and waits on the lock; the rest arrive behind it.
+        await new Promise((r) => setTimeout(r, 100));
+        for (let k = 1; k < frames; k++) {
+          a.ws.send(encodeUploadFrame(500 + k, id, readings(2000 + k * 10, 10)));
+          b.ws.send(encodeUploadFrame(600 + k, id, readings(3000 + k * 10, 10)));
+          await new Promise((r) => setTimeout(r, 5));
+        }
+        await new Promise((r) => setTimeout(r, 100));
+        // Nothing answered while the users row cannot be read.
+        expect(a.messages.some((m) => m.type === 'readings-ack' && m.id === 500)).toBe(false);
+        await holder.query('COMMIT');
+        return Promise.all([
+          ...Array.from({ length: frames }, (_, k) => a.answer(500 + k)),
+          ...Array.from({ length: frames - 1 }, (_, k) => b.answer(601 + k)),
+        ]);
+      });
+      for (const m of held.result) expect(m).toMatchObject({ type: 'readings-ack', accepted: 10 });
+      expect(held.queries).toBe(2);
+    } finally {
+      await holder.query('ROLLBACK').catch(() => {});
+      holder.release();
+    }
+    expect(await stored(id)).toMatchObject({ n: 2 * frames * 10 + (2 * frames - 1) * 10 });
+    a.ws.close();
+    b.ws.close();
+  });
+
+  it('honours a role change made between two bursts for every frame of the second', async () => {
+    const created = await api('admin', 'POST', '/api/users', {
+      email: 'burst-operator@kestrelbay.example',
+      name: 'Burst Operator',
+      role: 'technician',
+      password: 'burst-operator-passphrase-1',
+    });
+    expect(created.status, JSON.stringify(created.body)).toBe(201);
+    const userId = created.body.user.id as number;
+    const res = await fetch(`${server.url}/api/auth/login`, {
+      method: 'POST',
+      headers: { 'content-type': 'application/json' },
+      body: JSON.stringify({
+        email: 'burst-operator@kestrelbay.example',
+        password: 'burst-operator-passphrase-1',
+      }),
+    });
+    tokens.burst = ((await res.json()) as { token: string }).token;
+    const id = await newCapture('burst');
+    const peer = await rawSocket('burst');
+    const burst = async (first: number, from: number) => {
+      for (let k = 0; k < 4; k++)
+        peer.ws.send(encodeUploadFrame(first + k, id, readings(from + k * 10, 10)));
+      return Promise.all(Array.from({ length: 4 }, (_, k) => peer.answer(first + k)));
+    };
+    for (const m of await burst(1, 0))
+      expect(m).toMatchObject({ type: 'readings-ack', accepted: 10 });
+
+    // The role as stored now, with the token still valid: a viewer may not record.
+    const demoted = await server.db.pool.query("UPDATE users SET role = 'viewer' WHERE id = $1", [
+      userId,
+    ]);
+    expect(demoted.rowCount).toBe(1);
+    for (const m of await burst(11, 40))
+      expect(refusalOf(m)).toMatchObject({ status: 403, code: 'forbidden' });
+    await server.db.pool.query("UPDATE users SET role = 'technician' WHERE id = $1", [userId]);
+    for (const m of await burst(21, 40))
+      expect(m).toMatchObject({ type: 'readings-ack', accepted: 10 });
+
+    // An admin's role change through the API revokes the session: every frame after it is refused.
+    const closed = new Promise<number>((resolve) => peer.ws.on('close', (code) => resolve(code)));
+    const patched = await api('admin', 'PATCH', `/api/users/${userId}`, { role: 'engineer' });
+    expect(patched.status, JSON.stringify(patched.body)).toBe(200);
+    for (let k = 0; k < 4; k++)
+      peer.ws.send(encodeUploadFrame(31 + k, id, readings(80 + k * 10, 10)));
+    expect(await closed).toBe(4401);
+    // The socket closes after the first refusal (the refusal goes first, on the same connection);
+    // whatever of the burst was answered was refused.
+    const late = peer.messages.filter(
+      (m) => (m.type === 'readings-ack' || m.type === 'readings-refused') && m.id >= 31,
+    );
+    expect(late.length).toBeGreaterThanOrEqual(1);
+    for (const m of late)
+      expect(refusalOf(m)).toMatchObject({ status: 401, code: 'session-ended' });
+    expect(await stored(id)).toMatchObject({ n: 80, lo: 0, hi: 79 });
+  });
+});
