@@ -1,53 +1,21 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { pino } from 'pino';
-import { createApp } from '../../server/app.js';
 import { AnalysisPool } from '../../server/analysis/pool.js';
 import { MAX_RAW_READINGS } from '../../server/routes/captures.js';
-import { createTestApp, TEST_JWT_SECRET, type TestApp } from '../helpers/app.js';
-import { demoIds, seeded } from '../helpers/demo.js';
+import { seeded } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { ReadingFlag } from '../../shared/protocol/reading.js';
 import { PlausibilityWindow } from '../../shared/protocol/plausibility.js';
 
 // Issue 10, items 2 and 7: analyses run in worker threads, cached per reading count and
 // coalesced; raw reads are paged; implausible readings are flagged at ingest, left out of the
 // analysis, and a capture can always be finished.
-let t: TestApp;
-let analysis: AnalysisPool;
-let app: ReturnType<typeof createApp>;
-let token: string;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = () => ({ authorization: `Bearer ${token}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-  // openFreshMs 0: every new reading makes the next answer a fresh computation.
-  analysis = new AnalysisPool(t.db.url, 1, { openFreshMs: 0 });
-  app = createApp({
-    db: t.db,
-    jwtSecret: TEST_JWT_SECRET,
-    log: pino({ level: 'silent' }),
-    analysis,
-  });
-  token = await t.tokenFor('lead');
-  ids = await demoIds(app, token);
-});
-afterAll(async () => {
-  await analysis.close();
-  await t.close();
-});
-
-async function openCapture(): Promise<number> {
-  const res = await request(app).post('/api/captures').set(auth()).send({
-    dutId: ids.crystal.id,
-    checkpointId: ids.checkpoints[0],
-    quantity: 'frequency',
-    unit: 'Hz',
-    gateTime: 1,
-  });
-  expect(res.status).toBe(201);
-  return res.body.id;
-}
+// openFreshMs 0: every new reading makes the next answer a fresh computation.
+const demo = useDemoApp({}, { analysis: { openFreshMs: 0 } });
+const analysis = () => demo.t.analysis!;
+const lead = () => demo.auth('lead');
+const get = (path: string) => demo.call('lead', 'get', path);
+const openCapture = () => demo.newCapture('lead');
 
 async function send(id: number, from: number, n: number, value: (seq: number) => number) {
   const readings = Array.from({ length: n }, (_, i) => ({
@@ -55,10 +23,7 @@ async function send(id: number, from: number, n: number, value: (seq: number) =>
     t: from + i,
     value: value(from + i),
   }));
-  const res = await request(app)
-    .post(`/api/captures/${id}/readings`)
-    .set(auth())
-    .send({ readings });
+  const res = await demo.postReadings(id, readings, 'lead');
   expect(res.status).toBe(200);
   return res.body;
 }
@@ -70,29 +35,29 @@ describe('analysis off the event loop (item 2)', () => {
   it('coalesces concurrent requests for one capture into one computation, then serves the cache until readings arrive', async () => {
     const id = await openCapture();
     await send(id, 0, 5000, steady);
-    const before = { ...analysis.stats };
+    const before = { ...analysis().stats };
     const answers = await Promise.all(
-      Array.from({ length: 4 }, () => request(app).get(`/api/captures/${id}/analysis`).set(auth())),
+      Array.from({ length: 4 }, () => get(`/api/captures/${id}/analysis`)),
     );
     for (const a of answers) {
       expect(a.status).toBe(200);
       expect(a.body.counts.total).toBe(5000);
     }
-    expect(analysis.stats.computed - before.computed).toBe(1);
-    expect(analysis.stats.coalesced - before.coalesced).toBe(3);
+    expect(analysis().stats.computed - before.computed).toBe(1);
+    expect(analysis().stats.coalesced - before.coalesced).toBe(3);
 
-    const again = await request(app).get(`/api/captures/${id}/analysis`).set(auth());
+    const again = await get(`/api/captures/${id}/analysis`);
     expect(again.body).toEqual(answers[0].body);
-    expect(analysis.stats.cacheHits - before.cacheHits).toBe(1);
+    expect(analysis().stats.cacheHits - before.cacheHits).toBe(1);
 
     await send(id, 5000, 1000, steady);
-    const later = await request(app).get(`/api/captures/${id}/analysis`).set(auth());
+    const later = await get(`/api/captures/${id}/analysis`);
     expect(later.body.counts.total).toBe(6000);
-    expect(analysis.stats.computed - before.computed).toBe(2);
+    expect(analysis().stats.computed - before.computed).toBe(2);
   });
 
   it('answers a 404 and a 422 from the worker as the API always did', async () => {
-    expect((await request(app).get('/api/captures/999999/analysis').set(auth())).status).toBe(404);
+    expect((await get('/api/captures/999999/analysis')).status).toBe(404);
   });
 
   it('pages raw reads: at most MAX_RAW_READINGS per answer, with nextFrom to continue', async () => {
@@ -100,14 +65,14 @@ describe('analysis off the event loop (item 2)', () => {
     const total = MAX_RAW_READINGS + 2500;
     for (let from = 0; from < total; from += 20_000)
       await send(id, from, Math.min(20_000, total - from), steady);
-    const first = await request(app).get(`/api/captures/${id}/readings`).set(auth());
+    const first = await get(`/api/captures/${id}/readings`);
     expect(first.status).toBe(200);
     expect(first.body.readings).toHaveLength(MAX_RAW_READINGS);
     expect(first.body.nextFrom).toBe(MAX_RAW_READINGS);
-    const rest = await request(app)
+    const rest = await request(demo.t.app)
       .get(`/api/captures/${id}/readings`)
       .query({ from: first.body.nextFrom })
-      .set(auth());
+      .set(await lead());
     expect(rest.body.readings).toHaveLength(2500);
     expect(rest.body.nextFrom).toBeNull();
     expect(rest.body.readings[0].seq).toBe(MAX_RAW_READINGS);
@@ -131,24 +96,24 @@ describe('implausible readings (item 7)', () => {
   it('flags 1e308 at ingest, keeps it, leaves it out of the analysis, names the rule, and finishes', async () => {
     const id = await openCapture();
     await send(id, 0, 2000, (seq) => (seq === 1234 ? 1e308 : steady()));
-    const stored = await t.db.pool.query(
+    const stored = await demo.t.db.pool.query(
       'SELECT value, flags FROM readings WHERE capture_id = $1 AND seq = 1234',
       [id],
     );
     expect(stored.rows[0].value).toBe(1e308);
     expect(stored.rows[0].flags & ReadingFlag.implausible).toBe(ReadingFlag.implausible);
 
-    const a = await request(app).get(`/api/captures/${id}/analysis`).set(auth());
+    const a = await get(`/api/captures/${id}/analysis`);
     expect(a.status).toBe(200);
     expect(a.body.counts.used).toBeLessThanOrEqual(1999);
     expect(a.body.stats.mean).toBeGreaterThan(16e6 - 1);
     expect(a.body.stats.mean).toBeLessThan(16e6 + 1);
     expect(a.body.notes.join(' ')).toMatch(/implausible at ingest/);
 
-    const fin = await request(app).post(`/api/captures/${id}/finish`).set(auth());
+    const fin = await demo.call('lead', 'post', `/api/captures/${id}/finish`);
     expect(fin.status).toBe(200);
     expect(fin.body.state).toBe('finished');
-    const after = await request(app).get(`/api/captures/${id}/analysis`).set(auth());
+    const after = await get(`/api/captures/${id}/analysis`);
     expect(after.status).toBe(200);
     expect(after.body.notes.join(' ')).toMatch(/1 reading\(s\) flagged implausible/);
   });
@@ -156,18 +121,11 @@ describe('implausible readings (item 7)', () => {
   it('finishes even when readings the analysis refuses reached the database another way', async () => {
     const id = await openCapture();
     // Straight into the table, as an import or an older server might have stored them.
-    await t.db.pool.query(
-      `INSERT INTO readings (capture_id, seq, t, value, flags) SELECT $1, s, s, CASE WHEN s = 5 THEN 1e308 ELSE 16e6 + s * 1e-3 END, 0 FROM generate_series(0, 99) s`,
-      [id],
-    );
-    await t.db.pool.query(
-      'UPDATE captures SET reading_count = 100, highest_seq = 99 WHERE id = $1',
-      [id],
-    );
-    const fin = await request(app).post(`/api/captures/${id}/finish`).set(auth());
+    await demo.storeStraight(id, 100, 'CASE WHEN s = 5 THEN 1e308 ELSE 16e6 + s * 1e-3 END');
+    const fin = await demo.call('lead', 'post', `/api/captures/${id}/finish`);
     expect(fin.status).toBe(200);
     expect(fin.body.state).toBe('finished');
-    const a = await request(app).get(`/api/captures/${id}/analysis`).set(auth());
+    const a = await get(`/api/captures/${id}/analysis`);
     expect(a.status).toBe(200);
     expect(a.body.counts.total).toBe(100);
   });
@@ -176,31 +134,34 @@ describe('implausible readings (item 7)', () => {
 describe('an open capture polled while it grows (item 2)', () => {
   it('serves a recent answer for a few seconds and says which reading count it covers', async () => {
     // A pool that keeps an open capture's answer for a minute, as a busy server would for seconds.
-    const slow = new AnalysisPool(t.db.url, 1, { openFreshMs: 60_000 });
-    const slowApp = createApp({
-      db: t.db,
-      jwtSecret: TEST_JWT_SECRET,
-      log: pino({ level: 'silent' }),
-      analysis: slow,
-    });
+    const slow = new AnalysisPool(demo.t.db.url, 1, { openFreshMs: 60_000 });
+    const slowApp = demo.t.appWith({ analysis: slow });
     try {
       const id = await openCapture();
       await send(id, 0, 3000, steady);
-      const first = await request(slowApp).get(`/api/captures/${id}/analysis`).set(auth());
+      const first = await request(slowApp)
+        .get(`/api/captures/${id}/analysis`)
+        .set(await lead());
       expect(first.status).toBe(200);
       expect(first.body.coverage.readings).toBe(3000);
       expect(first.body.coverage.captureReadings).toBe(3000);
       expect(Number.isNaN(Date.parse(first.body.coverage.computedAt))).toBe(false);
 
       await send(id, 3000, 500, steady);
-      const stale = await request(slowApp).get(`/api/captures/${id}/analysis`).set(auth());
+      const stale = await request(slowApp)
+        .get(`/api/captures/${id}/analysis`)
+        .set(await lead());
       expect(stale.body.counts.total).toBe(3000);
       expect(stale.body.coverage).toEqual({ ...first.body.coverage, captureReadings: 3500 });
       expect(slow.stats.computed).toBe(1);
 
       // Once finished, the answer covers every reading (a finished capture is never served stale).
-      await request(slowApp).post(`/api/captures/${id}/finish`).set(auth());
-      const done = await request(slowApp).get(`/api/captures/${id}/analysis`).set(auth());
+      await request(slowApp)
+        .post(`/api/captures/${id}/finish`)
+        .set(await lead());
+      const done = await request(slowApp)
+        .get(`/api/captures/${id}/analysis`)
+        .set(await lead());
       expect(done.body.coverage.readings).toBe(3500);
       expect(done.body.coverage.captureReadings).toBe(3500);
     } finally {
@@ -213,7 +174,7 @@ describe('an open capture polled while it grows (item 2)', () => {
     async () => {
       const id = await openCapture();
       await send(id, 0, 100, steady);
-      expect((await request(app).get(`/api/captures/${id}/analysis`).set(auth())).status).toBe(200);
+      expect((await get(`/api/captures/${id}/analysis`)).status).toBe(200);
       const { readdirSync, readFileSync } = await import('node:fs');
       // Field 19 of /proc/<pid>/task/<tid>/stat is the thread's nice value (proc(5)).
       const nice = readdirSync('/proc/self/task').map((tid) =>

@@ -1,7 +1,9 @@
 import { afterAll, beforeAll, expect } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from './app.js';
+import { createTestApp, type TestApp, type TestAppOptions } from './app.js';
 import { demoIds } from './demo.js';
+import { encodeReadingsF64, READINGS_F64_TYPE } from '../../shared/protocol/readingsBinary.js';
+import type { ReadingIn } from '../../shared/protocol/captures.js';
 
 export type DemoIds = Awaited<ReturnType<typeof demoIds>>;
 
@@ -23,17 +25,29 @@ export interface DemoApp {
   newCapture(role?: string, extra?: Record<string, unknown>): Promise<number>;
   /** Posts one batch `{ readings }` to a capture, as `role` (tests send bad readings too). */
   postReadings(id: number, readings: unknown[], role?: string): Promise<request.Response>;
+  /** Posts one batch as a binary body (READINGS_F64_TYPE): readings to encode, or bytes as made. */
+  postBinary(id: number, body: ReadingIn[] | Uint8Array, role?: string): Promise<request.Response>;
+  /**
+   * Stores readings seq 0…n−1 (t = seq, flags 0, value = the SQL expression `valueSql` of `s`)
+   * straight into the table and sets the capture's counters, bypassing the ingest, as an import
+   * or an older server might have stored them.
+   */
+  storeStraight(id: number, n: number, valueSql: string): Promise<void>;
 }
 
 /**
  * Registers the file's `beforeAll` (a fresh database seeded with the demo lab, the demo ids) and
  * `afterAll` (close), and returns the app with the helpers. `captureDefaults` join the body of
- * every capture `newCapture` opens (e.g. an ambient temperature).
+ * every capture `newCapture` opens (e.g. an ambient temperature); `appOptions` go to
+ * createTestApp (e.g. `{ analysis: { openFreshMs: 0 } }` for an app with an analysis pool).
  */
-export function useDemoApp(captureDefaults: Record<string, unknown> = {}): DemoApp {
+export function useDemoApp(
+  captureDefaults: Record<string, unknown> = {},
+  appOptions: TestAppOptions = {},
+): DemoApp {
   const demo = {} as DemoApp;
   beforeAll(async () => {
-    demo.t = await createTestApp();
+    demo.t = await createTestApp(appOptions);
     demo.ids = await demoIds(demo.t.app, await demo.t.tokenFor('engineer'));
   });
   afterAll(async () => {
@@ -68,5 +82,25 @@ export function useDemoApp(captureDefaults: Record<string, unknown> = {}): DemoA
       .post(`/api/captures/${id}/readings`)
       .set(await demo.auth(role))
       .send({ readings });
+  demo.postBinary = async (id, body, role = 'technician') => {
+    const bytes = body instanceof Uint8Array ? body : encodeReadingsF64(body);
+    return request(demo.t.app)
+      .post(`/api/captures/${id}/readings`)
+      .set(await demo.auth(role))
+      .set('content-type', READINGS_F64_TYPE)
+      .send(Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+  };
+  demo.storeStraight = async (id, n, valueSql) => {
+    const pool = demo.t.db.pool;
+    await pool.query(
+      `INSERT INTO readings (capture_id, seq, t, value, flags)
+       SELECT $1, s, s, ${valueSql}, 0 FROM generate_series(0, $2 - 1) s`,
+      [id, n],
+    );
+    await pool.query('UPDATE captures SET reading_count = $2, highest_seq = $2 - 1 WHERE id = $1', [
+      id,
+      n,
+    ]);
+  };
   return demo;
 }
