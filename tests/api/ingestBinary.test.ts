@@ -8,12 +8,7 @@ import { ReadingFlag } from '../../shared/protocol/reading.js';
 // Issue 15, one stream: the compact binary readings body beside JSON, and the binary array
 // parameters the ingest statement now sends to PostgreSQL.
 const demo = useDemoApp();
-const postBinary = async (id: number, bytes: Uint8Array, role = 'technician') =>
-  request(demo.t.app)
-    .post(`/api/captures/${id}/readings`)
-    .set(await demo.auth(role))
-    .set('content-type', READINGS_F64_TYPE)
-    .send(Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+const { postBinary } = demo;
 
 describe('binary array parameters', () => {
   it('carry doubles bit for bit and integers exactly through PostgreSQL', async () => {

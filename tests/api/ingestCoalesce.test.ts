@@ -1,10 +1,8 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import request from 'supertest';
+import { describe, expect, it } from 'vitest';
 import type pg from 'pg';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds } from '../helpers/demo.js';
-import { rebuiltTiles } from '../helpers/tiles.js';
-import { encodeReadingsF64, READINGS_F64_TYPE } from '../../shared/protocol/readingsBinary.js';
+import { useDemoApp } from '../helpers/demoApp.js';
+import { expectTilesAsRebuilt } from '../helpers/tiles.js';
+import { batch, storedCounters, storedRows } from '../helpers/ingest.js';
 import { copyQueueOf, MAX_COALESCED_READINGS } from '../../server/services/ingestCopy.js';
 import { mergeBatchTiles, tilesOfBatch } from '../../server/services/liveTiles.js';
 import type { ReadingIn } from '../../shared/protocol/captures.js';
@@ -14,48 +12,8 @@ import type { ReadingIn } from '../../shared/protocol/captures.js';
 // one tile merge, one commit — and each request is answered with its own counts. To make batches
 // queue for certain, the test holds the capture's row lock on a connection of its own while they
 // arrive: the first batch waits for the lock in PostgreSQL, the others wait in the server's queue.
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
-
-async function newCapture() {
-  const res = await request(t.app)
-    .post('/api/captures')
-    .set(await auth('technician'))
-    .send({
-      dutId: ids.crystal.id,
-      checkpointId: ids.checkpoints[0],
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-    });
-  expect(res.status).toBe(201);
-  return res.body.id as number;
-}
-
-const postBinary = async (id: number, readings: ReadingIn[]) => {
-  const bytes = encodeReadingsF64(readings);
-  return request(t.app)
-    .post(`/api/captures/${id}/readings`)
-    .set(await auth('technician'))
-    .set('content-type', READINGS_F64_TYPE)
-    .send(Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
-};
-
-/** Readings from..to−1 whose values repeat (so buckets have ties), a little noise on t. */
-const batch = (from: number, to: number, levels = 7): ReadingIn[] =>
-  Array.from({ length: to - from }, (_, i) => {
-    const seq = from + i;
-    return { seq, t: seq * 1.000001 + 1e-9, value: 16e6 + ((seq * 7919) % levels) * 1e-3 };
-  });
+const demo = useDemoApp();
+const { newCapture, postBinary } = demo;
 
 async function waitFor(what: string, ok: () => boolean, ms = 20_000) {
   const end = Date.now() + ms;
@@ -71,7 +29,7 @@ async function waitFor(what: string, ok: () => boolean, ms = 20_000) {
  * sent.
  */
 async function sendQueued(id: number, first: ReadingIn[], rest: ReadingIn[][]) {
-  const holder: pg.PoolClient = await t.db.pool.connect();
+  const holder: pg.PoolClient = await demo.t.db.pool.connect();
   try {
     await holder.query('BEGIN');
     await holder.query('SELECT 1 FROM captures WHERE id = $1 FOR UPDATE', [id]);
@@ -87,51 +45,8 @@ async function sendQueued(id: number, first: ReadingIn[], rest: ReadingIn[][]) {
   }
 }
 
-async function stored(id: number) {
-  const res = await t.db.pool.query<{ seq: number; t: number; value: number; tx: string }>(
-    'SELECT seq, t, value, xmin::text AS tx FROM readings WHERE capture_id = $1 ORDER BY seq',
-    [id],
-  );
-  return res.rows;
-}
-async function capture(id: number) {
-  const res = await t.db.pool.query<{ reading_count: number; highest_seq: number }>(
-    'SELECT reading_count, highest_seq FROM captures WHERE id = $1',
-    [id],
-  );
-  return res.rows[0];
-}
-async function tiles(id: number) {
-  const res = await t.db.pool.query(
-    `SELECT level, bucket, min_seq, min_t, min_value, max_seq, max_t, max_value
-     FROM reading_tiles WHERE capture_id = $1 ORDER BY level, bucket`,
-    [id],
-  );
-  return res.rows;
-}
-
-/**
- * The tiles kept while open equal a rebuild from the rows (as in ingestCopy.test.ts), and finish
- * keeps them as they are.
- */
-async function expectTilesAsRebuilt(id: number) {
-  const open = await tiles(id);
-  const fin = await request(t.app)
-    .post(`/api/captures/${id}/finish`)
-    .set(await auth('technician'));
-  expect(fin.status).toBe(200);
-  expect(await tiles(id)).toEqual(open);
-  const finished = await rebuiltTiles(t.db.pool, id);
-  const top = Math.max(...finished.map((r) => r.level as number));
-  expect(top).toBeGreaterThan(5);
-  expect(open.filter((r) => r.level <= top)).toEqual(finished);
-  for (const r of open.filter((x) => x.level > top)) {
-    const { level: _l, ...rest } = r;
-    const { level: _t, ...atTop } = finished[finished.length - 1];
-    expect(rest).toEqual(atTop);
-  }
-}
-
+const stored = (id: number) => storedRows(demo.t.db.pool, id);
+const capture = (id: number) => storedCounters(demo.t.db.pool, id);
 const seqsOf = (rows: { seq: number }[]) => rows.map((r) => r.seq);
 const range = (from: number, to: number) => Array.from({ length: to - from }, (_, i) => from + i);
 
@@ -160,7 +75,7 @@ describe('batches of one capture queued together go into one COPY transaction', 
     expect(new Set(rows.slice(5000).map((r) => r.tx)).size).toBe(1);
     expect(rows[5000].tx).not.toBe(rows[0].tx);
     expect(await capture(id)).toEqual({ reading_count: 20_000, highest_seq: 19_999 });
-    await expectTilesAsRebuilt(id);
+    await expectTilesAsRebuilt(demo, id);
   });
 
   it('sends a resend in the group the conflict-safe way and copies the rest together', async () => {
@@ -186,20 +101,20 @@ describe('batches of one capture queued together go into one COPY transaction', 
     const gap = await postBinary(id, batch(15_000, 20_000));
     expect(gap.body).toEqual({ accepted: 5000, duplicates: 0, highestSeq: 24_999 });
     expect(seqsOf(await stored(id))).toEqual(range(0, 25_000));
-    await expectTilesAsRebuilt(id);
+    await expectTilesAsRebuilt(demo, id);
   });
 
   it('answers every batch of a failed transaction with an error and stores none of them', async () => {
     const id = await newCapture();
     // A real failure inside the COPY: a row trigger refusing one reading of this capture, put on
     // `readings` for this test only (a row trigger of a partitioned table reaches its partitions).
-    await t.db.pool
+    await demo.t.db.pool
       .query(`CREATE FUNCTION test_refuse_reading() RETURNS trigger LANGUAGE plpgsql AS $$
       BEGIN
         IF NEW.capture_id = ${id} AND NEW.seq = 12345 THEN RAISE EXCEPTION 'refused for the test'; END IF;
         RETURN NEW;
       END $$`);
-    await t.db.pool.query(
+    await demo.t.db.pool.query(
       'CREATE TRIGGER test_refuse_reading BEFORE INSERT ON readings FOR EACH ROW EXECUTE FUNCTION test_refuse_reading()',
     );
     let res: Awaited<ReturnType<typeof sendQueued>>;
@@ -210,8 +125,8 @@ describe('batches of one capture queued together go into one COPY transaction', 
         batch(15_000, 20_000),
       ]);
     } finally {
-      await t.db.pool.query('DROP TRIGGER test_refuse_reading ON readings');
-      await t.db.pool.query('DROP FUNCTION test_refuse_reading()');
+      await demo.t.db.pool.query('DROP TRIGGER test_refuse_reading ON readings');
+      await demo.t.db.pool.query('DROP FUNCTION test_refuse_reading()');
     }
     expect(res[0].status).toBe(200);
     for (const r of res.slice(1)) {
@@ -229,7 +144,7 @@ describe('batches of one capture queued together go into one COPY transaction', 
     expect(again.map((r) => r.body.accepted)).toEqual([5000, 5000, 5000]);
     expect(seqsOf(await stored(id))).toEqual(range(0, 20_000));
     expect(await capture(id)).toEqual({ reading_count: 20_000, highest_seq: 19_999 });
-    await expectTilesAsRebuilt(id);
+    await expectTilesAsRebuilt(demo, id);
   });
 
   it('keeps a group under MAX_COALESCED_READINGS', async () => {

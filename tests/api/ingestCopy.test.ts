@@ -1,9 +1,8 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds } from '../helpers/demo.js';
-import { rebuiltTiles } from '../helpers/tiles.js';
-import { encodeReadingsF64, READINGS_F64_TYPE } from '../../shared/protocol/readingsBinary.js';
+import { describe, expect, it } from 'vitest';
+import { useDemoApp } from '../helpers/demoApp.js';
+import { batch, storedCounters, storedRows } from '../helpers/ingest.js';
+import { expectTilesAsRebuilt, keptTiles } from '../helpers/tiles.js';
+import { encodeReadingsF64 } from '../../shared/protocol/readingsBinary.js';
 import { COPY_MIN_BATCH } from '../../server/services/ingest.js';
 import { tilesOfBatch } from '../../server/services/liveTiles.js';
 import type { ReadingIn } from '../../shared/protocol/captures.js';
@@ -12,76 +11,12 @@ import type { ReadingIn } from '../../shared/protocol/captures.js';
 // (server/services/ingest.ts, ingestByCopy) with its tiles merged by the ingest itself (the
 // trigger steps aside, migration 20261202-0230). Exactly the rows, never a duplicate, tiles as
 // buildTiles makes them at finish.
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
-
-async function newCapture() {
-  const res = await request(t.app)
-    .post('/api/captures')
-    .set(await auth('technician'))
-    .send({
-      dutId: ids.crystal.id,
-      checkpointId: ids.checkpoints[0],
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-    });
-  expect(res.status).toBe(201);
-  return res.body.id as number;
-}
-
-const postJson = async (id: number, readings: ReadingIn[]) =>
-  request(t.app)
-    .post(`/api/captures/${id}/readings`)
-    .set(await auth('technician'))
-    .send({ readings });
-const postBinary = async (id: number, readings: ReadingIn[]) => {
-  const bytes = encodeReadingsF64(readings);
-  return request(t.app)
-    .post(`/api/captures/${id}/readings`)
-    .set(await auth('technician'))
-    .set('content-type', READINGS_F64_TYPE)
-    .send(Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
-};
-
-/** Readings from..to−1 whose values repeat (so buckets have ties), a little noise on t. */
-const batch = (from: number, to: number, levels = 7): ReadingIn[] =>
-  Array.from({ length: to - from }, (_, i) => {
-    const seq = from + i;
-    return { seq, t: seq * 1.000001 + 1e-9, value: 16e6 + ((seq * 7919) % levels) * 1e-3 };
-  });
-
-async function stored(id: number) {
-  const res = await t.db.pool.query<{ seq: number; t: number; value: number; flags: number }>(
-    'SELECT seq, t, value, flags FROM readings WHERE capture_id = $1 ORDER BY seq',
-    [id],
-  );
-  return res.rows;
-}
-async function capture(id: number) {
-  const res = await t.db.pool.query<{ reading_count: number; highest_seq: number }>(
-    'SELECT reading_count, highest_seq FROM captures WHERE id = $1',
-    [id],
-  );
-  return res.rows[0];
-}
-async function tiles(id: number) {
-  const res = await t.db.pool.query(
-    `SELECT level, bucket, min_seq, min_t, min_value, max_seq, max_t, max_value
-     FROM reading_tiles WHERE capture_id = $1 ORDER BY level, bucket`,
-    [id],
-  );
-  return res.rows;
-}
+const demo = useDemoApp();
+const { newCapture, postBinary } = demo;
+const postJson = (id: number, readings: ReadingIn[]) => demo.postReadings(id, readings);
+const stored = (id: number) => storedRows(demo.t.db.pool, id);
+const capture = (id: number) => storedCounters(demo.t.db.pool, id);
+const tiles = (id: number) => keptTiles(demo.t.db.pool, id);
 
 describe('the COPY path of POST /api/captures/:id/readings', () => {
   it('applies to batches of at least COPY_MIN_BATCH readings', () => {
@@ -156,24 +91,9 @@ describe('the COPY path of POST /api/captures/:id/readings', () => {
     await postBinary(id, batch(5100, 12_345));
     await postBinary(id, batch(12_000, 20_000)); // overlap: conflict-safe path
     await postBinary(id, batch(20_000, 20_300));
-    const open = await tiles(id);
-    expect(open.length).toBeGreaterThan(21);
-    const fin = await request(t.app)
-      .post(`/api/captures/${id}/finish`)
-      .set(await auth('technician'));
-    expect(fin.status).toBe(200);
-    expect(await tiles(id)).toEqual(open);
-    const finished = await rebuiltTiles(t.db.pool, id);
-    // buildTiles stops at the first level whose one tile covers the capture; the live tiles go on
-    // to level 20 (the same single tile, repeated), so the levels finish keeps are compared.
-    const top = Math.max(...finished.map((r) => r.level as number));
-    expect(top).toBeGreaterThan(5);
-    expect(open.filter((r) => r.level <= top)).toEqual(finished);
-    for (const r of open.filter((x) => x.level > top)) {
-      const { level: _l, ...rest } = r;
-      const { level: _t, ...atTop } = finished[finished.length - 1];
-      expect(rest).toEqual(atTop);
-    }
+    expect((await tiles(id)).length).toBeGreaterThan(21);
+    // Finish keeps them, and they equal a rebuild from the rows at every level it makes.
+    await expectTilesAsRebuilt(demo, id);
   });
 
   it('computes a batch’s tiles with ties going to the smallest seq', () => {
@@ -203,13 +123,13 @@ describe('the COPY path of POST /api/captures/:id/readings', () => {
 
   it('refuses a long batch of a locked study and stores nothing', async () => {
     const id = await newCapture();
-    const study = await t.db.pool.query<{ id: number; status: string }>(
+    const study = await demo.t.db.pool.query<{ id: number; status: string }>(
       'SELECT s.id, s.status FROM captures c JOIN duts d ON d.id = c.dut_id JOIN studies s ON s.id = d.study_id WHERE c.id = $1',
       [id],
     );
     const { id: studyId, status } = study.rows[0];
     // As in tests/api/studyLock.test.ts: the status set directly in the database, then put back.
-    await t.db.pool.query(`UPDATE studies SET status = 'in-review' WHERE id = $1`, [studyId]);
+    await demo.t.db.pool.query(`UPDATE studies SET status = 'in-review' WHERE id = $1`, [studyId]);
     try {
       const res = await postBinary(id, batch(0, 1000));
       expect(res.status).toBe(409);
@@ -218,7 +138,7 @@ describe('the COPY path of POST /api/captures/:id/readings', () => {
       expect(short.status).toBe(409);
       expect(short.body.error.code).toBe('study-locked');
     } finally {
-      await t.db.pool.query('UPDATE studies SET status = $2 WHERE id = $1', [studyId, status]);
+      await demo.t.db.pool.query('UPDATE studies SET status = $2 WHERE id = $1', [studyId, status]);
     }
     expect(await stored(id)).toHaveLength(0);
     expect(await capture(id)).toEqual({ reading_count: 0, highest_seq: -1 });
@@ -228,14 +148,14 @@ describe('the COPY path of POST /api/captures/:id/readings', () => {
     // Migration 20261202-0230 checks the key once per statement instead of once per row. A
     // capture made and deleted: its id lies in a block whose partition exists.
     const gone = await newCapture();
-    await t.db.pool.query('DELETE FROM captures WHERE id = $1', [gone]);
+    await demo.t.db.pool.query('DELETE FROM captures WHERE id = $1', [gone]);
     await expect(
-      t.db.pool.query(
+      demo.t.db.pool.query(
         'INSERT INTO readings (capture_id, seq, t, value) SELECT $1, g, g, 1 FROM generate_series(0, 9) g',
         [gone],
       ),
     ).rejects.toMatchObject({ code: '23503' });
-    const none = await t.db.pool.query('SELECT 1 FROM readings WHERE capture_id = $1', [gone]);
+    const none = await demo.t.db.pool.query('SELECT 1 FROM readings WHERE capture_id = $1', [gone]);
     expect(none.rowCount).toBe(0);
   });
 
@@ -244,7 +164,7 @@ describe('the COPY path of POST /api/captures/:id/readings', () => {
     const keep = await newCapture();
     await postBinary(id, batch(0, 2000));
     await postBinary(keep, batch(0, 500));
-    await t.db.pool.query('DELETE FROM captures WHERE id = $1', [id]);
+    await demo.t.db.pool.query('DELETE FROM captures WHERE id = $1', [id]);
     expect(await stored(id)).toHaveLength(0);
     expect(await tiles(id)).toHaveLength(0);
     expect(await stored(keep)).toHaveLength(500);
@@ -255,20 +175,12 @@ describe('the COPY path of POST /api/captures/:id/readings', () => {
     const id = await newCapture();
     // An engineer runs captures but may not write another operator's (shared/protocol/roles.ts).
     const bytes = encodeReadingsF64(batch(0, 300));
-    const other = await request(t.app)
-      .post(`/api/captures/${id}/readings`)
-      .set(await auth('engineer'))
-      .set('content-type', READINGS_F64_TYPE)
-      .send(Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+    const other = await postBinary(id, bytes, 'engineer');
     expect(other.status).toBe(403);
     // A lead may write any capture.
-    const lead = await request(t.app)
-      .post(`/api/captures/${id}/readings`)
-      .set(await auth('lead'))
-      .set('content-type', READINGS_F64_TYPE)
-      .send(Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+    const lead = await postBinary(id, bytes, 'lead');
     expect(lead.body).toEqual({ accepted: 300, duplicates: 0, highestSeq: 299 });
-    await t.db.pool.query('DELETE FROM readings WHERE capture_id = $1', [id]);
+    await demo.t.db.pool.query('DELETE FROM readings WHERE capture_id = $1', [id]);
     expect(await stored(id)).toHaveLength(0);
   });
 });
