@@ -2,6 +2,7 @@ import os from 'node:os';
 import { benchAnalysis } from './analysis.js';
 import { benchIngest } from './ingest.js';
 import { benchIngestProfile } from './ingestProfile.js';
+import { benchIngestCpu } from './ingestCpu.js';
 import { benchLive } from './live.js';
 import { benchImport } from './import.js';
 import { benchAnalysisLoad } from './analysisLoad.js';
@@ -9,6 +10,7 @@ import { benchRecord } from './record.js';
 import { benchOneStream, benchScale } from './scale.js';
 import { benchChart } from './chart.js';
 import { benchPendingStore } from './pendingStore.js';
+import { benchFinishLoad } from './finishLoad.js';
 import { benchStarted, printSummary } from './summary.js';
 
 // `npm run bench`: every performance figure of the performance targets in README and DEVELOPERS.md, printed, never asserted.
@@ -29,8 +31,12 @@ const BENCHES: Record<string, () => Promise<unknown>> = {
   // Run only when named: the live path alone, and where one stream's ingest time goes.
   live: benchLive,
   ingestProfile: benchIngestProfile,
+  // The server's CPU per reading before the database (plausibility judge, binary decode).
+  ingestCpu: benchIngestCpu,
   // The one-stream figures of `scale` alone (issue 15), for quick before/after runs.
   oneStream: benchOneStream,
+  // A large capture's finish and the server's event loop meanwhile (issue 15).
+  finishLoad: benchFinishLoad,
 };
 const chosen = process.argv.slice(2);
 const unknown = chosen.filter((name) => !(name in BENCHES));
@@ -41,7 +47,12 @@ if (unknown.length) {
   process.exit(2);
 }
 for (const [name, run] of Object.entries(BENCHES)) {
-  const byName = name === 'live' || name === 'ingestProfile' || name === 'oneStream';
+  const byName =
+    name === 'live' ||
+    name === 'ingestProfile' ||
+    name === 'oneStream' ||
+    name === 'ingestCpu' ||
+    name === 'finishLoad';
   if ((chosen.length === 0 && !byName) || chosen.includes(name)) {
     benchStarted(name);
     await run();
