@@ -4,11 +4,9 @@ import { createHash } from 'node:crypto';
 import { mkdtempSync, readdirSync, rmSync, statSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { pino } from 'pino';
 import type { Express } from 'express';
-import { createApp } from '../../server/app.js';
 import { FolderStore } from '../../server/services/storage.js';
-import { createTestApp, TEST_JWT_SECRET, type TestApp } from '../helpers/app.js';
+import { createTestApp, type TestApp } from '../helpers/app.js';
 import { as, capture, plannedStudy } from '../helpers/review.js';
 
 let t: TestApp;
@@ -41,19 +39,9 @@ beforeAll(async () => {
   t = await createTestApp();
   root = mkdtempSync(path.join(os.tmpdir(), 'driftbench-attach-test-'));
   const store = new FolderStore(root);
-  const log = pino({ level: 'silent' });
-  app = createApp({
-    db: t.db,
-    jwtSecret: TEST_JWT_SECRET,
-    log,
-    attachmentStore: store,
-    loginRateLimit: 1000,
-  });
+  app = t.appWith({ attachmentStore: store });
   // The same app with a 2 kB limit and CSV only: the limits are configuration.
-  small = createApp({
-    db: t.db,
-    jwtSecret: TEST_JWT_SECRET,
-    log,
+  small = t.appWith({
     attachmentStore: store,
     uploadPolicy: { maxBytes: 2048, types: ['text/csv'] },
   });

@@ -3,8 +3,7 @@ import request from 'supertest';
 import pg from 'pg';
 import { pino } from 'pino';
 import { Writable } from 'node:stream';
-import { createApp } from '../../server/app.js';
-import { createTestApp, TEST_JWT_SECRET, type TestApp } from '../helpers/app.js';
+import { createTestApp, type TestApp } from '../helpers/app.js';
 import { isCalendarDate, textProblem } from '../../shared/protocol/text.js';
 
 // Issue 10, items 3, 6 and 11: bodies are read only after sign-in and are small except on the
@@ -206,11 +205,7 @@ describe('a database outage answers 503 (item 11)', () => {
         done();
       },
     });
-    const app = createApp({
-      db: t.db,
-      jwtSecret: TEST_JWT_SECRET,
-      log: pino({ level: 'info' }, sink),
-    });
+    const app = t.appWith({ log: pino({ level: 'info' }, sink) });
     const dbName = new URL(t.db.url).pathname.slice(1);
     const adminClient = new pg.Client({ connectionString: process.env.DRIFTBENCH_TEST_PG });
     await adminClient.connect();
