@@ -2,8 +2,7 @@ import http from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { configureHttp } from '../../src/api/http.js';
 import { isPermanentRefusal, postReadings, refusedReadingIndex } from '../../src/api/readings.js';
 import { MemoryPendingStore, ReadingUploader } from '../../src/api/uploader.js';
@@ -12,7 +11,8 @@ import { READINGS_F64_TYPE } from '../../shared/protocol/readingsBinary.js';
 // Issue 15: the bench's own upload code — ReadingUploader, postReadings and http.ts, wired as
 // useLiveCapture wires them — against the real app on a real HTTP port and a real PostgreSQL.
 // Only the origin is added to the client's relative paths (Node's fetch needs an absolute URL).
-let t: TestApp;
+// Captures of 1 ms gates, opened by the technician whose token the client code sends.
+const demo = useDemoApp({ gateTime: 0.001 });
 let server: http.Server;
 let base = '';
 let token = '';
@@ -21,11 +21,10 @@ const sentTypes: string[] = [];
 const realFetch = globalThis.fetch;
 
 beforeAll(async () => {
-  t = await createTestApp();
-  server = http.createServer(t.app);
+  server = http.createServer(demo.t.app);
   await new Promise<void>((resolve) => server.listen(0, '127.0.0.1', resolve));
   base = `http://127.0.0.1:${(server.address() as AddressInfo).port}`;
-  token = await t.tokenFor('technician');
+  token = await demo.t.tokenFor('technician');
   configureHttp({ getToken: () => token });
   globalThis.fetch = (input, init) => {
     const url = String(input);
@@ -38,24 +37,9 @@ afterAll(async () => {
   globalThis.fetch = realFetch;
   configureHttp({ getToken: () => null });
   await new Promise((resolve) => server.close(resolve));
-  await t.close();
 });
 
-async function newCapture(): Promise<number> {
-  const ids = await demoIds(t.app, await t.tokenFor('engineer'));
-  const res = await request(t.app)
-    .post('/api/captures')
-    .set('authorization', `Bearer ${token}`)
-    .send({
-      dutId: ids.crystal.id,
-      checkpointId: ids.checkpoints[0],
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 0.001,
-    });
-  expect(res.status).toBe(201);
-  return res.body.id as number;
-}
+const { newCapture } = demo;
 
 describe('the bench uploader against the real server', () => {
   it('posts pipelined binary batches and every reading arrives once, in order', async () => {
@@ -95,7 +79,7 @@ describe('the bench uploader against the real server', () => {
     expect(sentTypes.every((ct) => ct === READINGS_F64_TYPE)).toBe(true);
     expect(Math.max(...states)).toBeGreaterThan(1); // batches really overlapped
 
-    const rows = await t.db.pool.query<{ seq: number; t: number; value: number }>(
+    const rows = await demo.t.db.pool.query<{ seq: number; t: number; value: number }>(
       'SELECT seq, t, value FROM readings WHERE capture_id = $1 ORDER BY seq',
       [id],
     );
@@ -104,7 +88,7 @@ describe('the bench uploader against the real server', () => {
     expect(
       rows.rows.every((r, i) => r.seq === i && r.t === i * 0.001 && r.value === value(i)),
     ).toBe(true);
-    const capture = await request(t.app)
+    const capture = await request(demo.t.app)
       .get(`/api/captures/${id}`)
       .set('authorization', `Bearer ${token}`);
     expect(capture.body).toMatchObject({ readingCount: total, highestSeq: total - 1 });
@@ -125,7 +109,7 @@ describe('the bench uploader against the real server', () => {
     await u.add(readings.slice(150));
     await u.drained();
     expect(u.snapshot()).toMatchObject({ pending: 0, sent: 100, duplicates: 50 });
-    const n = await t.db.pool.query(
+    const n = await demo.t.db.pool.query(
       'SELECT count(*)::int AS n, count(DISTINCT seq)::int AS d FROM readings WHERE capture_id = $1',
       [id],
     );
