@@ -77,7 +77,9 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
   }
   // With a replica, the analysis workers read there (each answer says which reading count it
   // covers), and so do raw pages of finished captures; everything else stays on the primary.
-  const analysis = new AnalysisPool(opts.replicaUrl ?? opts.databaseUrl);
+  const analysis = new AnalysisPool(opts.replicaUrl ?? opts.databaseUrl, undefined, {
+    primaryUrl: opts.databaseUrl,
+  });
   const replica = opts.replicaUrl ? openDatabase(opts.replicaUrl, { poolMax: 4 }) : undefined;
   const app = createApp({
     replica: replica?.pool,

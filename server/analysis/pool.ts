@@ -8,19 +8,34 @@ import { Worker } from 'node:worker_threads';
 import os from 'node:os';
 import { AppError } from '../errors.js';
 import { AnalysisError } from '../../shared/analysis/index.js';
-import type { AnalysisJob, FinishJob, JobError, SeriesArrays, WorkerReply } from './protocol.js';
+import type { AnalysisJob, FinishJob, FinishResult, JobError, WorkerReply } from './protocol.js';
 
 const ENTRY = new URL('./worker-entry.mjs', import.meta.url);
 
 interface Pending {
-  resolve(v: { json: string; readingCount: number; series?: SeriesArrays }): void;
+  resolve(v: { json: string; readingCount: number; finish?: FinishResult }): void;
   reject(err: unknown): void;
 }
 
+/**
+ * Which workers a job runs on. `analysis`: viewers' analyses, background work at a lower CPU
+ * priority (nice 10). `finish`: one worker of its own at the server's priority for finishes and
+ * aborts — a user waits for them with the capture locked, and at nice 10 on a loaded 2-core
+ * machine the worker got a small share of a core (a 10 M finish took 30 s against 18 s on the
+ * event loop); nor does a finish queue behind viewers' analyses.
+ */
+type Lane = 'analysis' | 'finish';
+
 interface Slot {
   worker: Worker;
+  lane: Lane;
   busy: boolean;
   pending: Map<number, Pending>;
+}
+
+interface Queued {
+  body: { job: AnalysisJob } | { finish: FinishJob };
+  pending: Pending;
 }
 
 /** Workers for a 2-core machine: one, leaving a core for the event loop and PostgreSQL. */
@@ -39,7 +54,7 @@ function toError(e: JobError): Error {
 
 export interface AnalysisPoolStats {
   computed: number;
-  /** Finish summaries handed to a worker (issue 15), and of those the ones it answered. */
+  /** Finish and abort jobs handed to a worker (issue 15), and of those the ones it answered. */
   finishesStarted: number;
   finishes: number;
   cacheHits: number;
@@ -62,11 +77,7 @@ function withCoverage(json: string, readings: number, captureReadings: number, a
 
 export class AnalysisPool {
   private readonly slots: Slot[] = [];
-  private readonly queue: Array<{
-    body: { job: AnalysisJob } | { finish: FinishJob };
-    transfer: ArrayBuffer[];
-    pending: Pending;
-  }> = [];
+  private readonly queues: Record<Lane, Queued[]> = { analysis: [], finish: [] };
   private readonly inFlight = new Map<
     string,
     Promise<{ json: string; readingCount: number; at: number }>
@@ -89,24 +100,32 @@ export class AnalysisPool {
    * `openFreshMs`: an open capture's answer is served for this long (or twice the time it took,
    * if longer) even when readings arrived since — a viewer polling a capture that grows every
    * 100 ms would otherwise keep a core busy recomputing. 0 recomputes on every new reading.
+   * `primaryUrl`: the database finishes read in (their snapshot is the primary's) when
+   * `databaseUrl` is a read replica; `databaseUrl` by default.
    */
   constructor(
     private readonly databaseUrl: string,
     private readonly size = defaultPoolSize(),
-    private readonly opts: { cacheSize?: number; openFreshMs?: number } = {},
+    private readonly opts: { cacheSize?: number; openFreshMs?: number; primaryUrl?: string } = {},
   ) {}
 
-  private spawn(): Slot {
-    const worker = new Worker(ENTRY, { workerData: { databaseUrl: this.databaseUrl } });
+  private spawn(lane: Lane): Slot {
+    const worker = new Worker(ENTRY, {
+      workerData: {
+        databaseUrl: this.databaseUrl,
+        primaryUrl: this.opts.primaryUrl ?? this.databaseUrl,
+        nice: lane === 'analysis' ? 10 : 0,
+      },
+    });
     worker.unref();
-    const slot: Slot = { worker, busy: false, pending: new Map() };
+    const slot: Slot = { worker, lane, busy: false, pending: new Map() };
     worker.on('message', (msg: WorkerReply) => {
       const p = slot.pending.get(msg.id);
       slot.pending.delete(msg.id);
       slot.busy = false;
       if (p) {
         if (msg.ok)
-          p.resolve({ json: msg.json, readingCount: msg.readingCount, series: msg.series });
+          p.resolve({ json: msg.json, readingCount: msg.readingCount, finish: msg.finish });
         else p.reject(toError(msg.error));
       }
       this.pump();
@@ -128,25 +147,30 @@ export class AnalysisPool {
   }
 
   private pump(): void {
-    while (this.queue.length && !this.closed) {
-      let slot = this.slots.find((s) => !s.busy);
-      if (!slot && this.slots.length < this.size) slot = this.spawn();
-      if (!slot) return;
-      const { body, transfer, pending } = this.queue.shift()!;
-      const id = this.nextId++;
-      slot.busy = true;
-      slot.pending.set(id, pending);
-      slot.worker.postMessage({ id, ...body }, transfer);
+    for (const lane of ['finish', 'analysis'] as const) {
+      const queue = this.queues[lane];
+      const size = lane === 'analysis' ? this.size : 1;
+      while (queue.length && !this.closed) {
+        const mine = this.slots.filter((s) => s.lane === lane);
+        let slot = mine.find((s) => !s.busy);
+        if (!slot && mine.length < size) slot = this.spawn(lane);
+        if (!slot) break;
+        const { body, pending } = queue.shift()!;
+        const id = this.nextId++;
+        slot.busy = true;
+        slot.pending.set(id, pending);
+        slot.worker.postMessage({ id, ...body });
+      }
     }
   }
 
   private run(
     body: { job: AnalysisJob } | { finish: FinishJob },
-    transfer: ArrayBuffer[] = [],
-  ): Promise<{ json: string; readingCount: number; series?: SeriesArrays }> {
+  ): Promise<{ json: string; readingCount: number; finish?: FinishResult }> {
     if (this.closed) return Promise.reject(new Error('analysis pool closed'));
+    const lane: Lane = 'finish' in body ? 'finish' : 'analysis';
     return new Promise((resolve, reject) => {
-      this.queue.push({ body, transfer, pending: { resolve, reject } });
+      this.queues[lane].push({ body, pending: { resolve, reject } });
       this.pump();
     });
   }
@@ -157,27 +181,18 @@ export class AnalysisPool {
   }
 
   /**
-   * A finish's summary (finishSummary in captureAnalysis.ts) computed in a worker: the readings
-   * are moved to the worker, not copied, and come back with the summary's JSON text. Not cached
-   * and not coalesced: each finish computes once, inside its own transaction.
-   * Throws (never an AnalysisError: the worker turns that into the explained empty summary) when
-   * the worker fails; the readings passed in are then gone and must be loaded again.
+   * A finish's or an abort's reading, summary and seal, done in the finish worker (FinishJob):
+   * the event loop only sends the job and takes the answer. Not cached and not coalesced: each
+   * finish computes once, inside its own transaction. Throws (never an AnalysisError: the worker
+   * turns that into the explained empty summary) when the worker fails; the caller then does the
+   * work on its own thread.
    */
-  async finishSummary(job: FinishJob): Promise<{ json: string; series: SeriesArrays }> {
-    const s = job.series;
-    const views = [s.seq, s.t, s.value, s.flags];
-    const buffers = views.map((v) => v.buffer as ArrayBuffer);
-    // Moved only when each array owns its whole buffer (loadSeries's do): moving a view of a
-    // shared or pooled buffer would take the rest of it away too. Otherwise they are copied.
-    const owned =
-      new Set(buffers).size === 4 &&
-      views.every((v) => v.byteOffset === 0 && v.byteLength === v.buffer.byteLength);
-    const transfer = owned ? buffers : [];
-    const running = this.run({ finish: job }, transfer);
+  async finish(job: FinishJob): Promise<FinishResult> {
+    const running = this.run({ finish: job });
     this.stats.finishesStarted++;
     const done = await running;
     this.stats.finishes++;
-    return { json: done.json, series: done.series! };
+    return done.finish!;
   }
 
   /**
@@ -242,7 +257,8 @@ export class AnalysisPool {
 
   async close(): Promise<void> {
     this.closed = true;
-    for (const q of this.queue.splice(0)) q.pending.reject(new Error('analysis pool closed'));
+    for (const q of [...this.queues.finish.splice(0), ...this.queues.analysis.splice(0)])
+      q.pending.reject(new Error('analysis pool closed'));
     await Promise.all(this.slots.splice(0).map((s) => s.worker.terminate()));
   }
 }

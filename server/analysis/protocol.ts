@@ -20,30 +20,35 @@ export interface JobError {
   details?: unknown;
 }
 
-/** The readings of a capture as finish loaded them, moved (not copied) between threads. */
-export interface SeriesArrays {
-  seq: Int32Array;
-  t: Float64Array;
-  value: Float64Array;
-  flags: Int16Array;
-}
-
 /**
- * A finish's summary (issue 15): the capture's and its DUT's attributes as plain data (rebuilt
- * as model instances in the worker, so prepare/reduce see what finish saw) and the readings
- * finish loaded in its transaction. The worker moves the readings back with its answer.
+ * A finish's or an abort's work on a large capture (issue 15), done wholly in a worker: it reads
+ * the readings itself, in the finishing transaction's snapshot (`pg_export_snapshot()`, taken
+ * after the capture was locked), so the event loop neither parses the COPY stream nor holds the
+ * arrays; then the summary (finish only) and the seal. `summary`: the capture's and its DUT's
+ * attributes as plain data (rebuilt as model instances in the worker, so prepare/reduce see what
+ * finish saw); absent for an abort, which stores only the seal.
  */
 export interface FinishJob {
-  capture: Record<string, unknown>;
-  dut: Record<string, unknown> | null;
-  series: SeriesArrays;
+  captureId: number;
+  snapshot: string;
+  summary?: { capture: Record<string, unknown>; dut: Record<string, unknown> | null };
+}
+
+/** What a finish job gives back: all the finish stores, and none of the readings. */
+export interface FinishResult {
+  /** The summary's JSON text; '' for an abort. */
+  json: string;
+  readingCount: number;
+  /** The highest seq read, −1 for none. */
+  highestSeq: number;
+  /** SHA-256 (hex) of the canonical serialisation (server/services/seal.ts). */
+  seal: string;
+  /** Where the time went in the worker, in ms (read = COPY + parse, summary, seal). */
+  ms: { read: number; summary: number; seal: number };
 }
 
 export type WorkerRequest = { id: number; job: AnalysisJob } | { id: number; finish: FinishJob };
-/**
- * `json`: the answer already serialised in the worker, so the event loop never stringifies it.
- * `series`: a finish's readings, handed back.
- */
+/** `json`: the answer already serialised in the worker, so the event loop never stringifies it. */
 export type WorkerReply =
-  | { id: number; ok: true; json: string; readingCount: number; series?: SeriesArrays }
+  | { id: number; ok: true; json: string; readingCount: number; finish?: FinishResult }
   | { id: number; ok: false; error: JobError };

@@ -6,6 +6,7 @@
  */
 import { parentPort, workerData } from 'node:worker_threads';
 import os from 'node:os';
+import pg from 'pg';
 import { openDatabase } from '../db/connection.js';
 import { initModels, Capture, Dut } from '../models/index.js';
 import { AppError, NotFoundError } from '../errors.js';
@@ -21,26 +22,33 @@ import {
   type CaptureSummary,
 } from '../services/captureAnalysis.js';
 import { loadSeries, type Series } from '../services/readings.js';
+import { sealOfSliced } from '../services/seal.js';
 import { implausibleNote } from '../../shared/protocol/plausibility.js';
 import type {
   AnalysisJob,
   FinishJob,
+  FinishResult,
   JobError,
-  SeriesArrays,
   WorkerReply,
   WorkerRequest,
 } from './protocol.js';
 
-const { databaseUrl } = workerData as { databaseUrl: string };
+const { databaseUrl, primaryUrl, nice } = workerData as {
+  databaseUrl: string;
+  primaryUrl?: string;
+  nice?: number;
+};
 
-// Analysis is background work: this thread runs at a lower CPU priority (nice 10), so on a busy machine
-// the event loop (ingest, live fan-out) and PostgreSQL always come first. On Linux the priority
-// of pid 0 is the calling thread's own; elsewhere the call may be refused, which changes nothing.
-try {
-  os.setPriority(0, 10);
-} catch {
-  // Not permitted here: the worker keeps the process's priority.
-}
+// Analysis is background work: an analysis worker runs at a lower CPU priority (nice 10), so on
+// a busy machine the event loop (ingest, live fan-out) and PostgreSQL always come first. The
+// finish worker keeps the server's priority (pool.ts, Lane). On Linux the priority of pid 0 is
+// the calling thread's own; elsewhere the call may be refused, which changes nothing.
+if (nice)
+  try {
+    os.setPriority(0, nice);
+  } catch {
+    // Not permitted here: the worker keeps the process's priority.
+  }
 const db = openDatabase(databaseUrl, { poolMax: 2 });
 initModels(db.sequelize);
 
@@ -177,34 +185,74 @@ function asJobError(err: unknown): JobError {
   };
 }
 
-/**
- * A finish's summary, computed here instead of on the server's event loop (issue 15: about 9 s
- * at 10^7 readings). The capture and DUT are rebuilt from their attributes as finish read them
- * (the capture already marked finished), so the figures are those of the in-thread computation.
- */
-async function finishOf(job: FinishJob): Promise<string> {
-  const capture = Capture.build(job.capture as never, { isNewRecord: false, raw: true });
-  const dut = job.dut ? Dut.build(job.dut as never, { isNewRecord: false, raw: true }) : null;
-  return JSON.stringify(await finishSummary(capture, dut, job.series));
+/** Where finishes read: the primary (their snapshot is the primary's), opened on first use. */
+let primary: pg.Pool | undefined;
+function primaryPool(): pg.Pool {
+  if (!primaryUrl || primaryUrl === databaseUrl) return db.pool;
+  primary ??= new pg.Pool({ connectionString: primaryUrl, max: 1 });
+  return primary;
 }
 
-const transferOf = (s: SeriesArrays) => [s.seq.buffer, s.t.buffer, s.value.buffer, s.flags.buffer];
+/** What `pg_export_snapshot()` returns (hex groups and dashes); anything else is refused. */
+const SNAPSHOT_ID = /^[0-9A-F]+(-[0-9A-F]+)+$/i;
+
+/**
+ * A finish's or an abort's work, here instead of on the server's event loop (issue 15: reading a
+ * 10^7-reading capture, its summary and its seal held that loop for seconds). The readings are
+ * read in the finishing transaction's exported snapshot, so they are exactly those finish would
+ * have read itself after locking the capture. The capture and DUT are rebuilt from their
+ * attributes as finish read them (the capture already marked finished), so the figures are those
+ * of the in-thread computation.
+ */
+async function finishOf(job: FinishJob): Promise<FinishResult> {
+  if (!SNAPSHOT_ID.test(job.snapshot)) throw new Error('finish job: not a snapshot id');
+  const t0 = performance.now();
+  let series: Series;
+  const client = await primaryPool().connect();
+  try {
+    await client.query('BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY');
+    await client.query(`SET TRANSACTION SNAPSHOT '${job.snapshot}'`);
+    series = await loadSeries(client, job.captureId);
+    await client.query('COMMIT');
+  } catch (err) {
+    await client.query('ROLLBACK').catch(() => {});
+    throw err;
+  } finally {
+    client.release();
+  }
+  const t1 = performance.now();
+  let json = '';
+  if (job.summary) {
+    const capture = Capture.build(job.summary.capture as never, { isNewRecord: false, raw: true });
+    const dut = job.summary.dut
+      ? Dut.build(job.summary.dut as never, { isNewRecord: false, raw: true })
+      : null;
+    json = JSON.stringify(await finishSummary(capture, dut, series));
+  }
+  const t2 = performance.now();
+  // In slices (1.4 MB of serialisation at a time), not one 22-bytes-a-reading buffer.
+  const seal = await sealOfSliced(series);
+  const n = series.seq.length;
+  return {
+    json,
+    readingCount: n,
+    highestSeq: n ? series.seq[n - 1] : -1,
+    seal,
+    ms: { read: t1 - t0, summary: t2 - t1, seal: performance.now() - t2 },
+  };
+}
 
 parentPort!.on('message', (msg: WorkerRequest) => {
   if ('finish' in msg) {
-    const { series } = msg.finish;
     finishOf(msg.finish).then(
-      (json) =>
-        parentPort!.postMessage(
-          {
-            id: msg.id,
-            ok: true,
-            json,
-            readingCount: series.seq.length,
-            series,
-          } satisfies WorkerReply,
-          transferOf(series) as ArrayBuffer[],
-        ),
+      (finish) =>
+        parentPort!.postMessage({
+          id: msg.id,
+          ok: true,
+          json: '',
+          readingCount: finish.readingCount,
+          finish,
+        } satisfies WorkerReply),
       (err) =>
         parentPort!.postMessage({
           id: msg.id,

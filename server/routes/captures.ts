@@ -92,7 +92,7 @@ export function capturesRouter(
     reply(
       res,
       'POST /api/captures/:id/abort',
-      await abortCapture(pool, hub, currentUser(req), id, reason),
+      await abortCapture(pool, hub, currentUser(req), id, reason, analysis),
     );
   });
   r.get('/:id/readings', authorize('read'), async (req, res) => {

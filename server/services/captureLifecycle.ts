@@ -6,8 +6,8 @@ import { AppError, ForbiddenError, NotFoundError } from '../errors.js';
 import type { LiveHub } from './liveHub.js';
 import type { AuthUser } from './auth.js';
 import { canWriteCapture } from './ingest.js';
-import { loadSeries } from './readings.js';
-import { sealOfSliced } from './seal.js';
+import { readAndSeal } from './finish.js';
+import type { AnalysisPool } from '../analysis/pool.js';
 import { audit, auditWithClient } from './audit.js';
 import { enqueueMail } from './mail.js';
 import { capturePublic } from './captures.js';
@@ -25,6 +25,7 @@ import {
  * and is marked `aborted` with the reason and who gave it, audited in the same transaction.
  * An aborted capture has no summary and never enters a verdict, the matrix or a comparison.
  * Only its operator, a lead or an admin may abort it; a finished or aborted capture answers 409.
+ * `analysis`: the pool whose finish worker reads and seals a large capture (finish.ts readAndSeal).
  */
 export async function abortCapture(
   pool: pg.Pool,
@@ -32,15 +33,17 @@ export async function abortCapture(
   user: AuthUser,
   id: number,
   reason: string,
+  analysis?: AnalysisPool,
 ) {
   await assertStudyWritable('capture', id, 'aborting a capture');
   const client = await pool.connect();
   try {
     await client.query('BEGIN');
-    const lock = await client.query<{ state: string; operator_id: number | null }>(
-      'SELECT state, operator_id FROM captures WHERE id = $1 FOR UPDATE',
-      [id],
-    );
+    const lock = await client.query<{
+      state: string;
+      operator_id: number | null;
+      reading_count: number;
+    }>('SELECT state, operator_id, reading_count FROM captures WHERE id = $1 FOR UPDATE', [id]);
     if (lock.rowCount === 0) throw new NotFoundError('Capture');
     const { state, operator_id: operatorId } = lock.rows[0];
     if (!canWriteCapture(user, operatorId))
@@ -53,18 +56,18 @@ export async function abortCapture(
         { state },
       );
     }
-    const series = await loadSeries(client, id);
+    // Read and sealed in the finish worker for a large capture, as finish does (no summary).
+    const sealed = await readAndSeal(client, id, lock.rows[0].reading_count, analysis);
     // The tiles are kept by ingest as the readings go in (see finish.ts): nothing to rebuild.
-    const n = series.seq.length;
     await client.query(
       `UPDATE captures SET state = 'aborted', ended_at = now(), updated_at = now(), abort_reason = $2, aborted_by = $3,
          reading_count = $4, highest_seq = $5, seal_sha256 = $6, sealed_at = now() WHERE id = $1`,
-      [id, reason, user.id, n, n ? series.seq[n - 1] : -1, await sealOfSliced(series)],
+      [id, reason, user.id, sealed.readingCount, sealed.highestSeq, sealed.seal],
     );
     await auditWithClient(client, user.id, 'capture.abort', 'capture', id, {
       state: { from: state, to: 'aborted' },
       reason,
-      readings: n,
+      readings: sealed.readingCount,
     });
     await client.query('COMMIT');
   } catch (err) {

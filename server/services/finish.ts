@@ -10,7 +10,6 @@ import { finishSummary } from './captureAnalysis.js';
 import type { AnalysisPool } from '../analysis/pool.js';
 import { capturePublic } from './captures.js';
 import { assertStudyWritable } from './studyLock.js';
-import type { Series } from './readings.js';
 import { sealOfSliced } from './seal.js';
 import { auditWithClient } from './audit.js';
 
@@ -18,43 +17,70 @@ import { auditWithClient } from './audit.js';
 const turn = () => new Promise<void>((resolve) => setImmediate(resolve));
 
 /**
- * Below this many readings a finish computes its summary on the event loop: about 20 ms at most
- * (1 s per 10^6 readings measured), less than handing the readings to a worker that may first
- * have to start.
+ * Below this many readings (the capture's count as ingest kept it) a finish or an abort reads and
+ * computes on the event loop: about 20 ms at most (1 s per 10^6 readings measured), less than
+ * handing the work to a worker that may first have to start.
  */
 export const FINISH_IN_WORKER_MIN = 20_000;
 
+/** What finish and abort store of a capture's readings. */
+export interface Sealed {
+  /** The summary's JSON text (finish), or '' (abort). */
+  json: string;
+  readingCount: number;
+  highestSeq: number;
+  seal: string;
+}
+
 /**
- * The summary finish stores (finishSummary: prepare + reduce, AnalysisError explained). In an
- * analysis worker when the app has a pool, so the event loop keeps serving the lab during the
- * seconds a 10^7-reading capture takes; the readings move to the worker and back. On this
- * thread for a small capture (FINISH_IN_WORKER_MIN), when there is no pool (the import and the
- * demo story call finish without one) or it is closed, with a turn of the event loop between
- * the two heavy steps; and if the worker fails, the readings it took are loaded again (the
- * capture is still locked) and computed here.
+ * The readings' summary (finish; prepare + reduce, AnalysisError explained) and seal, read in
+ * `client`'s transaction after it locked the capture. With the app's pool and at least
+ * FINISH_IN_WORKER_MIN readings, all of it runs in the pool's finish worker, which reads the rows
+ * itself in this transaction's exported snapshot (pg_export_snapshot: exactly the rows a read here
+ * would see), so the event loop neither parses the COPY stream nor computes (issue 15: about 9 s
+ * of it at 10^7 readings, and 230 ms at 10^6 for the read alone). On this thread, with a turn of
+ * the event loop between the heavy steps, for a small capture, without a pool (the demo story
+ * calls finish without one) or when it is closed, and when the worker fails.
  */
-async function summaryOf(
+export async function readAndSeal(
   client: pg.PoolClient,
-  capture: Capture,
-  dut: Dut | null,
-  series: Series,
+  id: number,
+  expected: number,
   analysis: AnalysisPool | undefined,
-): Promise<{ json: string; series: Series }> {
-  if (analysis?.available && series.seq.length >= FINISH_IN_WORKER_MIN) {
+  summary?: { capture: Capture; dut: Dut | null },
+): Promise<Sealed> {
+  if (analysis?.available && expected >= FINISH_IN_WORKER_MIN) {
+    // Not in a savepoint: PostgreSQL exports no snapshot from a subtransaction.
+    const snapshot = (await client.query<{ s: string }>('SELECT pg_export_snapshot() AS s')).rows[0]
+      .s;
     try {
-      return await analysis.finishSummary({
-        capture: capture.get({ plain: true }),
-        dut: dut ? dut.get({ plain: true }) : null,
-        series,
+      return await analysis.finish({
+        captureId: id,
+        snapshot,
+        ...(summary
+          ? {
+              summary: {
+                capture: summary.capture.get({ plain: true }),
+                dut: summary.dut ? summary.dut.get({ plain: true }) : null,
+              },
+            }
+          : {}),
       });
     } catch (err) {
       if (err instanceof AppError) throw err;
-      series = await loadSeries(client, capture.id);
+      // The worker failed: the same work on this thread below.
     }
   }
-  await turn();
-  const summary = await finishSummary(capture, dut, series, turn);
-  return { json: JSON.stringify(summary), series };
+  const series = await loadSeries(client, id);
+  let json = '';
+  if (summary) {
+    await turn();
+    json = JSON.stringify(await finishSummary(summary.capture, summary.dut, series, turn));
+  }
+  // The seal: SHA-256 of the raw readings in the canonical serialisation (seal.ts).
+  const seal = await sealOfSliced(series);
+  const n = series.seq.length;
+  return { json, readingCount: n, highestSeq: n ? series.seq[n - 1] : -1, seal };
 }
 
 /**
@@ -74,10 +100,11 @@ export async function finishCapture(
   let changed = false;
   try {
     await client.query('BEGIN');
-    const lock = await client.query<{ state: string; operator_id: number | null }>(
-      'SELECT state, operator_id FROM captures WHERE id = $1 FOR UPDATE',
-      [id],
-    );
+    const lock = await client.query<{
+      state: string;
+      operator_id: number | null;
+      reading_count: number;
+    }>('SELECT state, operator_id, reading_count FROM captures WHERE id = $1 FOR UPDATE', [id]);
     if (lock.rowCount === 0) throw new NotFoundError('Capture');
     if (!canWriteCapture(user, lock.rows[0].operator_id))
       throw new ForbiddenError("Only the capture's operator, a lead or an admin may finish it.");
@@ -92,13 +119,10 @@ export async function finishCapture(
       const capture = (await Capture.findByPk(id))!;
       const dut = await Dut.findByPk(capture.dutId);
       capture.state = 'finished';
-      const { json, series } = await summaryOf(
-        client,
+      const done = await readAndSeal(client, id, lock.rows[0].reading_count, analysis, {
         capture,
         dut,
-        await loadSeries(client, id),
-        analysis,
-      );
+      });
       // No tile rebuild: every statement that adds readings has already merged them into the
       // capture's tiles (the trigger of migrations 0110/0230/0300, or the ingest's own merge of a
       // COPY), and readings are never changed or deleted while the capture lives, so the tiles
@@ -106,19 +130,13 @@ export async function finishCapture(
       // checks that in the ingest tests). Rebuilding them was the largest part of a finish.
       await client.query(
         `UPDATE captures SET state = 'finished', ended_at = now(), updated_at = now(), summary = $2::jsonb,
-           reading_count = $3, highest_seq = $4 WHERE id = $1`,
-        [id, json, series.seq.length, series.seq.length ? series.seq[series.seq.length - 1] : -1],
+           reading_count = $3, highest_seq = $4, seal_sha256 = $5, sealed_at = now() WHERE id = $1`,
+        [id, done.json, done.readingCount, done.highestSeq, done.seal],
       );
-      // The seal: SHA-256 of the raw readings in the canonical serialisation (seal.ts).
-      const seal = await sealOfSliced(series);
-      await client.query('UPDATE captures SET seal_sha256 = $2, sealed_at = now() WHERE id = $1', [
-        id,
-        seal,
-      ]);
       await auditWithClient(client, user.id, 'capture.finish', 'capture', id, {
         state: { from, to: 'finished' },
-        readings: series.seq.length,
-        sealSha256: seal,
+        readings: done.readingCount,
+        sealSha256: done.seal,
       });
       changed = true;
     }
