@@ -1,24 +1,15 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds, seeded } from '../helpers/demo.js';
+import { seeded } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 
 /**
  * Accelerometers as first-class DUTs (issue 13): per-kind limits on PATCH /api/duts/:id, plain
  * acceleration captures compared only with a baseline of the same orientation, and the guided
  * tilt check's result stored per checkpoint and compared across checkpoints in the matrix.
  */
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
+const { auth } = demo;
 
 /**
  * The test part's Z axis (invented, like the demo's): offset +6.1 mg and sensitivity +0.4 % of the
@@ -42,35 +33,22 @@ async function accelCapture(
   seed: number,
   shiftMg = 0,
 ): Promise<Made> {
-  const c = await request(t.app)
-    .post('/api/captures')
-    .set(await auth('technician'))
-    .send({
-      dutId: ids.accelerometer.id,
-      checkpointId,
-      quantity: 'acceleration',
-      unit: 'mg',
-      gateTime: 0.1,
-      orientation,
-      ambientC: 23,
-    });
-  expect(c.status).toBe(201);
   const rnd = seeded(seed);
   const values = Array.from(
     { length: 200 },
     () => ideal(orientation, shiftMg) + PART.noiseMg * rnd.gauss(),
   );
   const readings = values.map((value, i) => ({ seq: i, t: i * 0.1, value }));
-  const r = await request(t.app)
-    .post(`/api/captures/${c.body.id}/readings`)
-    .set(await auth('technician'))
-    .send({ readings });
-  expect(r.status).toBeLessThan(300);
-  const f = await request(t.app)
-    .post(`/api/captures/${c.body.id}/finish`)
-    .set(await auth('technician'));
-  expect(f.status).toBe(200);
-  return { id: c.body.id, values };
+  const id = await demo.recordCapture(readings, {
+    dutId: demo.ids.accelerometer.id,
+    checkpointId,
+    quantity: 'acceleration',
+    unit: 'mg',
+    gateTime: 0.1,
+    orientation,
+    ambientC: 23,
+  });
+  return { id, values };
 }
 
 /** Mean and standard deviation by hand (n − 1), to form the expected figures independently. */
@@ -82,8 +60,8 @@ function meanSd(v: number[]): { mean: number; sd: number; n: number } {
 
 describe('per-kind DUT limits', () => {
   it("sets an accelerometer's offset (mg) and sensitivity (%) limits and audits them", async () => {
-    const res = await request(t.app)
-      .patch(`/api/duts/${ids.accelerometer.id}`)
+    const res = await request(demo.t.app)
+      .patch(`/api/duts/${demo.ids.accelerometer.id}`)
       .set(await auth('engineer'))
       .send({ limits: { offset: { limit: 20 }, sensitivity: { limit: 1 } } });
     expect(res.status).toBe(200);
@@ -103,18 +81,18 @@ describe('per-kind DUT limits', () => {
     expect(res.body.dut.limitUnit).toBe('mg');
     // The demo seed already gives these limits (nothing changed, nothing audited): a real change
     // is audited, and the seed's ±1 % comes back afterwards for the tests below.
-    const wider = await request(t.app)
-      .patch(`/api/duts/${ids.accelerometer.id}`)
+    const wider = await request(demo.t.app)
+      .patch(`/api/duts/${demo.ids.accelerometer.id}`)
       .set(await auth('engineer'))
       .send({ limits: { sensitivity: { limit: 1.5 } } });
     expect(wider.status).toBe(200);
-    const back = await request(t.app)
-      .patch(`/api/duts/${ids.accelerometer.id}`)
+    const back = await request(demo.t.app)
+      .patch(`/api/duts/${demo.ids.accelerometer.id}`)
       .set(await auth('engineer'))
       .send({ limits: { sensitivity: { limit: 1 } } });
     expect(back.status).toBe(200);
-    const audit = await request(t.app)
-      .get(`/api/studies/${ids.studyId}/audit`)
+    const audit = await request(demo.t.app)
+      .get(`/api/studies/${demo.ids.studyId}/audit`)
       .set(await auth('lead'));
     const events = (audit.body.events ?? audit.body.entries ?? audit.body) as Array<{
       action: string;
@@ -122,21 +100,21 @@ describe('per-kind DUT limits', () => {
       details: Record<string, unknown>;
     }>;
     const ev = events.find(
-      (e) => e.action === 'dut.update' && e.subjectId === ids.accelerometer.id,
+      (e) => e.action === 'dut.update' && e.subjectId === demo.ids.accelerometer.id,
     );
     expect(ev?.details).toHaveProperty('limits');
   });
 
   it('takes an asymmetric sensitivity limit and a one-sided one', async () => {
-    const res = await request(t.app)
-      .patch(`/api/duts/${ids.accelerometer.id}`)
+    const res = await request(demo.t.app)
+      .patch(`/api/duts/${demo.ids.accelerometer.id}`)
       .set(await auth('engineer'))
       .send({ limits: { sensitivity: { limitLow: -0.5, limitHigh: 1 } } });
     expect(res.status).toBe(200);
     const s = res.body.dut.limits.find((l: { key: string }) => l.key === 'sensitivity');
     expect([s.limit, s.limitLow, s.limitHigh]).toEqual([null, -0.5, 1]);
-    const back = await request(t.app)
-      .patch(`/api/duts/${ids.accelerometer.id}`)
+    const back = await request(demo.t.app)
+      .patch(`/api/duts/${demo.ids.accelerometer.id}`)
       .set(await auth('engineer'))
       .send({ limits: { sensitivity: { limit: 1 } } });
     expect(back.status).toBe(200);
@@ -179,8 +157,8 @@ describe('per-kind DUT limits', () => {
       /give the limit/,
     ],
   ])('refuses %s with 400 naming the field', async (_what, which, limits, path, reason) => {
-    const dut = which === 'crystal' ? ids.crystal : ids.accelerometer;
-    const res = await request(t.app)
+    const dut = which === 'crystal' ? demo.ids.crystal : demo.ids.accelerometer;
+    const res = await request(demo.t.app)
       .patch(`/api/duts/${dut.id}`)
       .set(await auth('engineer'))
       .send({ limits });
@@ -192,8 +170,8 @@ describe('per-kind DUT limits', () => {
   });
 
   it('refuses bounds in the wrong order at the schema', async () => {
-    const res = await request(t.app)
-      .patch(`/api/duts/${ids.accelerometer.id}`)
+    const res = await request(demo.t.app)
+      .patch(`/api/duts/${demo.ids.accelerometer.id}`)
       .set(await auth('engineer'))
       .send({ limits: { sensitivity: { limitLow: 1, limitHigh: -1 } } });
     expect(res.status).toBe(400);
@@ -201,8 +179,8 @@ describe('per-kind DUT limits', () => {
   });
 
   it("sets a crystal's stability limit at a chosen τ and keeps its ppm limit", async () => {
-    const res = await request(t.app)
-      .patch(`/api/duts/${ids.crystal.id}`)
+    const res = await request(demo.t.app)
+      .patch(`/api/duts/${demo.ids.crystal.id}`)
       .set(await auth('engineer'))
       .send({ limits: { stability: { limit: 0.5, tauS: 10 } } });
     expect(res.status).toBe(200);
@@ -210,8 +188,8 @@ describe('per-kind DUT limits', () => {
     expect(offset.key).toBe('frequency-offset');
     expect(offset.unit).toBe('ppm');
     expect(stability).toMatchObject({ key: 'stability', unit: 'ppb', limit: 0.5, tauS: 10 });
-    const cleared = await request(t.app)
-      .patch(`/api/duts/${ids.crystal.id}`)
+    const cleared = await request(demo.t.app)
+      .patch(`/api/duts/${demo.ids.crystal.id}`)
       .set(await auth('engineer'))
       .send({ limits: { stability: null } });
     expect(cleared.status).toBe(200);
@@ -223,11 +201,11 @@ describe('accelerometer comparisons and tilt checks', () => {
   const made: Record<string, Made> = {};
 
   beforeAll(async () => {
-    await request(t.app)
-      .patch(`/api/duts/${ids.accelerometer.id}`)
+    await request(demo.t.app)
+      .patch(`/api/duts/${demo.ids.accelerometer.id}`)
       .set(await auth('engineer'))
       .send({ limits: { offset: { limit: 20 }, sensitivity: { limit: 1 } } });
-    const [base, wash, over, bake] = ids.checkpoints;
+    const [base, wash, over, bake] = demo.ids.checkpoints;
     // Baseline: the guided tilt check's order (flat, on edge, inverted): inverted is the latest.
     made.baseFlat = await accelCapture(base, 'flat', 1);
     made.baseEdge = await accelCapture(base, 'on-edge', 2);
@@ -244,12 +222,12 @@ describe('accelerometer comparisons and tilt checks', () => {
   });
 
   it('compares a plain flat capture with the flat baseline, not the latest (inverted) one, and finds it within', async () => {
-    const res = await request(t.app)
-      .get(`/api/studies/${ids.studyId}/matrix`)
+    const res = await request(demo.t.app)
+      .get(`/api/studies/${demo.ids.studyId}/matrix`)
       .set(await auth('viewer'));
     expect(res.status).toBe(200);
     const row = res.body.rows.find(
-      (r: { dut: { id: number } }) => r.dut.id === ids.accelerometer.id,
+      (r: { dut: { id: number } }) => r.dut.id === demo.ids.accelerometer.id,
     );
     const wash = row.cells[1];
     expect(wash.capture.id).toBe(made.washFlat.id);
@@ -257,35 +235,35 @@ describe('accelerometer comparisons and tilt checks', () => {
     expect(wash.comparison.verdict).toBe('within');
     // The same part: Δ is noise, far from the 2 g a flat-vs-inverted pairing gave (the bug).
     expect(Math.abs(wash.comparison.delta)).toBeLessThan(1);
-    const page = await request(t.app)
+    const page = await request(demo.t.app)
       .get(`/api/captures/${made.washFlat.id}/baseline`)
       .set(await auth('viewer'));
     expect(page.body).toMatchObject({
-      baseline: { id: made.baseFlat.id, checkpointId: ids.checkpoints[0] },
+      baseline: { id: made.baseFlat.id, checkpointId: demo.ids.checkpoints[0] },
       reason: null,
     });
   });
 
   it('says "no baseline of this orientation" when the baseline has none', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/captures/${made.overX.id}/baseline`)
       .set(await auth('viewer'));
     expect(res.status).toBe(200);
     expect(res.body.baseline).toBeNull();
     expect(res.body.reason).toBe('no-baseline-orientation');
     expect(res.body.message).toMatch(/No baseline of this orientation/);
-    const matrix = await request(t.app)
-      .get(`/api/studies/${ids.studyId}/matrix`)
+    const matrix = await request(demo.t.app)
+      .get(`/api/studies/${demo.ids.studyId}/matrix`)
       .set(await auth('viewer'));
     const row = matrix.body.rows.find(
-      (r: { dut: { id: number } }) => r.dut.id === ids.accelerometer.id,
+      (r: { dut: { id: number } }) => r.dut.id === demo.ids.accelerometer.id,
     );
     expect(row.cells[2].comparison).toBeNull();
     expect(row.cells[2].problem).toMatch(/No baseline of this orientation/);
   });
 
   it('refuses to compare acceleration captures of different orientations (422)', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/comparisons?before=${made.baseInv.id}&after=${made.washFlat.id}`)
       .set(await auth('viewer'));
     expect(res.status).toBe(422);
@@ -293,7 +271,7 @@ describe('accelerometer comparisons and tilt checks', () => {
   });
 
   it('gives an acceleration capture its own budget: scatter, the LSB and orientation, no frequency lines', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/captures/${made.baseFlat.id}/analysis`)
       .set(await auth('viewer'));
     expect(res.status).toBe(200);
@@ -315,11 +293,11 @@ describe('accelerometer comparisons and tilt checks', () => {
   });
 
   it("stores the tilt check as the DUT's result at a checkpoint, with its uncertainty", async () => {
-    const res = await request(t.app)
-      .post(`/api/duts/${ids.accelerometer.id}/tilt-checks`)
+    const res = await request(demo.t.app)
+      .post(`/api/duts/${demo.ids.accelerometer.id}/tilt-checks`)
       .set(await auth('technician'))
       .send({
-        checkpointId: ids.checkpoints[0],
+        checkpointId: demo.ids.checkpoints[0],
         flatCaptureId: made.baseFlat.id,
         invertedCaptureId: made.baseInv.id,
         onEdgeCaptureId: made.baseEdge.id,
@@ -343,48 +321,48 @@ describe('accelerometer comparisons and tilt checks', () => {
     // Sensitivity in % of ideal: c = 100/(2·1000 mg) on the same lines.
     expect(tc.sensitivity.combined).toBeCloseTo((uOff * 100) / 1000, 9);
     expect(tc.onEdgeOffset.mean).toBeCloseTo(meanSd(made.baseEdge.values).mean, 9);
-    const list = await request(t.app)
-      .get(`/api/duts/${ids.accelerometer.id}/tilt-checks`)
+    const list = await request(demo.t.app)
+      .get(`/api/duts/${demo.ids.accelerometer.id}/tilt-checks`)
       .set(await auth('viewer'));
     expect(list.body.tiltChecks.map((x: { id: number }) => x.id)).toEqual([tc.id]);
   });
 
   it('refuses a tilt check whose captures do not fit their roles', async () => {
-    const wrong = await request(t.app)
-      .post(`/api/duts/${ids.accelerometer.id}/tilt-checks`)
+    const wrong = await request(demo.t.app)
+      .post(`/api/duts/${demo.ids.accelerometer.id}/tilt-checks`)
       .set(await auth('technician'))
       .send({
-        checkpointId: ids.checkpoints[0],
+        checkpointId: demo.ids.checkpoints[0],
         flatCaptureId: made.baseFlat.id,
         invertedCaptureId: made.baseEdge.id,
       });
     expect(wrong.status).toBe(400);
     expect(wrong.body.error.details[0]).toMatchObject({ path: 'invertedCaptureId' });
     expect(wrong.body.error.details[0].message).toMatch(/on-edge, not inverted/);
-    const elsewhere = await request(t.app)
-      .post(`/api/duts/${ids.accelerometer.id}/tilt-checks`)
+    const elsewhere = await request(demo.t.app)
+      .post(`/api/duts/${demo.ids.accelerometer.id}/tilt-checks`)
       .set(await auth('technician'))
       .send({
-        checkpointId: ids.checkpoints[0],
+        checkpointId: demo.ids.checkpoints[0],
         flatCaptureId: made.washFlat.id,
         invertedCaptureId: made.baseInv.id,
       });
     expect(elsewhere.status).toBe(400);
     expect(elsewhere.body.error.details[0].path).toBe('flatCaptureId');
-    const crystal = await request(t.app)
-      .post(`/api/duts/${ids.crystal.id}/tilt-checks`)
+    const crystal = await request(demo.t.app)
+      .post(`/api/duts/${demo.ids.crystal.id}/tilt-checks`)
       .set(await auth('technician'))
       .send({
-        checkpointId: ids.checkpoints[0],
+        checkpointId: demo.ids.checkpoints[0],
         flatCaptureId: made.baseFlat.id,
         invertedCaptureId: made.baseInv.id,
       });
     expect(crystal.status).toBe(409);
-    const viewer = await request(t.app)
-      .post(`/api/duts/${ids.accelerometer.id}/tilt-checks`)
+    const viewer = await request(demo.t.app)
+      .post(`/api/duts/${demo.ids.accelerometer.id}/tilt-checks`)
       .set(await auth('viewer'))
       .send({
-        checkpointId: ids.checkpoints[0],
+        checkpointId: demo.ids.checkpoints[0],
         flatCaptureId: made.baseFlat.id,
         invertedCaptureId: made.baseInv.id,
       });
@@ -393,11 +371,11 @@ describe('accelerometer comparisons and tilt checks', () => {
 
   it('compares tilt checks across checkpoints in the matrix: within for the unchanged part, exceeds for a +30 mg offset', async () => {
     for (const [cp, flat, inv, edge] of [
-      [ids.checkpoints[1], made.washFlat.id, made.washInv.id, made.washEdge.id],
-      [ids.checkpoints[3], made.bakeFlat.id, made.bakeInv.id, null],
+      [demo.ids.checkpoints[1], made.washFlat.id, made.washInv.id, made.washEdge.id],
+      [demo.ids.checkpoints[3], made.bakeFlat.id, made.bakeInv.id, null],
     ] as const) {
-      const r = await request(t.app)
-        .post(`/api/duts/${ids.accelerometer.id}/tilt-checks`)
+      const r = await request(demo.t.app)
+        .post(`/api/duts/${demo.ids.accelerometer.id}/tilt-checks`)
         .set(await auth('technician'))
         .send({
           checkpointId: cp,
@@ -407,11 +385,11 @@ describe('accelerometer comparisons and tilt checks', () => {
         });
       expect(r.status).toBe(201);
     }
-    const res = await request(t.app)
-      .get(`/api/studies/${ids.studyId}/matrix`)
+    const res = await request(demo.t.app)
+      .get(`/api/studies/${demo.ids.studyId}/matrix`)
       .set(await auth('viewer'));
     const row = res.body.rows.find(
-      (r: { dut: { id: number } }) => r.dut.id === ids.accelerometer.id,
+      (r: { dut: { id: number } }) => r.dut.id === demo.ids.accelerometer.id,
     );
     const [base, wash, over, bake] = row.cells;
     expect(base.tiltCheck.check.axes.z.offsetMg).toBeCloseTo(PART.offsetMg, 0);
@@ -428,7 +406,9 @@ describe('accelerometer comparisons and tilt checks', () => {
     expect(b.offset.verdict).toBe('exceeds');
     expect(b.sensitivity.verdict).toBe('within');
     // The crystal's row carries no tilt checks.
-    const crystal = res.body.rows.find((r: { dut: { id: number } }) => r.dut.id === ids.crystal.id);
+    const crystal = res.body.rows.find(
+      (r: { dut: { id: number } }) => r.dut.id === demo.ids.crystal.id,
+    );
     expect(crystal.cells.every((c: { tiltCheck?: unknown }) => c.tiltCheck === undefined)).toBe(
       true,
     );

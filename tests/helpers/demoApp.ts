@@ -25,6 +25,15 @@ export interface DemoApp {
   newCapture(role?: string, extra?: Record<string, unknown>): Promise<number>;
   /** Posts one batch `{ readings }` to a capture, as `role` (tests send bad readings too). */
   postReadings(id: number, readings: unknown[], role?: string): Promise<request.Response>;
+  /**
+   * Opens a capture as `role` (technician by default; the body of `newCapture` with `extra`),
+   * posts `readings` in one batch and finishes it unless `open`, expecting 201, 200 and 200; its id.
+   */
+  recordCapture(
+    readings: ReadingIn[],
+    extra?: Record<string, unknown>,
+    opts?: { role?: string; open?: boolean },
+  ): Promise<number>;
   /** Posts one batch as a binary body (READINGS_F64_TYPE): readings to encode, or bytes as made. */
   postBinary(id: number, body: ReadingIn[] | Uint8Array, role?: string): Promise<request.Response>;
   /**
@@ -82,6 +91,16 @@ export function useDemoApp(
       .post(`/api/captures/${id}/readings`)
       .set(await demo.auth(role))
       .send({ readings });
+  demo.recordCapture = async (readings, extra = {}, { role = 'technician', open = false } = {}) => {
+    const id = await demo.newCapture(role, extra);
+    const posted = await demo.postReadings(id, readings, role);
+    expect(posted.status, JSON.stringify(posted.body)).toBe(200);
+    if (!open) {
+      const finished = await demo.call(role, 'post', `/api/captures/${id}/finish`);
+      expect(finished.status, JSON.stringify(finished.body)).toBe(200);
+    }
+    return id;
+  };
   demo.postBinary = async (id, body, role = 'technician') => {
     const bytes = body instanceof Uint8Array ? body : encodeReadingsF64(body);
     return request(demo.t.app)
