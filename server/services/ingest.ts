@@ -1,22 +1,17 @@
 import type pg from 'pg';
-import { AppError, ForbiddenError, NotFoundError, ValidationError } from '../errors.js';
-import {
-  findBadReading,
-  type IngestResult,
-  type ReadingIn,
-} from '../../shared/protocol/captures.js';
+import { AppError, ForbiddenError, NotFoundError } from '../errors.js';
+import type { IngestResult } from '../../shared/protocol/captures.js';
 import type { LiveHub } from './liveHub.js';
 import type { AuthUser } from './auth.js';
 import { PlausibilityWindow, PLAUSIBILITY } from '../../shared/protocol/plausibility.js';
-import { ReadingFlag } from '../../shared/protocol/reading.js';
 import { roleCan } from '../../shared/protocol/roles.js';
 import { assertCaptureWritable, LOCKED_STATUSES, studyLockedError } from './studyLock.js';
 import { float8Array, int2Array, int4Array } from '../db/binaryArrays.js';
-import { decodeReadingsF64 } from '../../shared/protocol/readingsBinary.js';
 import { audit } from './audit.js';
 import { isRecording } from '../../shared/protocol/captureLifecycle.js';
 import { ingestSmallBatch, type IngestRow, type SmallBatch } from './ingestGroup.js';
 import { ingestByCopy } from './ingestCopy.js';
+import { batchColumns, flagImplausible } from './ingestColumns.js';
 
 /**
  * The ingest statement. `conflictSafe` inserts with ON CONFLICT DO NOTHING; otherwise the insert
@@ -149,59 +144,13 @@ export async function ingestReadings(
   captureId: number,
   body: unknown,
 ): Promise<IngestResult> {
-  // The batch as four columns: from the JSON body ({ readings: [...] }) or the compact binary one
-  // (shared/protocol/readingsBinary.ts, a Buffer from the raw body parser).
-  let seqs: number[];
-  let ts: number[];
-  let values: number[];
-  let flags: number[];
-  if (Buffer.isBuffer(body)) {
-    const cols = decodeReadingsF64(body);
-    if ('reason' in cols) {
-      throw new ValidationError(
-        cols.index >= 0 ? `reading ${cols.index}: ${cols.reason}` : cols.reason,
-        { index: cols.index, reason: cols.reason },
-      );
-    }
-    ({ seq: seqs, t: ts, value: values, flags } = cols);
-  } else {
-    const readings = (body as { readings?: unknown } | null)?.readings;
-    const bad = findBadReading(readings);
-    if (bad) {
-      throw new ValidationError(
-        bad.index >= 0 ? `readings[${bad.index}]: ${bad.reason}` : bad.reason,
-        { index: bad.index, reason: bad.reason },
-      );
-    }
-    const list = readings as ReadingIn[];
-    const k = list.length;
-    seqs = new Array<number>(k);
-    ts = new Array<number>(k);
-    values = new Array<number>(k);
-    flags = new Array<number>(k);
-    for (let i = 0; i < k; i++) {
-      const r = list[i];
-      seqs[i] = r.seq;
-      ts[i] = r.t;
-      values[i] = r.value;
-      flags[i] = r.flags ?? 0;
-    }
-  }
+  // The batch as four columns (server/services/ingestColumns.ts): from the JSON body
+  // ({ readings: [...] }) or the compact binary one, with its seq range and order.
+  const { seqs, ts, values, flags, minSeq, maxSeq, increasing } = batchColumns(body);
   const n = seqs.length;
-  let maxSeq = -1;
-  let minSeq = n > 0 ? Number.MAX_SAFE_INTEGER : -1;
-  let increasing = true;
-  for (let i = 0; i < n; i++) {
-    const seq = seqs[i];
-    if (i > 0 && seq <= seqs[i - 1]) increasing = false;
-    if (seq < minSeq) minSeq = seq;
-    if (seq > maxSeq) maxSeq = seq;
-  }
   // Implausible values (shared/protocol/plausibility.ts) are stored with their flag bit set, so
   // one absurd number never blocks the analysis or the finish.
-  const judge = await plausibilityFor(pool, captureId);
-  for (let i = 0; i < n; i++)
-    if (flags[i] === 0 && !judge.check(values[i])) flags[i] |= ReadingFlag.implausible;
+  flagImplausible(await plausibilityFor(pool, captureId), values, flags);
   const watched = hub.hasWatchers(captureId);
   const mayWriteAny = roleCan(user.role, 'captures:write-any');
   if (!roleCan(user.role, 'captures:run'))
