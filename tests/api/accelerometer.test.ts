@@ -39,15 +39,7 @@ async function accelCapture(
     () => ideal(orientation, shiftMg) + PART.noiseMg * rnd.gauss(),
   );
   const readings = values.map((value, i) => ({ seq: i, t: i * 0.1, value }));
-  const id = await demo.recordCapture(readings, {
-    dutId: demo.ids.accelerometer.id,
-    checkpointId,
-    quantity: 'acceleration',
-    unit: 'mg',
-    gateTime: 0.1,
-    orientation,
-    ambientC: 23,
-  });
+  const id = await demo.recordCapture(readings, demo.accelBody(checkpointId, orientation));
   return { id, values };
 }
 

@@ -1,7 +1,7 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds, seeded } from '../helpers/demo.js';
+import { seeded } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { linkPreset } from '../../shared/protocol/linkProfile.js';
 import { SPI_AXIS_QUERY } from '../../shared/protocol/accelerometer.js';
 
@@ -10,9 +10,8 @@ import { SPI_AXIS_QUERY } from '../../shared/protocol/accelerometer.js';
  * with its own baseline check; the captures say which axis they read (their link profile's poll
  * line) and which pose (their recorded orientation).
  */
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
+const demo = useDemoApp();
+const { auth } = demo;
 
 /**
  * An invented part: X offset +4.2 mg and sensitivity +0.3 %, Z +6.1 mg and +0.4 %, 1.2 mg of white
@@ -36,57 +35,29 @@ async function capture(
   seed: number,
 ): Promise<number> {
   const linkProfile = { ...linkPreset('spi-bridge'), queryCommand: SPI_AXIS_QUERY[axis] };
-  const c = await request(t.app)
-    .post('/api/captures')
-    .set(await auth('technician'))
-    .send({
-      dutId: ids.accelerometer.id,
-      checkpointId,
-      quantity: 'acceleration',
-      unit: 'mg',
-      gateTime: 0.1,
-      orientation,
-      ambientC: 23,
-      linkProfile,
-    });
-  expect(c.status).toBe(201);
   const rnd = seeded(seed);
   const readings = Array.from({ length: 200 }, (_, i) => ({
     seq: i,
     t: i * 0.1,
     value: reading(axis, orientation) + NOISE_MG * rnd.gauss(),
   }));
-  expect(
-    (
-      await request(t.app)
-        .post(`/api/captures/${c.body.id}/readings`)
-        .set(await auth('technician'))
-        .send({ readings })
-    ).status,
-  ).toBeLessThan(300);
-  expect(
-    (
-      await request(t.app)
-        .post(`/api/captures/${c.body.id}/finish`)
-        .set(await auth('technician'))
-    ).status,
-  ).toBe(200);
-  return c.body.id as number;
+  return demo.recordCapture(readings, {
+    ...demo.accelBody(checkpointId, orientation),
+    linkProfile,
+  });
 }
 
 const made: Record<string, number> = {};
 
 beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-  await request(t.app)
-    .patch(`/api/duts/${ids.accelerometer.id}`)
+  await request(demo.t.app)
+    .patch(`/api/duts/${demo.ids.accelerometer.id}`)
     .set(await auth('engineer'))
     .send({ limits: { offset: { limit: 20 }, sensitivity: { limit: 1 } } });
   let seed = 40;
   for (const [tag, cp] of [
-    ['base', ids.checkpoints[0]],
-    ['wash', ids.checkpoints[1]],
+    ['base', demo.ids.checkpoints[0]],
+    ['wash', demo.ids.checkpoints[1]],
   ] as const) {
     made[`${tag}XUp`] = await capture(cp, 'x', 'x-up', seed++);
     made[`${tag}XLevel`] = await capture(cp, 'x', 'z-up', seed++);
@@ -95,13 +66,10 @@ beforeAll(async () => {
     made[`${tag}ZDown`] = await capture(cp, 'z', 'inverted', seed++);
   }
 });
-afterAll(async () => {
-  await t.close();
-});
 
 async function check(body: Record<string, unknown>) {
-  return request(t.app)
-    .post(`/api/duts/${ids.accelerometer.id}/tilt-checks`)
+  return request(demo.t.app)
+    .post(`/api/duts/${demo.ids.accelerometer.id}/tilt-checks`)
     .set(await auth('technician'))
     .send(body);
 }
@@ -109,7 +77,7 @@ async function check(body: Record<string, unknown>) {
 describe('tilt checks on X and Z', () => {
   it('forms the X axis from its up and down poses, the level pose as a second offset', async () => {
     const res = await check({
-      checkpointId: ids.checkpoints[0],
+      checkpointId: demo.ids.checkpoints[0],
       axis: 'x',
       flatCaptureId: made.baseXUp,
       invertedCaptureId: made.baseXDown,
@@ -125,7 +93,7 @@ describe('tilt checks on X and Z', () => {
 
   it('refuses Z poses or a Z reading for an X check, naming the field', async () => {
     const pose = await check({
-      checkpointId: ids.checkpoints[0],
+      checkpointId: demo.ids.checkpoints[0],
       axis: 'x',
       flatCaptureId: made.baseZFlat,
       invertedCaptureId: made.baseXDown,
@@ -134,9 +102,9 @@ describe('tilt checks on X and Z', () => {
     expect(pose.body.error.details[0].path).toBe('flatCaptureId');
     expect(pose.body.error.details[0].message).toMatch(/not x-up \(\+1 g on X\)/);
     // A Z capture recorded as if X were up: its link profile read Z1.
-    const wrongAxis = await capture(ids.checkpoints[0], 'z', 'x-up', 99);
+    const wrongAxis = await capture(demo.ids.checkpoints[0], 'z', 'x-up', 99);
     const read = await check({
-      checkpointId: ids.checkpoints[0],
+      checkpointId: demo.ids.checkpoints[0],
       axis: 'x',
       flatCaptureId: wrongAxis,
       invertedCaptureId: made.baseXDown,
@@ -148,31 +116,31 @@ describe('tilt checks on X and Z', () => {
   it('compares each axis with its own baseline check: the unchanged part is within per axis', async () => {
     for (const body of [
       {
-        checkpointId: ids.checkpoints[0],
+        checkpointId: demo.ids.checkpoints[0],
         axis: 'z',
         flatCaptureId: made.baseZFlat,
         invertedCaptureId: made.baseZDown,
       },
       {
-        checkpointId: ids.checkpoints[1],
+        checkpointId: demo.ids.checkpoints[1],
         axis: 'x',
         flatCaptureId: made.washXUp,
         invertedCaptureId: made.washXDown,
         onEdgeCaptureId: made.washXLevel,
       },
       {
-        checkpointId: ids.checkpoints[1],
+        checkpointId: demo.ids.checkpoints[1],
         // Z by default: the old body without an axis still means Z.
         flatCaptureId: made.washZFlat,
         invertedCaptureId: made.washZDown,
       },
     ])
       expect((await check(body)).status).toBe(201);
-    const res = await request(t.app)
-      .get(`/api/studies/${ids.studyId}/matrix`)
+    const res = await request(demo.t.app)
+      .get(`/api/studies/${demo.ids.studyId}/matrix`)
       .set(await auth('viewer'));
     const row = res.body.rows.find(
-      (r: { dut: { id: number } }) => r.dut.id === ids.accelerometer.id,
+      (r: { dut: { id: number } }) => r.dut.id === demo.ids.accelerometer.id,
     );
     const [base, wash] = row.cells;
     expect(Object.keys(base.tiltCheck.check.axes).sort()).toEqual(['x', 'z']);
@@ -188,7 +156,7 @@ describe('tilt checks on X and Z', () => {
   });
 
   it("judges an X capture's pose for X in its own budget", async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/captures/${made.baseXLevel}/analysis`)
       .set(await auth('viewer'));
     expect(res.status).toBe(200);

@@ -25,6 +25,8 @@ export interface DemoApp {
   newCapture(role?: string, extra?: Record<string, unknown>): Promise<number>;
   /** Posts one batch `{ readings }` to a capture, as `role` (tests send bad readings too). */
   postReadings(id: number, readings: unknown[], role?: string): Promise<request.Response>;
+  /** The `extra` of a 0.1 s acceleration capture (mg, 23 °C) of the demo accelerometer. */
+  accelBody(checkpointId: number, orientation: string): Record<string, unknown>;
   /**
    * Opens a capture as `role` (technician by default; the body of `newCapture` with `extra`),
    * posts `readings` in one batch and finishes it unless `open`, expecting 201, 200 and 200; its id.
@@ -91,6 +93,15 @@ export function useDemoApp(
       .post(`/api/captures/${id}/readings`)
       .set(await demo.auth(role))
       .send({ readings });
+  demo.accelBody = (checkpointId, orientation) => ({
+    dutId: demo.ids.accelerometer.id,
+    checkpointId,
+    quantity: 'acceleration',
+    unit: 'mg',
+    gateTime: 0.1,
+    orientation,
+    ambientC: 23,
+  });
   demo.recordCapture = async (readings, extra = {}, { role = 'technician', open = false } = {}) => {
     const id = await demo.newCapture(role, extra);
     const posted = await demo.postReadings(id, readings, role);
