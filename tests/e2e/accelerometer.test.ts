@@ -10,6 +10,7 @@ import {
   type Api,
   type Session,
 } from '../helpers/browser.js';
+import { accelerationBody } from '../helpers/demo.js';
 import { gaussian } from '../helpers/random.js';
 
 // Accelerometers in a real Chromium (issue 13): a technician records the U5 accelerometer's tilt
@@ -36,15 +37,11 @@ async function accelCapture(
   orientation: 'flat' | 'on-edge' | 'inverted',
   seed: number,
 ): Promise<number> {
-  const c = await api<{ id: number }>('POST', '/api/captures', {
-    dutId,
-    checkpointId,
-    quantity: 'acceleration',
-    unit: 'mg',
-    gateTime: 0.1,
-    orientation,
-    ambientC: 23,
-  });
+  const c = await api<{ id: number }>(
+    'POST',
+    '/api/captures',
+    accelerationBody(dutId, checkpointId, orientation),
+  );
   const g = gaussian(seed);
   const readings = Array.from({ length: 200 }, (_, seq) => ({
     seq,

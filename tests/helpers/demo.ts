@@ -18,6 +18,17 @@ export async function demoIds(app: Express, token: string) {
   };
 }
 
+/** The body of a 0.1 s acceleration capture (mg, 23 °C) of the accelerometer `dutId` in `orientation`. */
+export const accelerationBody = (dutId: number, checkpointId: number, orientation: string) => ({
+  dutId,
+  checkpointId,
+  quantity: 'acceleration',
+  unit: 'mg',
+  gateTime: 0.1,
+  orientation,
+  ambientC: 23,
+});
+
 /** A deterministic pseudo-random generator (mulberry32) with Gaussian draws, for test data. */
 export function seeded(seed: number) {
   let a = seed >>> 0;

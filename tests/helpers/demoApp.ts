@@ -1,7 +1,7 @@
 import { afterAll, beforeAll, expect } from 'vitest';
 import request from 'supertest';
 import { createTestApp, type TestApp, type TestAppOptions } from './app.js';
-import { demoIds } from './demo.js';
+import { accelerationBody, demoIds } from './demo.js';
 import { encodeReadingsF64, READINGS_F64_TYPE } from '../../shared/protocol/readingsBinary.js';
 import type { ReadingIn } from '../../shared/protocol/captures.js';
 
@@ -93,15 +93,8 @@ export function useDemoApp(
       .post(`/api/captures/${id}/readings`)
       .set(await demo.auth(role))
       .send({ readings });
-  demo.accelBody = (checkpointId, orientation) => ({
-    dutId: demo.ids.accelerometer.id,
-    checkpointId,
-    quantity: 'acceleration',
-    unit: 'mg',
-    gateTime: 0.1,
-    orientation,
-    ambientC: 23,
-  });
+  demo.accelBody = (checkpointId, orientation) =>
+    accelerationBody(demo.ids.accelerometer.id, checkpointId, orientation);
   demo.recordCapture = async (readings, extra = {}, { role = 'technician', open = false } = {}) => {
     const id = await demo.newCapture(role, extra);
     const posted = await demo.postReadings(id, readings, role);
