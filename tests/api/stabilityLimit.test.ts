@@ -1,68 +1,46 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds, seeded } from '../helpers/demo.js';
+import { seeded } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 
 /**
  * A crystal's optional stability limit (issue 13): σy at the limit's τ, its 95 % interval and the
  * verdict, judged per capture in the matrix and on the capture's own route, always from the DUT's
  * current limit.
  */
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
+const demo = useDemoApp();
+const { auth } = demo;
 
 /** White FM of σy(1 s) = 1 ppb: σy(τ) = 1 ppb/√τ (NIST SP 1065 Table 3, slope −1/2). */
 const SIGMA_1S = 1e-9;
 const N = 2000;
 
 async function crystalCapture(checkpointId: number, seed: number): Promise<number> {
-  const f0 = ids.crystal.nominal;
-  const c = await request(t.app)
-    .post('/api/captures')
-    .set(await auth('technician'))
-    .send({
-      dutId: ids.crystal.id,
-      checkpointId,
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-      referenceId: 1,
-      ambientC: 23,
-    });
-  expect(c.status).toBe(201);
+  const f0 = demo.ids.crystal.nominal;
   const rnd = seeded(seed);
   const readings = Array.from({ length: N }, (_, i) => ({
     seq: i,
     t: i,
     value: f0 * (1 + SIGMA_1S * rnd.gauss()),
   }));
-  const r = await request(t.app)
-    .post(`/api/captures/${c.body.id}/readings`)
-    .set(await auth('technician'))
-    .send({ readings });
-  expect(r.status).toBeLessThan(300);
-  const f = await request(t.app)
-    .post(`/api/captures/${c.body.id}/finish`)
-    .set(await auth('technician'));
-  expect(f.status).toBe(200);
-  return c.body.id as number;
+  // The demo crystal, frequency in Hz at a 1 s gate (recordCapture's defaults).
+  return demo.recordCapture(readings, { checkpointId, referenceId: 1, ambientC: 23 });
 }
 
 async function setLimit(limit: number, tauS: number): Promise<void> {
-  const res = await request(t.app)
-    .patch(`/api/duts/${ids.crystal.id}`)
+  const res = await request(demo.t.app)
+    .patch(`/api/duts/${demo.ids.crystal.id}`)
     .set(await auth('engineer'))
     .send({ limits: { stability: { limit, tauS } } });
   expect(res.status).toBe(200);
 }
 
 async function cellAt(checkpointId: number) {
-  const res = await request(t.app)
-    .get(`/api/studies/${ids.studyId}/matrix`)
+  const res = await request(demo.t.app)
+    .get(`/api/studies/${demo.ids.studyId}/matrix`)
     .set(await auth('viewer'));
   expect(res.status).toBe(200);
-  const row = res.body.rows.find((r: { dut: { id: number } }) => r.dut.id === ids.crystal.id);
+  const row = res.body.rows.find((r: { dut: { id: number } }) => r.dut.id === demo.ids.crystal.id);
   return row.cells.find((c: { checkpointId: number }) => c.checkpointId === checkpointId);
 }
 
@@ -70,19 +48,14 @@ let baseId: number;
 let washId: number;
 
 beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-  baseId = await crystalCapture(ids.checkpoints[0], 101);
-  washId = await crystalCapture(ids.checkpoints[1], 102);
-});
-afterAll(async () => {
-  await t.close();
+  baseId = await crystalCapture(demo.ids.checkpoints[0], 101);
+  washId = await crystalCapture(demo.ids.checkpoints[1], 102);
 });
 
 describe("a crystal's stability limit at τ", () => {
   it('finds a limit well above σy(10 s) within, with σy near 1 ppb/√10 and its 95 % interval', async () => {
     await setLimit(100, 10);
-    const cell = await cellAt(ids.checkpoints[1]);
+    const cell = await cellAt(demo.ids.checkpoints[1]);
     const s = cell.stability;
     expect(s.verdict).toBe('within');
     expect(s.reason).toBeNull();
@@ -102,7 +75,7 @@ describe("a crystal's stability limit at τ", () => {
     expect(s.before.captureId).toBe(baseId);
     expect(s.before.figure.m).toBe(10);
     // The capture page's route gives the same judgement.
-    const own = await request(t.app)
+    const own = await request(demo.t.app)
       .get(`/api/captures/${washId}/stability-limit`)
       .set(await auth('viewer'));
     expect(own.status).toBe(200);
@@ -113,17 +86,17 @@ describe("a crystal's stability limit at τ", () => {
 
   it('changing the limit changes the verdict at once: a limit well below σy exceeds', async () => {
     await setLimit(0.01, 10);
-    const cell = await cellAt(ids.checkpoints[1]);
+    const cell = await cellAt(demo.ids.checkpoints[1]);
     expect(cell.stability.limitPpb).toBe(0.01);
     expect(cell.stability.verdict).toBe('exceeds');
     // At an octave τ (8 s) the figure comes from the stored curve, with the same rule.
     await setLimit(0.01, 8);
-    const octave = await cellAt(ids.checkpoints[1]);
+    const octave = await cellAt(demo.ids.checkpoints[1]);
     expect(octave.stability.after.figure.m).toBe(8);
     expect(octave.stability.verdict).toBe('exceeds');
     expect(octave.stability.after.figure.dev * 1e9).toBeGreaterThan((1 / Math.sqrt(8)) * 0.75);
     // The baseline cell is judged on its own capture (a stability is judged per capture).
-    const base = await cellAt(ids.checkpoints[0]);
+    const base = await cellAt(demo.ids.checkpoints[0]);
     expect(base.stability.after.captureId).toBe(baseId);
     expect(base.stability.verdict).toBe('exceeds');
     expect(base.stability.before).toBeNull();
@@ -131,31 +104,31 @@ describe("a crystal's stability limit at τ", () => {
 
   it('gives inconclusive with the reason when τ is longer than the capture supports', async () => {
     await setLimit(100, 5000);
-    const cell = await cellAt(ids.checkpoints[1]);
+    const cell = await cellAt(demo.ids.checkpoints[1]);
     expect(cell.stability.verdict).toBe('inconclusive');
     expect(cell.stability.after.figure).toBeNull();
     // OADEV needs N − 2m ≥ 1 phase points (SP 1065 eq 11): m = 5000 needs 10 000 readings.
     expect(cell.stability.reason).toMatch(/^inconclusive: capture too short for τ = 5000 s/);
     expect(cell.stability.reason).toMatch(/10000 readings, the capture has 2000/);
-    const own = await request(t.app)
+    const own = await request(demo.t.app)
       .get(`/api/captures/${washId}/stability-limit`)
       .set(await auth('viewer'));
     expect(own.body.stability.verdict).toBe('inconclusive');
   });
 
   it('carries no stability part once the limit is cleared, nor for DUTs without one', async () => {
-    const cleared = await request(t.app)
-      .patch(`/api/duts/${ids.crystal.id}`)
+    const cleared = await request(demo.t.app)
+      .patch(`/api/duts/${demo.ids.crystal.id}`)
       .set(await auth('engineer'))
       .send({ limits: { stability: null } });
     expect(cleared.status).toBe(200);
-    const cell = await cellAt(ids.checkpoints[1]);
+    const cell = await cellAt(demo.ids.checkpoints[1]);
     expect(cell.stability).toBeUndefined();
-    const own = await request(t.app)
+    const own = await request(demo.t.app)
       .get(`/api/captures/${washId}/stability-limit`)
       .set(await auth('viewer'));
     expect(own.body).toEqual({ stability: null });
-    const missing = await request(t.app)
+    const missing = await request(demo.t.app)
       .get(`/api/captures/999999/stability-limit`)
       .set(await auth('viewer'));
     expect(missing.status).toBe(404);
