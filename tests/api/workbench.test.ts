@@ -1,20 +1,11 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
 import Papa from 'papaparse';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds, seeded } from '../helpers/demo.js';
+import { seeded } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
+const { auth } = demo;
 
 async function capture(
   dut: { id: number; nominal: number },
@@ -22,46 +13,29 @@ async function capture(
   seed: number,
   opts: { n?: number; finish?: boolean; referenceId?: number } = {},
 ) {
-  const c = await request(t.app)
-    .post('/api/captures')
-    .set(await auth('technician'))
-    .send({
-      dutId: dut.id,
-      checkpointId,
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-      ambientC: 23.5,
-      referenceId: opts.referenceId ?? 1,
-    });
-  expect(c.status).toBe(201);
   const rnd = seeded(seed);
   const readings = Array.from({ length: opts.n ?? 256 }, (_, i) => ({
     seq: i,
     t: i,
     value: dut.nominal * (1 + 1e-9 * rnd.gauss()),
   }));
-  await request(t.app)
-    .post(`/api/captures/${c.body.id}/readings`)
-    .set(await auth('technician'))
-    .send({ readings });
-  if (opts.finish !== false)
-    await request(t.app)
-      .post(`/api/captures/${c.body.id}/finish`)
-      .set(await auth('technician'));
-  return c.body.id as number;
+  return demo.recordCapture(
+    readings,
+    { dutId: dut.id, checkpointId, ambientC: 23.5, referenceId: opts.referenceId ?? 1 },
+    { open: opts.finish === false },
+  );
 }
 
 /** Counts the SQL statements both database handles run while `fn` runs. */
 async function countQueries(fn: () => Promise<unknown>): Promise<number> {
   let n = 0;
-  const pool = t.db.pool as unknown as { query: (...a: unknown[]) => unknown };
+  const pool = demo.t.db.pool as unknown as { query: (...a: unknown[]) => unknown };
   const original = pool.query;
   pool.query = function (this: unknown, ...a: unknown[]) {
     n++;
     return original.apply(this, a);
   };
-  const options = (t.db.sequelize as unknown as { options: { logging?: unknown } }).options;
+  const options = (demo.t.db.sequelize as unknown as { options: { logging?: unknown } }).options;
   const logging = options.logging;
   options.logging = () => {
     n++;
@@ -77,17 +51,17 @@ async function countQueries(fn: () => Promise<unknown>): Promise<number> {
 
 describe('the overlay of several captures', () => {
   it('returns each capture’s curve with its DUT and checkpoint, in the order asked', async () => {
-    const a = await capture(ids.crystal, ids.checkpoints[0], 1);
-    const b = await capture(ids.crystal, ids.checkpoints[1], 2);
-    const c = await capture(ids.tuningFork, ids.checkpoints[0], 3);
-    const res = await request(t.app)
+    const a = await capture(demo.ids.crystal, demo.ids.checkpoints[0], 1);
+    const b = await capture(demo.ids.crystal, demo.ids.checkpoints[1], 2);
+    const c = await capture(demo.ids.tuningFork, demo.ids.checkpoints[0], 3);
+    const res = await request(demo.t.app)
       .get(`/api/captures/stability?ids=${c},${a},${b}`)
       .set(await auth('viewer'));
     expect(res.status).toBe(200);
     expect(res.body.kind).toBe('oadev');
     expect(res.body.curves.map((x: { captureId: number }) => x.captureId)).toEqual([c, a, b]);
     expect(res.body.curves[0].dut.label).toMatch(/^Y3/);
-    expect(res.body.curves[1].checkpoint.id).toBe(ids.checkpoints[0]);
+    expect(res.body.curves[1].checkpoint.id).toBe(demo.ids.checkpoints[0]);
     for (const curve of res.body.curves) {
       expect(curve.stability.points.length).toBeGreaterThan(3);
       // 256 readings, octave τ from τ0 = 1 s: the first point is at τ = 1 s (common practice, no source).
@@ -95,10 +69,10 @@ describe('the overlay of several captures', () => {
       expect(curve.stability.points[0].lo).toBeLessThan(curve.stability.points[0].dev);
     }
     // The same curve the capture's own analysis route gives.
-    const own = await request(t.app)
+    const own = await request(demo.t.app)
       .get(`/api/captures/${a}/analysis?kind=mdev`)
       .set(await auth('viewer'));
-    const mdev = await request(t.app)
+    const mdev = await request(demo.t.app)
       .get(`/api/captures/stability?ids=${a},${b}&kind=mdev`)
       .set(await auth('viewer'));
     expect(mdev.status).toBe(200);
@@ -111,22 +85,27 @@ describe('the overlay of several captures', () => {
     const list: number[] = [];
     for (let i = 0; i < 8; i++)
       list.push(
-        await capture(i % 2 ? ids.crystal : ids.tuningFork, ids.checkpoints[i % 4], 10 + i, {
-          n: 64,
-        }),
+        await capture(
+          i % 2 ? demo.ids.crystal : demo.ids.tuningFork,
+          demo.ids.checkpoints[i % 4],
+          10 + i,
+          {
+            n: 64,
+          },
+        ),
       );
     const token = await auth('viewer');
     // Warm the session lookup so both runs pay the same fixed cost.
-    await request(t.app).get(`/api/captures/stability?ids=${list[0]}`).set(token);
+    await request(demo.t.app).get(`/api/captures/stability?ids=${list[0]}`).set(token);
     for (const kind of ['oadev', 'hdev']) {
       const two = await countQueries(() =>
-        request(t.app)
+        request(demo.t.app)
           .get(`/api/captures/stability?ids=${list.slice(0, 2).join(',')}&kind=${kind}`)
           .set(token)
           .expect(200),
       );
       const eight = await countQueries(() =>
-        request(t.app)
+        request(demo.t.app)
           .get(`/api/captures/stability?ids=${list.join(',')}&kind=${kind}`)
           .set(token)
           .expect(200),
@@ -139,21 +118,21 @@ describe('the overlay of several captures', () => {
 
   it('refuses more than 12 captures, an open capture and a missing one', async () => {
     const many = Array.from({ length: 13 }, (_, i) => i + 1).join(',');
-    const tooMany = await request(t.app)
+    const tooMany = await request(demo.t.app)
       .get(`/api/captures/stability?ids=${many}`)
       .set(await auth('viewer'));
     expect(tooMany.status).toBe(400);
     expect(tooMany.body.error.message).toContain('at most 12');
-    const open = await capture(ids.crystal, ids.checkpoints[2], 30, { finish: false });
-    const refused = await request(t.app)
+    const open = await capture(demo.ids.crystal, demo.ids.checkpoints[2], 30, { finish: false });
+    const refused = await request(demo.t.app)
       .get(`/api/captures/stability?ids=${open}`)
       .set(await auth('viewer'));
     expect(refused.status).toBe(409);
-    const missing = await request(t.app)
+    const missing = await request(demo.t.app)
       .get('/api/captures/stability?ids=999999')
       .set(await auth('viewer'));
     expect(missing.status).toBe(404);
-    const bad = await request(t.app)
+    const bad = await request(demo.t.app)
       .get('/api/captures/stability?ids=1;2')
       .set(await auth('viewer'));
     expect(bad.status).toBe(400);
@@ -162,8 +141,8 @@ describe('the overlay of several captures', () => {
 
 describe('exports', () => {
   it('a capture’s CSV starts with its metadata as # lines, then raw and reference-corrected readings', async () => {
-    const id = await capture(ids.crystal, ids.checkpoints[0], 40, { n: 5 });
-    const res = await request(t.app)
+    const id = await capture(demo.ids.crystal, demo.ids.checkpoints[0], 40, { n: 5 });
+    const res = await request(demo.t.app)
       .get(`/api/captures/${id}/export.csv`)
       .set(await auth('viewer'));
     expect(res.status).toBe(200);
@@ -202,8 +181,8 @@ describe('exports', () => {
   });
 
   it('the study CSV has one row per finished capture with its metadata and seal', async () => {
-    const res = await request(t.app)
-      .get(`/api/studies/${ids.studyId}/captures.csv`)
+    const res = await request(demo.t.app)
+      .get(`/api/studies/${demo.ids.studyId}/captures.csv`)
       .set(await auth('viewer'));
     expect(res.status).toBe(200);
     const [keys, ...rows] = Papa.parse<string[]>(res.text.trim()).data;
@@ -219,14 +198,14 @@ describe('exports', () => {
       'seal_sha256',
     ])
       expect(keys).toContain(k);
-    const { rows: finished } = await t.db.pool.query<{ id: number }>(
+    const { rows: finished } = await demo.t.db.pool.query<{ id: number }>(
       "SELECT c.id FROM captures c JOIN duts d ON d.id = c.dut_id WHERE d.study_id = $1 AND c.state = 'finished' ORDER BY c.id",
-      [ids.studyId],
+      [demo.ids.studyId],
     );
     expect(rows.map((r) => Number(r[0]))).toEqual(finished.map((f) => f.id));
     const seal = keys.indexOf('seal_sha256');
     for (const r of rows) expect(r[seal]).toMatch(/^[0-9a-f]{64}$/);
-    const missing = await request(t.app)
+    const missing = await request(demo.t.app)
       .get('/api/studies/99999/captures.csv')
       .set(await auth('viewer'));
     expect(missing.status).toBe(404);
