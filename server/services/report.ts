@@ -152,16 +152,20 @@ export async function buildStudyReport(pool: pg.Pool, studyId: number, t?: Trans
     },
     checkpoints: checkpoints.map((c) => c.toPublic()),
     duts: duts.map((d) => d.toPublic()),
-    instruments: instruments.map((i) => ({
-      id: i.id,
-      name: i.name,
-      kind: i.kind,
-      maker: i.maker,
-      model: i.model,
-      serial: i.serial,
-      calibrationDue: i.calibrationDue,
-      calibrationState: calibrationStatus(i).state,
-    })),
+    instruments: instruments.map((i) => {
+      const calibration = calibrationStatus(i);
+      return {
+        id: i.id,
+        name: i.name,
+        kind: i.kind,
+        maker: i.maker,
+        model: i.model,
+        serial: i.serial,
+        calibrationDue: i.calibrationDue,
+        calibrationState: calibration.state,
+        calibration,
+      };
+    }),
     references: references.map((r) => ({
       id: r.id,
       name: r.name,

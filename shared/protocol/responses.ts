@@ -272,6 +272,9 @@ export const StudyReport = z.object({
       serial: true,
       calibrationDue: true,
       calibrationState: true,
+    }).extend({
+      /** The calibration rule's answer when the report was built; absent in reports stored before. */
+      calibration: InstrumentRecord.shape.calibration.optional(),
     }),
   ),
   references: z.array(
