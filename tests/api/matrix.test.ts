@@ -1,19 +1,10 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds, seeded } from '../helpers/demo.js';
+import { seeded } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
+const { auth } = demo;
 
 async function finished(
   dutId: number,
@@ -24,55 +15,47 @@ async function finished(
 ) {
   // The bench records the ambient (23 °C by default); a tuning fork without one is compared over
   // the whole lab range (issue 8), which the last test shows.
-  const c = await request(t.app)
-    .post('/api/captures')
-    .set(await auth('technician'))
-    .send({
-      dutId,
-      checkpointId,
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-      referenceId: 1,
-      ...(ambientC === null ? {} : { ambientC }),
-    });
   const rnd = seeded(seed);
   const readings = Array.from({ length: 400 }, (_, i) => ({
     seq: i,
     t: i,
     value: mean + 1e-4 * rnd.gauss(),
   }));
-  await request(t.app)
-    .post(`/api/captures/${c.body.id}/readings`)
-    .set(await auth('technician'))
-    .send({ readings });
-  await request(t.app)
-    .post(`/api/captures/${c.body.id}/finish`)
-    .set(await auth('technician'));
-  return c.body.id as number;
+  return demo.recordCapture(readings, {
+    dutId,
+    checkpointId,
+    referenceId: 1,
+    ...(ambientC === null ? {} : { ambientC }),
+  });
 }
 
 describe('the study matrix', () => {
   it('gives each DUT × checkpoint its latest capture and its verdict against the baseline', async () => {
-    const f0 = ids.tuningFork.nominal; // 32 768 Hz; ±1 ppm is ±0.032768 Hz
-    await finished(ids.tuningFork.id, ids.checkpoints[0], f0, 1);
-    await finished(ids.tuningFork.id, ids.checkpoints[1], f0 + 0.1 * 1e-6 * f0, 2);
-    await finished(ids.tuningFork.id, ids.checkpoints[2], f0 + 2.5 * 1e-6 * f0, 3);
-    const res = await request(t.app)
-      .get(`/api/studies/${ids.studyId}/matrix`)
+    const f0 = demo.ids.tuningFork.nominal; // 32 768 Hz; ±1 ppm is ±0.032768 Hz
+    await finished(demo.ids.tuningFork.id, demo.ids.checkpoints[0], f0, 1);
+    await finished(demo.ids.tuningFork.id, demo.ids.checkpoints[1], f0 + 0.1 * 1e-6 * f0, 2);
+    await finished(demo.ids.tuningFork.id, demo.ids.checkpoints[2], f0 + 2.5 * 1e-6 * f0, 3);
+    const res = await request(demo.t.app)
+      .get(`/api/studies/${demo.ids.studyId}/matrix`)
       .set(await auth('viewer'));
     expect(res.status).toBe(200);
-    expect(res.body.checkpoints.map((c: { id: number }) => c.id)).toEqual(ids.checkpoints);
-    const row = res.body.rows.find((r: { dut: { id: number } }) => r.dut.id === ids.tuningFork.id);
+    expect(res.body.checkpoints.map((c: { id: number }) => c.id)).toEqual(demo.ids.checkpoints);
+    const row = res.body.rows.find(
+      (r: { dut: { id: number } }) => r.dut.id === demo.ids.tuningFork.id,
+    );
     const [base, wash, over, bake] = row.cells;
     expect(base.capture).not.toBeNull();
     expect(base.comparison).toBeNull();
     expect(wash.comparison.verdict).toBe('within');
     expect(over.comparison.verdict).toBe('exceeds');
     expect(over.comparison.deltaPpm).toBeCloseTo(2.5, 1);
-    expect(bake).toEqual({ checkpointId: ids.checkpoints[3], capture: null, comparison: null });
+    expect(bake).toEqual({
+      checkpointId: demo.ids.checkpoints[3],
+      capture: null,
+      comparison: null,
+    });
     const untouched = res.body.rows.find(
-      (r: { dut: { id: number } }) => r.dut.id === ids.crystal.id,
+      (r: { dut: { id: number } }) => r.dut.id === demo.ids.crystal.id,
     );
     expect(untouched.cells.every((c: { capture: unknown }) => c.capture === null)).toBe(true);
   });
@@ -83,23 +66,23 @@ describe('the study matrix', () => {
     // change against ±1 ppm can no longer be called "within". With the product terms of T0 and the
     // two unknown ambients (review8 F2: u ≈ 1.04 ppm by the review's Monte Carlo, U ≈ 2.1 ppm), a
     // 2.5 ppm change is inconclusive too (2.5 − 2.1 < 1), and a 4 ppm one exceeds (4 − 2.1 > 1).
-    const f0 = ids.tuningFork.nominal;
-    const base = await finished(ids.tuningFork.id, ids.checkpoints[0], f0, 11, null);
+    const f0 = demo.ids.tuningFork.nominal;
+    const base = await finished(demo.ids.tuningFork.id, demo.ids.checkpoints[0], f0, 11, null);
     const wash = await finished(
-      ids.tuningFork.id,
-      ids.checkpoints[1],
+      demo.ids.tuningFork.id,
+      demo.ids.checkpoints[1],
       f0 + 0.1 * 1e-6 * f0,
       12,
       null,
     );
     const over = await finished(
-      ids.tuningFork.id,
-      ids.checkpoints[2],
+      demo.ids.tuningFork.id,
+      demo.ids.checkpoints[2],
       f0 + 2.5 * 1e-6 * f0,
       13,
       null,
     );
-    const a = await request(t.app)
+    const a = await request(demo.t.app)
       .get(`/api/comparisons?before=${base}&after=${wash}`)
       .set(await auth('viewer'));
     expect(a.status).toBe(200);
@@ -113,20 +96,26 @@ describe('the study matrix', () => {
         'Turnover temperature T0 (shared)',
       ]),
     );
-    const b = await request(t.app)
+    const b = await request(demo.t.app)
       .get(`/api/comparisons?before=${base}&after=${over}`)
       .set(await auth('viewer'));
     expect(b.body.verdict).toBe('inconclusive');
     expect(b.body.expandedUncertainty / f0 / 1e-6).toBeGreaterThan(2.0); // review8 F2: ≈ 2.1 ppm
-    const far = await finished(ids.tuningFork.id, ids.checkpoints[3], f0 + 4 * 1e-6 * f0, 14, null);
-    const c = await request(t.app)
+    const far = await finished(
+      demo.ids.tuningFork.id,
+      demo.ids.checkpoints[3],
+      f0 + 4 * 1e-6 * f0,
+      14,
+      null,
+    );
+    const c = await request(demo.t.app)
       .get(`/api/comparisons?before=${base}&after=${far}`)
       .set(await auth('viewer'));
     expect(c.body.verdict).toBe('exceeds');
   });
 
   it('answers 404 for a missing study', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get('/api/studies/9999/matrix')
       .set(await auth('viewer'));
     expect(res.status).toBe(404);
