@@ -1,50 +1,17 @@
 // Findings of the independent review of issue 8 that could turn an honest "inconclusive" into a
 // false "within" in a capture's own budget: an unknown counter, an unsupported noise label, and an
 // Allan deviation taken at the longest octave τ instead of at the span.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds } from '../helpers/demo.js';
+import { describe, expect, it } from 'vitest';
 import { gaussian, randomWalkFm } from '../helpers/random.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
+const demo = useDemoApp({ ambientC: 23 });
 
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
-
+/** A finished capture of the demo tuning fork (1 s gate, 23 °C) reading `values`; its analysis. */
 async function finishedCapture(values: number[], extra: Record<string, unknown> = {}) {
-  const head = await auth('technician');
-  const c = await request(t.app)
-    .post('/api/captures')
-    .set(head)
-    .send({
-      dutId: ids.tuningFork.id,
-      checkpointId: ids.checkpoints[0],
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-      ambientC: 23,
-      ...extra,
-    });
-  expect(c.status).toBe(201);
   const readings = values.map((value, seq) => ({ seq, t: seq, value }));
-  expect(
-    (await request(t.app).post(`/api/captures/${c.body.id}/readings`).set(head).send({ readings }))
-      .status,
-  ).toBe(200);
-  expect((await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(head)).status).toBe(
-    200,
-  );
-  const analysis = await request(t.app)
-    .get(`/api/captures/${c.body.id}/analysis?drift=none`)
-    .set(head);
+  const id = await demo.recordCapture(readings, { dutId: demo.ids.tuningFork.id, ...extra });
+  const analysis = await demo.call('technician', 'get', `/api/captures/${id}/analysis?drift=none`);
   expect(analysis.status).toBe(200);
   return analysis.body;
 }
