@@ -1,20 +1,10 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds } from '../helpers/demo.js';
 import { millionRowFile } from '../helpers/importFiles.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 
-let t: TestApp;
-let ids: Awaited<ReturnType<typeof demoIds>>;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-  ids = await demoIds(t.app, await t.tokenFor('engineer'));
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
+const { auth } = demo;
 
 /** Posts a file with the fields first, as the import page does. */
 async function importFile(
@@ -23,12 +13,12 @@ async function importFile(
   role = 'technician',
   name = 'log.csv',
 ) {
-  let req = request(t.app)
+  let req = request(demo.t.app)
     .post('/api/captures/import')
     .set(await auth(role));
   for (const [k, v] of Object.entries({
-    dutId: ids.crystal.id,
-    checkpointId: ids.checkpoints[0],
+    dutId: demo.ids.crystal.id,
+    checkpointId: demo.ids.checkpoints[0],
     gateTime: 1,
     ...fields,
   }))
@@ -37,12 +27,14 @@ async function importFile(
 }
 
 async function captureCount(): Promise<number> {
-  const { rows } = await t.db.pool.query<{ n: number }>('SELECT count(*)::int AS n FROM captures');
+  const { rows } = await demo.t.db.pool.query<{ n: number }>(
+    'SELECT count(*)::int AS n FROM captures',
+  );
   return rows[0].n;
 }
 
 async function readingsOf(id: number) {
-  const res = await request(t.app)
+  const res = await request(demo.t.app)
     .get(`/api/captures/${id}/readings?maxPoints=100000`)
     .set(await auth('viewer'));
   return res.body.readings as Array<{ seq: number; t: number; value: number }>;
@@ -69,7 +61,7 @@ describe('importing readings logged elsewhere', () => {
     });
     expect(res.status).toBe(201);
     expect(res.body).toEqual({ id: expect.any(Number), readings: 4 });
-    const cap = await request(t.app)
+    const cap = await request(demo.t.app)
       .get(`/api/captures/${res.body.id}`)
       .set(await auth('viewer'));
     expect(cap.body.state).toBe('finished');
@@ -190,23 +182,23 @@ describe('importing readings logged elsewhere', () => {
   });
 
   it('refuses a missing file, missing fields, a checkpoint of another study and a viewer', async () => {
-    const noFile = await request(t.app)
+    const noFile = await request(demo.t.app)
       .post('/api/captures/import')
       .set(await auth('technician'))
-      .field('dutId', ids.crystal.id)
-      .field('checkpointId', ids.checkpoints[0])
+      .field('dutId', demo.ids.crystal.id)
+      .field('checkpointId', demo.ids.checkpoints[0])
       .field('gateTime', 1);
     expect(noFile.status).toBe(400);
     expect(noFile.body.error.message).toMatch(/file/);
-    const noGate = await request(t.app)
+    const noGate = await request(demo.t.app)
       .post('/api/captures/import')
       .set(await auth('technician'))
-      .field('dutId', ids.crystal.id)
-      .field('checkpointId', ids.checkpoints[0])
+      .field('dutId', demo.ids.crystal.id)
+      .field('checkpointId', demo.ids.checkpoints[0])
       .attach('file', Buffer.from('0,1\n1,2\n'), 'x.csv');
     expect(noGate.status).toBe(400);
     expect(noGate.body.error.message).toMatch(/gateTime/);
-    const json = await request(t.app)
+    const json = await request(demo.t.app)
       .post('/api/captures/import')
       .set(await auth('technician'))
       .send({ dutId: 1 });
@@ -220,23 +212,25 @@ describe('importing readings logged elsewhere', () => {
       progressKey: 'import-key-0001',
     });
     expect(res.status).toBe(201);
-    const p = await request(t.app)
+    const p = await request(demo.t.app)
       .get('/api/captures/import/progress/import-key-0001')
       .set(await auth('technician'));
     expect(p.body).toEqual({ phase: 'done', rows: 2, stored: 2 });
     // Another user does not see it: for them the key holds nothing.
-    const other = await request(t.app)
+    const other = await request(demo.t.app)
       .get('/api/captures/import/progress/import-key-0001')
       .set(await auth('engineer'));
     expect(other.body).toEqual({ phase: 'unknown', rows: 0, stored: 0 });
-    const bad = await request(t.app)
+    const bad = await request(demo.t.app)
       .get('/api/captures/import/progress/x')
       .set(await auth('technician'));
     expect(bad.status).toBe(400);
   });
 
   it('refuses to import into an approved (locked) study', async () => {
-    await t.db.pool.query("UPDATE studies SET status = 'approved' WHERE id = $1", [ids.studyId]);
+    await demo.t.db.pool.query("UPDATE studies SET status = 'approved' WHERE id = $1", [
+      demo.ids.studyId,
+    ]);
     try {
       const before = await captureCount();
       const res = await importFile('0,16000000.1\n1,16000000.2\n', {});
@@ -244,7 +238,9 @@ describe('importing readings logged elsewhere', () => {
       expect(res.body.error.code).toBe('study-locked');
       expect(await captureCount()).toBe(before);
     } finally {
-      await t.db.pool.query("UPDATE studies SET status = 'running' WHERE id = $1", [ids.studyId]);
+      await demo.t.db.pool.query("UPDATE studies SET status = 'running' WHERE id = $1", [
+        demo.ids.studyId,
+      ]);
     }
   });
 
@@ -253,13 +249,13 @@ describe('importing readings logged elsewhere', () => {
     const res = await importFile(file, { gateTime: 0.1 }, 'technician', 'million.csv');
     expect(res.status).toBe(201);
     expect(res.body.readings).toBe(1_000_000);
-    const cap = await request(t.app)
+    const cap = await request(demo.t.app)
       .get(`/api/captures/${res.body.id}`)
       .set(await auth('viewer'));
     expect(cap.body.state).toBe('finished');
     expect(cap.body.readingCount).toBe(1_000_000);
     expect(cap.body.sealSha256).toMatch(/^[0-9a-f]{64}$/);
-    const { rows } = await t.db.pool.query<{ n: number; last: number }>(
+    const { rows } = await demo.t.db.pool.query<{ n: number; last: number }>(
       'SELECT count(*)::int AS n, max(t) AS last FROM readings WHERE capture_id = $1',
       [res.body.id],
     );
