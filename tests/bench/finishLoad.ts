@@ -11,7 +11,9 @@ import { recordFigure } from './summary.js';
 // its own), then `POST /api/captures/:id/finish` is timed while a client asks `GET /api/health`
 // every 50 ms. Printed: the finish's wall time, the server's event-loop delay during it
 // (tests/bench/loopProbe.mjs, 1 s windows) and the slowest health answer.
-// `BENCH_FINISH_SIZES=1000000,3000000` chooses the sizes; BENCH_SKIP_10M=1 leaves 10 M out.
+// `BENCH_FINISH_SIZES=1000000,3000000` chooses the sizes; BENCH_SKIP_10M=1 leaves 10 M out;
+// `BENCH_FINISH_REPEAT=3` finishes that many captures of each size (the median is recorded).
+// A finish of 50,000 readings goes first, so no measured finish includes a worker's start.
 const pct = (xs: number[], p: number) =>
   [...xs].sort((a, b) => a - b)[Math.min(xs.length - 1, Math.floor(xs.length * p))] ?? NaN;
 const f = (n: number) => n.toLocaleString('en-US');
@@ -49,7 +51,10 @@ export async function benchFinishLoad(): Promise<void> {
     console.log(
       '\nFinish of a large capture (issue 15): wall time, and the server while it runs (health asked every 50 ms)',
     );
-    for (const n of sizes) {
+    const repeat = Number(process.env.BENCH_FINISH_REPEAT ?? 1);
+    const runs = [50_000, ...sizes.flatMap((n) => Array.from({ length: repeat }, () => n))];
+    const bySize = new Map<number, Array<{ ms: number; loopMax: number }>>();
+    for (const [k, n] of runs.entries()) {
       const id = await bench.newCapture({ gateTime: 0.01 });
       const pool = new pg.Pool({ connectionString: bench.url, max: 1 });
       await pool.query(
@@ -90,14 +95,29 @@ export async function benchFinishLoad(): Promise<void> {
       await res.arrayBuffer();
       await new Promise((r) => setTimeout(r, 1200));
       const loop = loopBetween(from, to);
+      if (k > 0) bySize.set(n, [...(bySize.get(n) ?? []), { ms, loopMax: loop.max }]);
       console.log(
-        `  ${f(n).padStart(10)} readings: finish ${(ms / 1000).toFixed(2)} s; server event loop during it: max delay ${loop.max.toFixed(0)} ms, p99 ${loop.p99.toFixed(0)} ms (95th pct of 1 s windows); health answers p50 ${pct(health, 0.5).toFixed(1)} ms, max ${Math.max(...health).toFixed(0)} ms (n=${health.length})`,
+        `  ${f(n).padStart(10)} readings${k === 0 ? ' (first, worker start included)' : ''}: finish ${(ms / 1000).toFixed(2)} s; server event loop during it: max delay ${loop.max.toFixed(0)} ms, p99 ${loop.p99.toFixed(0)} ms (95th pct of 1 s windows); health answers p50 ${pct(health, 0.5).toFixed(1)} ms, max ${Math.max(...health).toFixed(0)} ms (n=${health.length})`,
       );
+    }
+    for (const [n, xs] of bySize) {
+      const ms = pct(
+        xs.map((x) => x.ms),
+        0.5,
+      );
+      const loopMax = pct(
+        xs.map((x) => x.loopMax),
+        0.5,
+      );
+      if (xs.length > 1)
+        console.log(
+          `  ${f(n).padStart(10)} readings, median of ${xs.length}: finish ${(ms / 1000).toFixed(2)} s, event-loop max delay ${loopMax.toFixed(0)} ms`,
+        );
       recordFigure({
         figure: `finish of ${f(n)} readings, event-loop max delay`,
-        measured: `${loop.max.toFixed(0)} ms (finish ${(ms / 1000).toFixed(1)} s)`,
+        measured: `${loopMax.toFixed(0)} ms (finish ${(ms / 1000).toFixed(1)} s)`,
         target: `≤ ${LOOP_MAX_TARGET_MS} ms`,
-        met: loop.max <= LOOP_MAX_TARGET_MS,
+        met: loopMax <= LOOP_MAX_TARGET_MS,
       });
     }
     console.log(
