@@ -1,21 +1,16 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { demoIds } from '../helpers/demo.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { LIST_LIMITS } from '../../shared/protocol/paging.js';
 import { linkPreset } from '../../shared/protocol/linkProfile.js';
 
 // Issue 10, item 1: every stored JSON field has a schema and a size limit, lists leave heavy
 // fields out, and every list route pages with ?limit&cursor (a default and a maximum).
-let t: TestApp;
-let admin: string;
-const auth = () => ({ authorization: `Bearer ${admin}` });
+const demo = useDemoApp();
+let admin: { authorization: string };
+const auth = () => admin;
 beforeAll(async () => {
-  t = await createTestApp();
-  admin = await t.tokenFor('admin');
-});
-afterAll(async () => {
-  await t.close();
+  admin = await demo.auth('admin');
 });
 
 async function everyPage(path: string, key: string, limit: number) {
@@ -23,7 +18,7 @@ async function everyPage(path: string, key: string, limit: number) {
   let cursor: string | null = null;
   let pages = 0;
   do {
-    const res: request.Response = await request(t.app)
+    const res: request.Response = await request(demo.t.app)
       .get(path)
       .query({ limit, ...(cursor ? { cursor } : {}) })
       .set(auth());
@@ -39,13 +34,13 @@ async function everyPage(path: string, key: string, limit: number) {
 describe('paging of list routes', () => {
   it('pages instruments by name with ties, neither skipping nor repeating one', async () => {
     for (const name of ['Probe', 'Probe', 'Probe', 'Amp', 'Zed']) {
-      await request(t.app)
+      await request(demo.t.app)
         .post('/api/instruments')
         .set(auth())
         .send({ name, kind: 'other' })
         .expect(201);
     }
-    const all = (await request(t.app).get('/api/instruments').set(auth())).body;
+    const all = (await request(demo.t.app).get('/api/instruments').set(auth())).body;
     expect(all.nextCursor).toBeNull();
     const { seen, pages } = await everyPage('/api/instruments', 'instruments', 2);
     expect(pages).toBe(Math.ceil(all.instruments.length / 2));
@@ -57,7 +52,9 @@ describe('paging of list routes', () => {
     ['/api/studies', 'studies'],
     ['/api/references', 'references'],
   ])('pages %s with limit 1 through every item', async (path, key) => {
-    const all = (await request(t.app).get(path).set(auth())).body[key] as Array<{ id: number }>;
+    const all = (await request(demo.t.app).get(path).set(auth())).body[key] as Array<{
+      id: number;
+    }>;
     const { seen } = await everyPage(path, key, 1);
     expect(seen.map((i) => i.id)).toEqual(all.map((i) => i.id));
   });
@@ -65,7 +62,7 @@ describe('paging of list routes', () => {
   it.each(Object.entries(LIST_LIMITS))(
     'refuses a limit over the maximum on /api/%s with 400',
     async (name, l) => {
-      const res = await request(t.app)
+      const res = await request(demo.t.app)
         .get(`/api/${name}`)
         .query({ limit: l.max + 1 })
         .set(auth());
@@ -77,7 +74,7 @@ describe('paging of list routes', () => {
   it.each(['not-a-cursor', 'eyJ4IjoxfQ', ''])(
     'refuses a cursor it did not give (%j) with 400',
     async (cursor) => {
-      const res = await request(t.app)
+      const res = await request(demo.t.app)
         .get('/api/captures')
         .query({ cursor: cursor || '!!' })
         .set(auth());
@@ -88,15 +85,8 @@ describe('paging of list routes', () => {
 
 describe('stored JSON fields have a schema and a size', () => {
   it('refuses a capture whose link profile is not a link profile, or is huge, with 400', async () => {
-    const ids = await demoIds(t.app, admin);
-    const base = {
-      dutId: ids.crystal.id,
-      checkpointId: ids.checkpoints[0],
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-    };
-    const junk = await request(t.app)
+    const base = demo.captureBody();
+    const junk = await request(demo.t.app)
       .post('/api/captures')
       .set(auth())
       .send({ ...base, linkProfile: { blob: 'x'.repeat(50_000) } });
@@ -107,13 +97,13 @@ describe('stored JSON fields have a schema and a size', () => {
     };
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .post('/api/captures')
           .set(auth())
           .send({ ...base, linkProfile: padded })
       ).status,
     ).toBe(400);
-    const ok = await request(t.app)
+    const ok = await request(demo.t.app)
       .post('/api/captures')
       .set(auth())
       .send({ ...base, linkProfile: linkPreset('talk-counter') });
@@ -122,34 +112,23 @@ describe('stored JSON fields have a schema and a size', () => {
   });
 
   it('keeps the link profile and the summary out of the captures list, and in the capture itself', async () => {
-    const list = await request(t.app).get('/api/captures').set(auth());
+    const list = await request(demo.t.app).get('/api/captures').set(auth());
     expect(list.status).toBe(200);
     expect(list.body.captures.length).toBeGreaterThan(0);
     for (const c of list.body.captures) {
       expect(c).not.toHaveProperty('linkProfile');
       expect(c).not.toHaveProperty('summary');
     }
-    const one = await request(t.app).get(`/api/captures/${list.body.captures[0].id}`).set(auth());
+    const one = await request(demo.t.app)
+      .get(`/api/captures/${list.body.captures[0].id}`)
+      .set(auth());
     expect(one.body.linkProfile).not.toBeNull();
   });
 
   it('answers the captures list quickly in size however many captures carry profiles', async () => {
-    const ids = await demoIds(t.app, admin);
-    const base = {
-      dutId: ids.crystal.id,
-      checkpointId: ids.checkpoints[0],
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-    };
-    for (let i = 0; i < 20; i++) {
-      await request(t.app)
-        .post('/api/captures')
-        .set(auth())
-        .send({ ...base, linkProfile: linkPreset('scpi-counter') })
-        .expect(201);
-    }
-    const list = await request(t.app).get('/api/captures').set(auth());
+    for (let i = 0; i < 20; i++)
+      await demo.newCapture('admin', { linkProfile: linkPreset('scpi-counter') });
+    const list = await request(demo.t.app).get('/api/captures').set(auth());
     // 21 captures of about 600 bytes each without profiles (common practice, no source: a generous bound).
     expect(list.text.length).toBeLessThan(21 * 1500);
   });
