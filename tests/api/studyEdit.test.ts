@@ -1,21 +1,15 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
 import { QueryTypes } from 'sequelize';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { as, plannedStudy } from '../helpers/review.js';
+import { useDemoApp } from '../helpers/demoApp.js';
+import { plannedStudy } from '../helpers/review.js';
 import * as processKinds from '../../server/migrations/20261202-0140-process-kinds-and-editing.js';
 
 // Issue 13 part B: exposures validated per process kind, and editing a study's plan with history
 // (edit, reorder, archive, delete, exclude a capture, choose a cell's capture), each audited and
 // refused on a locked study.
 
-let t: TestApp;
-beforeAll(async () => {
-  t = await createTestApp();
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
 
 const NOMINAL = 10_000_000;
 
@@ -26,26 +20,12 @@ async function captureAt(
   offsetHz: number,
   opts: { open?: boolean } = {},
 ): Promise<number> {
-  const h = await as(t, 'technician');
-  const c = await request(t.app)
-    .post('/api/captures')
-    .set(h)
-    .send({ dutId, checkpointId, quantity: 'frequency', unit: 'Hz', gateTime: 1 });
-  expect(c.status, JSON.stringify(c.body)).toBe(201);
   const readings = Array.from({ length: 40 }, (_, i) => ({
     seq: i,
     t: i,
     value: NOMINAL + offsetHz + 0.001 * Math.sin(i),
   }));
-  expect(
-    (await request(t.app).post(`/api/captures/${c.body.id}/readings`).set(h).send({ readings }))
-      .status,
-  ).toBe(200);
-  if (!opts.open)
-    expect((await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(h)).status).toBe(
-      200,
-    );
-  return c.body.id as number;
+  return demo.recordCapture(readings, { dutId, checkpointId }, opts);
 }
 
 async function studyEvents(studyId: number): Promise<
@@ -56,17 +36,17 @@ async function studyEvents(studyId: number): Promise<
     details: Record<string, unknown>;
   }>
 > {
-  const res = await request(t.app)
+  const res = await request(demo.t.app)
     .get(`/api/studies/${studyId}/audit?limit=100`)
-    .set(await as(t, 'viewer'));
+    .set(await demo.auth('viewer'));
   expect(res.status).toBe(200);
   return res.body.events;
 }
 
 async function matrixCell(studyId: number, dutId: number, checkpointId: number) {
-  const m = await request(t.app)
+  const m = await request(demo.t.app)
     .get(`/api/studies/${studyId}/matrix`)
-    .set(await as(t, 'viewer'));
+    .set(await demo.auth('viewer'));
   expect(m.status).toBe(200);
   const row = m.body.rows.find((r: { dut: { id: number } }) => r.dut.id === dutId);
   return row?.cells.find((c: { checkpointId: number }) => c.checkpointId === checkpointId);
@@ -75,13 +55,13 @@ async function matrixCell(studyId: number, dutId: number, checkpointId: number) 
 describe('a checkpoint exposure is validated per process kind', () => {
   let studyId: number;
   beforeAll(async () => {
-    studyId = (await plannedStudy(t, 'Processes by kind')).studyId;
+    studyId = (await plannedStudy(demo.t, 'Processes by kind')).studyId;
   });
 
   const post = async (exposure: unknown) =>
-    request(t.app)
+    request(demo.t.app)
       .post(`/api/studies/${studyId}/checkpoints`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .send({ name: 'After the process', exposure });
 
   it.each([
@@ -189,10 +169,10 @@ describe('a checkpoint exposure is validated per process kind', () => {
   });
 
   it('turns an exposure stored before process kinds into a wash with its fields kept (the migration)', async () => {
-    const qi = t.db.sequelize.getQueryInterface();
+    const qi = demo.t.db.sequelize.getQueryInterface();
     await processKinds.down({ context: qi });
     try {
-      await t.db.pool.query(
+      await demo.t.db.pool.query(
         `INSERT INTO checkpoints (study_id, name, position, exposure, created_at, updated_at)
          VALUES ($1, 'Old wash', 90, '{"process":"Aqueous ultrasonic wash","bathKHz":40,"minutesPerSide":3}', now(), now())`,
         [studyId],
@@ -200,7 +180,7 @@ describe('a checkpoint exposure is validated per process kind', () => {
     } finally {
       await processKinds.up({ context: qi });
     }
-    const { rows } = await t.db.pool.query(
+    const { rows } = await demo.t.db.pool.query(
       `SELECT exposure FROM checkpoints WHERE study_id = $1 AND name = 'Old wash'`,
       [studyId],
     );
@@ -214,9 +194,9 @@ describe('a checkpoint exposure is validated per process kind', () => {
 
   it('edits a checkpoint from a wash to a reflow, audited with before and after', async () => {
     const cp = await post({ kind: 'wash', bathKHz: 40, minutesPerSide: 3 });
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .patch(`/api/checkpoints/${cp.body.id}`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .send({
         name: 'After reflow (2 passes)',
         exposure: { kind: 'reflow', peakC: 250, passes: 2 },
@@ -238,9 +218,9 @@ describe('a checkpoint exposure is validated per process kind', () => {
 
   it('refuses a patch that mixes the fields of two kinds', async () => {
     const cp = await post({ kind: 'bake', temperatureC: 85, hours: 4 });
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .patch(`/api/checkpoints/${cp.body.id}`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .send({ exposure: { kind: 'bake', temperatureC: 85, hours: 4, peakC: 245 } });
     expect(res.status).toBe(400);
   });
@@ -248,18 +228,18 @@ describe('a checkpoint exposure is validated per process kind', () => {
 
 describe('editing, archiving and deleting a plan', () => {
   it('edits a study and audits before → after; a technician may not', async () => {
-    const { studyId } = await plannedStudy(t, 'A title with a typo');
+    const { studyId } = await plannedStudy(demo.t, 'A title with a typo');
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .patch(`/api/studies/${studyId}`)
-          .set(await as(t, 'technician'))
+          .set(await demo.auth('technician'))
           .send({ title: 'x' })
       ).status,
     ).toBe(403);
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .patch(`/api/studies/${studyId}`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .send({ title: 'A title without a typo', process: 'Reflow, profile C' });
     expect(res.status).toBe(200);
     expect(res.body).toMatchObject({
@@ -274,26 +254,26 @@ describe('editing, archiving and deleting a plan', () => {
     });
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .patch(`/api/studies/${studyId}`)
-          .set(await as(t, 'engineer'))
+          .set(await demo.auth('engineer'))
           .send({})
       ).status,
     ).toBe(400);
   });
 
   it('deletes an empty checkpoint and DUT, and keeps their deletion in the study audit', async () => {
-    const plan = await plannedStudy(t, 'Deleting mistakes');
-    const eng = await as(t, 'engineer');
-    const extra = await request(t.app)
+    const plan = await plannedStudy(demo.t, 'Deleting mistakes');
+    const eng = await demo.auth('engineer');
+    const extra = await request(demo.t.app)
       .post(`/api/studies/${plan.studyId}/checkpoints`)
       .set(eng)
       .send({ name: 'Planned twice' });
-    expect((await request(t.app).delete(`/api/checkpoints/${extra.body.id}`).set(eng)).status).toBe(
-      204,
-    );
-    expect((await request(t.app).delete(`/api/duts/${plan.dutId}`).set(eng)).status).toBe(204);
-    const s = await request(t.app).get(`/api/studies/${plan.studyId}`).set(eng);
+    expect(
+      (await request(demo.t.app).delete(`/api/checkpoints/${extra.body.id}`).set(eng)).status,
+    ).toBe(204);
+    expect((await request(demo.t.app).delete(`/api/duts/${plan.dutId}`).set(eng)).status).toBe(204);
+    const s = await request(demo.t.app).get(`/api/studies/${plan.studyId}`).set(eng);
     expect(s.body.checkpoints.map((c: { id: number }) => c.id)).toEqual([plan.checkpointId]);
     expect(s.body.duts).toEqual([]);
     const events = await studyEvents(plan.studyId);
@@ -305,13 +285,13 @@ describe('editing, archiving and deleting a plan', () => {
       subjectId: plan.dutId,
       details: { before: { label: 'Y9 10 MHz crystal' } },
     });
-    expect((await request(t.app).delete(`/api/duts/${plan.dutId}`).set(eng)).status).toBe(404);
+    expect((await request(demo.t.app).delete(`/api/duts/${plan.dutId}`).set(eng)).status).toBe(404);
   });
 
   it('refuses to delete a captured checkpoint, DUT or study (409), and archives them instead', async () => {
-    const plan = await plannedStudy(t, 'Archive, do not delete');
-    const eng = await as(t, 'engineer');
-    const later = await request(t.app)
+    const plan = await plannedStudy(demo.t, 'Archive, do not delete');
+    const eng = await demo.auth('engineer');
+    const later = await request(demo.t.app)
       .post(`/api/studies/${plan.studyId}/checkpoints`)
       .set(eng)
       .send({ name: 'After bake', exposure: { kind: 'bake', temperatureC: 85, hours: 4 } });
@@ -322,35 +302,35 @@ describe('editing, archiving and deleting a plan', () => {
       `/api/duts/${plan.dutId}`,
       `/api/studies/${plan.studyId}`,
     ]) {
-      const res = await request(t.app).delete(url).set(eng);
+      const res = await request(demo.t.app).delete(url).set(eng);
       expect(res.status, url).toBe(409);
       expect(res.body.error.code).toBe('has-captures');
       expect(res.body.error.message).toMatch(/archive it instead/);
     }
-    const arch = await request(t.app)
+    const arch = await request(demo.t.app)
       .patch(`/api/checkpoints/${later.body.id}`)
       .set(eng)
       .send({ archived: true });
     expect(arch.status).toBe(200);
     expect(arch.body.archived).toBe(true);
-    const m = await request(t.app).get(`/api/studies/${plan.studyId}/matrix`).set(eng);
+    const m = await request(demo.t.app).get(`/api/studies/${plan.studyId}/matrix`).set(eng);
     expect(m.body.checkpoints.map((c: { id: number }) => c.id)).toEqual([plan.checkpointId]);
     // The capture is still there, and the plan still lists the archived checkpoint as archived.
-    expect((await request(t.app).get(`/api/captures/${captureId}`).set(eng)).status).toBe(200);
-    const s = await request(t.app).get(`/api/studies/${plan.studyId}`).set(eng);
+    expect((await request(demo.t.app).get(`/api/captures/${captureId}`).set(eng)).status).toBe(200);
+    const s = await request(demo.t.app).get(`/api/studies/${plan.studyId}`).set(eng);
     expect(s.body.checkpoints.find((c: { id: number }) => c.id === later.body.id).archived).toBe(
       true,
     );
 
-    const dut = await request(t.app)
+    const dut = await request(demo.t.app)
       .patch(`/api/duts/${plan.dutId}`)
       .set(eng)
       .send({ archived: true });
     expect(dut.status).toBe(200);
     expect(
-      (await request(t.app).get(`/api/studies/${plan.studyId}/matrix`).set(eng)).body.rows,
+      (await request(demo.t.app).get(`/api/studies/${plan.studyId}/matrix`).set(eng)).body.rows,
     ).toEqual([]);
-    const study = await request(t.app)
+    const study = await request(demo.t.app)
       .patch(`/api/studies/${plan.studyId}`)
       .set(eng)
       .send({ archived: true });
@@ -359,7 +339,7 @@ describe('editing, archiving and deleting a plan', () => {
     expect(actions).toEqual(
       expect.arrayContaining(['checkpoint.archive', 'dut.update', 'study.archive']),
     );
-    const restore = await request(t.app)
+    const restore = await request(demo.t.app)
       .patch(`/api/checkpoints/${later.body.id}`)
       .set(eng)
       .send({ archived: false });
@@ -367,19 +347,19 @@ describe('editing, archiving and deleting a plan', () => {
   });
 
   it('deletes a study made by mistake, with its plan, and records what it held', async () => {
-    const plan = await plannedStudy(t, 'Made by mistake');
-    const res = await request(t.app)
+    const plan = await plannedStudy(demo.t, 'Made by mistake');
+    const res = await request(demo.t.app)
       .delete(`/api/studies/${plan.studyId}`)
-      .set(await as(t, 'engineer'));
+      .set(await demo.auth('engineer'));
     expect(res.status).toBe(204);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .get(`/api/studies/${plan.studyId}`)
-          .set(await as(t, 'viewer'))
+          .set(await demo.auth('viewer'))
       ).status,
     ).toBe(404);
-    const [ev] = (await t.db.sequelize.query(
+    const [ev] = (await demo.t.db.sequelize.query(
       `SELECT details FROM audit_events WHERE action = 'study.delete' AND subject_id = $1`,
       {
         bind: [plan.studyId],
@@ -394,16 +374,16 @@ describe('editing, archiving and deleting a plan', () => {
   });
 
   it('reorders checkpoints when every one is named once, and audits the old and new order', async () => {
-    const plan = await plannedStudy(t, 'Reordering');
-    const eng = await as(t, 'engineer');
+    const plan = await plannedStudy(demo.t, 'Reordering');
+    const eng = await demo.auth('engineer');
     const b = (
-      await request(t.app)
+      await request(demo.t.app)
         .post(`/api/studies/${plan.studyId}/checkpoints`)
         .set(eng)
         .send({ name: 'Second' })
     ).body.id as number;
     const c = (
-      await request(t.app)
+      await request(demo.t.app)
         .post(`/api/studies/${plan.studyId}/checkpoints`)
         .set(eng)
         .send({ name: 'Third' })
@@ -412,7 +392,7 @@ describe('editing, archiving and deleting a plan', () => {
     const url = `/api/studies/${plan.studyId}/checkpoints/order`;
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .post(url)
           .set(eng)
           .send({ ids: [a, c] })
@@ -420,25 +400,25 @@ describe('editing, archiving and deleting a plan', () => {
     ).toBe(400);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .post(url)
           .set(eng)
           .send({ ids: [a, c, c] })
       ).status,
     ).toBe(400);
-    const other = await plannedStudy(t, 'Someone else’s');
-    const stranger = await request(t.app)
+    const other = await plannedStudy(demo.t, 'Someone else’s');
+    const stranger = await request(demo.t.app)
       .post(url)
       .set(eng)
       .send({ ids: [a, b, other.checkpointId] });
     expect(stranger.status).toBe(400);
     expect(stranger.body.error.message).toMatch(/not in this study/);
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post(url)
       .set(eng)
       .send({ ids: [a, c, b] });
     expect(res.status).toBe(200);
-    const s = await request(t.app).get(`/api/studies/${plan.studyId}`).set(eng);
+    const s = await request(demo.t.app).get(`/api/studies/${plan.studyId}`).set(eng);
     expect(s.body.checkpoints.map((x: { name: string }) => x.name)).toEqual([
       'Baseline',
       'Third',
@@ -457,11 +437,11 @@ describe('the evidence: excluding a capture and choosing the capture of a cell',
   let afterCapture: number;
 
   beforeAll(async () => {
-    plan = await plannedStudy(t, 'Which capture counts');
+    plan = await plannedStudy(demo.t, 'Which capture counts');
     after = (
-      await request(t.app)
+      await request(demo.t.app)
         .post(`/api/studies/${plan.studyId}/checkpoints`)
-        .set(await as(t, 'engineer'))
+        .set(await demo.auth('engineer'))
         .send({ name: 'After reflow', exposure: { kind: 'reflow', peakC: 245, passes: 1 } })
     ).body.id;
     // Two baseline captures: the first on nominal, the second 30 Hz (+3 ppm) high — say a warm board.
@@ -483,32 +463,32 @@ describe('the evidence: excluding a capture and choosing the capture of a cell',
   it('lets only a lead exclude a capture, with a reason', async () => {
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .post(`/api/captures/${baseNew}/exclude`)
-          .set(await as(t, 'engineer'))
+          .set(await demo.auth('engineer'))
           .send({ reason: 'Board was warm' })
       ).status,
     ).toBe(403);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .post(`/api/captures/${baseNew}/exclude`)
-          .set(await as(t, 'technician'))
+          .set(await demo.auth('technician'))
           .send({ reason: 'Board was warm' })
       ).status,
     ).toBe(403);
-    const none = await request(t.app)
+    const none = await request(demo.t.app)
       .post(`/api/captures/${baseNew}/exclude`)
-      .set(await as(t, 'lead'))
+      .set(await demo.auth('lead'))
       .send({});
     expect(none.status).toBe(400);
     expect(none.body.error.details[0].path).toBe('reason');
   });
 
   it('an excluded capture leaves the matrix: the cell falls back to the one before, and Δ follows', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post(`/api/captures/${baseNew}/exclude`)
-      .set(await as(t, 'lead'))
+      .set(await demo.auth('lead'))
       .send({ reason: 'Board was still warm from the oven' });
     expect(res.status, JSON.stringify(res.body)).toBe(200);
     expect(res.body.excluded.reason).toBe('Board was still warm from the oven');
@@ -520,9 +500,9 @@ describe('the evidence: excluding a capture and choosing the capture of a cell',
     expect(Math.abs(cell.comparison.deltaPpm)).toBeLessThan(0.01);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .post(`/api/captures/${baseNew}/exclude`)
-          .set(await as(t, 'lead'))
+          .set(await demo.auth('lead'))
           .send({ reason: 'again' })
       ).status,
     ).toBe(409);
@@ -538,24 +518,24 @@ describe('the evidence: excluding a capture and choosing the capture of a cell',
   });
 
   it('refuses to choose an excluded capture, and includes it again on request', async () => {
-    const chosen = await request(t.app)
+    const chosen = await request(demo.t.app)
       .put(`/api/studies/${plan.studyId}/cells`)
-      .set(await as(t, 'lead'))
+      .set(await demo.auth('lead'))
       .send({ dutId: plan.dutId, checkpointId: plan.checkpointId, captureId: baseNew });
     expect(chosen.status).toBe(409);
     expect(chosen.body.error.code).toBe('capture-excluded');
-    const inc = await request(t.app)
+    const inc = await request(demo.t.app)
       .post(`/api/captures/${baseNew}/include`)
-      .set(await as(t, 'lead'));
+      .set(await demo.auth('lead'));
     expect(inc.status).toBe(200);
     expect((await matrixCell(plan.studyId, plan.dutId, plan.checkpointId)).capture.id).toBe(
       baseNew,
     );
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .post(`/api/captures/${baseNew}/include`)
-          .set(await as(t, 'lead'))
+          .set(await demo.auth('lead'))
       ).status,
     ).toBe(409);
     const ev = (await studyEvents(plan.studyId)).find((e) => e.action === 'capture.include')!;
@@ -566,15 +546,15 @@ describe('the evidence: excluding a capture and choosing the capture of a cell',
     const body = { dutId: plan.dutId, checkpointId: plan.checkpointId, captureId: baseOld };
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .put(`/api/studies/${plan.studyId}/cells`)
-          .set(await as(t, 'engineer'))
+          .set(await demo.auth('engineer'))
           .send(body)
       ).status,
     ).toBe(403);
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .put(`/api/studies/${plan.studyId}/cells`)
-      .set(await as(t, 'lead'))
+      .set(await demo.auth('lead'))
       .send(body);
     expect(res.status, JSON.stringify(res.body)).toBe(200);
     expect(res.body).toEqual(body);
@@ -586,11 +566,11 @@ describe('the evidence: excluding a capture and choosing the capture of a cell',
     // No reference in these captures: Δ's budget carries the counter timebase's default ±1 ppm
     // (rectangular, DEVELOPERS.md "comparison budget"), so U ≈ 2.3 ppm straddles ±1 ppm.
     expect(cell.comparison.verdict).toBe('inconclusive');
-    const list = await request(t.app)
+    const list = await request(demo.t.app)
       .get(
         `/api/studies/${plan.studyId}/cells?dutId=${plan.dutId}&checkpointId=${plan.checkpointId}`,
       )
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(list.status).toBe(200);
     expect(
       list.body.captures.map((c: { id: number; represents: boolean; chosen: boolean }) => [
@@ -611,15 +591,15 @@ describe('the evidence: excluding a capture and choosing the capture of a cell',
   });
 
   it('refuses a capture of another cell and a checkpoint of another study', async () => {
-    const lead = await as(t, 'lead');
-    const wrongCell = await request(t.app)
+    const lead = await demo.auth('lead');
+    const wrongCell = await request(demo.t.app)
       .put(`/api/studies/${plan.studyId}/cells`)
       .set(lead)
       .send({ dutId: plan.dutId, checkpointId: plan.checkpointId, captureId: afterCapture });
     expect(wrongCell.status).toBe(400);
     expect(wrongCell.body.error.details[0].path).toBe('captureId');
-    const other = await plannedStudy(t, 'Another study');
-    const wrongStudy = await request(t.app)
+    const other = await plannedStudy(demo.t, 'Another study');
+    const wrongStudy = await request(demo.t.app)
       .put(`/api/studies/${plan.studyId}/cells`)
       .set(lead)
       .send({ dutId: plan.dutId, checkpointId: other.checkpointId, captureId: null });
@@ -628,8 +608,8 @@ describe('the evidence: excluding a capture and choosing the capture of a cell',
   });
 
   it('excluding the chosen capture clears the choice; null returns a cell to its default', async () => {
-    const lead = await as(t, 'lead');
-    const ex = await request(t.app)
+    const lead = await demo.auth('lead');
+    const ex = await request(demo.t.app)
       .post(`/api/captures/${baseOld}/exclude`)
       .set(lead)
       .send({ reason: 'Wrong fixture' });
@@ -642,15 +622,15 @@ describe('the evidence: excluding a capture and choosing the capture of a cell',
       (e) => e.action === 'capture.exclude' && e.subjectId === baseOld,
     )!;
     expect(ev.details.cellChoiceCleared).toBe(true);
-    await request(t.app).post(`/api/captures/${baseOld}/include`).set(lead);
-    await request(t.app)
+    await request(demo.t.app).post(`/api/captures/${baseOld}/include`).set(lead);
+    await request(demo.t.app)
       .put(`/api/studies/${plan.studyId}/cells`)
       .set(lead)
       .send({ dutId: plan.dutId, checkpointId: plan.checkpointId, captureId: baseOld });
     expect((await matrixCell(plan.studyId, plan.dutId, plan.checkpointId)).capture.id).toBe(
       baseOld,
     );
-    const back = await request(t.app)
+    const back = await request(demo.t.app)
       .put(`/api/studies/${plan.studyId}/cells`)
       .set(lead)
       .send({ dutId: plan.dutId, checkpointId: plan.checkpointId, captureId: null });
@@ -663,49 +643,51 @@ describe('the evidence: excluding a capture and choosing the capture of a cell',
 
   it('refuses to exclude an open capture', async () => {
     const open = await captureAt(plan.dutId, after, 0, { open: true });
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post(`/api/captures/${open}/exclude`)
-      .set(await as(t, 'lead'))
+      .set(await demo.auth('lead'))
       .send({ reason: 'Not yet' });
     expect(res.status).toBe(409);
     expect(res.body.error.code).toBe('capture-open');
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/captures/${open}/finish`)
-      .set(await as(t, 'technician'));
+      .set(await demo.auth('technician'));
   });
 });
 
 describe('a locked study refuses every edit', () => {
   it('answers 409 study-locked to edit, archive, delete, reorder, exclude and choose', async () => {
-    const plan = await plannedStudy(t, 'Locked for editing');
+    const plan = await plannedStudy(demo.t, 'Locked for editing');
     const captureId = await captureAt(plan.dutId, plan.checkpointId, 0);
-    await t.db.pool.query(`UPDATE studies SET status = 'in-review' WHERE id = $1`, [plan.studyId]);
-    const eng = await as(t, 'engineer');
-    const lead = await as(t, 'lead');
+    await demo.t.db.pool.query(`UPDATE studies SET status = 'in-review' WHERE id = $1`, [
+      plan.studyId,
+    ]);
+    const eng = await demo.auth('engineer');
+    const lead = await demo.auth('lead');
     const tries = [
-      request(t.app)
+      request(demo.t.app)
         .patch(`/api/studies/${plan.studyId}`)
         .set(eng)
         .send({ title: 'Changed in review' }),
-      request(t.app).patch(`/api/studies/${plan.studyId}`).set(eng).send({ archived: true }),
-      request(t.app).delete(`/api/studies/${plan.studyId}`).set(eng),
-      request(t.app)
+      request(demo.t.app).patch(`/api/studies/${plan.studyId}`).set(eng).send({ archived: true }),
+      request(demo.t.app).delete(`/api/studies/${plan.studyId}`).set(eng),
+      request(demo.t.app)
         .patch(`/api/checkpoints/${plan.checkpointId}`)
         .set(eng)
         .send({ name: 'Renamed' }),
-      request(t.app).delete(`/api/checkpoints/${plan.checkpointId}`).set(eng),
-      request(t.app)
+      request(demo.t.app).delete(`/api/checkpoints/${plan.checkpointId}`).set(eng),
+      request(demo.t.app)
         .post(`/api/studies/${plan.studyId}/checkpoints/order`)
         .set(eng)
         .send({ ids: [plan.checkpointId] }),
-      request(t.app).patch(`/api/duts/${plan.dutId}`).set(eng).send({ archived: true }),
-      request(t.app).delete(`/api/duts/${plan.dutId}`).set(eng),
-      request(t.app)
+      request(demo.t.app).patch(`/api/duts/${plan.dutId}`).set(eng).send({ archived: true }),
+      request(demo.t.app).delete(`/api/duts/${plan.dutId}`).set(eng),
+      request(demo.t.app)
         .post(`/api/captures/${captureId}/exclude`)
         .set(lead)
         .send({ reason: 'During review' }),
-      request(t.app).post(`/api/captures/${captureId}/include`).set(lead),
-      request(t.app)
+      request(demo.t.app).post(`/api/captures/${captureId}/include`).set(lead),
+      request(demo.t.app)
         .put(`/api/studies/${plan.studyId}/cells`)
         .set(lead)
         .send({ dutId: plan.dutId, checkpointId: plan.checkpointId, captureId }),
@@ -715,7 +697,7 @@ describe('a locked study refuses every edit', () => {
       expect(res.status, `#${i}: ${JSON.stringify(res.body)}`).toBe(409);
       expect(res.body.error.code).toBe('study-locked');
     }
-    const s = await request(t.app).get(`/api/studies/${plan.studyId}`).set(eng);
+    const s = await request(demo.t.app).get(`/api/studies/${plan.studyId}`).set(eng);
     expect(s.body).toMatchObject({ title: 'Locked for editing', archived: false });
     expect(s.body.checkpoints[0].name).toBe('Baseline');
   });
