@@ -1,16 +1,10 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { as, capture, plannedStudy } from '../helpers/review.js';
+import { useDemoApp } from '../helpers/demoApp.js';
+import { capture, plannedStudy } from '../helpers/review.js';
 import { DEMO_PASSWORD } from '../../server/db/seed.js';
 
-let t: TestApp;
-beforeAll(async () => {
-  t = await createTestApp();
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
 
 const PNG = Buffer.from('89504e470d0a1a0a0000000d4948445200000001000000010806000000', 'hex');
 
@@ -23,12 +17,12 @@ interface Fixture {
 
 /** A study with an open capture, a finished one and an attachment, made while it was still running. */
 async function fixture(title: string): Promise<Fixture> {
-  const plan = await plannedStudy(t, title);
-  const finishedCapture = await capture(t, plan);
-  const openCapture = await capture(t, plan, { open: true });
-  const up = await request(t.app)
+  const plan = await plannedStudy(demo.t, title);
+  const finishedCapture = await capture(demo.t, plan);
+  const openCapture = await capture(demo.t, plan, { open: true });
+  const up = await request(demo.t.app)
     .post(`/api/studies/${plan.studyId}/attachments`)
-    .set(await as(t, 'engineer'))
+    .set(await demo.auth('engineer'))
     .attach('file', PNG, { filename: 'board.png', contentType: 'image/png' });
   expect(up.status).toBe(201);
   return { plan, openCapture, finishedCapture, attachmentId: up.body.id };
@@ -36,27 +30,21 @@ async function fixture(title: string): Promise<Fixture> {
 
 /** Every write route that touches a study's data, as [name, request]. */
 function writes(f: Fixture) {
-  const eng = () => as(t, 'engineer');
-  const lead = () => as(t, 'lead');
+  const eng = () => demo.auth('engineer');
+  const lead = () => demo.auth('lead');
   return [
     [
       'open a capture',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .post('/api/captures')
           .set(await eng())
-          .send({
-            dutId: f.plan.dutId,
-            checkpointId: f.plan.checkpointId,
-            quantity: 'frequency',
-            unit: 'Hz',
-            gateTime: 1,
-          }),
+          .send(demo.captureBody({ dutId: f.plan.dutId, checkpointId: f.plan.checkpointId })),
     ],
     [
       'add readings to a capture opened earlier',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .post(`/api/captures/${f.openCapture}/readings`)
           .set(await eng())
           .send({ readings: [{ seq: 1000, t: 1000, value: 10_000_000 }] }),
@@ -64,21 +52,21 @@ function writes(f: Fixture) {
     [
       'finish a capture',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .post(`/api/captures/${f.openCapture}/finish`)
           .set(await eng()),
     ],
     [
       'finish an already finished capture',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .post(`/api/captures/${f.finishedCapture}/finish`)
           .set(await eng()),
     ],
     [
       "edit a finished capture's notes",
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .patch(`/api/captures/${f.finishedCapture}`)
           .set(await eng())
           .send({ notes: 'changed later' }),
@@ -86,7 +74,7 @@ function writes(f: Fixture) {
     [
       'add a checkpoint',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .post(`/api/studies/${f.plan.studyId}/checkpoints`)
           .set(await eng())
           .send({ name: 'After bake' }),
@@ -94,7 +82,7 @@ function writes(f: Fixture) {
     [
       'add a DUT',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .post(`/api/studies/${f.plan.studyId}/duts`)
           .set(await eng())
           .send({
@@ -109,7 +97,7 @@ function writes(f: Fixture) {
     [
       "change a DUT's limit",
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .patch(`/api/duts/${f.plan.dutId}`)
           .set(await eng())
           .send({ limit: 5 }),
@@ -117,7 +105,7 @@ function writes(f: Fixture) {
     [
       'attach a file to the study',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .post(`/api/studies/${f.plan.studyId}/attachments`)
           .set(await eng())
           .attach('file', PNG, { filename: 'late.png', contentType: 'image/png' }),
@@ -125,7 +113,7 @@ function writes(f: Fixture) {
     [
       'attach a file to a checkpoint',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .post(`/api/checkpoints/${f.plan.checkpointId}/attachments`)
           .set(await eng())
           .attach('file', PNG, { filename: 'late.png', contentType: 'image/png' }),
@@ -133,7 +121,7 @@ function writes(f: Fixture) {
     [
       'attach a file to a capture',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .post(`/api/captures/${f.finishedCapture}/attachments`)
           .set(await eng())
           .attach('file', PNG, { filename: 'late.png', contentType: 'image/png' }),
@@ -141,7 +129,7 @@ function writes(f: Fixture) {
     [
       'delete an attachment',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .delete(`/api/attachments/${f.attachmentId}`)
           .set(await lead()),
     ],
@@ -149,7 +137,7 @@ function writes(f: Fixture) {
     [
       'edit the study',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .patch(`/api/studies/${f.plan.studyId}`)
           .set(await eng())
           .send({ title: 'Renamed while locked' }),
@@ -157,14 +145,14 @@ function writes(f: Fixture) {
     [
       'delete the study',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .delete(`/api/studies/${f.plan.studyId}`)
           .set(await eng()),
     ],
     [
       'edit a checkpoint',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .patch(`/api/checkpoints/${f.plan.checkpointId}`)
           .set(await eng())
           .send({ name: 'Renamed' }),
@@ -172,14 +160,14 @@ function writes(f: Fixture) {
     [
       'delete a checkpoint',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .delete(`/api/checkpoints/${f.plan.checkpointId}`)
           .set(await eng()),
     ],
     [
       'reorder checkpoints',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .post(`/api/studies/${f.plan.studyId}/checkpoints/order`)
           .set(await eng())
           .send({ ids: [f.plan.checkpointId] }),
@@ -187,7 +175,7 @@ function writes(f: Fixture) {
     [
       'archive a DUT',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .patch(`/api/duts/${f.plan.dutId}`)
           .set(await eng())
           .send({ archived: true }),
@@ -195,14 +183,14 @@ function writes(f: Fixture) {
     [
       'delete a DUT',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .delete(`/api/duts/${f.plan.dutId}`)
           .set(await eng()),
     ],
     [
       'exclude a capture',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .post(`/api/captures/${f.finishedCapture}/exclude`)
           .set(await lead())
           .send({ reason: 'Locked anyway' }),
@@ -210,14 +198,14 @@ function writes(f: Fixture) {
     [
       'include a capture',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .post(`/api/captures/${f.finishedCapture}/include`)
           .set(await lead()),
     ],
     [
       'choose the capture of a cell',
       async () =>
-        request(t.app)
+        request(demo.t.app)
           .put(`/api/studies/${f.plan.studyId}/cells`)
           .set(await lead())
           .send({
@@ -234,7 +222,9 @@ describe('an approved study is locked on every write route', () => {
   beforeAll(async () => {
     f = await fixture('Locked by approval');
     // As in the report that opened the issue: the status set directly in the database.
-    await t.db.pool.query(`UPDATE studies SET status = 'approved' WHERE id = $1`, [f.plan.studyId]);
+    await demo.t.db.pool.query(`UPDATE studies SET status = 'approved' WHERE id = $1`, [
+      f.plan.studyId,
+    ]);
   });
 
   it.each([...Array(writes({} as Fixture).length).keys()])(
@@ -250,46 +240,46 @@ describe('an approved study is locked on every write route', () => {
   );
 
   it('changed nothing: the open capture still has its readings and state, the plan is as it was', async () => {
-    const c = await request(t.app)
+    const c = await request(demo.t.app)
       .get(`/api/captures/${f.openCapture}`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(c.body).toMatchObject({ state: 'open', readingCount: 50 });
-    const fin = await request(t.app)
+    const fin = await request(demo.t.app)
       .get(`/api/captures/${f.finishedCapture}`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(fin.body.notes).toBeNull();
-    const s = await request(t.app)
+    const s = await request(demo.t.app)
       .get(`/api/studies/${f.plan.studyId}`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(s.body.checkpoints).toHaveLength(1);
     expect(s.body.duts).toHaveLength(1);
     expect(s.body.duts[0].limit).toBe(1);
-    const files = await request(t.app)
+    const files = await request(demo.t.app)
       .get(`/api/studies/${f.plan.studyId}/attachments`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(files.body.attachments).toHaveLength(1);
   });
 
   it('still serves reads', async () => {
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .get(`/api/studies/${f.plan.studyId}/matrix`)
-          .set(await as(t, 'viewer'))
+          .set(await demo.auth('viewer'))
       ).status,
     ).toBe(200);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .get(`/api/captures/${f.finishedCapture}/seal`)
-          .set(await as(t, 'viewer'))
+          .set(await demo.auth('viewer'))
       ).status,
     ).toBe(200);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .get(`/api/attachments/${f.attachmentId}`)
-          .set(await as(t, 'viewer'))
+          .set(await demo.auth('viewer'))
       ).status,
     ).toBe(200);
   });
@@ -299,12 +289,12 @@ describe('a study in review is locked too, and a returned one opens again', () =
   let f: Fixture;
   beforeAll(async () => {
     f = await fixture('Locked by review');
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/captures/${f.openCapture}/finish`)
-      .set(await as(t, 'engineer'));
-    const sub = await request(t.app)
+      .set(await demo.auth('engineer'));
+    const sub = await request(demo.t.app)
       .post(`/api/studies/${f.plan.studyId}/submit`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .send({});
     expect(sub.body.status).toBe('in-review');
   });
@@ -319,9 +309,9 @@ describe('a study in review is locked too, and a returned one opens again', () =
   });
 
   it('accepts the same writes once a lead returns the study', async () => {
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/studies/${f.plan.studyId}/return`)
-      .set(await as(t, 'lead'))
+      .set(await demo.auth('lead'))
       .send({ comment: 'One more checkpoint.' });
     const w = writes(f);
     expect((await w[5][1]()).status).toBe(201);
@@ -332,21 +322,21 @@ describe('a study in review is locked too, and a returned one opens again', () =
 describe('a reopened study takes writes again as its next revision', () => {
   it('accepts a new capture after reopen', async () => {
     const f = await fixture('Reopened for more work');
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/captures/${f.openCapture}/finish`)
-      .set(await as(t, 'engineer'));
-    await request(t.app)
+      .set(await demo.auth('engineer'));
+    await request(demo.t.app)
       .post(`/api/studies/${f.plan.studyId}/submit`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .send({});
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/studies/${f.plan.studyId}/approve`)
-      .set(await as(t, 'lead'))
+      .set(await demo.auth('lead'))
       .send({ password: DEMO_PASSWORD });
     expect((await writes(f)[0][1]()).status).toBe(409);
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/studies/${f.plan.studyId}/reopen`)
-      .set(await as(t, 'lead'))
+      .set(await demo.auth('lead'))
       .send({ reason: 'Second bake requested.' });
     expect((await writes(f)[0][1]()).status).toBe(201);
   });
