@@ -19,6 +19,7 @@ import { MemoryPendingStore, ReadingUploader, type SendBatch } from '../../src/a
 import { ApiError } from '../../src/api/http.js';
 import { MAX_FRAME } from '../../server/ws/live.js';
 import { MAX_UPLOADS_IN_FLIGHT } from '../../server/ws/uploads.js';
+import { sharedSessionStats } from '../../server/services/auth.js';
 
 // Readings uploaded as binary frames on the live socket (issue 15, shared/protocol/liveUpload.ts):
 // a real server, real PostgreSQL, real `ws` sockets. Every refusal is compared with what the HTTP
@@ -452,7 +453,9 @@ describe('readings uploaded on the live socket', () => {
 // against the row as it is after the frame arrived.
 describe('session checks of readings frames', () => {
   /** Counts the users-row queries the server's pool sends while `run` runs. */
-  async function usersQueries<T>(run: () => Promise<T>): Promise<{ result: T; queries: number }> {
+  async function usersQueries<T>(
+    run: (sent: () => number) => Promise<T>,
+  ): Promise<{ result: T; queries: number }> {
     const pool = server.db.pool;
     const original = pool.query;
     let queries = 0;
@@ -462,7 +465,7 @@ describe('session checks of readings frames', () => {
       return (original as (...a: unknown[]) => unknown).apply(this, args);
     } as typeof pool.query;
     try {
-      return { result: await run(), queries };
+      return { result: await run(() => queries), queries };
     } finally {
       pool.query = original;
     }
@@ -493,18 +496,23 @@ describe('session checks of readings frames', () => {
     // shares the next one: exactly two queries for the whole burst.
     const holder = await server.db.pool.connect();
     try {
-      const held = await usersQueries(async () => {
+      const held = await usersQueries(async (sent) => {
         await holder.query('BEGIN');
         await holder.query('LOCK TABLE users IN ACCESS EXCLUSIVE MODE');
+        const checks = sharedSessionStats.checks;
         a.ws.send(encodeUploadFrame(500, id, readings(2000, 10)));
-        // The first look-up is now sent and waits on the lock; the rest arrive behind it.
-        await new Promise((r) => setTimeout(r, 100));
+        // Once the first look-up is sent (it waits on the lock), the rest arrive behind it.
+        for (let i = 0; i < 500 && sent() === 0; i++) await new Promise((r) => setTimeout(r, 10));
+        expect(sent()).toBe(1);
         for (let k = 1; k < frames; k++) {
           a.ws.send(encodeUploadFrame(500 + k, id, readings(2000 + k * 10, 10)));
           b.ws.send(encodeUploadFrame(600 + k, id, readings(3000 + k * 10, 10)));
           await new Promise((r) => setTimeout(r, 5));
         }
-        await new Promise((r) => setTimeout(r, 100));
+        // Every frame has reached its session check (and waits) before the lock goes.
+        for (let i = 0; i < 500 && sharedSessionStats.checks - checks < 2 * frames - 1; i++)
+          await new Promise((r) => setTimeout(r, 10));
+        expect(sharedSessionStats.checks - checks).toBe(2 * frames - 1);
         // Nothing answered while the users row cannot be read.
         expect(a.messages.some((m) => m.type === 'readings-ack' && m.id === 500)).toBe(false);
         await holder.query('COMMIT');
