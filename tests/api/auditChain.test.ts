@@ -1,21 +1,15 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
 import { createHash } from 'node:crypto';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { as, capture, plannedStudy } from '../helpers/review.js';
+import { useDemoApp } from '../helpers/demoApp.js';
+import { capture, plannedStudy } from '../helpers/review.js';
 
-let t: TestApp;
-beforeAll(async () => {
-  t = await createTestApp();
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
 
 const verify = async () =>
-  request(t.app)
+  request(demo.t.app)
     .get('/api/audit/verify')
-    .set(await as(t, 'admin'));
+    .set(await demo.auth('admin'));
 
 /**
  * The chain as docs/record.md describes it, recomputed here independently of the server: SHA-256
@@ -23,7 +17,7 @@ const verify = async () =>
  * the UTC time with microseconds, joined by the unit separator U+001F.
  */
 async function recomputeInJs() {
-  const { rows } = await t.db.pool.query(
+  const { rows } = await demo.t.db.pool.query(
     `SELECT id, prev_hash, hash, actor_id, action, subject_type, subject_id, details::text AS details,
             to_char(created_at AT TIME ZONE 'UTC', 'YYYY-MM-DD"T"HH24:MI:SS.US"Z"') AS at
      FROM audit_events ORDER BY id`,
@@ -49,8 +43,8 @@ async function recomputeInJs() {
 
 describe('the audit chain', () => {
   it('links every event to the one before it, as the documented hash says', async () => {
-    const plan = await plannedStudy(t, 'Chained study');
-    await capture(t, plan);
+    const plan = await plannedStudy(demo.t, 'Chained study');
+    await capture(demo.t, plan);
     const v = await verify();
     expect(v.status).toBe(200);
     expect(v.body).toMatchObject({ ok: true, firstBroken: null });
@@ -60,17 +54,17 @@ describe('the audit chain', () => {
   });
 
   it('cannot fork under concurrent writers: 30 audited changes at once leave one straight chain', async () => {
-    const eng = await as(t, 'engineer');
+    const eng = await demo.auth('engineer');
     const results = await Promise.all(
       Array.from({ length: 30 }, (_, i) =>
-        request(t.app)
+        request(demo.t.app)
           .post('/api/studies')
           .set(eng)
           .send({ title: `Concurrent study ${i}` }),
       ),
     );
     expect(results.every((r) => r.status === 201)).toBe(true);
-    const { rows } = await t.db.pool.query(
+    const { rows } = await demo.t.db.pool.query(
       'SELECT prev_hash, count(*)::int AS n FROM audit_events GROUP BY prev_hash HAVING count(*) > 1',
     );
     expect(rows).toEqual([]);
@@ -78,9 +72,9 @@ describe('the audit chain', () => {
   });
 
   it('records role and account changes with before → after', async () => {
-    const created = await request(t.app)
+    const created = await request(demo.t.app)
       .post('/api/users')
-      .set(await as(t, 'admin'))
+      .set(await demo.auth('admin'))
       .send({
         email: 'chain.viewer@kestrelbay.example',
         name: 'Chain Viewer',
@@ -88,13 +82,13 @@ describe('the audit chain', () => {
         password: 'chain-viewer-passphrase-3',
       });
     const id = created.body.user.id;
-    await request(t.app)
+    await request(demo.t.app)
       .patch(`/api/users/${id}`)
-      .set(await as(t, 'admin'))
+      .set(await demo.auth('admin'))
       .send({ role: 'technician' });
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/audit?kind=user.role`)
-      .set(await as(t, 'admin'));
+      .set(await demo.auth('admin'));
     expect(res.body.events[0]).toMatchObject({
       subjectId: id,
       details: { from: 'viewer', to: 'technician' },
@@ -107,26 +101,26 @@ describe('the audit chain', () => {
     async (role) => {
       expect(
         (
-          await request(t.app)
+          await request(demo.t.app)
             .get('/api/audit')
-            .set(await as(t, role))
+            .set(await demo.auth(role))
         ).status,
       ).toBe(403);
       expect(
         (
-          await request(t.app)
+          await request(demo.t.app)
             .get('/api/audit/verify')
-            .set(await as(t, role))
+            .set(await demo.auth(role))
         ).status,
       ).toBe(403);
     },
   );
 
   it('filters by user, kind and date, newest first, in pages that follow the cursor', async () => {
-    const admin = await as(t, 'admin');
-    const users = await request(t.app).get('/api/users').set(admin);
+    const admin = await demo.auth('admin');
+    const users = await request(demo.t.app).get('/api/users').set(admin);
     const engineer = users.body.users.find((u: { role: string }) => u.role === 'engineer');
-    const byUser = await request(t.app)
+    const byUser = await request(demo.t.app)
       .get(`/api/audit?userId=${engineer.id}&kind=study&limit=500`)
       .set(admin);
     expect(byUser.status).toBe(200);
@@ -143,7 +137,7 @@ describe('the audit chain', () => {
     const seen: number[] = [];
     let cursor: string | null = null;
     for (let page = 0; page < 20; page++) {
-      const res: request.Response = await request(t.app)
+      const res: request.Response = await request(demo.t.app)
         .get(
           `/api/audit?userId=${engineer.id}&kind=study&limit=7${cursor ? `&cursor=${cursor}` : ''}`,
         )
@@ -156,22 +150,24 @@ describe('the audit chain', () => {
     expect(seen).toEqual(ids);
 
     const today = new Date().toISOString().slice(0, 10);
-    const dated = await request(t.app)
+    const dated = await request(demo.t.app)
       .get(`/api/audit?from=${today}&to=${today}&limit=1`)
       .set(admin);
     expect(dated.body.events).toHaveLength(1);
-    const none = await request(t.app).get('/api/audit?from=2001-01-01&to=2001-01-02').set(admin);
+    const none = await request(demo.t.app)
+      .get('/api/audit?from=2001-01-01&to=2001-01-02')
+      .set(admin);
     expect(none.body).toEqual({ events: [], nextCursor: null });
-    const bad = await request(t.app).get('/api/audit?kind=DROP%20TABLE').set(admin);
+    const bad = await request(demo.t.app).get('/api/audit?kind=DROP%20TABLE').set(admin);
     expect(bad.status).toBe(400);
   });
 
   it('names the first broken link when a row is edited in SQL', async () => {
-    const { rows } = await t.db.pool.query(
+    const { rows } = await demo.t.db.pool.query(
       `SELECT id FROM audit_events WHERE action = 'study.create' ORDER BY id LIMIT 1 OFFSET 3`,
     );
     const victim = Number(rows[0].id);
-    await t.db.pool.query(
+    await demo.t.db.pool.query(
       `UPDATE audit_events SET details = jsonb_set(details, '{title}', '"Quietly renamed"') WHERE id = $1`,
       [victim],
     );
@@ -183,11 +179,11 @@ describe('the audit chain', () => {
   });
 
   it('names the row after a deleted one, even when the edited row is restored', async () => {
-    const { rows } = await t.db.pool.query(
+    const { rows } = await demo.t.db.pool.query(
       `SELECT id FROM audit_events ORDER BY id LIMIT 3 OFFSET 1`,
     );
     const [deleted, next] = [Number(rows[0].id), Number(rows[1].id)];
-    await t.db.pool.query('DELETE FROM audit_events WHERE id = $1', [deleted]);
+    await demo.t.db.pool.query('DELETE FROM audit_events WHERE id = $1', [deleted]);
     const v = await verify();
     expect(v.body.ok).toBe(false);
     expect(v.body.firstBroken).toMatchObject({ id: next, reason: 'link-broken' });
