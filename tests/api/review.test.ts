@@ -1,29 +1,23 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { DEMO_PASSWORD } from '../../server/db/seed.js';
-import { as, capture, plannedStudy, secondLead, SECOND_LEAD } from '../helpers/review.js';
+import { capture, plannedStudy, secondLead, SECOND_LEAD } from '../helpers/review.js';
 
-let t: TestApp;
-beforeAll(async () => {
-  t = await createTestApp();
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
 
 const post = async (path: string, role: string | Record<string, string>, body: object = {}) =>
-  request(t.app)
+  request(demo.t.app)
     .post(path)
-    .set(typeof role === 'string' ? await as(t, role) : role)
+    .set(typeof role === 'string' ? await demo.auth(role) : role)
     .send(body);
 
 describe('study workflow: draft → running', () => {
   it('starts a new study as a draft that cannot be submitted', async () => {
-    const { studyId } = await plannedStudy(t);
-    const s = await request(t.app)
+    const { studyId } = await plannedStudy(demo.t);
+    const s = await request(demo.t.app)
       .get(`/api/studies/${studyId}`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(s.body).toMatchObject({ status: 'draft', revision: 1 });
     const res = await post(`/api/studies/${studyId}/submit`, 'engineer', { note: 'early' });
     expect(res.status).toBe(409);
@@ -32,7 +26,7 @@ describe('study workflow: draft → running', () => {
   });
 
   it('moves draft → running explicitly, once', async () => {
-    const { studyId } = await plannedStudy(t);
+    const { studyId } = await plannedStudy(demo.t);
     const res = await post(`/api/studies/${studyId}/start`, 'engineer');
     expect(res.status).toBe(200);
     expect(res.body.status).toBe('running');
@@ -41,15 +35,15 @@ describe('study workflow: draft → running', () => {
   });
 
   it('moves draft → running when the first capture opens', async () => {
-    const plan = await plannedStudy(t);
-    await capture(t, plan, { open: true, role: 'technician' });
-    const s = await request(t.app)
+    const plan = await plannedStudy(demo.t);
+    await capture(demo.t, plan, { open: true, role: 'technician' });
+    const s = await request(demo.t.app)
       .get(`/api/studies/${plan.studyId}`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(s.body.status).toBe('running');
-    const h = await request(t.app)
+    const h = await request(demo.t.app)
       .get(`/api/studies/${plan.studyId}/reviews`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(h.body.reviews).toEqual([
       expect.objectContaining({
         action: 'start',
@@ -66,12 +60,12 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
   let lead2: Record<string, string>;
 
   beforeAll(async () => {
-    plan = await plannedStudy(t, 'Conformal coat — full review');
-    lead2 = await secondLead(t);
+    plan = await plannedStudy(demo.t, 'Conformal coat — full review');
+    lead2 = await secondLead(demo.t);
   });
 
   it('refuses to submit while a capture is open, and with nothing finished', async () => {
-    const open = await capture(t, plan, { open: true });
+    const open = await capture(demo.t, plan, { open: true });
     const res = await post(`/api/studies/${plan.studyId}/submit`, 'engineer');
     expect(res.status).toBe(409);
     expect(res.body.error.code).toBe('captures-open');
@@ -115,9 +109,9 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
     });
     expect(res.status).toBe(403);
     expect(res.body.error.code).toBe('signature-refused');
-    const s = await request(t.app)
+    const s = await request(demo.t.app)
       .get(`/api/studies/${plan.studyId}`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(s.body.status).toBe('in-review');
   });
 
@@ -145,7 +139,7 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
       (await post(`/api/studies/${plan.studyId}/return`, 'lead', { comment: 'again' })).status,
     ).toBe(409);
     // Work continues on a returned study.
-    await capture(t, plan);
+    await capture(demo.t, plan);
   });
 
   it('resubmits a returned study and lets a lead who did not submit approve it with the password', async () => {
@@ -174,8 +168,8 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
   });
 
   it('never lets the lead who submitted approve the same study', async () => {
-    const other = await plannedStudy(t, 'Lead-submitted study');
-    await capture(t, other);
+    const other = await plannedStudy(demo.t, 'Lead-submitted study');
+    await capture(demo.t, other);
     expect((await post(`/api/studies/${other.studyId}/submit`, 'lead')).body.status).toBe(
       'in-review',
     );
@@ -192,9 +186,9 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
   });
 
   it('reopens an approved study as a new revision, keeping the approved report unchanged', async () => {
-    const approvedReport = await request(t.app)
+    const approvedReport = await request(demo.t.app)
       .get(`/api/studies/${plan.studyId}/report?revision=1`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(approvedReport.status).toBe(200);
     expect(approvedReport.body.study).toMatchObject({
       status: 'approved',
@@ -211,28 +205,28 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
     expect(res.status).toBe(200);
     expect(res.body).toMatchObject({ status: 'running', revision: 2, approvedBy: null });
     // New work in revision 2 does not touch the approved revision's report.
-    await capture(t, plan);
-    const again = await request(t.app)
+    await capture(demo.t, plan);
+    const again = await request(demo.t.app)
       .get(`/api/studies/${plan.studyId}/report?revision=1`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(again.body).toEqual(approvedReport.body);
-    const live = await request(t.app)
+    const live = await request(demo.t.app)
       .get(`/api/studies/${plan.studyId}/report`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(live.body.study).toMatchObject({ status: 'running', revision: 2 });
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .get(`/api/studies/${plan.studyId}/report?revision=2`)
-          .set(await as(t, 'viewer'))
+          .set(await demo.auth('viewer'))
       ).status,
     ).toBe(404);
   });
 
   it('keeps the review history with names, dates and comments in order', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/studies/${plan.studyId}/reviews`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(res.status).toBe(200);
     expect(res.body.reviews.map((r: { action: string }) => r.action)).toEqual([
       'start',
@@ -259,9 +253,9 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
   });
 
   it('records every transition in the study audit trail with before → after', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/studies/${plan.studyId}/audit?limit=100`)
-      .set(await as(t, 'technician'));
+      .set(await demo.auth('technician'));
     expect(res.status).toBe(200);
     const approve = res.body.events.find((e: { action: string }) => e.action === 'study.approve');
     expect(approve.details.status).toEqual({ from: 'in-review', to: 'approved' });
@@ -282,8 +276,8 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
   });
 
   it('refuses signatures for 15 minutes after five wrong passwords (429), even with the right one', async () => {
-    const other = await plannedStudy(t, 'Guessing signatures');
-    await capture(t, other);
+    const other = await plannedStudy(demo.t, 'Guessing signatures');
+    await capture(demo.t, other);
     await post(`/api/studies/${other.studyId}/submit`, 'engineer');
     for (let i = 0; i < 5; i++) {
       expect(
@@ -296,9 +290,9 @@ describe('study workflow: submit, return, resubmit, approve, reopen', () => {
     });
     expect(blocked.status).toBe(429);
     expect(blocked.body.error.code).toBe('too-many-signatures');
-    const s = await request(t.app)
+    const s = await request(demo.t.app)
       .get(`/api/studies/${other.studyId}`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(s.body.status).toBe('in-review');
   });
 
@@ -332,16 +326,16 @@ describe('every transition from every status', () => {
   let plan: Awaited<ReturnType<typeof plannedStudy>>;
   let engineerId: number;
   beforeAll(async () => {
-    plan = await plannedStudy(t, 'Transition table');
-    await capture(t, plan);
-    const users = await request(t.app)
+    plan = await plannedStudy(demo.t, 'Transition table');
+    await capture(demo.t, plan);
+    const users = await request(demo.t.app)
       .get('/api/users')
-      .set(await as(t, 'admin'));
+      .set(await demo.auth('admin'));
     engineerId = users.body.users.find((u: { role: string }) => u.role === 'engineer').id;
   });
 
   it.each(cases)('from %s, %s', async (from, action) => {
-    await t.db.pool.query('UPDATE studies SET status = $2, submitted_by = $3 WHERE id = $1', [
+    await demo.t.db.pool.query('UPDATE studies SET status = $2, submitted_by = $3 WHERE id = $1', [
       plan.studyId,
       from,
       engineerId,
@@ -358,9 +352,9 @@ describe('every transition from every status', () => {
     } else {
       expect(res.status, JSON.stringify(res.body)).toBe(409);
       expect(res.body.error.code).toBe('transition-refused');
-      const s = await request(t.app)
+      const s = await request(demo.t.app)
         .get(`/api/studies/${plan.studyId}`)
-        .set(await as(t, 'viewer'));
+        .set(await demo.auth('viewer'));
       expect(s.body.status).toBe(from);
     }
   });
