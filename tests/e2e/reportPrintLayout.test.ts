@@ -4,15 +4,8 @@ import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Browser, Page } from 'playwright-core';
 import { startTestServer } from '../helpers/appServer.js';
-import {
-  RESULTS,
-  apiAs,
-  launchChromium,
-  login,
-  openPage,
-  type Session,
-} from '../helpers/browser.js';
-import { gaussian } from '../helpers/random.js';
+import { RESULTS, launchChromium, login, openPage, type Session } from '../helpers/browser.js';
+import { addStabilityAndTiltVerdicts } from '../helpers/verdictKinds.js';
 
 // The printed study report of the demo lab's story (finished captures for every DUT at every
 // checkpoint, so every kind of table is printed) in a real Chromium: laid out as print media at
@@ -140,33 +133,10 @@ describe('the printed study report fits the paper', () => {
     server = await startTestServer({ demoStory: true });
     browser = await launchChromium();
     lead = await login(server.url, 'lead');
-    // One more baseline capture of the crystal, white FM of 1 ppb at 1 s over 600 readings: its
-    // budget's repeatability line is a Student-t one with a long note and a ν_i of about 600, the
-    // budget that ran past the right margin of A4.
-    const technician = await apiAs(server.url, 'technician');
-    const study = await technician.call<{
-      checkpoints: Array<{ id: number; order: number }>;
-      duts: Array<{ id: number; label: string; nominal: number }>;
-    }>('GET', '/api/studies/1');
-    const baseline = [...study.checkpoints].sort((a, b) => a.order - b.order)[0];
-    const crystal = study.duts.find((d) => d.label.startsWith('Y1'))!;
-    const capture = await technician.call<{ id: number }>('POST', '/api/captures', {
-      dutId: crystal.id,
-      checkpointId: baseline.id,
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-      referenceId: 1,
-      ambientC: 23,
-    });
-    const g = gaussian(11);
-    const readings = Array.from({ length: 600 }, (_, seq) => ({
-      seq,
-      t: seq,
-      value: crystal.nominal * (1 + 1e-9 * g()),
-    }));
-    await technician.call('POST', `/api/captures/${capture.id}/readings`, { readings });
-    await technician.call('POST', `/api/captures/${capture.id}/finish`);
+    // One more baseline capture of the crystal, white FM of 1 ppb at 1 s over 600 readings (the
+    // budget that ran past the right margin of A4), the crystal's stability limit and the
+    // accelerometer's tilt checks: every report table is printed.
+    await addStabilityAndTiltVerdicts(server.url);
   });
 
   afterAll(async () => {
@@ -180,6 +150,8 @@ describe('the printed study report fits the paper', () => {
       // The demo story prints budget tables: the widest tables of the report are there.
       expect(await page.locator('.budget').count()).toBeGreaterThan(0);
       expect(await page.locator('.report-table').count()).toBeGreaterThan(3);
+      await page.waitForSelector('[data-testid="report-stability-limits"]');
+      await page.waitForSelector('[data-testid="report-tilt-checks"]');
       // The check sees a box past the margin: a 2 000 px wide line put into the sheet is found.
       await page.evaluate(`(() => {
         const probe = document.createElement('div');
@@ -238,6 +210,19 @@ describe('the printed study report fits the paper', () => {
       // Every page carries its footer: nothing was pushed off the end of the paper.
       const text = execFileSync('pdftotext', ['-raw', file, '-']).toString('utf8');
       for (let n = 1; n <= pages; n++) expect(text).toContain(`Page ${n} of ${pages}`);
+      // The signature line shares its page with the decision rule it closes (on A4 it stood alone
+      // on the last page).
+      const last = execFileSync('pdftotext', [
+        '-f',
+        `${pages}`,
+        '-l',
+        `${pages}`,
+        '-raw',
+        file,
+        '-',
+      ]).toString('utf8');
+      expect(last).toContain('Not approved. No signature.');
+      expect(last).toContain('8. Decision rule');
       expect(errors).toEqual([]);
       await page.context().close();
     }
