@@ -3,9 +3,9 @@
 // fork after the over-exposure (+2.5 ppm against ±1 ppm) and "within" for every other part and
 // for the tuning fork after the normal wash — with k from ν_eff, the counter's type, the
 // reference's ageing, drift removal and the tuning fork's shared T0/B now in every budget.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { SimCounter } from '../../simulators/counter.js';
 import { ManualClock } from '../../simulators/clock.js';
 import {
@@ -14,15 +14,8 @@ import {
   type CounterPresetName,
 } from '../../simulators/presets.js';
 
-let t: TestApp;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-beforeAll(async () => {
-  t = await createTestApp();
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
+const { auth } = demo;
 
 const PARTS: Array<[CounterPresetName, string]> = [
   ['xtal-16m', 'Y1'],
@@ -34,43 +27,32 @@ const PARTS: Array<[CounterPresetName, string]> = [
 describe('the demo study after issue 8', () => {
   it('still shows the tuning fork exceeding after the over-exposure and every other part within', async () => {
     const head = await auth('technician');
-    const study = (await request(t.app).get('/api/studies/1').set(head)).body;
+    const study = (await request(demo.t.app).get('/api/studies/1').set(head)).body;
     const checkpoints = [...study.checkpoints].sort(
       (a: { order: number }, b: { order: number }) => a.order - b.order,
     );
-    const { instruments } = (await request(t.app).get('/api/instruments').set(head)).body;
+    const { instruments } = (await request(demo.t.app).get('/api/instruments').set(head)).body;
     const counter = instruments.find((i: { kind: string }) => i.kind === 'counter').id;
     for (const [preset, position] of PARTS) {
       const dut = study.duts.find((d: { label: string }) => d.label.startsWith(position));
       for (const cp of [0, 1, 2] as CheckpointIndex[]) {
         const sim = new SimCounter({ ...presetCounter(preset, cp), garble: 0 }, new ManualClock());
-        const c = await request(t.app).post('/api/captures').set(head).send({
-          dutId: dut.id,
-          checkpointId: checkpoints[cp].id,
-          quantity: 'frequency',
-          unit: 'Hz',
-          gateTime: 1,
-          referenceId: 1,
-          instrumentId: counter,
-          ambientC: 23,
-        });
-        expect(c.status).toBe(201);
         const readings = Array.from({ length: 600 }, (_, i) => ({
           seq: i,
           t: i,
           value: sim.nextReading().value,
         }));
-        await request(t.app)
-          .post(`/api/captures/${c.body.id}/readings`)
-          .set(head)
-          .send({ readings });
-        expect(
-          (await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(head)).status,
-        ).toBe(200);
+        await demo.recordCapture(readings, {
+          dutId: dut.id,
+          checkpointId: checkpoints[cp].id,
+          referenceId: 1,
+          instrumentId: counter,
+          ambientC: 23,
+        });
       }
     }
     const matrix = (
-      await request(t.app)
+      await request(demo.t.app)
         .get('/api/studies/1/matrix')
         .set(await auth('viewer'))
     ).body;
