@@ -1,14 +1,14 @@
 // The lab's equipment (issue 14): calibration records kept as history, one calibration rule for
 // the lists, the dashboard and the bench, away at the calibration lab, retired, the lab's reference.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { AuditEvent } from '../../server/models/index.js';
 import { calibrationStatus } from '../../server/services/calibration.js';
 import { calibrationWords } from '../../shared/protocol/equipment.js';
 
-let t: TestApp;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
+const demo = useDemoApp();
+const { auth } = demo;
 
 /** Today + n days as YYYY-MM-DD (UTC), the calendar the rule counts in. */
 function day(n: number, from = new Date()): string {
@@ -26,22 +26,15 @@ interface Item {
 
 async function lists() {
   const viewer = await auth('viewer');
-  const instruments = (await request(t.app).get('/api/instruments').set(viewer)).body
+  const instruments = (await request(demo.t.app).get('/api/instruments').set(viewer)).body
     .instruments as Item[];
-  const references = (await request(t.app).get('/api/references').set(viewer)).body
+  const references = (await request(demo.t.app).get('/api/references').set(viewer)).body
     .references as Item[];
-  const dashboard = (await request(t.app).get('/api/dashboard').set(viewer)).body as {
+  const dashboard = (await request(demo.t.app).get('/api/dashboard').set(viewer)).body as {
     calibration: Array<{ subject: string; id: number; name: string; state: string }>;
   };
   return { instruments, references, dashboard };
 }
-
-beforeAll(async () => {
-  t = await createTestApp();
-});
-afterAll(async () => {
-  await t.close();
-});
 
 describe('the one calibration rule', () => {
   const now = new Date('2026-12-02T22:30:00Z');
@@ -78,11 +71,11 @@ describe('the one calibration rule', () => {
 
   it('is the one the API answers: the 30th day is due soon and listed, the 31st valid and not', async () => {
     const admin = await auth('admin');
-    const at30 = await request(t.app)
+    const at30 = await request(demo.t.app)
       .post('/api/instruments')
       .set(admin)
       .send({ name: 'Counter D-30', kind: 'counter', calibrationDue: day(30) });
-    const at31 = await request(t.app)
+    const at31 = await request(demo.t.app)
       .post('/api/instruments')
       .set(admin)
       .send({ name: 'Counter D-31', kind: 'counter', calibrationDue: day(31) });
@@ -124,14 +117,14 @@ describe('calibration records', () => {
   });
 
   it('starts from the demo lab: the thermometer is overdue by 5 days with one certificate on file', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/instruments/${thermometerId}`)
       .set(await auth('viewer'));
     expect(res.body.instrument).toMatchObject({
       kind: 'thermometer',
       calibration: { state: 'overdue', daysLeft: -5 },
     });
-    const history = await request(t.app)
+    const history = await request(demo.t.app)
       .get(`/api/instruments/${thermometerId}/calibrations`)
       .set(await auth('technician'));
     expect(history.status).toBe(200);
@@ -151,7 +144,7 @@ describe('calibration records', () => {
       issuedBy: 'Driftbench demo calibration lab',
       uncertainty: '±0.05 °C (k = 2)',
     };
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post(`/api/instruments/${thermometerId}/calibrations`)
       .set(await auth('admin'))
       .send(body);
@@ -169,7 +162,7 @@ describe('calibration records', () => {
     const { dashboard } = await lists();
     expect(dashboard.calibration.map((c) => c.name)).not.toContain('Bench thermometer T-1');
     const history = (
-      await request(t.app)
+      await request(demo.t.app)
         .get(`/api/instruments/${thermometerId}/calibrations`)
         .set(await auth('viewer'))
     ).body.calibrations;
@@ -189,7 +182,7 @@ describe('calibration records', () => {
   });
 
   it('keeps an older certificate entered late as history without moving the current due date', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post(`/api/instruments/${thermometerId}/calibrations`)
       .set(await auth('admin'))
       .send({
@@ -201,7 +194,7 @@ describe('calibration records', () => {
     expect(res.status).toBe(201);
     expect(res.body.instrument.calibrationDue).toBe(day(364));
     const history = (
-      await request(t.app)
+      await request(demo.t.app)
         .get(`/api/instruments/${thermometerId}/calibrations`)
         .set(await auth('viewer'))
     ).body.calibrations;
@@ -214,7 +207,7 @@ describe('calibration records', () => {
 
   it('never overwrites a record: the database refuses an UPDATE', async () => {
     await expect(
-      t.db.pool.query(
+      demo.t.db.pool.query(
         `UPDATE calibration_records SET certificate = 'forged' WHERE instrument_id = $1`,
         [thermometerId],
       ),
@@ -238,7 +231,7 @@ describe('calibration records', () => {
   ])(
     'refuses an incomplete or impossible record with 400 naming the field (%#)',
     async (body, field, words) => {
-      const res = await request(t.app)
+      const res = await request(demo.t.app)
         .post(`/api/instruments/${thermometerId}/calibrations`)
         .set(await auth('admin'))
         .send(body);
@@ -249,7 +242,7 @@ describe('calibration records', () => {
   );
 
   it('leaves instruments to admins: a lead may not record an instrument calibration (403)', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post(`/api/instruments/${thermometerId}/calibrations`)
       .set(await auth('lead'))
       .send({ calibratedOn: day(-1), certificate: 'X', issuedBy: 'Lab' });
@@ -259,7 +252,7 @@ describe('calibration records', () => {
   it('answers 404 for the history of an instrument that does not exist', async () => {
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .get('/api/instruments/99999/calibrations')
           .set(await auth('viewer'))
       ).status,
@@ -270,7 +263,7 @@ describe('calibration records', () => {
 describe('away for calibration, retired, back in service', () => {
   let id: number;
   beforeAll(async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/instruments')
       .set(await auth('admin'))
       .send({ name: 'Counter A-1', kind: 'counter', calibrationDue: day(120) });
@@ -278,7 +271,7 @@ describe('away for calibration, retired, back in service', () => {
   });
 
   it('reads "away" once sent to the calibration lab, is listed on the dashboard, and cannot be sent twice', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post(`/api/instruments/${id}/away`)
       .set(await auth('admin'))
       .send({});
@@ -290,7 +283,7 @@ describe('away for calibration, retired, back in service', () => {
     expect((await lists()).dashboard.calibration).toContainEqual(
       expect.objectContaining({ name: 'Counter A-1', state: 'away' }),
     );
-    const again = await request(t.app)
+    const again = await request(demo.t.app)
       .post(`/api/instruments/${id}/away`)
       .set(await auth('admin'))
       .send({});
@@ -299,7 +292,7 @@ describe('away for calibration, retired, back in service', () => {
   });
 
   it('comes back with its new calibration recorded', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post(`/api/instruments/${id}/calibrations`)
       .set(await auth('admin'))
       .send({
@@ -313,16 +306,16 @@ describe('away for calibration, retired, back in service', () => {
   });
 
   it('retires with a reason (required), leaves the dashboard, refuses new records, and returns to service', async () => {
-    const noReason = await request(t.app)
+    const noReason = await request(demo.t.app)
       .post(`/api/instruments/${id}/retire`)
       .set(await auth('admin'))
       .send({});
     expect(noReason.status).toBe(400);
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/instruments/${id}/away`)
       .set(await auth('admin'))
       .send({ sentOn: day(-1) });
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post(`/api/instruments/${id}/retire`)
       .set(await auth('admin'))
       .send({ reason: 'Timebase failed; replaced by C-4.' });
@@ -331,7 +324,7 @@ describe('away for calibration, retired, back in service', () => {
     expect(res.body.instrument.retiredReason).toBe('Timebase failed; replaced by C-4.');
     expect((await lists()).dashboard.calibration.map((c) => c.name)).not.toContain('Counter A-1');
 
-    const record = await request(t.app)
+    const record = await request(demo.t.app)
       .post(`/api/instruments/${id}/calibrations`)
       .set(await auth('admin'))
       .send({ calibratedOn: day(0), certificate: 'X', issuedBy: 'Lab' });
@@ -339,7 +332,7 @@ describe('away for calibration, retired, back in service', () => {
     expect(record.body.error.code).toBe('equipment-retired');
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .post(`/api/instruments/${id}/retire`)
           .set(await auth('admin'))
           .send({ reason: 'again' })
@@ -348,16 +341,16 @@ describe('away for calibration, retired, back in service', () => {
 
     // A retired instrument records no new capture.
     const study = (
-      await request(t.app)
+      await request(demo.t.app)
         .get('/api/studies')
         .set(await auth('engineer'))
     ).body.studies[0];
     const plan = (
-      await request(t.app)
+      await request(demo.t.app)
         .get(`/api/studies/${study.id}`)
         .set(await auth('engineer'))
     ).body;
-    const capture = await request(t.app)
+    const capture = await request(demo.t.app)
       .post('/api/captures')
       .set(await auth('engineer'))
       .send({
@@ -372,7 +365,7 @@ describe('away for calibration, retired, back in service', () => {
     expect(capture.status).toBe(409);
     expect(capture.body.error.code).toBe('equipment-retired');
 
-    const back = await request(t.app)
+    const back = await request(demo.t.app)
       .post(`/api/instruments/${id}/reinstate`)
       .set(await auth('admin'))
       .send({});
@@ -384,7 +377,7 @@ describe('away for calibration, retired, back in service', () => {
     });
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .post(`/api/instruments/${id}/reinstate`)
           .set(await auth('admin'))
           .send({})
@@ -407,7 +400,7 @@ describe('references', () => {
   let ocxoId: number;
   beforeAll(async () => {
     gpsId = (await lists()).references[0].id;
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/references')
       .set(await auth('lead'))
       .send({
@@ -421,7 +414,7 @@ describe('references', () => {
   });
 
   it('starts with the demo lab’s GPS reference as the lab’s reference, due in 355 days', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/references/${gpsId}`)
       .set(await auth('viewer'));
     expect(res.status).toBe(200);
@@ -432,7 +425,7 @@ describe('references', () => {
   });
 
   it('lets a lead record a reference calibration; its offset and uncertainty become the reference’s record', async () => {
-    const missing = await request(t.app)
+    const missing = await request(demo.t.app)
       .post(`/api/references/${ocxoId}/calibrations`)
       .set(await auth('lead'))
       .send({
@@ -447,7 +440,7 @@ describe('references', () => {
       'standardUncertainty',
     ]);
 
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post(`/api/references/${ocxoId}/calibrations`)
       .set(await auth('lead'))
       .send({
@@ -467,7 +460,7 @@ describe('references', () => {
       calibrationDue: day(180),
       calibration: { state: 'valid' },
     });
-    const history = await request(t.app)
+    const history = await request(demo.t.app)
       .get(`/api/references/${ocxoId}/calibrations`)
       .set(await auth('viewer'));
     expect(history.body.calibrations).toHaveLength(1);
@@ -478,7 +471,7 @@ describe('references', () => {
   });
 
   it('keeps one lab reference: choosing another moves the mark, and retiring it clears it', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post(`/api/references/${ocxoId}/lab-default`)
       .set(await auth('lead'))
       .send({});
@@ -491,19 +484,19 @@ describe('references', () => {
         .map((r) => r.id),
     ).toEqual([ocxoId]);
 
-    const retired = await request(t.app)
+    const retired = await request(demo.t.app)
       .post(`/api/references/${ocxoId}/retire`)
       .set(await auth('lead'))
       .send({ reason: 'Sold.' });
     expect(retired.body.reference).toMatchObject({ labDefault: false });
-    const refused = await request(t.app)
+    const refused = await request(demo.t.app)
       .post(`/api/references/${ocxoId}/lab-default`)
       .set(await auth('lead'))
       .send({});
     expect(refused.status).toBe(409);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .post(`/api/references/${gpsId}/lab-default`)
           .set(await auth('engineer'))
           .send({})
