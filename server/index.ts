@@ -46,6 +46,8 @@ export interface ServerOptions {
   localSmtpPort?: number;
   /** Run the mail worker and the e-mail schedules (default true). */
   mail?: boolean;
+  /** Start the analysis pool's finish worker a few seconds after listening (AnalysisPool.warmFinish). */
+  warmFinishWorker?: boolean;
 }
 
 export interface RunningServer {
@@ -126,6 +128,7 @@ export async function startServer(opts: ServerOptions): Promise<RunningServer> {
     server.once('error', reject);
     server.listen(opts.port ?? 0, opts.host ?? '127.0.0.1', () => resolve());
   });
+  if (opts.warmFinishWorker) setTimeout(() => analysis.warmFinish(), 3000).unref();
   const addr = server.address();
   const port = typeof addr === 'object' && addr ? addr.port : 0;
   const host = opts.host ?? '127.0.0.1';
@@ -180,6 +183,7 @@ export function configuredServerOptions(
     loginRateLimit: config.loginRateLimit,
     loginAccountLimit: config.loginAccountLimit,
     trustProxy: config.trustProxy,
+    warmFinishWorker: true,
     log,
   };
 }

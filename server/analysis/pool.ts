@@ -175,6 +175,15 @@ export class AnalysisPool {
     });
   }
 
+  /**
+   * Starts the finish worker ahead of the first large finish (a worker's start, about 1–3 s of
+   * module loading here, would otherwise be part of that finish). Does nothing once it runs.
+   */
+  warmFinish(): void {
+    if (this.closed || this.slots.some((s) => s.lane === 'finish')) return;
+    this.spawn('finish');
+  }
+
   /** False once closed: a finish then computes its summary on its own thread. */
   get available(): boolean {
     return !this.closed;
