@@ -1,33 +1,22 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
 import pg from 'pg';
 import { pino } from 'pino';
 import { Writable } from 'node:stream';
-import { createTestApp, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { isCalendarDate, textProblem } from '../../shared/protocol/text.js';
 
 // Issue 10, items 3, 6 and 11: bodies are read only after sign-in and are small except on the
 // ingest route; odd text and impossible dates are a 400 with nothing kept; a change and its
 // audit event are one transaction; a database outage answers 503 with Retry-After, logged once.
-let t: TestApp;
-let admin: string;
-let lead: string;
-const auth = (token: string) => ({ authorization: `Bearer ${token}` });
-beforeAll(async () => {
-  t = await createTestApp();
-  admin = await t.tokenFor('admin');
-  lead = await t.tokenFor('lead');
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
 
 const count = async (table: string) =>
-  Number((await t.db.pool.query(`SELECT count(*)::int AS n FROM ${table}`)).rows[0].n);
+  Number((await demo.t.db.pool.query(`SELECT count(*)::int AS n FROM ${table}`)).rows[0].n);
 
 describe('bodies are read only after sign-in (item 3)', () => {
   it('answers an anonymous malformed body with 401, not a parse error: the body was never read', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/studies')
       .set('content-type', 'application/json')
       .send('{"title":');
@@ -36,7 +25,7 @@ describe('bodies are read only after sign-in (item 3)', () => {
 
   it('answers an anonymous 9 MB body with 401, not 413', async () => {
     const big = JSON.stringify({ title: 'x'.repeat(9 * 1024 * 1024) });
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/studies')
       .set('content-type', 'application/json')
       .send(big);
@@ -44,9 +33,9 @@ describe('bodies are read only after sign-in (item 3)', () => {
   });
 
   it('refuses a signed-in body over 100 kB on an ordinary route with 413', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/studies')
-      .set(auth(lead))
+      .set(await demo.auth('lead'))
       .set('content-type', 'application/json')
       .send(JSON.stringify({ title: 'Wash study', description: 'x'.repeat(150 * 1024) }));
     expect(res.status).toBe(413);
@@ -54,23 +43,30 @@ describe('bodies are read only after sign-in (item 3)', () => {
   });
 
   it('still takes a batch of 20,000 readings (about 1 MB) on the ingest route', async () => {
-    const study = (await request(t.app).get('/api/studies/1').set(auth(lead))).body;
-    const capture = await request(t.app).post('/api/captures').set(auth(lead)).send({
-      dutId: study.duts[0].id,
-      checkpointId: study.checkpoints[0].id,
-      quantity: 'frequency',
-      unit: 'Hz',
-      gateTime: 1,
-    });
+    const study = (
+      await request(demo.t.app)
+        .get('/api/studies/1')
+        .set(await demo.auth('lead'))
+    ).body;
+    const capture = await request(demo.t.app)
+      .post('/api/captures')
+      .set(await demo.auth('lead'))
+      .send({
+        dutId: study.duts[0].id,
+        checkpointId: study.checkpoints[0].id,
+        quantity: 'frequency',
+        unit: 'Hz',
+        gateTime: 1,
+      });
     expect(capture.status).toBe(201);
     const readings = Array.from({ length: 20_000 }, (_, seq) => ({
       seq,
       t: seq,
       value: 16_000_000.123456 + (seq % 7) * 1e-3,
     }));
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post(`/api/captures/${capture.body.id}/readings`)
-      .set(auth(lead))
+      .set(await demo.auth('lead'))
       .send({ readings });
     expect(res.status).toBe(200);
     expect(res.body.accepted).toBe(20_000);
@@ -95,9 +91,9 @@ describe('odd text and impossible dates are a 400 with nothing kept (item 6)', (
 
   it.each(odd)('refuses an instrument named %j with 400 and creates nothing', async (name) => {
     const before = await count('instruments');
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/instruments')
-      .set(auth(admin))
+      .set(await demo.auth('admin'))
       .send({ name, kind: 'counter' });
     expect(res.status).toBe(400);
     expect(res.body.error.details[0].path).toBe('name');
@@ -105,29 +101,38 @@ describe('odd text and impossible dates are a 400 with nothing kept (item 6)', (
   });
 
   it.each(odd)('refuses a study, a DUT and a user named %j with 400', async (text) => {
-    const study = await request(t.app).post('/api/studies').set(auth(lead)).send({ title: text });
+    const study = await request(demo.t.app)
+      .post('/api/studies')
+      .set(await demo.auth('lead'))
+      .send({ title: text });
     expect(study.status).toBe(400);
-    const dut = await request(t.app).post('/api/studies/1/duts').set(auth(lead)).send({
-      label: text,
-      kind: 'crystal',
-      nominal: 16e6,
-      unit: 'Hz',
-      limit: 1,
-      limitUnit: 'ppm',
-    });
+    const dut = await request(demo.t.app)
+      .post('/api/studies/1/duts')
+      .set(await demo.auth('lead'))
+      .send({
+        label: text,
+        kind: 'crystal',
+        nominal: 16e6,
+        unit: 'Hz',
+        limit: 1,
+        limitUnit: 'ppm',
+      });
     expect(dut.status).toBe(400);
-    const before = (await t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name;
-    const user = await request(t.app).patch('/api/users/5').set(auth(admin)).send({ name: text });
+    const before = (await demo.t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name;
+    const user = await request(demo.t.app)
+      .patch('/api/users/5')
+      .set(await demo.auth('admin'))
+      .send({ name: text });
     expect(user.status).toBe(400);
-    expect((await t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name).toBe(
+    expect((await demo.t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name).toBe(
       before,
     );
   });
 
   it('refuses NUL inside a link profile (JSON) with 400', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .put('/api/instruments/1/link-profile')
-      .set(auth(admin))
+      .set(await demo.auth('admin'))
       .send({ name: 'x\u0000', kind: 'serial' });
     expect(res.status).toBe(400);
   });
@@ -135,9 +140,9 @@ describe('odd text and impossible dates are a 400 with nothing kept (item 6)', (
   it.each(['0000-01-01', '2027-02-30', '9999-12-31', '1899-12-31'])(
     'refuses the calibration date %s with 400',
     async (calibrationDue) => {
-      const res = await request(t.app)
+      const res = await request(demo.t.app)
         .patch('/api/instruments/1')
-        .set(auth(admin))
+        .set(await demo.auth('admin'))
         .send({ calibrationDue });
       expect(res.status).toBe(400);
       expect(res.body.error.details[0].path).toBe('calibrationDue');
@@ -148,48 +153,48 @@ describe('odd text and impossible dates are a 400 with nothing kept (item 6)', (
 describe('a change and its audit event are one transaction (item 6)', () => {
   it('keeps neither the instrument nor the user change when the audit event cannot be written', async () => {
     // A trigger that refuses one audit action stands in for any failure while auditing.
-    await t.db.pool.query(`
+    await demo.t.db.pool.query(`
       CREATE FUNCTION refuse_audit() RETURNS trigger LANGUAGE plpgsql AS $$
       BEGIN IF NEW.action IN ('instrument.update', 'user.rename', 'instrument.create') THEN RAISE EXCEPTION 'audit refused for the test'; END IF; RETURN NEW; END $$;
       CREATE TRIGGER refuse_audit BEFORE INSERT ON audit_events FOR EACH ROW EXECUTE FUNCTION refuse_audit();`);
     try {
-      const before = (await t.db.pool.query('SELECT name FROM instruments WHERE id = 1')).rows[0]
-        .name;
-      const patch = await request(t.app)
+      const before = (await demo.t.db.pool.query('SELECT name FROM instruments WHERE id = 1'))
+        .rows[0].name;
+      const patch = await request(demo.t.app)
         .patch('/api/instruments/1')
-        .set(auth(admin))
+        .set(await demo.auth('admin'))
         .send({ name: 'Renamed without audit' });
       expect(patch.status).toBe(500);
       expect(
-        (await t.db.pool.query('SELECT name FROM instruments WHERE id = 1')).rows[0].name,
+        (await demo.t.db.pool.query('SELECT name FROM instruments WHERE id = 1')).rows[0].name,
       ).toBe(before);
 
       const instruments = await count('instruments');
       expect(
         (
-          await request(t.app)
+          await request(demo.t.app)
             .post('/api/instruments')
-            .set(auth(admin))
+            .set(await demo.auth('admin'))
             .send({ name: 'Unaudited', kind: 'other' })
         ).status,
       ).toBe(500);
       expect(await count('instruments')).toBe(instruments);
 
-      const userBefore = (await t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0]
+      const userBefore = (await demo.t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0]
         .name;
       expect(
         (
-          await request(t.app)
+          await request(demo.t.app)
             .patch('/api/users/5')
-            .set(auth(admin))
+            .set(await demo.auth('admin'))
             .send({ name: 'Renamed without audit' })
         ).status,
       ).toBe(500);
-      expect((await t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name).toBe(
+      expect((await demo.t.db.pool.query('SELECT name FROM users WHERE id = 5')).rows[0].name).toBe(
         userBefore,
       );
     } finally {
-      await t.db.pool.query(
+      await demo.t.db.pool.query(
         'DROP TRIGGER refuse_audit ON audit_events; DROP FUNCTION refuse_audit();',
       );
     }
@@ -205,8 +210,8 @@ describe('a database outage answers 503 (item 11)', () => {
         done();
       },
     });
-    const app = t.appWith({ log: pino({ level: 'info' }, sink) });
-    const dbName = new URL(t.db.url).pathname.slice(1);
+    const app = demo.t.appWith({ log: pino({ level: 'info' }, sink) });
+    const dbName = new URL(demo.t.db.url).pathname.slice(1);
     const adminClient = new pg.Client({ connectionString: process.env.DRIFTBENCH_TEST_PG });
     await adminClient.connect();
     try {
@@ -216,7 +221,9 @@ describe('a database outage answers 503 (item 11)', () => {
         [dbName],
       );
       for (let i = 0; i < 4; i++) {
-        const res = await request(app).get('/api/studies').set(auth(lead));
+        const res = await request(app)
+          .get('/api/studies')
+          .set(await demo.auth('lead'));
         expect(res.status).toBe(503);
         expect(res.headers['retry-after']).toBe('5');
         expect(res.body.error.code).toBe('database-unavailable');
@@ -232,7 +239,11 @@ describe('a database outage answers 503 (item 11)', () => {
     // Back: requests succeed again.
     let status = 0;
     for (let i = 0; i < 10 && status !== 200; i++)
-      status = (await request(app).get('/api/studies').set(auth(lead))).status;
+      status = (
+        await request(app)
+          .get('/api/studies')
+          .set(await demo.auth('lead'))
+      ).status;
     expect(status).toBe(200);
   });
 });
