@@ -1,20 +1,14 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { AuditEvent } from '../../server/models/index.js';
 
-let t: TestApp;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-beforeAll(async () => {
-  t = await createTestApp();
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
+const { auth } = demo;
 
 describe('user administration', () => {
   it('lists users for the admin, without password hashes', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get('/api/users')
       .set(await auth('admin'));
     expect(res.status).toBe(200);
@@ -25,7 +19,7 @@ describe('user administration', () => {
   it.each(['lead', 'engineer', 'technician', 'viewer'])(
     'refuses the admin-only user list to the %s with 403',
     async (role) => {
-      const res = await request(t.app)
+      const res = await request(demo.t.app)
         .get('/api/users')
         .set(await auth(role));
       expect(res.status).toBe(403);
@@ -34,7 +28,7 @@ describe('user administration', () => {
   );
 
   it('creates a user who can then sign in', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/users')
       .set(await auth('admin'))
       .send({
@@ -49,14 +43,14 @@ describe('user administration', () => {
       role: 'technician',
       active: true,
     });
-    const login = await request(t.app)
+    const login = await request(demo.t.app)
       .post('/api/auth/login')
       .send({ email: 'new.tech@kestrelbay.example', password: 'a-long-password' });
     expect(login.status).toBe(200);
   });
 
   it('refuses a duplicate e-mail with 409', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/users')
       .set(await auth('admin'))
       .send({
@@ -76,7 +70,7 @@ describe('user administration', () => {
     [{ email: 'not-an-email', name: 'X', role: 'viewer', password: 'a-long-password' }, 'email'],
     [{ email: 'y@kestrelbay.example', name: 'Y', role: 'viewer', password: 'short' }, 'password'],
   ])('refuses an invalid new user and names the field (%#)', async (body, field) => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/users')
       .set(await auth('admin'))
       .send(body);
@@ -85,11 +79,11 @@ describe('user administration', () => {
   });
 
   it('changes a role and audits it', async () => {
-    const list = await request(t.app)
+    const list = await request(demo.t.app)
       .get('/api/users')
       .set(await auth('admin'));
     const viewer = list.body.users.find((u: { role: string }) => u.role === 'viewer');
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .patch(`/api/users/${viewer.id}`)
       .set(await auth('admin'))
       .send({ role: 'engineer' });
@@ -100,41 +94,46 @@ describe('user administration', () => {
     });
     expect(events).toHaveLength(1);
     expect(events[0].details).toEqual({ from: 'viewer', to: 'engineer' });
-    await request(t.app)
+    await request(demo.t.app)
       .patch(`/api/users/${viewer.id}`)
       .set(await auth('admin'))
       .send({ role: 'viewer' });
   });
 
   it("stops a deactivated user's token from working", async () => {
-    const token = await t.tokenFor('technician');
+    const token = await demo.t.tokenFor('technician');
     expect(
-      (await request(t.app).get('/api/auth/me').set('authorization', `Bearer ${token}`)).status,
+      (await request(demo.t.app).get('/api/auth/me').set('authorization', `Bearer ${token}`))
+        .status,
     ).toBe(200);
-    const me = await request(t.app).get('/api/auth/me').set('authorization', `Bearer ${token}`);
-    const res = await request(t.app)
+    const me = await request(demo.t.app)
+      .get('/api/auth/me')
+      .set('authorization', `Bearer ${token}`);
+    const res = await request(demo.t.app)
       .patch(`/api/users/${me.body.user.id}`)
       .set(await auth('admin'))
       .send({ active: false });
     expect(res.status).toBe(200);
-    const after = await request(t.app).get('/api/auth/me').set('authorization', `Bearer ${token}`);
+    const after = await request(demo.t.app)
+      .get('/api/auth/me')
+      .set('authorization', `Bearer ${token}`);
     expect(after.status).toBe(401);
     expect(after.body.error.code).toBe('account-disabled');
-    const relogin = await request(t.app)
+    const relogin = await request(demo.t.app)
       .post('/api/auth/login')
       .send({ email: 'technician@kestrelbay.example', password: 'driftbench-demo' });
     expect(relogin.status).toBe(401);
-    await request(t.app)
+    await request(demo.t.app)
       .patch(`/api/users/${me.body.user.id}`)
       .set(await auth('admin'))
       .send({ active: true });
   });
 
   it('does not let an admin deactivate themself', async () => {
-    const me = await request(t.app)
+    const me = await request(demo.t.app)
       .get('/api/auth/me')
       .set(await auth('admin'));
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .patch(`/api/users/${me.body.user.id}`)
       .set(await auth('admin'))
       .send({ active: false });
@@ -144,7 +143,7 @@ describe('user administration', () => {
   it('answers 404 for a missing user and 400 for a bad id', async () => {
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .patch('/api/users/99999')
           .set(await auth('admin'))
           .send({ name: 'Z' })
@@ -152,7 +151,7 @@ describe('user administration', () => {
     ).toBe(404);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .patch('/api/users/abc')
           .set(await auth('admin'))
           .send({ name: 'Z' })
