@@ -1,29 +1,25 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { AuditEvent } from '../../server/models/index.js';
 import { linkPreset } from '../../shared/protocol/linkProfile.js';
 
-let t: TestApp;
+const demo = useDemoApp();
 let counterId: number;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
+const { auth } = demo;
 
 beforeAll(async () => {
-  t = await createTestApp();
-  const list = await request(t.app)
+  const list = await request(demo.t.app)
     .get('/api/instruments')
     .set(await auth('viewer'));
   counterId = list.body.instruments.find((i: { name: string }) => i.name === 'Counter C-1').id;
-});
-afterAll(async () => {
-  await t.close();
 });
 
 const profilePath = () => `/api/instruments/${counterId}/link-profile`;
 
 describe('link profiles stored per instrument', () => {
   it('reads one instrument, with no link profile at first', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get(`/api/instruments/${counterId}`)
       .set(await auth('viewer'));
     expect(res.status).toBe(200);
@@ -42,18 +38,18 @@ describe('link profiles stored per instrument', () => {
       name: 'C-1 over USB',
       initCommands: [':SENS:FREQ:GATE:TIME 1'],
     };
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .put(profilePath())
       .set(await auth('lead'))
       .send(profile);
     expect(res.status).toBe(200);
     expect(res.body.linkProfile).toEqual(profile);
 
-    const read = await request(t.app)
+    const read = await request(demo.t.app)
       .get(`/api/instruments/${counterId}`)
       .set(await auth('technician'));
     expect(read.body.instrument.linkProfile).toEqual(profile);
-    const listed = await request(t.app)
+    const listed = await request(demo.t.app)
       .get('/api/instruments')
       .set(await auth('viewer'));
     expect(
@@ -73,7 +69,7 @@ describe('link profiles stored per instrument', () => {
       kind: 'simulator',
       simulator: { path: '/sim/counter', params: { mode: 'talk', preset: 'osc-25m' } },
     };
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .put(profilePath())
       .set(await auth('admin'))
       .send(profile);
@@ -89,13 +85,13 @@ describe('link profiles stored per instrument', () => {
   it.each(['viewer', 'technician', 'engineer'])(
     'refuses to let the %s save or clear a profile (403)',
     async (role) => {
-      const put = await request(t.app)
+      const put = await request(demo.t.app)
         .put(profilePath())
         .set(await auth(role))
         .send(linkPreset('scpi-counter'));
       expect(put.status).toBe(403);
       expect(put.body.error.code).toBe('forbidden');
-      const del = await request(t.app)
+      const del = await request(demo.t.app)
         .delete(profilePath())
         .set(await auth(role));
       expect(del.status).toBe(403);
@@ -111,7 +107,7 @@ describe('link profiles stored per instrument', () => {
     [{ terminator: 'CRLFCR' }, 'terminator'],
     [{ name: '' }, 'name'],
   ])('refuses a bad profile with 400 naming the field (%#)', async (change, field) => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .put(profilePath())
       .set(await auth('lead'))
       .send({ ...linkPreset('scpi-counter'), ...change });
@@ -122,11 +118,11 @@ describe('link profiles stored per instrument', () => {
   });
 
   it('clears a profile, and clearing again is harmless', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .delete(profilePath())
       .set(await auth('lead'));
     expect(res.status).toBe(204);
-    const read = await request(t.app)
+    const read = await request(demo.t.app)
       .get(`/api/instruments/${counterId}`)
       .set(await auth('viewer'));
     expect(read.body.instrument.linkProfile).toBeNull();
@@ -137,7 +133,7 @@ describe('link profiles stored per instrument', () => {
     ).toBe(1);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .delete(profilePath())
           .set(await auth('lead'))
       ).status,
@@ -152,12 +148,12 @@ describe('link profiles stored per instrument', () => {
   it('answers 404 for a missing instrument and 400 for a bad id', async () => {
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .get('/api/instruments/99999')
           .set(await auth('viewer'))
       ).status,
     ).toBe(404);
-    const put = await request(t.app)
+    const put = await request(demo.t.app)
       .put('/api/instruments/99999/link-profile')
       .set(await auth('admin'))
       .send(linkPreset('spi-bridge'));
@@ -165,14 +161,14 @@ describe('link profiles stored per instrument', () => {
     expect(put.body.error.code).toBe('not-found');
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .delete('/api/instruments/99999/link-profile')
           .set(await auth('admin'))
       ).status,
     ).toBe(404);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .get('/api/instruments/abc')
           .set(await auth('viewer'))
       ).status,
@@ -192,7 +188,7 @@ describe('registering instruments', () => {
   };
 
   it('registers a counter for an admin, and it joins the lab list', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/instruments')
       .set(await auth('admin'))
       .send(counter);
@@ -202,7 +198,7 @@ describe('registering instruments', () => {
       linkProfile: null,
       calibrationState: 'valid',
     });
-    const listed = await request(t.app)
+    const listed = await request(demo.t.app)
       .get('/api/instruments')
       .set(await auth('viewer'));
     expect(listed.body.instruments.map((i: { name: string }) => i.name)).toContain('Counter C-2');
@@ -214,7 +210,7 @@ describe('registering instruments', () => {
   });
 
   it('registers with only a name and a kind, storing empty texts as none', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/instruments')
       .set(await auth('admin'))
       .send({ name: 'Spare bridge', kind: 'spi-bridge', maker: '  ' });
@@ -234,7 +230,7 @@ describe('registering instruments', () => {
     [{ ...counter, calibrationDue: '2031-02-30' }, 'calibrationDue', 'not a calendar date'],
     [{ ...counter, colour: 'blue' }, 'body', 'Unrecognized key'],
   ])('refuses an invalid new instrument with a clear message (%#)', async (body, field, words) => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/instruments')
       .set(await auth('admin'))
       .send(body);
@@ -248,7 +244,7 @@ describe('registering instruments', () => {
     async (role) => {
       expect(
         (
-          await request(t.app)
+          await request(demo.t.app)
             .post('/api/instruments')
             .set(await auth(role))
             .send(counter)
@@ -258,12 +254,12 @@ describe('registering instruments', () => {
   );
 
   it('patches the calibration date and notes, validating them, and audits the change', async () => {
-    const created = await request(t.app)
+    const created = await request(demo.t.app)
       .post('/api/instruments')
       .set(await auth('admin'))
       .send({ name: 'Counter C-3', kind: 'counter' });
     const id = created.body.instrument.id;
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .patch(`/api/instruments/${id}`)
       .set(await auth('admin'))
       .send({ calibrationDue: '2030-01-15', notes: 'Back from calibration.' });
@@ -278,7 +274,7 @@ describe('registering instruments', () => {
     });
     expect(events[0].details).toMatchObject({ calibrationDue: { from: null, to: '2030-01-15' } });
 
-    const bad = await request(t.app)
+    const bad = await request(demo.t.app)
       .patch(`/api/instruments/${id}`)
       .set(await auth('admin'))
       .send({ calibrationDue: 'soon' });
@@ -286,7 +282,7 @@ describe('registering instruments', () => {
     expect(bad.body.error.message).toMatch(/^calibrationDue: must be a date as YYYY-MM-DD/);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .patch(`/api/instruments/${id}`)
           .set(await auth('admin'))
           .send({})
@@ -294,7 +290,7 @@ describe('registering instruments', () => {
     ).toBe(400);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .patch(`/api/instruments/${id}`)
           .set(await auth('technician'))
           .send({ notes: 'x' })
@@ -302,7 +298,7 @@ describe('registering instruments', () => {
     ).toBe(403);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .patch('/api/instruments/99999')
           .set(await auth('admin'))
           .send({ notes: 'x' })
