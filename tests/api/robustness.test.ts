@@ -1,19 +1,15 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
 import fc from 'fast-check';
-import { createTestApp, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { ROUTE_RULES } from '../../shared/protocol/roles.js';
 
 // Nothing a client sends may crash the server or produce a 500: arbitrary JSON bodies and
 // query strings against every writing route answer with a 4xx and the error envelope.
-let t: TestApp;
-let admin: string;
+const demo = useDemoApp();
+let admin: { authorization: string };
 beforeAll(async () => {
-  t = await createTestApp();
-  admin = await t.tokenFor('admin');
-});
-afterAll(async () => {
-  await t.close();
+  admin = await demo.auth('admin');
 });
 
 const ROUTES: Array<['post' | 'patch' | 'get', string]> = [
@@ -32,9 +28,9 @@ describe('robustness against arbitrary input', () => {
   it.each(ROUTES)('answers %s %s with a 4xx envelope for arbitrary JSON', async (method, path) => {
     await fc.assert(
       fc.asyncProperty(fc.jsonValue({ maxDepth: 3 }), async (body) => {
-        const res = await request(t.app)
+        const res = await request(demo.t.app)
           [method](path)
-          .set('authorization', `Bearer ${admin}`)
+          .set(admin)
           .set('content-type', 'application/json')
           .send(JSON.stringify(body));
         // A body that happens to be valid may succeed; it must never be a server error.
@@ -54,10 +50,10 @@ describe('robustness against arbitrary input', () => {
           '/api/captures/1/readings',
           '/api/captures/1/analysis',
         ]) {
-          const res = await request(t.app)
+          const res = await request(demo.t.app)
             .get(path)
             .query({ from: a, to: b, maxPoints: a, kind: b, before: a, after: b, state: a })
-            .set('authorization', `Bearer ${admin}`);
+            .set(admin);
           expect(res.status).toBeLessThan(500);
         }
       }),
@@ -67,9 +63,7 @@ describe('robustness against arbitrary input', () => {
 
   it('answers odd path parameters with 400 or 404, never 500', async () => {
     for (const id of ['0', '-1', '1.5', '99999999999999999999', 'abc', '%00']) {
-      const res = await request(t.app)
-        .get(`/api/captures/${id}`)
-        .set('authorization', `Bearer ${admin}`);
+      const res = await request(demo.t.app).get(`/api/captures/${id}`).set(admin);
       expect([400, 404]).toContain(res.status);
     }
   });
@@ -166,14 +160,14 @@ describe('fuzzing every route of the permission table', () => {
       small.map(
         async (table) =>
           (
-            await t.db.pool.query(
+            await demo.t.db.pool.query(
               `SELECT md5(coalesce(string_agg(x::text, '|' ORDER BY x.id), '')) AS h FROM ${table} x`,
             )
           ).rows[0].h as string,
       ),
     );
-    const readings = (await t.db.pool.query('SELECT count(*)::text AS n FROM readings')).rows[0]
-      .n as string;
+    const readings = (await demo.t.db.pool.query('SELECT count(*)::text AS n FROM readings'))
+      .rows[0].n as string;
     return [...parts, readings].join(':');
   }
 
@@ -182,7 +176,7 @@ describe('fuzzing every route of the permission table', () => {
     await fc.assert(
       fc.asyncProperty(body, query, async (b, q) => {
         const before = await fingerprint();
-        const call = request(t.app)[method](path).query(q).set('authorization', `Bearer ${admin}`);
+        const call = request(demo.t.app)[method](path).query(q).set(admin);
         const res =
           method === 'get' || method === 'delete'
             ? await call
