@@ -1,7 +1,8 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
 import jwt from 'jsonwebtoken';
-import { createTestApp, TEST_JWT_SECRET, type TestApp } from '../helpers/app.js';
+import { TEST_JWT_SECRET } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { DEMO_DOMAIN, DEMO_PASSWORD } from '../../server/db/seed.js';
 import { retireDemoAccounts } from '../../server/db/demoAccounts.js';
 import { loadConfig } from '../../server/config.js';
@@ -9,25 +10,21 @@ import { loadConfig } from '../../server/config.js';
 // Issue 10, item 9: passwords can be changed and reset, the policy holds, tokens are revoked on
 // sign-out, deactivation, role change and password change, and demo accounts stay off in
 // production unless asked for.
-let t: TestApp;
-let admin: string;
+const demo = useDemoApp();
+let admin: { authorization: string };
 beforeAll(async () => {
-  t = await createTestApp();
-  admin = await t.tokenFor('admin');
-});
-afterAll(async () => {
-  await t.close();
+  admin = await demo.auth('admin');
 });
 
 const login = (email: string, password: string) =>
-  request(t.app).post('/api/auth/login').send({ email, password });
+  request(demo.t.app).post('/api/auth/login').send({ email, password });
 const me = (token: string) =>
-  request(t.app).get('/api/auth/me').set('authorization', `Bearer ${token}`);
+  request(demo.t.app).get('/api/auth/me').set('authorization', `Bearer ${token}`);
 
 async function newUser(email: string, role = 'technician', password = 'a-long-password') {
-  const res = await request(t.app)
+  const res = await request(demo.t.app)
     .post('/api/users')
-    .set('authorization', `Bearer ${admin}`)
+    .set(admin)
     .send({ email, name: email.split('@')[0], role, password });
   expect(res.status).toBe(201);
   const signed = await login(email, password);
@@ -38,7 +35,7 @@ async function newUser(email: string, role = 'technician', password = 'a-long-pa
 describe('change my password (POST /api/auth/password)', () => {
   it('changes the password, answers a fresh token and revokes the older ones', async () => {
     const u = await newUser('changer@kestrelbay.example');
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/auth/password')
       .set('authorization', `Bearer ${u.token}`)
       .send({ currentPassword: 'a-long-password', newPassword: 'copper tick drifts 7' });
@@ -54,7 +51,7 @@ describe('change my password (POST /api/auth/password)', () => {
 
   it('refuses a wrong current password with 403 and keeps the old one', async () => {
     const u = await newUser('wrongcurrent@kestrelbay.example');
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/auth/password')
       .set('authorization', `Bearer ${u.token}`)
       .send({ currentPassword: 'not-my-password', newPassword: 'copper tick drifts 8' });
@@ -71,7 +68,7 @@ describe('change my password (POST /api/auth/password)', () => {
     ['nul\u0000inside-password', 'a NUL character'],
   ])('refuses the new password %j (%s) with 400 naming newPassword', async (newPassword) => {
     const u = await newUser(`policy${Math.random().toString(36).slice(2, 8)}@kestrelbay.example`);
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/auth/password')
       .set('authorization', `Bearer ${u.token}`)
       .send({ currentPassword: 'a-long-password', newPassword });
@@ -80,15 +77,12 @@ describe('change my password (POST /api/auth/password)', () => {
   });
 
   it('applies the same policy when an admin creates an account', async () => {
-    const res = await request(t.app)
-      .post('/api/users')
-      .set('authorization', `Bearer ${admin}`)
-      .send({
-        email: 'weak@kestrelbay.example',
-        name: 'Weak',
-        role: 'viewer',
-        password: 'administrator',
-      });
+    const res = await request(demo.t.app).post('/api/users').set(admin).send({
+      email: 'weak@kestrelbay.example',
+      name: 'Weak',
+      role: 'viewer',
+      password: 'administrator',
+    });
     expect(res.status).toBe(400);
     expect(res.body.error.details[0].path).toBe('password');
   });
@@ -101,7 +95,7 @@ describe('change my password (POST /api/auth/password)', () => {
 describe('sign-out and token revocation', () => {
   it('POST /api/auth/logout ends the session: the token answers 401 afterwards', async () => {
     const u = await newUser('leaver@kestrelbay.example');
-    const out = await request(t.app)
+    const out = await request(demo.t.app)
       .post('/api/auth/logout')
       .set('authorization', `Bearer ${u.token}`);
     expect(out.status).toBe(204);
@@ -112,9 +106,9 @@ describe('sign-out and token revocation', () => {
 
   it('a role change revokes the tokens the user holds', async () => {
     const u = await newUser('promoted@kestrelbay.example');
-    const patch = await request(t.app)
+    const patch = await request(demo.t.app)
       .patch(`/api/users/${u.id}`)
-      .set('authorization', `Bearer ${admin}`)
+      .set(admin)
       .send({ role: 'engineer' });
     expect(patch.status).toBe(200);
     expect((await me(u.token)).status).toBe(401);
@@ -122,14 +116,14 @@ describe('sign-out and token revocation', () => {
 
   it('a deactivation revokes the tokens, and reactivating does not bring them back', async () => {
     const u = await newUser('paused@kestrelbay.example');
-    await request(t.app)
+    await request(demo.t.app)
       .patch(`/api/users/${u.id}`)
-      .set('authorization', `Bearer ${admin}`)
+      .set(admin)
       .send({ active: false })
       .expect(200);
-    await request(t.app)
+    await request(demo.t.app)
       .patch(`/api/users/${u.id}`)
-      .set('authorization', `Bearer ${admin}`)
+      .set(admin)
       .send({ active: true })
       .expect(200);
     const res = await me(u.token);
@@ -139,9 +133,9 @@ describe('sign-out and token revocation', () => {
 
   it('a renaming leaves the tokens alone', async () => {
     const u = await newUser('renamed@kestrelbay.example');
-    await request(t.app)
+    await request(demo.t.app)
       .patch(`/api/users/${u.id}`)
-      .set('authorization', `Bearer ${admin}`)
+      .set(admin)
       .send({ name: 'Renamed Tech' })
       .expect(200);
     expect((await me(u.token)).status).toBe(200);
@@ -155,7 +149,7 @@ describe('sign-out and token revocation', () => {
       expiresIn: '1h',
     });
     expect((await me(legacy)).status).toBe(200);
-    await request(t.app)
+    await request(demo.t.app)
       .post('/api/auth/logout')
       .set('authorization', `Bearer ${u.token}`)
       .expect(204);
@@ -166,9 +160,9 @@ describe('sign-out and token revocation', () => {
 describe('admin password reset (POST /api/users/:id/password-reset)', () => {
   it('sets a temporary password, revokes tokens, and forces a change before anything else', async () => {
     const u = await newUser('forgetful@kestrelbay.example');
-    const reset = await request(t.app)
+    const reset = await request(demo.t.app)
       .post(`/api/users/${u.id}/password-reset`)
-      .set('authorization', `Bearer ${admin}`)
+      .set(admin)
       .send({ temporaryPassword: 'temporary-bench-key' });
     expect(reset.status).toBe(200);
     expect(reset.body.user.mustChangePassword).toBe(true);
@@ -181,13 +175,13 @@ describe('admin password reset (POST /api/users/:id/password-reset)', () => {
     const meRes = await me(token);
     expect(meRes.status).toBe(200);
     expect(meRes.body.mustChangePassword).toBe(true);
-    const blocked = await request(t.app)
+    const blocked = await request(demo.t.app)
       .get('/api/studies')
       .set('authorization', `Bearer ${token}`);
     expect(blocked.status).toBe(403);
     expect(blocked.body.error.code).toBe('password-change-required');
 
-    const changed = await request(t.app)
+    const changed = await request(demo.t.app)
       .post('/api/auth/password')
       .set('authorization', `Bearer ${token}`)
       .send({ currentPassword: 'temporary-bench-key', newPassword: 'my own bench key 42' });
@@ -195,7 +189,7 @@ describe('admin password reset (POST /api/users/:id/password-reset)', () => {
     expect(changed.body.mustChangePassword).toBe(false);
     expect(
       (
-        await request(t.app)
+        await request(demo.t.app)
           .get('/api/studies')
           .set('authorization', `Bearer ${changed.body.token}`)
       ).status,
@@ -203,21 +197,21 @@ describe('admin password reset (POST /api/users/:id/password-reset)', () => {
   });
 
   it('is for admins only', async () => {
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .post('/api/users/1/password-reset')
-      .set('authorization', `Bearer ${await t.tokenFor('lead')}`)
+      .set('authorization', `Bearer ${await demo.t.tokenFor('lead')}`)
       .send({ temporaryPassword: 'temporary-bench-key' });
     expect(res.status).toBe(403);
   });
 
   it('writes an audit event without the password', async () => {
     const u = await newUser('audited@kestrelbay.example');
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/users/${u.id}/password-reset`)
-      .set('authorization', `Bearer ${admin}`)
+      .set(admin)
       .send({ temporaryPassword: 'temporary-bench-key' })
       .expect(200);
-    const rows = await t.db.pool.query(
+    const rows = await demo.t.db.pool.query(
       "SELECT details::text AS d FROM audit_events WHERE action = 'user.password.reset' AND subject_id = $1",
       [u.id],
     );
@@ -235,7 +229,7 @@ describe('demo accounts in production', () => {
 
   it('deactivates demo accounts that still have the demo password, and leaves a changed one alone', async () => {
     const lead = await login(`lead@${DEMO_DOMAIN}`, DEMO_PASSWORD);
-    await request(t.app)
+    await request(demo.t.app)
       .post('/api/auth/password')
       .set('authorization', `Bearer ${lead.body.token}`)
       .send({ currentPassword: DEMO_PASSWORD, newPassword: 'lead has her own key' })
