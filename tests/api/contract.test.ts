@@ -3,24 +3,14 @@
 // shared/protocol/responses.ts. The check here is the test's own (independent of the server's
 // test-time response check), so a drift between a service and the contract fails this file.
 // The live socket's side of the contract is tested in live.test.ts.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
 import type { z } from 'zod';
-import { createTestApp, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { RESPONSES, type JsonRouteKey, type ResponseKey } from '../../shared/protocol/responses.js';
 
-let t: TestApp;
-const tokens: Record<string, string> = {};
+const demo = useDemoApp();
 const checked = new Set<string>();
-
-beforeAll(async () => {
-  t = await createTestApp();
-  for (const role of ['admin', 'lead', 'engineer', 'technician', 'viewer'])
-    tokens[role] = await t.tokenFor(role);
-});
-afterAll(async () => {
-  await t.close();
-});
 
 /**
  * Calls `path` as `role` and parses the answer with the schema of route `key` (which must match
@@ -33,9 +23,7 @@ async function call<K extends JsonRouteKey>(
   body?: unknown,
 ): Promise<z.infer<(typeof RESPONSES)[K]>> {
   const method = key.split(' ')[0].toLowerCase() as 'get' | 'post' | 'patch' | 'put';
-  let req = request(t.app)[method](path).set('authorization', `Bearer ${tokens[role]}`);
-  if (body !== undefined) req = req.send(body as object);
-  return check(key, await req);
+  return check(key, await demo.call(role, method, path, body as object | undefined));
 }
 
 /** Parses a success answer `res` with the schema of route `key`; fails with the first problem. */
@@ -59,7 +47,7 @@ function check<K extends JsonRouteKey>(
 /** Calls a CSV route as `role`: a 200 with a CSV body, as its line in RESPONSES says. */
 async function callCsv(role: string, key: ResponseKey, path: string): Promise<string> {
   expect(RESPONSES[key]).toBe('csv');
-  const res = await request(t.app).get(path).set('authorization', `Bearer ${tokens[role]}`);
+  const res = await demo.call(role, 'get', path);
   expect(res.status, `${key} → ${res.status}`).toBe(200);
   expect(res.headers['content-type']).toMatch(/^text\/csv/);
   checked.add(key);
@@ -411,9 +399,9 @@ describe('the contract of the equipment, attachment, editing and export routes',
     ] as const) {
       const uploaded = check(
         `POST /api/${owner}/:id/attachments`,
-        await request(t.app)
+        await request(demo.t.app)
           .post(`/api/${owner}/${id}/attachments`)
-          .set('authorization', `Bearer ${tokens.technician}`)
+          .set(await demo.auth('technician'))
           .attach('file', Buffer.from('seq,value\n0,1\n'), {
             filename: `${owner}.csv`,
             contentType: 'text/csv',
