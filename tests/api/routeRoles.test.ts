@@ -1,7 +1,7 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
 import type { Express } from 'express';
-import { createTestApp, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import {
   ROLES,
   ROUTE_RULES,
@@ -10,25 +10,11 @@ import {
   type Permission,
   type Role,
 } from '../../shared/protocol/roles.js';
-import { DEMO_DOMAIN, DEMO_PASSWORD } from '../../server/db/seed.js';
 
 // Issue 10, "Also": the route × role test, generated from the one permission table the server
 // enforces (shared/protocol/roles.ts ROUTES, applied by guardRoutes). Every route registered on
 // the server must have a line in the table, so a new route without a rule fails here.
-let t: TestApp;
-const tokens = new Map<Role, string>();
-beforeAll(async () => {
-  t = await createTestApp();
-  for (const role of ROLES) {
-    const res = await request(t.app)
-      .post('/api/auth/login')
-      .send({ email: `${role}@${DEMO_DOMAIN}`, password: DEMO_PASSWORD });
-    tokens.set(role, res.body.token);
-  }
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
 
 interface LayerLike {
   route?: { path: string | string[]; methods: Record<string, boolean> };
@@ -73,7 +59,7 @@ const concrete = (path: string) =>
 
 describe('the permission table', () => {
   it('has a rule for every route the server registers, and a route for every rule', () => {
-    const registered = registeredRoutes(t.app);
+    const registered = registeredRoutes(demo.t.app);
     expect(registered.length).toBeGreaterThan(20);
     const missing = registered.filter((r) => !(r in ROUTES));
     expect(
@@ -86,7 +72,7 @@ describe('the permission table', () => {
 
   it('answers 401 to every route but the public ones without a token', async () => {
     for (const rule of ROUTE_RULES) {
-      const res = await request(t.app)
+      const res = await request(demo.t.app)
         [rule.method.toLowerCase() as 'get'](concrete(rule.path))
         .send();
       if (rule.permission === 'public') expect(res.status, rule.key).not.toBe(401);
@@ -102,9 +88,9 @@ describe('the permission table', () => {
     if (rule.permission === 'public') continue;
     it(`${rule.key} (${rule.permission}): 403 exactly for the roles without it`, async () => {
       for (const role of ROLES) {
-        const res = await request(t.app)
+        const res = await request(demo.t.app)
           [rule.method.toLowerCase() as 'get'](concrete(rule.path))
-          .set('authorization', `Bearer ${tokens.get(role)}`)
+          .set(await demo.auth(role))
           .send(rule.method === 'GET' || rule.method === 'DELETE' ? undefined : {});
         const label = `${rule.key} as ${role}: ${res.status} ${JSON.stringify(res.body?.error ?? '')}`;
         expect(res.status, label).toBeLessThan(500);
