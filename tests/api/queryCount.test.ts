@@ -1,44 +1,13 @@
 // No N+1: the captures list (with its names) and the study matrix cost the same number of
 // database queries for a study of 2 DUTs as for one of 10. Every statement is counted — Sequelize's
 // through its logging hook, raw ones through the pg pool — while one request runs.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { seeded } from '../helpers/demo.js';
 
-let t: TestApp;
-const auth = async (role: string) => ({ authorization: `Bearer ${await t.tokenFor(role)}` });
-
-/** Counts every statement sent to PostgreSQL while `run` runs. */
-let counting = false;
-let count = 0;
-async function queriesOf(run: () => Promise<unknown>): Promise<number> {
-  count = 0;
-  counting = true;
-  try {
-    await run();
-  } finally {
-    counting = false;
-  }
-  return count;
-}
-
-beforeAll(async () => {
-  t = await createTestApp();
-  const options = (t.db.sequelize as unknown as { options: { logging: unknown } }).options;
-  options.logging = () => {
-    if (counting) count++;
-  };
-  const pool = t.db.pool as unknown as { query: (...args: unknown[]) => unknown };
-  const raw = pool.query.bind(pool);
-  pool.query = (...args: unknown[]) => {
-    if (counting) count++;
-    return raw(...args);
-  };
-});
-afterAll(async () => {
-  await t.close();
-});
+const demo = useDemoApp();
+const { auth, queriesOf } = demo;
 
 const NOMINAL = 16_000_000;
 
@@ -46,7 +15,7 @@ async function studyWith(
   duts: number,
 ): Promise<{ id: number; dutIds: number[]; checkpointIds: number[] }> {
   const planner = await auth('engineer');
-  const study = await request(t.app)
+  const study = await request(demo.t.app)
     .post('/api/studies')
     .set(planner)
     .send({ title: `Query count, ${duts} DUTs`, allowSimulated: true });
@@ -54,7 +23,7 @@ async function studyWith(
   const id = study.body.id as number;
   const checkpointIds: number[] = [];
   for (const name of ['Baseline', 'After wash', 'After bake']) {
-    const cp = await request(t.app)
+    const cp = await request(demo.t.app)
       .post(`/api/studies/${id}/checkpoints`)
       .set(planner)
       .send({ name });
@@ -63,7 +32,7 @@ async function studyWith(
   }
   const dutIds: number[] = [];
   for (let i = 0; i < duts; i++) {
-    const d = await request(t.app)
+    const d = await request(demo.t.app)
       .post(`/api/studies/${id}/duts`)
       .set(planner)
       .send({
@@ -78,38 +47,22 @@ async function studyWith(
     dutIds.push(d.body.id);
   }
   // Every DUT captured at every checkpoint, against the demo's reference on the demo's counter.
-  const tech = await auth('technician');
   let seed = duts * 100;
   for (const dutId of dutIds) {
     for (const checkpointId of checkpointIds) {
-      const c = await request(t.app).post('/api/captures').set(tech).send({
-        dutId,
-        checkpointId,
-        quantity: 'frequency',
-        unit: 'Hz',
-        gateTime: 1,
-        referenceId: 1,
-        instrumentId: 1,
-        ambientC: 23,
-      });
-      expect(c.status).toBe(201);
       const rnd = seeded(seed++);
       const readings = Array.from({ length: 40 }, (_, i) => ({
         seq: i,
         t: i,
         value: NOMINAL + 1e-3 * rnd.gauss(),
       }));
-      expect(
-        (
-          await request(t.app)
-            .post(`/api/captures/${c.body.id}/readings`)
-            .set(tech)
-            .send({ readings })
-        ).status,
-      ).toBe(200);
-      expect(
-        (await request(t.app).post(`/api/captures/${c.body.id}/finish`).set(tech)).status,
-      ).toBe(200);
+      await demo.recordCapture(readings, {
+        dutId,
+        checkpointId,
+        referenceId: 1,
+        instrumentId: 1,
+        ambientC: 23,
+      });
     }
   }
   return { id, dutIds, checkpointIds };
@@ -125,7 +78,7 @@ describe('a constant number of queries', () => {
 
   it('the study matrix: 2 DUTs cost as many queries as 10', async () => {
     const viewer = await auth('viewer');
-    const matrix = (id: number) => request(t.app).get(`/api/studies/${id}/matrix`).set(viewer);
+    const matrix = (id: number) => request(demo.t.app).get(`/api/studies/${id}/matrix`).set(viewer);
     await matrix(small.id); // warm (nothing cached in the database, but the session is)
     let bodySmall: any;
     let bodyLarge: any;
@@ -146,7 +99,7 @@ describe('a constant number of queries', () => {
   it('the captures list carries study, DUT, checkpoint and operator names in as few queries for 10 DUTs as for 2', async () => {
     const viewer = await auth('viewer');
     const list = (id: number) =>
-      request(t.app).get(`/api/captures?studyId=${id}&limit=100`).set(viewer);
+      request(demo.t.app).get(`/api/captures?studyId=${id}&limit=100`).set(viewer);
     let small6: any;
     let large30: any;
     const few = await queriesOf(async () => (small6 = (await list(small.id)).body));
@@ -164,14 +117,14 @@ describe('a constant number of queries', () => {
 
   it('one capture with all its names is one query besides signing the request in', async () => {
     const viewer = await auth('viewer');
-    const res = await request(t.app)
+    const res = await request(demo.t.app)
       .get('/api/captures')
       .query({ studyId: large.id, limit: 1 })
       .set(viewer);
     const id = res.body.captures[0].id as number;
     let body: any;
     const n = await queriesOf(
-      async () => (body = (await request(t.app).get(`/api/captures/${id}`).set(viewer)).body),
+      async () => (body = (await request(demo.t.app).get(`/api/captures/${id}`).set(viewer)).body),
     );
     expect(body.study.title).toBe('Query count, 10 DUTs');
     expect(body.reference).not.toBeNull();

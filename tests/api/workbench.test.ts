@@ -26,29 +26,6 @@ async function capture(
   );
 }
 
-/** Counts the SQL statements both database handles run while `fn` runs. */
-async function countQueries(fn: () => Promise<unknown>): Promise<number> {
-  let n = 0;
-  const pool = demo.t.db.pool as unknown as { query: (...a: unknown[]) => unknown };
-  const original = pool.query;
-  pool.query = function (this: unknown, ...a: unknown[]) {
-    n++;
-    return original.apply(this, a);
-  };
-  const options = (demo.t.db.sequelize as unknown as { options: { logging?: unknown } }).options;
-  const logging = options.logging;
-  options.logging = () => {
-    n++;
-  };
-  try {
-    await fn();
-  } finally {
-    pool.query = original;
-    options.logging = logging;
-  }
-  return n;
-}
-
 describe('the overlay of several captures', () => {
   it('returns each capture’s curve with its DUT and checkpoint, in the order asked', async () => {
     const a = await capture(demo.ids.crystal, demo.ids.checkpoints[0], 1);
@@ -98,13 +75,13 @@ describe('the overlay of several captures', () => {
     // Warm the session lookup so both runs pay the same fixed cost.
     await request(demo.t.app).get(`/api/captures/stability?ids=${list[0]}`).set(token);
     for (const kind of ['oadev', 'hdev']) {
-      const two = await countQueries(() =>
+      const two = await demo.queriesOf(() =>
         request(demo.t.app)
           .get(`/api/captures/stability?ids=${list.slice(0, 2).join(',')}&kind=${kind}`)
           .set(token)
           .expect(200),
       );
-      const eight = await countQueries(() =>
+      const eight = await demo.queriesOf(() =>
         request(demo.t.app)
           .get(`/api/captures/stability?ids=${list.join(',')}&kind=${kind}`)
           .set(token)

@@ -38,6 +38,8 @@ export interface DemoApp {
   ): Promise<number>;
   /** Posts one batch as a binary body (READINGS_F64_TYPE): readings to encode, or bytes as made. */
   postBinary(id: number, body: ReadingIn[] | Uint8Array, role?: string): Promise<request.Response>;
+  /** How many SQL statements the app's raw pool and Sequelize send while `fn` runs. */
+  queriesOf(fn: () => Promise<unknown>): Promise<number>;
   /**
    * Stores readings seq 0…n−1 (t = seq, flags 0, value = the SQL expression `valueSql` of `s`)
    * straight into the table and sets the capture's counters, bypassing the ingest, as an import
@@ -112,6 +114,27 @@ export function useDemoApp(
       .set(await demo.auth(role))
       .set('content-type', READINGS_F64_TYPE)
       .send(Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength));
+  };
+  demo.queriesOf = async (fn) => {
+    let n = 0;
+    const pool = demo.t.db.pool as unknown as { query: (...a: unknown[]) => unknown };
+    const original = pool.query;
+    pool.query = function (this: unknown, ...a: unknown[]) {
+      n++;
+      return original.apply(this, a);
+    };
+    const options = (demo.t.db.sequelize as unknown as { options: { logging?: unknown } }).options;
+    const logging = options.logging;
+    options.logging = () => {
+      n++;
+    };
+    try {
+      await fn();
+    } finally {
+      pool.query = original;
+      options.logging = logging;
+    }
+    return n;
   };
   demo.storeStraight = async (id, n, valueSql) => {
     const pool = demo.t.db.pool;
