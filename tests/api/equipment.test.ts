@@ -353,15 +353,14 @@ describe('away for calibration, retired, back in service', () => {
     const capture = await request(demo.t.app)
       .post('/api/captures')
       .set(await auth('engineer'))
-      .send({
-        dutId: plan.duts[0].id,
-        checkpointId: plan.checkpoints[0].id,
-        quantity: 'frequency',
-        unit: 'Hz',
-        gateTime: 1,
-        instrumentId: id,
-        ambientC: 23,
-      });
+      .send(
+        demo.captureBody({
+          dutId: plan.duts[0].id,
+          checkpointId: plan.checkpoints[0].id,
+          instrumentId: id,
+          ambientC: 23,
+        }),
+      );
     expect(capture.status).toBe(409);
     expect(capture.body.error.code).toBe('equipment-retired');
 

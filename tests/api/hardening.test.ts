@@ -51,13 +51,7 @@ describe('bodies are read only after sign-in (item 3)', () => {
     const capture = await request(demo.t.app)
       .post('/api/captures')
       .set(await demo.auth('lead'))
-      .send({
-        dutId: study.duts[0].id,
-        checkpointId: study.checkpoints[0].id,
-        quantity: 'frequency',
-        unit: 'Hz',
-        gateTime: 1,
-      });
+      .send(demo.captureBody({ dutId: study.duts[0].id, checkpointId: study.checkpoints[0].id }));
     expect(capture.status).toBe(201);
     const readings = Array.from({ length: 20_000 }, (_, seq) => ({
       seq,

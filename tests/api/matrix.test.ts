@@ -66,22 +66,11 @@ describe('the study matrix', () => {
     // change against ±1 ppm can no longer be called "within". With the product terms of T0 and the
     // two unknown ambients (review8 F2: u ≈ 1.04 ppm by the review's Monte Carlo, U ≈ 2.1 ppm), a
     // 2.5 ppm change is inconclusive too (2.5 − 2.1 < 1), and a 4 ppm one exceeds (4 − 2.1 > 1).
-    const f0 = demo.ids.tuningFork.nominal;
-    const base = await finished(demo.ids.tuningFork.id, demo.ids.checkpoints[0], f0, 11, null);
-    const wash = await finished(
-      demo.ids.tuningFork.id,
-      demo.ids.checkpoints[1],
-      f0 + 0.1 * 1e-6 * f0,
-      12,
-      null,
-    );
-    const over = await finished(
-      demo.ids.tuningFork.id,
-      demo.ids.checkpoints[2],
-      f0 + 2.5 * 1e-6 * f0,
-      13,
-      null,
-    );
+    const { tuningFork, checkpoints } = demo.ids;
+    const f0 = tuningFork.nominal;
+    const base = await finished(tuningFork.id, checkpoints[0], f0, 11, null);
+    const wash = await finished(tuningFork.id, checkpoints[1], f0 + 0.1 * 1e-6 * f0, 12, null);
+    const over = await finished(tuningFork.id, checkpoints[2], f0 + 2.5 * 1e-6 * f0, 13, null);
     const a = await request(demo.t.app)
       .get(`/api/comparisons?before=${base}&after=${wash}`)
       .set(await auth('viewer'));
@@ -101,13 +90,7 @@ describe('the study matrix', () => {
       .set(await auth('viewer'));
     expect(b.body.verdict).toBe('inconclusive');
     expect(b.body.expandedUncertainty / f0 / 1e-6).toBeGreaterThan(2.0); // review8 F2: ≈ 2.1 ppm
-    const far = await finished(
-      demo.ids.tuningFork.id,
-      demo.ids.checkpoints[3],
-      f0 + 4 * 1e-6 * f0,
-      14,
-      null,
-    );
+    const far = await finished(tuningFork.id, checkpoints[3], f0 + 4 * 1e-6 * f0, 14, null);
     const c = await request(demo.t.app)
       .get(`/api/comparisons?before=${base}&after=${far}`)
       .set(await auth('viewer'));
