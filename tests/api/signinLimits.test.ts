@@ -1,20 +1,13 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { pino } from 'pino';
 import { createApp } from '../../server/app.js';
-import { createTestApp, TEST_JWT_SECRET, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { DEMO_DOMAIN, DEMO_PASSWORD } from '../../server/db/seed.js';
 import { parseTrustProxy } from '../../server/config.js';
 
 // Issue 10, item 8: sign-in limits count failures only, per address and per account, and honour
 // a configured proxy.
-let db: TestApp;
-beforeAll(async () => {
-  db = await createTestApp();
-});
-afterAll(async () => {
-  await db.close();
-});
+const demo = useDemoApp();
 
 /** An app of its own (its own in-memory counts) over the file's database. */
 function appWith(opts: {
@@ -22,14 +15,7 @@ function appWith(opts: {
   loginAccountLimit: number;
   trustProxy?: boolean;
 }) {
-  return {
-    app: createApp({
-      db: db.db,
-      jwtSecret: TEST_JWT_SECRET,
-      log: pino({ level: 'silent' }),
-      ...opts,
-    }),
-  };
+  return { app: demo.t.appWith(opts) };
 }
 
 const attempt = (
