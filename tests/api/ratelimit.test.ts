@@ -1,19 +1,14 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 
-let t: TestApp;
-beforeAll(async () => {
-  t = await createTestApp({ loginRateLimit: 3 });
-});
-afterAll(async () => {
-  await t.close();
-});
+// Sign-in limits count failures only, so the demo set-up's own sign-in leaves all three.
+const demo = useDemoApp({}, { loginRateLimit: 3 });
 
 describe('login rate limit', () => {
   it('answers 429 after too many attempts', async () => {
     const attempt = () =>
-      request(t.app)
+      request(demo.t.app)
         .post('/api/auth/login')
         .send({ email: 'lead@kestrelbay.example', password: 'wrong-password' });
     for (let i = 0; i < 3; i++) expect((await attempt()).status).toBe(401);
