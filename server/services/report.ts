@@ -174,6 +174,8 @@ export async function buildStudyReport(pool: pg.Pool, studyId: number, t?: Trans
       standardUncertainty: r.standardUncertainty,
       verifiedBy: r.verifiedBy,
       verifiedAt: r.verifiedAt,
+      calibrationDue: r.calibrationDue,
+      calibration: calibrationStatus(r),
     })),
     matrix,
     captures: captureRows,

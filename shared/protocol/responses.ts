@@ -286,6 +286,10 @@ export const StudyReport = z.object({
       standardUncertainty: true,
       verifiedBy: true,
       verifiedAt: true,
+    }).extend({
+      /** As the instruments' (absent in reports stored before they were added). */
+      calibrationDue: ReferenceRecord.shape.calibrationDue.optional(),
+      calibration: ReferenceRecord.shape.calibration.optional(),
     }),
   ),
   matrix: StudyMatrix,

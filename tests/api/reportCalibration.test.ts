@@ -24,7 +24,7 @@ function dayAfter(at: string, days: number): string {
     .slice(0, 10);
 }
 
-describe('the calibration of the instruments in the study report', () => {
+describe('the calibration of the equipment in the study report', () => {
   it('carries due soon, overdue, away and valid with the days left, as the Lab page reads them', async () => {
     const admin = await as(t, 'admin');
     const eng = await as(t, 'engineer');
@@ -47,6 +47,29 @@ describe('the calibration of the instruments in the study report', () => {
       expect(cp.status).toBe(201);
       checkpoints.push(cp.body.id);
     }
+    // A reference three days past the due date of its calibration record, used on the last capture.
+    const lead = await as(t, 'lead');
+    const reference = await request(t.app).post('/api/references').set(lead).send({
+      name: 'Bench OCXO overdue',
+      kind: 'ocxo',
+      nominalHz: 10e6,
+      fractionalOffset: 0,
+      standardUncertainty: 5e-10,
+    });
+    expect(reference.status).toBe(201);
+    const referenceId = reference.body.reference.id as number;
+    const record = await request(t.app)
+      .post(`/api/references/${referenceId}/calibrations`)
+      .set(lead)
+      .send({
+        calibratedOn: dayAfter(today, -368),
+        dueOn: dayAfter(today, -3),
+        certificate: 'CAL-OCXO-1',
+        issuedBy: 'Driftbench test calibration lab',
+        fractionalOffset: 1e-10,
+        standardUncertainty: 5e-10,
+      });
+    expect(record.status).toBe(201);
     const ids: number[] = [];
     for (const [n, p] of plans.entries()) {
       const made = await request(t.app)
@@ -62,14 +85,18 @@ describe('the calibration of the instruments in the study report', () => {
           .send({});
         expect(away.status).toBe(200);
       }
-      const c = await request(t.app).post('/api/captures').set(eng).send({
-        dutId: plan.dutId,
-        checkpointId: checkpoints[n],
-        quantity: 'frequency',
-        unit: 'Hz',
-        gateTime: 1,
-        instrumentId: made.body.instrument.id,
-      });
+      const c = await request(t.app)
+        .post('/api/captures')
+        .set(eng)
+        .send({
+          dutId: plan.dutId,
+          checkpointId: checkpoints[n],
+          quantity: 'frequency',
+          unit: 'Hz',
+          gateTime: 1,
+          instrumentId: made.body.instrument.id,
+          ...(n === plans.length - 1 ? { referenceId } : {}),
+        });
       expect(c.status).toBe(201);
       const readings = Array.from({ length: 20 }, (_, seq) => ({
         seq,
@@ -108,6 +135,12 @@ describe('the calibration of the instruments in the study report', () => {
     expect(byId.get(ids[3])).toMatchObject({
       calibrationState: 'valid',
       calibration: { state: 'valid', daysLeft: daysFrom(45), needsAttention: false },
+    });
+    expect(report.body.references).toHaveLength(1);
+    expect(report.body.references[0]).toMatchObject({
+      id: referenceId,
+      calibrationDue: dayAfter(today, -3),
+      calibration: { state: 'overdue', daysLeft: daysFrom(-3), needsAttention: true },
     });
   });
 });

@@ -6,13 +6,15 @@ import { RESULTS, apiAs, launchChromium, openPage, type Session } from '../helpe
 
 // The printed report's equipment tables in a real Chromium: an instrument whose calibration falls
 // due within 30 days says so in the calibration rule's words beside its due date (as the Lab page
-// does), and a reference's verification reads "date · how it was verified".
+// does), a reference's verification reads "date · how it was verified", and a reference shows its
+// calibration due date too.
 
 let server: Awaited<ReturnType<typeof startTestServer>>;
 let browser: Browser;
 let lead: Session;
 let dueOn: string;
 let verifiedBy: string;
+let referenceDue: string | null;
 
 describe('the equipment of the printed report', () => {
   beforeAll(async () => {
@@ -32,11 +34,11 @@ describe('the equipment of the printed report', () => {
       .toISOString()
       .slice(0, 10);
     await admin.call('PATCH', `/api/instruments/${counter.id}`, { calibrationDue: dueOn });
-    const reference = await admin.call<{ reference: { verifiedBy: string | null } }>(
-      'GET',
-      '/api/references/1',
-    );
+    const reference = await admin.call<{
+      reference: { verifiedBy: string | null; calibrationDue: string | null };
+    }>('GET', '/api/references/1');
     verifiedBy = reference.reference.verifiedBy ?? '';
+    referenceDue = reference.reference.calibrationDue;
     const study = await technician.call<{
       checkpoints: Array<{ id: number; order: number }>;
       duts: Array<{ id: number; label: string; nominal: number }>;
@@ -81,8 +83,11 @@ describe('the equipment of the printed report', () => {
     );
     expect(verifiedBy).not.toBe('');
     const referenceRow = section.locator('tr', { has: page.locator(`td >> text=${verifiedBy}`) });
-    const verified = (await referenceRow.locator('td').last().innerText()).trim();
+    const verified = (await referenceRow.locator('td').nth(4).innerText()).trim();
     expect(verified).toMatch(new RegExp(`^\\d{4}-\\d{2}-\\d{2} · ${verifiedBy}$`));
+    // The demo lab's reference is due in 355 days: its due date alone (no words while valid).
+    expect(referenceDue).not.toBeNull();
+    expect((await referenceRow.locator('td').last().innerText()).trim()).toBe(referenceDue);
     await section.screenshot({ path: path.join(RESULTS, 'report-equipment.png') });
     expect(errors).toEqual([]);
     await page.context().close();
