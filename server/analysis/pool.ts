@@ -20,9 +20,11 @@ interface Pending {
 /**
  * Which workers a job runs on. `analysis`: viewers' analyses, background work at a lower CPU
  * priority (nice 10). `finish`: one worker of its own at the server's priority for finishes and
- * aborts — a user waits for them with the capture locked, and at nice 10 on a loaded 2-core
- * machine the worker got a small share of a core (a 10 M finish took 30 s against 18 s on the
- * event loop); nor does a finish queue behind viewers' analyses.
+ * aborts — a user waits for them with the capture locked, and at nice 10 the worker gets a
+ * small share of a core whenever anything of the server's own session is busy (PostgreSQL, the
+ * event loop): measured with two busy processes in that session, a 1 M-reading finish took
+ * 28.5 s in a nice-10 worker against 4.0 s at nice 0 and 5.1 s on the event loop (medians of 3).
+ * Nor does a finish queue behind viewers' analyses.
  */
 type Lane = 'analysis' | 'finish';
 
