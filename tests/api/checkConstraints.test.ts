@@ -1,9 +1,9 @@
 // The database itself refuses a state, status, role or kind the product does not know, and
 // accepts every value the shared enums offer (a new enum value without a migration that widens
 // the column's CHECK constraint fails here). Raw SQL on purpose: no service or model in between.
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { beforeAll, describe, expect, it } from 'vitest';
 import type pg from 'pg';
-import { createTestApp, type TestApp } from '../helpers/app.js';
+import { useDemoApp } from '../helpers/demoApp.js';
 import { ROLES } from '../../shared/protocol/roles.js';
 import { DUT_KINDS, LIMIT_UNITS, STUDY_STATUSES } from '../../shared/protocol/api.js';
 import { ORIENTATIONS, QUANTITIES } from '../../shared/protocol/captures.js';
@@ -11,12 +11,11 @@ import { COUNTER_TYPES, REFERENCE_KINDS } from '../../shared/protocol/uncertaint
 import { ATTACHMENT_OWNERS, REVIEW_ACTIONS } from '../../shared/protocol/review.js';
 import { ReadingFlag } from '../../shared/protocol/reading.js';
 
-let t: TestApp;
+const demo = useDemoApp();
 
 beforeAll(async () => {
-  t = await createTestApp();
   // Rows in the tables the demo seed leaves empty, written raw so each column has a row to test.
-  const pool = t.db.pool;
+  const pool = demo.t.db.pool;
   const study = (await pool.query(`SELECT id FROM studies ORDER BY id LIMIT 1`)).rows[0]
     .id as number;
   await pool.query(
@@ -38,9 +37,6 @@ beforeAll(async () => {
      SELECT $1, 'study', $1, 'a.txt', 'text/plain', 1, repeat('0', 64), 'k', (SELECT min(id) FROM users)`,
     [study],
   );
-});
-afterAll(async () => {
-  await t?.close();
 });
 
 /** Runs `sql` on the first row of `table` inside a transaction that is always rolled back. */
@@ -88,7 +84,7 @@ const COLUMNS: Array<[string, string, readonly string[] | null]> = [
 
 describe('CHECK constraints on state, status, role and kind columns', () => {
   it.each(COLUMNS)('%s.%s refuses a value no enum offers', async (table, column) => {
-    const res = await tryOnFirstRow(t.db.pool, table, `${column} = $1`, ['bogus']);
+    const res = await tryOnFirstRow(demo.t.db.pool, table, `${column} = $1`, ['bogus']);
     expect(res.code).toBe('23514'); // check_violation (PostgreSQL error codes, appendix A)
   });
 
@@ -96,19 +92,19 @@ describe('CHECK constraints on state, status, role and kind columns', () => {
     '%s.%s accepts every value of its shared enum',
     async (table, column, values) => {
       for (const value of values!) {
-        const res = await tryOnFirstRow(t.db.pool, table, `${column} = $1`, [value]);
+        const res = await tryOnFirstRow(demo.t.db.pool, table, `${column} = $1`, [value]);
         expect(res, `${table}.${column} = '${value}'`).toEqual({ rows: 1 });
       }
     },
   );
 
   it('a stored link profile names a known link kind', async () => {
-    const bad = await tryOnFirstRow(t.db.pool, 'instruments', `link_profile = $1::jsonb`, [
+    const bad = await tryOnFirstRow(demo.t.db.pool, 'instruments', `link_profile = $1::jsonb`, [
       JSON.stringify({ kind: 'carrier-pigeon' }),
     ]);
     expect(bad.code).toBe('23514');
     for (const kind of ['serial', 'simulator']) {
-      const good = await tryOnFirstRow(t.db.pool, 'instruments', `link_profile = $1::jsonb`, [
+      const good = await tryOnFirstRow(demo.t.db.pool, 'instruments', `link_profile = $1::jsonb`, [
         JSON.stringify({ kind }),
       ]);
       expect(good).toEqual({ rows: 1 });
@@ -117,10 +113,12 @@ describe('CHECK constraints on state, status, role and kind columns', () => {
 
   it('a reading carries only the known flag bits', async () => {
     const all = Object.values(ReadingFlag).reduce((a, b) => a | b, 0);
-    expect((await tryOnFirstRow(t.db.pool, 'readings', 'flags = $1', [all])).rows).toBe(1);
-    expect((await tryOnFirstRow(t.db.pool, 'readings', 'flags = $1', [all + 1])).code).toBe(
+    expect((await tryOnFirstRow(demo.t.db.pool, 'readings', 'flags = $1', [all])).rows).toBe(1);
+    expect((await tryOnFirstRow(demo.t.db.pool, 'readings', 'flags = $1', [all + 1])).code).toBe(
       '23514',
     );
-    expect((await tryOnFirstRow(t.db.pool, 'readings', 'flags = $1', [-1])).code).toBe('23514');
+    expect((await tryOnFirstRow(demo.t.db.pool, 'readings', 'flags = $1', [-1])).code).toBe(
+      '23514',
+    );
   });
 });
