@@ -6,10 +6,10 @@ import os from 'node:os';
 import path from 'node:path';
 import type { Express } from 'express';
 import { FolderStore } from '../../server/services/storage.js';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { as, capture, plannedStudy } from '../helpers/review.js';
+import { useDemoApp } from '../helpers/demoApp.js';
+import { capture, plannedStudy } from '../helpers/review.js';
 
-let t: TestApp;
+const demo = useDemoApp();
 let app: Express;
 let small: Express;
 let root: string;
@@ -36,19 +36,17 @@ function filesUnder(dir: string): string[] {
 }
 
 beforeAll(async () => {
-  t = await createTestApp();
   root = mkdtempSync(path.join(os.tmpdir(), 'driftbench-attach-test-'));
   const store = new FolderStore(root);
-  app = t.appWith({ attachmentStore: store });
+  app = demo.t.appWith({ attachmentStore: store });
   // The same app with a 2 kB limit and CSV only: the limits are configuration.
-  small = t.appWith({
+  small = demo.t.appWith({
     attachmentStore: store,
     uploadPolicy: { maxBytes: 2048, types: ['text/csv'] },
   });
-  plan = await plannedStudy(t, 'Attachments study');
+  plan = await plannedStudy(demo.t, 'Attachments study');
 });
 afterAll(async () => {
-  await t.close();
   rmSync(root, { recursive: true, force: true });
 });
 
@@ -56,7 +54,7 @@ describe('attachments', () => {
   it('stores an upload on a study under the data folder with sha256, size, type and uploader', async () => {
     const res = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
-      .set(await as(t, 'technician'))
+      .set(await demo.auth('technician'))
       .attach('file', PNG, { filename: 'board-top.png', contentType: 'image/png' });
     expect(res.status).toBe(201);
     expect(res.body).toMatchObject({
@@ -73,20 +71,20 @@ describe('attachments', () => {
     expect(files.some((f) => statSync(f).size === PNG.length)).toBe(true);
     const audit = await request(app)
       .get(`/api/studies/${plan.studyId}/audit`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     const ev = audit.body.events.find((e: { action: string }) => e.action === 'attachment.upload');
     expect(ev.details.after).toMatchObject({ filename: 'board-top.png', size: PNG.length });
   });
 
   it('attaches to a checkpoint and to a capture, and lists them with the study', async () => {
-    const cap = await capture(t, plan);
+    const cap = await capture(demo.t, plan);
     const a = await request(app)
       .post(`/api/checkpoints/${plan.checkpointId}/attachments`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .attach('file', PDF, { filename: 'printout.pdf', contentType: 'application/pdf' });
     const b = await request(app)
       .post(`/api/captures/${cap}/attachments`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .attach('file', Buffer.from('seq,value\n0,1\n'), {
         filename: 'export.csv',
         contentType: 'text/csv',
@@ -94,7 +92,7 @@ describe('attachments', () => {
     expect([a.status, b.status]).toEqual([201, 201]);
     const list = await request(app)
       .get(`/api/studies/${plan.studyId}/attachments`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(list.body.attachments.map((x: { filename: string }) => x.filename)).toEqual([
       'export.csv',
       'printout.pdf',
@@ -102,13 +100,13 @@ describe('attachments', () => {
     ]);
     const onCapture = await request(app)
       .get(`/api/captures/${cap}/attachments`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(onCapture.body.attachments).toHaveLength(1);
     expect(
       (
         await request(app)
           .get('/api/captures/999999/attachments')
-          .set(await as(t, 'viewer'))
+          .set(await demo.auth('viewer'))
       ).status,
     ).toBe(404);
   });
@@ -117,12 +115,12 @@ describe('attachments', () => {
     const odd = 'rapport "final";\r\nX-Evil: 1 — Ω.csv';
     const up = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .attach('file', Buffer.from('a,b\n1,2\n'), { filename: odd, contentType: 'text/csv' });
     expect(up.status).toBe(201);
     const res = await request(app)
       .get(`/api/attachments/${up.body.id}`)
-      .set(await as(t, 'viewer'))
+      .set(await demo.auth('viewer'))
       .buffer(true);
     expect(res.status).toBe(200);
     expect(res.headers['x-evil']).toBeUndefined();
@@ -143,7 +141,7 @@ describe('attachments', () => {
     const before = filesUnder(root).length;
     const res = await request(small)
       .post(`/api/studies/${plan.studyId}/attachments`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .attach('file', Buffer.alloc(4096, 0x41), { filename: 'big.csv', contentType: 'text/csv' });
     expect(res.status).toBe(413);
     expect(res.body.error.code).toBe('too-large');
@@ -151,7 +149,7 @@ describe('attachments', () => {
   });
 
   it('refuses types outside the list, names that disagree with the type, and content that is not the type, with 415', async () => {
-    const eng = await as(t, 'engineer');
+    const eng = await demo.auth('engineer');
     const exe = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
       .set(eng)
@@ -191,12 +189,12 @@ describe('attachments', () => {
   it('refuses a request without a file with 400 and uploads by viewers with 403', async () => {
     const none = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .field('note', 'x');
     expect(none.status).toBe(400);
     const viewer = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
-      .set(await as(t, 'viewer'))
+      .set(await demo.auth('viewer'))
       .attach('file', PNG, { filename: 'v.png', contentType: 'image/png' });
     expect(viewer.status).toBe(403);
   });
@@ -204,45 +202,45 @@ describe('attachments', () => {
   it('lets the uploader or a lead delete, nobody else', async () => {
     const up = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
-      .set(await as(t, 'technician'))
+      .set(await demo.auth('technician'))
       .attach('file', PNG, { filename: 'mine.png', contentType: 'image/png' });
     for (const role of ['engineer', 'admin', 'viewer']) {
       const res = await request(app)
         .delete(`/api/attachments/${up.body.id}`)
-        .set(await as(t, role));
+        .set(await demo.auth(role));
       expect(res.status, role).toBe(403);
     }
     expect(
       (
         await request(app)
           .delete(`/api/attachments/${up.body.id}`)
-          .set(await as(t, 'technician'))
+          .set(await demo.auth('technician'))
       ).status,
     ).toBe(204);
     expect(
       (
         await request(app)
           .get(`/api/attachments/${up.body.id}`)
-          .set(await as(t, 'viewer'))
+          .set(await demo.auth('viewer'))
       ).status,
     ).toBe(404);
 
     const other = await request(app)
       .post(`/api/studies/${plan.studyId}/attachments`)
-      .set(await as(t, 'technician'))
+      .set(await demo.auth('technician'))
       .attach('file', PNG, { filename: 'theirs.png', contentType: 'image/png' });
     const before = filesUnder(root).length;
     expect(
       (
         await request(app)
           .delete(`/api/attachments/${other.body.id}`)
-          .set(await as(t, 'lead'))
+          .set(await demo.auth('lead'))
       ).status,
     ).toBe(204);
     expect(filesUnder(root).length).toBe(before - 1);
     const audit = await request(app)
       .get(`/api/studies/${plan.studyId}/audit`)
-      .set(await as(t, 'viewer'));
+      .set(await demo.auth('viewer'));
     expect(
       audit.body.events.filter((e: { action: string }) => e.action === 'attachment.delete'),
     ).toHaveLength(2);
