@@ -1,7 +1,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { createTestApp, type TestApp } from '../helpers/app.js';
-import { as, capture, plannedStudy } from '../helpers/review.js';
+import { useDemoApp } from '../helpers/demoApp.js';
+import { capture, plannedStudy } from '../helpers/review.js';
 import { DEMO_DOMAIN, DEMO_PASSWORD } from '../../server/db/seed.js';
 import {
   startLocalMail,
@@ -18,42 +18,40 @@ import {
 import { runSchedules } from '../../server/services/schedules.js';
 import { freePort } from '../../server/db/cluster.js';
 
-let t: TestApp;
+const demo = useDemoApp();
 let local: LocalMailService;
 let worker: MailWorker;
 
 beforeAll(async () => {
-  t = await createTestApp();
-  local = await startLocalMail(t.db.pool);
+  local = await startLocalMail(demo.t.db.pool);
   // Driven by the test: no timer, no nudges.
   worker = startMailWorker({ transport: transportFor(local.url), autoStart: false });
 });
 afterAll(async () => {
   await worker.stop();
   await local.close();
-  await t.close();
 });
 
 const received = async () =>
   (
-    await request(t.app)
+    await request(demo.t.app)
       .get('/api/outbox/received?limit=500')
-      .set(await as(t, 'admin'))
+      .set(await demo.auth('admin'))
   ).body.messages as Array<{ to: string; subject: string; text: string; from: string }>;
 const outbox = async (q = '') =>
   (
-    await request(t.app)
+    await request(demo.t.app)
       .get(`/api/outbox${q}`)
-      .set(await as(t, 'admin'))
+      .set(await demo.auth('admin'))
   ).body.messages as Array<Record<string, unknown>>;
 
 describe('e-mail through the local mail service', () => {
   it('mails the leads when a study is submitted, and the local service stores what it received', async () => {
-    const plan = await plannedStudy(t, 'Mailed study — ünïcode title');
-    await capture(t, plan);
-    await request(t.app)
+    const plan = await plannedStudy(demo.t, 'Mailed study — ünïcode title');
+    await capture(demo.t, plan);
+    await request(demo.t.app)
       .post(`/api/studies/${plan.studyId}/submit`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .send({ note: 'Ready when you are.' });
     const queued = await outbox();
     expect(queued[0]).toMatchObject({
@@ -75,9 +73,9 @@ describe('e-mail through the local mail service', () => {
     expect(new Date(sent[0].sentAt as string).getTime()).not.toBeNaN();
 
     // Returned → the submitter hears it, with the comment.
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/studies/${plan.studyId}/return`)
-      .set(await as(t, 'lead'))
+      .set(await demo.auth('lead'))
       .send({ comment: 'Please add the bake checkpoint.' });
     await worker.deliverDue();
     const back = (await received())[0];
@@ -86,13 +84,13 @@ describe('e-mail through the local mail service', () => {
     expect(back.text).toContain('Please add the bake checkpoint.');
 
     // Approved → the submitter again.
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/studies/${plan.studyId}/submit`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .send({});
-    await request(t.app)
+    await request(demo.t.app)
       .post(`/api/studies/${plan.studyId}/approve`)
-      .set(await as(t, 'lead'))
+      .set(await demo.auth('lead'))
       .send({ password: DEMO_PASSWORD });
     await worker.deliverDue();
     const approved = (await received()).find((m) => m.subject.includes('was approved'));
@@ -105,11 +103,11 @@ describe('e-mail through the local mail service', () => {
       transport: transportFor(`smtp://127.0.0.1:${deadPort}`),
       autoStart: false,
     });
-    const plan = await plannedStudy(t, 'Mail outage study');
-    await capture(t, plan);
-    await request(t.app)
+    const plan = await plannedStudy(demo.t, 'Mail outage study');
+    await capture(demo.t, plan);
+    await request(demo.t.app)
       .post(`/api/studies/${plan.studyId}/submit`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .send({});
     const t0 = new Date();
     expect(await dead.deliverDue(t0)).toEqual({ sent: 0, failed: 1 });
@@ -143,11 +141,11 @@ describe('e-mail through the local mail service', () => {
       transport: transportFor(`smtp://127.0.0.1:${deadPort}`),
       autoStart: false,
     });
-    const plan = await plannedStudy(t, 'Mail never delivered');
-    await capture(t, plan);
-    await request(t.app)
+    const plan = await plannedStudy(demo.t, 'Mail never delivered');
+    await capture(demo.t, plan);
+    await request(demo.t.app)
       .post(`/api/studies/${plan.studyId}/submit`)
-      .set(await as(t, 'engineer'))
+      .set(await demo.auth('engineer'))
       .send({});
     let now = Date.now();
     for (let i = 0; i < MAX_ATTEMPTS; i++) {
@@ -157,20 +155,20 @@ describe('e-mail through the local mail service', () => {
     await dead.stop();
     const [failed] = await outbox('?status=failed');
     expect(failed).toMatchObject({ status: 'failed', attempts: MAX_ATTEMPTS });
-    const retry = await request(t.app)
+    const retry = await request(demo.t.app)
       .post(`/api/outbox/${failed.id}/retry`)
-      .set(await as(t, 'admin'));
+      .set(await demo.auth('admin'));
     expect(retry.status).toBe(202);
     expect(await worker.deliverDue()).toEqual({ sent: 1, failed: 0 });
   });
 
   it('mails admins about calibrations due within 30 days or overdue, once a day', async () => {
     const today = new Date('2031-05-10T06:00:00Z');
-    await t.db.pool.query(`UPDATE instruments SET calibration_due = NULL`);
-    await t.db.pool.query(
+    await demo.t.db.pool.query(`UPDATE instruments SET calibration_due = NULL`);
+    await demo.t.db.pool.query(
       `UPDATE instruments SET calibration_due = '2031-05-01' WHERE id = (SELECT min(id) FROM instruments)`,
     );
-    await t.db.pool.query(
+    await demo.t.db.pool.query(
       `UPDATE instruments SET calibration_due = '2031-06-01' WHERE id = (SELECT max(id) FROM instruments)`,
     );
     const first = await runSchedules(today);
@@ -193,18 +191,17 @@ describe('e-mail through the local mail service', () => {
   });
 
   it('mails the operator once when a capture stays open past its planned time', async () => {
-    const plan = await plannedStudy(t, 'Overdue capture study');
-    const c = await request(t.app)
+    const plan = await plannedStudy(demo.t, 'Overdue capture study');
+    const c = await request(demo.t.app)
       .post('/api/captures')
-      .set(await as(t, 'technician'))
-      .send({
-        dutId: plan.dutId,
-        checkpointId: plan.checkpointId,
-        quantity: 'frequency',
-        unit: 'Hz',
-        gateTime: 1,
-        plannedMinutes: 30,
-      });
+      .set(await demo.auth('technician'))
+      .send(
+        demo.captureBody({
+          dutId: plan.dutId,
+          checkpointId: plan.checkpointId,
+          plannedMinutes: 30,
+        }),
+      );
     expect(c.body.plannedMinutes).toBe(30);
     const started = new Date(c.body.startedAt).getTime();
     expect((await runSchedules(new Date(started + 29 * 60_000))).overdueCaptures).toBe(0);
@@ -221,16 +218,16 @@ describe('e-mail through the local mail service', () => {
     async (role) => {
       expect(
         (
-          await request(t.app)
+          await request(demo.t.app)
             .get('/api/outbox')
-            .set(await as(t, role))
+            .set(await demo.auth(role))
         ).status,
       ).toBe(403);
       expect(
         (
-          await request(t.app)
+          await request(demo.t.app)
             .get('/api/outbox/received')
-            .set(await as(t, role))
+            .set(await demo.auth(role))
         ).status,
       ).toBe(403);
     },
