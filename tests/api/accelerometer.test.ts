@@ -1,6 +1,6 @@
 import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { seeded } from '../helpers/demo.js';
+import { gaussReadings } from '../helpers/demo.js';
 import { useDemoApp } from '../helpers/demoApp.js';
 
 /**
@@ -33,12 +33,13 @@ async function accelCapture(
   seed: number,
   shiftMg = 0,
 ): Promise<Made> {
-  const rnd = seeded(seed);
-  const values = Array.from(
-    { length: 200 },
-    () => ideal(orientation, shiftMg) + PART.noiseMg * rnd.gauss(),
+  const readings = gaussReadings(
+    200,
+    seed,
+    (g) => ideal(orientation, shiftMg) + PART.noiseMg * g,
+    0.1,
   );
-  const readings = values.map((value, i) => ({ seq: i, t: i * 0.1, value }));
+  const values = readings.map((r) => r.value);
   const id = await demo.recordCapture(readings, demo.accelBody(checkpointId, orientation));
   return { id, values };
 }

@@ -4,7 +4,7 @@
 import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
 import { useDemoApp } from '../helpers/demoApp.js';
-import { seeded } from '../helpers/demo.js';
+import { gaussReadings } from '../helpers/demo.js';
 
 const demo = useDemoApp();
 const { auth, queriesOf } = demo;
@@ -50,12 +50,7 @@ async function studyWith(
   let seed = duts * 100;
   for (const dutId of dutIds) {
     for (const checkpointId of checkpointIds) {
-      const rnd = seeded(seed++);
-      const readings = Array.from({ length: 40 }, (_, i) => ({
-        seq: i,
-        t: i,
-        value: NOMINAL + 1e-3 * rnd.gauss(),
-      }));
+      const readings = gaussReadings(40, seed++, (g) => NOMINAL + 1e-3 * g);
       await demo.recordCapture(readings, {
         dutId,
         checkpointId,

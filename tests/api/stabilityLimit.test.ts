@@ -1,6 +1,6 @@
 import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { seeded } from '../helpers/demo.js';
+import { gaussReadings } from '../helpers/demo.js';
 import { useDemoApp } from '../helpers/demoApp.js';
 
 /**
@@ -17,12 +17,7 @@ const N = 2000;
 
 async function crystalCapture(checkpointId: number, seed: number): Promise<number> {
   const f0 = demo.ids.crystal.nominal;
-  const rnd = seeded(seed);
-  const readings = Array.from({ length: N }, (_, i) => ({
-    seq: i,
-    t: i,
-    value: f0 * (1 + SIGMA_1S * rnd.gauss()),
-  }));
+  const readings = gaussReadings(N, seed, (g) => f0 * (1 + SIGMA_1S * g));
   // The demo crystal, frequency in Hz at a 1 s gate (recordCapture's defaults).
   return demo.recordCapture(readings, { checkpointId, referenceId: 1, ambientC: 23 });
 }

@@ -1,6 +1,6 @@
 import { beforeAll, describe, expect, it } from 'vitest';
 import request from 'supertest';
-import { seeded } from '../helpers/demo.js';
+import { gaussReadings } from '../helpers/demo.js';
 import { useDemoApp } from '../helpers/demoApp.js';
 import { linkPreset } from '../../shared/protocol/linkProfile.js';
 import { SPI_AXIS_QUERY } from '../../shared/protocol/accelerometer.js';
@@ -35,12 +35,7 @@ async function capture(
   seed: number,
 ): Promise<number> {
   const linkProfile = { ...linkPreset('spi-bridge'), queryCommand: SPI_AXIS_QUERY[axis] };
-  const rnd = seeded(seed);
-  const readings = Array.from({ length: 200 }, (_, i) => ({
-    seq: i,
-    t: i * 0.1,
-    value: reading(axis, orientation) + NOISE_MG * rnd.gauss(),
-  }));
+  const readings = gaussReadings(200, seed, (g) => reading(axis, orientation) + NOISE_MG * g, 0.1);
   return demo.recordCapture(readings, {
     ...demo.accelBody(checkpointId, orientation),
     linkProfile,

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import request from 'supertest';
 import Papa from 'papaparse';
-import { seeded } from '../helpers/demo.js';
+import { gaussReadings } from '../helpers/demo.js';
 import { useDemoApp } from '../helpers/demoApp.js';
 
 const demo = useDemoApp();
@@ -13,12 +13,7 @@ async function capture(
   seed: number,
   opts: { n?: number; finish?: boolean; referenceId?: number } = {},
 ) {
-  const rnd = seeded(seed);
-  const readings = Array.from({ length: opts.n ?? 256 }, (_, i) => ({
-    seq: i,
-    t: i,
-    value: dut.nominal * (1 + 1e-9 * rnd.gauss()),
-  }));
+  const readings = gaussReadings(opts.n ?? 256, seed, (g) => dut.nominal * (1 + 1e-9 * g));
   return demo.recordCapture(
     readings,
     { dutId: dut.id, checkpointId, ambientC: 23.5, referenceId: opts.referenceId ?? 1 },

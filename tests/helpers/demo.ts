@@ -29,6 +29,15 @@ export const accelerationBody = (dutId: number, checkpointId: number, orientatio
   ambientC: 23,
 });
 
+/**
+ * Readings seq 0…n−1 at t = seq·dt, each value `value(g)` of the next Gaussian draw g of
+ * `seeded(seed)` (test data: a nominal plus scaled noise).
+ */
+export function gaussReadings(n: number, seed: number, value: (g: number) => number, dt = 1) {
+  const rnd = seeded(seed);
+  return Array.from({ length: n }, (_, i) => ({ seq: i, t: i * dt, value: value(rnd.gauss()) }));
+}
+
 /** A deterministic pseudo-random generator (mulberry32) with Gaussian draws, for test data. */
 export function seeded(seed: number) {
   let a = seed >>> 0;
