@@ -8,6 +8,7 @@ import type { CaptureSummary } from './captureAnalysis.js';
 import { checkSeal } from './seal.js';
 import { reviewHistory } from './reviewHistory.js';
 import { calibrationStatus } from './calibration.js';
+import { publicInstrument } from './instruments.js';
 
 /** The decision rule every verdict of the report follows, stated once in the report. */
 export const DECISION_RULE =
@@ -21,6 +22,27 @@ export const DECISION_RULE =
   'limit\'s τ with its 95 % interval is "within" when the upper end of the interval is at or below the limit, ' +
   '"exceeds" when its lower end is above the limit, and "inconclusive" otherwise (also when the capture is ' +
   'too short for τ).';
+
+/**
+ * What a printed record leaves out of an instrument as the API shows it: its notes, link profile,
+ * counter settings and standing (away, retired) — the calibration state already says the standing.
+ */
+const NOT_IN_RECORD = [
+  'notes',
+  'linkProfile',
+  'counterType',
+  'counterResolution',
+  'awaySince',
+  'retiredAt',
+  'retiredReason',
+] as const;
+
+/** `o` without `keys`. */
+function withoutKeys<T extends object, K extends keyof T>(o: T, keys: readonly K[]): Omit<T, K> {
+  const rest: Partial<T> = { ...o };
+  for (const k of keys) delete rest[k];
+  return rest as Omit<T, K>;
+}
 
 /**
  * Everything the printable report shows, read from the same services the study and capture pages
@@ -152,20 +174,7 @@ export async function buildStudyReport(pool: pg.Pool, studyId: number, t?: Trans
     },
     checkpoints: checkpoints.map((c) => c.toPublic()),
     duts: duts.map((d) => d.toPublic()),
-    instruments: instruments.map((i) => {
-      const calibration = calibrationStatus(i);
-      return {
-        id: i.id,
-        name: i.name,
-        kind: i.kind,
-        maker: i.maker,
-        model: i.model,
-        serial: i.serial,
-        calibrationDue: i.calibrationDue,
-        calibrationState: calibration.state,
-        calibration,
-      };
-    }),
+    instruments: instruments.map((i) => withoutKeys(publicInstrument(i), NOT_IN_RECORD)),
     references: references.map((r) => ({
       id: r.id,
       name: r.name,

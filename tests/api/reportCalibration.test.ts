@@ -75,7 +75,12 @@ describe('the calibration of the equipment in the study report', () => {
       const made = await request(t.app)
         .post('/api/instruments')
         .set(admin)
-        .send({ name: p.name, kind: 'counter', calibrationDue: dayAfter(today, p.offset) });
+        .send({
+          name: p.name,
+          kind: 'counter',
+          calibrationDue: dayAfter(today, p.offset),
+          notes: 'Kept on the lab shelf, not for the record.',
+        });
       expect(made.status).toBe(201);
       ids.push(made.body.instrument.id);
       if (p.away) {
@@ -136,6 +141,20 @@ describe('the calibration of the equipment in the study report', () => {
       calibrationState: 'valid',
       calibration: { state: 'valid', daysLeft: daysFrom(45), needsAttention: false },
     });
+    // The record carries the instrument without the lab's notes, link profile or standing.
+    expect(Object.keys(byId.get(ids[0])!).sort()).toEqual(
+      [
+        'calibration',
+        'calibrationDue',
+        'calibrationState',
+        'id',
+        'kind',
+        'maker',
+        'model',
+        'name',
+        'serial',
+      ].sort(),
+    );
     expect(report.body.references).toHaveLength(1);
     expect(report.body.references[0]).toMatchObject({
       id: referenceId,
