@@ -1,11 +1,7 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { pino } from 'pino';
+import { describe, expect, it } from 'vitest';
 import WebSocket from 'ws';
-import { startServer, type RunningServer } from '../../server/index.js';
-import { createTestDatabase } from '../helpers/db.js';
+import { useDemoServer } from '../helpers/demoServer.js';
 import { rebuiltTiles } from '../helpers/tiles.js';
-import { TEST_JWT_SECRET } from '../helpers/app.js';
-import { DEMO_DOMAIN, DEMO_PASSWORD } from '../../server/db/seed.js';
 import { COPY_MIN_BATCH } from '../../server/services/ingest.js';
 import {
   GROUPS_IN_FLIGHT,
@@ -20,58 +16,10 @@ import type { ReadingIn } from '../../shared/protocol/captures.js';
 // commit, server/services/ingestGroup.ts). A real server on a real PostgreSQL, real HTTP requests
 // sent at once, a real WebSocket watcher. Every expected count below follows from the batches
 // sent (common practice, no source); tiles are compared with the ones finish rebuilds.
-let server: RunningServer;
-let drop: () => Promise<void>;
-const tokens = new Map<string, string>();
+const demo = useDemoServer({ demoStory: false, mail: false });
+const { token, api } = demo;
 
-beforeAll(async () => {
-  const db = await createTestDatabase();
-  drop = db.drop;
-  server = await startServer({
-    databaseUrl: db.url,
-    jwtSecret: TEST_JWT_SECRET,
-    demo: true,
-    demoStory: false,
-    mail: false,
-    log: pino({ level: 'silent' }),
-  });
-});
-afterAll(async () => {
-  await server.close();
-  await drop();
-});
-
-const pool = () => server.db.pool;
-
-async function token(role: string): Promise<string> {
-  const hit = tokens.get(role);
-  if (hit) return hit;
-  const res = await fetch(`${server.url}/api/auth/login`, {
-    method: 'POST',
-    headers: { 'content-type': 'application/json' },
-    body: JSON.stringify({ email: `${role}@${DEMO_DOMAIN}`, password: DEMO_PASSWORD }),
-  });
-  const t = ((await res.json()) as { token: string }).token;
-  tokens.set(role, t);
-  return t;
-}
-
-async function api(
-  role: string,
-  method: string,
-  path: string,
-  body?: unknown,
-): Promise<{ status: number; body: any }> {
-  const res = await fetch(`${server.url}${path}`, {
-    method,
-    headers: {
-      'content-type': 'application/json',
-      authorization: `Bearer ${await token(role)}`,
-    },
-    body: body === undefined ? undefined : JSON.stringify(body),
-  });
-  return { status: res.status, body: await res.json() };
-}
+const pool = () => demo.server.db.pool;
 
 let place: { dutId: number; checkpointId: number } | undefined;
 async function newCapture(at?: { dutId: number; checkpointId: number }): Promise<number> {
@@ -187,7 +135,10 @@ function watcher(): Promise<{ ws: WebSocket; messages: ServerMessage[] }> {
   return token('viewer').then(
     (tk) =>
       new Promise((resolve, reject) => {
-        const ws = new WebSocket(`${server.url.replace('http', 'ws')}/ws`, socketProtocols(tk));
+        const ws = new WebSocket(
+          `${demo.server.url.replace('http', 'ws')}/ws`,
+          socketProtocols(tk),
+        );
         const messages: ServerMessage[] = [];
         ws.on('message', (data) => {
           const msg = JSON.parse(String(data)) as ServerMessage;
