@@ -1,43 +1,15 @@
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { pino } from 'pino';
+import { describe, expect, it } from 'vitest';
 import WebSocket from 'ws';
-import { startServer, type RunningServer } from '../../server/index.js';
-import { createTestDatabase } from '../helpers/db.js';
-import { TEST_JWT_SECRET } from '../helpers/app.js';
+import { useDemoServer } from '../helpers/demoServer.js';
 import { ServerMessage } from '../../shared/protocol/live.js';
 import { socketProtocols, WS_PROTOCOL } from '../../shared/protocol/socketAuth.js';
 import { SIM_MAX_FRAME } from '../../simulators/server.js';
 
-let server: RunningServer;
-let drop: () => Promise<void>;
-
-beforeAll(async () => {
-  const db = await createTestDatabase();
-  drop = db.drop;
-  server = await startServer({
-    databaseUrl: db.url,
-    jwtSecret: TEST_JWT_SECRET,
-    demo: true,
-    simulators: true,
-    log: pino({ level: 'silent' }),
-  });
-});
-afterAll(async () => {
-  await server.close();
-  await drop();
-});
-
-async function login(role: string): Promise<string> {
-  const res = await fetch(`${server.url}/api/auth/login`, {
-    method: 'POST',
-    headers: { 'content-type': 'application/json' },
-    body: JSON.stringify({ email: `${role}@kestrelbay.example`, password: 'driftbench-demo' }),
-  });
-  return ((await res.json()) as { token: string }).token;
-}
+const demo = useDemoServer({ simulators: true });
+const { login } = demo;
 
 function api(token: string, method: string, path: string, body?: unknown): Promise<any> {
-  return fetch(`${server.url}${path}`, {
+  return fetch(`${demo.server.url}${path}`, {
     method,
     headers: { 'content-type': 'application/json', authorization: `Bearer ${token}` },
     body: body === undefined ? undefined : JSON.stringify(body),
@@ -50,7 +22,7 @@ function connect(token: string): Promise<{
   next(type: string): Promise<ServerMessage>;
 }> {
   return new Promise((resolve, reject) => {
-    const ws = new WebSocket(`${server.url.replace('http', 'ws')}/ws`, socketProtocols(token));
+    const ws = new WebSocket(`${demo.server.url.replace('http', 'ws')}/ws`, socketProtocols(token));
     const messages: ServerMessage[] = [];
     const waiters: Array<{ type: string; resolve: (m: ServerMessage) => void }> = [];
     ws.on('message', (data) => {
@@ -115,7 +87,10 @@ describe('live watching', () => {
   });
 
   it('refuses a WebSocket without a valid token', async () => {
-    const ws = new WebSocket(`${server.url.replace('http', 'ws')}/ws`, socketProtocols('bogus'));
+    const ws = new WebSocket(
+      `${demo.server.url.replace('http', 'ws')}/ws`,
+      socketProtocols('bogus'),
+    );
     const status = await new Promise<number>((resolve) =>
       ws.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)),
     );
@@ -124,7 +99,7 @@ describe('live watching', () => {
 
   it('takes the token from the subprotocol header only: a token in the URL is refused, and the answer never echoes it', async () => {
     const token = await login('viewer');
-    const inUrl = new WebSocket(`${server.url.replace('http', 'ws')}/ws?token=${token}`);
+    const inUrl = new WebSocket(`${demo.server.url.replace('http', 'ws')}/ws?token=${token}`);
     const status = await new Promise<number>((resolve) =>
       inUrl.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)),
     );
@@ -138,23 +113,23 @@ describe('live watching', () => {
     const token = await login('engineer');
     const peer = await connect(token);
     const closed = new Promise<number>((resolve) => peer.ws.on('close', (code) => resolve(code)));
-    await fetch(`${server.url}/api/auth/logout`, {
+    await fetch(`${demo.server.url}/api/auth/logout`, {
       method: 'POST',
       headers: { authorization: `Bearer ${token}` },
     });
-    await server.hub.recheckSessions();
+    await demo.server.hub.recheckSessions();
     expect(await closed).toBe(4401);
   });
 
   it('opens the simulators only for a signed-in session, and ends a socket that sends an oversized frame', async () => {
-    const anonymous = new WebSocket(`${server.url.replace('http', 'ws')}/sim/counter`);
+    const anonymous = new WebSocket(`${demo.server.url.replace('http', 'ws')}/sim/counter`);
     const status = await new Promise<number>((resolve) =>
       anonymous.on('unexpected-response', (_req, res) => resolve(res.statusCode ?? 0)),
     );
     expect(status).toBe(401);
     const token = await login('technician');
     const sim = new WebSocket(
-      `${server.url.replace('http', 'ws')}/sim/counter?mode=talk`,
+      `${demo.server.url.replace('http', 'ws')}/sim/counter?mode=talk`,
       socketProtocols(token),
     );
     await new Promise((resolve, reject) => {
@@ -181,7 +156,7 @@ describe('live watching', () => {
     const closed = new Promise<void>((resolve) => peer.ws.on('close', () => resolve()));
     peer.ws.send('x'.repeat(100 * 1024));
     await closed;
-    const health = await fetch(`${server.url}/api/health`);
+    const health = await fetch(`${demo.server.url}/api/health`);
     expect(health.status).toBe(200);
   });
 
@@ -213,7 +188,7 @@ describe('live watching', () => {
     const id = users.find((u) => u.role === 'engineer')!.id;
     await api(admin, 'PATCH', `/api/users/${id}`, { active: false });
     const code = new Promise<number>((resolve) => peer.ws.on('close', (c) => resolve(c)));
-    await server.hub.recheckSessions();
+    await demo.server.hub.recheckSessions();
     expect(await code).toBe(4401);
     await api(admin, 'PATCH', `/api/users/${id}`, { active: true });
   });
