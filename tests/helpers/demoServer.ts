@@ -1,9 +1,7 @@
 import { afterAll, beforeAll } from 'vitest';
-import { pino } from 'pino';
-import { startServer, type RunningServer, type ServerOptions } from '../../server/index.js';
+import type { RunningServer, ServerOptions } from '../../server/index.js';
 import { DEMO_DOMAIN, DEMO_PASSWORD } from '../../server/db/seed.js';
-import { createTestDatabase } from './db.js';
-import { TEST_JWT_SECRET } from './app.js';
+import { startDemoServer } from './appServer.js';
 
 /** A listening server of one test file (for WebSocket tests), with sign-in and JSON calls. */
 export interface DemoServer {
@@ -28,22 +26,13 @@ export interface DemoServer {
  */
 export function useDemoServer(options: Partial<ServerOptions> = {}): DemoServer {
   const demo = {} as DemoServer;
-  let drop: (() => Promise<void>) | undefined;
+  let stop: (() => Promise<void>) | undefined;
   const tokens = new Map<string, string>();
   beforeAll(async () => {
-    const db = await createTestDatabase();
-    drop = db.drop;
-    demo.server = await startServer({
-      databaseUrl: db.url,
-      jwtSecret: TEST_JWT_SECRET,
-      demo: true,
-      log: pino({ level: 'silent' }),
-      ...options,
-    });
+    ({ server: demo.server, stop } = await startDemoServer(options));
   });
   afterAll(async () => {
-    await demo.server?.close();
-    await drop?.();
+    await stop?.();
   });
   demo.login = async (role) => {
     const res = await fetch(`${demo.server.url}/api/auth/login`, {
