@@ -242,39 +242,34 @@ async function finishOf(job: FinishJob): Promise<FinishResult> {
   };
 }
 
+/** Answers job `id` with what `work` resolves to, or with the error it fails with. */
+function reply(
+  id: number,
+  work: Promise<Omit<Extract<WorkerReply, { ok: true }>, 'id' | 'ok'>>,
+): void {
+  work.then(
+    (answer) => parentPort!.postMessage({ id, ok: true, ...answer } satisfies WorkerReply),
+    (err) =>
+      parentPort!.postMessage({ id, ok: false, error: asJobError(err) } satisfies WorkerReply),
+  );
+}
+
 parentPort!.on('message', (msg: WorkerRequest) => {
-  if ('finish' in msg) {
-    finishOf(msg.finish).then(
-      (finish) =>
-        parentPort!.postMessage({
-          id: msg.id,
-          ok: true,
-          json: '',
-          readingCount: finish.readingCount,
-          finish,
-        } satisfies WorkerReply),
-      (err) =>
-        parentPort!.postMessage({
-          id: msg.id,
-          ok: false,
-          error: asJobError(err),
-        } satisfies WorkerReply),
+  if ('finish' in msg)
+    reply(
+      msg.id,
+      finishOf(msg.finish).then((finish) => ({
+        json: '',
+        readingCount: finish.readingCount,
+        finish,
+      })),
     );
-    return;
-  }
-  analyse(msg.job).then(
-    ({ result, readingCount }) =>
-      parentPort!.postMessage({
-        id: msg.id,
-        ok: true,
+  else
+    reply(
+      msg.id,
+      analyse(msg.job).then(({ result, readingCount }) => ({
         json: JSON.stringify(result),
         readingCount,
-      } satisfies WorkerReply),
-    (err) =>
-      parentPort!.postMessage({
-        id: msg.id,
-        ok: false,
-        error: asJobError(err),
-      } satisfies WorkerReply),
-  );
+      })),
+    );
 });

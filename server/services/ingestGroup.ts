@@ -1,6 +1,7 @@
 import type pg from 'pg';
 import { float8Array, int2Array, int4Array } from '../db/binaryArrays.js';
 import { LOCKED_STATUSES } from './studyLock.js';
+import type { BatchColumns } from './ingestColumns.js';
 
 /**
  * Natural group commit of small readings batches (issue 15, live path).
@@ -38,17 +39,10 @@ export interface IngestRow {
 }
 
 /** One small batch of one capture, decoded and flagged, waiting to be written. */
-export interface SmallBatch {
+export interface SmallBatch extends BatchColumns {
   captureId: number;
   userId: number;
   mayWriteAny: boolean;
-  seqs: number[];
-  ts: number[];
-  values: number[];
-  flags: number[];
-  minSeq: number;
-  maxSeq: number;
-  increasing: boolean;
   /** Whether someone watches the capture: the statement then returns the seqs it stored. */
   watched: boolean;
 }

@@ -5,7 +5,7 @@ import { createApp } from '../../server/app.js';
 import { AnalysisPool } from '../../server/analysis/pool.js';
 import { TEST_JWT_SECRET } from '../helpers/app.js';
 import { useDemoApp } from '../helpers/demoApp.js';
-import { onePieceFinish } from '../helpers/finishReference.js';
+import { driftingCapture, onePieceFinish } from '../helpers/finishReference.js';
 import { loadSeries } from '../../server/services/readings.js';
 import { FINISH_IN_WORKER_MIN } from '../../server/services/finish.js';
 import { checkSeal, sealOf } from '../../server/services/seal.js';
@@ -18,15 +18,8 @@ const demo = useDemoApp({}, { analysis: { openFreshMs: 0 } });
 const pool = () => demo.t.db.pool;
 const analysis = () => demo.t.analysis!;
 
-async function captureWith(n: number): Promise<number> {
-  const id = await demo.newCapture('lead');
-  await demo.storeStraight(
-    id,
-    n,
-    '16e6 + s * 1e-7 + sin(s * 0.7) * 2e-4 + CASE WHEN s = 77 THEN 3 ELSE 0 END',
-  );
-  return id;
-}
+/** An open capture of `n` drifting, noisy readings with one far outlier (seq 77). */
+const captureWith = (n: number) => driftingCapture(demo, n, 77, 3);
 
 async function stored(id: number) {
   const row = await pool().query(

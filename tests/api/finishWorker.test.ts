@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import request from 'supertest';
 import { AnalysisPool } from '../../server/analysis/pool.js';
 import { useDemoApp } from '../helpers/demoApp.js';
-import { onePieceFinish } from '../helpers/finishReference.js';
+import { driftingCapture, onePieceFinish } from '../helpers/finishReference.js';
 import { loadSeries } from '../../server/services/readings.js';
 import { FINISH_IN_WORKER_MIN } from '../../server/services/finish.js';
 import { checkSeal, sealOf } from '../../server/services/seal.js';
@@ -16,17 +16,8 @@ const pool = () => demo.t.db.pool;
 const analysis = () => demo.t.analysis!;
 const finish = (id: number) => demo.call('lead', 'post', `/api/captures/${id}/finish`);
 
-/** An open capture holding `n` drifting, noisy readings with one far outlier. */
-async function captureWith(n: number): Promise<number> {
-  const id = await demo.newCapture('lead');
-  // Straight into the table (the ingest has tests of its own; here only the finish matters).
-  await demo.storeStraight(
-    id,
-    n,
-    '16e6 + s * 1e-7 + sin(s * 0.7) * 2e-4 + CASE WHEN s = 1234 THEN 5 ELSE 0 END',
-  );
-  return id;
-}
+/** An open capture of `n` drifting, noisy readings with one far outlier (seq 1234). */
+const captureWith = (n: number) => driftingCapture(demo, n, 1234, 5);
 
 /** The former one-piece computation on the rows as stored, for the capture as finished. */
 const oneByOne = (id: number) => onePieceFinish(pool(), id);

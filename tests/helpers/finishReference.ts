@@ -4,6 +4,7 @@ import { loadSeries } from '../../server/services/readings.js';
 import { prepare, reduce } from '../../server/services/captureAnalysis.js';
 import { sealOf } from '../../server/services/seal.js';
 import { implausibleNote } from '../../shared/protocol/plausibility.js';
+import type { DemoApp } from './demoApp.js';
 
 /**
  * What finishing the capture stores, computed the former way, in one piece on the event loop
@@ -20,4 +21,19 @@ export async function onePieceFinish(pool: pg.Pool, id: number) {
   const note = implausibleNote(series.flags);
   if (note) want.notes.push(note);
   return { summary: JSON.parse(JSON.stringify(want)), seal: sealOf(series) };
+}
+
+/**
+ * An open capture (opened by the lead) holding `n` drifting, noisy readings with one far outlier
+ * of `size` at seq `at`, stored straight into the table: the ingest has tests of its own, and
+ * the finish tests only need the rows.
+ */
+export async function driftingCapture(demo: DemoApp, n: number, at: number, size: number) {
+  const id = await demo.newCapture('lead');
+  await demo.storeStraight(
+    id,
+    n,
+    `16e6 + s * 1e-7 + sin(s * 0.7) * 2e-4 + CASE WHEN s = ${at} THEN ${size} ELSE 0 END`,
+  );
+  return id;
 }
